@@ -1,0 +1,24 @@
+import 'reflect-metadata';
+import { DEMO_PASSWORD } from '../config';
+import { closeDatabase, initDatabase } from './dataSource';
+import { seedAccounts } from './seeds/accounts';
+
+/** Seeds the invented demo scenario. Idempotent: a second run changes nothing. */
+export async function seedDemo(): Promise<void> {
+  await seedAccounts();
+}
+
+const isMain = process.argv[1] && import.meta.url.endsWith(process.argv[1].split('/').pop()!);
+if (isMain) {
+  initDatabase(true)
+    .then(() => seedDemo())
+    .then(async () => {
+      await closeDatabase();
+      console.log(`Demo data ready. Demo accounts: admin@, steward@, statistician@, chair@, clinician@demo.test — password: ${DEMO_PASSWORD}`);
+    })
+    .catch(async (err) => {
+      console.error('Seeding failed:', err);
+      await closeDatabase();
+      process.exit(1);
+    });
+}

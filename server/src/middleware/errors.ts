@@ -1,0 +1,78 @@
+import type { ErrorRequestHandler, RequestHandler } from 'express';
+import { ZodError } from 'zod';
+
+/** A known failure with an HTTP status and a message that is safe to show. */
+export class HttpError extends Error {
+  constructor(
+    public status: number,
+    message: string,
+    public details?: unknown,
+  ) {
+    super(message);
+  }
+}
+
+export const badRequest = (message: string, details?: unknown) => new HttpError(400, message, details);
+export const notFound = (what: string) => new HttpError(404, `${what} not found`);
+export const forbidden = (message = 'your role may not do this') => new HttpError(403, message);
+export const conflict = (message: string, details?: unknown) => new HttpError(409, message, details);
+
+export function zodMessage(err: ZodError): string {
+  return err.issues
+    .map((i) => (i.path.length ? `${i.path.join('.')}: ${i.message}` : i.message))
+    .join('; ');
+}
+
+/** PostgreSQL connection failures: the API answers 503 rather than 500. */
+function isDatabaseDown(err: unknown): boolean {
+  const e = err as { code?: string; message?: string } | undefined;
+  if (!e) return false;
+  if (e.code && ['ECONNREFUSED', 'ECONNRESET', '57P01', '57P03', '08006', '08001', '08003'].includes(e.code)) return true;
+  return /Connection terminated|connect ECONNREFUSED|timeout exceeded when trying to connect|Connection is not established/i.test(
+    e.message ?? '',
+  );
+}
+
+export const notFoundHandler: RequestHandler = (req, _res, next) => {
+  next(new HttpError(404, `no route ${req.method} ${req.path}`));
+};
+
+// One place turns every error into JSON; stack traces and SQL stay in the server log.
+export const errorHandler: ErrorRequestHandler = (err, req, res, _next) => {
+  if (res.headersSent) return;
+  if (err instanceof HttpError) {
+    res.status(err.status).json({ error: err.message, ...(err.details !== undefined ? { details: err.details } : {}) });
+    return;
+  }
+  if (err instanceof ZodError) {
+    res.status(400).json({ error: zodMessage(err) });
+    return;
+  }
+  const e = err as { type?: string; status?: number; code?: string; message?: string };
+  if (e?.type === 'entity.parse.failed') {
+    res.status(400).json({ error: 'request body is not valid JSON' });
+    return;
+  }
+  if (e?.type === 'entity.too.large') {
+    res.status(413).json({ error: 'request body is too large' });
+    return;
+  }
+  if (e?.type === 'charset.unsupported' || e?.type === 'encoding.unsupported') {
+    res.status(415).json({ error: 'unsupported body encoding' });
+    return;
+  }
+  if (typeof e?.status === 'number' && e.status >= 400 && e.status < 500) {
+    res.status(e.status).json({ error: 'bad request' });
+    return;
+  }
+  if (e?.code === 'P0001') {
+    res.status(409).json({ error: 'this record is immutable and cannot be changed' });
+    return;
+  }
+  if (isDatabaseDown(err)) {
+    res.status(503).json({ error: 'the database is unavailable; try again shortly' });
+    return;
+  }
+  console.error(`[error] ${req.method} ${req.path}:`, err);
+  res.status(500).json({ error: 'internal error' });
+};

@@ -1,0 +1,4 @@
+// Migrations are imported explicitly (globs of .ts files fail inside vitest). Append new ones in order.
+import { Foundation1764633600000 } from './1764633600000-Foundation';
+
+export const migrations = [Foundation1764633600000];

@@ -1,0 +1,99 @@
+import { createHash } from 'node:crypto';
+import type { EntityManager } from 'typeorm';
+import { dataSource } from '../db/dataSource';
+import { AuditEntry } from '../entities/AuditEntry';
+
+export interface AuditEvent {
+  actorId?: string | null;
+  actorEmail?: string | null;
+  action: string;
+  targetType?: string | null;
+  targetId?: string | null;
+  sourceIp?: string | null;
+  details?: Record<string, unknown>;
+}
+
+const GENESIS = '0'.repeat(64);
+const AUDIT_LOCK = 7_316_001; // advisory lock key: one writer extends the chain at a time
+
+/** Canonical JSON (sorted keys) so the hash does not depend on key order in jsonb. */
+export function canonical(value: unknown): string {
+  if (value === null || typeof value !== 'object') return JSON.stringify(value ?? null);
+  if (Array.isArray(value)) return `[${value.map(canonical).join(',')}]`;
+  const obj = value as Record<string, unknown>;
+  return `{${Object.keys(obj)
+    .sort()
+    .filter((k) => obj[k] !== undefined)
+    .map((k) => `${JSON.stringify(k)}:${canonical(obj[k])}`)
+    .join(',')}}`;
+}
+
+export function entryHash(prevHash: string, e: Omit<AuditEntry, 'seq' | 'hash' | 'prevHash'>): string {
+  const body = canonical({
+    at: e.at.toISOString(),
+    actorId: e.actorId,
+    actorEmail: e.actorEmail,
+    action: e.action,
+    targetType: e.targetType,
+    targetId: e.targetId,
+    sourceIp: e.sourceIp,
+    details: e.details,
+  });
+  return createHash('sha256').update(prevHash).update('\n').update(body).digest('hex');
+}
+
+/** Appends one entry to the hash-chained trail, inside the caller's transaction when given one. */
+export async function appendAudit(event: AuditEvent, manager?: EntityManager): Promise<void> {
+  const write = async (m: EntityManager) => {
+    await m.query('SELECT pg_advisory_xact_lock($1)', [AUDIT_LOCK]);
+    const last: { hash: string }[] = await m.query('SELECT hash FROM audit_log ORDER BY seq DESC LIMIT 1');
+    const prevHash = last[0]?.hash ?? GENESIS;
+    // Millisecond precision so the stored timestamp hashes the same when read back.
+    const entry = {
+      at: new Date(Math.floor(Date.now())),
+      actorId: event.actorId ?? null,
+      actorEmail: event.actorEmail ?? null,
+      action: event.action,
+      targetType: event.targetType ?? null,
+      targetId: event.targetId ?? null,
+      sourceIp: event.sourceIp ?? null,
+      details: event.details ?? {},
+    };
+    const hash = entryHash(prevHash, entry);
+    await m.insert(AuditEntry, { ...entry, prevHash, hash });
+  };
+  if (manager) await write(manager);
+  else await dataSource.transaction(write);
+}
+
+export interface ChainReport {
+  ok: boolean;
+  entries: number;
+  firstBrokenSeq: string | null;
+  reason: string | null;
+}
+
+/** Re-computes every hash in order; the first entry that does not match is reported. */
+export async function verifyAuditChain(): Promise<ChainReport> {
+  let prev = GENESIS;
+  let count = 0;
+  let after = '0';
+  for (;;) {
+    const rows = await dataSource
+      .getRepository(AuditEntry)
+      .createQueryBuilder('a')
+      .where('a.seq > :after', { after })
+      .orderBy('a.seq', 'ASC')
+      .limit(5000)
+      .getMany();
+    if (rows.length === 0) break;
+    for (const r of rows) {
+      count++;
+      if (r.prevHash !== prev) return { ok: false, entries: count, firstBrokenSeq: r.seq, reason: 'link to previous entry broken' };
+      if (entryHash(prev, r) !== r.hash) return { ok: false, entries: count, firstBrokenSeq: r.seq, reason: 'entry content does not match its hash' };
+      prev = r.hash;
+      after = r.seq;
+    }
+  }
+  return { ok: true, entries: count, firstBrokenSeq: null, reason: null };
+}
