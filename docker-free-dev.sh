@@ -2,6 +2,7 @@
 # Plumbline, without Docker.
 #   ./docker-free-dev.sh          install what is missing, start PostgreSQL on loopback, migrate, seed the demo, serve the app
 #   ./docker-free-dev.sh test     the same on a throwaway cluster, then the whole test suite
+#   ./docker-free-dev.sh db       only start the dev database (migrated, seeded) and leave it running; stop-db stops it
 # Settings: PORT (app, default 3000), PLUMBLINE_PGPORT (dev database, default 54329; the test cluster uses +1),
 #           SMTP_PORT (local fake mail server, default 2525).
 set -euo pipefail
@@ -112,6 +113,17 @@ case "$MODE" in
     PLUMBLINE_FAKE_SMTP=1 npx tsx server/src/index.ts &
     CHILD=$!
     wait "$CHILD"
+    ;;
+  db)
+    # Only the dev database, left running (for `npm run dev` / trying things): stop with `./docker-free-dev.sh stop-db`.
+    start_cluster pg "$DEV_PGPORT"
+    ensure_database plumbline
+    npx tsx server/src/db/seed.ts
+    log "PostgreSQL is up: PGHOST=127.0.0.1 PGPORT=$DEV_PGPORT PGDATABASE=plumbline PGUSER=postgres"
+    ;;
+  stop-db)
+    PGDATA_DIR="$DATA_ROOT/pg"
+    stop_cluster
     ;;
   test)
     export CI=${CI:-}

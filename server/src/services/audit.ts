@@ -74,12 +74,12 @@ export interface ChainReport {
 }
 
 /** Re-computes every hash in order; the first entry that does not match is reported. */
-export async function verifyAuditChain(): Promise<ChainReport> {
+export async function verifyAuditChain(manager: EntityManager = dataSource.manager): Promise<ChainReport> {
   let prev = GENESIS;
   let count = 0;
   let after = '0';
   for (;;) {
-    const rows = await dataSource
+    const rows = await manager
       .getRepository(AuditEntry)
       .createQueryBuilder('a')
       .where('a.seq > :after', { after })

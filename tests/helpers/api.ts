@@ -1,0 +1,46 @@
+// Shared helpers for API tests: one app, a real PostgreSQL, and demo-account tokens.
+import 'reflect-metadata';
+import request from 'supertest';
+import { afterAll, beforeAll } from 'vitest';
+import type { Role } from '@shared/roles';
+import { createApp } from '../../server/src/app';
+import { DEMO_PASSWORD } from '../../server/src/config';
+import { closeDatabase, dataSource, initDatabase } from '../../server/src/db/dataSource';
+
+export const app = createApp({ serveClient: false });
+export { dataSource, DEMO_PASSWORD };
+
+export const demoEmail = (role: Role) => `${role}@demo.test`;
+
+/** Opens the database for this test file and closes it afterwards. */
+export function useDatabase(): void {
+  beforeAll(async () => {
+    await initDatabase(false);
+  });
+  afterAll(async () => {
+    await closeDatabase();
+  });
+}
+
+const tokens = new Map<string, string>();
+
+export async function loginAs(email: string, password = DEMO_PASSWORD): Promise<string> {
+  const res = await request(app).post('/api/auth/login').send({ email, password });
+  if (res.status !== 200) throw new Error(`login as ${email} failed: ${res.status} ${JSON.stringify(res.body)}`);
+  return res.body.token as string;
+}
+
+/** A cached token for a demo role (sign-in costs a bcrypt comparison). */
+export async function tokenFor(role: Role): Promise<string> {
+  if (!tokens.has(role)) tokens.set(role, await loginAs(demoEmail(role)));
+  return tokens.get(role)!;
+}
+
+export const bearer = (token: string) => ({ Authorization: `Bearer ${token}` });
+
+export async function countRows(table: string): Promise<number> {
+  const rows: { n: string }[] = await dataSource.query(`SELECT count(*)::text AS n FROM ${table}`);
+  return Number(rows[0].n);
+}
+
+export const uniqueEmail = (prefix: string) => `${prefix}-${Date.now()}-${Math.floor(Math.random() * 1e6)}@example.test`;
