@@ -60,7 +60,7 @@ export async function appendAudit(event: AuditEvent, manager?: EntityManager): P
       details: event.details ?? {},
     };
     const hash = entryHash(prevHash, entry);
-    await m.insert(AuditEntry, { ...entry, prevHash, hash });
+    await m.insert(AuditEntry, { ...entry, prevHash, hash } as never);
   };
   if (manager) await write(manager);
   else await dataSource.transaction(write);

@@ -1,0 +1,27 @@
+import type { AuditRow } from '@shared/audit';
+import { http } from './http';
+
+export interface AuditFilter {
+  action?: string;
+  actor?: string;
+  targetType?: string;
+  limit?: number;
+  offset?: number;
+}
+
+export interface AuditPage {
+  total: number;
+  entries: AuditRow[];
+}
+
+export interface ChainReport {
+  ok: boolean;
+  entries: number;
+  firstBrokenSeq: string | null;
+  reason: string | null;
+}
+
+export const listAudit = (filter: AuditFilter, signal?: AbortSignal) =>
+  http.get<AuditPage>('/api/audit', { ...filter }, signal);
+
+export const verifyAuditChain = () => http.get<ChainReport>('/api/audit/verify');

@@ -1,0 +1,58 @@
+import { createRouter, createWebHistory } from 'vue-router';
+import type { Role } from '@shared/roles';
+import { useAuthStore } from '@/stores/auth';
+
+declare module 'vue-router' {
+  interface RouteMeta {
+    /** Reachable without signing in. */
+    public?: boolean;
+    /** Roles that may open the page; absent means every signed-in role. */
+    roles?: readonly Role[];
+    /** The browser tab title. */
+    title?: string;
+  }
+}
+
+export const router = createRouter({
+  history: createWebHistory(),
+  routes: [
+    { path: '/sign-in', name: 'sign-in', component: () => import('@/views/SignInView.vue'), meta: { public: true, title: 'Sign in' } },
+    { path: '/', name: 'home', component: () => import('@/views/HomeView.vue'), meta: { title: 'Overview' } },
+    { path: '/account', name: 'account', component: () => import('@/views/AccountView.vue'), meta: { title: 'My account' } },
+    {
+      path: '/admin/accounts',
+      name: 'admin-accounts',
+      component: () => import('@/views/AdminUsersView.vue'),
+      meta: { roles: ['admin'], title: 'Accounts' },
+    },
+    {
+      path: '/admin/audit',
+      name: 'admin-audit',
+      component: () => import('@/views/AdminAuditView.vue'),
+      meta: { roles: ['admin'], title: 'Audit trail' },
+    },
+    { path: '/forbidden', name: 'forbidden', component: () => import('@/views/ForbiddenView.vue'), meta: { title: 'Not allowed' } },
+    { path: '/:pathMatch(.*)*', name: 'not-found', component: () => import('@/views/NotFoundView.vue'), meta: { title: 'Page not found' } },
+  ],
+});
+
+router.beforeEach((to) => {
+  const auth = useAuthStore();
+  if (to.meta.public) {
+    // A signed-in user has no business on the sign-in form.
+    return to.name === 'sign-in' && auth.signedIn ? { name: 'home' } : true;
+  }
+  if (!auth.signedIn) {
+    if (auth.token) auth.logout('Your session has expired. Please sign in again.');
+    return { name: 'sign-in', query: to.fullPath === '/' ? {} : { redirect: to.fullPath } };
+  }
+  const roles = to.meta.roles;
+  if (roles && !roles.includes(auth.role!)) {
+    return { name: 'forbidden', query: { from: to.fullPath } };
+  }
+  return true;
+});
+
+router.afterEach((to) => {
+  document.title = to.meta.title ? `${to.meta.title} · Plumbline` : 'Plumbline';
+});
