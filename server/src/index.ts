@@ -2,7 +2,11 @@ import 'reflect-metadata';
 import { createApp } from './app';
 import { config } from './config';
 import { closeDatabase, initDatabase } from './db/dataSource';
-import { startBackgroundServices, stopBackgroundServices } from './services/background';
+import { registerBackground, startBackgroundServices, stopBackgroundServices } from './services/background';
+import { startFakeSmtp } from './services/fakeSmtp';
+
+// Development: a loopback mail server for the outbox page (docker-free-dev.sh sets PLUMBLINE_FAKE_SMTP=1).
+if (process.env.PLUMBLINE_FAKE_SMTP === '1') registerBackground(() => startFakeSmtp());
 
 async function main() {
   await initDatabase(true);

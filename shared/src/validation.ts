@@ -44,6 +44,12 @@ export interface ValidationSettings {
   calibrationGroups: number;
   bootstrapReplicates: number;
   bootstrapSeed: number;
+  /** How Hosmer–Lemeshow and grouped-calibration cut points are taken (default 'quantile-type2'). */
+  hosmerLemeshowRule?: 'quantile-type2' | 'quantile-type7';
+  /** Loess is evaluated directly at every distinct p up to this n (default 5000), on a grid above it. */
+  loessExactMaxN?: number;
+  /** Grid points for the loess curve on large cohorts and for plotting (default 100). */
+  loessGridSize?: number;
 }
 
 export interface ValidationResult {
@@ -77,6 +83,13 @@ export interface ValidationResult {
   netBenefit: NetBenefitRow[];
   thresholds: ThresholdRow[];
   riskHistogram: { edges: number[]; events: number[]; nonEvents: number[] };
-  bootstrap?: { replicates: number; seed: number; intervals: Record<string, Estimate> };
+  bootstrap?: {
+    replicates: number;
+    seed: number;
+    intervals: Record<string, Estimate>;
+    /** replicates in which a metric could not be computed (e.g. a resample without events), left out of its interval. */
+    failed?: Record<string, number>;
+    method?: string;
+  };
   warnings: string[];
 }

@@ -37,6 +37,7 @@ const plumblineLight: ThemeDefinition = {
     'font-body': '"Roboto", system-ui, "Segoe UI", sans-serif',
     'font-heading': '"Roboto", system-ui, "Segoe UI", sans-serif',
     'border-color': '#16414f',
+    'border-opacity': 0.16,
     'medium-emphasis-opacity': 0.72,
   },
 };
@@ -50,7 +51,7 @@ export const vuetify = createVuetify({
     VBtn: { style: 'text-transform: none; letter-spacing: 0;' },
     VTextField: { variant: 'outlined', density: 'comfortable' },
     VSelect: { variant: 'outlined', density: 'comfortable' },
-    VCard: { rounded: 'lg' },
+    VCard: { rounded: 'lg', border: true, elevation: 0 },
     VDataTable: { density: 'comfortable' },
     VDataTableServer: { density: 'comfortable' },
     VAlert: { variant: 'tonal' },

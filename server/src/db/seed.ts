@@ -2,10 +2,16 @@ import 'reflect-metadata';
 import { DEMO_PASSWORD } from '../config';
 import { closeDatabase, initDatabase } from './dataSource';
 import { seedAccounts } from './seeds/accounts';
+import { seedGovernance } from './seeds/governance';
+import { seedCohorts } from './seeds/cohorts';
 
 /** Seeds the invented demo scenario. Idempotent: a second run changes nothing. */
 export async function seedDemo(): Promise<void> {
   await seedAccounts();
+  // After the score seed (seedKestrelScore): the demo quarters need the Kestrel score version.
+  await seedCohorts();
+  // Reviews and signatures on the demo runs (seeds/governance.ts): keep this last, after the runs are seeded.
+  await seedGovernance();
 }
 
 const isMain = process.argv[1] && import.meta.url.endsWith(process.argv[1].split('/').pop()!);

@@ -3,9 +3,14 @@ import { AuditEntry } from './AuditEntry';
 import { Cohort } from './Cohort';
 import { CohortVersion } from './CohortVersion';
 import { ColumnMapping } from './ColumnMapping';
+import { EmailOutbox } from './EmailOutbox';
+import { RunComment } from './RunComment';
+import { RunReview } from './RunReview';
 import { Score } from './Score';
 import { ScoreVersion } from './ScoreVersion';
+import { Signature } from './Signature';
 import { User } from './User';
+import { ValidationRun } from './ValidationRun';
 
-export { AuditEntry, Cohort, CohortVersion, ColumnMapping, Score, ScoreVersion, User };
-export const entities = [User, AuditEntry, Score, ScoreVersion, Cohort, ColumnMapping, CohortVersion];
+export { AuditEntry, Cohort, CohortVersion, ColumnMapping, Score, ScoreVersion, User, ValidationRun, RunReview, Signature, RunComment, EmailOutbox };
+export const entities = [User, AuditEntry, Score, ScoreVersion, Cohort, ColumnMapping, CohortVersion, ValidationRun, RunReview, Signature, RunComment, EmailOutbox];

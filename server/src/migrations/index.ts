@@ -1,5 +1,8 @@
 // Migrations are imported explicitly (globs of .ts files fail inside vitest). Append new ones in order.
 import { Foundation1764633600000 } from './1764633600000-Foundation';
 import { Registry1764633700000 } from './1764633700000-Registry';
+import { Uploads1764633750000 } from './1764633750000-Uploads';
+import { Runs1764633800000 } from './1764633800000-Runs';
+import { Governance1764633850000 } from './1764633850000-Governance';
 
-export const migrations = [Foundation1764633600000, Registry1764633700000];
+export const migrations = [Foundation1764633600000, Registry1764633700000, Uploads1764633750000, Runs1764633800000, Governance1764633850000];

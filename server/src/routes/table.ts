@@ -3,14 +3,23 @@
 import { rateLimit } from 'express-rate-limit';
 import { auditQuery } from '@shared/audit';
 import { changePasswordRequest, createUserRequest, idParam, loginRequest, resetPasswordRequest, updateUserRequest } from '@shared/auth';
+import { commentRequest, reviewRequest, revokeRequest, signoffRequest, versionIdParam } from '@shared/governance';
+import { cohortListQuery, cohortRowsQuery, commitRequest, mappingListQuery, mappingRequest, pageQuery, saveMappingRequest, uuidParam, versionParams } from '@shared/cohorts';
 import { config } from '../config';
 import * as audit from './audit';
 import * as auth from './auth';
+import * as cohorts from './cohorts';
 import type { RouteDef } from './define';
+import * as governance from './governance';
 import * as health from './health';
 import * as users from './users';
 
 const ADMIN = ['admin'] as const;
+const COHORT_WRITERS = ['steward', 'statistician'] as const;
+const COHORT_READERS = ['steward', 'statistician', 'chair', 'admin'] as const;
+// Everyone but clinicians works on runs; clinicians read score cards only.
+const RUN_TEAM = ['admin', 'steward', 'statistician', 'chair'] as const;
+const CARD_READERS = ['clinician', 'statistician', 'chair', 'admin'] as const;
 
 // Per-IP limit on failed sign-ins; the per-account lock-out lives in services/users.ts.
 const loginLimiter = rateLimit({
@@ -36,4 +45,32 @@ export const routes: RouteDef[] = [
 
   { method: 'get', path: '/api/audit', access: ADMIN, summary: 'list and filter the audit trail', query: auditQuery, handler: audit.list },
   { method: 'get', path: '/api/audit/verify', access: ADMIN, summary: 'check the audit hash chain', handler: audit.verify },
+
+  { method: 'get', path: '/api/runs/:id/review', access: RUN_TEAM, summary: 'reviews, signature manifest and next allowed acts on a run', params: idParam, handler: governance.getReview },
+  { method: 'post', path: '/api/runs/:id/review', access: ['statistician'], summary: 'record or revise the review of a completed run', params: idParam, body: reviewRequest, handler: governance.postReview },
+  { method: 'post', path: '/api/runs/:id/signoff', access: ['chair'], summary: 'sign: approve for clinical use or return (password re-entered)', params: idParam, body: signoffRequest, handler: governance.signoff },
+  { method: 'post', path: '/api/score-versions/:id/revoke', access: ['chair'], summary: 'sign: revoke a clinical-use approval (password re-entered)', params: idParam, body: revokeRequest, handler: governance.revoke },
+  { method: 'get', path: '/api/runs/:id/comments', access: RUN_TEAM, summary: 'the discussion thread of a run', params: idParam, handler: governance.listComments },
+  { method: 'post', path: '/api/runs/:id/comments', access: RUN_TEAM, summary: 'add a comment to a run', params: idParam, body: commentRequest, handler: governance.addComment },
+  { method: 'get', path: '/api/signoff-queue', access: ['chair', 'admin'], summary: 'reviewed runs awaiting the committee decision', handler: governance.queue },
+  { method: 'get', path: '/api/scorecards', access: CARD_READERS, summary: 'score cards of approved score versions', handler: governance.scorecards },
+  { method: 'get', path: '/api/scorecards/:versionId', access: CARD_READERS, summary: 'the score card of one approved version', params: versionIdParam, handler: governance.scorecard },
+  { method: 'get', path: '/api/runs/:id/report', access: ['statistician', 'chair', 'admin'], summary: 'the validation report bundle of a run', params: idParam, handler: governance.report },
+  { method: 'get', path: '/api/dev/outbox', access: ADMIN, summary: 'development only: e-mails received by the local fake SMTP server', handler: governance.devOutbox },
+  // Cohorts: uploads are screened, mapped, checked, then stored in one transaction (services/uploads.ts).
+  { method: 'post', path: '/api/cohorts', access: COHORT_WRITERS, summary: 'upload a CSV (multipart, field "file"); screened for identifiers before anything is kept', before: [cohorts.receiveFile], handler: cohorts.createUpload },
+  { method: 'get', path: '/api/cohorts', access: COHORT_READERS, summary: 'list cohorts (paged, sorted, searched on the server)', query: cohortListQuery, handler: cohorts.listCohorts },
+  { method: 'get', path: '/api/cohorts/:id', access: COHORT_READERS, summary: 'a cohort with its versions', params: uuidParam, handler: cohorts.getCohort },
+  { method: 'get', path: '/api/cohorts/:id/versions/:version', access: COHORT_READERS, summary: 'one cohort version with its column summary', params: versionParams, handler: cohorts.getVersion },
+  { method: 'get', path: '/api/cohorts/:id/versions/:version/rows', access: COHORT_READERS, summary: 'rows of a cohort version (paged, sorted, searched)', params: versionParams, query: cohortRowsQuery, handler: cohorts.listRows },
+  { method: 'get', path: '/api/upload-score-versions', access: COHORT_WRITERS, summary: 'score versions a cohort can be uploaded against', handler: cohorts.scoreVersionChoices },
+  { method: 'get', path: '/api/uploads', access: COHORT_WRITERS, summary: 'my unfinished uploads', handler: cohorts.listUploads },
+  { method: 'get', path: '/api/uploads/:id', access: COHORT_WRITERS, summary: 'an upload: status, progress, screening warnings, check results', params: uuidParam, handler: cohorts.getUpload },
+  { method: 'post', path: '/api/uploads/:id/mapping', access: COHORT_WRITERS, summary: 'map file columns and start the row checks', params: uuidParam, body: mappingRequest, handler: cohorts.postMapping },
+  { method: 'get', path: '/api/uploads/:id/rejections', access: COHORT_WRITERS, summary: 'rejected rows (paged)', params: uuidParam, query: pageQuery, handler: cohorts.listRejections },
+  { method: 'get', path: '/api/uploads/:id/rejections.csv', access: COHORT_WRITERS, summary: 'rejected rows as CSV (formula-looking cells neutralised)', params: uuidParam, handler: cohorts.rejectionsCsv },
+  { method: 'post', path: '/api/uploads/:id/commit', access: COHORT_WRITERS, summary: 'store the accepted rows as a new cohort version (one transaction, COPY)', params: uuidParam, body: commitRequest, handler: cohorts.commit },
+  { method: 'post', path: '/api/uploads/:id/discard', access: COHORT_WRITERS, summary: 'discard an upload and its temp file', params: uuidParam, handler: cohorts.discard },
+  { method: 'get', path: '/api/mappings', access: COHORT_WRITERS, summary: 'saved column mappings', query: mappingListQuery, handler: cohorts.listMappings },
+  { method: 'post', path: '/api/mappings', access: COHORT_WRITERS, summary: 'save a column mapping for reuse', body: saveMappingRequest, handler: cohorts.saveMapping },
 ];

@@ -1,0 +1,63 @@
+// Stored cohorts and their versions (read side).
+import type { ColumnMappingSpec, ColumnSummary } from '@shared/cohorts';
+import { http } from './http';
+
+export interface CohortListItem {
+  id: string;
+  name: string;
+  description: string;
+  createdAt: string;
+  versions: number;
+  latestVersion: number | null;
+  latestLabel: string | null;
+  latestRows: number | null;
+  latestEvents: number | null;
+  latestAt: string | null;
+}
+
+export interface CohortVersionInfo {
+  id: string;
+  cohortId: string;
+  version: number;
+  label: string;
+  periodStart: string | null;
+  periodEnd: string | null;
+  sourceFilename: string;
+  sourceSha256: string;
+  sourceBytes: number;
+  rowCount: number;
+  events: number;
+  excludedCount: number;
+  exclusions: { reason: string; count: number }[];
+  mapping: ColumnMappingSpec & { scoreVersionId: string };
+  uploadedByName: string | null;
+  createdAt: string;
+  columnSummary?: Record<string, ColumnSummary>;
+}
+
+export interface CohortRow {
+  lineNo: number;
+  outcome: number;
+  eventDate: string | null;
+  predictors: Record<string, number | string>;
+  subgroups: Record<string, string>;
+}
+
+export interface Paging {
+  page: number;
+  pageSize: number;
+  search?: string;
+  sortBy?: string;
+  sortDir?: 'asc' | 'desc';
+}
+
+export const listCohorts = (q: Paging) => http.get<{ cohorts: CohortListItem[]; total: number }>('/api/cohorts', { ...q });
+
+export const getCohort = (id: string) =>
+  http.get<{ cohort: { id: string; name: string; description: string; createdAt: string }; versions: CohortVersionInfo[] }>(`/api/cohorts/${encodeURIComponent(id)}`);
+
+export const getCohortVersion = async (id: string, version: number) =>
+  (await http.get<{ version: CohortVersionInfo }>(`/api/cohorts/${encodeURIComponent(id)}/versions/${version}`)).version;
+
+export const listCohortRows = (id: string, version: number, q: Paging) =>
+  http.get<{ rows: CohortRow[]; total: number; predictorKeys: string[]; subgroupKeys: string[] }>(`/api/cohorts/${encodeURIComponent(id)}/versions/${version}/rows`, { ...q });

@@ -1,0 +1,58 @@
+// chart.js pieces the run charts use, registered once, and a small plugin that draws vertical CI bars.
+import { BarElement, CategoryScale, Chart, Filler, Legend, LinearScale, LineElement, PointElement, Tooltip, type Plugin } from 'chart.js';
+
+Chart.register(LinearScale, CategoryScale, PointElement, LineElement, BarElement, Tooltip, Legend, Filler);
+
+/** A point with a 95% interval: the plugin draws a bar from yMin to yMax with small caps. */
+export interface IntervalPoint {
+  x: number;
+  y: number;
+  yMin: number;
+  yMax: number;
+}
+
+/** Draws the intervals of every dataset whose `errorBars` option is true (chart.js has no built-in error bars). */
+export const errorBarsPlugin: Plugin = {
+  id: 'plumblineErrorBars',
+  afterDatasetsDraw(chart) {
+    const { ctx } = chart;
+    const y = chart.scales.y;
+    const x = chart.scales.x;
+    chart.data.datasets.forEach((ds, i) => {
+      if (!(ds as { errorBars?: boolean }).errorBars || !chart.isDatasetVisible(i)) return;
+      ctx.save();
+      ctx.strokeStyle = (ds.borderColor as string) ?? '#333';
+      ctx.lineWidth = 1.5;
+      for (const raw of ds.data as unknown as IntervalPoint[]) {
+        if (!raw || !Number.isFinite(raw.yMin) || !Number.isFinite(raw.yMax)) continue;
+        const px = x.getPixelForValue(raw.x);
+        const top = y.getPixelForValue(raw.yMax);
+        const bottom = y.getPixelForValue(raw.yMin);
+        ctx.beginPath();
+        ctx.moveTo(px, top);
+        ctx.lineTo(px, bottom);
+        ctx.moveTo(px - 4, top);
+        ctx.lineTo(px + 4, top);
+        ctx.moveTo(px - 4, bottom);
+        ctx.lineTo(px + 4, bottom);
+        ctx.stroke();
+      }
+      ctx.restore();
+    });
+  },
+};
+
+/** The chart as a PNG data URL, from a vue-chartjs component ref. */
+export function chartImage(component: unknown): string | undefined {
+  const chart = (component as { chart?: { toBase64Image(type?: string): string } } | null)?.chart;
+  return chart?.toBase64Image('image/png');
+}
+
+export const CHART_COLOURS = {
+  model: '#1f5f8b',
+  loess: '#b5542d',
+  reference: '#8a8a8a',
+  treatAll: '#6b8e23',
+  events: '#b5542d',
+  nonEvents: '#1f5f8b',
+};

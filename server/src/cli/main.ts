@@ -1,0 +1,142 @@
+// Plumbline command line: validate a cohort CSV with the same engine the server uses.
+//   validate --csv FILE --outcome COL (--prediction COL | --model MODEL.json) [--thresholds 0.05,0.1] [--format json|table]
+import { readFileSync } from 'node:fs';
+import { scoreModelSchema, type ScoreModel } from '@shared/model';
+import type { Estimate, FitResult, ValidationResult } from '@shared/validation';
+import { EngineInputError, validate } from '../stats/index';
+import { CsvInputError, readCohortCsv } from './readCohortCsv';
+
+const USAGE = 'usage: plumbline validate --csv FILE --outcome COL (--prediction COL | --model MODEL.json) [--thresholds 0.05,0.1,0.2,0.3,0.5] [--format json|table]';
+
+class UsageError extends Error {}
+
+function parseArgs(argv: string[]): Record<string, string> {
+  const out: Record<string, string> = {};
+  for (let i = 0; i < argv.length; i++) {
+    const a = argv[i];
+    if (!a.startsWith('--')) throw new UsageError(`unexpected argument ${a}`);
+    const v = argv[i + 1];
+    if (v === undefined || v.startsWith('--')) throw new UsageError(`${a} needs a value`);
+    out[a.slice(2)] = v;
+    i++;
+  }
+  return out;
+}
+
+const num = (v: number) => (Number.isFinite(v) ? v : null);
+const est = (e: Estimate) => ({ estimate: num(e.estimate), lower: num(e.lower), upper: num(e.upper) });
+const fit = (f: FitResult<Estimate>) => (f.converged ? est(f) : null);
+
+/** The CLI's JSON: exactly the keys the command documents, NaN as null. */
+export function toCliJson(r: ValidationResult) {
+  return {
+    n: r.n,
+    events: r.events,
+    auc: { ...est(r.auc), se: num(r.auc.se) },
+    logLoss: r.logLoss,
+    logLossTotal: r.logLossTotal,
+    brier: r.brier,
+    scaledBrier: r.scaledBrier,
+    calibrationIntercept: fit(r.calibrationIntercept),
+    calibrationSlope: fit(r.calibrationSlope),
+    oe: est(r.oe),
+    hosmerLemeshow: { statistic: num(r.hosmerLemeshow.statistic), df: r.hosmerLemeshow.df, pValue: num(r.hosmerLemeshow.pValue), groups: r.hosmerLemeshow.groups },
+    spiegelhalter: { z: num(r.spiegelhalter.z), pValue: num(r.spiegelhalter.pValue) },
+    ici: r.ici,
+    e50: r.e50,
+    e90: r.e90,
+    emax: r.emax,
+    netBenefit: r.netBenefit.map((b) => ({ threshold: b.threshold, model: b.model, treatAll: b.treatAll })),
+    thresholds: r.thresholds.map((t) => ({
+      threshold: t.threshold,
+      sensitivity: est(t.sensitivity),
+      specificity: est(t.specificity),
+      ppv: est(t.ppv),
+      npv: est(t.npv),
+      tp: t.tp,
+      fp: t.fp,
+      tn: t.tn,
+      fn: t.fn,
+    })),
+    warnings: r.warnings,
+  };
+}
+
+function f(v: number | null | undefined, digits = 4): string {
+  return v === null || v === undefined || !Number.isFinite(v) ? '—' : v.toFixed(digits);
+}
+const ci = (e: { estimate: number | null; lower: number | null; upper: number | null } | null, d = 4) => (e ? `${f(e.estimate, d)}  (${f(e.lower, d)} to ${f(e.upper, d)})` : 'not estimable');
+
+export function toTable(r: ValidationResult): string {
+  const j = toCliJson(r);
+  const rows: [string, string][] = [
+    ['Rows', String(j.n)],
+    ['Events', `${j.events} (${(100 * r.eventRate).toFixed(1)}%)`],
+    ['AUC (95% CI, DeLong)', ci(j.auc)],
+    ['Log loss (mean / total)', `${f(j.logLoss)} / ${f(j.logLossTotal, 2)}`],
+    ['Brier / scaled Brier', `${f(j.brier)} / ${f(j.scaledBrier)}`],
+    ['Calibration intercept', ci(j.calibrationIntercept)],
+    ['Calibration slope', ci(j.calibrationSlope)],
+    ['O/E', ci(j.oe)],
+    ['Hosmer–Lemeshow', `${f(j.hosmerLemeshow.statistic, 3)} on ${j.hosmerLemeshow.df} df, p = ${f(j.hosmerLemeshow.pValue)}`],
+    ['Spiegelhalter z', `${f(j.spiegelhalter.z, 3)}, p = ${f(j.spiegelhalter.pValue)}`],
+    ['ICI / E50 / E90 / Emax', [j.ici, j.e50, j.e90, j.emax].map((v) => f(v)).join(' / ')],
+  ];
+  const w = Math.max(...rows.map(([k]) => k.length));
+  const lines = rows.map(([k, v]) => `${k.padEnd(w)}  ${v}`);
+  lines.push('', 'Threshold  Sens    Spec    PPV     NPV       TP      FP      TN      FN   NB model  NB all');
+  j.thresholds.forEach((t, i) => {
+    const nb = j.netBenefit[i];
+    lines.push(
+      [t.threshold.toFixed(3).padEnd(9), f(t.sensitivity.estimate, 3).padStart(5), f(t.specificity.estimate, 3).padStart(7), f(t.ppv.estimate, 3).padStart(7), f(t.npv.estimate, 3).padStart(7),
+        String(t.tp).padStart(8), String(t.fp).padStart(7), String(t.tn).padStart(7), String(t.fn).padStart(7), f(nb.model).padStart(9), f(nb.treatAll).padStart(7)].join(' '),
+    );
+  });
+  if (j.warnings.length) lines.push('', 'Warnings:', ...j.warnings.map((x) => `- ${x}`));
+  return lines.join('\n');
+}
+
+async function run(argv: string[]): Promise<void> {
+  const [command, ...rest] = argv;
+  if (command !== 'validate') throw new UsageError(command ? `unknown command ${command}` : 'no command');
+  const args = parseArgs(rest);
+  for (const k of Object.keys(args)) if (!['csv', 'outcome', 'prediction', 'model', 'thresholds', 'format'].includes(k)) throw new UsageError(`unknown option --${k}`);
+  if (!args.csv || !args.outcome) throw new UsageError('--csv and --outcome are required');
+  if (!!args.prediction === !!args.model) throw new UsageError('give exactly one of --prediction and --model');
+  const format = args.format ?? 'json';
+  if (format !== 'json' && format !== 'table') throw new UsageError('--format is json or table');
+  const thresholds = args.thresholds ? args.thresholds.split(',').map(Number) : undefined;
+  if (thresholds?.some((t) => !(t > 0 && t < 1))) throw new UsageError('--thresholds are numbers strictly between 0 and 1, comma-separated');
+  let model: ScoreModel | undefined;
+  if (args.model) {
+    let raw: unknown;
+    try {
+      raw = JSON.parse(readFileSync(args.model, 'utf8'));
+    } catch (e) {
+      throw new CsvInputError(args.model, null, null, `cannot read the model JSON (${(e as Error).message})`);
+    }
+    const parsed = scoreModelSchema.safeParse(raw);
+    if (!parsed.success) throw new CsvInputError(args.model, null, null, `not a valid model: ${parsed.error.issues.map((i) => `${i.path.join('.') || '(root)'} ${i.message}`).join('; ')}`);
+    model = parsed.data;
+  }
+  const { p, y } = await readCohortCsv(args.csv, { outcome: args.outcome, prediction: args.prediction, model });
+  let result: ValidationResult;
+  try {
+    result = validate(p, y, thresholds ? { thresholds } : {});
+  } catch (e) {
+    if (e instanceof EngineInputError) {
+      throw new CsvInputError(args.csv, e.row === null ? null : e.row + 1, e.field === 'outcome' ? args.outcome : e.field === 'prediction' ? (args.prediction ?? 'model') : null, e.message.replace(/^row \d+: /, ''));
+    }
+    throw e;
+  }
+  process.stdout.write(format === 'json' ? `${JSON.stringify(toCliJson(result), null, 2)}\n` : `${toTable(result)}\n`);
+}
+
+run(process.argv.slice(2)).catch((e: unknown) => {
+  if (e instanceof UsageError) {
+    process.stderr.write(`plumbline: ${e.message}\n${USAGE}\n`);
+    process.exit(2);
+  }
+  process.stderr.write(`plumbline: ${e instanceof Error ? e.message : String(e)}\n`);
+  process.exit(1);
+});

@@ -1,0 +1,120 @@
+// Reading an uploaded CSV from disk: encoding and delimiter checks, header and sample, streamed records.
+import { createReadStream } from 'node:fs';
+import { open, stat } from 'node:fs/promises';
+import { parse, type Parser } from 'csv-parse';
+import { HttpError } from '../middleware/errors';
+
+export type Delimiter = ',' | ';';
+
+const unprocessable = (message: string) => new HttpError(422, message);
+
+/** Checks the first bytes: not empty, UTF-8 text without NUL bytes, comma or semicolon separated. */
+export async function sniffCsv(path: string): Promise<{ delimiter: Delimiter; bytes: number }> {
+  const { size } = await stat(path);
+  if (size === 0) throw unprocessable('the file is empty');
+  const fh = await open(path, 'r');
+  const buf = Buffer.alloc(Math.min(size, 64 * 1024));
+  try {
+    await fh.read(buf, 0, buf.length, 0);
+  } finally {
+    await fh.close();
+  }
+  if (buf.includes(0)) throw new HttpError(415, 'the file is not text: it contains NUL bytes (is it a spreadsheet or a compressed file? export it as CSV, UTF-8)');
+  // Cut at the last newline so a multi-byte character split by the 64 kB window is not blamed.
+  const cut = buf.length < size ? buf.lastIndexOf(0x0a) : buf.length;
+  let text: string;
+  try {
+    text = new TextDecoder('utf-8', { fatal: true }).decode(buf.subarray(0, cut > 0 ? cut : buf.length));
+  } catch {
+    throw new HttpError(415, 'the file is not valid UTF-8 text; export it as CSV with UTF-8 encoding');
+  }
+  text = text.replace(/^\uFEFF/, '');
+  if (text.trim() === '') throw unprocessable('the file is empty');
+  const controls = (text.match(/[\u0001-\u0008\u000e-\u001f]/g) ?? []).length;
+  if (controls > 0) throw new HttpError(415, 'the file contains binary control characters; it does not look like a CSV');
+  const header = firstRecordLine(text);
+  const commas = countOutsideQuotes(header, ',');
+  const semis = countOutsideQuotes(header, ';');
+  if (commas === 0 && semis === 0) {
+    const tabs = countOutsideQuotes(header, '\t');
+    throw unprocessable(
+      tabs > 0
+        ? 'the header is separated by tabs; Plumbline reads comma- or semicolon-separated files'
+        : 'the header has a single column: no comma or semicolon found; Plumbline reads comma- or semicolon-separated files',
+    );
+  }
+  return { delimiter: semis > commas ? ';' : ',', bytes: size };
+}
+
+function firstRecordLine(text: string): string {
+  let inQuotes = false;
+  for (let i = 0; i < text.length; i++) {
+    const c = text[i];
+    if (c === '"') inQuotes = !inQuotes;
+    else if ((c === '\n' || c === '\r') && !inQuotes) return text.slice(0, i);
+  }
+  return text;
+}
+
+function countOutsideQuotes(line: string, ch: string): number {
+  let n = 0;
+  let inQuotes = false;
+  for (const c of line) {
+    if (c === '"') inQuotes = !inQuotes;
+    else if (c === ch && !inQuotes) n++;
+  }
+  return n;
+}
+
+/** A csv-parse stream over the file: BOM stripped, quoted fields, ragged rows kept for the row checks. */
+export function csvStream(path: string, delimiter: Delimiter, onBytes?: (bytesRead: number) => void): Parser {
+  const input = createReadStream(path, { highWaterMark: 1024 * 1024 });
+  if (onBytes) input.on('data', () => onBytes(input.bytesRead));
+  const parser = parse({
+    bom: true,
+    delimiter,
+    relax_column_count: true,
+    relax_quotes: true,
+    // Empty lines come through as [''] and line numbers are counted by the caller: csv-parse's info option halves throughput.
+    skip_empty_lines: false,
+  });
+  input.on('error', (err) => parser.destroy(err));
+  return input.pipe(parser);
+}
+
+/** Counts the physical lines a record spanned (quoted fields may hold line breaks). */
+export function extraLines(record: string[]): number {
+  let n = 0;
+  for (let i = 0; i < record.length; i++) {
+    const f = record[i];
+    if (f.length > 0 && f.indexOf('\n') !== -1) for (let j = 0; j < f.length; j++) if (f.charCodeAt(j) === 10) n++;
+  }
+  return n;
+}
+
+export const isEmptyRecord = (r: string[]) => r.length === 1 && r[0] === '';
+
+/** The header and the first rows, for the screen and the suggested mapping. */
+export async function readHeaderAndSample(path: string, delimiter: Delimiter, maxRows = 5000): Promise<{ headers: string[]; sample: string[][] }> {
+  const parser = csvStream(path, delimiter);
+  let headers: string[] | null = null;
+  const sample: string[][] = [];
+  try {
+    for await (const record of parser as AsyncIterable<string[]>) {
+      if (isEmptyRecord(record)) continue;
+      if (!headers) headers = record.map((h) => h.trim());
+      else sample.push(record);
+      if (sample.length >= maxRows) break;
+    }
+  } catch (err) {
+    throw unprocessable(`the file could not be read as CSV: ${(err as Error).message.split('\n')[0]}`);
+  } finally {
+    parser.destroy();
+  }
+  if (!headers) throw unprocessable('the file is empty');
+  if (headers.some((h) => h === '')) throw unprocessable(`the header has an empty column name (column ${headers.indexOf('') + 1})`);
+  const dup = headers.find((h, i) => headers!.indexOf(h) !== i);
+  if (dup !== undefined) throw unprocessable(`the header names column "${dup}" twice`);
+  if (sample.length === 0) throw unprocessable('the file has a header but no data rows');
+  return { headers, sample };
+}

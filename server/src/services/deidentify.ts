@@ -1,0 +1,204 @@
+// De-identification screen (pure): refuses columns whose header or contents look like one of HIPAA Safe Harbor's
+// 18 identifier categories, 45 CFR §164.514(b)(2). Rules are documented in docs-snippets/deidentification.md.
+import type { ScreenFinding } from '@shared/cohorts';
+
+export type { ScreenFinding };
+
+export interface ScreenResult {
+  refused: ScreenFinding[];
+  warnings: ScreenFinding[];
+}
+
+const norm = (h: string) => h.toLowerCase().replace(/[^a-z0-9]+/g, '_').replace(/^_|_$/g, '');
+
+// Header names, matched on the normalised name (lower case, runs of other characters → "_").
+const HEADER_RULES: { category: string; test: RegExp; reason: string }[] = [
+  { category: 'names', test: /(^|_)(first|last|given|family|middle|full|patient|maiden|mother_s|father_s|next_of_kin)_?name(s)?($|_)|^(name|surname|forename|initials|patient)$/, reason: 'the header names a person' },
+  { category: 'dates', test: /(^|_)(dob|birth|birthdate|birthday|date_of_birth|born|death_date|date_of_death|dod)($|_)/, reason: 'the header names a birth or death date' },
+  { category: 'telephone numbers', test: /(^|_)(phone|telephone|tel|mobile|cell|cellphone)($|_)/, reason: 'the header names a telephone number' },
+  { category: 'fax numbers', test: /(^|_)fax($|_)/, reason: 'the header names a fax number' },
+  { category: 'e-mail addresses', test: /(^|_)(e_?mail|email_address)($|_)/, reason: 'the header names an e-mail address' },
+  { category: 'social security numbers', test: /(^|_)(ssn|social_security|social_security_number|sin|national_insurance|ni_number|nhs_number|nhs_no)($|_)/, reason: 'the header names a national identity number' },
+  { category: 'medical record numbers', test: /(^|_)(mrn|medical_record|record_number|record_no|chart_number|chart_no|hospital_number|hospital_no|patient_id|patient_number|patientid|case_number|encounter_id|visit_id|admission_id)($|_)/, reason: 'the header names a medical record or patient number' },
+  { category: 'health plan beneficiary numbers', test: /(^|_)(health_plan|insurance|insurer_id|member_id|beneficiary|policy_number|policy_no|medicaid|medicare|payer_id|subscriber)($|_)/, reason: 'the header names a health plan or beneficiary number' },
+  { category: 'account numbers', test: /(^|_)(account|acct|account_number|billing_number|invoice_number|iban|bank)($|_)/, reason: 'the header names an account number' },
+  { category: 'certificate/licence numbers', test: /(^|_)(licen[cs]e|license_number|certificate|cert_number|passport|driver|drivers_licen[cs]e|dea|npi)($|_)/, reason: 'the header names a certificate or licence number' },
+  { category: 'vehicle identifiers', test: /(^|_)(vin|vehicle|licen[cs]e_plate|number_plate|plate_number|registration_plate)($|_)/, reason: 'the header names a vehicle identifier' },
+  { category: 'device identifiers', test: /(^|_)(device_id|device_serial|serial_number|serial_no|serial|imei|udi|mac_address|implant_id)($|_)/, reason: 'the header names a device identifier or serial number' },
+  { category: 'web URLs', test: /(^|_)(url|uri|website|web_address|homepage|link)($|_)/, reason: 'the header names a web address' },
+  { category: 'IP addresses', test: /(^|_)(ip|ip_address|ipaddress|ipv4|ipv6)($|_)/, reason: 'the header names an IP address' },
+  { category: 'biometric identifiers', test: /(^|_)(fingerprint|retina|iris_scan|voiceprint|voice_print|biometric)($|_)/, reason: 'the header names a biometric identifier' },
+  { category: 'full-face photographs', test: /(^|_)(photo|photograph|picture|image|face_image|portrait)($|_)/, reason: 'the header names a photograph' },
+  { category: 'geographic subdivision', test: /(^|_)(address|street|addr|city|town|village|county|postcode|post_code|postal|zip|zipcode|zip_code|latitude|longitude|lat|lon|lng|geo|geolocation|coordinates)($|_)/, reason: 'the header names a place smaller than a state' },
+  { category: 'unique identifying numbers', test: /(^|_)(ssid|person_id|personid|unique_id|uid|guid|uuid|identifier|national_id)($|_)/, reason: 'the header names a unique identifying code' },
+];
+
+// Contents, matched per value (trimmed). Order matters: the first rule that matches a value names it.
+const FULL_DATE = [
+  /^\d{4}[-/.]\d{1,2}[-/.]\d{1,2}([ T]\d{1,2}:\d{2}(:\d{2}(\.\d+)?)?(Z|[+-]\d{2}:?\d{2})?)?$/, // 2025-03-14, 2025/3/14, with a time
+  /^\d{1,2}[-/.]\d{1,2}[-/.]\d{2,4}$/, // 14/03/2025, 3-14-25
+  /^\d{1,2}[ -](jan|feb|mar|apr|may|jun|jul|aug|sep|sept|oct|nov|dec)[a-z]*[ -,]+\d{2,4}$/i, // 14 Mar 2025
+  /^(jan|feb|mar|apr|may|jun|jul|aug|sep|sept|oct|nov|dec)[a-z]* \d{1,2},? \d{4}$/i, // March 14, 2025
+  /^\d{8}T\d{4,6}$/, // 20250314T1030
+];
+const VALUE_RULES: { category: string; test: (v: string) => boolean; reason: string }[] = [
+  { category: 'e-mail addresses', test: (v) => /^[^\s@]+@[^\s@]+\.[a-z]{2,}$/i.test(v), reason: 'holds e-mail addresses' },
+  { category: 'web URLs', test: (v) => /^(https?:\/\/|ftp:\/\/|www\.)\S+$/i.test(v), reason: 'holds web addresses' },
+  { category: 'device identifiers', test: (v) => /^([0-9a-f]{2}[:-]){5}[0-9a-f]{2}$/i.test(v), reason: 'holds MAC (device) addresses' },
+  { category: 'IP addresses', test: (v) => isIpv4(v) || isIpv6(v), reason: 'holds IP addresses' },
+  { category: 'social security numbers', test: (v) => /^\d{3}-\d{2}-\d{4}$/.test(v), reason: 'holds values shaped like social security numbers (ddd-dd-dddd)' },
+  { category: 'dates', test: (v) => FULL_DATE.some((r) => r.test(v)), reason: 'holds full dates (day, month and year); Safe Harbor allows only the year' },
+  { category: 'geographic subdivision', test: (v) => /^\d{5}-\d{4}$/.test(v), reason: 'holds full ZIP+4 codes' },
+  { category: 'telephone numbers', test: (v) => isPhone(v), reason: 'holds telephone numbers' },
+  { category: 'vehicle identifiers', test: (v) => /^[A-HJ-NPR-Z0-9]{17}$/.test(v) && /\d/.test(v) && /[A-Z]/.test(v), reason: 'holds 17-character vehicle identification numbers' },
+  { category: 'geographic subdivision', test: (v) => /^[A-Z]{1,2}\d[A-Z\d]? ?\d[A-Z]{2}$/i.test(v) && /\d[A-Z]{2}$/i.test(v.replace(' ', '')), reason: 'holds full postcodes' },
+  {
+    category: 'geographic subdivision',
+    test: (v) => /^\d+[A-Za-z]?\s+(\S+\s+){0,4}(street|st|road|rd|avenue|ave|lane|ln|drive|dr|boulevard|blvd|way|court|ct|place|pl|terrace|close|crescent)\.?(\s|,|$)/i.test(v),
+    reason: 'holds street addresses',
+  },
+];
+
+function isIpv4(v: string): boolean {
+  const m = /^(\d{1,3})\.(\d{1,3})\.(\d{1,3})\.(\d{1,3})$/.exec(v);
+  return !!m && m.slice(1).every((p) => Number(p) <= 255);
+}
+
+function isIpv6(v: string): boolean {
+  // Full form (7 colons) or compressed with "::"; clock times like 10:30:00 have too few colons.
+  if (!/^[0-9a-f:]+$/i.test(v)) return false;
+  const colons = (v.match(/:/g) ?? []).length;
+  return (colons === 7 && /^([0-9a-f]{1,4}:){7}[0-9a-f]{1,4}$/i.test(v)) || (v.includes('::') && colons >= 2 && colons <= 7 && /[0-9a-f]/i.test(v));
+}
+
+function isPhone(v: string): boolean {
+  // Separated digit groups with 9–15 digits in all, e.g. (555) 201-3344, +44 20 7946 0958, 555.201.3344.
+  if (!/^\+?[\d()\s.-]+$/.test(v)) return false;
+  if (!/[\s().-]/.test(v.replace(/^\+/, ''))) return false;
+  const digits = v.replace(/\D/g, '').length;
+  if (digits < 9 || digits > 15) return false;
+  return /\d{2,4}[\s.)-]+\d{2,4}/.test(v) && !/^-?\d+\.\d+$/.test(v);
+}
+
+/** The value rule that matches one cell, if any (used on every cell during the full pass). */
+export function valueIdentifier(raw: string): { category: string; reason: string } | null {
+  const v = raw.trim();
+  if (v.length < 5 || v.length > 200) return null;
+  // Plain decimals and short integers are never identifiers on their own (counted by the code rule below).
+  if (/^-?\d{1,5}(\.\d+)?$/.test(v)) return null;
+  for (const r of VALUE_RULES) if (r.test(v)) return { category: r.category, reason: r.reason };
+  return null;
+}
+
+const isNumber = (v: string) => v !== '' && Number.isFinite(Number(v));
+export const isAgeHeader = (h: string) => /^(age|age_years|age_yrs|age_at_[a-z_]+|patient_age|years_of_age)$/.test(norm(h));
+const isZipHeader = (h: string) => /(^|_)(zip|zipcode|zip_code|postal|postcode|post_code)(3|_3|_prefix)?($|_)/.test(norm(h));
+
+/** Ages over 89 identify (Safe Harbor): a numeric age above 89 and up to 120 must be grouped as "90+". */
+export function ageOver89(raw: string): boolean {
+  const v = raw.trim();
+  if (!isNumber(v)) return false;
+  const n = Number(v);
+  return n > 89 && n <= 120;
+}
+
+function addOnce(list: ScreenFinding[], f: ScreenFinding) {
+  if (!list.some((x) => x.column === f.column && x.category === f.category)) list.push(f);
+}
+
+/**
+ * Screens headers and a sample of rows. A column is refused when its header matches an identifier name, when any
+ * sampled value matches an identifier pattern, or (codes) when it is a near-unique code. Warnings do not refuse.
+ */
+export function screenColumns(headers: string[], sample: string[][], options: { minRowsForCodes?: number } = {}): ScreenResult {
+  const refused: ScreenFinding[] = [];
+  const warnings: ScreenFinding[] = [];
+  const minRows = options.minRowsForCodes ?? 20;
+
+  headers.forEach((header, col) => {
+    const h = norm(header);
+    const values = sample.map((r) => (r[col] ?? '').trim()).filter((v) => v !== '');
+    const zipHeader = isZipHeader(header);
+
+    // A ZIP column holding only the first three digits is allowed (Safe Harbor permits it where the area is large).
+    if (zipHeader && values.length > 0 && values.every((v) => /^\d{3}$/.test(v))) {
+      addOnce(warnings, { column: header, category: 'geographic subdivision', reason: 'three-digit ZIP prefixes are allowed only where the area holds more than 20,000 people (000 otherwise); Plumbline cannot check this' });
+    } else if (zipHeader) {
+      addOnce(refused, { column: header, category: 'geographic subdivision', reason: 'the header names a ZIP or postal code; only the first three digits may be kept' });
+    } else for (const rule of HEADER_RULES) {
+      if (!rule.test.test(h)) continue;
+      // A birth column that holds only years is allowed (the year is the one date element Safe Harbor keeps).
+      if (rule.category === 'dates' && values.length > 0 && values.every((v) => /^\d{4}$/.test(v))) break;
+      addOnce(refused, { column: header, category: rule.category, reason: rule.reason });
+      break;
+    }
+
+    if (zipHeader && values.some((v) => /^\d{4,5}(-\d{4})?$/.test(v))) {
+      addOnce(refused, { column: header, category: 'geographic subdivision', reason: 'holds ZIP codes beyond the first three digits' });
+    }
+
+    for (const v of values) {
+      const hit = valueIdentifier(v);
+      if (hit) {
+        const category = hit.category === 'telephone numbers' && /(^|_)fax($|_)/.test(h) ? 'fax numbers' : hit.category;
+        addOnce(refused, { column: header, category, reason: `${hit.reason} (e.g. line ${lineOf(sample, col, v)})` });
+        break;
+      }
+    }
+
+    if (isAgeHeader(header)) {
+      const over = values.find(ageOver89);
+      if (over !== undefined) addOnce(refused, { column: header, category: 'ages over 89', reason: `holds ages over 89 (e.g. ${over}); group them as "90+"` });
+    }
+
+    // Names: mostly distinct "Firstname Lastname" values (units and sites repeat, so they pass).
+    const nameLike = values.filter((v) => /^[A-Z][a-z'’-]+,?( [A-Z]\.?)?( [A-Z][a-z'’-]+){1,2}$/.test(v));
+    if (values.length >= 5 && nameLike.length / values.length >= 0.5 && distinctRatio(nameLike) >= 0.5) {
+      addOnce(refused, { column: header, category: 'names', reason: 'holds values that look like personal names' });
+    }
+
+    // Codes: near-unique values made of digits (6+) or letters-and-digits, like record or account numbers.
+    if (values.length >= minRows) {
+      const codeLike = values.filter((v) => /^[A-Za-z]{0,4}[-_/]?\d{6,}[A-Za-z]?$/.test(v) || (/^(?=.*\d)(?=.*[A-Za-z])[A-Za-z0-9-]{6,}$/.test(v) && !/^\d{4}-(Q[1-4]|\d{2})$/i.test(v)));
+      if (codeLike.length / values.length >= 0.9 && distinctRatio(codeLike) >= 0.9) {
+        addOnce(refused, { column: header, category: 'unique identifying numbers', reason: 'holds near-unique codes (like record, account or serial numbers)' });
+      }
+    }
+
+    // Month or quarter periods are date elements too; they are kept only as the mapped event period (see the docs).
+    if (values.length > 0 && values.every((v) => /^\d{4}-(0[1-9]|1[0-2])$/.test(v) || /^\d{4}-?Q[1-4]$/i.test(v))) {
+      addOnce(warnings, { column: header, category: 'dates', reason: 'holds year-month or year-quarter periods; Plumbline stores them only if mapped as the event period, as the first day of that period' });
+    }
+
+    if (values.some(looksLikeFormula)) {
+      addOnce(warnings, { column: header, category: 'formula cells', reason: 'some cells start with =, +, -, @ and are not numbers; rows with such cells in mapped columns are rejected' });
+    }
+  });
+
+  const dup = headers.filter((h, i) => headers.indexOf(h) !== i);
+  for (const d of new Set(dup)) addOnce(warnings, { column: d, category: 'duplicate header', reason: 'the header appears more than once' });
+  return { refused, warnings };
+}
+
+function distinctRatio(values: string[]): number {
+  return values.length ? new Set(values).size / values.length : 0;
+}
+
+function lineOf(sample: string[][], col: number, value: string): number {
+  // Line 1 is the header.
+  return sample.findIndex((r) => (r[col] ?? '').trim() === value) + 2;
+}
+
+/** A spreadsheet would run it: starts with =, +, -, @ (or tab/CR) and is not a plain number. */
+export function looksLikeFormula(raw: string): boolean {
+  if (raw === '') return false;
+  const c = raw[0];
+  if (c === '\t' || c === '\r') return true;
+  if (c !== '=' && c !== '+' && c !== '-' && c !== '@') return false;
+  return !/^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/.test(raw.trim());
+}
+
+/** Prefix a formula-looking cell with an apostrophe so a spreadsheet shows it as text (OWASP CSV injection advice). */
+export function neutraliseCell(raw: string): string {
+  return looksLikeFormula(raw) ? `'${raw}` : raw;
+}

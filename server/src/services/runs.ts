@@ -1,0 +1,490 @@
+// Validation runs: creating them, the persisted job queue that computes them off the request path, reading,
+// reproducing and comparing them. A completed run is immutable (database trigger in migration 1764633800000-Runs).
+import type { EntityManager } from 'typeorm';
+import { runSettingsSchema, type CompareMetric, type ReproduceReport, type RunComparison, type RunDetail, type RunListQuery, type RunOptions, type RunResults, type RunSettings, type RunStatus, type RunSummary } from '@shared/runs';
+import { dataSource } from '../db/dataSource';
+import { ScoreVersion } from '../entities/ScoreVersion';
+import { CohortVersion } from '../entities/CohortVersion';
+import { ValidationRun } from '../entities/ValidationRun';
+import type { AuthUser } from '../middleware/auth';
+import { badRequest, conflict, notFound } from '../middleware/errors';
+import { appendAudit } from './audit';
+import { registerBackground } from './background';
+import { loadCohortData } from './cohortData';
+import { queueEmail, recipientsForRole } from './mail';
+import { asStored, computeRunResults, ENGINE_VERSION, inputsSha256, resultsSha256, RunInputError, type RunComputeInput, type RunScoreInput } from './runCompute';
+import { computeInThread, type RunningThread } from './runThread';
+
+/** A run left 'running' by a stopped process is queued again, up to this many attempts in all. */
+export const MAX_ATTEMPTS = 3;
+const PROGRESS_WRITE_MS = 250;
+
+// ---------------------------------------------------------------- create
+
+export interface CreateRunInput {
+  scoreVersionId: string;
+  cohortVersionId: string;
+  settings: RunSettings;
+}
+
+/** Keys present in the cohort's subgroups (and predictor columns), read from one stored row. */
+async function cohortColumns(m: EntityManager, cohortVersionId: string): Promise<{ subgroups: Set<string>; hasDates: boolean }> {
+  const rows: { subgroups: Record<string, unknown> | null; predictors: Record<string, unknown> | null }[] = await m.query(
+    'SELECT subgroups, predictors FROM cohort_rows WHERE cohort_version_id = $1 ORDER BY line_no LIMIT 1',
+    [cohortVersionId],
+  );
+  const dated: unknown[] = await m.query('SELECT 1 FROM cohort_rows WHERE cohort_version_id = $1 AND event_date IS NOT NULL LIMIT 1', [cohortVersionId]);
+  const keys = new Set<string>([...Object.keys(rows[0]?.subgroups ?? {}), ...Object.keys(rows[0]?.predictors ?? {})]);
+  return { subgroups: keys, hasDates: dated.length > 0 };
+}
+
+export async function createRun(actor: AuthUser, input: CreateRunInput, ip: string | null = null): Promise<RunDetail> {
+  const settings = runSettingsSchema.parse(input.settings);
+  const id = await dataSource.transaction(async (m) => {
+    const sv = await m.getRepository(ScoreVersion).findOne({ where: { id: input.scoreVersionId } });
+    if (!sv) throw notFound('score version');
+    const cv = await m.getRepository(CohortVersion).findOne({ where: { id: input.cohortVersionId } });
+    if (!cv) throw notFound('cohort version');
+    const cols = await cohortColumns(m, cv.id);
+    const missing = settings.subgroupColumns.filter((c) => !cols.subgroups.has(c));
+    if (missing.length) throw badRequest(`the cohort version has no column ${missing.map((c) => `"${c}"`).join(', ')} to group by`);
+    if (settings.timeGrouping !== 'none' && !cols.hasDates) throw badRequest('time grouping needs event dates, and this cohort version has none');
+
+    // The formula is frozen from the moment a run uses it (score_versions trigger keeps it so).
+    if (!sv.locked) {
+      await m.query('UPDATE score_versions SET locked = true WHERE id = $1 AND NOT locked', [sv.id]);
+      await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'score_version.locked', targetType: 'score_version', targetId: sv.id, sourceIp: ip, details: { reason: 'first validation run' } }, m);
+    }
+    const run = await m.getRepository(ValidationRun).save(
+      m.getRepository(ValidationRun).create({ scoreVersionId: sv.id, cohortVersionId: cv.id, settings, status: 'queued', progress: 0, progressMessage: 'waiting in the queue', createdBy: actor.id, attempt: 1 }),
+    );
+    await appendAudit(
+      { actorId: actor.id, actorEmail: actor.email, action: 'run.created', targetType: 'validation_run', targetId: run.id, sourceIp: ip, details: { scoreVersionId: sv.id, cohortVersionId: cv.id, settings } },
+      m,
+    );
+    return run.id;
+  });
+  wakeQueue();
+  return getRun(id);
+}
+
+// ---------------------------------------------------------------- read
+
+const SUMMARY_SELECT = `
+  SELECT r.id, r.status, r.progress, r.progress_message, r.error, r.engine_version, r.created_by, r.created_at, r.started_at,
+         r.finished_at, r.attempt, r.score_version_id, r.cohort_version_id,
+         sv.version AS score_version, s.id AS score_id, s.name AS score_name,
+         cv.version AS cohort_version, cv.label AS cohort_label, c.id AS cohort_id, c.name AS cohort_name,
+         u.name AS created_by_name,
+         CASE WHEN r.status = 'completed' THEN jsonb_build_object(
+           'n', r.results->'overall'->'n', 'events', r.results->'overall'->'events',
+           'auc', r.results->'overall'->'auc'->'estimate', 'oe', r.results->'overall'->'oe'->'estimate') END AS headline
+  FROM validation_runs r
+  JOIN score_versions sv ON sv.id = r.score_version_id
+  JOIN scores s ON s.id = sv.score_id
+  JOIN cohort_versions cv ON cv.id = r.cohort_version_id
+  JOIN cohorts c ON c.id = cv.cohort_id
+  LEFT JOIN users u ON u.id = r.created_by`;
+
+type SummaryRow = Record<string, unknown>;
+const iso = (v: unknown) => (v ? new Date(v as string).toISOString() : null);
+
+function toSummary(r: SummaryRow): RunSummary {
+  return {
+    id: r.id as string,
+    scoreId: r.score_id as string,
+    scoreName: r.score_name as string,
+    scoreVersionId: r.score_version_id as string,
+    scoreVersion: r.score_version as number,
+    cohortId: r.cohort_id as string,
+    cohortName: r.cohort_name as string,
+    cohortVersionId: r.cohort_version_id as string,
+    cohortVersion: r.cohort_version as number,
+    cohortLabel: (r.cohort_label as string) ?? '',
+    status: r.status as RunStatus,
+    progress: Number(r.progress),
+    progressMessage: (r.progress_message as string) ?? null,
+    error: (r.error as string) ?? null,
+    engineVersion: (r.engine_version as string) ?? null,
+    createdBy: (r.created_by as string) ?? null,
+    createdByName: (r.created_by_name as string) ?? null,
+    createdAt: iso(r.created_at)!,
+    startedAt: iso(r.started_at),
+    finishedAt: iso(r.finished_at),
+    attempt: r.attempt as number,
+    headline: (r.headline as RunSummary['headline']) ?? null,
+  };
+}
+
+export async function listRuns(q: RunListQuery): Promise<{ total: number; runs: RunSummary[] }> {
+  const where: string[] = [];
+  const args: unknown[] = [];
+  const add = (sql: string, v: unknown) => {
+    args.push(v);
+    where.push(sql.replace('?', `$${args.length}`));
+  };
+  if (q.score) add('s.id = ?', q.score);
+  if (q.scoreVersion) add('r.score_version_id = ?', q.scoreVersion);
+  if (q.cohortVersion) add('r.cohort_version_id = ?', q.cohortVersion);
+  if (q.status) add('r.status = ?', q.status);
+  const filter = where.length ? ` WHERE ${where.join(' AND ')}` : '';
+  const total: { n: string }[] = await dataSource.query(
+    `SELECT count(*)::text AS n FROM validation_runs r JOIN score_versions sv ON sv.id = r.score_version_id JOIN scores s ON s.id = sv.score_id${filter}`,
+    args,
+  );
+  const rows: SummaryRow[] = await dataSource.query(`${SUMMARY_SELECT}${filter} ORDER BY r.created_at DESC, r.id LIMIT ${q.limit} OFFSET ${q.offset}`, args);
+  return { total: Number(total[0].n), runs: rows.map(toSummary) };
+}
+
+export async function getRun(id: string, manager: EntityManager = dataSource.manager): Promise<RunDetail> {
+  const rows: SummaryRow[] = await manager.query(`${SUMMARY_SELECT} WHERE r.id = $1`, [id]);
+  if (!rows[0]) throw notFound('validation run');
+  const run = await manager.getRepository(ValidationRun).findOneOrFail({ where: { id } });
+  return { ...toSummary(rows[0]), settings: run.settings, results: run.results, inputsSha256: run.inputsSha256, resultsSha256: run.resultsSha256 };
+}
+
+/** Score versions and cohort versions a run may combine, for the start form. */
+export async function runOptions(): Promise<RunOptions> {
+  const svs: Record<string, unknown>[] = await dataSource.query(
+    `SELECT sv.id, sv.score_id, s.name AS score_name, sv.version, sv.mode, sv.model, sv.probability_column, sv.clinical_status
+     FROM score_versions sv JOIN scores s ON s.id = sv.score_id ORDER BY s.name, sv.version DESC`,
+  );
+  const cvs: Record<string, unknown>[] = await dataSource.query(
+    `SELECT cv.id, cv.cohort_id, c.name AS cohort_name, cv.version, cv.label, cv.row_count, cv.events, cv.created_at,
+            (SELECT subgroups FROM cohort_rows r WHERE r.cohort_version_id = cv.id ORDER BY line_no LIMIT 1) AS subgroups,
+            EXISTS (SELECT 1 FROM cohort_rows r WHERE r.cohort_version_id = cv.id AND r.event_date IS NOT NULL) AS has_dates
+     FROM cohort_versions cv JOIN cohorts c ON c.id = cv.cohort_id ORDER BY c.name, cv.version DESC`,
+  );
+  return {
+    scoreVersions: svs.map((r) => {
+      const model = r.model as { predictors?: { column: string }[] } | null;
+      return {
+        id: r.id as string,
+        scoreId: r.score_id as string,
+        scoreName: r.score_name as string,
+        version: r.version as number,
+        mode: r.mode as 'formula' | 'supplied',
+        clinicalStatus: r.clinical_status as string,
+        columns: r.mode === 'formula' ? [...new Set((model?.predictors ?? []).map((p) => p.column))] : [r.probability_column as string],
+      };
+    }),
+    cohortVersions: cvs.map((r) => ({
+      id: r.id as string,
+      cohortId: r.cohort_id as string,
+      cohortName: r.cohort_name as string,
+      version: r.version as number,
+      label: (r.label as string) ?? '',
+      rowCount: r.row_count as number,
+      events: r.events as number,
+      groupColumns: Object.keys((r.subgroups as Record<string, unknown>) ?? {}).sort(),
+      hasDates: r.has_dates as boolean,
+      createdAt: iso(r.created_at)!,
+    })),
+  };
+}
+
+// ---------------------------------------------------------------- compute
+
+async function scoreInput(scoreVersionId: string): Promise<RunScoreInput> {
+  const sv = await dataSource.getRepository(ScoreVersion).findOneOrFail({ where: { id: scoreVersionId } });
+  return { mode: sv.mode, model: sv.model, probabilityColumn: sv.probabilityColumn };
+}
+
+/** Everything a run's computation reads, plus the hash over it. */
+export async function loadRunInput(run: Pick<ValidationRun, 'scoreVersionId' | 'cohortVersionId' | 'settings'>): Promise<{ input: RunComputeInput; inputsSha256: string }> {
+  const score = await scoreInput(run.scoreVersionId);
+  const cv = await dataSource.getRepository(CohortVersion).findOneOrFail({ where: { id: run.cohortVersionId } });
+  const data = await loadCohortData(run.cohortVersionId);
+  const settings = runSettingsSchema.parse(run.settings);
+  return { input: { score, data, settings }, inputsSha256: inputsSha256(score, { sourceSha256: cv.sourceSha256, rowCount: cv.rowCount }, settings) };
+}
+
+/** The stored form of a finished computation: results exactly as jsonb will hold them, and their hash. */
+export function sealResults(results: RunResults): { results: RunResults; resultsSha256: string } {
+  const stored = asStored(results);
+  return { results: stored, resultsSha256: resultsSha256(stored) };
+}
+
+let active: { runId: string; thread: RunningThread } | null = null;
+
+/**
+ * Claims the oldest queued run (FOR UPDATE SKIP LOCKED, so several processes can share the queue), computes it in a
+ * worker thread, and stores the outcome. Returns the run id, or null when the queue is empty.
+ */
+export async function processNextRun(): Promise<string | null> {
+  const claimed = await dataSource.transaction(async (m) => {
+    const rows: { id: string }[] = await m.query(
+      `SELECT id FROM validation_runs WHERE status = 'queued' ORDER BY created_at, id LIMIT 1 FOR UPDATE SKIP LOCKED`,
+    );
+    if (!rows[0]) return null;
+    await m.query(`UPDATE validation_runs SET status = 'running', started_at = now(), progress = 0, progress_message = 'loading the cohort' WHERE id = $1`, [rows[0].id]);
+    return rows[0].id;
+  });
+  if (!claimed) return null;
+  const run = await dataSource.getRepository(ValidationRun).findOneOrFail({ where: { id: claimed } });
+
+  let lastWrite = 0;
+  let pending: Promise<unknown> = Promise.resolve();
+  const onProgress = (fraction: number, message: string) => {
+    const now = Date.now();
+    if (now - lastWrite < PROGRESS_WRITE_MS && fraction < 1) return;
+    lastWrite = now;
+    pending = pending.then(() =>
+      dataSource
+        .query(`UPDATE validation_runs SET progress = $2, progress_message = $3 WHERE id = $1 AND status = 'running'`, [claimed, Math.min(0.99, Math.max(0, fraction)), message])
+        .catch(() => undefined),
+    );
+  };
+
+  try {
+    const { input, inputsSha256: inputsHash } = await loadRunInput(run);
+    onProgress(0.01, 'computing');
+    const thread = computeInThread(input, onProgress);
+    active = { runId: claimed, thread };
+    const raw = await thread.result;
+    active = null;
+    await pending;
+    const sealed = sealResults(raw);
+    await dataSource.transaction(async (m) => {
+      await m.query(
+        `UPDATE validation_runs SET status = 'completed', progress = 1, progress_message = 'completed', results = $2::jsonb, engine_version = $3,
+           inputs_sha256 = $4, results_sha256 = $5, finished_at = now() WHERE id = $1 AND status = 'running'`,
+        [claimed, JSON.stringify(sealed.results), sealed.results.overall.engineVersion ?? ENGINE_VERSION, inputsHash, sealed.resultsSha256],
+      );
+      await appendAudit({ action: 'run.completed', targetType: 'validation_run', targetId: claimed, details: { inputsSha256: inputsHash, resultsSha256: sealed.resultsSha256, engineVersion: ENGINE_VERSION } }, m);
+    });
+  } catch (err) {
+    const stopping = active?.runId === claimed && stoppingQueue;
+    active = null;
+    await pending;
+    if (stopping) {
+      // A clean shutdown interrupted the computation: the run waits for the next start, not a failure.
+      await dataSource.query(`UPDATE validation_runs SET status = 'queued', progress = 0, progress_message = 'waiting in the queue (server restarted)' WHERE id = $1 AND status = 'running'`, [claimed]);
+      return claimed;
+    }
+    const reason = err instanceof RunInputError ? (err as Error).message : `the computation failed: ${(err as Error).message ?? String(err)}`;
+    await dataSource.transaction(async (m) => {
+      await m.query(`UPDATE validation_runs SET status = 'failed', error = $2, progress_message = 'failed', finished_at = now() WHERE id = $1 AND status = 'running'`, [claimed, reason]);
+      await appendAudit({ action: 'run.failed', targetType: 'validation_run', targetId: claimed, details: { reason } }, m);
+    });
+  }
+  await notifyRunFinished(claimed);
+  return claimed;
+}
+
+/** Runs left 'running' by a process that stopped without finishing: queued again, or failed after MAX_ATTEMPTS. */
+export async function recoverInterruptedRuns(): Promise<{ requeued: string[]; failed: string[] }> {
+  return dataSource.transaction(async (m) => {
+    const rows: { id: string; attempt: number }[] = await m.query(`SELECT id, attempt FROM validation_runs WHERE status = 'running' FOR UPDATE SKIP LOCKED`);
+    const requeued: string[] = [];
+    const failed: string[] = [];
+    for (const r of rows) {
+      if (r.attempt >= MAX_ATTEMPTS) {
+        const reason = `the server stopped during this run ${r.attempt} times; it was not tried again`;
+        await m.query(`UPDATE validation_runs SET status = 'failed', error = $2, progress_message = 'failed', finished_at = now() WHERE id = $1`, [r.id, reason]);
+        await appendAudit({ action: 'run.failed', targetType: 'validation_run', targetId: r.id, details: { reason, attempt: r.attempt } }, m);
+        failed.push(r.id);
+      } else {
+        await m.query(
+          `UPDATE validation_runs SET status = 'queued', attempt = attempt + 1, progress = 0, started_at = NULL, progress_message = 'waiting in the queue (interrupted run, attempt ' || (attempt + 1) || ')' WHERE id = $1`,
+          [r.id],
+        );
+        await appendAudit({ action: 'run.requeued', targetType: 'validation_run', targetId: r.id, details: { attempt: r.attempt + 1 } }, m);
+        requeued.push(r.id);
+      }
+    }
+    return { requeued, failed };
+  });
+}
+
+async function notifyRunFinished(runId: string): Promise<void> {
+  try {
+    const run = await getRun(runId);
+    const creator: { email: string }[] = run.createdBy ? await dataSource.query('SELECT email FROM users WHERE id = $1 AND active', [run.createdBy]) : [];
+    const to = [...new Set([...(await recipientsForRole('statistician')), ...creator.map((c) => c.email)])];
+    if (to.length === 0) return;
+    const what = `${run.scoreName} v${run.scoreVersion} on ${run.cohortName} v${run.cohortVersion}${run.cohortLabel ? ` (${run.cohortLabel})` : ''}`;
+    const h = run.headline;
+    const text =
+      run.status === 'completed'
+        ? `The validation run of ${what} has completed.\n\nPatients: ${h?.n}, events: ${h?.events}, AUC: ${h?.auc?.toFixed(3)}, O/E: ${h?.oe?.toFixed(2)}.\n\nOpen it in Plumbline: /runs/${run.id}\n\nThis is a statistical check of past performance on local data, not medical advice.`
+        : `The validation run of ${what} failed.\n\nReason: ${run.error}\n\nOpen it in Plumbline: /runs/${run.id}`;
+    await queueEmail({ to, subject: `Validation run ${run.status}: ${what}`, text, kind: `run.${run.status}` });
+  } catch (err) {
+    // E-mail is a courtesy; the run's outcome is already stored and audited.
+    console.error(`[runs] could not queue the e-mail for run ${runId}:`, (err as Error).message);
+  }
+}
+
+/**
+ * Computes a run synchronously in this thread and stores it completed (the demo seed uses this; the API never does,
+ * it queues). Same computation, same hashes, same audit entries as the queue.
+ */
+export async function recordRunNow(actorId: string | null, scoreVersionId: string, cohortVersionId: string, settings: RunSettings, details: Record<string, unknown> = {}): Promise<string> {
+  const parsed = runSettingsSchema.parse(settings);
+  const { input, inputsSha256: inputsHash } = await loadRunInput({ scoreVersionId, cohortVersionId, settings: parsed });
+  const sealed = sealResults(computeRunResults(input));
+  return dataSource.transaction(async (m) => {
+    await m.query('UPDATE score_versions SET locked = true WHERE id = $1 AND NOT locked', [scoreVersionId]);
+    const rows: { id: string }[] = await m.query(
+      `INSERT INTO validation_runs (score_version_id, cohort_version_id, settings, status, progress, progress_message, results, engine_version,
+         inputs_sha256, results_sha256, created_by, started_at, finished_at)
+       VALUES ($1, $2, $3::jsonb, 'completed', 1, 'completed', $4::jsonb, $5, $6, $7, $8, now(), now()) RETURNING id`,
+      [scoreVersionId, cohortVersionId, JSON.stringify(parsed), JSON.stringify(sealed.results), ENGINE_VERSION, inputsHash, sealed.resultsSha256, actorId],
+    );
+    const id = rows[0].id;
+    await appendAudit({ actorId, action: 'run.created', targetType: 'validation_run', targetId: id, details: { scoreVersionId, cohortVersionId, settings: parsed, ...details } }, m);
+    await appendAudit({ action: 'run.completed', targetType: 'validation_run', targetId: id, details: { inputsSha256: inputsHash, resultsSha256: sealed.resultsSha256, engineVersion: ENGINE_VERSION, ...details } }, m);
+    return id;
+  });
+}
+
+// ---------------------------------------------------------------- queue in the background
+
+let wake: (() => void) | null = null;
+let stoppingQueue = false;
+
+/** Lets a newly created run start at once instead of at the next poll. */
+export function wakeQueue(): void {
+  wake?.();
+}
+
+const POLL_MS = 1000;
+
+export async function startRunQueue(): Promise<() => Promise<void>> {
+  stoppingQueue = false;
+  const recovered = await recoverInterruptedRuns();
+  if (recovered.requeued.length || recovered.failed.length)
+    console.log(`[runs] recovered interrupted runs: ${recovered.requeued.length} queued again, ${recovered.failed.length} failed`);
+  let stopped = false;
+  const loop = (async () => {
+    while (!stopped) {
+      let id: string | null = null;
+      try {
+        id = await processNextRun();
+      } catch (err) {
+        if (!stopped) console.error('[runs] queue error:', (err as Error).message);
+      }
+      if (id || stopped) continue;
+      await new Promise<void>((resolve) => {
+        const t = setTimeout(resolve, POLL_MS);
+        wake = () => {
+          clearTimeout(t);
+          resolve();
+        };
+      });
+      wake = null;
+    }
+  })();
+  return async () => {
+    stopped = true;
+    stoppingQueue = true;
+    wake?.();
+    await active?.thread.terminate();
+    await loop;
+    stoppingQueue = false;
+  };
+}
+
+registerBackground(startRunQueue);
+
+// ---------------------------------------------------------------- reproduce
+
+function differences(a: unknown, b: unknown, path = '', out: ReproduceReport['differences'] = [], max = 25): NonNullable<ReproduceReport['differences']> {
+  if (out!.length >= max) return out!;
+  if (a === b) return out!;
+  if (typeof a !== 'object' || typeof b !== 'object' || a === null || b === null || Array.isArray(a) !== Array.isArray(b)) {
+    out!.push({ path: path || '(root)', stored: a, recomputed: b });
+    return out!;
+  }
+  const keys = new Set([...Object.keys(a as object), ...Object.keys(b as object)]);
+  for (const k of keys) differences((a as Record<string, unknown>)[k], (b as Record<string, unknown>)[k], Array.isArray(a) ? `${path}[${k}]` : path ? `${path}.${k}` : k, out, max);
+  return out!;
+}
+
+/** Re-computes a completed run from its stored inputs (in a worker thread) and compares the hash bit for bit. */
+export async function reproduceRun(actor: AuthUser, id: string, ip: string | null = null): Promise<ReproduceReport> {
+  const run = await dataSource.getRepository(ValidationRun).findOne({ where: { id } });
+  if (!run) throw notFound('validation run');
+  if (run.status !== 'completed' || !run.results || !run.resultsSha256) throw conflict(`only a completed run can be reproduced; this one is ${run.status}`);
+  const { input, inputsSha256: inputsHash } = await loadRunInput(run);
+  const recomputed = sealResults(await computeInThread(input).result);
+  const storedNow = resultsSha256(run.results);
+  const match = recomputed.resultsSha256 === run.resultsSha256 && storedNow === run.resultsSha256;
+  const report: ReproduceReport = {
+    match,
+    storedSha256: run.resultsSha256,
+    recomputedSha256: recomputed.resultsSha256,
+    engineVersionStored: run.engineVersion ?? '',
+    engineVersionNow: ENGINE_VERSION,
+    ...(match ? {} : { differences: differences(run.results, recomputed.results) }),
+  };
+  if (inputsHash !== run.inputsSha256) report.differences = [{ path: '(inputs)', stored: run.inputsSha256, recomputed: inputsHash }, ...(report.differences ?? [])];
+  await appendAudit({
+    actorId: actor.id,
+    actorEmail: actor.email,
+    action: 'run.reproduced',
+    targetType: 'validation_run',
+    targetId: id,
+    sourceIp: ip,
+    details: { match, storedSha256: report.storedSha256, recomputedSha256: report.recomputedSha256, engineVersionNow: ENGINE_VERSION },
+  });
+  return report;
+}
+
+// ---------------------------------------------------------------- compare
+
+const est = (e: unknown): { estimate: number; lower: number; upper: number } | null => {
+  const x = e as { estimate?: number; lower?: number; upper?: number; converged?: boolean } | null | undefined;
+  if (!x || x.converged === false || typeof x.estimate !== 'number') return null;
+  return { estimate: x.estimate, lower: x.lower ?? NaN, upper: x.upper ?? NaN };
+};
+
+function metric(key: string, label: string, a: unknown, b: unknown): CompareMetric {
+  const ea = typeof a === 'number' ? { estimate: a, lower: NaN, upper: NaN } : est(a);
+  const eb = typeof b === 'number' ? { estimate: b, lower: NaN, upper: NaN } : est(b);
+  const fin = (v: number | undefined) => (v !== undefined && Number.isFinite(v) ? v : null);
+  return {
+    key,
+    label,
+    a: fin(ea?.estimate),
+    b: fin(eb?.estimate),
+    delta: ea && eb ? eb.estimate - ea.estimate : null,
+    aLower: fin(ea?.lower),
+    aUpper: fin(ea?.upper),
+    bLower: fin(eb?.lower),
+    bUpper: fin(eb?.upper),
+  };
+}
+
+export async function compareRuns(aId: string, bId: string): Promise<RunComparison> {
+  const [a, b] = await Promise.all([getRun(aId), getRun(bId)]);
+  if (a.status !== 'completed' || b.status !== 'completed' || !a.results || !b.results) throw conflict('both runs must be completed to compare them');
+  const oa = a.results.overall;
+  const ob = b.results.overall;
+  const settingsDiffer = Object.keys({ ...a.settings, ...b.settings }).filter(
+    (k) => JSON.stringify((a.settings as Record<string, unknown>)[k]) !== JSON.stringify((b.settings as Record<string, unknown>)[k]),
+  );
+  const strip = ({ results: _r, settings: _s, inputsSha256: _i, resultsSha256: _h, ...rest }: RunDetail): RunSummary => rest;
+  return {
+    a: strip(a),
+    b: strip(b),
+    sameScore: a.scoreId === b.scoreId,
+    settingsDiffer,
+    metrics: [
+      metric('n', 'Patients', oa.n, ob.n),
+      metric('events', 'Events', oa.events, ob.events),
+      metric('eventRate', 'Event rate', oa.eventRate, ob.eventRate),
+      metric('auc', 'AUC', oa.auc, ob.auc),
+      metric('calibrationIntercept', 'Calibration-in-the-large', oa.calibrationIntercept, ob.calibrationIntercept),
+      metric('calibrationSlope', 'Calibration slope', oa.calibrationSlope, ob.calibrationSlope),
+      metric('oe', 'O/E', oa.oe, ob.oe),
+      metric('brier', 'Brier score', oa.brier, ob.brier),
+      metric('scaledBrier', 'Scaled Brier', oa.scaledBrier, ob.scaledBrier),
+      metric('logLoss', 'Log loss (mean)', oa.logLoss, ob.logLoss),
+      metric('ici', 'ICI', oa.ici, ob.ici),
+      metric('e90', 'E90', oa.e90, ob.e90),
+      metric('emax', 'Emax', oa.emax, ob.emax),
+    ],
+  };
+}

@@ -1,0 +1,177 @@
+/**
+ * Minimum sample size for external validation of a logistic prediction model with a binary outcome,
+ * for a target 95% CI width of O/E, the C statistic and the calibration slope (φ = anticipated outcome proportion).
+ *   O/E:   n = (1 − φ) / (φ · SE(ln O/E)²), SE from the CI width on the O/E scale around O/E = 1:
+ *          width = e^{1.96·SE} − e^{−1.96·SE}  ⇒  SE = asinh(width/2) / 1.96.
+ *   C:     SE(C)² = C(1−C)[1 + (n/2 − 1)(1−C)/(2−C) + (n/2 − 1)C/(1+C)] / (n² φ(1−φ)), SE = width/3.92, solved for n.
+ *   slope: n = I00 / (SE² (I00·I11 − I01²)), I_ab = E[LP^(a+b) e^LP/(1+e^LP)²] over the anticipated LP distribution,
+ *          SE = width/3.92.
+ * Source: Riley RD, Debray TPA, Collins GS, et al. (2021). Minimum sample size for external validation of a clinical
+ * prediction model with a binary outcome. Stat Med 40:4230–4251.
+ * Choices: the anticipated LP distribution is Normal(μ, σ) with (μ, σ) solved so that E[expit(LP)] = φ and the
+ * C statistic of LP against outcomes drawn from expit(LP) equals the anticipated C (as Riley et al. suggest when no
+ * LP distribution is known), i.e. the model is assumed well calibrated. Integrals by the trapezoid rule on
+ * μ ± 10σ with 4,001 points; C by pairs of grid points. n is rounded up; events = n·φ rounded up.
+ */
+
+const Z = 1.959963984540054;
+
+export interface SampleSizeCriterion {
+  criterion: 'oe' | 'auc' | 'slope';
+  ciWidth: number;
+  targetSe: number;
+  n: number;
+  events: number;
+}
+
+export interface SampleSizePlan {
+  eventRate: number;
+  auc: number;
+  criteria: SampleSizeCriterion[];
+  largest: SampleSizeCriterion | null;
+  lpDistribution?: { mean: number; sd: number };
+}
+
+const expit = (x: number) => 1 / (1 + Math.exp(-x));
+const withEvents = (c: Omit<SampleSizeCriterion, 'events'>, phi: number): SampleSizeCriterion => ({ ...c, events: Math.ceil(c.n * phi) });
+
+export function sampleSizeOE(eventRate: number, ciWidth: number): SampleSizeCriterion {
+  const se = Math.asinh(ciWidth / 2) / Z;
+  const n = Math.ceil((1 - eventRate) / (eventRate * se * se) - 1e-9);
+  return withEvents({ criterion: 'oe', ciWidth, targetSe: se, n }, eventRate);
+}
+
+/** SE(C) at sample size n by the Riley et al. (2021) formula (their eq. for the C statistic). */
+export function seAuc(n: number, eventRate: number, c: number): number {
+  const k = n / 2 - 1;
+  const v = (c * (1 - c) * (1 + (k * (1 - c)) / (2 - c) + (k * c) / (1 + c))) / (n * n * eventRate * (1 - eventRate));
+  return Math.sqrt(v);
+}
+
+export function sampleSizeAuc(eventRate: number, c: number, ciWidth: number): SampleSizeCriterion {
+  const se = ciWidth / (2 * Z);
+  // SE(C) falls monotonically in n: smallest integer n with SE(C) ≤ target, by bisection
+  let lo = 4;
+  let hi = 4;
+  while (seAuc(hi, eventRate, c) > se) hi *= 2;
+  while (hi - lo > 1) {
+    const mid = Math.floor((lo + hi) / 2);
+    if (seAuc(mid, eventRate, c) > se) lo = mid;
+    else hi = mid;
+  }
+  return withEvents({ criterion: 'auc', ciWidth, targetSe: se, n: hi }, eventRate);
+}
+
+interface Grid {
+  x: Float64Array;
+  w: Float64Array; // density × trapezoid weight
+}
+
+function normalGrid(mean: number, sd: number, points = 4001): Grid {
+  const x = new Float64Array(points);
+  const w = new Float64Array(points);
+  const lo = mean - 10 * sd;
+  const dx = (20 * sd) / (points - 1);
+  for (let i = 0; i < points; i++) {
+    x[i] = lo + i * dx;
+    const z = (x[i] - mean) / sd;
+    w[i] = (Math.exp(-0.5 * z * z) / (sd * Math.sqrt(2 * Math.PI))) * dx * (i === 0 || i === points - 1 ? 0.5 : 1);
+  }
+  return { x, w };
+}
+
+const meanRisk = (g: Grid) => g.x.reduce((s, x, i) => s + g.w[i] * expit(x), 0);
+
+/** C statistic of a well-calibrated LP ~ g: P(LP_event > LP_non-event), ties count one half. */
+function cOfGrid(g: Grid): number {
+  const m = g.x.length;
+  let cumNon = 0; // mass of non-events strictly below the current point
+  let num = 0;
+  let ev = 0;
+  let non = 0;
+  for (let i = 0; i < m; i++) {
+    const e = g.w[i] * expit(g.x[i]);
+    const ne = g.w[i] * (1 - expit(g.x[i]));
+    num += e * (cumNon + 0.5 * ne);
+    cumNon += ne;
+    ev += e;
+    non += ne;
+  }
+  return num / (ev * non);
+}
+
+/** Normal LP distribution matching the anticipated outcome proportion and C (model assumed well calibrated). */
+export function anticipatedLpDistribution(eventRate: number, c: number): { mean: number; sd: number } {
+  const meanFor = (sd: number) => {
+    let lo = -30;
+    let hi = 30;
+    for (let it = 0; it < 80; it++) {
+      const mid = (lo + hi) / 2;
+      if (meanRisk(normalGrid(mid, sd, 1201)) < eventRate) lo = mid;
+      else hi = mid;
+    }
+    return (lo + hi) / 2;
+  };
+  let lo = 0.01;
+  let hi = 8;
+  for (let it = 0; it < 50; it++) {
+    const mid = (lo + hi) / 2;
+    if (cOfGrid(normalGrid(meanFor(mid), mid, 1201)) < c) lo = mid;
+    else hi = mid;
+  }
+  const sd = (lo + hi) / 2;
+  return { mean: meanFor(sd), sd };
+}
+
+/** I_ab elements of the per-patient Fisher information for (intercept, slope) of a logistic model on LP. */
+export function slopeInformation(mean: number, sd: number): { i00: number; i01: number; i11: number } {
+  const g = normalGrid(mean, sd);
+  let i00 = 0;
+  let i01 = 0;
+  let i11 = 0;
+  for (let i = 0; i < g.x.length; i++) {
+    const p = expit(g.x[i]);
+    const v = g.w[i] * p * (1 - p);
+    i00 += v;
+    i01 += v * g.x[i];
+    i11 += v * g.x[i] * g.x[i];
+  }
+  return { i00, i01, i11 };
+}
+
+export function sampleSizeSlope(eventRate: number, ciWidth: number, lp: { mean: number; sd: number }): SampleSizeCriterion {
+  const se = ciWidth / (2 * Z);
+  const { i00, i01, i11 } = slopeInformation(lp.mean, lp.sd);
+  const n = Math.ceil(i00 / (se * se * (i00 * i11 - i01 * i01)) - 1e-9);
+  return withEvents({ criterion: 'slope', ciWidth, targetSe: se, n }, eventRate);
+}
+
+export function planSampleSize(input: { eventRate: number; auc: number; ciWidthOE?: number; ciWidthAuc?: number; ciWidthSlope?: number }): SampleSizePlan {
+  const { eventRate, auc } = input;
+  if (!(eventRate > 0 && eventRate < 1)) throw new RangeError('eventRate must lie strictly between 0 and 1');
+  if (!(auc > 0.5 && auc < 1)) throw new RangeError('auc must lie strictly between 0.5 and 1');
+  const criteria: SampleSizeCriterion[] = [];
+  let lpDistribution: { mean: number; sd: number } | undefined;
+  if (input.ciWidthOE) criteria.push(sampleSizeOE(eventRate, input.ciWidthOE));
+  if (input.ciWidthAuc) criteria.push(sampleSizeAuc(eventRate, auc, input.ciWidthAuc));
+  if (input.ciWidthSlope) {
+    lpDistribution = anticipatedLpDistribution(eventRate, auc);
+    criteria.push(sampleSizeSlope(eventRate, input.ciWidthSlope, lpDistribution));
+  }
+  const largest = criteria.reduce<SampleSizeCriterion | null>((m, c) => (!m || c.n > m.n ? c : m), null);
+  return { eventRate, auc, criteria, largest, lpDistribution };
+}
+
+/** Precision a cohort of n patients gives: the expected 95% CI widths for O/E, C and slope. */
+export function precisionFor(n: number, eventRate: number, c: number): { oe: number; auc: number; slope: number | null } {
+  const seOE = Math.sqrt((1 - eventRate) / (eventRate * n));
+  const oe = Math.exp(Z * seOE) - Math.exp(-Z * seOE);
+  const auc = 2 * Z * seAuc(n, eventRate, c);
+  let slope: number | null = null;
+  if (c > 0.5 && c < 1) {
+    const lp = anticipatedLpDistribution(eventRate, c);
+    const { i00, i01, i11 } = slopeInformation(lp.mean, lp.sd);
+    slope = 2 * Z * Math.sqrt(i00 / (n * (i00 * i11 - i01 * i01)));
+  }
+  return { oe, auc, slope };
+}

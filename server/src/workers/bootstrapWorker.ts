@@ -1,0 +1,7 @@
+// Worker thread: runs bootstrap replicates [from, to) of the full metric set and posts the metric rows back.
+import { parentPort, workerData } from 'node:worker_threads';
+import { runReplicates } from '../stats/bootstrap';
+import type { ValidationSettings } from '@shared/validation';
+
+const { p, y, settings, from, to } = workerData as { p: Float64Array; y: Uint8Array; settings: ValidationSettings; from: number; to: number };
+parentPort!.postMessage(runReplicates(p, y, settings, from, to));

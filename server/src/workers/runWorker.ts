@@ -1,0 +1,19 @@
+// Worker thread for one validation run: the CPU-heavy part runs here so the API's event loop stays free.
+// Receives the run input as workerData and answers with progress messages and then the results (or an error).
+import { parentPort, workerData } from 'node:worker_threads';
+import { computeRunResults, RunInputError, type RunComputeInput } from '../services/runCompute';
+
+export type RunWorkerMessage =
+  | { type: 'progress'; fraction: number; message: string }
+  | { type: 'done'; results: unknown }
+  | { type: 'error'; message: string; inputError: boolean };
+
+const port = parentPort;
+if (port) {
+  try {
+    const results = computeRunResults(workerData as RunComputeInput, (fraction, message) => port.postMessage({ type: 'progress', fraction, message } satisfies RunWorkerMessage));
+    port.postMessage({ type: 'done', results } satisfies RunWorkerMessage);
+  } catch (err) {
+    port.postMessage({ type: 'error', message: (err as Error).message ?? String(err), inputError: err instanceof RunInputError } satisfies RunWorkerMessage);
+  }
+}

@@ -1,0 +1,133 @@
+import { z } from 'zod';
+
+// Request and response shapes for cohort uploads, column mappings and stored cohort versions.
+
+const isoDate = z.string().regex(/^\d{4}-\d{2}-\d{2}$/, 'use YYYY-MM-DD');
+const optionalText = (max: number) =>
+  z.preprocess((v) => (v === '' ? undefined : v), z.string().trim().max(max).optional());
+
+/** The text fields that travel with the multipart upload (field `file` carries the CSV). */
+export const uploadFields = z
+  .object({
+    cohortId: z.preprocess((v) => (v === '' ? undefined : v), z.string().uuid().optional()),
+    cohortName: optionalText(160),
+    scoreVersionId: z.string().uuid('scoreVersionId must be a score version id'),
+    label: optionalText(160),
+    periodStart: z.preprocess((v) => (v === '' ? undefined : v), isoDate.optional()),
+    periodEnd: z.preprocess((v) => (v === '' ? undefined : v), isoDate.optional()),
+  })
+  .refine((f) => !!f.cohortId !== !!f.cohortName, { message: 'give either cohortId (a new version of a cohort) or cohortName (a new cohort)' })
+  .refine((f) => !f.periodStart || !f.periodEnd || f.periodStart <= f.periodEnd, { message: 'periodStart must not be after periodEnd' });
+export type UploadFields = z.infer<typeof uploadFields>;
+
+const label = z.string().trim().min(1).max(40);
+
+/** File column → each score predictor, the outcome with its labels, an optional period column, subgroup columns. */
+export const columnMapping = z.object({
+  predictors: z.record(z.string().min(1).max(80), z.string().min(1).max(200)),
+  outcome: z.object({
+    column: z.string().min(1).max(200),
+    positive: z.array(label).min(1).max(10).default(['1']),
+    negative: z.array(label).min(1).max(10).default(['0']),
+  }),
+  date: z.object({ column: z.string().min(1).max(200) }).nullable().optional(),
+  subgroups: z.record(z.string().trim().min(1).max(60).regex(/^[A-Za-z][A-Za-z0-9_ ]*$/, 'subgroup names are letters, digits, _ and spaces'), z.string().min(1).max(200)).default({}),
+  /** Optional plausible range per predictor; age gets 0–120 and a supplied probability [0, 1] by default. */
+  ranges: z.record(z.string(), z.object({ min: z.number().finite().optional(), max: z.number().finite().optional() })).default({}),
+});
+export type ColumnMappingSpec = z.infer<typeof columnMapping>;
+
+export const mappingRequest = z.object({
+  mapping: columnMapping,
+  /** Also keep the mapping under this name for the next period's file. */
+  saveAs: z.string().trim().min(1).max(160).optional(),
+});
+
+export const commitRequest = z.object({ excludeRejected: z.boolean().default(false) });
+
+export const saveMappingRequest = z.object({
+  name: z.string().trim().min(1).max(160),
+  cohortId: z.string().uuid().nullable().optional(),
+  mapping: columnMapping,
+});
+
+export const pageQuery = z.object({
+  page: z.coerce.number().int().min(1).max(1_000_000).default(1),
+  pageSize: z.coerce.number().int().min(1).max(500).default(25),
+});
+
+export const cohortListQuery = pageQuery.extend({
+  search: z.string().trim().max(160).optional(),
+  sortBy: z.enum(['name', 'createdAt', 'versions', 'latestRows']).default('createdAt'),
+  sortDir: z.enum(['asc', 'desc']).default('desc'),
+});
+
+export const cohortRowsQuery = pageQuery.extend({
+  search: z.string().trim().max(160).optional(),
+  sortBy: z.string().trim().max(80).regex(/^[A-Za-z0-9_ .:-]+$/).default('line_no'),
+  sortDir: z.enum(['asc', 'desc']).default('asc'),
+});
+
+export const mappingListQuery = z.object({ cohortId: z.string().uuid().optional() });
+
+export const versionParams = z.object({ id: z.string().uuid(), version: z.coerce.number().int().min(1).max(100_000) });
+export const uuidParam = z.object({ id: z.string().uuid('id must be a uuid') });
+
+export type UploadStatus = 'pending' | 'processing' | 'checked' | 'committed' | 'failed' | 'refused' | 'discarded';
+
+export interface ScreenFinding {
+  column: string;
+  category: string;
+  reason: string;
+}
+
+export interface NumericSummary {
+  kind: 'numeric';
+  n: number;
+  missing: number;
+  min: number | null;
+  max: number | null;
+  mean: number | null;
+  /** Equal-width bins over [min, max]; counted from every value when small, else from a seeded sample. */
+  histogram: { from: number; to: number; count: number }[];
+  histogramSampled: boolean;
+}
+export interface CategoricalSummary {
+  kind: 'categorical';
+  n: number;
+  missing: number;
+  levels: { value: string; count: number }[];
+  otherLevels: number;
+}
+export type ColumnSummary = NumericSummary | CategoricalSummary;
+
+export interface UploadView {
+  id: string;
+  status: UploadStatus;
+  cohortId: string | null;
+  cohortName: string | null;
+  scoreVersionId: string;
+  label: string;
+  periodStart: string | null;
+  periodEnd: string | null;
+  sourceFilename: string;
+  sha256: string;
+  bytes: number;
+  delimiter: string;
+  headers: string[];
+  warnings: ScreenFinding[];
+  suggestedMapping: ColumnMappingSpec | null;
+  mapping: ColumnMappingSpec | null;
+  progress: number;
+  rowsRead: number;
+  rowsAccepted: number;
+  rowsRejected: number;
+  events: number;
+  rejectionCounts: { reason: string; count: number }[];
+  columnSummary: Record<string, ColumnSummary>;
+  cohortVersionId: string | null;
+  error: string | null;
+  createdAt: string;
+  /** The score's columns the mapping must cover (from the score version). */
+  requiredPredictors: { column: string; kind: 'numeric' | 'text'; positiveOnly: boolean }[];
+}

@@ -1,0 +1,148 @@
+// Each demo role signs in through the form and sees exactly its own navigation; a wrong password
+// gets the same generic refusal as an unknown e-mail.
+import { mkdirSync } from 'node:fs';
+import path from 'node:path';
+import { fileURLToPath } from 'node:url';
+import type { Page } from 'playwright-core';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { ROLE_LABELS, ROLES } from '@shared/roles';
+import { navigation, navigationFor } from '../../client/src/navigation';
+import { DEMO_PASSWORD } from '../../server/src/config';
+import { appUrl, startAppServer, stopAppServer } from '../helpers/appServer';
+import { launchBrowser, signIn, submitSignIn, type BrowserSession } from '../helpers/browser';
+
+const artifacts = fileURLToPath(new URL('../artifacts', import.meta.url));
+const email = (role: string) => `${role}@demo.test`;
+
+let browser: BrowserSession;
+
+beforeAll(async () => {
+  mkdirSync(artifacts, { recursive: true });
+  await startAppServer();
+  browser = await launchBrowser();
+});
+
+afterAll(async () => {
+  await browser?.close();
+  await stopAppServer();
+});
+
+const mainNavigation = (page: Page) => page.getByRole('navigation', { name: 'Main navigation' });
+
+async function navigationTitles(page: Page): Promise<string[]> {
+  const links = mainNavigation(page).getByRole('link');
+  await links.first().waitFor();
+  return (await links.allInnerTexts()).map((t) => t.trim());
+}
+
+describe('sign-in in the browser', () => {
+  it('refuses a wrong password and an unknown e-mail with the same generic message', async () => {
+    const page = await browser.context.newPage();
+    try {
+      await submitSignIn(page, email('clinician'), 'not-the-password-1');
+      const error = page.getByTestId('sign-in-error');
+      await error.waitFor();
+      const wrongPassword = (await error.innerText()).trim();
+      expect(wrongPassword).toMatch(/not correct/i);
+      expect(new URL(page.url()).pathname).toBe('/sign-in');
+      expect(await page.evaluate(() => sessionStorage.getItem('plumbline.session'))).toBeNull();
+      await page.screenshot({ path: path.join(artifacts, 'signin-wrong-password.png') });
+
+      await submitSignIn(page, 'nobody-here@demo.test', 'not-the-password-1');
+      await page.getByTestId('sign-in-error').waitFor();
+      expect((await page.getByTestId('sign-in-error').innerText()).trim()).toBe(wrongPassword);
+    } finally {
+      await page.close();
+    }
+  });
+
+  it('sends a signed-out visitor to sign-in and back to the page they wanted', async () => {
+    const page = await browser.context.newPage();
+    try {
+      await page.goto(`${appUrl}/account`);
+      await page.waitForURL((url) => url.pathname === '/sign-in');
+      expect(new URL(page.url()).searchParams.get('redirect')).toBe('/account');
+      await page.getByLabel('E-mail').fill(email('steward'));
+      await page.getByLabel('Password', { exact: true }).fill(DEMO_PASSWORD);
+      await page.getByRole('button', { name: 'Sign in' }).click();
+      await page.waitForURL((url) => url.pathname === '/account');
+      await page.getByRole('heading', { name: 'My account' }).waitFor();
+    } finally {
+      await page.close();
+    }
+  });
+
+  it('ends a session the server no longer accepts and says why on the sign-in page', async () => {
+    const page = await browser.context.newPage();
+    try {
+      await signIn(page, email('chair'));
+      // Spoil the stored token's signature: the next API call answers 401.
+      await page.evaluate(() => {
+        const s = JSON.parse(sessionStorage.getItem('plumbline.session')!);
+        s.token = `${s.token.slice(0, -4)}AAAA`;
+        sessionStorage.setItem('plumbline.session', JSON.stringify(s));
+      });
+      await page.goto(`${appUrl}/account`);
+      await page.waitForURL((url) => url.pathname === '/sign-in');
+      expect(await page.getByTestId('sign-in-notice').innerText()).toMatch(/session has ended/i);
+      expect(await page.evaluate(() => sessionStorage.getItem('plumbline.session'))).toBeNull();
+    } finally {
+      await page.close();
+    }
+  });
+
+  for (const role of ROLES) {
+    it(`shows the ${role} exactly the ${role}'s navigation`, async () => {
+      // A new tab has its own sessionStorage, so each role starts signed out.
+      const page = await browser.context.newPage();
+      try {
+        await signIn(page, email(role));
+        expect(new URL(page.url()).pathname).toBe('/');
+
+        const expected = navigationFor(role).map((item) => item.title);
+        expect(await navigationTitles(page)).toEqual(expected);
+        const hidden = navigation.filter((item) => !item.roles.includes(role)).map((item) => item.title);
+        for (const title of hidden) {
+          expect(await mainNavigation(page).getByRole('link', { name: title }).count()).toBe(0);
+        }
+
+        // The landing page speaks to this role.
+        await page.getByText(ROLE_LABELS[role], { exact: true }).first().waitFor();
+        const caution = page.getByRole('note', { name: 'Clinical-use caution' });
+        expect(await caution.count()).toBe(role === 'clinician' ? 1 : 0);
+        if (role === 'clinician') expect(await caution.innerText()).toMatch(/not medical advice/i);
+
+        await page.evaluate(() => document.fonts.ready);
+        await page.screenshot({ path: path.join(artifacts, `signin-${role}.png`), fullPage: true });
+
+        // Hiding a link is not the guard: a non-admin who types the address is told plainly.
+        if (role !== 'admin') {
+          await page.goto(`${appUrl}/admin/accounts`);
+          await page.waitForURL((url) => url.pathname === '/forbidden');
+          await page.getByText('You may not open this page').waitFor();
+        } else {
+          await mainNavigation(page).getByRole('link', { name: 'Accounts' }).click();
+          await page.waitForURL((url) => url.pathname === '/admin/accounts');
+          for (const r of ROLES) await page.getByRole('cell', { name: email(r), exact: true }).waitFor();
+          await page.screenshot({ path: path.join(artifacts, 'admin-accounts.png'), fullPage: true });
+
+          await mainNavigation(page).getByRole('link', { name: 'Audit trail' }).click();
+          await page.waitForURL((url) => url.pathname === '/admin/audit');
+          await page.getByRole('cell', { name: 'auth.login', exact: true }).first().waitFor();
+          await page.getByRole('button', { name: 'Check the chain' }).click();
+          await page.getByTestId('chain-result').waitFor();
+          expect(await page.getByTestId('chain-result').innerText()).toMatch(/chain is unbroken/i);
+          await page.screenshot({ path: path.join(artifacts, 'admin-audit.png'), fullPage: true });
+        }
+
+        // Signing out from the account menu ends the session.
+        await page.getByRole('button', { name: 'Account menu' }).click();
+        await page.getByRole('listitem').filter({ hasText: 'Sign out' }).click();
+        await page.waitForURL((url) => url.pathname === '/sign-in');
+        expect(await page.evaluate(() => sessionStorage.getItem('plumbline.session'))).toBeNull();
+      } finally {
+        await page.close();
+      }
+    });
+  }
+});

@@ -1,0 +1,122 @@
+// Minimal registry fixtures written straight to the database (score + version, cohort + version + rows), so a
+// suite can run validations without going through the score and cohort upload APIs. Invented data only.
+import { createHash, randomUUID } from 'node:crypto';
+import type { ScoreModel } from '@shared/model';
+import { dataSource } from '../../server/src/db/dataSource';
+
+/** The invented Kestrel-like formula (made-up coefficients, see the demo scenario). */
+export const FIXTURE_MODEL: ScoreModel = {
+  intercept: -3.6,
+  predictors: [
+    { column: 'age', coefficient: 0.012, transform: 'linear' },
+    { column: 'length_of_stay', coefficient: 0.35, transform: 'log' },
+    { column: 'prior_admissions', coefficient: 0.28, transform: 'linear' },
+    { column: 'emergency_admission', coefficient: 0.45, transform: 'indicator', level: 'yes' },
+    { column: 'charlson_index', coefficient: 0.11, transform: 'linear' },
+  ],
+};
+
+export interface ScoreFixture {
+  scoreId: string;
+  scoreVersionId: string;
+  model: ScoreModel | null;
+}
+
+export async function createScoreFixture(
+  opts: { model?: ScoreModel; mode?: 'formula' | 'supplied'; probabilityColumn?: string; name?: string } = {},
+): Promise<ScoreFixture> {
+  const mode = opts.mode ?? 'formula';
+  const model = mode === 'formula' ? (opts.model ?? FIXTURE_MODEL) : null;
+  const scores: { id: string }[] = await dataSource.query(
+    `INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
+     VALUES ($1, 'unplanned readmission within 30 days (fixture)', '30 days', 'adults discharged alive (fixture)',
+             'Invented fixture citation, not a real publication', 'Fixture caution text.') RETURNING id`,
+    [opts.name ?? `Fixture score ${randomUUID().slice(0, 8)}`],
+  );
+  const versions: { id: string }[] = await dataSource.query(
+    `INSERT INTO score_versions (score_id, version, mode, model, probability_column, change_note)
+     VALUES ($1, 1, $2, $3::jsonb, $4, 'fixture') RETURNING id`,
+    [scores[0].id, mode, model ? JSON.stringify(model) : null, mode === 'supplied' ? (opts.probabilityColumn ?? 'risk') : null],
+  );
+  return { scoreId: scores[0].id, scoreVersionId: versions[0].id, model };
+}
+
+export interface FixtureRow {
+  outcome: 0 | 1;
+  eventDate?: string | null;
+  predictors: Record<string, number | string>;
+  subgroups?: Record<string, string>;
+}
+
+export interface CohortFixture {
+  cohortId: string;
+  cohortVersionId: string;
+  rows: FixtureRow[];
+}
+
+export async function createCohortFixture(rows: FixtureRow[], opts: { name?: string; label?: string } = {}): Promise<CohortFixture> {
+  const body = JSON.stringify(rows);
+  const cohorts: { id: string }[] = await dataSource.query(`INSERT INTO cohorts (name, description) VALUES ($1, 'fixture') RETURNING id`, [
+    opts.name ?? `Fixture cohort ${randomUUID().slice(0, 8)}`,
+  ]);
+  const events = rows.reduce((s, r) => s + r.outcome, 0);
+  const versions: { id: string }[] = await dataSource.query(
+    `INSERT INTO cohort_versions (cohort_id, version, label, source_filename, source_sha256, source_bytes, row_count, events, mapping)
+     VALUES ($1, 1, $2, 'fixture.csv', $3, $4, $5, $6, '{}'::jsonb) RETURNING id`,
+    [cohorts[0].id, opts.label ?? 'fixture', createHash('sha256').update(body).digest('hex'), Buffer.byteLength(body), rows.length, events],
+  );
+  const id = versions[0].id;
+  const BATCH = 1000;
+  for (let start = 0; start < rows.length; start += BATCH) {
+    const part = rows.slice(start, start + BATCH);
+    const values: unknown[] = [];
+    const tuples = part.map((r, k) => {
+      values.push(start + k + 1, r.outcome, r.eventDate ?? null, JSON.stringify(r.predictors), JSON.stringify(r.subgroups ?? {}));
+      const b = k * 5;
+      return `($1, $${b + 2}, $${b + 3}, $${b + 4}, $${b + 5}::jsonb, $${b + 6}::jsonb)`;
+    });
+    await dataSource.query(`INSERT INTO cohort_rows (cohort_version_id, line_no, outcome, event_date, predictors, subgroups) VALUES ${tuples.join(',')}`, [id, ...values]);
+  }
+  return { cohortId: cohorts[0].id, cohortVersionId: id, rows };
+}
+
+/** Small seeded PRNG (mulberry32) so fixture cohorts are the same on every run. */
+export function mulberry32(seed: number): () => number {
+  let a = seed >>> 0;
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0;
+    let t = a;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
+/**
+ * Invented patients drawn from the fixture formula plus `logitShift` on the logit scale (miscalibration on purpose),
+ * discharged across `months` months starting January 2024.
+ */
+export function kestrelRows(n: number, seed = 1, opts: { logitShift?: number; months?: number } = {}): FixtureRow[] {
+  const rnd = mulberry32(seed);
+  const months = opts.months ?? 6;
+  const rows: FixtureRow[] = [];
+  for (let i = 0; i < n; i++) {
+    const age = 18 + Math.floor(rnd() * 75);
+    const los = 1 + Math.floor(-Math.log(1 - rnd()) * 4);
+    const prior = Math.floor(-Math.log(1 - rnd()) * 1.2);
+    const emergency = rnd() < 0.6 ? 'yes' : 'no';
+    const charlson = Math.floor(rnd() * 8);
+    const lp = -3.6 + 0.012 * age + 0.35 * Math.log(los) + 0.28 * prior + (emergency === 'yes' ? 0.45 : 0) + 0.11 * charlson + (opts.logitShift ?? 0);
+    const outcome = rnd() < 1 / (1 + Math.exp(-lp)) ? 1 : 0;
+    const month = Math.floor(rnd() * months);
+    const day = 1 + Math.floor(rnd() * 28);
+    const date = new Date(Date.UTC(2024, month, day)).toISOString().slice(0, 10);
+    rows.push({
+      outcome,
+      eventDate: date,
+      predictors: { age, length_of_stay: los, prior_admissions: prior, emergency_admission: emergency, charlson_index: charlson },
+      subgroups: { sex: rnd() < 0.5 ? 'female' : 'male', unit: ['Birch', 'Cedar', 'Alder', 'Rowan', 'Small'][rnd() < 0.02 ? 4 : Math.floor(rnd() * 4)] },
+    });
+  }
+  return rows;
+}
