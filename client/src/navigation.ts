@@ -12,12 +12,15 @@ export interface NavigationItem {
 
 export const navigation: NavigationItem[] = [
   { title: 'Overview', icon: 'mdi-home-outline', to: '/', roles: ROLES },
+  { title: 'Scores', icon: 'mdi-function-variant', to: '/scores', roles: ['statistician', 'admin', 'steward', 'chair'] },
   { title: 'Validation runs', icon: 'mdi-chart-bell-curve-cumulative', to: '/runs', roles: ['steward', 'statistician', 'chair', 'admin'] },
   { title: 'Sign-off queue', icon: 'mdi-draw-pen', to: '/signoff-queue', roles: ['chair'] },
   { title: 'Score cards', icon: 'mdi-card-account-details-outline', to: '/scorecards', roles: ['clinician', 'statistician', 'chair', 'admin'] },
   { title: 'Accounts', icon: 'mdi-account-multiple-outline', to: '/admin/accounts', roles: ['admin'] },
   { title: 'Audit trail', icon: 'mdi-clipboard-text-clock-outline', to: '/admin/audit', roles: ['admin'] },
   { title: 'Outbox (dev)', icon: 'mdi-email-fast-outline', to: '/dev/outbox', roles: ['admin'] },
+  { title: 'Cohorts', icon: 'mdi-table-multiple', to: '/cohorts', roles: ['steward', 'statistician', 'chair', 'admin'] },
+  { title: 'Upload cohort', icon: 'mdi-upload-outline', to: '/cohorts/upload', roles: ['steward', 'statistician'] },
   { title: 'My account', icon: 'mdi-account-key-outline', to: '/account', roles: ROLES },
 ];
 

@@ -113,8 +113,11 @@ describe('a validation run through the background queue', () => {
     const smallRows = rows.filter((x) => x.subgroups!.unit === 'Small');
     expect(small.n).toBe(smallRows.length);
     expect(small.events).toBe(smallRows.filter((x) => x.outcome === 1).length);
-    // Rule: fewer than 10 events or non-events → too small (common practice, no source).
+    // Rule: fewer than 10 events or non-events → too small (common practice, no source). ~9 patients here.
+    expect(small.n).toBeGreaterThan(0);
+    expect(small.n).toBeLessThan(20);
     expect(small.tooSmall).toBe(true);
+    for (const g of r.subgroups) expect(g.tooSmall).toBe(g.events < 10 || g.n - g.events < 10);
     expect(small.result).toBeUndefined();
     const female = r.subgroups.find((g) => g.column === 'sex' && g.level === 'female')!;
     const femaleIdx = rows.map((x, i) => (x.subgroups!.sex === 'female' ? i : -1)).filter((i) => i >= 0);
@@ -346,5 +349,16 @@ describe('settings validation', () => {
     expect((await createRun('statistician', { scoreVersionId: score.scoreVersionId, cohortVersionId: missing })).status).toBe(404);
     expect((await createRun('statistician', { scoreVersionId: 'nope', cohortVersionId: cohort.cohortVersionId })).status).toBe(400);
     expect((await request(app).get(`/api/runs/${missing}`).set(bearer(await tokenFor('chair')))).status).toBe(404);
+  });
+});
+
+describe('the worker thread under plain tsx (as the server runs)', () => {
+  it('starts, computes, and gives the same result hash as an inline computation', async () => {
+    const { execFile } = await import('node:child_process');
+    const { promisify } = await import('node:util');
+    const { stdout } = await promisify(execFile)('node_modules/.bin/tsx', ['tests/helpers/runThreadProbe.ts'], { cwd: process.cwd(), timeout: 60_000 });
+    const out = JSON.parse(stdout.trim().split('\n').pop()!);
+    expect(out.threaded).toMatch(/^[0-9a-f]{64}$/);
+    expect(out.threaded).toBe(out.inline);
   });
 });

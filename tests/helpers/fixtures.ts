@@ -115,7 +115,7 @@ export function kestrelRows(n: number, seed = 1, opts: { logitShift?: number; mo
       outcome,
       eventDate: date,
       predictors: { age, length_of_stay: los, prior_admissions: prior, emergency_admission: emergency, charlson_index: charlson },
-      subgroups: { sex: rnd() < 0.5 ? 'female' : 'male', unit: ['Birch', 'Cedar', 'Alder', 'Rowan', 'Small'][rnd() < 0.02 ? 4 : Math.floor(rnd() * 4)] },
+      subgroups: { sex: rnd() < 0.5 ? 'female' : 'male', unit: ['Birch', 'Cedar', 'Alder', 'Rowan', 'Small'][rnd() < 0.006 ? 4 : Math.floor(rnd() * 4)] },
     });
   }
   return rows;

@@ -4,12 +4,18 @@ import { closeDatabase, initDatabase } from './dataSource';
 import { seedAccounts } from './seeds/accounts';
 import { seedGovernance } from './seeds/governance';
 import { seedCohorts } from './seeds/cohorts';
+import { seedRuns } from './seeds/runs';
+import { seedKestrelScore } from './seeds/scenario';
 
 /** Seeds the invented demo scenario. Idempotent: a second run changes nothing. */
 export async function seedDemo(): Promise<void> {
   await seedAccounts();
+  // The fictional Kestrel score with versions 1 and 2 (seeds/scenario.ts).
+  await seedKestrelScore();
   // After the score seed (seedKestrelScore): the demo quarters need the Kestrel score version.
   await seedCohorts();
+  // Completed validation runs of Kestrel v2 on each demo quarter (seeds/runs.ts).
+  await seedRuns();
   // Reviews and signatures on the demo runs (seeds/governance.ts): keep this last, after the runs are seeded.
   await seedGovernance();
 }

@@ -2,9 +2,11 @@
 // tests/api/accessControl.test.ts walks this table; a route missing here is not mounted at all.
 import { rateLimit } from 'express-rate-limit';
 import { auditQuery } from '@shared/audit';
+import { createRunRequest, runCompareQuery, runListQuery } from '@shared/runs';
 import { changePasswordRequest, createUserRequest, idParam, loginRequest, resetPasswordRequest, updateUserRequest } from '@shared/auth';
 import { commentRequest, reviewRequest, revokeRequest, signoffRequest, versionIdParam } from '@shared/governance';
 import { cohortListQuery, cohortRowsQuery, commitRequest, mappingListQuery, mappingRequest, pageQuery, saveMappingRequest, uuidParam, versionParams } from '@shared/cohorts';
+import { createScoreRequest, createScoreVersionRequest, scoreIdParam, scoreVersionParams, updateScoreRequest } from '@shared/scores';
 import { config } from '../config';
 import * as audit from './audit';
 import * as auth from './auth';
@@ -12,9 +14,14 @@ import * as cohorts from './cohorts';
 import type { RouteDef } from './define';
 import * as governance from './governance';
 import * as health from './health';
+import * as runs from './runs';
+import * as scores from './scores';
 import * as users from './users';
 
 const ADMIN = ['admin'] as const;
+// The score registry: statisticians and admins write; stewards and the chair read; clinicians read score cards elsewhere.
+const SCORE_WRITERS = ['statistician', 'admin'] as const;
+const SCORE_READERS = ['statistician', 'admin', 'steward', 'chair'] as const;
 const COHORT_WRITERS = ['steward', 'statistician'] as const;
 const COHORT_READERS = ['steward', 'statistician', 'chair', 'admin'] as const;
 // Everyone but clinicians works on runs; clinicians read score cards only.
@@ -46,6 +53,13 @@ export const routes: RouteDef[] = [
   { method: 'get', path: '/api/audit', access: ADMIN, summary: 'list and filter the audit trail', query: auditQuery, handler: audit.list },
   { method: 'get', path: '/api/audit/verify', access: ADMIN, summary: 'check the audit hash chain', handler: audit.verify },
 
+  // Validation runs. /options and /compare before /:id so the literal paths are not taken for an id.
+  { method: 'post', path: '/api/runs', access: ['steward', 'statistician'], summary: 'queue a validation run', body: createRunRequest, handler: runs.create },
+  { method: 'get', path: '/api/runs', access: ['steward', 'statistician', 'chair', 'admin'], summary: 'list validation runs (filter by score, status; paged)', query: runListQuery, handler: runs.list },
+  { method: 'get', path: '/api/runs/options', access: ['steward', 'statistician'], summary: 'score and cohort versions a run may use', handler: runs.options },
+  { method: 'get', path: '/api/runs/compare', access: ['statistician', 'chair', 'admin'], summary: 'compare the headline figures of two runs', query: runCompareQuery, handler: runs.compare },
+  { method: 'get', path: '/api/runs/:id', access: ['steward', 'statistician', 'chair', 'admin'], summary: 'one validation run with its results', params: idParam, handler: runs.get },
+  { method: 'post', path: '/api/runs/:id/reproduce', access: ['statistician', 'admin'], summary: 're-compute a completed run and compare its hash', params: idParam, handler: runs.reproduce },
   { method: 'get', path: '/api/runs/:id/review', access: RUN_TEAM, summary: 'reviews, signature manifest and next allowed acts on a run', params: idParam, handler: governance.getReview },
   { method: 'post', path: '/api/runs/:id/review', access: ['statistician'], summary: 'record or revise the review of a completed run', params: idParam, body: reviewRequest, handler: governance.postReview },
   { method: 'post', path: '/api/runs/:id/signoff', access: ['chair'], summary: 'sign: approve for clinical use or return (password re-entered)', params: idParam, body: signoffRequest, handler: governance.signoff },
@@ -73,4 +87,13 @@ export const routes: RouteDef[] = [
   { method: 'post', path: '/api/uploads/:id/discard', access: COHORT_WRITERS, summary: 'discard an upload and its temp file', params: uuidParam, handler: cohorts.discard },
   { method: 'get', path: '/api/mappings', access: COHORT_WRITERS, summary: 'saved column mappings', query: mappingListQuery, handler: cohorts.listMappings },
   { method: 'post', path: '/api/mappings', access: COHORT_WRITERS, summary: 'save a column mapping for reuse', body: saveMappingRequest, handler: cohorts.saveMapping },
+  { method: 'get', path: '/api/scores', access: SCORE_READERS, summary: 'list scores with their version counts', handler: scores.list },
+  { method: 'post', path: '/api/scores', access: SCORE_WRITERS, summary: 'register a score (its description; formulas are versions)', body: createScoreRequest, handler: scores.create },
+  { method: 'get', path: '/api/scores/:id', access: SCORE_READERS, summary: 'a score with its version history', params: scoreIdParam, handler: scores.get },
+  { method: 'patch', path: '/api/scores/:id', access: SCORE_WRITERS, summary: 'change the description of a score', params: scoreIdParam, body: updateScoreRequest, handler: scores.update },
+  { method: 'get', path: '/api/scores/:id/versions', access: SCORE_READERS, summary: 'version history, newest first', params: scoreIdParam, handler: scores.listVersions },
+  { method: 'post', path: '/api/scores/:id/versions', access: SCORE_WRITERS, summary: 'add the next version (form body or an imported --model file)', params: scoreIdParam, body: createScoreVersionRequest, handler: scores.createVersion },
+  { method: 'get', path: '/api/scores/:id/versions/:version', access: SCORE_READERS, summary: 'one score version', params: scoreVersionParams, handler: scores.getVersion },
+  { method: 'patch', path: '/api/scores/:id/versions/:version', access: SCORE_WRITERS, summary: 'always refused (409): versions are never edited; create the next one', params: scoreVersionParams, handler: scores.editVersion },
+  { method: 'get', path: '/api/scores/:id/versions/:version/export', access: SCORE_READERS, summary: 'download the formula as a --model JSON file', params: scoreVersionParams, handler: scores.exportVersion },
 ];

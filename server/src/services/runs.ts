@@ -224,11 +224,14 @@ export async function processNextRun(): Promise<string | null> {
   const run = await dataSource.getRepository(ValidationRun).findOneOrFail({ where: { id: claimed } });
 
   let lastWrite = 0;
+  let lastMessage = '';
   let pending: Promise<unknown> = Promise.resolve();
+  // A new step is always written; repeated ticks of the same step at most every PROGRESS_WRITE_MS.
   const onProgress = (fraction: number, message: string) => {
     const now = Date.now();
-    if (now - lastWrite < PROGRESS_WRITE_MS && fraction < 1) return;
+    if (message === lastMessage && now - lastWrite < PROGRESS_WRITE_MS && fraction < 1) return;
     lastWrite = now;
+    lastMessage = message;
     pending = pending.then(() =>
       dataSource
         .query(`UPDATE validation_runs SET progress = $2, progress_message = $3 WHERE id = $1 AND status = 'running'`, [claimed, Math.min(0.99, Math.max(0, fraction)), message])

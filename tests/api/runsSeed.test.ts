@@ -1,0 +1,60 @@
+// The demo runs seed: Kestrel v2 on each demo quarter, completed with hashes that the API's reproduce confirms.
+import request from 'supertest';
+import { describe, expect, it } from 'vitest';
+import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME, seedCohorts } from '../../server/src/db/seeds/cohorts';
+import { seedRuns } from '../../server/src/db/seeds/runs';
+import { app, bearer, dataSource, tokenFor, useDatabase } from '../helpers/api';
+import { FIXTURE_MODEL } from '../helpers/fixtures';
+
+useDatabase();
+
+/** The score seed may not have run in this database: add a minimal Kestrel score with two versions if absent. */
+async function ensureKestrel(): Promise<void> {
+  const have: { id: string }[] = await dataSource.query('SELECT id FROM scores WHERE name = $1', [KESTREL_SCORE_NAME]);
+  let id = have[0]?.id;
+  if (!id) {
+    const rows: { id: string }[] = await dataSource.query(
+      `INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
+       VALUES ($1, 'unplanned readmission within 30 days', '30 days', 'adults discharged alive', 'fictional citation (test)', 'test caution') RETURNING id`,
+      [KESTREL_SCORE_NAME],
+    );
+    id = rows[0].id;
+  }
+  for (const version of [1, 2]) {
+    await dataSource.query(
+      `INSERT INTO score_versions (score_id, version, mode, model) SELECT $1, $2, 'formula', $3::jsonb
+       WHERE NOT EXISTS (SELECT 1 FROM score_versions WHERE score_id = $1 AND version = $2)`,
+      [id, version, JSON.stringify(FIXTURE_MODEL)],
+    );
+  }
+}
+
+const demoRuns = async () =>
+  (
+    await dataSource.query(
+      `SELECT r.id, r.status, r.results_sha256 FROM validation_runs r
+       JOIN score_versions sv ON sv.id = r.score_version_id JOIN scores s ON s.id = sv.score_id
+       JOIN cohort_versions cv ON cv.id = r.cohort_version_id JOIN cohorts c ON c.id = cv.cohort_id
+       WHERE s.name = $1 AND sv.version = 2 AND c.name = $2`,
+      [KESTREL_SCORE_NAME, DEMO_COHORT_NAME],
+    )
+  ) as { id: string; status: string; results_sha256: string }[];
+
+describe('seedRuns', () => {
+  it('stores one completed run per demo quarter, once, reproducible through the API', async () => {
+    await ensureKestrel();
+    await seedCohorts();
+    await seedRuns();
+    const first = await demoRuns();
+    expect(first).toHaveLength(8);
+    expect(first.every((r) => r.status === 'completed' && /^[0-9a-f]{64}$/.test(r.results_sha256))).toBe(true);
+    await seedRuns();
+    expect(await demoRuns()).toHaveLength(8);
+    const res = await request(app).post(`/api/runs/${first[0].id}/reproduce`).set(bearer(await tokenFor('statistician')));
+    expect(res.status).toBe(200);
+    expect(res.body.match).toBe(true);
+    const run = await request(app).get(`/api/runs/${first[0].id}`).set(bearer(await tokenFor('chair')));
+    expect(run.body.run.results.periods).toHaveLength(3); // monthly periods of one quarter
+    expect(run.body.run.settings.subgroupColumns).toEqual(['sex', 'age_band', 'unit', 'site']);
+  });
+});
