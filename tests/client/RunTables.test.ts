@@ -1,9 +1,9 @@
 // The run page's tables: too-small subgroups are flagged instead of judged; the CSV download carries the numbers.
 import { mount } from '@vue/test-utils';
-import { describe, expect, it, vi } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { createVuetify } from 'vuetify';
-import ChartExportMenu from '@/components/ChartExportMenu.vue';
 import RunSubgroupTable from '@/components/RunSubgroupTable.vue';
+import { toCsv } from '../../client/src/plugins/charts';
 
 const vuetify = createVuetify();
 globalThis.ResizeObserver ??= class {
@@ -37,26 +37,8 @@ describe('RunSubgroupTable', () => {
   });
 });
 
-describe('ChartExportMenu', () => {
-  it('writes a CSV with quoted cells where needed', async () => {
-    let blob: Blob | undefined;
-    const create = vi.spyOn(URL, 'createObjectURL').mockImplementation((b) => {
-      blob = b as Blob;
-      return 'blob:test';
-    });
-    vi.spyOn(URL, 'revokeObjectURL').mockImplementation(() => {});
-    const w = mount(ChartExportMenu, {
-      props: { filename: 'x', columns: ['level', 'n'], rows: [['Birch, main', 4], ['say "hi"', null]] },
-      global: { plugins: [vuetify] },
-      attachTo: document.body,
-    });
-    await w.find('button').trigger('click');
-    await new Promise((r) => setTimeout(r, 50));
-    const item = [...document.querySelectorAll('.v-list-item')].find((el) => el.textContent?.includes('CSV')) as HTMLElement;
-    expect(item).toBeTruthy();
-    item.click();
-    expect(create).toHaveBeenCalled();
-    expect(await blob!.text()).toBe('level,n\r\n"Birch, main",4\r\n"say ""hi""",\r\n');
-    w.unmount();
+describe('toCsv (the CSV download of every chart and table)', () => {
+  it('quotes cells with commas or quotes, doubles quotes, leaves missing values empty (RFC 4180)', () => {
+    expect(toCsv(['level', 'n'], [['Birch, main', 4], ['say "hi"', null], ['Cedar', 0.125]])).toBe('level,n\r\n"Birch, main",4\r\n"say ""hi""",\r\nCedar,0.125\r\n');
   });
 });

@@ -100,9 +100,18 @@ describe.skipIf(skipPython)('Spector & Mazzeo (1980) data, as shipped by statsmo
     if (!fit.converged) throw new Error(fit.detail);
     const expected = [-13.0213483201, 2.82611297201, 0.0951576702557, 2.37868772835]; // REFERENCES.md [ref], Greene to 3 d.p. [mem]
     const se = [4.93132462871, 1.26294114526, 0.141554207662, 1.06456430165]; // REFERENCES.md [ref]
-    fit.coefficients.forEach((c, i) => expect(c).toBeCloseTo(expected[i], 8));
-    fit.se.forEach((c, i) => expect(c).toBeCloseTo(se[i], 7));
-    expect(fit.logLik).toBeCloseTo(-12.8896334653335, 9); // REFERENCES.md [ref]
+    // REFERENCES.md's figures differ from a fully converged fit in the 7th significant digit (statsmodels 0.13.5 with
+    // tol=1e-14 gives −13.02134686 and llf −12.88963422, as this engine does), so they are checked to 5 decimals here
+    // and to 1e-8 against statsmodels itself below.
+    fit.coefficients.forEach((c, i) => expect(c).toBeCloseTo(expected[i], 5));
+    fit.se.forEach((c, i) => expect(c).toBeCloseTo(se[i], 5));
+    expect(fit.logLik).toBeCloseTo(-12.8896334653335, 5); // REFERENCES.md [ref]
+    const sm = runPython(
+      'import json, statsmodels.api as sm; d = sm.datasets.spector.load_pandas(); r = sm.Logit(d.endog, sm.add_constant(d.exog)).fit(disp=0, tol=1e-14, maxiter=200); print(json.dumps({"b": r.params.tolist(), "se": r.bse.tolist(), "llf": r.llf}))',
+    );
+    fit.coefficients.forEach((c, i) => expect(Math.abs(c - sm.b[i]) / Math.abs(sm.b[i])).toBeLessThan(1e-8)); // statsmodels Logit, run here [ref]
+    fit.se.forEach((c, i) => expect(Math.abs(c - sm.se[i]) / sm.se[i]).toBeLessThan(1e-8)); // statsmodels Logit [ref]
+    expect(Math.abs(fit.logLik - sm.llf)).toBeLessThan(1e-9); // statsmodels Logit [ref]
   });
   it('gives the in-sample AUC, Brier, log loss and Spiegelhalter z', () => {
     if (!fit.converged) throw new Error(fit.detail);

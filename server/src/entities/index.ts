@@ -1,8 +1,10 @@
 // Every entity, listed once: the DataSource and the tests read this list.
+import { AlertRule } from './AlertRule';
 import { AuditEntry } from './AuditEntry';
 import { Cohort } from './Cohort';
 import { CohortVersion } from './CohortVersion';
 import { ColumnMapping } from './ColumnMapping';
+import { DriftAlert } from './DriftAlert';
 import { EmailOutbox } from './EmailOutbox';
 import { RunComment } from './RunComment';
 import { RunReview } from './RunReview';
@@ -12,5 +14,5 @@ import { Signature } from './Signature';
 import { User } from './User';
 import { ValidationRun } from './ValidationRun';
 
-export { AuditEntry, Cohort, CohortVersion, ColumnMapping, Score, ScoreVersion, User, ValidationRun, RunReview, Signature, RunComment, EmailOutbox };
-export const entities = [User, AuditEntry, Score, ScoreVersion, Cohort, ColumnMapping, CohortVersion, ValidationRun, RunReview, Signature, RunComment, EmailOutbox];
+export { AuditEntry, Cohort, CohortVersion, ColumnMapping, Score, ScoreVersion, User, ValidationRun, RunReview, Signature, RunComment, EmailOutbox, AlertRule, DriftAlert };
+export const entities = [User, AuditEntry, Score, ScoreVersion, Cohort, ColumnMapping, CohortVersion, ValidationRun, RunReview, Signature, RunComment, EmailOutbox, AlertRule, DriftAlert];

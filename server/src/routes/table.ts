@@ -10,8 +10,10 @@ import { createScoreRequest, createScoreVersionRequest, scoreIdParam, scoreVersi
 import { config } from '../config';
 import * as audit from './audit';
 import * as auth from './auth';
+import { sampleSizeQuery } from '@shared/drift';
 import * as cohorts from './cohorts';
 import type { RouteDef } from './define';
+import * as drift from './drift';
 import * as governance from './governance';
 import * as health from './health';
 import * as runs from './runs';
@@ -52,6 +54,7 @@ export const routes: RouteDef[] = [
 
   { method: 'get', path: '/api/audit', access: ADMIN, summary: 'list and filter the audit trail', query: auditQuery, handler: audit.list },
   { method: 'get', path: '/api/audit/verify', access: ADMIN, summary: 'check the audit hash chain', handler: audit.verify },
+  { method: 'get', path: '/api/audit.csv', access: ADMIN, summary: 'download the filtered audit trail as CSV', query: auditQuery, handler: audit.csv },
 
   // Validation runs. /options and /compare before /:id so the literal paths are not taken for an id.
   { method: 'post', path: '/api/runs', access: ['steward', 'statistician'], summary: 'queue a validation run', body: createRunRequest, handler: runs.create },
@@ -96,4 +99,6 @@ export const routes: RouteDef[] = [
   { method: 'get', path: '/api/scores/:id/versions/:version', access: SCORE_READERS, summary: 'one score version', params: scoreVersionParams, handler: scores.getVersion },
   { method: 'patch', path: '/api/scores/:id/versions/:version', access: SCORE_WRITERS, summary: 'always refused (409): versions are never edited; create the next one', params: scoreVersionParams, handler: scores.editVersion },
   { method: 'get', path: '/api/scores/:id/versions/:version/export', access: SCORE_READERS, summary: 'download the formula as a --model JSON file', params: scoreVersionParams, handler: scores.exportVersion },
+
+  { method: 'get', path: '/api/sample-size', access: RUN_TEAM, summary: 'sample-size planner for external validation (Riley et al. 2021)', query: sampleSizeQuery, handler: drift.sampleSize },
 ];

@@ -20,8 +20,13 @@ describe('Riley et al. (2021) sample-size criteria', () => {
   it('the anticipated normal LP reproduces the event rate and C it was solved for', () => {
     const lp = anticipatedLpDistribution(0.018, 0.8);
     // check by simulation (independent of the grid): draw LP, outcomes from expit(LP)
-    let seed = 12345;
-    const rnd = () => ((seed = (seed * 1103515245 + 12345) % 2147483648) / 2147483648);
+    let seed = 12345; // mulberry32 PRNG (common practice, no source)
+    const rnd = () => {
+      seed = (seed + 0x6d2b79f5) | 0;
+      let t = Math.imul(seed ^ (seed >>> 15), 1 | seed);
+      t = (t + Math.imul(t ^ (t >>> 7), 61 | t)) ^ t;
+      return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+    };
     const n = 200_000;
     const x: number[] = [];
     const yy: number[] = [];

@@ -1,0 +1,74 @@
+// A steward uploads the invented 2026-Q1 demo file, maps its columns, sees the rejected rows, excludes them,
+// and sees the stored cohort version with its SHA-256.
+import { createHash } from 'node:crypto';
+import { mkdirSync, readFileSync } from 'node:fs';
+import path from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { closeDatabase, dataSource, initDatabase } from '../../server/src/db/dataSource';
+import { appUrl, startAppServer, stopAppServer } from '../helpers/appServer';
+import { launchBrowser, signIn, type BrowserSession } from '../helpers/browser';
+
+const artifacts = fileURLToPath(new URL('../artifacts', import.meta.url));
+const fixture = fileURLToPath(new URL('../fixtures/kestrel-2026q1.csv', import.meta.url));
+const scoreName = `Browser upload score ${Date.now()}`;
+let browser: BrowserSession;
+
+beforeAll(async () => {
+  mkdirSync(artifacts, { recursive: true });
+  await initDatabase(true);
+  const model = {
+    intercept: -3.6,
+    predictors: [
+      { column: 'age', coefficient: 0.012, transform: 'linear' },
+      { column: 'length_of_stay', coefficient: 0.35, transform: 'log' },
+      { column: 'prior_admissions', coefficient: 0.28, transform: 'linear' },
+      { column: 'emergency_admission', coefficient: 0.45, transform: 'indicator', level: 'yes' },
+      { column: 'charlson_index', coefficient: 0.11, transform: 'linear' },
+    ],
+  };
+  const [s] = await dataSource.query(
+    `INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
+     VALUES ($1, 'readmission', '30 days', 'adults', 'invented for tests', 'not medical advice') RETURNING id`,
+    [scoreName],
+  );
+  await dataSource.query(`INSERT INTO score_versions (score_id, version, mode, model) VALUES ($1, 1, 'formula', $2)`, [s.id, JSON.stringify(model)]);
+  await startAppServer();
+  browser = await launchBrowser();
+});
+
+afterAll(async () => {
+  await browser?.close();
+  await stopAppServer();
+  await closeDatabase();
+});
+
+describe('cohort upload in the browser', () => {
+  it('uploads, maps, shows rejected rows, excludes them and shows the stored version', async () => {
+    const page = await browser.context.newPage();
+    await signIn(page, 'steward@demo.test');
+    await page.goto(`${appUrl}/cohorts/upload`);
+    await page.locator('[data-test="file-input"] input[type="file"]').setInputFiles(fixture);
+    await page.locator('[data-test="score-select"]').click();
+    await page.getByRole('option', { name: new RegExp(scoreName) }).click();
+    const cohortName = `Fernhollow 2026 browser ${Date.now()}`;
+    await page.locator('[data-test="cohort-name"] input').fill(cohortName);
+    await page.locator('[data-test="cohort-label"] input').fill('2026-Q1');
+    await page.locator('[data-test="send"]').click();
+    await page.getByText('Screened: no direct identifiers').waitFor({ timeout: 30_000 });
+    await page.screenshot({ path: path.join(artifacts, 'cohort-upload-mapping.png'), fullPage: true });
+    await page.locator('[data-test="check-rows"]').click();
+    await page.locator('[data-test="check-summary"]').waitFor({ timeout: 60_000 });
+    expect(await page.locator('[data-test="check-summary"]').innerText()).toMatch(/495 rows pass the checks; 5 rows were rejected/);
+    await expect.poll(() => page.locator('[data-test="rejections"] tbody tr').count()).toBe(5);
+    expect(await page.locator('[data-test="rejections"]').innerText()).toMatch(/maybe/);
+    await page.screenshot({ path: path.join(artifacts, 'cohort-upload-rejections.png'), fullPage: true });
+    await page.locator('[data-test="store"]').click();
+    await page.locator('[data-test="version-detail"]').waitFor({ timeout: 60_000 });
+    expect(await page.locator('[data-test="row-count"]').innerText()).toBe('495');
+    expect((await page.locator('[data-test="excluded-count"]').innerText()).startsWith('5')).toBe(true);
+    expect(await page.locator('[data-test="sha256"]').innerText()).toBe(createHash('sha256').update(readFileSync(fixture)).digest('hex'));
+    await page.screenshot({ path: path.join(artifacts, 'cohort-stored.png'), fullPage: true });
+    await page.close();
+  });
+});
