@@ -24,11 +24,12 @@ export function zodMessage(err: ZodError): string {
 }
 
 /** PostgreSQL connection failures: the API answers 503 rather than 500. */
-function isDatabaseDown(err: unknown): boolean {
+export function isDatabaseDown(err: unknown): boolean {
   const e = err as { code?: string; message?: string } | undefined;
   if (!e) return false;
-  if (e.code && ['ECONNREFUSED', 'ECONNRESET', '57P01', '57P03', '08006', '08001', '08003'].includes(e.code)) return true;
-  return /Connection terminated|connect ECONNREFUSED|timeout exceeded when trying to connect|Connection is not established/i.test(
+  // 57P01/57P02/57P03: admin, crash or start-up shutdown; 08xxx: connection exceptions; 53300: too many connections.
+  if (e.code && ['ECONNREFUSED', 'ECONNRESET', 'ETIMEDOUT', 'EPIPE', 'EHOSTUNREACH', '57P01', '57P02', '57P03', '08000', '08006', '08001', '08003', '08004', '53300'].includes(e.code)) return true;
+  return /Connection terminated|connect ECONNREFUSED|timeout exceeded when trying to connect|Connection is not established|terminating connection due to|the database system is (starting up|shutting down|in recovery mode)/i.test(
     e.message ?? '',
   );
 }

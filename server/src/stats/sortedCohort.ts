@@ -91,8 +91,8 @@ export function sortNonNegative(a: Float64Array): void {
     a.sort();
     return;
   }
-  let src = a;
-  let dst = new Float64Array(n);
+  let src: Float64Array = a;
+  let dst: Float64Array = new Float64Array(n);
   const count = new Uint32Array(65536);
   for (let pass = 0; pass < 4; pass++) {
     const words = new Uint32Array(src.buffer, src.byteOffset, n * 2);
