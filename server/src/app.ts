@@ -4,6 +4,7 @@ import { existsSync } from 'node:fs';
 import path from 'node:path';
 import { config } from './config';
 import { errorHandler, HttpError } from './middleware/errors';
+import { refuseBadText } from './middleware/textGuard';
 import { mountRoutes } from './routes/define';
 import { routes } from './routes/table';
 
@@ -30,6 +31,7 @@ export function createApp(options: { serveClient?: boolean } = {}) {
     }),
   );
   app.use('/api', express.json({ limit: '1mb' }));
+  app.use('/api', refuseBadText);
 
   const api = express.Router();
   mountRoutes(api, routes);

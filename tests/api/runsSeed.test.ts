@@ -3,31 +3,10 @@ import request from 'supertest';
 import { describe, expect, it } from 'vitest';
 import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME, seedCohorts } from '../../server/src/db/seeds/cohorts';
 import { seedRuns } from '../../server/src/db/seeds/runs';
+import { seedKestrelScore } from '../../server/src/db/seeds/scenario';
 import { app, bearer, dataSource, tokenFor, useDatabase } from '../helpers/api';
-import { FIXTURE_MODEL } from '../helpers/fixtures';
 
 useDatabase();
-
-/** The score seed may not have run in this database: add a minimal Kestrel score with two versions if absent. */
-async function ensureKestrel(): Promise<void> {
-  const have: { id: string }[] = await dataSource.query('SELECT id FROM scores WHERE name = $1', [KESTREL_SCORE_NAME]);
-  let id = have[0]?.id;
-  if (!id) {
-    const rows: { id: string }[] = await dataSource.query(
-      `INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
-       VALUES ($1, 'unplanned readmission within 30 days', '30 days', 'adults discharged alive', 'fictional citation (test)', 'test caution') RETURNING id`,
-      [KESTREL_SCORE_NAME],
-    );
-    id = rows[0].id;
-  }
-  for (const version of [1, 2]) {
-    await dataSource.query(
-      `INSERT INTO score_versions (score_id, version, mode, model) SELECT $1, $2, 'formula', $3::jsonb
-       WHERE NOT EXISTS (SELECT 1 FROM score_versions WHERE score_id = $1 AND version = $2)`,
-      [id, version, JSON.stringify(FIXTURE_MODEL)],
-    );
-  }
-}
 
 const demoRuns = async () =>
   (
@@ -42,7 +21,7 @@ const demoRuns = async () =>
 
 describe('seedRuns', () => {
   it('stores one completed run per demo quarter, once, reproducible through the API', async () => {
-    await ensureKestrel();
+    await seedKestrelScore();
     await seedCohorts();
     await seedRuns();
     const first = (await demoRuns()).filter((r) => r.status === 'completed');

@@ -79,7 +79,7 @@ describe('review, sign-off and score card in the browser', () => {
     try {
       await page.goto(`${new URL(page.url()).origin}/runs/${runId}`);
       await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor({ timeout: 20_000 });
-      await page.getByRole('combobox', { name: 'Verdict' }).click();
+      await page.getByRole('combobox', { name: 'Verdict' }).click({ force: true }); // Vuetify lays its field over the input
       await page.getByRole('option', { name: 'fit for use', exact: true }).click();
       await page.getByLabel('Reasoning').fill('AUC and calibration match the published figures; no subgroup concerns.');
       await page.getByRole('button', { name: 'Save review' }).click();

@@ -1,10 +1,10 @@
-// Runs once before the database-backed suites: migrate the throwaway database and seed the demo accounts.
+// Runs once before the database-backed suites: migrate the throwaway database and seed the whole invented demo scenario (the browser tests read it).
 import 'reflect-metadata';
 import { closeDatabase, initDatabase } from '../../server/src/db/dataSource';
-import { seedAccounts } from '../../server/src/db/seeds/accounts';
+import { seedDemo } from '../../server/src/db/seed';
 
 export default async function setup() {
   await initDatabase(true);
-  await seedAccounts();
+  await seedDemo();
   await closeDatabase();
 }

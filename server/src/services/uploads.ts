@@ -90,6 +90,8 @@ async function removeQuietly(path: string | null | undefined) {
   if (path) await unlink(path).catch(() => undefined);
 }
 
+const MAX_UPLOAD_COLUMNS = Number(process.env.PLUMBLINE_UPLOAD_MAX_COLUMNS ?? 500);
+
 /** Step 1: screen the received file; refuse (422, file deleted) or keep it as a pending upload. */
 export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: UploadFields, ip: string) {
   try {
@@ -103,6 +105,8 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
     }
     const { delimiter } = await sniffCsv(file.path);
     const { headers, sample } = await readHeaderAndSample(file.path, delimiter);
+    // A registry extract has tens of columns; thousands means a wrong file (or a hostile one) — refuse before storing anything.
+    if (headers.length > MAX_UPLOAD_COLUMNS) throw new HttpError(422, `the file has ${headers.length} columns; at most ${MAX_UPLOAD_COLUMNS} are accepted`);
     const screen = screenColumns(headers, sample);
     if (screen.refused.length) {
       await appendAudit({
