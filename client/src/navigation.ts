@@ -15,6 +15,8 @@ export const navigation: NavigationItem[] = [
   { title: 'Scores', icon: 'mdi-function-variant', to: '/scores', roles: ['statistician', 'admin', 'steward', 'chair'] },
   { title: 'Validation runs', icon: 'mdi-chart-bell-curve-cumulative', to: '/runs', roles: ['steward', 'statistician', 'chair', 'admin'] },
   { title: 'Sign-off queue', icon: 'mdi-draw-pen', to: '/signoff-queue', roles: ['chair'] },
+  { title: 'Alerts', icon: 'mdi-bell-alert-outline', to: '/alerts', roles: ['statistician', 'chair', 'admin'] },
+  { title: 'Sample size', icon: 'mdi-calculator-variant-outline', to: '/sample-size', roles: ['admin', 'steward', 'statistician', 'chair'] },
   { title: 'Score cards', icon: 'mdi-card-account-details-outline', to: '/scorecards', roles: ['clinician', 'statistician', 'chair', 'admin'] },
   { title: 'Accounts', icon: 'mdi-account-multiple-outline', to: '/admin/accounts', roles: ['admin'] },
   { title: 'Audit trail', icon: 'mdi-clipboard-text-clock-outline', to: '/admin/audit', roles: ['admin'] },

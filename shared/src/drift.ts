@@ -13,3 +13,169 @@ export const sampleSizeQuery = z
     message: 'give at least one of ciWidthAuc, ciWidthOE, ciWidthSlope',
   });
 export type SampleSizeQuery = z.infer<typeof sampleSizeQuery>;
+
+// ---------- Drift timeline, alerts, alert rules and recalibration (see the drift API contract) ----------
+import type { Estimate } from './validation';
+import type { ScoreModel } from './model';
+
+export const ALERT_RULE_KINDS = ['citl-consecutive', 'cusum', 'oe-limit', 'auc-below'] as const;
+export type AlertRuleKind = (typeof ALERT_RULE_KINDS)[number];
+export const RECALIBRATION_METHODS = ['intercept', 'logistic', 'closed-test'] as const;
+export type RecalibrationMethod = (typeof RECALIBRATION_METHODS)[number];
+
+export interface DriftPoint {
+  index: number;
+  date: string | null;
+  value: number;
+}
+export interface DriftSignal {
+  index: number;
+  date: string | null;
+}
+
+export interface DriftReference {
+  runId: string;
+  label: string;
+  auc: Estimate | null;
+  calibrationIntercept: Estimate | null;
+  calibrationSlope: Estimate | null;
+  oe: Estimate | null;
+}
+
+export interface FunnelPoint {
+  oMinusE: number;
+  lower95: number;
+  upper95: number;
+  lower998: number;
+  upper998: number;
+  status: 'inside' | 'warning' | 'outside';
+}
+
+export interface DriftPeriod {
+  runId: string;
+  label: string;
+  periodStart: string | null;
+  periodEnd: string | null;
+  n: number;
+  events: number;
+  /** observed events and expected events (Σp) in the period. */
+  observed: number;
+  expected: number;
+  auc: Estimate | null;
+  calibrationIntercept: Estimate | null;
+  calibrationSlope: Estimate | null;
+  oe: Estimate | null;
+  funnel: FunnelPoint;
+}
+
+export interface DriftCusum {
+  oddsRatio: number;
+  h: number;
+  points: DriftPoint[];
+  signals: DriftSignal[];
+  improvement: { oddsRatio: number; points: DriftPoint[]; signals: DriftSignal[] };
+}
+
+export interface AlertView {
+  id: string;
+  scoreId: string;
+  scoreName: string;
+  scoreVersionId: string;
+  version: number;
+  ruleKind: AlertRuleKind;
+  period: string;
+  message: string;
+  detail: Record<string, unknown>;
+  raisedAt: string;
+  acknowledgedBy: string | null;
+  acknowledgedAt: string | null;
+  ackNote: string | null;
+}
+
+export interface DriftResponse {
+  scoreId: string;
+  scoreName: string;
+  version: number;
+  versionId: string;
+  reference: DriftReference | null;
+  periods: DriftPeriod[];
+  cusum: DriftCusum;
+  observedMinusExpected: { points: DriftPoint[] };
+  alerts: AlertView[];
+}
+
+export interface AlertListResponse {
+  alerts: AlertView[];
+}
+export interface AlertAckResponse {
+  alert: AlertView;
+}
+
+export interface AlertRuleView {
+  id: string;
+  kind: AlertRuleKind;
+  params: Record<string, unknown>;
+  enabled: boolean;
+}
+export interface AlertRuleListResponse {
+  rules: AlertRuleView[];
+}
+export interface AlertRuleCreateResponse {
+  rule: AlertRuleView;
+}
+
+export const alertAckBody = z.object({ note: z.string().trim().min(1).max(2000) });
+export type AlertAckBody = z.infer<typeof alertAckBody>;
+
+export const alertRuleBody = z.object({
+  kind: z.enum(ALERT_RULE_KINDS),
+  params: z.record(z.string(), z.unknown()).default({}),
+  enabled: z.boolean().default(true),
+});
+export type AlertRuleBody = z.infer<typeof alertRuleBody>;
+
+export const recalibrationBody = z.object({ method: z.enum(RECALIBRATION_METHODS) });
+export type RecalibrationBody = z.infer<typeof recalibrationBody>;
+
+export interface CalibrationPoint {
+  meanPredicted: number;
+  observed: number;
+}
+export interface CalibrationSummary {
+  citl: Estimate | null;
+  slope: Estimate | null;
+  oe: Estimate | null;
+}
+
+export interface Derivation {
+  method: RecalibrationMethod;
+  chosen: 'original' | 'intercept' | 'logistic';
+  intercept: Estimate;
+  slope: Estimate | null;
+  lrTests: { comparison: string; statistic: number; df: number; pValue: number }[];
+  before: CalibrationSummary;
+  after: CalibrationSummary;
+  calibrationBefore: CalibrationPoint[];
+  calibrationAfter: CalibrationPoint[];
+}
+
+export interface RecalibrationPreviewResponse {
+  derivation: Derivation;
+}
+
+export interface RecalibratedVersion {
+  id: string;
+  scoreId: string;
+  version: number;
+  model: ScoreModel | null;
+  derivedFromRunId: string | null;
+  [key: string]: unknown;
+}
+export interface RecalibrateResponse {
+  version: RecalibratedVersion;
+  derivation: Derivation;
+  banner: string;
+}
+
+export const RECALIBRATION_BANNER =
+  'Draft: this recalibrated version must be validated on different data (a later period) and signed off before clinical use.';

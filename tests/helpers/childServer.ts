@@ -27,7 +27,8 @@ export class ServerProcess {
 
   async start(timeoutMs = 60_000): Promise<void> {
     this.output = '';
-    this.child = spawn(process.execPath, [tsxCli, 'server/src/index.ts'], {
+    // One process (tsx as an import hook, not the tsx CLI that runs the server in a grandchild), so SIGKILL hits the server itself.
+    this.child = spawn(process.execPath, ['--import', 'tsx', 'server/src/index.ts'], {
       cwd: repoRoot,
       env: { ...process.env, ...this.env, PORT: String(this.port), NODE_ENV: 'test', PLUMBLINE_CLIENT_DIR: '/nonexistent' },
       stdio: ['ignore', 'pipe', 'pipe'],

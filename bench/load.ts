@@ -1,0 +1,195 @@
+// npm run bench:load — the mixed read workload under concurrent uploads and runs, on loopback, bounded in time.
+//   Reads (autocannon, 50 connections, 30 s): GET /api/runs/:id (run pages), GET /api/scorecards (score cards),
+//   GET /api/cohorts (cohort lists), rotating per connection.
+//   Meanwhile: 5 uploads of 100,000-row cohorts (upload → mapping → row checks → store) and 2 validation runs.
+//   The server is a child process on 127.0.0.1 with the demo seed in the PG* database; its event-loop delay is
+//   measured inside it (bench/eventLoopProbe.mjs). Settings: BENCH_SECONDS, BENCH_CONNECTIONS, BENCH_UPLOADS,
+//   BENCH_UPLOAD_ROWS, BENCH_RUNS, BENCH_PORT. Last line: `p95_ms <number> errors <number>`.
+import 'reflect-metadata';
+import autocannon from 'autocannon';
+import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
+import { once } from 'node:events';
+import net from 'node:net';
+import path from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { DEMO_PASSWORD } from '../server/src/config';
+import { KESTREL_MAPPING } from '../server/src/db/seeds/cohorts';
+import { kestrelQuarterCsv } from '../server/src/db/seeds/kestrelData';
+
+const root = fileURLToPath(new URL('..', import.meta.url));
+const SECONDS = Number(process.env.BENCH_SECONDS ?? 30);
+const CONNECTIONS = Number(process.env.BENCH_CONNECTIONS ?? 50);
+const UPLOADS = Number(process.env.BENCH_UPLOADS ?? 5);
+const UPLOAD_ROWS = Number(process.env.BENCH_UPLOAD_ROWS ?? 100_000);
+const RUNS = Number(process.env.BENCH_RUNS ?? 2);
+const HARD_LIMIT_MS = (SECONDS + 600) * 1000;
+
+async function freePort(): Promise<number> {
+  if (process.env.BENCH_PORT) return Number(process.env.BENCH_PORT);
+  for (let p = 3850; p < 3900; p++) {
+    const busy = await new Promise<boolean>((resolve) => {
+      const s = net.connect({ host: '127.0.0.1', port: p }, () => { s.destroy(); resolve(true); });
+      s.on('error', () => resolve(false));
+    });
+    if (!busy) return p;
+  }
+  throw new Error('no free port in 3850–3899');
+}
+
+function percentile(sorted: number[], q: number): number {
+  if (!sorted.length) return NaN;
+  return sorted[Math.min(sorted.length - 1, Math.max(0, Math.ceil(q * sorted.length) - 1))];
+}
+
+const log = (msg: string) => console.log(`[bench] ${msg}`);
+
+async function main() {
+  const watchdog = setTimeout(() => { console.error('[bench] hard time limit reached, stopping'); process.exit(2); }, HARD_LIMIT_MS);
+  watchdog.unref();
+
+  log(`demo seed into ${process.env.PGDATABASE ?? 'plumbline'} (idempotent)`);
+  const seed = spawnSync(process.execPath, ['--import', 'tsx', 'server/src/db/seed.ts'], { cwd: root, stdio: 'inherit', env: process.env });
+  if (seed.status !== 0) throw new Error('seeding failed');
+
+  const port = await freePort();
+  const base = `http://127.0.0.1:${port}`;
+  const child: ChildProcess = spawn(process.execPath, ['--import', 'tsx', '--import', './bench/eventLoopProbe.mjs', 'server/src/index.ts'], {
+    cwd: root,
+    env: { ...process.env, PORT: String(port), NODE_ENV: 'production', PLUMBLINE_CLIENT_DIR: path.join(root, 'dist/client'), PLUMBLINE_LOGIN_MAX_PER_IP: '100000' },
+    stdio: ['ignore', 'pipe', 'pipe', 'ipc'],
+  });
+  let serverOut = '';
+  child.stdout?.on('data', (d) => (serverOut += d));
+  child.stderr?.on('data', (d) => (serverOut += d));
+  const stopServer = async () => {
+    if (child.exitCode === null) {
+      child.kill('SIGTERM');
+      await Promise.race([once(child, 'exit'), new Promise((r) => setTimeout(r, 10_000))]);
+      if (child.exitCode === null) child.kill('SIGKILL');
+    }
+  };
+  try {
+    for (let i = 0; ; i++) {
+      if (child.exitCode !== null || i > 300) throw new Error(`server did not start:\n${serverOut.slice(-3000)}`);
+      const ok = await fetch(`${base}/api/health`).then((r) => r.ok, () => false);
+      if (ok) break;
+      await new Promise((r) => setTimeout(r, 200));
+    }
+    const loopStats = (msg: string) =>
+      new Promise<Record<string, number>>((resolve) => {
+        child.once('message', (m) => resolve(m as Record<string, number>));
+        child.send(msg);
+      });
+
+    const login = async (role: string) => {
+      const r = await fetch(`${base}/api/auth/login`, { method: 'POST', headers: { 'Content-Type': 'application/json' }, body: JSON.stringify({ email: `${role}@demo.test`, password: DEMO_PASSWORD }) });
+      if (!r.ok) throw new Error(`login ${role}: ${r.status}`);
+      return { Authorization: `Bearer ${((await r.json()) as { token: string }).token}` };
+    };
+    const admin = await login('admin');
+    const steward = await login('steward');
+    const statistician = await login('statistician');
+    const getJson = async (p: string, h: Record<string, string>) => {
+      const r = await fetch(`${base}${p}`, { headers: h });
+      return { status: r.status, body: (await r.json().catch(() => ({}))) as Record<string, unknown> };
+    };
+
+    // What the reads hit: a completed run, the score cards, the cohort list.
+    const runs = await getJson('/api/runs?status=completed', admin);
+    const runList = ((runs.body.runs ?? runs.body.items ?? []) as { id: string }[]);
+    const reads: { method: 'GET'; path: string; headers: Record<string, string> }[] = [];
+    if (runList[0]) reads.push({ method: 'GET', path: `/api/runs/${runList[0].id}`, headers: admin });
+    if ((await getJson('/api/scorecards', admin)).status === 200) reads.push({ method: 'GET', path: '/api/scorecards', headers: admin });
+    if ((await getJson('/api/cohorts', admin)).status === 200) reads.push({ method: 'GET', path: '/api/cohorts', headers: admin });
+    if (!reads.length) throw new Error('none of the read routes answer; is the demo seeded?');
+    log(`reads: ${reads.map((r) => r.path).join(', ')}`);
+
+    // Background work: options for runs (score and cohort versions), and the upload file text.
+    const options = await getJson('/api/runs/options', steward);
+    // The demo's Kestrel formula (latest version) for uploads and runs; runs on the largest demo cohort versions.
+    const svs = (options.body.scoreVersions as { id: string; mode: string; scoreName: string; version: number }[] | undefined) ?? [];
+    const sv = svs.filter((v) => v.mode === 'formula' && v.scoreName === 'Kestrel 30-day Readmission Score').sort((a, b) => b.version - a.version)[0];
+    const cv = ((options.body.cohortVersions as { id: string; rowCount: number; cohortName: string }[] | undefined) ?? [])
+      .filter((v) => !v.cohortName.startsWith('Bench cohort'))
+      .sort((a, b) => b.rowCount - a.rowCount);
+    const csvText = `${[...kestrelQuarterCsv({ year: 2025, quarter: 4, index: 7, n: UPLOAD_ROWS, seed: 777 })].join('\n')}\n`;
+    const stamp = Date.now();
+    const background: string[] = [];
+
+    const uploadOne = async (i: number) => {
+      const t0 = Date.now();
+      const form = new FormData();
+      form.set('scoreVersionId', sv?.id ?? '');
+      form.set('cohortName', `Bench cohort ${stamp}-${i} (invented data)`);
+      form.set('file', new Blob([csvText], { type: 'text/csv' }), `bench-${i}.csv`);
+      const created = await fetch(`${base}/api/cohorts`, { method: 'POST', headers: steward, body: form });
+      const cj = (await created.json()) as { upload?: { id: string }; error?: string };
+      if (!cj.upload) return `upload ${i}: ${created.status} ${cj.error}`;
+      const id = cj.upload.id;
+      const mapped = await fetch(`${base}/api/uploads/${id}/mapping`, { method: 'POST', headers: { ...steward, 'Content-Type': 'application/json' }, body: JSON.stringify({ mapping: KESTREL_MAPPING }) });
+      if (!mapped.ok) return `upload ${i}: mapping ${mapped.status}`;
+      for (let t = 0; t < 1200; t++) {
+        const u = (await getJson(`/api/uploads/${id}`, steward)).body.upload as { status: string } | undefined;
+        if (u?.status !== 'processing') break;
+        await new Promise((r) => setTimeout(r, 250));
+      }
+      const commit = await fetch(`${base}/api/uploads/${id}/commit`, { method: 'POST', headers: { ...steward, 'Content-Type': 'application/json' }, body: JSON.stringify({ excludeRejected: true }) });
+      return `upload ${i}: ${UPLOAD_ROWS.toLocaleString('en')} rows stored=${commit.status} in ${Date.now() - t0} ms`;
+    };
+    const runOne = async (i: number) => {
+      const t0 = Date.now();
+      if (!sv || !cv.length) return `run ${i}: no score/cohort version to run`;
+      const created = await fetch(`${base}/api/runs`, { method: 'POST', headers: { ...statistician, 'Content-Type': 'application/json' }, body: JSON.stringify({ scoreVersionId: sv.id, cohortVersionId: cv[i % cv.length].id }) });
+      const body = (await created.json()) as { run?: { id: string }; id?: string; error?: string };
+      const id = body.run?.id ?? body.id;
+      if (!id) return `run ${i}: ${created.status} ${body.error}`;
+      for (let t = 0; t < 2400; t++) {
+        const r = (await getJson(`/api/runs/${id}`, statistician)).body as { run?: { status: string }; status?: string };
+        const status = r.run?.status ?? r.status;
+        if (status === 'completed' || status === 'failed') return `run ${i}: ${status} in ${Date.now() - t0} ms`;
+        await new Promise((r2) => setTimeout(r2, 250));
+      }
+      return `run ${i}: still going`;
+    };
+
+    await loopStats('event-loop:reset');
+    const latencies: number[] = [];
+    const started = Date.now();
+    const work = [
+      ...Array.from({ length: UPLOADS }, (_, i) => uploadOne(i).then((s) => background.push(s), (e) => background.push(`upload ${i}: ${e}`))),
+      ...Array.from({ length: RUNS }, (_, i) => runOne(i).then((s) => background.push(s), (e) => background.push(`run ${i}: ${e}`))),
+    ];
+    const instance = autocannon({ url: base, connections: CONNECTIONS, duration: SECONDS, requests: reads, timeout: 10 });
+    instance.on('response', (_c, _status, _bytes, ms) => latencies.push(ms));
+    const result = await instance;
+    const loop = await loopStats('event-loop:read');
+    log(`reads done after ${Date.now() - started} ms; waiting for background work`);
+    await Promise.race([Promise.all(work), new Promise((r) => setTimeout(r, 300_000))]);
+
+    latencies.sort((a, b) => a - b);
+    const p50 = percentile(latencies, 0.5);
+    const p95 = percentile(latencies, 0.95);
+    const p99 = percentile(latencies, 0.99);
+    const errors = result.errors + result.timeouts + result.non2xx;
+    console.log('');
+    console.log(`Plumbline load benchmark — ${CONNECTIONS} connections, ${SECONDS} s, loopback ${base}`);
+    console.log(`reads:            ${reads.map((r) => r.path.replace(/[0-9a-f-]{36}/, ':id')).join(', ')}`);
+    console.log(`requests:         ${result.requests.total} (${result.requests.average} req/s average)`);
+    console.log(`latency (ms):     p50 ${p50}  p95 ${p95}  p99 ${p99}  max ${latencies[latencies.length - 1]}`);
+    console.log(`errors:           ${errors} (connection errors ${result.errors}, timeouts ${result.timeouts}, non-2xx ${result.non2xx})`);
+    console.log(`event-loop delay: mean ${loop.mean} ms, p50 ${loop.p50} ms, p99 ${loop.p99} ms, max ${loop.max} ms (server process, during the reads)`);
+    console.log(`background:       ${background.sort().join('; ') || 'none'}`);
+    console.log(`target:           0 errors and p95 ≤ 50 ms → ${errors === 0 && p95 <= 50 ? 'met' : 'NOT met'}`);
+    console.log(`p95_ms ${p95} errors ${errors}`);
+  } finally {
+    await stopServer();
+  }
+}
+
+main().then(
+  () => process.exit(0),
+  (err) => {
+    console.error(`[bench] failed: ${(err as Error).message}`);
+    process.exit(1);
+  },
+);
