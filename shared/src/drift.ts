@@ -1,4 +1,6 @@
 import { z } from 'zod';
+import type { Estimate } from './validation';
+import type { ScoreModel } from './model';
 
 /** GET /api/sample-size: anticipated event rate and C, and at least one target 95% CI width. */
 export const sampleSizeQuery = z
@@ -15,8 +17,6 @@ export const sampleSizeQuery = z
 export type SampleSizeQuery = z.infer<typeof sampleSizeQuery>;
 
 // ---------- Drift timeline, alerts, alert rules and recalibration (see the drift API contract) ----------
-import type { Estimate } from './validation';
-import type { ScoreModel } from './model';
 
 export const ALERT_RULE_KINDS = ['citl-consecutive', 'cusum', 'oe-limit', 'auc-below'] as const;
 export type AlertRuleKind = (typeof ALERT_RULE_KINDS)[number];

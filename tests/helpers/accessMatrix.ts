@@ -59,4 +59,5 @@ export const accessMatrix: Record<string, MatrixAccess> = {
   'GET /api/scores/:id/versions/:version': ['admin', 'steward', 'statistician', 'chair'],
   'PATCH /api/scores/:id/versions/:version': ['admin', 'statistician'],
   'GET /api/scores/:id/versions/:version/export': ['admin', 'steward', 'statistician', 'chair'],
+  'GET /api/sample-size': ['admin', 'steward', 'statistician', 'chair'],
 };

@@ -4,6 +4,7 @@ import { closeDatabase, initDatabase } from './dataSource';
 import { seedAccounts } from './seeds/accounts';
 import { seedGovernance } from './seeds/governance';
 import { seedCohorts } from './seeds/cohorts';
+import { seedDrift } from './seeds/drift';
 import { seedRuns } from './seeds/runs';
 import { seedKestrelScore } from './seeds/scenario';
 
@@ -18,6 +19,8 @@ export async function seedDemo(): Promise<void> {
   await seedRuns();
   // Reviews and signatures on the demo runs (seeds/governance.ts): keep this last, after the runs are seeded.
   await seedGovernance();
+  // Drift rules and their alerts on the demo runs (seeds/drift.ts): last, it reads the runs.
+  await seedDrift();
 }
 
 const isMain = process.argv[1] && import.meta.url.endsWith(process.argv[1].split('/').pop()!);

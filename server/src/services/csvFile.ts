@@ -118,3 +118,65 @@ export async function readHeaderAndSample(path: string, delimiter: Delimiter, ma
   if (sample.length === 0) throw unprocessable('the file has a header but no data rows');
   return { headers, sample };
 }
+
+/** True when the file has no double quote and no bare carriage return: every record is one line split on the delimiter. */
+async function isPlainCsv(path: string): Promise<boolean> {
+  for await (const chunk of createReadStream(path, { highWaterMark: 4 * 1024 * 1024 }) as AsyncIterable<Buffer>) {
+    if (chunk.indexOf(0x22) !== -1) return false;
+    for (let i = chunk.indexOf(0x0d); i !== -1; i = chunk.indexOf(0x0d, i + 1)) if (i + 1 >= chunk.length || chunk[i + 1] !== 0x0a) return false;
+  }
+  return true;
+}
+
+/**
+ * The records of the file in batches, for the full pass. Files without quotes (the usual registry extract) are split
+ * on newlines and the delimiter directly — about ten times faster than csv-parse; any other file goes through
+ * csvStream, so quoting rules are the same as in the screen.
+ */
+export async function* csvBatches(path: string, delimiter: Delimiter, onBytes?: (bytesRead: number) => void): AsyncGenerator<string[][]> {
+  if (!(await isPlainCsv(path))) {
+    const parser = csvStream(path, delimiter, onBytes);
+    let batch: string[][] = [];
+    try {
+      for await (const record of parser as AsyncIterable<string[]>) {
+        batch.push(record);
+        if (batch.length >= 2048) { yield batch; batch = []; }
+      }
+      if (batch.length) yield batch;
+    } finally {
+      parser.destroy();
+    }
+    return;
+  }
+  const input = createReadStream(path, { highWaterMark: 1024 * 1024, encoding: 'utf8' });
+  let rest = '';
+  let first = true;
+  let bytes = 0;
+  // Every line up to and including the newline at `end`; empty lines are kept as [''] (line numbers count them).
+  const split = (text: string, end: number, out: string[][]) => {
+    let start = 0;
+    while (start <= end) {
+      const nl = text.indexOf('\n', start);
+      const stop = nl > start && text.charCodeAt(nl - 1) === 13 ? nl - 1 : nl;
+      out.push(text.slice(start, stop).split(delimiter));
+      start = nl + 1;
+    }
+  };
+  try {
+    for await (const chunk of input as AsyncIterable<string>) {
+      bytes = input.bytesRead;
+      let text = rest + chunk;
+      if (first) { first = false; if (text.charCodeAt(0) === 0xfeff) text = text.slice(1); }
+      const last = text.lastIndexOf('\n');
+      if (last === -1) { rest = text; continue; }
+      rest = text.slice(last + 1);
+      const batch: string[][] = [];
+      split(text, last, batch);
+      onBytes?.(bytes);
+      yield batch;
+    }
+    if (rest !== '') yield [(rest.charCodeAt(rest.length - 1) === 13 ? rest.slice(0, -1) : rest).split(delimiter)];
+  } finally {
+    input.destroy();
+  }
+}

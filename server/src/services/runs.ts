@@ -11,6 +11,7 @@ import { badRequest, conflict, notFound } from '../middleware/errors';
 import { appendAudit } from './audit';
 import { registerBackground } from './background';
 import { loadCohortData } from './cohortData';
+import { evaluateAlertsForRun } from './drift';
 import { queueEmail, recipientsForRole } from './mail';
 import { asStored, computeRunResults, ENGINE_VERSION, inputsSha256, resultsSha256, RunInputError, type RunComputeInput, type RunScoreInput } from './runCompute';
 import { computeInThread, type RunningThread } from './runThread';
@@ -272,6 +273,12 @@ export async function processNextRun(): Promise<string | null> {
     });
   }
   await notifyRunFinished(claimed);
+  // Drift rules of the score look at the new period; a failure there is logged and never fails the run.
+  try {
+    await evaluateAlertsForRun(claimed);
+  } catch (err) {
+    console.error(`[drift] alert evaluation after run ${claimed} failed:`, err);
+  }
   return claimed;
 }
 

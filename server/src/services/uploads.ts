@@ -13,7 +13,7 @@ import { ScoreVersion } from '../entities/ScoreVersion';
 import { badRequest, conflict, HttpError, notFound } from '../middleware/errors';
 import type { AuthUser } from '../middleware/auth';
 import { appendAudit } from './audit';
-import { csvStream, extraLines, isEmptyRecord, readHeaderAndSample, sniffCsv, type Delimiter } from './csvFile';
+import { csvBatches, extraLines, isEmptyRecord, readHeaderAndSample, sniffCsv, type Delimiter } from './csvFile';
 import { ageOver89, isAgeHeader, looksLikeFormula, neutraliseCell, screenColumns, valueIdentifier } from './deidentify';
 
 const MAX_STORED_REJECTIONS = 100_000;
@@ -328,6 +328,9 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
   const subAcc = subs.map((s) => summaries.get(s.name)!);
   const mappedIdx = [...new Set([...preds.map((p) => p.idx), outcomeIdx, dateIdx, ...subs.map((s) => s.idx)].filter((i) => i >= 0))];
 
+  // Subgroup cells and periods repeat a few levels: encode each distinct value once (bounded caches).
+  const subJsonCache = subs.map(() => new Map<string, string>());
+  const periodCache = new Map<string, string | null>();
   let rowsRead = 0, accepted = 0, rejectedRows = 0, events = 0, stored = 0;
   let minDate: string | null = null, maxDate: string | null = null;
   const reasonCounts = new Map<string, number>();
@@ -353,11 +356,11 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
   };
 
   try {
-    const parser = csvStream(r.temp_path!, r.delimiter, (b) => (bytesRead = b));
+    const batches = csvBatches(r.temp_path!, r.delimiter, (b) => (bytesRead = b));
     let first = true;
     let buffer = '';
     let nextLine = 1;
-    for await (const record of parser as AsyncIterable<string[]>) {
+    outer: for await (const records of batches) for (const record of records) {
       const line = nextLine;
       nextLine += 1 + extraLines(record);
       if (isEmptyRecord(record)) continue;
@@ -375,7 +378,7 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
         const hit = cachedIdentifier(v);
         if (hit) { refusal = { column: headers[i], category: hit.category, reason: `${hit.reason} (line ${line})` }; break; }
       }
-      if (refusal) break;
+      if (refusal) break outer;
       if (bad) { rejectedRows++; continue; }
 
       let predJson = '{';
@@ -398,7 +401,7 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
           if (!bad) predJson += `${k ? ',' : ''}${p.key}:${JSON.stringify(raw)}`;
         }
       }
-      if (refusal) break;
+      if (refusal) break outer;
       const yRaw = record[outcomeIdx].trim();
       const yl = yRaw.toLowerCase();
       const y = pos.has(yl) ? 1 : neg.has(yl) ? 0 : -1;
@@ -410,7 +413,8 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
       if (dateIdx >= 0) {
         const d = record[dateIdx].trim();
         if (d !== '') {
-          date = periodStart(d);
+          date = periodCache.get(d) ?? null;
+          if (date === null && !periodCache.has(d)) { date = periodStart(d); if (periodCache.size < 10_000) periodCache.set(d, date); }
           if (!date) { reject(line, mapping.date!.column, d, 'the period must be YYYY-MM, YYYY-Qn or YYYY', 'unreadable period'); bad = true; }
         }
       }
@@ -420,7 +424,12 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
       for (let k = 0; k < subs.length; k++) {
         const v = record[subs[k].idx].trim();
         subAcc[k].add(v === '' ? null : v);
-        if (v !== '') subJson += `${subJson.length > 1 ? ',' : ''}${subs[k].key}:${JSON.stringify(v)}`;
+        if (v !== '') {
+          const cache = subJsonCache[k];
+          let enc = cache.get(v);
+          if (enc === undefined) { enc = copyText(`${subs[k].key}:${JSON.stringify(v)}`); if (cache.size < 10_000) cache.set(v, enc); }
+          subJson += subJson.length > 1 ? `,${enc}` : enc;
+        }
       }
       for (let k = 0; k < preds.length; k++) predAcc[k].add(values[k]);
       outcomeAcc.add(String(y));
@@ -428,7 +437,7 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
       if (date) { if (!minDate || date < minDate) minDate = date; if (!maxDate || date > maxDate) maxDate = date; }
       accepted++;
       events += y;
-      buffer += `${plannedId}\t${line}\t${y}\t${date ?? '\\N'}\t${copyText(predJson)}}\t${copyText(subJson)}}\n`;
+      buffer += `${plannedId}\t${line}\t${y}\t${date ?? '\\N'}\t${copyText(predJson)}}\t${subJson}}\n`;
       if (buffer.length > 256 * 1024) {
         if (!out.write(buffer)) await new Promise<void>((res) => out.once('drain', () => res()));
         buffer = '';
@@ -439,7 +448,7 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
         await dataSource.query('UPDATE cohort_uploads SET progress = $2, rows_read = $3, rows_rejected = $4, updated_at = now() WHERE id = $1', [id, Math.min(0.99, bytesRead / total), rowsRead, rejectedRows]);
       }
     }
-    parser.destroy();
+    await batches.return(undefined);
     if (buffer) out.write(buffer);
     await new Promise<void>((res, rej) => out.end((err?: Error | null) => (err ? rej(err) : res())));
 
