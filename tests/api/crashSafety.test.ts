@@ -7,7 +7,10 @@ import { createWriteStream, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { once } from 'node:events';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
+
+// A million rows on a shared machine: minutes, not the suite's default two.
+vi.setConfig({ testTimeout: 600_000 });
 import { DEMO_PASSWORD } from '../../server/src/config';
 import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
 import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';

@@ -70,6 +70,7 @@ describe('drift timeline in the browser', () => {
       expect(await citlOf(7)).toBeGreaterThan(await citlOf(0));
       await citlPanel.getByRole('button', { name: 'Show the chart' }).click();
 
+      await page.evaluate(() => window.scrollTo(0, 0)); // the app bar is fixed: a scrolled full-page shot draws it mid-page
       await page.screenshot({ path: `${artifacts}/drift-timeline.png`, fullPage: true });
     } catch (err) {
       await page.screenshot({ path: `${artifacts}/drift-timeline-failure.png`, fullPage: true });

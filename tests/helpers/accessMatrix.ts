@@ -60,4 +60,11 @@ export const accessMatrix: Record<string, MatrixAccess> = {
   'PATCH /api/scores/:id/versions/:version': ['admin', 'statistician'],
   'GET /api/scores/:id/versions/:version/export': ['admin', 'steward', 'statistician', 'chair'],
   'GET /api/sample-size': ['admin', 'steward', 'statistician', 'chair'],
+  'GET /api/scores/:id/versions/:version/drift': ['admin', 'steward', 'statistician', 'chair'],
+  'GET /api/alerts': ['admin', 'statistician', 'chair'],
+  'POST /api/alerts/:id/acknowledge': ['statistician', 'chair'],
+  'GET /api/scores/:id/alert-rules': ['admin', 'statistician', 'chair'],
+  'POST /api/scores/:id/alert-rules': ['statistician'],
+  'POST /api/runs/:id/recalibration-preview': ['statistician'],
+  'POST /api/runs/:id/recalibrate': ['statistician'],
 };
