@@ -9,7 +9,7 @@ import type { AlertView, Derivation, DriftResponse } from '@shared/drift';
 import type { ScoreModel } from '@shared/model';
 import { runSettingsSchema } from '@shared/runs';
 import { evaluateAlertsForRun, evaluateAlertsForVersion } from '../../server/src/services/drift';
-import { recordRunNow } from '../../server/src/services/runs';
+import { processNextRun, recordRunNow } from '../../server/src/services/runs';
 import { app, bearer, dataSource, tokenFor, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, FIXTURE_MODEL, kestrelRows, type ScoreFixture } from '../helpers/fixtures';
 
@@ -213,10 +213,16 @@ describe('drift timeline, alert rules and recalibration', () => {
     expect(v).toMatchObject({ scoreId: score.scoreId, version: before + 1, derivedFromRunId: runId });
     const d = res.body.derivation as Derivation;
     expect(d.chosen).toBe('logistic');
-    // The shift of +0.9 is recovered within the fitted intercept's CI (slope near 1; data drawn with slope 1).
-    expect(d.intercept.lower).toBeLessThan(0.9 + 0.3);
+    // Data drawn with a + b·lp, a = 0.9 and b = 1: both lie within the fitted 95% CIs.
+    expect(d.intercept.lower).toBeLessThan(0.9);
+    expect(d.intercept.upper).toBeGreaterThan(0.9);
     expect(d.slope!.lower).toBeLessThan(1);
     expect(d.slope!.upper).toBeGreaterThan(1);
+    // The intercept update alone (lp as offset) recovers the shift of 0.9 within its CI too.
+    const shift = (await request(app).post(`/api/runs/${runId}/recalibration-preview`).set(stat).send({ method: 'intercept' })).body.derivation as Derivation;
+    expect(shift.slope).toBeNull();
+    expect(shift.intercept.lower).toBeLessThan(0.9);
+    expect(shift.intercept.upper).toBeGreaterThan(0.9);
     expect(Math.abs(d.after.citl!.estimate)).toBeLessThan(1e-6); // ML fit with an intercept: CITL after is 0 (score equation)
     const a = d.intercept.estimate;
     const b = d.slope!.estimate;
@@ -244,6 +250,24 @@ describe('drift timeline, alert rules and recalibration', () => {
     expect(stored[0]).toMatchObject({ derived_from_run_id: runId, clinical_status: 'not approved' });
     expect(stored[0].derivation?.method).toBe('logistic');
   });
+
+  it('evaluates the rules when the run worker completes a new run of the version', async () => {
+    const rows = shiftMonths(kestrelRows(1500, 104, { logitShift: 1.0, months: 3 }), 9);
+    const cohort = await createCohortFixture(rows, { label: 'P4' });
+    const res = await request(app).post('/api/runs').set(bearer(await tokenFor('statistician'))).send({ scoreVersionId: score.scoreVersionId, cohortVersionId: cohort.cohortVersionId });
+    expect(res.status).toBe(201);
+    const runId: string = res.body.run.id;
+    for (let k = 0; k < 20; k++) {
+      const done: { status: string }[] = await dataSource.query('SELECT status FROM validation_runs WHERE id = $1', [runId]);
+      if (done[0].status === 'completed') break;
+      await processNextRun();
+    }
+    const alerts: { kind: string }[] = await dataSource.query(
+      `SELECT ar.kind FROM drift_alerts a JOIN alert_rules ar ON ar.id = a.rule_id WHERE a.score_version_id = $1 AND a.period = 'P4' ORDER BY ar.kind`,
+      [score.scoreVersionId],
+    );
+    expect(alerts.map((a) => a.kind)).toEqual(expect.arrayContaining(['citl-consecutive', 'oe-limit']));
+  }, 60_000);
 
   it('refuses recalibration of a supplied-probability version clearly (409)', async () => {
     const supplied = await createScoreFixture({ mode: 'supplied', probabilityColumn: 'risk' });
