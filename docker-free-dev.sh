@@ -139,7 +139,7 @@ case "$MODE" in
     ensure_database plumbline_test
     export PLUMBLINE_TEST=1 PORT=${TEST_APP_PORT:-3100} SMTP_PORT=${TEST_SMTP_PORT:-2625}
     export PLUMBLINE_BCRYPT_COST=10
-    bash scripts/run-tests.sh
+    bash server/scripts/run-tests.sh
     ;;
   *)
     echo "usage: $0 [dev|test]" >&2

@@ -21,7 +21,7 @@ describe('the access matrix', () => {
     const keys = routes.map(routeKey);
     expect(new Set(keys).size, 'duplicate METHOD path in routes/table.ts').toBe(keys.length);
     const missing = keys.filter((k) => !(k in accessMatrix));
-    expect(missing, 'routes without an entry in tests/helpers/accessMatrix.ts (npx tsx scripts/print-access-matrix.ts --write)').toEqual([]);
+    expect(missing, 'routes without an entry in tests/helpers/accessMatrix.ts (npx tsx server/scripts/print-access-matrix.ts --write)').toEqual([]);
     const stale = Object.keys(accessMatrix).filter((k) => !keys.includes(k));
     expect(stale, 'matrix entries for routes that no longer exist').toEqual([]);
     const differ = routes.filter((r) => norm(r.access) !== norm(accessMatrix[routeKey(r)])).map(routeKey);

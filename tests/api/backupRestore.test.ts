@@ -35,11 +35,11 @@ describe('backup and restore', () => {
     expect(before.audit_log).toBeGreaterThan(0);
     const file = path.join(dir, 'plumbline.dump');
 
-    const backupOut = runTsx('scripts/backup.ts', env(), ['--out', file]);
+    const backupOut = runTsx('server/scripts/backup.ts', env(), ['--out', file]);
     expect(backupOut).toMatch(/backup written/);
     expect(statSync(file).size).toBeGreaterThan(1000);
 
-    const restoreOut = runTsx('scripts/restore.ts', env(), ['--file', file, '--database', target]);
+    const restoreOut = runTsx('server/scripts/restore.ts', env(), ['--file', file, '--database', target]);
     expect(restoreOut).toMatch(/audit chain verified/);
 
     restored = new DataSource({ type: 'postgres', host: config.db.host, port: config.db.port, username: config.db.user, password: config.db.password, database: target, entities });
@@ -57,7 +57,7 @@ describe('backup and restore', () => {
   });
 
   it('refuses to restore over a database that already holds tables', () => {
-    expect(() => runTsx('scripts/restore.ts', env(), ['--file', path.join(dir, 'plumbline.dump'), '--database', target])).toThrow(/already holds/);
+    expect(() => runTsx('server/scripts/restore.ts', env(), ['--file', path.join(dir, 'plumbline.dump'), '--database', target])).toThrow(/already holds/);
   });
 
   it('the chain check fails on a tampered copy (the verification can fail)', async () => {

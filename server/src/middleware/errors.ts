@@ -1,4 +1,4 @@
-import type { ErrorRequestHandler, RequestHandler } from 'express';
+import type { ErrorRequestHandler, Request, RequestHandler, Response } from 'express';
 import { ZodError } from 'zod';
 
 /** A known failure with an HTTP status and a message that is safe to show. */
@@ -41,6 +41,36 @@ export const notFoundHandler: RequestHandler = (req, _res, next) => {
 // One place turns every error into JSON; stack traces and SQL stay in the server log.
 export const errorHandler: ErrorRequestHandler = (err, req, res, _next) => {
   if (res.headersSent) return;
+  if (req.complete || !req.readable) {
+    sendError(err, req, res);
+    return;
+  }
+  // Refused before the body was read (e.g. a 403 on an upload): read up to DRAIN_LIMIT of it first, so the client
+  // receives the answer rather than a broken pipe; beyond that, answer and close the connection.
+  let seen = 0;
+  let done = false;
+  const finish = () => {
+    if (done) return;
+    done = true;
+    req.removeListener('data', onData);
+    if (!req.complete) res.setHeader('Connection', 'close');
+    sendError(err, req, res);
+  };
+  const onData = (chunk: Buffer) => {
+    seen += chunk.length;
+    if (seen > DRAIN_LIMIT) finish();
+  };
+  req.on('data', onData);
+  req.once('end', finish);
+  req.once('error', finish);
+  req.once('close', finish);
+  req.resume();
+};
+
+const DRAIN_LIMIT = 16 * 1024 * 1024;
+
+function sendError(err: unknown, req: Request, res: Response): void {
+  if (res.headersSent) return;
   if (err instanceof HttpError) {
     res.status(err.status).json({ error: err.message, ...(err.details !== undefined ? { details: err.details } : {}) });
     return;
@@ -76,4 +106,4 @@ export const errorHandler: ErrorRequestHandler = (err, req, res, _next) => {
   }
   console.error(`[error] ${req.method} ${req.path}:`, err);
   res.status(500).json({ error: 'internal error' });
-};
+}

@@ -3,7 +3,7 @@
 //   GET /api/cohorts (cohort lists), rotating per connection.
 //   Meanwhile: 5 uploads of 100,000-row cohorts (upload → mapping → row checks → store) and 2 validation runs.
 //   The server is a child process on 127.0.0.1 with the demo seed in the PG* database; its event-loop delay is
-//   measured inside it (bench/eventLoopProbe.mjs). Settings: BENCH_SECONDS, BENCH_CONNECTIONS, BENCH_UPLOADS,
+//   measured inside it (tests/bench/eventLoopProbe.mjs). Settings: BENCH_SECONDS, BENCH_CONNECTIONS, BENCH_UPLOADS,
 //   BENCH_UPLOAD_ROWS, BENCH_RUNS, BENCH_PORT. Last line: `p95_ms <number> errors <number>`.
 import 'reflect-metadata';
 import autocannon from 'autocannon';
@@ -12,11 +12,11 @@ import { once } from 'node:events';
 import net from 'node:net';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { DEMO_PASSWORD } from '../server/src/config';
-import { KESTREL_MAPPING } from '../server/src/db/seeds/cohorts';
-import { kestrelQuarterCsv } from '../server/src/db/seeds/kestrelData';
+import { DEMO_PASSWORD } from '../../server/src/config';
+import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
+import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
 
-const root = fileURLToPath(new URL('..', import.meta.url));
+const root = fileURLToPath(new URL('../..', import.meta.url));
 const SECONDS = Number(process.env.BENCH_SECONDS ?? 30);
 const CONNECTIONS = Number(process.env.BENCH_CONNECTIONS ?? 50);
 const UPLOADS = Number(process.env.BENCH_UPLOADS ?? 5);
@@ -53,7 +53,7 @@ async function main() {
 
   const port = await freePort();
   const base = `http://127.0.0.1:${port}`;
-  const child: ChildProcess = spawn(process.execPath, ['--import', 'tsx', '--import', './bench/eventLoopProbe.mjs', 'server/src/index.ts'], {
+  const child: ChildProcess = spawn(process.execPath, ['--import', 'tsx', '--import', './tests/bench/eventLoopProbe.mjs', 'server/src/index.ts'], {
     cwd: root,
     env: { ...process.env, PORT: String(port), NODE_ENV: 'production', PLUMBLINE_CLIENT_DIR: path.join(root, 'dist/client'), PLUMBLINE_LOGIN_MAX_PER_IP: '100000' },
     stdio: ['ignore', 'pipe', 'pipe', 'ipc'],

@@ -5,9 +5,9 @@ import 'reflect-metadata';
 import { spawnSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { DataSource } from 'typeorm';
-import { config } from '../server/src/config';
-import { entities } from '../server/src/entities';
-import { verifyAuditChain } from '../server/src/services/audit';
+import { config } from '../src/config';
+import { entities } from '../src/entities';
+import { verifyAuditChain } from '../src/services/audit';
 import { argValue, hasFlag, pgBinary, pgEnv, tableCounts } from './pgTools';
 
 const quoteIdent = (name: string) => `"${name.replace(/"/g, '""')}"`;

@@ -1,4 +1,4 @@
-// Loaded into the benchmarked server process (node --import ./bench/eventLoopProbe.mjs): measures event-loop delay with
+// Loaded into the benchmarked server process (node --import ./tests/bench/eventLoopProbe.mjs): measures event-loop delay with
 // perf_hooks.monitorEventLoopDelay and answers the parent over IPC. Plain JS so worker threads that inherit the flag
 // load it without a TypeScript hook; it does nothing outside the main thread. Benchmark-only.
 import { monitorEventLoopDelay } from 'node:perf_hooks';

@@ -1,7 +1,7 @@
 #!/usr/bin/env bash
 # The whole suite, in order; called by ./docker-free-dev.sh test once PostgreSQL is up.
 set -uo pipefail
-cd "$(dirname "$0")/.."
+cd "$(dirname "$0")/../.."
 mkdir -p tests/artifacts
 status=0
 step() { printf '\n\033[1;34m[plumbline test]\033[0m %s\n' "$*"; }
@@ -17,5 +17,5 @@ for project in unit client api browser; do
     --reporter=default --reporter=json --outputFile.json="tests/artifacts/vitest-$project.json" || status=1
 done
 
-node scripts/test-summary.mjs tests/artifacts/vitest-*.json || status=1
+node server/scripts/test-summary.mjs tests/artifacts/vitest-*.json || status=1
 exit $status

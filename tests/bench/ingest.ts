@@ -10,11 +10,11 @@ import http from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
-import { createApp } from '../server/src/app';
-import { DEMO_PASSWORD } from '../server/src/config';
-import { closeDatabase, dataSource, initDatabase } from '../server/src/db/dataSource';
-import { seedAccounts } from '../server/src/db/seeds/accounts';
-import { seededRandom } from '../server/src/db/seeds/kestrelData';
+import { createApp } from '../../server/src/app';
+import { DEMO_PASSWORD } from '../../server/src/config';
+import { closeDatabase, dataSource, initDatabase } from '../../server/src/db/dataSource';
+import { seedAccounts } from '../../server/src/db/seeds/accounts';
+import { seededRandom } from '../../server/src/db/seeds/kestrelData';
 
 const ROWS = Number(process.env.BENCH_ROWS ?? 1_000_000);
 const HEADER = ['age', 'length_of_stay', 'prior_admissions', 'emergency_admission', 'charlson_index', 'readmitted_30d', 'discharge_date', 'sex', 'age_band', 'unit', 'site', 'ward_moves'];
