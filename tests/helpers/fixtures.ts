@@ -3,18 +3,11 @@
 import { createHash, randomUUID } from 'node:crypto';
 import type { ScoreModel } from '@shared/model';
 import { dataSource } from '../../server/src/db/dataSource';
+import { KESTREL_V1_MODEL } from '../../server/src/db/seeds/scenario';
+import { mulberry32 } from '../../server/src/stats/bootstrap';
 
-/** The invented Kestrel-like formula (made-up coefficients, see the demo scenario). */
-export const FIXTURE_MODEL: ScoreModel = {
-  intercept: -3.6,
-  predictors: [
-    { column: 'age', coefficient: 0.012, transform: 'linear' },
-    { column: 'length_of_stay', coefficient: 0.35, transform: 'log' },
-    { column: 'prior_admissions', coefficient: 0.28, transform: 'linear' },
-    { column: 'emergency_admission', coefficient: 0.45, transform: 'indicator', level: 'yes' },
-    { column: 'charlson_index', coefficient: 0.11, transform: 'linear' },
-  ],
-};
+/** The invented Kestrel formula (version 1 of the demo scenario). */
+export const FIXTURE_MODEL: ScoreModel = KESTREL_V1_MODEL;
 
 export interface ScoreFixture {
   scoreId: string;
@@ -80,17 +73,8 @@ export async function createCohortFixture(rows: FixtureRow[], opts: { name?: str
   return { cohortId: cohorts[0].id, cohortVersionId: id, rows };
 }
 
-/** Small seeded PRNG (mulberry32) so fixture cohorts are the same on every run. */
-export function mulberry32(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+/** The engine's seeded PRNG (mulberry32), so fixture cohorts are the same on every run. */
+export { mulberry32 };
 
 /**
  * Invented patients drawn from the fixture formula plus `logitShift` on the logit scale (miscalibration on purpose),

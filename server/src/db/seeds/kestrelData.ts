@@ -1,17 +1,9 @@
 // Invented demo patients for the fictional Fernhollow Regional Hospital, drawn from the fictional Kestrel score
 // with a baseline risk that drifts upwards by quarter. Seeded, so the same call always writes the same file.
 
-/** mulberry32: a small seeded PRNG (common practice, no source needed for a demo generator). */
-export function seededRandom(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+import { mulberry32 } from '../../stats/bootstrap';
+/** mulberry32, the engine's seeded PRNG (common practice, no source needed for a demo generator). */
+export const seededRandom = mulberry32;
 
 export const KESTREL_HEADER = ['age', 'length_of_stay', 'prior_admissions', 'emergency_admission', 'charlson_index', 'readmitted_30d', 'discharge_date', 'sex', 'age_band', 'unit', 'site'];
 const UNITS = ['Birch', 'Cedar', 'Alder', 'Rowan'];
