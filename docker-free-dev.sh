@@ -99,7 +99,11 @@ case "$MODE" in
     CHILD=""
     cleanup() {
       trap - EXIT INT TERM
-      [ -n "$CHILD" ] && kill "$CHILD" 2>/dev/null && wait "$CHILD" 2>/dev/null
+      set +e
+      if [ -n "$CHILD" ]; then
+        kill "$CHILD" 2>/dev/null
+        wait "$CHILD" 2>/dev/null
+      fi
       stop_cluster
     }
     trap cleanup EXIT INT TERM
