@@ -179,3 +179,20 @@ export interface RecalibrateResponse {
 
 export const RECALIBRATION_BANNER =
   'Draft: this recalibrated version must be validated on different data (a later period) and signed off before clinical use.';
+
+/** The sample-size planner's answer (server/src/stats/sampleSize.ts; Riley et al. 2021, Stat Med 40:4230–4251). */
+export interface SampleSizeCriterion {
+  criterion: 'oe' | 'auc' | 'slope';
+  ciWidth: number;
+  targetSe: number;
+  n: number;
+  events: number;
+}
+
+export interface SampleSizePlan {
+  eventRate: number;
+  auc: number;
+  criteria: SampleSizeCriterion[];
+  largest: SampleSizeCriterion | null;
+  lpDistribution?: { mean: number; sd: number };
+}

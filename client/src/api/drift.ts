@@ -27,21 +27,8 @@ export type {
 } from '@shared/drift';
 export type { Estimate } from '@shared/validation';
 
-/** One criterion of the planner's answer (server/src/stats/sampleSize.ts, Riley et al. 2021). */
-export interface SampleSizeCriterion {
-  criterion: 'oe' | 'auc' | 'slope';
-  ciWidth: number;
-  targetSe: number;
-  n: number;
-  events: number;
-}
-export interface SampleSizePlan {
-  eventRate: number;
-  auc: number;
-  criteria: SampleSizeCriterion[];
-  largest: SampleSizeCriterion | null;
-  lpDistribution?: { mean: number; sd: number };
-}
+import type { SampleSizePlan } from '@shared/drift';
+export type { SampleSizeCriterion, SampleSizePlan } from '@shared/drift';
 
 const version = (scoreId: string, v: number | string) => `/api/scores/${encodeURIComponent(scoreId)}/versions/${encodeURIComponent(String(v))}`;
 

@@ -16,21 +16,9 @@
 
 const Z = 1.959963984540054;
 
-export interface SampleSizeCriterion {
-  criterion: 'oe' | 'auc' | 'slope';
-  ciWidth: number;
-  targetSe: number;
-  n: number;
-  events: number;
-}
+import type { SampleSizeCriterion, SampleSizePlan } from '@shared/drift';
 
-export interface SampleSizePlan {
-  eventRate: number;
-  auc: number;
-  criteria: SampleSizeCriterion[];
-  largest: SampleSizeCriterion | null;
-  lpDistribution?: { mean: number; sd: number };
-}
+export type { SampleSizeCriterion, SampleSizePlan };
 
 const expit = (x: number) => 1 / (1 + Math.exp(-x));
 const withEvents = (c: Omit<SampleSizeCriterion, 'events'>, phi: number): SampleSizeCriterion => ({ ...c, events: Math.ceil(c.n * phi) });
