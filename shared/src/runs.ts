@@ -1,6 +1,7 @@
 // Validation runs: the settings a run is started with, the results it stores, and the API shapes around them.
 import { z } from 'zod';
 import type { Estimate, ValidationResult } from './validation';
+import type { CohortAdequacy } from './adequacy';
 
 export const RUN_STATUSES = ['queued', 'running', 'completed', 'failed'] as const;
 export type RunStatus = (typeof RUN_STATUSES)[number];
@@ -143,6 +144,8 @@ export interface RunDetail extends RunSummary {
   results: RunResults | null;
   inputsSha256: string | null;
   resultsSha256: string | null;
+  /** Completed runs: events and non-events against the usual minimums, and the precision they give (shared/src/adequacy.ts). */
+  adequacy?: CohortAdequacy | null;
 }
 
 export interface ReproduceReport {

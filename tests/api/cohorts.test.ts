@@ -54,9 +54,16 @@ function writeCsv(name: string, text: string | Buffer): string {
 
 const goodCsv = (n = 200, seed = 7) => `${[...kestrelQuarterCsv({ year: 2025, quarter: 2, index: 5, n, seed })].join('\n')}\n`;
 
+/** What is stored: cohorts, versions and the rows of stored versions (a checked upload's staged rows are not a cohort). */
 async function snapshot() {
-  return { versions: await countRows('cohort_versions'), rows: await countRows('cohort_rows'), cohorts: await countRows('cohorts') };
+  const [{ n }] = await dataSource.query('SELECT count(*)::int AS n FROM cohort_rows r WHERE EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = r.cohort_version_id)');
+  return { versions: await countRows('cohort_versions'), rows: n as number, cohorts: await countRows('cohorts') };
 }
+
+const stagedRows = async (uploadId: string) => {
+  const [{ n }] = await dataSource.query('SELECT count(*)::int AS n FROM cohort_rows r JOIN cohort_uploads u ON u.planned_version_id = r.cohort_version_id WHERE u.id = $1', [uploadId]);
+  return n as number;
+};
 
 const tempFiles = () => {
   try {
@@ -414,15 +421,61 @@ describe('saved mappings', () => {
 });
 
 describe('storage is all or nothing', () => {
-  it('a failure during COPY rolls back: no cohort, no version, no rows', async () => {
-    const res = await upload(writeCsv('atomic.csv', goodCsv(100)));
-    const u = await mapAndWait(res.body.upload.id);
-    const [row] = await dataSource.query('SELECT prepared_path FROM cohort_uploads WHERE id = $1', [u.id]);
-    appendFileSync(row.prepared_path, 'not\ta\tvalid\trow\n');
+  // Faults are injected in PostgreSQL itself: a constraint added NOT VALID (existing rows untouched) that the next
+  // write breaks, so the failure happens inside the real COPY or the real commit transaction.
+  const fault = async (table: string, check: string, body: () => Promise<void>) => {
+    await dataSource.query(`ALTER TABLE ${table} ADD CONSTRAINT plumbline_test_fault CHECK (${check}) NOT VALID`);
+    try {
+      await body();
+    } finally {
+      await dataSource.query(`ALTER TABLE ${table} DROP CONSTRAINT plumbline_test_fault`);
+    }
+  };
+
+  it('a failure during the COPY of the checked rows rolls back: the upload fails, no row, no rejection is left', async () => {
+    const res = await upload(writeCsv('atomic-copy.csv', goodCsv(100)));
     const before = await snapshot();
-    const commit = await request(app).post(`/api/uploads/${u.id}/commit`).set(bearer(await tokenFor('steward'))).send({ excludeRejected: true });
-    expect(commit.status).toBeGreaterThanOrEqual(400);
+    await fault('cohort_rows', 'line_no <> 60', async () => {
+      const u = await mapAndWait(res.body.upload.id);
+      expect(u.status).toBe('failed');
+      expect(u.error).toMatch(/could not be processed.*nothing was stored/);
+    });
+    expect(await stagedRows(res.body.upload.id)).toBe(0);
+    expect((await dataSource.query('SELECT count(*)::int AS n FROM cohort_upload_rejections WHERE upload_id = $1', [res.body.upload.id]))[0].n).toBe(0);
     expect(await snapshot()).toEqual(before);
+    // Mapping again after the fault is gone checks and stores it whole.
+    const again = await mapAndWait(res.body.upload.id);
+    expect(again.status).toBe('checked');
+    expect(await stagedRows(res.body.upload.id)).toBe(again.rowsAccepted);
+  });
+
+  it('a failure while storing rolls back: no cohort, no version; the checked upload can be stored afterwards, once', async () => {
+    const res = await upload(writeCsv('atomic-commit.csv', goodCsv(100)), { label: 'fault injection' });
+    const u = await mapAndWait(res.body.upload.id);
+    expect(u.status).toBe('checked');
+    const before = await snapshot();
+    const token = await tokenFor('steward');
+    await fault('cohort_versions', "label <> 'fault injection'", async () => {
+      const commit = await request(app).post(`/api/uploads/${u.id}/commit`).set(bearer(token)).send({ excludeRejected: true });
+      expect(commit.status).toBe(500);
+      expect(commit.body.error).toMatch(/rolled back: nothing was stored/);
+      expect(JSON.stringify(commit.body)).not.toMatch(/plumbline_test_fault|constraint|SELECT|INSERT/i);
+    });
+    expect(await snapshot()).toEqual(before);
+    expect((await request(app).get(`/api/uploads/${u.id}`).set(bearer(token))).body.upload.status).toBe('checked');
+    const stored = await request(app).post(`/api/uploads/${u.id}/commit`).set(bearer(token)).send({ excludeRejected: true });
+    expect(stored.status, JSON.stringify(stored.body)).toBe(201);
+    expect(await snapshot()).toEqual({ ...before, cohorts: before.cohorts + 1, versions: before.versions + 1, rows: before.rows + u.rowsAccepted });
+    expect((await request(app).post(`/api/uploads/${u.id}/commit`).set(bearer(token)).send({ excludeRejected: true })).status).toBe(409);
+  });
+
+  it('discarding a checked upload removes its staged rows; stored rows stay immutable', async () => {
+    const res = await upload(writeCsv('discard.csv', goodCsv(50)));
+    const u = await mapAndWait(res.body.upload.id);
+    expect(await stagedRows(u.id)).toBe(u.rowsAccepted);
+    const d = await request(app).post(`/api/uploads/${u.id}/discard`).set(bearer(await tokenFor('steward'))).send({});
+    expect(d.status, JSON.stringify(d.body)).toBeLessThan(300);
+    expect(await stagedRows(u.id)).toBe(0);
   });
 });
 

@@ -6,5 +6,6 @@ import { FastRows1764633760500 } from './1764633760500-FastRows';
 import { Runs1764633800000 } from './1764633800000-Runs';
 import { Governance1764633850000 } from './1764633850000-Governance';
 import { Drift1764633900000 } from './1764633900000-Drift';
+import { StagedRows1764633950000 } from './1764633950000-StagedRows';
 
-export const migrations = [Foundation1764633600000, Registry1764633700000, Uploads1764633750000, FastRows1764633760500, Runs1764633800000, Governance1764633850000, Drift1764633900000];
+export const migrations = [Foundation1764633600000, Registry1764633700000, Uploads1764633750000, FastRows1764633760500, Runs1764633800000, Governance1764633850000, Drift1764633900000, StagedRows1764633950000];

@@ -3,6 +3,7 @@ import type { ColumnMappingSpec } from '@shared/cohorts';
 import { dataSource } from '../db/dataSource';
 import type { AuthUser } from '../middleware/auth';
 import { badRequest, notFound } from '../middleware/errors';
+import { cohortVersionAdequacy } from './adequacy';
 import { appendAudit } from './audit';
 
 const SORTS: Record<string, string> = { name: 'c.name', createdAt: 'c.created_at', versions: 'versions', latestRows: 'latest_rows' };
@@ -41,7 +42,13 @@ export async function getCohort(id: string) {
   return { cohort: rows[0], versions };
 }
 
+/** One version as the API returns it, with `adequacy`: is it big enough, and how precise would a run on it be? */
 export async function getCohortVersion(cohortId: string, version: number) {
+  const v = await readCohortVersion(cohortId, version);
+  return { ...v, adequacy: await cohortVersionAdequacy(v) };
+}
+
+async function readCohortVersion(cohortId: string, version: number) {
   const rows = await dataSource.query(
     `SELECT ${VERSION_COLUMNS}, v.column_summary AS "columnSummary" FROM cohort_versions v LEFT JOIN users u ON u.id = v.uploaded_by
      WHERE v.cohort_id = $1 AND v.version = $2`,
@@ -53,7 +60,7 @@ export async function getCohortVersion(cohortId: string, version: number) {
 
 /** Rows of one version, paged and sorted in SQL; sort keys are line_no, outcome, event_date, or a predictor/subgroup key. */
 export async function listCohortRows(cohortId: string, version: number, q: { page: number; pageSize: number; search?: string; sortBy: string; sortDir: 'asc' | 'desc' }) {
-  const v = await getCohortVersion(cohortId, version);
+  const v = await readCohortVersion(cohortId, version);
   const mapping = v.mapping as ColumnMappingSpec;
   const predictorKeys = Object.keys(mapping.predictors ?? {});
   const subgroupKeys = Object.keys(mapping.subgroups ?? {});

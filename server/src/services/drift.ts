@@ -80,10 +80,13 @@ async function versionById(id: string, m: EntityManager = dataSource.manager): P
 async function completedRuns(versionId: string): Promise<RunRow[]> {
   return dataSource.query(
     `SELECT r.id, r.cohort_version_id, cv.label, to_char(cv.period_start, 'YYYY-MM-DD') AS period_start, to_char(cv.period_end, 'YYYY-MM-DD') AS period_end,
-            (r.results->'overall'->>'n')::int AS n, (r.results->'overall'->>'events')::int AS events,
-            r.results->'overall'->'auc' AS auc, r.results->'overall'->'calibrationIntercept' AS citl,
-            r.results->'overall'->'calibrationSlope' AS slope, r.results->'overall'->'oe' AS oe
+            (ov.o->>'n')::int AS n, (ov.o->>'events')::int AS events,
+            ov.o->'auc' AS auc, ov.o->'calibrationIntercept' AS citl,
+            ov.o->'calibrationSlope' AS slope, ov.o->'oe' AS oe
      FROM validation_runs r JOIN cohort_versions cv ON cv.id = r.cohort_version_id
+     -- results is a large TOASTed jsonb: 'overall' is de-compressed once per run, not once per field (OFFSET 0 keeps
+     -- the planner from folding the sub-select back into the select list).
+     LEFT JOIN LATERAL (SELECT r.results->'overall' AS o OFFSET 0) ov ON true
      WHERE r.score_version_id = $1 AND r.status = 'completed'
      ORDER BY cv.period_start NULLS LAST, r.finished_at, r.id`,
     [versionId],

@@ -2,7 +2,6 @@
 // never cohort rows, never patient-level data.
 import type { ScoreCardView, IntervalView } from '@shared/governance';
 import type { ScoreModel } from '@shared/model';
-import type { RunResults } from '@shared/runs';
 import type { ValidationResult } from '@shared/validation';
 import { dataSource } from '../db/dataSource';
 import { notFound } from '../middleware/errors';
@@ -32,8 +31,11 @@ export function describeInputs(mode: string, model: ScoreModel | null, probabili
   return [...seen].map(([name, how]) => ({ name: name.replace(/_/g, ' '), how }));
 }
 
+/** The figures of a run that a score card shows (a subset of its results.overall). */
+export type CardFigures = Pick<ValidationResult, 'n' | 'events' | 'auc' | 'oe' | 'calibrationIntercept' | 'calibrationSlope'>;
+
 /** The run's key numbers, one plain sentence each; wording follows the direction of each measure. */
-export function plainWords(o: ValidationResult, cohort: { patients: number; events: number; periodStart: string | null; periodEnd: string | null }): string[] {
+export function plainWords(o: CardFigures, cohort: { patients: number; events: number; periodStart: string | null; periodEnd: string | null }): string[] {
   const out: string[] = [];
   const when = cohort.periodStart && cohort.periodEnd ? ` discharged between ${cohort.periodStart} and ${cohort.periodEnd}` : '';
   out.push(`Checked on ${cohort.patients.toLocaleString('en-GB')} local patients${when}, of whom ${cohort.events.toLocaleString('en-GB')} had the outcome.`);
@@ -75,7 +77,8 @@ interface CardRow {
   intended_population: string;
   citation: string;
   caution_text: string;
-  results: RunResults | null;
+  /** Only the parts of the approved run's results.overall that a card shows. */
+  overall: CardFigures | null;
   cohort_label: string | null;
   period_start: string | null;
   period_end: string | null;
@@ -89,13 +92,18 @@ interface CardRow {
 const CARD_SQL = `
   SELECT sv.id AS score_version_id, sv.version, sv.mode, sv.model, sv.probability_column, sv.approved_run_id,
          s.name AS score_name, s.outcome_definition, s.time_horizon, s.intended_population, s.citation, s.caution_text,
-         r.results, coalesce(nullif(cv.label, ''), c.name || ' v' || cv.version) AS cohort_label,
+         CASE WHEN r.id IS NOT NULL THEN jsonb_build_object('n', ov.o->'n', 'events', ov.o->'events', 'auc', ov.o->'auc', 'oe', ov.o->'oe',
+           'calibrationIntercept', ov.o->'calibrationIntercept', 'calibrationSlope', ov.o->'calibrationSlope') END AS overall,
+         coalesce(nullif(cv.label, ''), c.name || ' v' || cv.version) AS cohort_label,
          to_char(cv.period_start, 'YYYY-MM-DD') AS period_start, to_char(cv.period_end, 'YYYY-MM-DD') AS period_end,
          cv.row_count, cv.events,
          sg.printed_name, sg.role AS signer_role, sg.signed_at
   FROM score_versions sv
   JOIN scores s ON s.id = sv.score_id
   LEFT JOIN validation_runs r ON r.id = sv.approved_run_id
+  -- The whole results jsonb is large and TOASTed; 'overall' is de-compressed once (OFFSET 0 keeps the planner from
+  -- expanding it into one de-compression per field) and only the card's figures leave the database.
+  LEFT JOIN LATERAL (SELECT r.results->'overall' AS o OFFSET 0) ov ON true
   LEFT JOIN cohort_versions cv ON cv.id = r.cohort_version_id
   LEFT JOIN cohorts c ON c.id = cv.cohort_id
   LEFT JOIN LATERAL (
@@ -105,7 +113,7 @@ const CARD_SQL = `
   WHERE sv.clinical_status = 'approved'`;
 
 function toCard(r: CardRow): ScoreCardView {
-  const overall = r.results?.overall;
+  const overall = r.overall && typeof r.overall.n === 'number' ? r.overall : null;
   const cohort = { patients: r.row_count ?? overall?.n ?? 0, events: r.events ?? overall?.events ?? 0, periodStart: r.period_start, periodEnd: r.period_end };
   return {
     scoreVersionId: r.score_version_id,

@@ -1,23 +1,24 @@
 // Cohort uploads: screen → map and check rows → store (one transaction, COPY) or discard.
 import { randomUUID } from 'node:crypto';
-import { createReadStream, createWriteStream } from 'node:fs';
 import { unlink } from 'node:fs/promises';
-import { pipeline } from 'node:stream/promises';
-import type { PoolClient } from 'pg';
-import { from as copyFrom } from 'pg-copy-streams';
-import type { ColumnMappingSpec, ColumnSummary, ScreenFinding, UploadFields, UploadStatus, UploadView } from '@shared/cohorts';
+import type { ColumnMappingSpec, ScreenFinding, UploadFields, UploadStatus, UploadView } from '@shared/cohorts';
 import { columnMapping } from '@shared/cohorts';
 import type { ScoreModel } from '@shared/model';
+import { config } from '../config';
 import { dataSource } from '../db/dataSource';
 import { ScoreVersion } from '../entities/ScoreVersion';
 import { badRequest, conflict, HttpError, notFound } from '../middleware/errors';
 import type { AuthUser } from '../middleware/auth';
+import type { UploadWorkerData } from '../workers/uploadWorker';
 import { appendAudit } from './audit';
-import { csvBatches, extraLines, isEmptyRecord, readHeaderAndSample, sniffCsv, type Delimiter } from './csvFile';
-import { ageOver89, isAgeHeader, looksLikeFormula, neutraliseCell, screenColumns, valueIdentifier } from './deidentify';
+import { registerBackground } from './background';
+import { readHeaderAndSample, sniffCsv, type Delimiter } from './csvFile';
+import { neutraliseCell, screenColumns } from './deidentify';
+import { checkInThread } from './uploadThreads';
+import type { RequiredPredictor } from './uploadCheck';
 
-const MAX_STORED_REJECTIONS = 100_000;
-const RESERVOIR = 5000;
+export { periodStart } from './uploadCheck';
+export type { RequiredPredictor };
 
 export interface ReceivedFile {
   path: string;
@@ -26,11 +27,6 @@ export interface ReceivedFile {
   bytes: number;
 }
 
-export interface RequiredPredictor {
-  column: string;
-  kind: 'numeric' | 'text';
-  positiveOnly: boolean;
-}
 
 /** The columns a score version reads from a cohort, one entry per distinct column. */
 export function requiredPredictors(sv: Pick<ScoreVersion, 'mode' | 'model' | 'probabilityColumn'>): RequiredPredictor[] {
@@ -143,10 +139,10 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
 
 interface UploadRow {
   id: string; status: UploadStatus; cohort_id: string | null; cohort_name: string | null; score_version_id: string; label: string;
-  period_start: string | null; period_end: string | null; source_filename: string; temp_path: string | null; prepared_path: string | null;
+  period_start: string | null; period_end: string | null; source_filename: string; temp_path: string | null;
   sha256: string; bytes: string; delimiter: Delimiter; headers: string[]; warnings: ScreenFinding[]; suggested_mapping: ColumnMappingSpec | null;
   mapping: ColumnMappingSpec | null; progress: number; rows_read: number; rows_accepted: number; rows_rejected: number; events: number;
-  rejection_counts: { reason: string; count: number }[]; column_summary: Record<string, ColumnSummary>; event_period: { min: string; max: string } | null;
+  rejection_counts: { reason: string; count: number }[]; column_summary: Record<string, import('@shared/cohorts').ColumnSummary>; event_period: { min: string; max: string } | null;
   planned_version_id: string | null; cohort_version_id: string | null; error: string | null; created_by: string | null; created_at: Date;
 }
 
@@ -203,280 +199,88 @@ export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnM
   for (const [name, col] of Object.entries(mapping.subgroups)) if (!has(col)) problems.push(`subgroup "${name}": the file has no column "${col}"`);
   if (problems.length) throw badRequest(`the mapping does not fit this file: ${problems.join('; ')}`, { problems });
 
+  const plannedVersionId = randomUUID();
   await dataSource.transaction(async (m) => {
-    await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
-    await m.query(
-      `UPDATE cohort_uploads SET status = 'processing', mapping = $2, progress = 0, rows_read = 0, rows_accepted = 0, rows_rejected = 0, events = 0,
-         rejection_counts = '[]', column_summary = '{}', error = NULL, updated_at = now() WHERE id = $1`,
-      [id, JSON.stringify(mapping)],
+    const [, changed] = await m.query(
+      `UPDATE cohort_uploads SET status = 'processing', mapping = $2, planned_version_id = $3, progress = 0, rows_read = 0, rows_accepted = 0, rows_rejected = 0, events = 0,
+         rejection_counts = '[]', column_summary = '{}', event_period = NULL, error = NULL, updated_at = now()
+       WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`,
+      [id, JSON.stringify(mapping), plannedVersionId],
     );
+    if (changed !== 1) throw conflict('this upload changed meanwhile (checked again or stored from another window); reload it');
+    // A second mapping replaces the first pass: its staged rows and rejections go.
+    await deleteStagedRows(r.planned_version_id, m);
+    await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
     if (saveAs) await m.query('INSERT INTO column_mappings (name, cohort_id, mapping, created_by) VALUES ($1, $2, $3, $4)', [saveAs, r.cohort_id, JSON.stringify(mapping), actor.id]);
     await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.mapped', targetType: 'cohort_upload', targetId: id, sourceIp: ip, details: { mapping, savedAs: saveAs ?? null } }, m);
   });
-  await removeQuietly(r.prepared_path);
-  const job = processUpload(id, sv, mapping).finally(() => running.delete(id));
+  const job = processUpload(id, sv, mapping, plannedVersionId).finally(() => running.delete(id));
   running.set(id, job);
   return getUpload(id);
 }
 
-class Accumulator {
-  n = 0;
-  missing = 0;
-  numeric = 0;
-  min = Infinity;
-  max = -Infinity;
-  sum = 0;
-  reservoir: number[] = [];
-  levels = new Map<string, number>();
-  private seed = 0x9e3779b9;
-  constructor(public readonly asNumber: boolean) {}
-  private rand() {
-    // xorshift32: a seeded reservoir keeps the histogram reproducible for the same file.
-    this.seed ^= this.seed << 13; this.seed ^= this.seed >>> 17; this.seed ^= this.seed << 5;
-    return (this.seed >>> 0) / 4294967296;
-  }
-  add(v: string | number | null) {
-    if (v === null || v === '') { this.missing++; return; }
-    this.n++;
-    if (this.asNumber && typeof v === 'number') {
-      this.numeric++;
-      if (v < this.min) this.min = v;
-      if (v > this.max) this.max = v;
-      this.sum += v;
-      if (this.reservoir.length < RESERVOIR) this.reservoir.push(v);
-      else { const j = Math.floor(this.rand() * this.numeric); if (j < RESERVOIR) this.reservoir[j] = v; }
-    } else {
-      const s = String(v);
-      if (this.levels.size < 1000 || this.levels.has(s)) this.levels.set(s, (this.levels.get(s) ?? 0) + 1);
-    }
-  }
-  summary(): ColumnSummary {
-    if (this.asNumber) {
-      const bins = 20;
-      const histogram: { from: number; to: number; count: number }[] = [];
-      if (this.numeric > 0) {
-        const width = this.max > this.min ? (this.max - this.min) / bins : 1;
-        for (let b = 0; b < bins; b++) histogram.push({ from: this.min + b * width, to: this.min + (b + 1) * width, count: 0 });
-        const scale = this.numeric / this.reservoir.length;
-        for (const v of this.reservoir) histogram[Math.min(bins - 1, Math.floor((v - this.min) / width))].count++;
-        if (scale !== 1) for (const h of histogram) h.count = Math.round(h.count * scale);
-      }
-      return { kind: 'numeric', n: this.n, missing: this.missing, min: this.numeric ? this.min : null, max: this.numeric ? this.max : null,
-        mean: this.numeric ? this.sum / this.numeric : null, histogram, histogramSampled: this.numeric > RESERVOIR };
-    }
-    const sorted = [...this.levels.entries()].sort((a, b) => b[1] - a[1]);
-    return { kind: 'categorical', n: this.n, missing: this.missing, levels: sorted.slice(0, 50).map(([value, count]) => ({ value, count })), otherLevels: Math.max(0, sorted.length - 50) };
-  }
+/** Staged rows of an upload that never became a cohort version (re-mapped, discarded, failed). */
+async function deleteStagedRows(plannedVersionId: string | null, m: { query: (q: string, p: unknown[]) => Promise<unknown> } = dataSource) {
+  if (!plannedVersionId) return;
+  await m.query('DELETE FROM cohort_rows WHERE cohort_version_id = $1 AND NOT EXISTS (SELECT 1 FROM cohort_versions WHERE id = $1)', [plannedVersionId]);
 }
 
-const copyText = (s: string) => s.replace(/\\/g, '\\\\');
-
-/** Turns a period cell (YYYY-MM, YYYY-Qn, YYYY) into the first day of the period, or null when unreadable. */
-export function periodStart(raw: string): string | null {
-  const v = raw.trim();
-  let m = /^(\d{4})-(0[1-9]|1[0-2])$/.exec(v);
-  if (m) return `${m[1]}-${m[2]}-01`;
-  m = /^(\d{4})-?Q([1-4])$/i.exec(v);
-  if (m) return `${m[1]}-${String((Number(m[2]) - 1) * 3 + 1).padStart(2, '0')}-01`;
-  m = /^(\d{4})$/.exec(v);
-  if (m) return `${m[1]}-01-01`;
-  return null;
-}
-
-const cellIdentifierCache = new Map<string, { category: string; reason: string } | null>();
-function cachedIdentifier(v: string) {
-  if (v.length < 5) return null;
-  let hit = cellIdentifierCache.get(v);
-  if (hit === undefined) {
-    hit = valueIdentifier(v);
-    if (cellIdentifierCache.size > 50_000) cellIdentifierCache.clear();
-    cellIdentifierCache.set(v, hit);
-  }
-  return hit;
-}
-
-async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappingSpec): Promise<void> {
+/** The full pass runs in a worker thread (server/src/workers/uploadWorker.ts); this side records progress and endings. */
+async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappingSpec, plannedVersionId: string): Promise<void> {
   const r = await uploadRow(id);
-  const headers = r.headers;
-  const col = (name: string) => headers.indexOf(name);
-  const plannedId = randomUUID();
-  const preparedPath = `${r.temp_path}.copy`;
-  const out = createWriteStream(preparedPath, { highWaterMark: 1024 * 1024 });
-  const preds = requiredPredictors(sv).map((p) => {
-    const fileCol = mapping.predictors[p.column];
-    const range = mapping.ranges[p.column] ?? {};
-    const age = /^age/i.test(p.column) || isAgeHeader(fileCol);
-    const prob = sv.mode === 'supplied';
-    return {
-      key: JSON.stringify(p.column), name: p.column, fileCol, idx: col(fileCol), kind: p.kind, positiveOnly: p.positiveOnly, age,
-      min: range.min ?? (age ? 0 : prob ? 0 : -Infinity), max: range.max ?? (age ? 120 : prob ? 1 : Infinity),
-    };
+  const data: UploadWorkerData = {
+    uploadId: id, db: { ...config.db }, path: r.temp_path!, delimiter: r.delimiter, headers: r.headers, mapping,
+    predictors: requiredPredictors(sv), supplied: sv.mode === 'supplied', plannedVersionId, totalBytes: Number(r.bytes),
+  };
+  let lastWrite = 0;
+  let progressWrite: Promise<unknown> = Promise.resolve();
+  const ending = await checkInThread(data, (m) => {
+    if (Date.now() - lastWrite < 400) return;
+    lastWrite = Date.now();
+    // Only while still processing: the worker's own final update wins over a late progress write.
+    progressWrite = dataSource.query(`UPDATE cohort_uploads SET progress = $2, rows_read = $3, rows_rejected = $4, updated_at = now() WHERE id = $1 AND status = 'processing'`,
+      [id, m.fraction, m.rowsRead, m.rowsRejected]).catch(() => undefined);
   });
-  const outcomeIdx = col(mapping.outcome.column);
-  const pos = new Set(mapping.outcome.positive.map((s) => s.trim().toLowerCase()));
-  const neg = new Set(mapping.outcome.negative.map((s) => s.trim().toLowerCase()));
-  const dateIdx = mapping.date ? col(mapping.date.column) : -1;
-  const subs = Object.entries(mapping.subgroups).map(([name, c]) => ({ name, key: JSON.stringify(name), idx: col(c), fileCol: c }));
-  const summaries = new Map<string, Accumulator>();
-  for (const p of preds) summaries.set(p.name, new Accumulator(p.kind === 'numeric'));
-  summaries.set(`outcome (${mapping.outcome.column})`, new Accumulator(false));
-  if (mapping.date) summaries.set(`period (${mapping.date.column})`, new Accumulator(false));
-  for (const s of subs) summaries.set(s.name, new Accumulator(false));
-  const predAcc = preds.map((p) => summaries.get(p.name)!);
-  const outcomeAcc = summaries.get(`outcome (${mapping.outcome.column})`)!;
-  const dateAcc = mapping.date ? summaries.get(`period (${mapping.date.column})`)! : null;
-  const subAcc = subs.map((s) => summaries.get(s.name)!);
-  const mappedIdx = [...new Set([...preds.map((p) => p.idx), outcomeIdx, dateIdx, ...subs.map((s) => s.idx)].filter((i) => i >= 0))];
-
-  // Subgroup cells and periods repeat a few levels: encode each distinct value once (bounded caches).
-  const subJsonCache = subs.map(() => new Map<string, string>());
-  const periodCache = new Map<string, string | null>();
-  let rowsRead = 0, accepted = 0, rejectedRows = 0, events = 0, stored = 0;
-  let minDate: string | null = null, maxDate: string | null = null;
-  const reasonCounts = new Map<string, number>();
-  let batch: [number, string, string, string][] = [];
-  let lastWrite = Date.now();
-  let bytesRead = 0;
-  const total = Number(r.bytes);
-  let refusal: ScreenFinding | null = null;
-
-  const flushRejections = async () => {
-    if (!batch.length) return;
-    const b = batch;
-    batch = [];
-    await dataSource.query(
-      `INSERT INTO cohort_upload_rejections (upload_id, line_no, column_name, value, reason)
-       SELECT $1, * FROM unnest($2::int[], $3::text[], $4::text[], $5::text[])`,
-      [id, b.map((x) => x[0]), b.map((x) => x[1]), b.map((x) => x[2].slice(0, 500)), b.map((x) => x[3])],
-    );
-  };
-  const reject = (line: number, column: string, value: string, reason: string, kind: string) => {
-    reasonCounts.set(kind, (reasonCounts.get(kind) ?? 0) + 1);
-    if (stored < MAX_STORED_REJECTIONS) { batch.push([line, column, value, reason]); stored++; }
-  };
-
-  try {
-    const batches = csvBatches(r.temp_path!, r.delimiter, (b) => (bytesRead = b));
-    let first = true;
-    let buffer = '';
-    let nextLine = 1;
-    outer: for await (const records of batches) for (const record of records) {
-      const line = nextLine;
-      nextLine += 1 + extraLines(record);
-      if (isEmptyRecord(record)) continue;
-      if (first) { first = false; continue; }
-      rowsRead++;
-      let bad = false;
-      if (record.length !== headers.length) {
-        reject(line, '(row)', record.join(r.delimiter).slice(0, 200), `the row has ${record.length} fields; the header has ${headers.length}`, 'wrong number of fields');
-        rejectedRows++;
-        continue;
-      }
-      for (const i of mappedIdx) {
-        const v = record[i];
-        if (looksLikeFormula(v)) { reject(line, headers[i], v, 'the cell looks like a spreadsheet formula', 'formula-looking cell'); bad = true; }
-        const hit = cachedIdentifier(v);
-        if (hit) { refusal = { column: headers[i], category: hit.category, reason: `${hit.reason} (line ${line})` }; break; }
-      }
-      if (refusal) break outer;
-      if (bad) { rejectedRows++; continue; }
-
-      let predJson = '{';
-      const values: (number | string)[] = [];
-      for (let k = 0; k < preds.length; k++) {
-        const p = preds[k];
-        const raw = record[p.idx].trim();
-        if (raw === '') { reject(line, p.fileCol, raw, `missing value for ${p.name}`, `missing ${p.name}`); bad = true; continue; }
-        if (p.kind === 'numeric') {
-          let x = Number(raw);
-          if (p.age && raw === '90+') x = 90; // the Safe Harbor grouping of ages over 89 enters the formula as 90
-          else if (p.age && ageOver89(raw)) { refusal = { column: p.fileCol, category: 'ages over 89', reason: `holds an age over 89 (line ${line}); group them as "90+"` }; break; }
-          if (!Number.isFinite(x) || raw === '') { reject(line, p.fileCol, raw, `${p.name} must be a number`, `non-numeric ${p.name}`); bad = true; continue; }
-          if (x < p.min || x > p.max) { reject(line, p.fileCol, raw, `${p.name} must be between ${p.min} and ${p.max}`, `${p.name} out of range`); bad = true; continue; }
-          if (p.positiveOnly && x <= 0) { reject(line, p.fileCol, raw, `${p.name} enters the score as a logarithm and must be above 0`, `${p.name} not above 0`); bad = true; continue; }
-          values.push(x);
-          if (!bad) predJson += `${k ? ',' : ''}${p.key}:${x}`;
-        } else {
-          values.push(raw);
-          if (!bad) predJson += `${k ? ',' : ''}${p.key}:${JSON.stringify(raw)}`;
-        }
-      }
-      if (refusal) break outer;
-      const yRaw = record[outcomeIdx].trim();
-      const yl = yRaw.toLowerCase();
-      const y = pos.has(yl) ? 1 : neg.has(yl) ? 0 : -1;
-      if (y < 0) {
-        reject(line, mapping.outcome.column, yRaw, yRaw === '' ? 'missing outcome' : `the outcome must be one of ${[...pos, ...neg].join(', ')}`, yRaw === '' ? 'missing outcome' : 'outcome not a known label');
-        bad = true;
-      }
-      let date: string | null = null;
-      if (dateIdx >= 0) {
-        const d = record[dateIdx].trim();
-        if (d !== '') {
-          date = periodCache.get(d) ?? null;
-          if (date === null && !periodCache.has(d)) { date = periodStart(d); if (periodCache.size < 10_000) periodCache.set(d, date); }
-          if (!date) { reject(line, mapping.date!.column, d, 'the period must be YYYY-MM, YYYY-Qn or YYYY', 'unreadable period'); bad = true; }
-        }
-      }
-      if (bad) { rejectedRows++; continue; }
-
-      let subJson = '{';
-      for (let k = 0; k < subs.length; k++) {
-        const v = record[subs[k].idx].trim();
-        subAcc[k].add(v === '' ? null : v);
-        if (v !== '') {
-          const cache = subJsonCache[k];
-          let enc = cache.get(v);
-          if (enc === undefined) { enc = copyText(`${subs[k].key}:${JSON.stringify(v)}`); if (cache.size < 10_000) cache.set(v, enc); }
-          subJson += subJson.length > 1 ? `,${enc}` : enc;
-        }
-      }
-      for (let k = 0; k < preds.length; k++) predAcc[k].add(values[k]);
-      outcomeAcc.add(String(y));
-      dateAcc?.add(date);
-      if (date) { if (!minDate || date < minDate) minDate = date; if (!maxDate || date > maxDate) maxDate = date; }
-      accepted++;
-      events += y;
-      buffer += `${plannedId}\t${line}\t${y}\t${date ?? '\\N'}\t${copyText(predJson)}}\t${subJson}}\n`;
-      if (buffer.length > 256 * 1024) {
-        if (!out.write(buffer)) await new Promise<void>((res) => out.once('drain', () => res()));
-        buffer = '';
-      }
-      if (batch.length >= 2000) await flushRejections();
-      if (rowsRead % 20000 === 0 && Date.now() - lastWrite > 400) {
-        lastWrite = Date.now();
-        await dataSource.query('UPDATE cohort_uploads SET progress = $2, rows_read = $3, rows_rejected = $4, updated_at = now() WHERE id = $1', [id, Math.min(0.99, bytesRead / total), rowsRead, rejectedRows]);
-      }
-    }
-    await batches.return(undefined);
-    if (buffer) out.write(buffer);
-    await new Promise<void>((res, rej) => out.end((err?: Error | null) => (err ? rej(err) : res())));
-
-    if (refusal) {
-      await removeQuietly(preparedPath);
-      await removeQuietly(r.temp_path);
-      await dataSource.transaction(async (m) => {
-        await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
-        await m.query(`UPDATE cohort_uploads SET status = 'refused', temp_path = NULL, prepared_path = NULL, warnings = $2, error = $3, updated_at = now() WHERE id = $1`,
-          [id, JSON.stringify([refusal]), `refused by the de-identification screen: column "${refusal!.column}" ${refusal!.reason}; nothing was stored`]);
-        await appendAudit({ action: 'cohort.upload.refused', actorId: r.created_by, targetType: 'cohort_upload', targetId: id, details: { columns: [{ column: refusal!.column, category: refusal!.category }] } }, m);
-      });
-      return;
-    }
-    await flushRejections();
-    const columnSummary = Object.fromEntries([...summaries.entries()].map(([k, a]) => [k, a.summary()]));
-    await dataSource.query(
-      `UPDATE cohort_uploads SET status = 'checked', progress = 1, rows_read = $2, rows_accepted = $3, rows_rejected = $4, events = $5,
-         rejection_counts = $6, column_summary = $7, event_period = $8, planned_version_id = $9, prepared_path = $10, updated_at = now() WHERE id = $1`,
-      [id, rowsRead, accepted, rejectedRows, events, JSON.stringify([...reasonCounts.entries()].map(([reason, count]) => ({ reason, count }))),
-        JSON.stringify(columnSummary), minDate ? JSON.stringify({ min: minDate, max: maxDate }) : null, plannedId, preparedPath],
-    );
-  } catch (err) {
-    out.destroy();
-    await removeQuietly(preparedPath);
-    await dataSource.query(`UPDATE cohort_uploads SET status = 'failed', error = $2, updated_at = now() WHERE id = $1`, [id, `the file could not be processed: ${(err as Error).message.split('\n')[0]}`]).catch(() => undefined);
+  await progressWrite;
+  if (ending.type === 'checked') return;
+  if (ending.type === 'refused') {
+    const refusal = ending.refusal;
+    await removeQuietly(r.temp_path);
+    await dataSource.transaction(async (m) => {
+      await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
+      await m.query(`UPDATE cohort_uploads SET status = 'refused', temp_path = NULL, warnings = $2, error = $3, updated_at = now() WHERE id = $1`,
+        [id, JSON.stringify([refusal]), `refused by the de-identification screen: column "${refusal.column}" ${refusal.reason}; nothing was stored`]);
+      await appendAudit({ action: 'cohort.upload.refused', actorId: r.created_by, targetType: 'cohort_upload', targetId: id, details: { columns: [{ column: refusal.column, category: refusal.category }] } }, m);
+    });
+    return;
   }
+  const message = ending.type === 'error' ? ending.message : 'unknown ending';
+  console.error(`[uploads] checking upload ${id} failed:`, message);
+  await dataSource.query(`UPDATE cohort_uploads SET status = 'failed', error = $2, updated_at = now() WHERE id = $1 AND status = 'processing'`,
+    [id, `the file could not be processed: ${message}; nothing was stored`]).catch(() => undefined);
 }
+
+/**
+ * After a crash: a file whose check was under way was checked by a thread that no longer exists, and PostgreSQL
+ * aborted that thread's transaction, so nothing of it is stored. Mark it failed; the steward applies the mapping again.
+ */
+export async function recoverInterruptedUploads(): Promise<number> {
+  const rows: { id: string; planned_version_id: string | null }[] = await dataSource.query(`SELECT id, planned_version_id FROM cohort_uploads WHERE status = 'processing'`);
+  for (const r of rows) {
+    if (running.has(r.id)) continue;
+    await deleteStagedRows(r.planned_version_id);
+    await dataSource.query(
+      `UPDATE cohort_uploads SET status = 'failed', error = 'the server stopped while this file was being checked; nothing was stored — apply the mapping again to check it', updated_at = now()
+       WHERE id = $1 AND status = 'processing'`,
+      [r.id],
+    );
+  }
+  if (rows.length) console.log(`[uploads] ${rows.length} upload check(s) interrupted by a restart marked failed`);
+  return rows.length;
+}
+registerBackground(async () => {
+  await recoverInterruptedUploads();
+});
 
 // ---- Rejections ----------------------------------------------------------------------------------------------
 
@@ -517,7 +321,7 @@ export async function* rejectionsCsv(id: string): AsyncGenerator<string> {
 
 export async function commitUpload(actor: AuthUser, id: string, excludeRejected: boolean, ip: string) {
   const r = await uploadRow(id);
-  if (r.status !== 'checked' || !r.prepared_path || !r.planned_version_id) throw conflict(`this upload is ${r.status}; only a checked upload can be stored`);
+  if (r.status !== 'checked' || !r.planned_version_id) throw conflict(`this upload is ${r.status}; only a checked upload can be stored`);
   if (r.rows_rejected > 0 && !excludeRejected) {
     throw conflict(`${r.rows_rejected} row(s) were rejected: store with excludeRejected: true (the exclusions are recorded), or fix the file and upload it again`);
   }
@@ -530,6 +334,9 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
   let cohortId: string;
   let version: number;
   try {
+    // Two windows storing the same upload: the second waits here, then finds it stored.
+    const [locked] = await qr.query('SELECT status FROM cohort_uploads WHERE id = $1 FOR UPDATE', [id]);
+    if (locked.status !== 'checked') throw conflict(`this upload is ${locked.status}; only a checked upload can be stored`);
     if (r.cohort_id) {
       cohortId = r.cohort_id;
       await qr.query('SELECT id FROM cohorts WHERE id = $1 FOR UPDATE', [cohortId]);
@@ -556,11 +363,10 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
         r.source_filename, r.sha256, r.bytes, r.rows_accepted, r.events, r.rows_rejected, JSON.stringify(exclusions), JSON.stringify(mapping), JSON.stringify(r.column_summary), actor.id],
     );
     versionId = v.id;
-    const client = (qr as unknown as { databaseConnection: PoolClient }).databaseConnection;
-    const copy = client.query(copyFrom('COPY cohort_rows (cohort_version_id, line_no, outcome, event_date, predictors, subgroups) FROM STDIN'));
-    await pipeline(createReadStream(r.prepared_path, { highWaterMark: 1024 * 1024 }), copy);
-    if (copy.rowCount !== r.rows_accepted) throw new Error(`COPY stored ${copy.rowCount} rows, expected ${r.rows_accepted}`);
-    await qr.query(`UPDATE cohort_uploads SET status = 'committed', cohort_id = $2, cohort_version_id = $3, temp_path = NULL, prepared_path = NULL, updated_at = now() WHERE id = $1`, [id, cohortId, versionId]);
+    // The rows were streamed in by the check, in the same transaction that recorded rows_accepted (the worker compares
+    // COPY's count); only a new mapping or a discard removes them, and both change the status locked above. This
+    // version row is what makes them a cohort version.
+    await qr.query(`UPDATE cohort_uploads SET status = 'committed', cohort_id = $2, cohort_version_id = $3, temp_path = NULL, updated_at = now() WHERE id = $1 AND status = 'checked'`, [id, cohortId, versionId]);
     await qr.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
     await appendAudit({
       actorId: actor.id, actorEmail: actor.email, action: 'cohort.version.stored', targetType: 'cohort_version', targetId: versionId, sourceIp: ip,
@@ -575,7 +381,6 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
   } finally {
     await qr.release();
   }
-  await removeQuietly(r.prepared_path);
   await removeQuietly(r.temp_path);
   return { cohortId, cohortVersionId: versionId, version, rowCount: r.rows_accepted, events: r.events, excludedCount: r.rows_rejected, sha256: r.sha256 };
 }
@@ -586,10 +391,10 @@ export async function discardUpload(actor: AuthUser, id: string, ip: string) {
   if (r.status === 'processing') await whenProcessed(id);
   const again = await uploadRow(id);
   await removeQuietly(again.temp_path);
-  await removeQuietly(again.prepared_path);
   await dataSource.transaction(async (m) => {
+    await deleteStagedRows(again.planned_version_id, m);
     await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
-    await m.query(`UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, prepared_path = NULL, updated_at = now() WHERE id = $1`, [id]);
+    await m.query(`UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, updated_at = now() WHERE id = $1`, [id]);
     await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.discarded', targetType: 'cohort_upload', targetId: id, sourceIp: ip }, m);
   });
   return getUpload(id);

@@ -3,6 +3,8 @@
  * bootstrapWorker.ts on each. Each replicate has its own random stream (stats/bootstrap.ts), so the intervals are the
  * same as the single-thread bootstrap for the same seed, whatever the number of workers.
  * Workers load TypeScript through tsx's loader, registered in each thread by tsWorkerEntry.mjs.
+ * Pool size: by default one core is left to the API thread and PostgreSQL (cores − 1, at least one worker); the workers
+ * also lower their own priority (threadPriority.ts). Callers that own the machine (the engine benchmark) pass a count.
  */
 import { availableParallelism } from 'node:os';
 import { Worker } from 'node:worker_threads';
@@ -13,12 +15,15 @@ import { computeFullSet, resolveSettings } from '../stats/fullSet';
 const ENTRY_URL = new URL('./tsWorkerEntry.mjs', import.meta.url);
 const WORKER_SCRIPT = new URL('./bootstrapWorker.ts', import.meta.url).href;
 
+/** Cores − 1 (at least 1): on the 2-core reference machine a bootstrap never takes both cores from the API. */
+export const defaultBootstrapWorkers = () => Math.max(1, availableParallelism() - 1);
+
 export async function bootstrapInWorkers(
   p: Float64Array,
   y: Uint8Array,
   settings: ValidationSettings,
   point: ValidationResult,
-  workers = availableParallelism(),
+  workers = defaultBootstrapWorkers(),
 ): Promise<NonNullable<ValidationResult['bootstrap']> & { workers: number }> {
   const R = settings.bootstrapReplicates;
   const k = Math.max(1, Math.min(workers, R));

@@ -2,6 +2,7 @@
 // Receives the run input as workerData and answers with progress messages and then the results (or an error).
 import { parentPort, workerData } from 'node:worker_threads';
 import { computeRunResults, RunInputError, type RunComputeInput } from '../services/runCompute';
+import { lowerThisThreadPriority } from './threadPriority';
 
 export type RunWorkerMessage =
   | { type: 'progress'; fraction: number; message: string }
@@ -10,6 +11,8 @@ export type RunWorkerMessage =
 
 const port = parentPort;
 if (port) {
+  // A run may compute for minutes: it yields the CPU to the API thread (per-thread nice value, see threadPriority.ts).
+  lowerThisThreadPriority();
   try {
     const results = computeRunResults(workerData as RunComputeInput, (fraction, message) => port.postMessage({ type: 'progress', fraction, message } satisfies RunWorkerMessage));
     port.postMessage({ type: 'done', results } satisfies RunWorkerMessage);

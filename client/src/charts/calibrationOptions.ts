@@ -1,0 +1,28 @@
+// What every calibration plot shares: square axes from 0 to a little above the largest value, the dashed ideal line,
+// the legend underneath. Used by CalibrationCurveChart and RecalibrateDialogCalibrationChart.
+import type { ChartData, ChartOptions } from 'chart.js';
+import { CHART_COLOURS } from '@/plugins/charts';
+
+/** Ends the axes a little above the largest predicted or observed value (in steps of 0.05), so low risks are not squashed. */
+export function calibrationAxisMax(values: number[]): number {
+  const m = Math.max(0.05, ...values.filter(Number.isFinite));
+  return Math.min(1, Math.ceil(m * 1.1 * 20) / 20);
+}
+
+/** The observed = predicted diagonal. */
+export function idealLine(): ChartData<'scatter'>['datasets'][number] {
+  return { label: 'Ideal (observed = predicted)', data: [{ x: 0, y: 0 }, { x: 1, y: 1 }], showLine: true, borderColor: CHART_COLOURS.reference, borderDash: [6, 4], pointRadius: 0, borderWidth: 1 };
+}
+
+export function calibrationOptions(axisMax: number, xTitle = 'Predicted risk'): ChartOptions<'scatter'> {
+  return {
+    responsive: true,
+    maintainAspectRatio: false,
+    animation: false,
+    scales: {
+      x: { min: 0, max: axisMax, title: { display: true, text: xTitle } },
+      y: { min: 0, max: axisMax, title: { display: true, text: 'Observed proportion' } },
+    },
+    plugins: { legend: { position: 'bottom' } },
+  };
+}

@@ -1,0 +1,87 @@
+// The `adequacy` block of run and cohort-version responses: the shared verdict (shared/src/adequacy.ts) plus the
+// expected CI widths from precisionFor (Riley et al. 2021, server/src/stats/sampleSize.ts).
+import { adequacyVerdict, ASSUMED_AUC, PRECISION_ASSUMPTION, type AdequacyAucSource, type AdequacyPrecision, type CohortAdequacy } from '@shared/adequacy';
+import { dataSource } from '../db/dataSource';
+import { precisionFor } from '../stats/sampleSize';
+
+// precisionFor solves the anticipated LP distribution by bisection (~0.2 s); a run or cohort version asks the same
+// question every time it is opened, so answers are kept per (n, events, AUC).
+const MEMO_SIZE = 500;
+const memo = new Map<string, AdequacyPrecision>();
+
+function precision(n: number, events: number, auc: number | null): AdequacyPrecision {
+  if (events === 0 || events === n) return { oe: null, auc: null, slope: null, note: 'no precision can be given without both events and non-events' };
+  const key = `${n}|${events}|${auc}`;
+  const hit = memo.get(key);
+  if (hit) return hit;
+  const eventRate = events / n;
+  let out: AdequacyPrecision;
+  if (auc === null || !(auc > 0 && auc < 1)) {
+    const p = precisionFor(n, eventRate, 0.75); // O/E's width does not depend on the AUC
+    out = { oe: fin(p.oe), auc: null, slope: null, note: 'the AUC is not available, so only the O/E width is given' };
+  } else {
+    const p = precisionFor(n, eventRate, auc);
+    out = { oe: fin(p.oe), auc: fin(p.auc), slope: fin(p.slope), note: p.slope === null ? 'the calibration slope width needs an AUC above 0.5' : null };
+  }
+  if (memo.size >= MEMO_SIZE) memo.delete(memo.keys().next().value as string);
+  memo.set(key, out);
+  return out;
+}
+
+const fin = (v: number | null) => (v !== null && Number.isFinite(v) ? v : null);
+
+export function buildAdequacy(input: { n: number; events: number; auc: number | null; source: AdequacyAucSource; runId: string | null }): CohortAdequacy {
+  const { n, events } = input;
+  const nonEvents = n - events;
+  return {
+    n,
+    events,
+    nonEvents,
+    eventRate: n > 0 ? events / n : null,
+    verdict: adequacyVerdict(events, nonEvents),
+    auc: { value: input.auc, source: input.source, runId: input.runId },
+    precision: precision(n, events, input.auc),
+    assumption: PRECISION_ASSUMPTION,
+  };
+}
+
+/** For a completed run: its own counts and AUC. */
+export function runAdequacy(run: { id: string; results: { overall: { n: number; events: number; auc: { estimate: number } } } | null }): CohortAdequacy | null {
+  const o = run.results?.overall;
+  if (!o || !Number.isInteger(o.n) || !Number.isInteger(o.events)) return null;
+  const auc = Number.isFinite(o.auc?.estimate) ? o.auc.estimate : null;
+  return buildAdequacy({ n: o.n, events: o.events, auc, source: 'this run', runId: run.id });
+}
+
+/**
+ * For a cohort version: the AUC comes from, in order, the latest completed run on this version, the run on which a
+ * version of the cohort's score was approved, the score's latest completed run, or else ASSUMED_AUC (said so).
+ */
+export async function cohortVersionAdequacy(v: { id: string; cohortId: string; rowCount: number; events: number }): Promise<CohortAdequacy> {
+  const rows: { auc: number | null; run_id: string; source: AdequacyAucSource }[] = await dataSource.query(
+    `WITH candidates AS (
+       SELECT 1 AS rank, r.id AS run_id, r.finished_at, 'run on this cohort version' AS source, r.results FROM validation_runs r
+        WHERE r.cohort_version_id = $1 AND r.status = 'completed'
+       UNION ALL
+       SELECT 2, r.id, r.finished_at, 'approved run of the score', r.results FROM validation_runs r
+         JOIN score_versions sv ON sv.approved_run_id = r.id JOIN cohorts c ON c.score_id = sv.score_id
+        WHERE c.id = $2 AND r.status = 'completed'
+       UNION ALL
+       SELECT 3, r.id, r.finished_at, 'latest run of the score', r.results FROM validation_runs r
+         JOIN score_versions sv ON sv.id = r.score_version_id JOIN cohorts c ON c.score_id = sv.score_id
+        WHERE c.id = $2 AND r.status = 'completed'
+     )
+     SELECT (results->'overall'->'auc'->>'estimate')::float8 AS auc, run_id, source FROM candidates
+      WHERE jsonb_typeof(results->'overall'->'auc'->'estimate') = 'number'
+      ORDER BY rank, finished_at DESC NULLS LAST, run_id LIMIT 1`,
+    [v.id, v.cohortId],
+  );
+  const found = rows[0];
+  return buildAdequacy({
+    n: v.rowCount,
+    events: v.events,
+    auc: found ? Number(found.auc) : ASSUMED_AUC,
+    source: found ? found.source : 'assumed',
+    runId: found ? found.run_id : null,
+  });
+}

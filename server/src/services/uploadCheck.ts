@@ -1,0 +1,285 @@
+// The full pass over an uploaded file, once the steward has mapped its columns: every row is checked (fields, types,
+// ranges, outcome labels, periods, formula-looking cells, identifiers the screen's sample did not show), the accepted
+// rows are encoded for PostgreSQL's COPY, and each column is summarised. No database access here: the caller (the
+// upload worker thread) decides where rows and rejections go, so this stays a plain function the tests can call.
+import type { ColumnMappingSpec, ColumnSummary, ScreenFinding } from '@shared/cohorts';
+import { csvBatches, extraLines, isEmptyRecord, type Delimiter } from './csvFile';
+import { ageOver89, isAgeHeader, looksLikeFormula, valueIdentifier } from './deidentify';
+
+export const MAX_STORED_REJECTIONS = 100_000;
+const RESERVOIR = 5000;
+
+export interface RequiredPredictor {
+  column: string;
+  kind: 'numeric' | 'text';
+  positiveOnly: boolean;
+}
+
+export interface CheckInput {
+  path: string;
+  delimiter: Delimiter;
+  headers: string[];
+  mapping: ColumnMappingSpec;
+  predictors: RequiredPredictor[];
+  /** "supplied probability" score versions: the one predictor is a probability in [0, 1]. */
+  supplied: boolean;
+  /** The id the cohort version will get; every COPY row carries it. */
+  plannedVersionId: string;
+  totalBytes: number;
+}
+
+export type Rejection = [line: number, column: string, value: string, reason: string];
+
+export interface CheckSink {
+  /** COPY text rows for cohort_rows (cohort_version_id, line_no, outcome, event_date, predictors, subgroups). */
+  rows(copyText: string): Promise<void> | void;
+  progress(fraction: number, rowsRead: number, rowsRejected: number): void;
+}
+
+export interface CheckResult {
+  refusal: ScreenFinding | null;
+  rowsRead: number;
+  accepted: number;
+  rejectedRows: number;
+  events: number;
+  reasonCounts: { reason: string; count: number }[];
+  columnSummary: Record<string, ColumnSummary>;
+  eventPeriod: { min: string; max: string } | null;
+  /** The first MAX_STORED_REJECTIONS rejected cells, in line order. */
+  rejections: Rejection[];
+}
+
+class Accumulator {
+  n = 0;
+  missing = 0;
+  numeric = 0;
+  min = Infinity;
+  max = -Infinity;
+  sum = 0;
+  reservoir: number[] = [];
+  levels = new Map<string, number>();
+  private seed = 0x9e3779b9;
+  constructor(public readonly asNumber: boolean) {}
+  private rand() {
+    // xorshift32: a seeded reservoir keeps the histogram reproducible for the same file.
+    this.seed ^= this.seed << 13; this.seed ^= this.seed >>> 17; this.seed ^= this.seed << 5;
+    return (this.seed >>> 0) / 4294967296;
+  }
+  add(v: string | number | null) {
+    if (v === null || v === '') { this.missing++; return; }
+    this.n++;
+    if (this.asNumber && typeof v === 'number') {
+      this.numeric++;
+      if (v < this.min) this.min = v;
+      if (v > this.max) this.max = v;
+      this.sum += v;
+      if (this.reservoir.length < RESERVOIR) this.reservoir.push(v);
+      else { const j = Math.floor(this.rand() * this.numeric); if (j < RESERVOIR) this.reservoir[j] = v; }
+    } else {
+      const s = String(v);
+      const c = this.levels.get(s);
+      if (c !== undefined) this.levels.set(s, c + 1);
+      else if (this.levels.size < 1000) this.levels.set(s, 1);
+    }
+  }
+  summary(): ColumnSummary {
+    if (this.asNumber) {
+      const bins = 20;
+      const histogram: { from: number; to: number; count: number }[] = [];
+      if (this.numeric > 0) {
+        const width = this.max > this.min ? (this.max - this.min) / bins : 1;
+        for (let b = 0; b < bins; b++) histogram.push({ from: this.min + b * width, to: this.min + (b + 1) * width, count: 0 });
+        const scale = this.numeric / this.reservoir.length;
+        for (const v of this.reservoir) histogram[Math.min(bins - 1, Math.floor((v - this.min) / width))].count++;
+        if (scale !== 1) for (const h of histogram) h.count = Math.round(h.count * scale);
+      }
+      return { kind: 'numeric', n: this.n, missing: this.missing, min: this.numeric ? this.min : null, max: this.numeric ? this.max : null,
+        mean: this.numeric ? this.sum / this.numeric : null, histogram, histogramSampled: this.numeric > RESERVOIR };
+    }
+    const sorted = [...this.levels.entries()].sort((a, b) => b[1] - a[1]);
+    return { kind: 'categorical', n: this.n, missing: this.missing, levels: sorted.slice(0, 50).map(([value, count]) => ({ value, count })), otherLevels: Math.max(0, sorted.length - 50) };
+  }
+}
+
+/** COPY text format: a backslash starts an escape, so it is doubled (JSON has already escaped tabs and newlines). */
+const copyText = (s: string) => (s.indexOf('\\') === -1 ? s : s.replace(/\\/g, '\\\\'));
+
+/** Turns a period cell (YYYY-MM, YYYY-Qn, YYYY) into the first day of the period, or null when unreadable. */
+export function periodStart(raw: string): string | null {
+  const v = raw.trim();
+  let m = /^(\d{4})-(0[1-9]|1[0-2])$/.exec(v);
+  if (m) return `${m[1]}-${m[2]}-01`;
+  m = /^(\d{4})-?Q([1-4])$/i.exec(v);
+  if (m) return `${m[1]}-${String((Number(m[2]) - 1) * 3 + 1).padStart(2, '0')}-01`;
+  m = /^(\d{4})$/.exec(v);
+  if (m) return `${m[1]}-01-01`;
+  return null;
+}
+
+/** Rows are checked cell by cell; the identifier patterns run once per distinct value (bounded cache). */
+function identifierCache() {
+  const cache = new Map<string, { category: string; reason: string } | null>();
+  return (v: string) => {
+    if (v.length < 5) return null;
+    let hit = cache.get(v);
+    if (hit === undefined) {
+      hit = valueIdentifier(v);
+      if (cache.size > 50_000) cache.clear();
+      cache.set(v, hit);
+    }
+    return hit;
+  };
+}
+
+export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promise<CheckResult> {
+  const { headers, mapping, plannedVersionId } = input;
+  const col = (name: string) => headers.indexOf(name);
+  const preds = input.predictors.map((p) => {
+    const fileCol = mapping.predictors[p.column];
+    const range = mapping.ranges[p.column] ?? {};
+    const age = /^age/i.test(p.column) || isAgeHeader(fileCol);
+    const prob = input.supplied;
+    return {
+      key: copyText(JSON.stringify(p.column)), name: p.column, fileCol, idx: col(fileCol), numeric: p.kind === 'numeric', positiveOnly: p.positiveOnly, age,
+      min: range.min ?? (age ? 0 : prob ? 0 : -Infinity), max: range.max ?? (age ? 120 : prob ? 1 : Infinity),
+    };
+  });
+  const outcomeIdx = col(mapping.outcome.column);
+  const pos = new Set(mapping.outcome.positive.map((s) => s.trim().toLowerCase()));
+  const neg = new Set(mapping.outcome.negative.map((s) => s.trim().toLowerCase()));
+  const dateIdx = mapping.date ? col(mapping.date.column) : -1;
+  const subs = Object.entries(mapping.subgroups).map(([name, c]) => ({ name, key: copyText(JSON.stringify(name)), idx: col(c), fileCol: c }));
+  const summaries = new Map<string, Accumulator>();
+  for (const p of preds) summaries.set(p.name, new Accumulator(p.numeric));
+  summaries.set(`outcome (${mapping.outcome.column})`, new Accumulator(false));
+  if (mapping.date) summaries.set(`period (${mapping.date.column})`, new Accumulator(false));
+  for (const s of subs) summaries.set(s.name, new Accumulator(false));
+  const predAcc = preds.map((p) => summaries.get(p.name)!);
+  const outcomeAcc = summaries.get(`outcome (${mapping.outcome.column})`)!;
+  const dateAcc = mapping.date ? summaries.get(`period (${mapping.date.column})`)! : null;
+  const subAcc = subs.map((s) => summaries.get(s.name)!);
+  const mappedIdx = [...new Set([...preds.map((p) => p.idx), outcomeIdx, dateIdx, ...subs.map((s) => s.idx)].filter((i) => i >= 0))];
+  const identifier = identifierCache();
+
+  // Subgroup cells, text predictors and periods repeat a few levels: encode each distinct value once (bounded caches).
+  const encCache = [...preds.map(() => new Map<string, string>()), ...subs.map(() => new Map<string, string>())];
+  const encode = (cache: Map<string, string>, key: string, v: string) => {
+    let enc = cache.get(v);
+    if (enc === undefined) { enc = `${key}:${copyText(JSON.stringify(v))}`; if (cache.size < 10_000) cache.set(v, enc); }
+    return enc;
+  };
+  const periodCache = new Map<string, string | null>();
+  let rowsRead = 0, accepted = 0, rejectedRows = 0, events = 0;
+  let minDate: string | null = null, maxDate: string | null = null;
+  const reasonCounts = new Map<string, number>();
+  const rejections: Rejection[] = [];
+  let bytesRead = 0;
+  let refusal: ScreenFinding | null = null;
+  const reject = (line: number, column: string, value: string, reason: string, kind: string) => {
+    reasonCounts.set(kind, (reasonCounts.get(kind) ?? 0) + 1);
+    if (rejections.length < MAX_STORED_REJECTIONS) rejections.push([line, column, value.slice(0, 500), reason]);
+  };
+  const values: (number | string)[] = new Array(preds.length);
+  const rowPrefix = `${plannedVersionId}\t`;
+
+  const batches = csvBatches(input.path, input.delimiter, (b) => (bytesRead = b));
+  let first = true;
+  let buffer = '';
+  let nextLine = 1;
+  let lastProgress = 0;
+  try {
+    outer: for await (const records of batches) {
+      for (const record of records) {
+        const line = nextLine;
+        nextLine += 1 + extraLines(record);
+        if (isEmptyRecord(record)) continue;
+        if (first) { first = false; continue; }
+        rowsRead++;
+        if (record.length !== headers.length) {
+          reject(line, '(row)', record.join(input.delimiter).slice(0, 200), `the row has ${record.length} fields; the header has ${headers.length}`, 'wrong number of fields');
+          rejectedRows++;
+          continue;
+        }
+        let bad = false;
+        for (let j = 0; j < mappedIdx.length; j++) {
+          const i = mappedIdx[j];
+          const v = record[i];
+          if (looksLikeFormula(v)) { reject(line, headers[i], v, 'the cell looks like a spreadsheet formula', 'formula-looking cell'); bad = true; }
+          const hit = identifier(v);
+          if (hit) { refusal = { column: headers[i], category: hit.category, reason: `${hit.reason} (line ${line})` }; break outer; }
+        }
+        if (bad) { rejectedRows++; continue; }
+
+        let predJson = '{';
+        for (let k = 0; k < preds.length; k++) {
+          const p = preds[k];
+          const raw = record[p.idx].trim();
+          if (raw === '') { reject(line, p.fileCol, raw, `missing value for ${p.name}`, `missing ${p.name}`); bad = true; continue; }
+          if (p.numeric) {
+            let x = Number(raw);
+            if (p.age && raw === '90+') x = 90; // the Safe Harbor grouping of ages over 89 enters the formula as 90
+            else if (p.age && ageOver89(raw)) { refusal = { column: p.fileCol, category: 'ages over 89', reason: `holds an age over 89 (line ${line}); group them as "90+"` }; break outer; }
+            if (!Number.isFinite(x)) { reject(line, p.fileCol, raw, `${p.name} must be a number`, `non-numeric ${p.name}`); bad = true; continue; }
+            if (x < p.min || x > p.max) { reject(line, p.fileCol, raw, `${p.name} must be between ${p.min} and ${p.max}`, `${p.name} out of range`); bad = true; continue; }
+            if (p.positiveOnly && x <= 0) { reject(line, p.fileCol, raw, `${p.name} enters the score as a logarithm and must be above 0`, `${p.name} not above 0`); bad = true; continue; }
+            values[k] = x;
+            if (!bad) predJson += `${k ? ',' : ''}${p.key}:${x}`;
+          } else {
+            values[k] = raw;
+            if (!bad) predJson += `${k ? ',' : ''}${encode(encCache[k], p.key, raw)}`;
+          }
+        }
+        const yRaw = record[outcomeIdx].trim();
+        const yl = yRaw.toLowerCase();
+        const y = pos.has(yl) ? 1 : neg.has(yl) ? 0 : -1;
+        if (y < 0) {
+          reject(line, mapping.outcome.column, yRaw, yRaw === '' ? 'missing outcome' : `the outcome must be one of ${[...pos, ...neg].join(', ')}`, yRaw === '' ? 'missing outcome' : 'outcome not a known label');
+          bad = true;
+        }
+        let date: string | null = null;
+        if (dateIdx >= 0) {
+          const d = record[dateIdx].trim();
+          if (d !== '') {
+            date = periodCache.get(d) ?? null;
+            if (date === null && !periodCache.has(d)) { date = periodStart(d); if (periodCache.size < 10_000) periodCache.set(d, date); }
+            if (!date) { reject(line, mapping.date!.column, d, 'the period must be YYYY-MM, YYYY-Qn or YYYY', 'unreadable period'); bad = true; }
+          }
+        }
+        if (bad) { rejectedRows++; continue; }
+
+        let subJson = '{';
+        for (let k = 0; k < subs.length; k++) {
+          const v = record[subs[k].idx].trim();
+          subAcc[k].add(v === '' ? null : v);
+          if (v !== '') {
+            const enc = encode(encCache[preds.length + k], subs[k].key, v);
+            subJson += subJson.length > 1 ? `,${enc}` : enc;
+          }
+        }
+        for (let k = 0; k < preds.length; k++) predAcc[k].add(values[k]);
+        outcomeAcc.add(y === 1 ? '1' : '0');
+        if (dateAcc) dateAcc.add(date);
+        if (date) { if (!minDate || date < minDate) minDate = date; if (!maxDate || date > maxDate) maxDate = date; }
+        accepted++;
+        events += y;
+        buffer += `${rowPrefix}${line}\t${y}\t${date ?? '\\N'}\t${predJson}}\t${subJson}}\n`;
+      }
+      // Hand over about every 64 kB, so COPY streams while the next rows are checked.
+      if (buffer.length > 65536) { await sink.rows(buffer); buffer = ''; }
+      if (rowsRead - lastProgress >= 20_000) {
+        lastProgress = rowsRead;
+        sink.progress(Math.min(0.99, bytesRead / Math.max(1, input.totalBytes)), rowsRead, rejectedRows);
+      }
+    }
+    if (buffer && !refusal) await sink.rows(buffer);
+  } finally {
+    await batches.return(undefined);
+  }
+  return {
+    refusal, rowsRead, accepted, rejectedRows, events,
+    reasonCounts: [...reasonCounts.entries()].map(([reason, count]) => ({ reason, count })),
+    columnSummary: Object.fromEntries([...summaries.entries()].map(([k, a]) => [k, a.summary()])),
+    eventPeriod: minDate ? { min: minDate, max: maxDate! } : null,
+    rejections,
+  };
+}

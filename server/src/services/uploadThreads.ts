@@ -1,0 +1,82 @@
+// A few long-lived threads for upload checks (server/src/workers/uploadWorker.ts). Starting a thread costs a
+// TypeScript load of its modules (most of a second on a busy machine), so threads are kept and given one job at a
+// time; further uploads wait in line. PLUMBLINE_UPLOAD_THREADS sets how many (default 2, the cores of the machine
+// we measured on; each also holds a PostgreSQL connection while it works).
+import { fileURLToPath } from 'node:url';
+import { Worker } from 'node:worker_threads';
+import type { UploadWorkerData, UploadWorkerMessage } from '../workers/uploadWorker';
+
+type Ending = Exclude<UploadWorkerMessage, { type: 'progress' }>;
+interface Job {
+  jobId: number;
+  data: UploadWorkerData;
+  onProgress: (m: Extract<UploadWorkerMessage, { type: 'progress' }>) => void;
+  resolve: (m: Ending) => void;
+}
+
+const size = Math.max(1, Number(process.env.PLUMBLINE_UPLOAD_THREADS ?? 2));
+const idle: Worker[] = [];
+const busy = new Map<Worker, Job>();
+const queue: Job[] = [];
+let started = 0;
+let nextJobId = 1;
+
+function spawn(): Worker {
+  started++;
+  const worker = new Worker(new URL('../workers/runWorkerBoot.mjs', import.meta.url), {
+    workerData: { workerFile: new URL('../workers/uploadWorker.ts', import.meta.url).href, tsconfig: fileURLToPath(new URL('../../../tsconfig.json', import.meta.url)) },
+  });
+  worker.on('message', ({ jobId, message }: { jobId: number; message: UploadWorkerMessage }) => {
+    const job = busy.get(worker);
+    if (!job || job.jobId !== jobId) return;
+    if (message.type === 'progress') { job.onProgress(message); return; }
+    busy.delete(worker);
+    job.resolve(message);
+    release(worker);
+  });
+  let gone = false;
+  const lost = (why: string) => {
+    if (gone) return;
+    gone = true;
+    const job = busy.get(worker);
+    busy.delete(worker);
+    const i = idle.indexOf(worker);
+    if (i >= 0) idle.splice(i, 1);
+    started--;
+    job?.resolve({ type: 'error', message: why });
+    pump();
+  };
+  worker.on('error', (err) => lost(`the checking thread failed: ${err.message}`));
+  worker.on('exit', (code) => lost(`the checking thread stopped (exit code ${code})`));
+  return worker;
+}
+
+function release(worker: Worker) {
+  idle.push(worker);
+  worker.unref(); // an idle thread never keeps the process alive
+  pump();
+}
+
+function pump() {
+  while (queue.length) {
+    const worker = idle.pop() ?? (started < size ? spawn() : undefined);
+    if (!worker) return;
+    const job = queue.shift()!;
+    worker.ref();
+    busy.set(worker, job);
+    worker.postMessage({ jobId: job.jobId, data: job.data });
+  }
+}
+
+/** Checks one upload in a thread; resolves with how it ended (the thread has stored or rolled back by then). */
+export function checkInThread(data: UploadWorkerData, onProgress: Job['onProgress']): Promise<Ending> {
+  return new Promise((resolve) => {
+    queue.push({ jobId: nextJobId++, data, onProgress, resolve });
+    pump();
+  });
+}
+
+/** For tests and shutdown: ends the idle threads. */
+export async function stopUploadThreads(): Promise<void> {
+  await Promise.all(idle.splice(0).map((w) => w.terminate()));
+}

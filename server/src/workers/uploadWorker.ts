@@ -1,0 +1,105 @@
+// Worker thread for one upload's row checks. Parsing and checking a large file is CPU work: here it cannot delay the
+// API's event loop. The thread holds its own PostgreSQL connection and, in ONE transaction, streams the accepted rows
+// into cohort_rows with COPY while it reads the file, stores the rejected cells, and marks the upload checked. A crash
+// or error anywhere aborts that transaction: no row is left behind. The rows stay invisible until the steward stores
+// the upload (a cohort_versions row with the planned id is what makes them a cohort version).
+import { setPriority } from 'node:os';
+import { finished } from 'node:stream/promises';
+import type { Writable } from 'node:stream';
+import { parentPort, workerData } from 'node:worker_threads';
+import pg from 'pg';
+import { from as copyFrom } from 'pg-copy-streams';
+import type { ScreenFinding } from '@shared/cohorts';
+import { checkUploadRows, type CheckInput, type Rejection } from '../services/uploadCheck';
+
+export interface UploadWorkerData extends CheckInput {
+  uploadId: string;
+  db: { host: string; port: number; user: string; password: string; database: string };
+}
+
+export type UploadWorkerMessage =
+  | { type: 'progress'; fraction: number; rowsRead: number; rowsRejected: number }
+  | { type: 'checked'; rowsRead: number; accepted: number; rejectedRows: number }
+  | { type: 'refused'; refusal: ScreenFinding }
+  | { type: 'error'; message: string };
+
+/** COPY text escaping for free text (rejected values come straight from the file). */
+const copyField = (s: string) => s.replace(/\0/g, '').replace(/[\\\t\n\r]/g, (c) => (c === '\\' ? '\\\\' : c === '\t' ? '\\t' : c === '\n' ? '\\n' : '\\r'));
+
+function write(stream: Writable, chunk: string): Promise<void> {
+  if (stream.write(chunk)) return Promise.resolve();
+  return new Promise((resolve, reject) => {
+    const done = (err?: Error) => {
+      stream.off('drain', done);
+      stream.off('error', done);
+      stream.off('close', closed);
+      if (err) reject(err); else resolve();
+    };
+    const closed = () => done(new Error('the COPY stream closed'));
+    stream.on('drain', done);
+    stream.on('error', done);
+    stream.on('close', closed);
+  });
+}
+
+async function copyRejections(client: pg.Client, uploadId: string, rejections: Rejection[]) {
+  const copy = client.query(copyFrom('COPY cohort_upload_rejections (upload_id, line_no, column_name, value, reason) FROM STDIN'));
+  let buf = '';
+  for (const [line, column, value, reason] of rejections) {
+    buf += `${uploadId}\t${line}\t${copyField(column)}\t${copyField(value)}\t${copyField(reason)}\n`;
+    if (buf.length > 256 * 1024) { await write(copy, buf); buf = ''; }
+  }
+  copy.end(buf);
+  await finished(copy);
+}
+
+async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => void) {
+  const client = new pg.Client({ ...data.db, application_name: 'plumbline upload check' });
+  client.on('error', () => undefined); // a lost connection surfaces as the failed query below
+  await client.connect();
+  try {
+    await client.query('BEGIN');
+    const copy = client.query(copyFrom('COPY cohort_rows (cohort_version_id, line_no, outcome, event_date, predictors, subgroups) FROM STDIN'));
+    const copied = finished(copy);
+    copied.catch(() => undefined); // observed below; an early failure also rejects the next write
+    const result = await checkUploadRows(data, {
+      rows: (text) => write(copy, text),
+      progress: (fraction, rowsRead, rowsRejected) => post({ type: 'progress', fraction, rowsRead, rowsRejected }),
+    });
+    copy.end();
+    await copied;
+    if (result.refusal) {
+      await client.query('ROLLBACK');
+      post({ type: 'refused', refusal: result.refusal });
+      return;
+    }
+    if (copy.rowCount !== result.accepted) throw new Error(`COPY stored ${copy.rowCount} rows, expected ${result.accepted}`);
+    if (result.rejections.length) await copyRejections(client, data.uploadId, result.rejections);
+    const updated = await client.query(
+      `UPDATE cohort_uploads SET status = 'checked', progress = 1, rows_read = $2, rows_accepted = $3, rows_rejected = $4, events = $5,
+         rejection_counts = $6, column_summary = $7, event_period = $8, updated_at = now()
+       WHERE id = $1 AND status = 'processing' AND planned_version_id = $9`,
+      [data.uploadId, result.rowsRead, result.accepted, result.rejectedRows, result.events, JSON.stringify(result.reasonCounts),
+        JSON.stringify(result.columnSummary), result.eventPeriod ? JSON.stringify(result.eventPeriod) : null, data.plannedVersionId],
+    );
+    if (updated.rowCount !== 1) throw new Error('the upload was changed while its rows were checked');
+    await client.query('COMMIT');
+    post({ type: 'checked', rowsRead: result.rowsRead, accepted: result.accepted, rejectedRows: result.rejectedRows });
+  } catch (err) {
+    await client.query('ROLLBACK').catch(() => undefined);
+    throw err;
+  } finally {
+    await client.end().catch(() => undefined);
+  }
+}
+
+// A long-lived thread (server/src/services/uploadThreads.ts keeps a few): one job at a time, answered by job id.
+const port = parentPort;
+if (port) {
+  // Linux keeps a nice value per thread: checking a file yields the CPU to the API thread when both want it.
+  try { setPriority(Number(process.env.PLUMBLINE_WORKER_NICE ?? 10)); } catch { /* not permitted here: run at normal priority */ }
+  port.on('message', (job: { jobId: number; data: UploadWorkerData }) => {
+    const post = (m: UploadWorkerMessage) => port.postMessage({ jobId: job.jobId, message: m });
+    main(job.data, post).catch((err: Error) => post({ type: 'error', message: (err?.message ?? String(err)).split('\n')[0] }));
+  });
+}

@@ -1,0 +1,118 @@
+// "Is the cohort big enough?" in the API: the run and the cohort-version responses carry `adequacy` — the shared
+// verdict (100/100 minimum, Vergouwe et al. 2005; 200/200 preferred, Collins et al. 2016) and the expected 95% CI
+// widths by the formulas of Riley et al. (2021), which must equal precisionFor on the same counts and AUC.
+// Fixture data are invented (tests/helpers/fixtures.ts).
+import request from 'supertest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { CohortAdequacy } from '@shared/adequacy';
+import type { RunDetail } from '@shared/runs';
+import { stopBackgroundServices } from '../../server/src/services/background';
+import { processNextRun } from '../../server/src/services/runs';
+import { precisionFor } from '../../server/src/stats/sampleSize';
+import { app, bearer, tokenFor, useDatabase } from '../helpers/api';
+import { createCohortFixture, createScoreFixture, kestrelRows, type CohortFixture, type ScoreFixture } from '../helpers/fixtures';
+
+useDatabase();
+
+let score: ScoreFixture;
+let cohort: CohortFixture;
+let tiny: CohortFixture;
+
+async function cohortVersion(c: CohortFixture, role: 'statistician' | 'steward' = 'statistician') {
+  const res = await request(app).get(`/api/cohorts/${c.cohortId}/versions/1`).set(bearer(await tokenFor(role)));
+  expect(res.status).toBe(200);
+  return res.body.version as { rowCount: number; events: number; adequacy: CohortAdequacy };
+}
+
+beforeAll(async () => {
+  while (await processNextRun()); // nothing from an earlier file left waiting
+  score = await createScoreFixture();
+  cohort = await createCohortFixture(kestrelRows(1200, 41));
+  // 150 patients with exactly 100 events and 50 non-events: the minimum is met for events only.
+  tiny = await createCohortFixture(kestrelRows(150, 42).map((r, i) => ({ ...r, outcome: i < 100 ? 1 : 0 })));
+});
+
+afterAll(async () => {
+  await stopBackgroundServices();
+});
+
+describe('adequacy on a cohort version', () => {
+  it('without any run: the counts, the verdict and widths for an AUC that is said to be assumed', async () => {
+    const v = await cohortVersion(cohort);
+    const a = v.adequacy;
+    expect(a.n).toBe(v.rowCount);
+    expect(a.events).toBe(v.events);
+    expect(a.nonEvents).toBe(v.rowCount - v.events);
+    expect(a.verdict.meetsMinimum).toBe(a.events >= 100 && a.nonEvents >= 100);
+    expect(a.verdict.meetsPreferred).toBe(a.events >= 200 && a.nonEvents >= 200);
+    expect(a.auc).toEqual({ value: 0.75, source: 'assumed', runId: null });
+    const p = precisionFor(a.n, a.events / a.n, 0.75); // Riley et al. 2021 formulas, server/src/stats/sampleSize.ts
+    expect(a.precision.oe).toBeCloseTo(p.oe, 12);
+    expect(a.precision.auc).toBeCloseTo(p.auc, 12);
+    expect(a.precision.slope).toBeCloseTo(p.slope!, 12);
+    expect(a.assumption).toMatch(/well calibrated/);
+  });
+
+  it('says a cohort with too few non-events is below the minimum', async () => {
+    const a = (await cohortVersion(tiny, 'steward')).adequacy;
+    expect(a.events).toBe(100);
+    expect(a.nonEvents).toBe(50);
+    expect(a.verdict.level).toBe('short');
+    expect(a.verdict.missingForMinimum).toEqual({ events: 0, nonEvents: 50 });
+    expect(a.verdict.message).toMatch(/50 more non-events/);
+  });
+});
+
+describe('adequacy on a run', () => {
+  let run: RunDetail;
+
+  beforeAll(async () => {
+    const res = await request(app)
+      .post('/api/runs')
+      .set(bearer(await tokenFor('statistician')))
+      .send({ scoreVersionId: score.scoreVersionId, cohortVersionId: cohort.cohortVersionId, settings: {} });
+    expect(res.status).toBe(201);
+    expect(res.body.run.adequacy ?? null, 'a queued run has no adequacy yet').toBeNull();
+    while (await processNextRun());
+    const got = await request(app).get(`/api/runs/${res.body.run.id}`).set(bearer(await tokenFor('statistician')));
+    expect(got.status).toBe(200);
+    run = got.body.run as RunDetail;
+    expect(run.status).toBe('completed');
+  });
+
+  it('carries the run’s own counts and AUC, and widths equal to precisionFor on them', () => {
+    const o = run.results!.overall;
+    const a = run.adequacy!;
+    expect(a.n).toBe(o.n);
+    expect(a.events).toBe(o.events);
+    expect(a.nonEvents).toBe(o.nonEvents);
+    expect(a.auc).toEqual({ value: o.auc.estimate, source: 'this run', runId: run.id });
+    const p = precisionFor(o.n, o.events / o.n, o.auc.estimate);
+    expect(a.precision.oe).toBeCloseTo(p.oe, 12);
+    expect(a.precision.auc).toBeCloseTo(p.auc, 12);
+    expect(a.precision.slope).toBeCloseTo(p.slope!, 12);
+    expect(a.verdict.level).toBe(o.events >= 200 && o.nonEvents >= 200 ? 'preferred' : o.events >= 100 && o.nonEvents >= 100 ? 'minimum' : 'short');
+  });
+
+  it('the expected AUC width is of the size the run’s own DeLong CI has', () => {
+    // Riley et al.'s SE(C) approximates the DeLong SE the run reports; same order, not equal (common practice, no source)
+    const o = run.results!.overall;
+    const ratio = run.adequacy!.precision.auc! / (o.auc.upper - o.auc.lower);
+    expect(ratio).toBeGreaterThan(0.7);
+    expect(ratio).toBeLessThan(1.4);
+  });
+
+  it('the cohort version now takes its AUC from that run', async () => {
+    const a = (await cohortVersion(cohort)).adequacy;
+    expect(a.auc.source).toBe('run on this cohort version');
+    expect(a.auc.runId).toBe(run.id);
+    expect(a.auc.value).toBe(run.results!.overall.auc.estimate);
+  });
+
+  it('is not part of the sealed results, and the comparison leaves it out', async () => {
+    expect((run.results as unknown as Record<string, unknown>).adequacy).toBeUndefined();
+    const cmp = await request(app).get('/api/runs/compare').query({ a: run.id, b: run.id }).set(bearer(await tokenFor('statistician')));
+    expect(cmp.status).toBe(200);
+    expect(cmp.body.a.adequacy).toBeUndefined();
+  });
+});
