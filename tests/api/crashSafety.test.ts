@@ -1,5 +1,7 @@
 // Crash safety with a real child server and SIGKILL, on a throwaway PostgreSQL cluster:
-//  - killed in the middle of storing a large cohort upload (while COPY streams rows): no partial cohort afterwards;
+//  - killed in the middle of checking a large cohort upload (while the check thread's COPY streams rows into
+//    cohort_rows): no partial cohort and no staged row afterwards; the upload is marked failed and can be checked again;
+//  - killed between the check and storing: the checked upload survives whole and is stored once after restart;
 //  - killed in the middle of a validation run: after restart the run is queued again (or failed), never stuck;
 //  - afterwards the database passes its integrity checks (row counts per version, audit hash chain).
 // Row count: PLUMBLINE_CRASH_ROWS (default 1,000,000, as the issue asks).
@@ -50,13 +52,19 @@ function integrity() {
   return {
     // Every stored version holds exactly the rows it says it holds.
     versionsWithWrongCount: num(`SELECT count(*) FROM cohort_versions v WHERE v.row_count <> (SELECT count(*) FROM cohort_rows r WHERE r.cohort_version_id = v.id)`),
+    // No staged row outside a checked upload (a killed check's COPY must leave none).
+    strayStagedRows: num(`SELECT count(*) FROM cohort_rows r WHERE NOT EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = r.cohort_version_id)
+      AND NOT EXISTS (SELECT 1 FROM cohort_uploads u WHERE u.planned_version_id = r.cohort_version_id AND u.status = 'checked')`),
     // No cohort without a version that a half-done commit could have left.
     cohortsWithoutVersion: num(`SELECT count(*) FROM cohorts c WHERE NOT EXISTS (SELECT 1 FROM cohort_versions v WHERE v.cohort_id = c.id)`),
     committedUploadsWithoutVersion: num(`SELECT count(*) FROM cohort_uploads u WHERE u.status = 'committed' AND NOT EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = u.cohort_version_id)`),
   };
 }
 
-const stored = () => ({ cohorts: num('SELECT count(*) FROM cohorts'), versions: num('SELECT count(*) FROM cohort_versions'), rows: num('SELECT count(*) FROM cohort_rows') });
+const CLEAN = { versionsWithWrongCount: 0, strayStagedRows: 0, cohortsWithoutVersion: 0, committedUploadsWithoutVersion: 0 };
+const stored = () => ({ cohorts: num('SELECT count(*) FROM cohorts'), versions: num('SELECT count(*) FROM cohort_versions'), rows: num('SELECT count(*) FROM cohort_rows r WHERE EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = r.cohort_version_id)') });
+/** A checked upload's rows, staged under the id its cohort version will get. */
+const staged = (id: string) => num(`SELECT count(*) FROM cohort_rows r JOIN cohort_uploads u ON u.planned_version_id = r.cohort_version_id WHERE u.id = '${id}'`);
 
 beforeAll(async () => {
   cluster = await createThrowawayCluster();
@@ -95,10 +103,10 @@ describe(`SIGKILL in the middle of work (${ROWS.toLocaleString('en')} rows)`, ()
   let uploadId = '';
   let cohortVersionId = '';
 
-  it('storing a large upload: no partial cohort after the crash; the upload can be stored after restart', async () => {
+  it('checking a large upload: killed while its rows stream in, nothing is left; after restart it is checked again and stored once', async () => {
     const file = path.join(tmp, 'big.csv');
     await writeBigCsv(file, ROWS);
-    const steward = await token('steward@demo.test');
+    let steward = await token('steward@demo.test');
     const form = new FormData();
     form.set('scoreVersionId', scoreVersionId);
     form.set('cohortName', 'Crash test cohort (invented data)');
@@ -106,47 +114,63 @@ describe(`SIGKILL in the middle of work (${ROWS.toLocaleString('en')} rows)`, ()
     const created = await server.fetchJson('/api/cohorts', { method: 'POST', headers: steward, body: form });
     expect(created.status, JSON.stringify(created.body)).toBe(201);
     uploadId = (created.body.upload as { id: string }).id;
-    const mapped = await server.fetchJson(`/api/uploads/${uploadId}/mapping`, {
-      method: 'POST', headers: { ...steward, 'Content-Type': 'application/json' }, body: JSON.stringify({ mapping: KESTREL_MAPPING }),
-    });
-    expect(mapped.status, JSON.stringify(mapped.body)).toBeLessThan(300);
+    const before = stored();
+    const map = async () => {
+      const mapped = await server.fetchJson(`/api/uploads/${uploadId}/mapping`, {
+        method: 'POST', headers: { ...steward, 'Content-Type': 'application/json' }, body: JSON.stringify({ mapping: KESTREL_MAPPING }),
+      });
+      expect(mapped.status, JSON.stringify(mapped.body)).toBeLessThan(300);
+    };
+    await map();
+    const auditBefore = num('SELECT count(*) FROM audit_log');
+    // Kill once the check thread's COPY has streamed part of the rows, not before and not after.
+    const progress = await until('COPY into cohort_rows to be under way',
+      () => num(`SELECT coalesce(max(tuples_processed), 0) FROM pg_stat_progress_copy WHERE relid = 'cohort_rows'::regclass`),
+      (n) => n > 0, 300_000, 20);
+    await server.kill('SIGKILL');
+    console.log(`killed while COPY had streamed ${progress.toLocaleString('en')} of ${ROWS.toLocaleString('en')} rows`);
+    expect(progress).toBeLessThan(ROWS);
+
+    // PostgreSQL aborts the killed thread's transaction when its socket closes.
+    await until('the killed COPY to end', () => num(`SELECT count(*) FROM pg_stat_activity WHERE query LIKE 'COPY cohort_rows%' AND state <> 'idle'`), (n) => n === 0, 60_000, 100);
+    expect(stored()).toEqual(before);
+    expect(staged(uploadId)).toBe(0);
+    expect(integrity()).toEqual(CLEAN);
+    expect(num('SELECT count(*) FROM audit_log')).toBe(auditBefore);
+    expect(sql(`SELECT status FROM cohort_uploads WHERE id = '${uploadId}'`)).toBe('processing');
+
+    // Start-up recovery: the interrupted check is marked failed with a message; mapping again checks it whole.
+    await server.start();
+    steward = await token('steward@demo.test');
+    const recovered = await until('recovery of the interrupted check', async () => (await server.fetchJson(`/api/uploads/${uploadId}`, { headers: steward })).body.upload as { status: string; error: string | null },
+      (u) => u?.status !== 'processing', 30_000, 100);
+    expect(recovered.status).toBe('failed');
+    expect(recovered.error).toMatch(/server stopped while this file was being checked; nothing was stored/);
+    expect(stored()).toEqual(before);
+    await map();
     const checked = await until('row checks', async () => (await server.fetchJson(`/api/uploads/${uploadId}`, { headers: steward })).body.upload as { status: string; rowsAccepted: number; rowsRejected: number },
       (u) => u?.status !== 'processing', 600_000, 500);
     expect(checked.status).toBe('checked');
     expect(checked.rowsAccepted + checked.rowsRejected).toBe(ROWS);
+    expect(staged(uploadId)).toBe(checked.rowsAccepted);
+    expect(integrity()).toEqual(CLEAN);
 
-    const before = stored();
-    const auditBefore = num('SELECT count(*) FROM audit_log');
-    const commit = fetch(`${server.url}/api/uploads/${uploadId}/commit`, {
-      method: 'POST', headers: { ...steward, 'Content-Type': 'application/json' }, body: JSON.stringify({ excludeRejected: true }),
-    }).then((r) => r.status, () => 'connection lost');
-    // Kill once COPY has streamed part of the rows, not before and not after.
-    const progress = await until('COPY into cohort_rows to be under way',
-      () => num(`SELECT coalesce(max(tuples_processed), 0) FROM pg_stat_progress_copy WHERE relid = 'cohort_rows'::regclass`),
-      (n) => n > 0, 120_000, 20);
+    // Killed between the check and storing: the checked upload is still whole after restart and is stored once.
     await server.kill('SIGKILL');
-    expect(await commit).toBe('connection lost');
-    console.log(`killed while COPY had streamed ${progress.toLocaleString('en')} of ${checked.rowsAccepted.toLocaleString('en')} rows`);
-    expect(progress).toBeLessThan(checked.rowsAccepted);
-
-    // PostgreSQL aborts the killed client's transaction when its socket closes.
-    await until('the killed COPY to end', () => num(`SELECT count(*) FROM pg_stat_activity WHERE query LIKE 'COPY cohort_rows%' AND state <> 'idle'`), (n) => n === 0, 60_000, 100);
-    expect(stored()).toEqual(before);
-    expect(integrity()).toEqual({ versionsWithWrongCount: 0, cohortsWithoutVersion: 0, committedUploadsWithoutVersion: 0 });
-    expect(num('SELECT count(*) FROM audit_log')).toBe(auditBefore);
-
     await server.start();
+    steward = await token('steward@demo.test');
+    expect(((await server.fetchJson(`/api/uploads/${uploadId}`, { headers: steward })).body.upload as { status: string }).status).toBe('checked');
     expect(stored()).toEqual(before);
-    const after = (await server.fetchJson(`/api/uploads/${uploadId}`, { headers: await token('steward@demo.test') })).body.upload as { status: string };
-    expect(after.status).not.toBe('committed');
-    // The checked upload is still whole: storing it again now succeeds, exactly once.
-    const again = await server.fetchJson(`/api/uploads/${uploadId}/commit`, {
-      method: 'POST', headers: { ...(await token('steward@demo.test')), 'Content-Type': 'application/json' }, body: JSON.stringify({ excludeRejected: true }),
+    expect(staged(uploadId)).toBe(checked.rowsAccepted);
+    const commit = () => server.fetchJson(`/api/uploads/${uploadId}/commit`, {
+      method: 'POST', headers: { ...steward, 'Content-Type': 'application/json' }, body: JSON.stringify({ excludeRejected: true }),
     });
-    expect(again.status, JSON.stringify(again.body)).toBeLessThan(300);
-    cohortVersionId = String(again.body.cohortVersionId ?? (again.body as { version?: { id: string } }).version?.id ?? '');
+    const [a, b] = await Promise.all([commit(), commit()]);
+    expect([a.status, b.status].sort()).toEqual([201, 409]);
+    const again = a.status === 201 ? a : b;
+    cohortVersionId = String(again.body.cohortVersionId ?? '');
     expect(stored()).toEqual({ cohorts: before.cohorts + 1, versions: before.versions + 1, rows: before.rows + checked.rowsAccepted });
-    expect(integrity()).toEqual({ versionsWithWrongCount: 0, cohortsWithoutVersion: 0, committedUploadsWithoutVersion: 0 });
+    expect(integrity()).toEqual(CLEAN);
   });
 
   it('a validation run: after SIGKILL and restart it is queued again (or failed), never left running', async () => {
@@ -177,7 +201,7 @@ describe(`SIGKILL in the middle of work (${ROWS.toLocaleString('en')} rows)`, ()
   });
 
   it('the database passes its integrity checks afterwards', async () => {
-    expect(integrity()).toEqual({ versionsWithWrongCount: 0, cohortsWithoutVersion: 0, committedUploadsWithoutVersion: 0 });
+    expect(integrity()).toEqual(CLEAN);
     expect(num(`SELECT count(*) FROM validation_runs WHERE status = 'running'`)).toBe(0);
     const chain = await server.fetchJson('/api/audit/verify', { headers: await token('admin@demo.test') });
     expect(chain.status).toBe(200);

@@ -190,7 +190,7 @@ async function main() {
       console.log(`  requests:         ${ph.result.requests.total} (${ph.result.requests.average} req/s average)`);
       console.log(`  latency (ms):     p50 ${ph.p50}  p95 ${ph.p95}  p99 ${ph.p99}  max ${ph.max}`);
       console.log(`  errors:           ${ph.errors} (connection errors ${ph.result.errors}, timeouts ${ph.result.timeouts}, non-2xx ${ph.result.non2xx})`);
-      console.log(`  event-loop delay: mean ${ph.loop.mean} ms, p50 ${ph.loop.p50} ms, p99 ${ph.loop.p99} ms, max ${ph.loop.max} ms (server process, during the reads)`);
+      console.log(`  event-loop delay: mean ${ph.loop.mean} ms, p50 ${ph.loop.p50} ms, p99 ${ph.loop.p99} ms, max ${ph.loop.max} ms; main thread busy ${ph.loop.busy}% (server process, during the reads)`);
     };
 
     let readsOnly: Phase | null = null;
