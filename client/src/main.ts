@@ -1,3 +1,5 @@
+// First: switches off zod's eval probe before any schema runs (see zodConfig.ts; our CSP refuses eval).
+import './zodConfig';
 import { createApp } from 'vue';
 import { createPinia } from 'pinia';
 import App from './App.vue';

@@ -18,8 +18,14 @@ export function createApp(options: { serveClient?: boolean } = {}) {
       contentSecurityPolicy: {
         directives: {
           defaultSrc: ["'self'"],
+          // Scripts only from our own files: no inline scripts, no eval (the client switches off zod's eval probe,
+          // client/src/zodConfig.ts), no inline event handlers (helmet's default script-src-attr 'none').
+          // tests/browser/csp.test.ts loads the built client in Chromium and fails on any violation.
           scriptSrc: ["'self'"],
-          // Vuetify sets theme variables in a <style> element at run time.
+          // Styles: Vuetify writes its theme variables into a <style> element at run time, which needs
+          // 'unsafe-inline' (checked in Chromium: with style-src 'self' that element is the only thing refused; Vue
+          // and Chart.js set element styles through the CSSOM, which CSP does not govern). A nonce would need a
+          // per-response index.html; inline styles cannot run code, so the simpler rule is kept.
           styleSrc: ["'self'", "'unsafe-inline'"],
           imgSrc: ["'self'", 'data:', 'blob:'],
           fontSrc: ["'self'"],

@@ -9,7 +9,7 @@ import type { RunDetail } from '@shared/runs';
 import { stopBackgroundServices } from '../../server/src/services/background';
 import { processNextRun } from '../../server/src/services/runs';
 import { precisionFor } from '../../server/src/stats/sampleSize';
-import { app, bearer, tokenFor, useDatabase } from '../helpers/api';
+import { app, bearer, dataSource, DEMO_PASSWORD, tokenFor, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, kestrelRows, type CohortFixture, type ScoreFixture } from '../helpers/fixtures';
 
 useDatabase();
@@ -17,6 +17,21 @@ useDatabase();
 let score: ScoreFixture;
 let cohort: CohortFixture;
 let tiny: CohortFixture;
+let sibling: CohortFixture; // a cohort of the fixture score with no run of its own
+
+/** A cohort version with counts only (adequacy reads no rows), tied to a score. */
+async function countsOnlyCohort(scoreId: string, rowCount: number, events: number): Promise<CohortFixture> {
+  const [c]: { id: string }[] = await dataSource.query(`INSERT INTO cohorts (name, description, score_id) VALUES ($1, 'fixture', $2) RETURNING id`, [
+    `Adequacy sibling ${Math.random().toString(36).slice(2, 10)}`,
+    scoreId,
+  ]);
+  const [v]: { id: string }[] = await dataSource.query(
+    `INSERT INTO cohort_versions (cohort_id, version, label, source_filename, source_sha256, source_bytes, row_count, events, mapping)
+     VALUES ($1, 1, 'counts only', 'fixture.csv', repeat('0', 64), 0, $2, $3, '{}'::jsonb) RETURNING id`,
+    [c.id, rowCount, events],
+  );
+  return { cohortId: c.id, cohortVersionId: v.id, rows: [] };
+}
 
 async function cohortVersion(c: CohortFixture, role: 'statistician' | 'steward' = 'statistician') {
   const res = await request(app).get(`/api/cohorts/${c.cohortId}/versions/1`).set(bearer(await tokenFor(role)));
@@ -30,6 +45,7 @@ beforeAll(async () => {
   cohort = await createCohortFixture(kestrelRows(1200, 41));
   // 150 patients with exactly 100 events and 50 non-events: the minimum is met for events only.
   tiny = await createCohortFixture(kestrelRows(150, 42).map((r, i) => ({ ...r, outcome: i < 100 ? 1 : 0 })));
+  sibling = await countsOnlyCohort(score.scoreId, 800, 199);
 });
 
 afterAll(async () => {
@@ -107,6 +123,29 @@ describe('adequacy on a run', () => {
     expect(a.auc.source).toBe('run on this cohort version');
     expect(a.auc.runId).toBe(run.id);
     expect(a.auc.value).toBe(run.results!.overall.auc.estimate);
+  });
+
+  it('a cohort of the same score without a run of its own borrows the AUC of the score’s latest run, then of its approved run', async () => {
+    const before = (await cohortVersion(sibling)).adequacy;
+    expect(before.verdict.level).toBe('minimum'); // 199 events: one short of the preferred 200
+    expect(before.verdict.missingForPreferred).toEqual({ events: 1, nonEvents: 0 });
+    expect(before.auc).toEqual({ value: run.results!.overall.auc.estimate, source: 'latest run of the score', runId: run.id });
+    const p = precisionFor(800, 199 / 800, run.results!.overall.auc.estimate);
+    expect(before.precision.slope).toBeCloseTo(p.slope!, 12);
+
+    // review and sign the run: it becomes the approved run of the score version
+    const review = await request(app)
+      .post(`/api/runs/${run.id}/review`)
+      .set(bearer(await tokenFor('statistician')))
+      .send({ verdict: 'fit for use', reasoning: 'adequacy fixture' });
+    expect(review.status).toBe(201);
+    const sign = await request(app)
+      .post(`/api/runs/${run.id}/signoff`)
+      .set(bearer(await tokenFor('chair')))
+      .send({ decision: 'approve', password: DEMO_PASSWORD });
+    expect(sign.status).toBe(201);
+    const after = (await cohortVersion(sibling)).adequacy;
+    expect(after.auc).toEqual({ value: run.results!.overall.auc.estimate, source: 'approved run of the score', runId: run.id });
   });
 
   it('is not part of the sealed results, and the comparison leaves it out', async () => {

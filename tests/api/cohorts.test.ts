@@ -56,12 +56,12 @@ const goodCsv = (n = 200, seed = 7) => `${[...kestrelQuarterCsv({ year: 2025, qu
 
 /** What is stored: cohorts, versions and the rows of stored versions (a checked upload's staged rows are not a cohort). */
 async function snapshot() {
-  const [{ n }] = await dataSource.query('SELECT count(*)::int AS n FROM cohort_rows r WHERE EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = r.cohort_version_id)');
+  const [{ n }] = await dataSource.query('SELECT coalesce(sum(row_count), 0)::int AS n FROM cohort_row_blocks b WHERE EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = b.cohort_version_id)');
   return { versions: await countRows('cohort_versions'), rows: n as number, cohorts: await countRows('cohorts') };
 }
 
 const stagedRows = async (uploadId: string) => {
-  const [{ n }] = await dataSource.query('SELECT count(*)::int AS n FROM cohort_rows r JOIN cohort_uploads u ON u.planned_version_id = r.cohort_version_id WHERE u.id = $1', [uploadId]);
+  const [{ n }] = await dataSource.query('SELECT coalesce(sum(row_count), 0)::int AS n FROM cohort_row_blocks b JOIN cohort_uploads u ON u.planned_version_id = b.cohort_version_id WHERE u.id = $1', [uploadId]);
   return n as number;
 };
 
@@ -143,7 +143,7 @@ describe('good upload end to end', () => {
     expect(data.eventDate[0]).toBe(`${firstRow[6]}-01`);
 
     // Stored versions are immutable, the upload cannot be stored twice, and the temp files are gone.
-    await expect(dataSource.query('DELETE FROM cohort_rows WHERE cohort_version_id = $1', [commit.body.cohortVersionId])).rejects.toThrow();
+    await expect(dataSource.query('DELETE FROM cohort_row_blocks WHERE cohort_version_id = $1', [commit.body.cohortVersionId])).rejects.toThrow();
     expect((await request(app).post(`/api/uploads/${u.id}/commit`).set(bearer(await tokenFor('steward'))).send({ excludeRejected: true })).status).toBe(409);
     expect((await request(app).post(`/api/uploads/${u.id}/discard`).set(bearer(await tokenFor('steward')))).status).toBe(409);
 
@@ -435,7 +435,7 @@ describe('storage is all or nothing', () => {
   it('a failure during the COPY of the checked rows rolls back: the upload fails, no row, no rejection is left', async () => {
     const res = await upload(writeCsv('atomic-copy.csv', goodCsv(100)));
     const before = await snapshot();
-    await fault('cohort_rows', 'line_no <> 60', async () => {
+    await fault('cohort_row_blocks', 'NOT (60 = ANY (line_no))', async () => {
       const u = await mapAndWait(res.body.upload.id);
       expect(u.status).toBe('failed');
       expect(u.error).toMatch(/could not be processed.*nothing was stored/);

@@ -1,6 +1,6 @@
 // Crash safety with a real child server and SIGKILL, on a throwaway PostgreSQL cluster:
 //  - killed in the middle of checking a large cohort upload (while the check thread's COPY streams rows into
-//    cohort_rows): no partial cohort and no staged row afterwards; the upload is marked failed and can be checked again;
+//    cohort_row_blocks): no partial cohort and no staged row afterwards; the upload is marked failed and can be checked again;
 //  - killed between the check and storing: the checked upload survives whole and is stored once after restart;
 //  - killed in the middle of a validation run: after restart the run is queued again (or failed), never stuck;
 //  - afterwards the database passes its integrity checks (row counts per version, audit hash chain).
@@ -15,6 +15,7 @@ import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 vi.setConfig({ testTimeout: 600_000 });
 import { DEMO_PASSWORD } from '../../server/src/config';
 import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
+import { BLOCK_ROWS } from '../../server/src/services/cohortBlocks';
 import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
 import { runTsx, ServerProcess } from '../helpers/childServer';
 import { FIXTURE_MODEL } from '../helpers/fixtures';
@@ -51,10 +52,10 @@ async function writeBigCsv(file: string, n: number) {
 function integrity() {
   return {
     // Every stored version holds exactly the rows it says it holds.
-    versionsWithWrongCount: num(`SELECT count(*) FROM cohort_versions v WHERE v.row_count <> (SELECT count(*) FROM cohort_rows r WHERE r.cohort_version_id = v.id)`),
+    versionsWithWrongCount: num(`SELECT count(*) FROM cohort_versions v WHERE v.row_count <> (SELECT coalesce(sum(b.row_count), 0) FROM cohort_row_blocks b WHERE b.cohort_version_id = v.id)`),
     // No staged row outside a checked upload (a killed check's COPY must leave none).
-    strayStagedRows: num(`SELECT count(*) FROM cohort_rows r WHERE NOT EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = r.cohort_version_id)
-      AND NOT EXISTS (SELECT 1 FROM cohort_uploads u WHERE u.planned_version_id = r.cohort_version_id AND u.status = 'checked')`),
+    strayStagedRows: num(`SELECT count(*) FROM cohort_row_blocks b WHERE NOT EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = b.cohort_version_id)
+      AND NOT EXISTS (SELECT 1 FROM cohort_uploads u WHERE u.planned_version_id = b.cohort_version_id AND u.status = 'checked')`),
     // No cohort without a version that a half-done commit could have left.
     cohortsWithoutVersion: num(`SELECT count(*) FROM cohorts c WHERE NOT EXISTS (SELECT 1 FROM cohort_versions v WHERE v.cohort_id = c.id)`),
     committedUploadsWithoutVersion: num(`SELECT count(*) FROM cohort_uploads u WHERE u.status = 'committed' AND NOT EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = u.cohort_version_id)`),
@@ -62,9 +63,9 @@ function integrity() {
 }
 
 const CLEAN = { versionsWithWrongCount: 0, strayStagedRows: 0, cohortsWithoutVersion: 0, committedUploadsWithoutVersion: 0 };
-const stored = () => ({ cohorts: num('SELECT count(*) FROM cohorts'), versions: num('SELECT count(*) FROM cohort_versions'), rows: num('SELECT count(*) FROM cohort_rows r WHERE EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = r.cohort_version_id)') });
+const stored = () => ({ cohorts: num('SELECT count(*) FROM cohorts'), versions: num('SELECT count(*) FROM cohort_versions'), rows: num('SELECT coalesce(sum(b.row_count), 0) FROM cohort_row_blocks b WHERE EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = b.cohort_version_id)') });
 /** A checked upload's rows, staged under the id its cohort version will get. */
-const staged = (id: string) => num(`SELECT count(*) FROM cohort_rows r JOIN cohort_uploads u ON u.planned_version_id = r.cohort_version_id WHERE u.id = '${id}'`);
+const staged = (id: string) => num(`SELECT coalesce(sum(b.row_count), 0) FROM cohort_row_blocks b JOIN cohort_uploads u ON u.planned_version_id = b.cohort_version_id WHERE u.id = '${id}'`);
 
 beforeAll(async () => {
   cluster = await createThrowawayCluster();
@@ -124,15 +125,15 @@ describe(`SIGKILL in the middle of work (${ROWS.toLocaleString('en')} rows)`, ()
     await map();
     const auditBefore = num('SELECT count(*) FROM audit_log');
     // Kill once the check thread's COPY has streamed part of the rows, not before and not after.
-    const progress = await until('COPY into cohort_rows to be under way',
-      () => num(`SELECT coalesce(max(tuples_processed), 0) FROM pg_stat_progress_copy WHERE relid = 'cohort_rows'::regclass`),
+    const progress = await until('COPY into cohort_row_blocks to be under way',
+      () => num(`SELECT coalesce(max(tuples_processed), 0) FROM pg_stat_progress_copy WHERE relid = 'cohort_row_blocks'::regclass`),
       (n) => n > 0, 300_000, 20);
     await server.kill('SIGKILL');
-    console.log(`killed while COPY had streamed ${progress.toLocaleString('en')} of ${ROWS.toLocaleString('en')} rows`);
-    expect(progress).toBeLessThan(ROWS);
+    console.log(`killed while COPY had streamed ${progress.toLocaleString('en')} of ${Math.ceil(ROWS / BLOCK_ROWS)} blocks (${BLOCK_ROWS.toLocaleString('en')} rows each)`);
+    expect(progress).toBeLessThan(Math.ceil(ROWS / BLOCK_ROWS));
 
     // PostgreSQL aborts the killed thread's transaction when its socket closes.
-    await until('the killed COPY to end', () => num(`SELECT count(*) FROM pg_stat_activity WHERE query LIKE 'COPY cohort_rows%' AND state <> 'idle'`), (n) => n === 0, 60_000, 100);
+    await until('the killed COPY to end', () => num(`SELECT count(*) FROM pg_stat_activity WHERE query LIKE 'COPY cohort_row_blocks%' AND state <> 'idle'`), (n) => n === 0, 60_000, 100);
     expect(stored()).toEqual(before);
     expect(staged(uploadId)).toBe(0);
     expect(integrity()).toEqual(CLEAN);
@@ -209,7 +210,7 @@ describe(`SIGKILL in the middle of work (${ROWS.toLocaleString('en')} rows)`, ()
     // PostgreSQL's own check of the b-tree indexes of the cohort tables (amcheck, shipped with Debian's server package).
     sql('CREATE EXTENSION IF NOT EXISTS amcheck');
     const indexes = sql(`SELECT string_agg(bt_index_check(c.oid)::text, ',') FROM pg_index i JOIN pg_class c ON c.oid = i.indexrelid JOIN pg_am a ON a.oid = c.relam
-      WHERE a.amname = 'btree' AND i.indrelid IN ('cohort_rows'::regclass, 'cohort_versions'::regclass, 'validation_runs'::regclass, 'audit_log'::regclass)`);
+      WHERE a.amname = 'btree' AND i.indrelid IN ('cohort_row_blocks'::regclass, 'cohort_versions'::regclass, 'validation_runs'::regclass, 'audit_log'::regclass)`);
     expect(indexes).toBeDefined();
   });
 });

@@ -34,14 +34,15 @@ const HARD_LIMIT_MS = (SECONDS + READS_ONLY_SECONDS + 600) * 1000;
 
 async function freePort(): Promise<number> {
   if (process.env.BENCH_PORT) return Number(process.env.BENCH_PORT);
-  for (let p = 3850; p < 3900; p++) {
+  // 3900–3949: clear of 3800–3899, where the crash-safety and outage tests pick their child servers' ports.
+  for (let p = 3900; p < 3950; p++) {
     const busy = await new Promise<boolean>((resolve) => {
       const s = net.connect({ host: '127.0.0.1', port: p }, () => { s.destroy(); resolve(true); });
       s.on('error', () => resolve(false));
     });
     if (!busy) return p;
   }
-  throw new Error('no free port in 3850–3899');
+  throw new Error('no free port in 3900–3949');
 }
 
 function percentile(sorted: number[], q: number): number {

@@ -1,9 +1,14 @@
 // Minimal registry fixtures written straight to the database (score + version, cohort + version + rows), so a
 // suite can run validations without going through the score and cohort upload APIs. Invented data only.
 import { createHash, randomUUID } from 'node:crypto';
+import { Readable } from 'node:stream';
+import { pipeline } from 'node:stream/promises';
+import type { PoolClient } from 'pg';
+import { from as copyFrom } from 'pg-copy-streams';
 import type { ScoreModel } from '@shared/model';
 import { dataSource } from '../../server/src/db/dataSource';
 import { KESTREL_V1_MODEL } from '../../server/src/db/seeds/scenario';
+import { COPY_BLOCKS_SQL, encodeBlocks } from '../../server/src/services/cohortBlocks';
 import { mulberry32 } from '../../server/src/stats/bootstrap';
 
 /** The invented Kestrel formula (version 1 of the demo scenario). */
@@ -59,16 +64,22 @@ export async function createCohortFixture(rows: FixtureRow[], opts: { name?: str
     [cohorts[0].id, opts.label ?? 'fixture', createHash('sha256').update(body).digest('hex'), Buffer.byteLength(body), rows.length, events],
   );
   const id = versions[0].id;
-  const BATCH = 1000;
-  for (let start = 0; start < rows.length; start += BATCH) {
-    const part = rows.slice(start, start + BATCH);
-    const values: unknown[] = [];
-    const tuples = part.map((r, k) => {
-      values.push(start + k + 1, r.outcome, r.eventDate ?? null, JSON.stringify(r.predictors), JSON.stringify(r.subgroups ?? {}));
-      const b = k * 5;
-      return `($1, $${b + 2}, $${b + 3}, $${b + 4}, $${b + 5}::jsonb, $${b + 6}::jsonb)`;
-    });
-    await dataSource.query(`INSERT INTO cohort_rows (cohort_version_id, line_no, outcome, event_date, predictors, subgroups) VALUES ${tuples.join(',')}`, [id, ...values]);
+  // The same block encoding and COPY the upload check uses (server/src/services/cohortBlocks.ts).
+  const first = rows[0]?.predictors ?? {};
+  const num = Object.keys(first).filter((k) => typeof first[k] === 'number');
+  const cat = Object.keys(first).filter((k) => typeof first[k] !== 'number');
+  const sub = [...new Set(rows.flatMap((r) => Object.keys(r.subgroups ?? {})))];
+  const text = encodeBlocks(id, { num, cat, sub }, rows.map((r, i) => ({
+    line: i + 1, outcome: r.outcome as 0 | 1, date: r.eventDate ?? null,
+    num: num.map((k) => Number(r.predictors[k])), cat: cat.map((k) => String(r.predictors[k])), sub: sub.map((k) => r.subgroups?.[k] ?? null),
+  })));
+  const qr = dataSource.createQueryRunner();
+  try {
+    await qr.connect();
+    const client = (qr as unknown as { databaseConnection: PoolClient }).databaseConnection;
+    await pipeline(Readable.from([text]), client.query(copyFrom(COPY_BLOCKS_SQL)));
+  } finally {
+    await qr.release();
   }
   return { cohortId: cohorts[0].id, cohortVersionId: id, rows };
 }

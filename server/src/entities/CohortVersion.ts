@@ -1,6 +1,6 @@
 import { Column, CreateDateColumn, Entity, PrimaryGeneratedColumn } from 'typeorm';
 
-/** One immutable upload: its accepted rows live in cohort_rows (streamed in by COPY during the check, read by runs). */
+/** One immutable upload: its accepted rows live in cohort_row_blocks (streamed in by COPY during the check, read by runs). */
 @Entity('cohort_versions')
 export class CohortVersion {
   @PrimaryGeneratedColumn('uuid')

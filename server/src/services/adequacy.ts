@@ -58,25 +58,27 @@ export function runAdequacy(run: { id: string; results: { overall: { n: number; 
  * version of the cohort's score was approved, the score's latest completed run, or else ASSUMED_AUC (said so).
  */
 export async function cohortVersionAdequacy(v: { id: string; cohortId: string; rowCount: number; events: number }): Promise<CohortAdequacy> {
+  // Candidates are ranked without touching `results` (a large TOASTed jsonb); only the best few are opened.
   const rows: { auc: number | null; run_id: string; source: AdequacyAucSource }[] = await dataSource.query(
     `WITH candidates AS (
-       SELECT 1 AS rank, r.id AS run_id, r.finished_at, 'run on this cohort version' AS source, r.results FROM validation_runs r
+       SELECT 1 AS rank, r.id AS run_id, r.finished_at, 'run on this cohort version' AS source FROM validation_runs r
         WHERE r.cohort_version_id = $1 AND r.status = 'completed'
        UNION ALL
-       SELECT 2, r.id, r.finished_at, 'approved run of the score', r.results FROM validation_runs r
+       SELECT 2, r.id, r.finished_at, 'approved run of the score' FROM validation_runs r
          JOIN score_versions sv ON sv.approved_run_id = r.id JOIN cohorts c ON c.score_id = sv.score_id
         WHERE c.id = $2 AND r.status = 'completed'
        UNION ALL
-       SELECT 3, r.id, r.finished_at, 'latest run of the score', r.results FROM validation_runs r
+       SELECT 3, r.id, r.finished_at, 'latest run of the score' FROM validation_runs r
          JOIN score_versions sv ON sv.id = r.score_version_id JOIN cohorts c ON c.score_id = sv.score_id
         WHERE c.id = $2 AND r.status = 'completed'
-     )
-     SELECT (results->'overall'->'auc'->>'estimate')::float8 AS auc, run_id, source FROM candidates
-      WHERE jsonb_typeof(results->'overall'->'auc'->'estimate') = 'number'
-      ORDER BY rank, finished_at DESC NULLS LAST, run_id LIMIT 1`,
+     ), best AS (SELECT * FROM candidates ORDER BY rank, finished_at DESC NULLS LAST, run_id LIMIT 5)
+     SELECT b.run_id, b.source,
+            CASE WHEN jsonb_typeof(r.results->'overall'->'auc'->'estimate') = 'number' THEN (r.results->'overall'->'auc'->>'estimate')::float8 END AS auc
+       FROM best b JOIN validation_runs r ON r.id = b.run_id
+      ORDER BY b.rank, b.finished_at DESC NULLS LAST, b.run_id`,
     [v.id, v.cohortId],
   );
-  const found = rows[0];
+  const found = rows.find((r) => r.auc !== null && Number.isFinite(Number(r.auc)));
   return buildAdequacy({
     n: v.rowCount,
     events: v.events,

@@ -1,6 +1,8 @@
-// Loads one stored cohort version as column arrays for the engine (runs, drift, recalibration): one query, in line order.
+// Loads one stored cohort version as column arrays for the engine (runs, drift, recalibration): its blocks in order
+// (services/cohortBlocks.ts), concatenated column by column.
 import { dataSource } from '../db/dataSource';
 import { notFound } from '../middleware/errors';
+import { SELECT_BLOCKS_SQL, type StoredBlock } from './cohortBlocks';
 
 export interface CohortData {
   cohortVersionId: string;
@@ -13,36 +15,44 @@ export interface CohortData {
 }
 
 export async function loadCohortData(cohortVersionId: string): Promise<CohortData> {
-  const meta: { row_count: number; mapping: { predictors?: Record<string, string>; subgroups?: Record<string, string> } }[] = await dataSource.query(
-    'SELECT row_count, mapping FROM cohort_versions WHERE id = $1',
-    [cohortVersionId],
-  );
+  const meta: { row_count: number }[] = await dataSource.query('SELECT row_count FROM cohort_versions WHERE id = $1', [cohortVersionId]);
   if (!meta.length) throw notFound('cohort version');
-  const predictorKeys = Object.keys(meta[0].mapping.predictors ?? {});
-  const subgroupKeys = Object.keys(meta[0].mapping.subgroups ?? {});
-  // One row per patient with the jsonb kept as text: JSON.parse in Node is faster than pg's per-row jsonb parsing.
-  const rows: { l: number; y: number; d: string | null; p: string; s: string }[] = await dataSource.query(
-    `SELECT line_no AS l, outcome AS y, to_char(event_date, 'YYYY-MM-DD') AS d, predictors::text AS p, subgroups::text AS s
-     FROM cohort_rows WHERE cohort_version_id = $1 ORDER BY line_no`,
-    [cohortVersionId],
-  );
-  const n = rows.length;
+  const blocks: StoredBlock[] = await dataSource.query(SELECT_BLOCKS_SQL, [cohortVersionId]);
+  const n = blocks.reduce((s, b) => s + b.row_count, 0);
   const outcome = new Uint8Array(n);
   const lineNo = new Int32Array(n);
   const eventDate: (string | null)[] = new Array(n);
   const columns: Record<string, (number | string | null)[]> = {};
   const subgroups: Record<string, (string | null)[]> = {};
-  for (const k of predictorKeys) columns[k] = new Array(n).fill(null);
-  for (const k of subgroupKeys) subgroups[k] = new Array(n).fill(null);
-  for (let i = 0; i < n; i++) {
-    const r = rows[i];
-    outcome[i] = r.y;
-    lineNo[i] = r.l;
-    eventDate[i] = r.d;
-    const p = JSON.parse(r.p) as Record<string, number | string>;
-    for (const k in p) (columns[k] ??= new Array(n).fill(null))[i] = p[k];
-    const s = JSON.parse(r.s) as Record<string, string>;
-    for (const k in s) (subgroups[k] ??= new Array(n).fill(null))[i] = s[k];
+  let at = 0;
+  for (const b of blocks) {
+    const m = b.row_count;
+    for (let i = 0; i < m; i++) {
+      outcome[at + i] = b.outcome[i];
+      lineNo[at + i] = b.line_no[i];
+      eventDate[at + i] = b.event_date[i];
+    }
+    const spread = <T,>(names: string[], values: T[], into: Record<string, T[]>) => {
+      names.forEach((name, k) => {
+        const col = (into[name] ??= new Array(n).fill(null));
+        for (let i = 0; i < m; i++) col[at + i] = values[k * m + i];
+      });
+    };
+    spread(b.num_names, b.num_values as (number | string | null)[], columns);
+    spread(b.cat_names, b.cat_values as (number | string | null)[], columns);
+    spread(b.sub_names, b.sub_values, subgroups);
+    at += m;
   }
   return { cohortVersionId, n, outcome, lineNo, columns, eventDate, subgroups };
+}
+
+/** The column names a stored version holds, from its first block (no rows are read). */
+export async function cohortColumnNames(cohortVersionId: string, m: { query: (q: string, p: unknown[]) => Promise<unknown> } = dataSource) {
+  const rows = (await m.query(
+    `SELECT num_names, cat_names, sub_names, EXISTS (SELECT 1 FROM cohort_row_blocks d WHERE d.cohort_version_id = $1 AND d.dated_count > 0) AS dated
+     FROM cohort_row_blocks WHERE cohort_version_id = $1 ORDER BY block_no LIMIT 1`,
+    [cohortVersionId],
+  )) as { num_names: string[]; cat_names: string[]; sub_names: string[]; dated: boolean }[];
+  const r = rows[0];
+  return { predictors: r ? [...r.num_names, ...r.cat_names] : [], subgroups: r ? r.sub_names : [], hasDates: r?.dated ?? false };
 }

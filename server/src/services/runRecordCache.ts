@@ -27,13 +27,16 @@ export function completedRunRecord(id: string, load: () => Promise<ValidationRun
     records.set(id, hit);
     return hit;
   }
-  const loading = load().then((run) => {
+  const forget = () => {
+    if (records.get(id) === loading) records.delete(id);
+  };
+  const loading: Promise<ValidationRun> = load().then((run) => {
     // Only a record that is really completed is kept; anything else is answered once and forgotten.
-    if (run.status !== 'completed') records.delete(id);
+    if (run.status !== 'completed') forget();
     return run.status === 'completed' ? deepFreeze(run) : run;
   });
   records.set(id, loading);
-  loading.catch(() => records.delete(id));
+  loading.catch(forget);
   if (records.size > LIMIT) records.delete(records.keys().next().value as string);
   return loading;
 }

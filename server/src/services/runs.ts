@@ -11,7 +11,7 @@ import { badRequest, conflict, notFound } from '../middleware/errors';
 import { runAdequacy } from './adequacy';
 import { appendAudit } from './audit';
 import { registerBackground } from './background';
-import { loadCohortData } from './cohortData';
+import { cohortColumnNames, loadCohortData } from './cohortData';
 import { evaluateAlertsForRun } from './drift';
 import { queueEmail, recipientsForRole } from './mail';
 import { asStored, computeRunResults, ENGINE_VERSION, inputsSha256, resultsSha256, RunInputError, type RunComputeInput, type RunScoreInput } from './runCompute';
@@ -30,15 +30,10 @@ export interface CreateRunInput {
   settings: RunSettings;
 }
 
-/** Keys present in the cohort's subgroups (and predictor columns), read from one stored row. */
+/** Column names of the cohort's subgroups and predictors, and whether it has periods (read from its first block). */
 async function cohortColumns(m: EntityManager, cohortVersionId: string): Promise<{ subgroups: Set<string>; hasDates: boolean }> {
-  const rows: { subgroups: Record<string, unknown> | null; predictors: Record<string, unknown> | null }[] = await m.query(
-    'SELECT subgroups, predictors FROM cohort_rows WHERE cohort_version_id = $1 ORDER BY line_no LIMIT 1',
-    [cohortVersionId],
-  );
-  const dated: unknown[] = await m.query('SELECT 1 FROM cohort_rows WHERE cohort_version_id = $1 AND event_date IS NOT NULL LIMIT 1', [cohortVersionId]);
-  const keys = new Set<string>([...Object.keys(rows[0]?.subgroups ?? {}), ...Object.keys(rows[0]?.predictors ?? {})]);
-  return { subgroups: keys, hasDates: dated.length > 0 };
+  const cols = await cohortColumnNames(cohortVersionId, m);
+  return { subgroups: new Set([...cols.subgroups, ...cols.predictors]), hasDates: cols.hasDates };
 }
 
 export async function createRun(actor: AuthUser, input: CreateRunInput, ip: string | null = null): Promise<RunDetail> {
@@ -163,8 +158,8 @@ export async function runOptions(): Promise<RunOptions> {
   );
   const cvs: Record<string, unknown>[] = await dataSource.query(
     `SELECT cv.id, cv.cohort_id, c.name AS cohort_name, cv.version, cv.label, cv.row_count, cv.events, cv.created_at,
-            (SELECT subgroups FROM cohort_rows r WHERE r.cohort_version_id = cv.id ORDER BY line_no LIMIT 1) AS subgroups,
-            EXISTS (SELECT 1 FROM cohort_rows r WHERE r.cohort_version_id = cv.id AND r.event_date IS NOT NULL) AS has_dates
+            (SELECT b.sub_names FROM cohort_row_blocks b WHERE b.cohort_version_id = cv.id ORDER BY b.block_no LIMIT 1) AS subgroups,
+            EXISTS (SELECT 1 FROM cohort_row_blocks b WHERE b.cohort_version_id = cv.id AND b.dated_count > 0) AS has_dates
      FROM cohort_versions cv JOIN cohorts c ON c.id = cv.cohort_id ORDER BY c.name, cv.version DESC`,
   );
   return {
@@ -188,7 +183,7 @@ export async function runOptions(): Promise<RunOptions> {
       label: (r.label as string) ?? '',
       rowCount: r.row_count as number,
       events: r.events as number,
-      groupColumns: Object.keys((r.subgroups as Record<string, unknown>) ?? {}).sort(),
+      groupColumns: [...((r.subgroups as string[] | null) ?? [])].sort(),
       hasDates: r.has_dates as boolean,
       createdAt: iso(r.created_at)!,
     })),

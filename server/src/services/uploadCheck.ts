@@ -4,6 +4,7 @@
 // upload worker thread) decides where rows and rejections go, so this stays a plain function the tests can call.
 import type { ColumnMappingSpec, ColumnSummary, ScreenFinding } from '@shared/cohorts';
 import { csvBatches, extraLines, isEmptyRecord, type Delimiter } from './csvFile';
+import { BlockWriter } from './cohortBlocks';
 import { ageOver89, isAgeHeader, looksLikeFormula, valueIdentifier } from './deidentify';
 
 export const MAX_STORED_REJECTIONS = 100_000;
@@ -31,7 +32,7 @@ export interface CheckInput {
 export type Rejection = [line: number, column: string, value: string, reason: string];
 
 export interface CheckSink {
-  /** COPY text rows for cohort_rows (cohort_version_id, line_no, outcome, event_date, predictors, subgroups). */
+  /** COPY text for cohort_row_blocks (services/cohortBlocks.ts): one line per block of accepted rows. */
   rows(copyText: string): Promise<void> | void;
   progress(fraction: number, rowsRead: number, rowsRejected: number): void;
 }
@@ -101,9 +102,6 @@ class Accumulator {
   }
 }
 
-/** COPY text format: a backslash starts an escape, so it is doubled (JSON has already escaped tabs and newlines). */
-const copyText = (s: string) => (s.indexOf('\\') === -1 ? s : s.replace(/\\/g, '\\\\'));
-
 /** Turns a period cell (YYYY-MM, YYYY-Qn, YYYY) into the first day of the period, or null when unreadable. */
 export function periodStart(raw: string): string | null {
   const v = raw.trim();
@@ -140,7 +138,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     const age = /^age/i.test(p.column) || isAgeHeader(fileCol);
     const prob = input.supplied;
     return {
-      key: copyText(JSON.stringify(p.column)), name: p.column, fileCol, idx: col(fileCol), numeric: p.kind === 'numeric', positiveOnly: p.positiveOnly, age,
+      name: p.column, fileCol, idx: col(fileCol), numeric: p.kind === 'numeric', positiveOnly: p.positiveOnly, age,
       min: range.min ?? (age ? 0 : prob ? 0 : -Infinity), max: range.max ?? (age ? 120 : prob ? 1 : Infinity),
     };
   });
@@ -148,7 +146,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   const pos = new Set(mapping.outcome.positive.map((s) => s.trim().toLowerCase()));
   const neg = new Set(mapping.outcome.negative.map((s) => s.trim().toLowerCase()));
   const dateIdx = mapping.date ? col(mapping.date.column) : -1;
-  const subs = Object.entries(mapping.subgroups).map(([name, c]) => ({ name, key: copyText(JSON.stringify(name)), idx: col(c), fileCol: c }));
+  const subs = Object.entries(mapping.subgroups).map(([name, c]) => ({ name, idx: col(c), fileCol: c }));
   const summaries = new Map<string, Accumulator>();
   for (const p of preds) summaries.set(p.name, new Accumulator(p.numeric));
   summaries.set(`outcome (${mapping.outcome.column})`, new Accumulator(false));
@@ -161,13 +159,14 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   const mappedIdx = [...new Set([...preds.map((p) => p.idx), outcomeIdx, dateIdx, ...subs.map((s) => s.idx)].filter((i) => i >= 0))];
   const identifier = identifierCache();
 
-  // Subgroup cells, text predictors and periods repeat a few levels: encode each distinct value once (bounded caches).
-  const encCache = [...preds.map(() => new Map<string, string>()), ...subs.map(() => new Map<string, string>())];
-  const encode = (cache: Map<string, string>, key: string, v: string) => {
-    let enc = cache.get(v);
-    if (enc === undefined) { enc = `${key}:${copyText(JSON.stringify(v))}`; if (cache.size < 10_000) cache.set(v, enc); }
-    return enc;
-  };
+  const numPreds = preds.filter((p) => p.numeric);
+  const catPreds = preds.filter((p) => !p.numeric);
+  const writer = new BlockWriter(plannedVersionId, { num: numPreds.map((p) => p.name), cat: catPreds.map((p) => p.name), sub: subs.map((s) => s.name) });
+  const numVals = new Float64Array(numPreds.length);
+  const catVals: string[] = new Array(catPreds.length);
+  const subVals: (string | null)[] = new Array(subs.length);
+  // Slot of each predictor in numVals / catVals.
+  const slot = preds.map((p) => (p.numeric ? numPreds : catPreds).indexOf(p));
   const periodCache = new Map<string, string | null>();
   let rowsRead = 0, accepted = 0, rejectedRows = 0, events = 0;
   let minDate: string | null = null, maxDate: string | null = null;
@@ -180,11 +179,9 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     if (rejections.length < MAX_STORED_REJECTIONS) rejections.push([line, column, value.slice(0, 500), reason]);
   };
   const values: (number | string)[] = new Array(preds.length);
-  const rowPrefix = `${plannedVersionId}\t`;
 
   const batches = csvBatches(input.path, input.delimiter, (b) => (bytesRead = b));
   let first = true;
-  let buffer = '';
   let nextLine = 1;
   let lastProgress = 0;
   try {
@@ -210,7 +207,6 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
         }
         if (bad) { rejectedRows++; continue; }
 
-        let predJson = '{';
         for (let k = 0; k < preds.length; k++) {
           const p = preds[k];
           const raw = record[p.idx].trim();
@@ -223,10 +219,10 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
             if (x < p.min || x > p.max) { reject(line, p.fileCol, raw, `${p.name} must be between ${p.min} and ${p.max}`, `${p.name} out of range`); bad = true; continue; }
             if (p.positiveOnly && x <= 0) { reject(line, p.fileCol, raw, `${p.name} enters the score as a logarithm and must be above 0`, `${p.name} not above 0`); bad = true; continue; }
             values[k] = x;
-            if (!bad) predJson += `${k ? ',' : ''}${p.key}:${x}`;
+            numVals[slot[k]] = x;
           } else {
             values[k] = raw;
-            if (!bad) predJson += `${k ? ',' : ''}${encode(encCache[k], p.key, raw)}`;
+            catVals[slot[k]] = raw;
           }
         }
         const yRaw = record[outcomeIdx].trim();
@@ -247,14 +243,11 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
         }
         if (bad) { rejectedRows++; continue; }
 
-        let subJson = '{';
         for (let k = 0; k < subs.length; k++) {
           const v = record[subs[k].idx].trim();
-          subAcc[k].add(v === '' ? null : v);
-          if (v !== '') {
-            const enc = encode(encCache[preds.length + k], subs[k].key, v);
-            subJson += subJson.length > 1 ? `,${enc}` : enc;
-          }
+          const value = v === '' ? null : v;
+          subAcc[k].add(value);
+          subVals[k] = value;
         }
         for (let k = 0; k < preds.length; k++) predAcc[k].add(values[k]);
         outcomeAcc.add(y === 1 ? '1' : '0');
@@ -262,16 +255,15 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
         if (date) { if (!minDate || date < minDate) minDate = date; if (!maxDate || date > maxDate) maxDate = date; }
         accepted++;
         events += y;
-        buffer += `${rowPrefix}${line}\t${y}\t${date ?? '\\N'}\t${predJson}}\t${subJson}}\n`;
+        writer.add(line, y, date, numVals, catVals, subVals);
+        if (writer.full) await sink.rows(writer.flush());
       }
-      // Hand over about every 64 kB, so COPY streams while the next rows are checked.
-      if (buffer.length > 65536) { await sink.rows(buffer); buffer = ''; }
       if (rowsRead - lastProgress >= 20_000) {
         lastProgress = rowsRead;
         sink.progress(Math.min(0.99, bytesRead / Math.max(1, input.totalBytes)), rowsRead, rejectedRows);
       }
     }
-    if (buffer && !refusal) await sink.rows(buffer);
+    if (!refusal && writer.pending) await sink.rows(writer.flush());
   } finally {
     await batches.return(undefined);
   }

@@ -222,7 +222,7 @@ export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnM
 /** Staged rows of an upload that never became a cohort version (re-mapped, discarded, failed). */
 async function deleteStagedRows(plannedVersionId: string | null, m: { query: (q: string, p: unknown[]) => Promise<unknown> } = dataSource) {
   if (!plannedVersionId) return;
-  await m.query('DELETE FROM cohort_rows WHERE cohort_version_id = $1 AND NOT EXISTS (SELECT 1 FROM cohort_versions WHERE id = $1)', [plannedVersionId]);
+  await m.query('DELETE FROM cohort_row_blocks WHERE cohort_version_id = $1 AND NOT EXISTS (SELECT 1 FROM cohort_versions WHERE id = $1)', [plannedVersionId]);
 }
 
 /** The full pass runs in a worker thread (server/src/workers/uploadWorker.ts); this side records progress and endings. */

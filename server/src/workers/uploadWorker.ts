@@ -1,6 +1,6 @@
 // Worker thread for one upload's row checks. Parsing and checking a large file is CPU work: here it cannot delay the
 // API's event loop. The thread holds its own PostgreSQL connection and, in ONE transaction, streams the accepted rows
-// into cohort_rows with COPY while it reads the file, stores the rejected cells, and marks the upload checked. A crash
+// into cohort_row_blocks with COPY while it reads the file, stores the rejected cells, and marks the upload checked. A crash
 // or error anywhere aborts that transaction: no row is left behind. The rows stay invisible until the steward stores
 // the upload (a cohort_versions row with the planned id is what makes them a cohort version).
 import { setPriority } from 'node:os';
@@ -10,6 +10,7 @@ import { parentPort, workerData } from 'node:worker_threads';
 import pg from 'pg';
 import { from as copyFrom } from 'pg-copy-streams';
 import type { ScreenFinding } from '@shared/cohorts';
+import { BLOCK_ROWS, COPY_BLOCKS_SQL } from '../services/cohortBlocks';
 import { checkUploadRows, type CheckInput, type Rejection } from '../services/uploadCheck';
 
 export interface UploadWorkerData extends CheckInput {
@@ -59,7 +60,7 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
   await client.connect();
   try {
     await client.query('BEGIN');
-    const copy = client.query(copyFrom('COPY cohort_rows (cohort_version_id, line_no, outcome, event_date, predictors, subgroups) FROM STDIN'));
+    const copy = client.query(copyFrom(COPY_BLOCKS_SQL));
     const copied = finished(copy);
     copied.catch(() => undefined); // observed below; an early failure also rejects the next write
     const result = await checkUploadRows(data, {
@@ -73,7 +74,8 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
       post({ type: 'refused', refusal: result.refusal });
       return;
     }
-    if (copy.rowCount !== result.accepted) throw new Error(`COPY stored ${copy.rowCount} rows, expected ${result.accepted}`);
+    const blocks = Math.ceil(result.accepted / BLOCK_ROWS);
+    if (copy.rowCount !== blocks) throw new Error(`COPY stored ${copy.rowCount} blocks of rows, expected ${blocks}`);
     if (result.rejections.length) await copyRejections(client, data.uploadId, result.rejections);
     const updated = await client.query(
       `UPDATE cohort_uploads SET status = 'checked', progress = 1, rows_read = $2, rows_accepted = $3, rows_rejected = $4, events = $5,

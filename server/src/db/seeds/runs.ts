@@ -16,9 +16,9 @@ export async function seedRuns(): Promise<void> {
     console.warn(`seedRuns: version 2 of "${KESTREL_SCORE_NAME}" not found; demo runs skipped`);
     return;
   }
-  const versions: { id: string; label: string; groups: Record<string, string> | null }[] = await dataSource.query(
+  const versions: { id: string; label: string; groups: string[] | null }[] = await dataSource.query(
     `SELECT cv.id, cv.label,
-            (SELECT subgroups FROM cohort_rows r WHERE r.cohort_version_id = cv.id ORDER BY line_no LIMIT 1) AS groups
+            (SELECT b.sub_names FROM cohort_row_blocks b WHERE b.cohort_version_id = cv.id ORDER BY b.block_no LIMIT 1) AS groups
      FROM cohort_versions cv JOIN cohorts c ON c.id = cv.cohort_id
      WHERE c.name = $1 ORDER BY cv.period_start NULLS LAST, cv.version`,
     [DEMO_COHORT_NAME],
@@ -35,7 +35,7 @@ export async function seedRuns(): Promise<void> {
       cv.id,
     ]);
     if (done.length) continue;
-    const present = Object.keys(cv.groups ?? {});
+    const present = cv.groups ?? [];
     const settings = runSettingsSchema.parse({ subgroupColumns: DEMO_GROUPS.filter((g) => present.includes(g)), timeGrouping: 'month' });
     await recordRunNow(statistician?.id ?? null, sv[0].id, cv.id, settings, { seeded: true });
     made++;
