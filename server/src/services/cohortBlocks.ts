@@ -8,7 +8,7 @@
 export const BLOCK_ROWS = 10_000;
 
 export const COPY_BLOCKS_SQL =
-  'COPY cohort_row_blocks (cohort_version_id, block_no, row_count, dated_count, line_no, outcome, event_date, num_names, num_values, cat_names, cat_values, sub_names, sub_values) FROM STDIN';
+  'COPY cohort_row_blocks (cohort_version_id, block_no, row_count, dated_count, line_no, outcome, event_date, num_names, num_values, cat_names, cat_values, sub_names, sub_values) FROM STDIN WITH (FORMAT binary)';
 
 export interface BlockColumns {
   /** Numeric predictors (and a supplied probability), in the order of the score version. */
@@ -28,34 +28,62 @@ export interface BlockRow {
   sub: (string | null)[];
 }
 
-/** An array literal element, quoted for PostgreSQL's array syntax; then escaped for COPY's text format. */
-function arrayText(v: string): string {
-  const quoted = `"${v.replace(/[\\"]/g, (c) => `\\${c}`)}"`;
-  return quoted.replace(/[\\\t\n\r]/g, (c) => (c === '\\' ? '\\\\' : c === '\t' ? '\\t' : c === '\n' ? '\\n' : '\\r')).replace(/\0/g, '');
+// PostgreSQL's binary COPY format (the manual, "COPY", section "Binary Format"): a signature, then per row a field
+// count and each field as length + bytes, big-endian; arrays as in array_send. Binary, because array_in (the text
+// input of arrays) measured about 250 ns per element — three times PostgreSQL's own \copy of the whole CSV file.
+const OID = { int2: 21, int4: 23, text: 25, float8: 701, date: 1082 } as const;
+const SIGNATURE = Buffer.from([0x50, 0x47, 0x43, 0x4f, 0x50, 0x59, 0x0a, 0xff, 0x0d, 0x0a, 0x00, 0, 0, 0, 0, 0, 0, 0, 0]);
+const TRAILER = Buffer.from([0xff, 0xff]);
+const PG_EPOCH_DAYS = Date.UTC(2000, 0, 1) / 86_400_000;
+const FIELDS = 13;
+
+/** A growing big-endian byte buffer. */
+class Bytes {
+  buf = Buffer.allocUnsafe(1 << 20);
+  view = new DataView(this.buf.buffer, this.buf.byteOffset, this.buf.byteLength);
+  at = 0;
+  ensure(n: number) {
+    if (this.at + n <= this.buf.length) return;
+    const next = Buffer.allocUnsafe(Math.max(this.buf.length * 2, this.at + n));
+    this.buf.copy(next, 0, 0, this.at);
+    this.buf = next;
+    this.view = new DataView(next.buffer, next.byteOffset, next.byteLength);
+  }
+  i16(v: number) { this.ensure(2); this.view.setInt16(this.at, v); this.at += 2; }
+  i32(v: number) { this.ensure(4); this.view.setInt32(this.at, v); this.at += 4; }
+  f64(v: number) { this.ensure(8); this.view.setFloat64(this.at, v); this.at += 8; }
+  bytes(b: Buffer) { this.ensure(b.length); b.copy(this.buf, this.at); this.at += b.length; }
+  /** Reserves a length word; returns its position for `endField`. */
+  startField(): number { this.i32(0); return this.at; }
+  endField(start: number) { this.view.setInt32(start - 4, this.at - start); }
+  take(): Buffer { const out = Buffer.from(this.buf.subarray(0, this.at)); this.at = 0; return out; }
 }
 
-const namesLiteral = (names: string[]) => `{${names.map(arrayText).join(',')}}`;
-
-/** Collects rows and encodes each full block as one COPY text line. */
+/** Collects rows and encodes each full block as one binary COPY row. */
 export class BlockWriter {
   private n = 0;
   private dated = 0;
   private block = 0;
+  private started = false;
   private readonly lines = new Int32Array(BLOCK_ROWS);
   private readonly outcomes = new Uint8Array(BLOCK_ROWS);
-  private readonly dates: (string | null)[] = new Array(BLOCK_ROWS);
+  private readonly days = new Int32Array(BLOCK_ROWS);
+  private readonly hasDate = new Uint8Array(BLOCK_ROWS);
   private readonly num: Float64Array[];
   private readonly cat: string[][];
   private readonly sub: (string | null)[][];
-  private readonly namesText: string;
-  // Text values repeat a few levels: each distinct value is encoded once (bounded).
-  private readonly encoded = new Map<string, string>();
+  private readonly out = new Bytes();
+  private readonly uuid: Buffer;
+  // Text values and periods repeat a few levels: each distinct one is encoded once (bounded).
+  private readonly encoded = new Map<string, Buffer>();
+  private readonly dayOf = new Map<string, number>();
 
-  constructor(private readonly versionId: string, readonly columns: BlockColumns) {
+  constructor(versionId: string, readonly columns: BlockColumns) {
+    this.uuid = Buffer.from(versionId.replace(/-/g, ''), 'hex');
+    if (this.uuid.length !== 16) throw new Error(`not a uuid: ${versionId}`);
     this.num = columns.num.map(() => new Float64Array(BLOCK_ROWS));
     this.cat = columns.cat.map(() => new Array<string>(BLOCK_ROWS));
     this.sub = columns.sub.map(() => new Array<string | null>(BLOCK_ROWS));
-    this.namesText = [namesLiteral(columns.num), namesLiteral(columns.cat), namesLiteral(columns.sub)].join('\t');
   }
 
   get full(): boolean {
@@ -66,62 +94,113 @@ export class BlockWriter {
     return this.n;
   }
 
-  /** Adds one row; `num`, `cat`, `sub` in the order of the columns. */
+  /** Adds one row; `num`, `cat`, `sub` in the order of the columns; `date` as YYYY-MM-DD. */
   add(line: number, outcome: number, date: string | null, num: ArrayLike<number>, cat: ArrayLike<string>, sub: ArrayLike<string | null>): void {
     const i = this.n++;
     this.lines[i] = line;
     this.outcomes[i] = outcome;
-    this.dates[i] = date;
-    if (date !== null) this.dated++;
+    if (date !== null) {
+      let d = this.dayOf.get(date);
+      if (d === undefined) {
+        d = Date.parse(`${date}T00:00:00Z`) / 86_400_000 - PG_EPOCH_DAYS;
+        if (!Number.isInteger(d)) throw new Error(`not a date: ${date}`);
+        if (this.dayOf.size < 100_000) this.dayOf.set(date, d);
+      }
+      this.days[i] = d;
+      this.hasDate[i] = 1;
+      this.dated++;
+    } else this.hasDate[i] = 0;
     for (let k = 0; k < this.num.length; k++) this.num[k][i] = num[k];
     for (let k = 0; k < this.cat.length; k++) this.cat[k][i] = cat[k];
     for (let k = 0; k < this.sub.length; k++) this.sub[k][i] = sub[k];
   }
 
-  private text(v: string | null): string {
-    if (v === null) return 'NULL';
+  private utf8(v: string): Buffer {
     let e = this.encoded.get(v);
     if (e === undefined) {
-      e = arrayText(v);
+      e = Buffer.from(v.replace(/\0/g, ''), 'utf8');
       if (this.encoded.size < 20_000) this.encoded.set(v, e);
     }
     return e;
   }
 
-  /** The pending rows as one COPY line (with its newline), or '' when none are pending. */
-  flush(): string {
+  private arrayHeader(o: Bytes, oid: number, count: number, hasNull: boolean) {
+    o.i32(1); o.i32(hasNull ? 1 : 0); o.i32(oid); o.i32(count); o.i32(1);
+  }
+
+  /** A text[] field: the columns one after the other, the first `n` values of each. */
+  private textArray(o: Bytes, cols: readonly (readonly (string | null)[])[], n: number) {
+    let hasNull = false;
+    for (const col of cols) for (let i = 0; i < n; i++) if (col[i] === null) { hasNull = true; break; }
+    const f = o.startField();
+    this.arrayHeader(o, OID.text, n * cols.length, hasNull);
+    for (const col of cols) {
+      for (let i = 0; i < n; i++) {
+        const v = col[i];
+        if (v === null) { o.i32(-1); continue; }
+        const b = this.utf8(v);
+        o.i32(b.length);
+        o.bytes(b);
+      }
+    }
+    o.endField(f);
+  }
+
+  /** The pending rows as one binary COPY row (preceded by the format's signature the first time). */
+  flush(): Buffer {
     const n = this.n;
-    if (n === 0) return '';
-    const parts: string[] = [this.versionId, String(this.block), String(n), String(this.dated)];
-    parts.push(`{${this.lines.subarray(0, n).join(',')}}`, `{${this.outcomes.subarray(0, n).join(',')}}`);
-    const d: string[] = new Array(n);
-    for (let i = 0; i < n; i++) d[i] = this.dates[i] ?? 'NULL';
-    parts.push(`{${d.join(',')}}`);
-    const [numNames, catNames, subNames] = this.namesText.split('\t');
-    const numValues: string[] = [];
-    for (const col of this.num) numValues.push(col.subarray(0, n).join(','));
-    const textValues = (cols: (string | null)[][]) => {
-      const out: string[] = [];
-      for (const col of cols) for (let i = 0; i < n; i++) out.push(this.text(col[i]));
-      return `{${out.join(',')}}`;
-    };
-    parts.push(numNames, `{${numValues.join(',')}}`, catNames, textValues(this.cat), subNames, textValues(this.sub));
+    const o = this.out;
+    if (!this.started) { o.bytes(SIGNATURE); this.started = true; }
+    if (n === 0) return o.take();
+    o.i16(FIELDS);
+    o.i32(16); o.bytes(this.uuid);
+    o.i32(4); o.i32(this.block);
+    o.i32(4); o.i32(n);
+    o.i32(4); o.i32(this.dated);
+    let f = o.startField(); this.arrayHeader(o, OID.int4, n, false);
+    for (let i = 0; i < n; i++) { o.i32(4); o.i32(this.lines[i]); }
+    o.endField(f);
+    f = o.startField(); this.arrayHeader(o, OID.int2, n, false);
+    for (let i = 0; i < n; i++) { o.i32(2); o.i16(this.outcomes[i]); }
+    o.endField(f);
+    f = o.startField(); this.arrayHeader(o, OID.date, n, this.dated < n);
+    for (let i = 0; i < n; i++) { if (this.hasDate[i]) { o.i32(4); o.i32(this.days[i]); } else o.i32(-1); }
+    o.endField(f);
+    const names = (list: string[]) => this.textArray(o, [list], list.length);
+    names(this.columns.num);
+    f = o.startField(); this.arrayHeader(o, OID.float8, n * this.num.length, false);
+    o.ensure(n * this.num.length * 12);
+    for (const col of this.num) for (let i = 0; i < n; i++) { o.i32(8); o.f64(col[i]); }
+    o.endField(f);
+    names(this.columns.cat);
+    this.textArray(o, this.cat, n);
+    names(this.columns.sub);
+    this.textArray(o, this.sub, n);
     this.block++;
     this.n = 0;
     this.dated = 0;
-    return `${parts.join('\t')}\n`;
+    return o.take();
+  }
+
+  /** Ends the COPY data (after the last flush). */
+  end(): Buffer {
+    const head = this.started ? Buffer.alloc(0) : SIGNATURE;
+    this.started = true;
+    return Buffer.concat([head, TRAILER]);
   }
 }
 
-/** Every block of rows as COPY text: for fixtures and the migration of rows stored before blocks. */
-export function encodeBlocks(versionId: string, columns: BlockColumns, rows: Iterable<BlockRow>): string {
+/** Every block of rows as binary COPY data: for fixtures and the migration of rows stored before blocks. */
+export function encodeBlocks(versionId: string, columns: BlockColumns, rows: Iterable<BlockRow>): Buffer {
   const w = new BlockWriter(versionId, columns);
-  let out = '';
+  const parts: Buffer[] = [];
   for (const r of rows) {
     w.add(r.line, r.outcome, r.date, r.num, r.cat, r.sub);
-    if (w.full) out += w.flush();
+    if (w.full) parts.push(w.flush());
   }
-  return out + w.flush();
+  if (w.pending) parts.push(w.flush());
+  parts.push(w.end());
+  return Buffer.concat(parts);
 }
 
 /** One stored block as the database returns it (arrays parsed by pg; periods read as text). */

@@ -133,8 +133,9 @@ async function isPlainCsv(path: string): Promise<boolean> {
  * on newlines and the delimiter directly — about ten times faster than csv-parse; any other file goes through
  * csvStream, so quoting rules are the same as in the screen.
  */
-export async function* csvBatches(path: string, delimiter: Delimiter, onBytes?: (bytesRead: number) => void): AsyncGenerator<string[][]> {
-  if (!(await isPlainCsv(path))) {
+export async function* csvBatches(path: string, delimiter: Delimiter, onBytes?: (bytesRead: number) => void, info: { plain?: boolean } = {}): AsyncGenerator<string[][]> {
+  info.plain = await isPlainCsv(path);
+  if (!info.plain) {
     const parser = csvStream(path, delimiter, onBytes);
     let batch: string[][] = [];
     try {
@@ -153,7 +154,7 @@ export async function* csvBatches(path: string, delimiter: Delimiter, onBytes?: 
   let first = true;
   // Small batches: a whole megabyte of split records at once outlives V8's young generation and turns every batch
   // into old-space garbage (measured: garbage collection took most of the pass).
-  const BATCH = 256;
+  const BATCH = 1024;
   try {
     for await (const chunk of input as AsyncIterable<string>) {
       let text = rest + chunk;

@@ -32,8 +32,8 @@ export interface CheckInput {
 export type Rejection = [line: number, column: string, value: string, reason: string];
 
 export interface CheckSink {
-  /** COPY text for cohort_row_blocks (services/cohortBlocks.ts): one line per block of accepted rows. */
-  rows(copyText: string): Promise<void> | void;
+  /** Binary COPY data for cohort_row_blocks (services/cohortBlocks.ts): the signature, one row per block, the trailer. */
+  rows(copy: Buffer): Promise<void> | void;
   progress(fraction: number, rowsRead: number, rowsRejected: number): void;
 }
 
@@ -114,6 +114,34 @@ export function periodStart(raw: string): string | null {
   return null;
 }
 
+/**
+ * Canonical copies of a column's repeating values. A cell split from the file is a fresh string whose hash V8 must
+ * compute on every Map lookup; a few levels are found by comparing against the canonical copies instead, whose hashes
+ * are cached, so the summaries and the block encoding that follow look them up cheaply. Bounded: past 50,000
+ * distinct values a column's cells are used as they come.
+ */
+type Verdict = { formula: boolean; hit: { category: string; reason: string } | null };
+const CLEAN: Verdict = { formula: false, hit: null };
+
+class Interner {
+  private readonly few: string[] = [];
+  private readonly fewVerdicts: Verdict[] = [];
+  private readonly many = new Map<string, [string, Verdict]>();
+  /** The verdict of the value last interned (judged once per distinct value). */
+  verdict: Verdict = CLEAN;
+  constructor(private readonly judge: (v: string) => Verdict = () => CLEAN) {}
+  intern(v: string): string {
+    const few = this.few;
+    for (let i = 0; i < few.length; i++) if (few[i] === v) { this.verdict = this.fewVerdicts[i]; return few[i]; }
+    if (few.length < 16) { this.verdict = this.judge(v); few.push(v); this.fewVerdicts.push(this.verdict); return v; }
+    const hit = this.many.get(v);
+    if (hit !== undefined) { this.verdict = hit[1]; return hit[0]; }
+    this.verdict = this.judge(v);
+    if (this.many.size < 50_000) this.many.set(v, [v, this.verdict]);
+    return v;
+  }
+}
+
 /** Rows are checked cell by cell; the identifier patterns run once per distinct value (bounded cache). */
 function identifierCache() {
   const cache = new Map<string, { category: string; reason: string } | null>();
@@ -158,6 +186,14 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   const subAcc = subs.map((s) => summaries.get(s.name)!);
   const mappedIdx = [...new Set([...preds.map((p) => p.idx), outcomeIdx, dateIdx, ...subs.map((s) => s.idx)].filter((i) => i >= 0))];
   const identifier = identifierCache();
+  const judge = (v: string): Verdict => {
+    const formula = looksLikeFormula(v);
+    const hit = identifier(v);
+    return formula || hit ? { formula, hit } : CLEAN;
+  };
+  // Numeric predictors take many values (checked cell by cell); the other mapped columns repeat a few levels.
+  const numericIdx = new Set(preds.filter((p) => p.numeric).map((p) => p.idx));
+  const cellIntern = mappedIdx.map((i) => (numericIdx.has(i) ? null : new Interner(judge)));
 
   const numPreds = preds.filter((p) => p.numeric);
   const catPreds = preds.filter((p) => !p.numeric);
@@ -165,6 +201,11 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   const numVals = new Float64Array(numPreds.length);
   const catVals: string[] = new Array(catPreds.length);
   const subVals: (string | null)[] = new Array(subs.length);
+  const catIntern = catPreds.map(() => new Interner());
+  const subIntern = subs.map(() => new Interner());
+  const outcomeIntern = new Interner();
+  const dateIntern = new Interner();
+  const outcomeOf = new Map<string, number>();
   // Slot of each predictor in numVals / catVals.
   const slot = preds.map((p) => (p.numeric ? numPreds : catPreds).indexOf(p));
   const periodCache = new Map<string, string | null>();
@@ -180,7 +221,9 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   };
   const values: (number | string)[] = new Array(preds.length);
 
-  const batches = csvBatches(input.path, input.delimiter, (b) => (bytesRead = b));
+  // A file without quotes has one record per line: no field can hold a line break.
+  const source: { plain?: boolean } = {};
+  const batches = csvBatches(input.path, input.delimiter, (b) => (bytesRead = b), source);
   let first = true;
   let nextLine = 1;
   let lastProgress = 0;
@@ -188,7 +231,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     outer: for await (const records of batches) {
       for (const record of records) {
         const line = nextLine;
-        nextLine += 1 + extraLines(record);
+        nextLine += source.plain ? 1 : 1 + extraLines(record);
         if (isEmptyRecord(record)) continue;
         if (first) { first = false; continue; }
         rowsRead++;
@@ -200,10 +243,13 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
         let bad = false;
         for (let j = 0; j < mappedIdx.length; j++) {
           const i = mappedIdx[j];
-          const v = record[i];
-          if (looksLikeFormula(v)) { reject(line, headers[i], v, 'the cell looks like a spreadsheet formula', 'formula-looking cell'); bad = true; }
-          const hit = identifier(v);
-          if (hit) { refusal = { column: headers[i], category: hit.category, reason: `${hit.reason} (line ${line})` }; break outer; }
+          const cells = cellIntern[j];
+          // Repeating columns: each distinct value is judged once; the canonical copy replaces the cell.
+          const v = cells ? (record[i] = cells.intern(record[i])) : record[i];
+          const verdict = cells ? cells.verdict : judge(v);
+          if (verdict === CLEAN) continue;
+          if (verdict.formula) { reject(line, headers[i], v, 'the cell looks like a spreadsheet formula', 'formula-looking cell'); bad = true; }
+          if (verdict.hit) { refusal = { column: headers[i], category: verdict.hit.category, reason: `${verdict.hit.reason} (line ${line})` }; break outer; }
         }
         if (bad) { rejectedRows++; continue; }
 
@@ -221,20 +267,25 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
             values[k] = x;
             numVals[slot[k]] = x;
           } else {
-            values[k] = raw;
-            catVals[slot[k]] = raw;
+            const v = catIntern[slot[k]].intern(raw);
+            values[k] = v;
+            catVals[slot[k]] = v;
           }
         }
-        const yRaw = record[outcomeIdx].trim();
-        const yl = yRaw.toLowerCase();
-        const y = pos.has(yl) ? 1 : neg.has(yl) ? 0 : -1;
+        const yRaw = outcomeIntern.intern(record[outcomeIdx].trim());
+        let y = outcomeOf.get(yRaw);
+        if (y === undefined) {
+          const yl = yRaw.toLowerCase();
+          y = pos.has(yl) ? 1 : neg.has(yl) ? 0 : -1;
+          if (outcomeOf.size < 1000) outcomeOf.set(yRaw, y);
+        }
         if (y < 0) {
           reject(line, mapping.outcome.column, yRaw, yRaw === '' ? 'missing outcome' : `the outcome must be one of ${[...pos, ...neg].join(', ')}`, yRaw === '' ? 'missing outcome' : 'outcome not a known label');
           bad = true;
         }
         let date: string | null = null;
         if (dateIdx >= 0) {
-          const d = record[dateIdx].trim();
+          const d = dateIntern.intern(record[dateIdx].trim());
           if (d !== '') {
             date = periodCache.get(d) ?? null;
             if (date === null && !periodCache.has(d)) { date = periodStart(d); if (periodCache.size < 10_000) periodCache.set(d, date); }
@@ -245,7 +296,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
 
         for (let k = 0; k < subs.length; k++) {
           const v = record[subs[k].idx].trim();
-          const value = v === '' ? null : v;
+          const value = v === '' ? null : subIntern[k].intern(v);
           subAcc[k].add(value);
           subVals[k] = value;
         }
@@ -263,7 +314,10 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
         sink.progress(Math.min(0.99, bytesRead / Math.max(1, input.totalBytes)), rowsRead, rejectedRows);
       }
     }
-    if (!refusal && writer.pending) await sink.rows(writer.flush());
+    if (!refusal) {
+      if (writer.pending) await sink.rows(writer.flush());
+      await sink.rows(writer.end());
+    }
   } finally {
     await batches.return(undefined);
   }

@@ -76,6 +76,13 @@ export function checkInThread(data: UploadWorkerData, onProgress: Job['onProgres
   });
 }
 
+/** Starts one thread ahead of the first upload, so its TypeScript load is not paid while a steward waits. */
+export function warmUploadThreads(): void {
+  if (started > 0) return;
+  const worker = spawn();
+  release(worker);
+}
+
 /** For tests and shutdown: ends the idle threads. */
 export async function stopUploadThreads(): Promise<void> {
   await Promise.all(idle.splice(0).map((w) => w.terminate()));

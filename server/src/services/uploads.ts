@@ -14,7 +14,7 @@ import { appendAudit } from './audit';
 import { registerBackground } from './background';
 import { readHeaderAndSample, sniffCsv, type Delimiter } from './csvFile';
 import { neutraliseCell, screenColumns } from './deidentify';
-import { checkInThread } from './uploadThreads';
+import { checkInThread, warmUploadThreads } from './uploadThreads';
 import type { RequiredPredictor } from './uploadCheck';
 
 export { periodStart } from './uploadCheck';
@@ -280,6 +280,7 @@ export async function recoverInterruptedUploads(): Promise<number> {
 }
 registerBackground(async () => {
   await recoverInterruptedUploads();
+  warmUploadThreads();
 });
 
 // ---- Rejections ----------------------------------------------------------------------------------------------

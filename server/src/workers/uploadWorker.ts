@@ -27,7 +27,7 @@ export type UploadWorkerMessage =
 /** COPY text escaping for free text (rejected values come straight from the file). */
 const copyField = (s: string) => s.replace(/\0/g, '').replace(/[\\\t\n\r]/g, (c) => (c === '\\' ? '\\\\' : c === '\t' ? '\\t' : c === '\n' ? '\\n' : '\\r'));
 
-function write(stream: Writable, chunk: string): Promise<void> {
+function write(stream: Writable, chunk: string | Buffer): Promise<void> {
   if (stream.write(chunk)) return Promise.resolve();
   return new Promise((resolve, reject) => {
     const done = (err?: Error) => {
@@ -68,7 +68,8 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
       progress: (fraction, rowsRead, rowsRejected) => post({ type: 'progress', fraction, rowsRead, rowsRejected }),
     });
     copy.end();
-    await copied;
+    if (result.refusal) await copied.catch(() => undefined); // cut short on purpose: rolled back just below
+    else await copied;
     if (result.refusal) {
       await client.query('ROLLBACK');
       post({ type: 'refused', refusal: result.refusal });
