@@ -54,8 +54,8 @@ export class ServerProcess {
     return { status: res.status, body: (await res.json()) as Record<string, unknown> };
   }
 
-  async fetchJson(p: string, init: RequestInit = {}): Promise<{ status: number; body: Record<string, unknown> & { error?: string } }> {
-    const res = await fetch(`${this.url}${p}`, { ...init, signal: AbortSignal.timeout(15_000) });
+  async fetchJson(p: string, init: RequestInit = {}, timeoutMs = 15_000): Promise<{ status: number; body: Record<string, unknown> & { error?: string } }> {
+    const res = await fetch(`${this.url}${p}`, { ...init, signal: AbortSignal.timeout(timeoutMs) });
     const text = await res.text();
     let body: Record<string, unknown> = {};
     try {
