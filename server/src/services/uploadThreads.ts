@@ -1,15 +1,15 @@
 // A few long-lived threads for upload checks (server/src/workers/uploadWorker.ts). Starting a thread costs a
 // TypeScript load of its modules (most of a second on a busy machine), so threads are kept and given one job at a
-// time; further uploads wait in line. PLUMBLINE_UPLOAD_THREADS sets how many (default 2, the cores of the machine
-// we measured on; each also holds a PostgreSQL connection while it works).
+// time; further uploads wait in line (a screen of a newly received file goes first). PLUMBLINE_UPLOAD_THREADS sets
+// how many (default 2, the cores of the machine we measured on; each also holds a PostgreSQL connection while it works).
 import { fileURLToPath } from 'node:url';
 import { Worker } from 'node:worker_threads';
-import type { UploadWorkerData, UploadWorkerMessage } from '../workers/uploadWorker';
+import type { ScreenAnswer, ScreenJob, UploadWorkerData, UploadWorkerMessage } from '../workers/uploadWorker';
 
-type Ending = Exclude<UploadWorkerMessage, { type: 'progress' }>;
+type Ending = Exclude<UploadWorkerMessage, { type: 'progress' }> | ScreenAnswer;
 interface Job {
   jobId: number;
-  data: UploadWorkerData;
+  data: UploadWorkerData | ScreenJob;
   onProgress: (m: Extract<UploadWorkerMessage, { type: 'progress' }>) => void;
   resolve: (m: Ending) => void;
 }
@@ -26,7 +26,7 @@ function spawn(): Worker {
   const worker = new Worker(new URL('../workers/runWorkerBoot.mjs', import.meta.url), {
     workerData: { workerFile: new URL('../workers/uploadWorker.ts', import.meta.url).href, tsconfig: fileURLToPath(new URL('../../../tsconfig.json', import.meta.url)) },
   });
-  worker.on('message', ({ jobId, message }: { jobId: number; message: UploadWorkerMessage }) => {
+  worker.on('message', ({ jobId, message }: { jobId: number; message: UploadWorkerMessage | ScreenAnswer }) => {
     const job = busy.get(worker);
     if (!job || job.jobId !== jobId) return;
     if (message.type === 'progress') { job.onProgress(message); return; }
@@ -59,9 +59,12 @@ function release(worker: Worker) {
 
 function pump() {
   while (queue.length) {
-    const worker = idle.pop() ?? (started < size ? spawn() : undefined);
+    // A screen is short and a steward waits for its answer: it goes first and may use one thread beyond the size.
+    const screenAt = queue.findIndex((j) => 'kind' in j.data);
+    const at = screenAt >= 0 ? screenAt : 0;
+    const worker = idle.pop() ?? (started < size + (screenAt >= 0 ? 1 : 0) ? spawn() : undefined);
     if (!worker) return;
-    const job = queue.shift()!;
+    const [job] = queue.splice(at, 1);
     worker.ref();
     busy.set(worker, job);
     worker.postMessage({ jobId: job.jobId, data: job.data });
@@ -69,9 +72,17 @@ function pump() {
 }
 
 /** Checks one upload in a thread; resolves with how it ended (the thread has stored or rolled back by then). */
-export function checkInThread(data: UploadWorkerData, onProgress: Job['onProgress']): Promise<Ending> {
+export function checkInThread(data: UploadWorkerData, onProgress: Job['onProgress']): Promise<Exclude<UploadWorkerMessage, { type: 'progress' }>> {
   return new Promise((resolve) => {
-    queue.push({ jobId: nextJobId++, data, onProgress, resolve });
+    queue.push({ jobId: nextJobId++, data, onProgress, resolve: resolve as Job['resolve'] });
+    pump();
+  });
+}
+
+/** The first look at a received file (encoding, delimiter, header, sample, identifier screen) in a thread. */
+export function screenInThread(path: string): Promise<ScreenAnswer | Extract<UploadWorkerMessage, { type: 'error' }>> {
+  return new Promise((resolve) => {
+    queue.push({ jobId: nextJobId++, data: { kind: 'screen', path }, onProgress: () => {}, resolve: resolve as Job['resolve'] });
     pump();
   });
 }

@@ -12,9 +12,9 @@ import type { AuthUser } from '../middleware/auth';
 import type { UploadWorkerData } from '../workers/uploadWorker';
 import { appendAudit } from './audit';
 import { registerBackground } from './background';
-import { readHeaderAndSample, sniffCsv, type Delimiter } from './csvFile';
-import { neutraliseCell, screenColumns } from './deidentify';
-import { checkInThread, warmUploadThreads } from './uploadThreads';
+import type { Delimiter } from './csvFile';
+import { neutraliseCell } from './deidentify';
+import { checkInThread, screenInThread, warmUploadThreads } from './uploadThreads';
 import type { RequiredPredictor } from './uploadCheck';
 
 export { periodStart } from './uploadCheck';
@@ -86,7 +86,6 @@ async function removeQuietly(path: string | null | undefined) {
   if (path) await unlink(path).catch(() => undefined);
 }
 
-const MAX_UPLOAD_COLUMNS = Number(process.env.PLUMBLINE_UPLOAD_MAX_COLUMNS ?? 500);
 
 /** Step 1: screen the received file; refuse (422, file deleted) or keep it as a pending upload. */
 export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: UploadFields, ip: string) {
@@ -99,11 +98,11 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
       const found = await dataSource.query('SELECT id FROM cohorts WHERE lower(name) = lower($1)', [fields.cohortName]);
       if (found.length) throw conflict(`a cohort named "${fields.cohortName}" exists; upload a new version of it instead (cohortId ${found[0].id})`);
     }
-    const { delimiter } = await sniffCsv(file.path);
-    const { headers, sample } = await readHeaderAndSample(file.path, delimiter);
-    // A registry extract has tens of columns; thousands means a wrong file (or a hostile one) — refuse before storing anything.
-    if (headers.length > MAX_UPLOAD_COLUMNS) throw new HttpError(422, `the file has ${headers.length} columns; at most ${MAX_UPLOAD_COLUMNS} are accepted`);
-    const screen = screenColumns(headers, sample);
+    // Parsing the sample and running the screen's patterns is CPU work: done in an upload thread, off the API's loop.
+    const looked = await screenInThread(file.path);
+    if (looked.type === 'refused-file') throw new HttpError(looked.status, looked.message, looked.details);
+    if (looked.type === 'error') throw new Error(looked.message);
+    const { delimiter, headers, sample, screen } = looked;
     if (screen.refused.length) {
       await appendAudit({
         actorId: actor.id,

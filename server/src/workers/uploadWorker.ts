@@ -11,12 +11,25 @@ import pg from 'pg';
 import { from as copyFrom } from 'pg-copy-streams';
 import type { ScreenFinding } from '@shared/cohorts';
 import { BLOCK_ROWS, COPY_BLOCKS_SQL } from '../services/cohortBlocks';
+import { HttpError } from '../middleware/errors';
+import { readHeaderAndSample, sniffCsv, type Delimiter } from '../services/csvFile';
+import { screenColumns, type ScreenResult } from '../services/deidentify';
 import { checkUploadRows, type CheckInput, type Rejection } from '../services/uploadCheck';
 
 export interface UploadWorkerData extends CheckInput {
   uploadId: string;
   db: { host: string; port: number; user: string; password: string; database: string };
 }
+
+/** The first look at a received file (server/src/services/csvFile.ts, deidentify.ts), off the API thread too. */
+export interface ScreenJob {
+  kind: 'screen';
+  path: string;
+}
+
+export type ScreenAnswer =
+  | { type: 'screened'; delimiter: Delimiter; headers: string[]; sample: string[][]; screen: ScreenResult }
+  | { type: 'refused-file'; status: number; message: string; details?: unknown };
 
 export type UploadWorkerMessage =
   | { type: 'progress'; fraction: number; rowsRead: number; rowsRejected: number }
@@ -52,6 +65,16 @@ async function copyRejections(client: pg.Client, uploadId: string, rejections: R
   }
   copy.end(buf);
   await finished(copy);
+}
+
+const MAX_UPLOAD_COLUMNS = Number(process.env.PLUMBLINE_UPLOAD_MAX_COLUMNS ?? 500);
+
+async function screen(path: string): Promise<ScreenAnswer> {
+  const { delimiter } = await sniffCsv(path);
+  const { headers, sample } = await readHeaderAndSample(path, delimiter);
+  // A registry extract has tens of columns; thousands means a wrong file (or a hostile one) — refuse before storing anything.
+  if (headers.length > MAX_UPLOAD_COLUMNS) throw new HttpError(422, `the file has ${headers.length} columns; at most ${MAX_UPLOAD_COLUMNS} are accepted`);
+  return { type: 'screened', delimiter, headers, sample, screen: screenColumns(headers, sample) };
 }
 
 async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => void) {
@@ -101,8 +124,14 @@ const port = parentPort;
 if (port) {
   // Linux keeps a nice value per thread: checking a file yields the CPU to the API thread when both want it.
   try { setPriority(Number(process.env.PLUMBLINE_WORKER_NICE ?? 10)); } catch { /* not permitted here: run at normal priority */ }
-  port.on('message', (job: { jobId: number; data: UploadWorkerData }) => {
-    const post = (m: UploadWorkerMessage) => port.postMessage({ jobId: job.jobId, message: m });
+  port.on('message', (job: { jobId: number; data: UploadWorkerData | ScreenJob }) => {
+    const post = (m: UploadWorkerMessage | ScreenAnswer) => port.postMessage({ jobId: job.jobId, message: m });
+    if ('kind' in job.data) {
+      screen(job.data.path).then(post, (err: Error) => post(err instanceof HttpError
+        ? { type: 'refused-file', status: err.status, message: err.message, details: err.details }
+        : { type: 'error', message: (err?.message ?? String(err)).split('\n')[0] }));
+      return;
+    }
     main(job.data, post).catch((err: Error) => post({ type: 'error', message: (err?.message ?? String(err)).split('\n')[0] }));
   });
 }
