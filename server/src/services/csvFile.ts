@@ -120,7 +120,7 @@ export async function readHeaderAndSample(path: string, delimiter: Delimiter, ma
 }
 
 /** True when the file has no double quote and no bare carriage return: every record is one line split on the delimiter. */
-async function isPlainCsv(path: string): Promise<boolean> {
+export async function isPlainCsv(path: string): Promise<boolean> {
   for await (const chunk of createReadStream(path, { highWaterMark: 4 * 1024 * 1024 }) as AsyncIterable<Buffer>) {
     if (chunk.indexOf(0x22) !== -1) return false;
     for (let i = chunk.indexOf(0x0d); i !== -1; i = chunk.indexOf(0x0d, i + 1)) if (i + 1 >= chunk.length || chunk[i + 1] !== 0x0a) return false;
@@ -133,9 +133,8 @@ async function isPlainCsv(path: string): Promise<boolean> {
  * on newlines and the delimiter directly — about ten times faster than csv-parse; any other file goes through
  * csvStream, so quoting rules are the same as in the screen.
  */
-export async function* csvBatches(path: string, delimiter: Delimiter, onBytes?: (bytesRead: number) => void, info: { plain?: boolean } = {}): AsyncGenerator<string[][]> {
-  info.plain = await isPlainCsv(path);
-  if (!info.plain) {
+export async function* csvBatches(path: string, delimiter: Delimiter, onBytes?: (bytesRead: number) => void): AsyncGenerator<string[][]> {
+  if (!(await isPlainCsv(path))) {
     const parser = csvStream(path, delimiter, onBytes);
     let batch: string[][] = [];
     try {
@@ -177,6 +176,27 @@ export async function* csvBatches(path: string, delimiter: Delimiter, onBytes?: 
       }
     }
     if (rest !== '') yield [(rest.charCodeAt(rest.length - 1) === 13 ? rest.slice(0, -1) : rest).split(delimiter)];
+  } finally {
+    input.destroy();
+  }
+}
+
+/** The text of a file without quotes in pieces of whole lines (BOM stripped; the last line may lack its newline). */
+export async function* plainTextChunks(path: string, onBytes?: (bytesRead: number) => void): AsyncGenerator<string> {
+  const input = createReadStream(path, { highWaterMark: 1024 * 1024, encoding: 'utf8' });
+  let rest = '';
+  let first = true;
+  try {
+    for await (const chunk of input as AsyncIterable<string>) {
+      let text = rest + chunk;
+      if (first) { first = false; if (text.charCodeAt(0) === 0xfeff) text = text.slice(1); }
+      const last = text.lastIndexOf('\n');
+      if (last === -1) { rest = text; continue; }
+      rest = text.slice(last + 1);
+      onBytes?.(input.bytesRead);
+      yield text.slice(0, last + 1);
+    }
+    if (rest !== '') yield rest;
   } finally {
     input.destroy();
   }

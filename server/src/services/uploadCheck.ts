@@ -3,7 +3,7 @@
 // rows are encoded for PostgreSQL's COPY, and each column is summarised. No database access here: the caller (the
 // upload worker thread) decides where rows and rejections go, so this stays a plain function the tests can call.
 import type { ColumnMappingSpec, ColumnSummary, ScreenFinding } from '@shared/cohorts';
-import { csvBatches, extraLines, isEmptyRecord, type Delimiter } from './csvFile';
+import { csvBatches, extraLines, isEmptyRecord, isPlainCsv, plainTextChunks, type Delimiter } from './csvFile';
 import { BlockWriter } from './cohortBlocks';
 import { ageOver89, isAgeHeader, looksLikeFormula, valueIdentifier } from './deidentify';
 
@@ -130,6 +130,16 @@ class Interner {
   /** The verdict of the value last interned (judged once per distinct value). */
   verdict: Verdict = CLEAN;
   constructor(private readonly judge: (v: string) => Verdict = () => CLEAN) {}
+  /** The same for the cell text[start, end), without cutting it out when it is one of the few levels. */
+  internAt(text: string, start: number, end: number): string {
+    const few = this.few;
+    const n = end - start;
+    for (let i = 0; i < few.length; i++) {
+      const f = few[i];
+      if (f.length === n && text.startsWith(f, start)) { this.verdict = this.fewVerdicts[i]; return f; }
+    }
+    return this.intern(text.slice(start, end));
+  }
   intern(v: string): string {
     const few = this.few;
     for (let i = 0; i < few.length; i++) if (few[i] === v) { this.verdict = this.fewVerdicts[i]; return few[i]; }
@@ -221,97 +231,150 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   };
   const values: (number | string)[] = new Array(preds.length);
 
-  // A file without quotes has one record per line: no field can hold a line break.
-  const source: { plain?: boolean } = {};
-  const batches = csvBatches(input.path, input.delimiter, (b) => (bytesRead = b), source);
+  const NEXT = 0, STOP = 1, FLUSH = 2;
+  /** One data record: checked, summarised and added to the block writer, or rejected; STOP when the file is refused. */
+  const checkRow = (record: string[], line: number): number => {
+    rowsRead++;
+    if (record.length !== headers.length) {
+      reject(line, '(row)', record.join(input.delimiter).slice(0, 200), `the row has ${record.length} fields; the header has ${headers.length}`, 'wrong number of fields');
+      rejectedRows++;
+      return NEXT;
+    }
+    let bad = false;
+    for (let j = 0; j < mappedIdx.length; j++) {
+      const i = mappedIdx[j];
+      const cells = cellIntern[j];
+      // Repeating columns: each distinct value is judged once; the canonical copy replaces the cell.
+      const v = cells ? (record[i] = cells.intern(record[i])) : record[i];
+      const verdict = cells ? cells.verdict : judge(v);
+      if (verdict === CLEAN) continue;
+      if (verdict.formula) { reject(line, headers[i], v, 'the cell looks like a spreadsheet formula', 'formula-looking cell'); bad = true; }
+      if (verdict.hit) { refusal = { column: headers[i], category: verdict.hit.category, reason: `${verdict.hit.reason} (line ${line})` }; return STOP; }
+    }
+    if (bad) { rejectedRows++; return NEXT; }
+
+    for (let k = 0; k < preds.length; k++) {
+      const p = preds[k];
+      const raw = record[p.idx].trim();
+      if (raw === '') { reject(line, p.fileCol, raw, `missing value for ${p.name}`, `missing ${p.name}`); bad = true; continue; }
+      if (p.numeric) {
+        let x = Number(raw);
+        if (p.age && raw === '90+') x = 90; // the Safe Harbor grouping of ages over 89 enters the formula as 90
+        else if (p.age && ageOver89(raw)) { refusal = { column: p.fileCol, category: 'ages over 89', reason: `holds an age over 89 (line ${line}); group them as "90+"` }; return STOP; }
+        if (!Number.isFinite(x)) { reject(line, p.fileCol, raw, `${p.name} must be a number`, `non-numeric ${p.name}`); bad = true; continue; }
+        if (x < p.min || x > p.max) { reject(line, p.fileCol, raw, `${p.name} must be between ${p.min} and ${p.max}`, `${p.name} out of range`); bad = true; continue; }
+        if (p.positiveOnly && x <= 0) { reject(line, p.fileCol, raw, `${p.name} enters the score as a logarithm and must be above 0`, `${p.name} not above 0`); bad = true; continue; }
+        values[k] = x;
+        numVals[slot[k]] = x;
+      } else {
+        const v = catIntern[slot[k]].intern(raw);
+        values[k] = v;
+        catVals[slot[k]] = v;
+      }
+    }
+    const yRaw = outcomeIntern.intern(record[outcomeIdx].trim());
+    let y = outcomeOf.get(yRaw);
+    if (y === undefined) {
+      const yl = yRaw.toLowerCase();
+      y = pos.has(yl) ? 1 : neg.has(yl) ? 0 : -1;
+      if (outcomeOf.size < 1000) outcomeOf.set(yRaw, y);
+    }
+    if (y < 0) {
+      reject(line, mapping.outcome.column, yRaw, yRaw === '' ? 'missing outcome' : `the outcome must be one of ${[...pos, ...neg].join(', ')}`, yRaw === '' ? 'missing outcome' : 'outcome not a known label');
+      bad = true;
+    }
+    let date: string | null = null;
+    if (dateIdx >= 0) {
+      const d = dateIntern.intern(record[dateIdx].trim());
+      if (d !== '') {
+        date = periodCache.get(d) ?? null;
+        if (date === null && !periodCache.has(d)) { date = periodStart(d); if (periodCache.size < 10_000) periodCache.set(d, date); }
+        if (!date) { reject(line, mapping.date!.column, d, 'the period must be YYYY-MM, YYYY-Qn or YYYY', 'unreadable period'); bad = true; }
+      }
+    }
+    if (bad) { rejectedRows++; return NEXT; }
+
+    for (let k = 0; k < subs.length; k++) {
+      const v = record[subs[k].idx].trim();
+      const value = v === '' ? null : subIntern[k].intern(v);
+      subAcc[k].add(value);
+      subVals[k] = value;
+    }
+    for (let k = 0; k < preds.length; k++) predAcc[k].add(values[k]);
+    outcomeAcc.add(y === 1 ? '1' : '0');
+    if (dateAcc) dateAcc.add(date);
+    if (date) { if (!minDate || date < minDate) minDate = date; if (!maxDate || date > maxDate) maxDate = date; }
+    accepted++;
+    events += y;
+    writer.add(line, y, date, numVals, catVals, subVals);
+    return writer.full ? FLUSH : NEXT;
+  };
+
   let first = true;
   let nextLine = 1;
   let lastProgress = 0;
+  const progress = () => {
+    if (rowsRead - lastProgress < 20_000) return;
+    lastProgress = rowsRead;
+    sink.progress(Math.min(0.99, bytesRead / Math.max(1, input.totalBytes)), rowsRead, rejectedRows);
+  };
+  const plain = await isPlainCsv(input.path);
+  const batches = plain ? null : csvBatches(input.path, input.delimiter, (b) => (bytesRead = b));
+  const chunks = plain ? plainTextChunks(input.path, (b) => (bytesRead = b)) : null;
   try {
-    outer: for await (const records of batches) {
-      for (const record of records) {
-        const line = nextLine;
-        nextLine += source.plain ? 1 : 1 + extraLines(record);
-        if (isEmptyRecord(record)) continue;
-        if (first) { first = false; continue; }
-        rowsRead++;
-        if (record.length !== headers.length) {
-          reject(line, '(row)', record.join(input.delimiter).slice(0, 200), `the row has ${record.length} fields; the header has ${headers.length}`, 'wrong number of fields');
-          rejectedRows++;
-          continue;
-        }
-        let bad = false;
-        for (let j = 0; j < mappedIdx.length; j++) {
-          const i = mappedIdx[j];
-          const cells = cellIntern[j];
-          // Repeating columns: each distinct value is judged once; the canonical copy replaces the cell.
-          const v = cells ? (record[i] = cells.intern(record[i])) : record[i];
-          const verdict = cells ? cells.verdict : judge(v);
-          if (verdict === CLEAN) continue;
-          if (verdict.formula) { reject(line, headers[i], v, 'the cell looks like a spreadsheet formula', 'formula-looking cell'); bad = true; }
-          if (verdict.hit) { refusal = { column: headers[i], category: verdict.hit.category, reason: `${verdict.hit.reason} (line ${line})` }; break outer; }
-        }
-        if (bad) { rejectedRows++; continue; }
-
-        for (let k = 0; k < preds.length; k++) {
-          const p = preds[k];
-          const raw = record[p.idx].trim();
-          if (raw === '') { reject(line, p.fileCol, raw, `missing value for ${p.name}`, `missing ${p.name}`); bad = true; continue; }
-          if (p.numeric) {
-            let x = Number(raw);
-            if (p.age && raw === '90+') x = 90; // the Safe Harbor grouping of ages over 89 enters the formula as 90
-            else if (p.age && ageOver89(raw)) { refusal = { column: p.fileCol, category: 'ages over 89', reason: `holds an age over 89 (line ${line}); group them as "90+"` }; break outer; }
-            if (!Number.isFinite(x)) { reject(line, p.fileCol, raw, `${p.name} must be a number`, `non-numeric ${p.name}`); bad = true; continue; }
-            if (x < p.min || x > p.max) { reject(line, p.fileCol, raw, `${p.name} must be between ${p.min} and ${p.max}`, `${p.name} out of range`); bad = true; continue; }
-            if (p.positiveOnly && x <= 0) { reject(line, p.fileCol, raw, `${p.name} enters the score as a logarithm and must be above 0`, `${p.name} not above 0`); bad = true; continue; }
-            values[k] = x;
-            numVals[slot[k]] = x;
-          } else {
-            const v = catIntern[slot[k]].intern(raw);
-            values[k] = v;
-            catVals[slot[k]] = v;
+    if (chunks) {
+      // A file without quotes: one record per line, fields found by scanning for the delimiter. One record array is
+      // reused and only mapped cells are cut out (repeating ones matched in place): almost nothing is allocated per
+      // row, which measured about twice as fast as splitting every line.
+      const ncols = headers.length;
+      const delim = input.delimiter;
+      const record: string[] = new Array(ncols).fill('');
+      const mapped = new Uint8Array(ncols);
+      const internOf: (Interner | null)[] = new Array(ncols).fill(null);
+      mappedIdx.forEach((i, j) => { mapped[i] = 1; internOf[i] = cellIntern[j]; });
+      outer: for await (const text of chunks) {
+        let pos = 0;
+        const len = text.length;
+        while (pos < len) {
+          const nl = text.indexOf('\n', pos);
+          const stop = nl === -1 ? len : nl;
+          const end = stop > pos && text.charCodeAt(stop - 1) === 13 ? stop - 1 : stop;
+          const line = nextLine++;
+          const start = pos;
+          pos = stop + 1;
+          if (end === start) continue; // an empty line
+          if (first) { first = false; continue; }
+          let col = 0;
+          let fs = start;
+          for (;;) {
+            let d = text.indexOf(delim, fs);
+            if (d === -1 || d > end) d = end;
+            if (col < ncols && mapped[col]) {
+              const it = internOf[col];
+              record[col] = it ? it.internAt(text, fs, d) : text.slice(fs, d);
+            }
+            col++;
+            if (d >= end) break;
+            fs = d + 1;
           }
+          const r = checkRow(col === ncols ? record : text.slice(start, end).split(delim), line);
+          if (r === STOP) break outer;
+          if (r === FLUSH) await sink.rows(writer.flush());
         }
-        const yRaw = outcomeIntern.intern(record[outcomeIdx].trim());
-        let y = outcomeOf.get(yRaw);
-        if (y === undefined) {
-          const yl = yRaw.toLowerCase();
-          y = pos.has(yl) ? 1 : neg.has(yl) ? 0 : -1;
-          if (outcomeOf.size < 1000) outcomeOf.set(yRaw, y);
-        }
-        if (y < 0) {
-          reject(line, mapping.outcome.column, yRaw, yRaw === '' ? 'missing outcome' : `the outcome must be one of ${[...pos, ...neg].join(', ')}`, yRaw === '' ? 'missing outcome' : 'outcome not a known label');
-          bad = true;
-        }
-        let date: string | null = null;
-        if (dateIdx >= 0) {
-          const d = dateIntern.intern(record[dateIdx].trim());
-          if (d !== '') {
-            date = periodCache.get(d) ?? null;
-            if (date === null && !periodCache.has(d)) { date = periodStart(d); if (periodCache.size < 10_000) periodCache.set(d, date); }
-            if (!date) { reject(line, mapping.date!.column, d, 'the period must be YYYY-MM, YYYY-Qn or YYYY', 'unreadable period'); bad = true; }
-          }
-        }
-        if (bad) { rejectedRows++; continue; }
-
-        for (let k = 0; k < subs.length; k++) {
-          const v = record[subs[k].idx].trim();
-          const value = v === '' ? null : subIntern[k].intern(v);
-          subAcc[k].add(value);
-          subVals[k] = value;
-        }
-        for (let k = 0; k < preds.length; k++) predAcc[k].add(values[k]);
-        outcomeAcc.add(y === 1 ? '1' : '0');
-        if (dateAcc) dateAcc.add(date);
-        if (date) { if (!minDate || date < minDate) minDate = date; if (!maxDate || date > maxDate) maxDate = date; }
-        accepted++;
-        events += y;
-        writer.add(line, y, date, numVals, catVals, subVals);
-        if (writer.full) await sink.rows(writer.flush());
+        progress();
       }
-      if (rowsRead - lastProgress >= 20_000) {
-        lastProgress = rowsRead;
-        sink.progress(Math.min(0.99, bytesRead / Math.max(1, input.totalBytes)), rowsRead, rejectedRows);
+    } else {
+      outer: for await (const records of batches!) {
+        for (const record of records) {
+          const line = nextLine;
+          nextLine += 1 + extraLines(record);
+          if (isEmptyRecord(record)) continue;
+          if (first) { first = false; continue; }
+          const r = checkRow(record, line);
+          if (r === STOP) break outer;
+          if (r === FLUSH) await sink.rows(writer.flush());
+        }
+        progress();
       }
     }
     if (!refusal) {
@@ -319,7 +382,8 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
       await sink.rows(writer.end());
     }
   } finally {
-    await batches.return(undefined);
+    await batches?.return(undefined);
+    await chunks?.return(undefined);
   }
   return {
     refusal, rowsRead, accepted, rejectedRows, events,
