@@ -217,5 +217,19 @@ export interface StoredBlock {
   sub_values: (string | null)[];
 }
 
-export const SELECT_BLOCKS_SQL = `SELECT row_count, line_no, outcome, event_date::text[] AS event_date, num_names, num_values, cat_names, cat_values, sub_names, sub_values
+// Arrays leave PostgreSQL as JSON text and are read with JSON.parse: pg's own array parser, which runs on the API
+// thread, measured about five seconds (and blocking pauses of a third of a second) for a million-row version.
+export const SELECT_BLOCKS_SQL = `SELECT row_count, array_to_json(line_no)::text AS line_no, array_to_json(outcome)::text AS outcome,
+    array_to_json(event_date)::text AS event_date, num_names, array_to_json(num_values)::text AS num_values, cat_names,
+    array_to_json(cat_values)::text AS cat_values, sub_names, array_to_json(sub_values)::text AS sub_values
   FROM cohort_row_blocks WHERE cohort_version_id = $1 ORDER BY block_no`;
+
+/** A block row of SELECT_BLOCKS_SQL with its arrays parsed. */
+export function parseStoredBlock(r: Record<string, unknown>): StoredBlock {
+  const json = <T,>(v: unknown) => JSON.parse(v as string) as T;
+  return {
+    row_count: r.row_count as number, line_no: json(r.line_no), outcome: json(r.outcome), event_date: json(r.event_date),
+    num_names: r.num_names as string[], num_values: json(r.num_values), cat_names: r.cat_names as string[], cat_values: json(r.cat_values),
+    sub_names: r.sub_names as string[], sub_values: json(r.sub_values),
+  };
+}

@@ -2,7 +2,7 @@
 // (services/cohortBlocks.ts), concatenated column by column.
 import { dataSource } from '../db/dataSource';
 import { notFound } from '../middleware/errors';
-import { SELECT_BLOCKS_SQL, type StoredBlock } from './cohortBlocks';
+import { parseStoredBlock, SELECT_BLOCKS_SQL, type StoredBlock } from './cohortBlocks';
 
 export interface CohortData {
   cohortVersionId: string;
@@ -17,7 +17,8 @@ export interface CohortData {
 export async function loadCohortData(cohortVersionId: string): Promise<CohortData> {
   const meta: { row_count: number }[] = await dataSource.query('SELECT row_count FROM cohort_versions WHERE id = $1', [cohortVersionId]);
   if (!meta.length) throw notFound('cohort version');
-  const blocks: StoredBlock[] = await dataSource.query(SELECT_BLOCKS_SQL, [cohortVersionId]);
+  const rows: Record<string, unknown>[] = await dataSource.query(SELECT_BLOCKS_SQL, [cohortVersionId]);
+  const blocks: StoredBlock[] = rows.map(parseStoredBlock);
   const n = blocks.reduce((s, b) => s + b.row_count, 0);
   const outcome = new Uint8Array(n);
   const lineNo = new Int32Array(n);
