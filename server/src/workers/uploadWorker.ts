@@ -3,7 +3,6 @@
 // into cohort_row_blocks with COPY while it reads the file, stores the rejected cells, and marks the upload checked. A crash
 // or error anywhere aborts that transaction: no row is left behind. The rows stay invisible until the steward stores
 // the upload (a cohort_versions row with the planned id is what makes them a cohort version).
-import { setPriority } from 'node:os';
 import { finished } from 'node:stream/promises';
 import type { Writable } from 'node:stream';
 import { parentPort, workerData } from 'node:worker_threads';
@@ -15,6 +14,7 @@ import { HttpError } from '../middleware/errors';
 import { readHeaderAndSample, sniffCsv, type Delimiter } from '../services/csvFile';
 import { screenColumns, type ScreenResult } from '../services/deidentify';
 import { checkUploadRows, type CheckInput, type Rejection } from '../services/uploadCheck';
+import { lowerThisThreadPriority } from './threadPriority';
 
 export interface UploadWorkerData extends CheckInput {
   uploadId: string;
@@ -122,8 +122,8 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
 // A long-lived thread (server/src/services/uploadThreads.ts keeps a few): one job at a time, answered by job id.
 const port = parentPort;
 if (port) {
-  // Linux keeps a nice value per thread: checking a file yields the CPU to the API thread when both want it.
-  try { setPriority(Number(process.env.PLUMBLINE_WORKER_NICE ?? 10)); } catch { /* not permitted here: run at normal priority */ }
+  // Checking a file yields the CPU to the API thread when both want it (per-thread nice value, see threadPriority.ts).
+  lowerThisThreadPriority();
   port.on('message', (job: { jobId: number; data: UploadWorkerData | ScreenJob }) => {
     const post = (m: UploadWorkerMessage | ScreenAnswer) => port.postMessage({ jobId: job.jobId, message: m });
     if ('kind' in job.data) {
