@@ -11,7 +11,7 @@ import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
 import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
 import { uploadDir } from '../../server/src/routes/cohorts';
 import { loadCohortData } from '../../server/src/services/cohortData';
-import { whenProcessed } from '../../server/src/services/uploads';
+import { discardStaleUploads, whenProcessed } from '../../server/src/services/uploads';
 import { app, bearer, countRows, dataSource, tokenFor, useDatabase } from '../helpers/api';
 
 useDatabase();
@@ -468,6 +468,22 @@ describe('storage is all or nothing', () => {
     expect(stored.status, JSON.stringify(stored.body)).toBe(201);
     expect(await snapshot()).toEqual({ ...before, cohorts: before.cohorts + 1, versions: before.versions + 1, rows: before.rows + u.rowsAccepted });
     expect((await request(app).post(`/api/uploads/${u.id}/commit`).set(bearer(token)).send({ excludeRejected: true })).status).toBe(409);
+  });
+
+  it('an upload left unfinished past the keep period is discarded with its staged rows, on the record', async () => {
+    const res = await upload(writeCsv('stale.csv', goodCsv(40)));
+    const u = await mapAndWait(res.body.upload.id);
+    expect(await stagedRows(u.id)).toBe(u.rowsAccepted);
+    const fresh = await upload(writeCsv('fresh.csv', goodCsv(10)));
+    // The table refuses nothing here: uploads are working records, only stored versions are immutable.
+    await dataSource.query(`UPDATE cohort_uploads SET updated_at = now() - interval '15 days' WHERE id = $1`, [u.id]);
+    expect(await discardStaleUploads(14)).toBeGreaterThanOrEqual(1);
+    const [after] = await dataSource.query('SELECT status, temp_path FROM cohort_uploads WHERE id = $1', [u.id]);
+    expect(after).toEqual({ status: 'discarded', temp_path: null });
+    expect(await stagedRows(u.id)).toBe(0);
+    expect((await dataSource.query(`SELECT count(*)::int AS n FROM audit_log WHERE action = 'cohort.upload.expired' AND target_id = $1`, [u.id]))[0].n).toBe(1);
+    const [kept] = await dataSource.query('SELECT status FROM cohort_uploads WHERE id = $1', [fresh.body.upload.id]);
+    expect(kept.status).toBe('pending');
   });
 
   it('discarding a checked upload removes its staged rows; stored rows stay immutable', async () => {

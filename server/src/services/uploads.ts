@@ -277,9 +277,39 @@ export async function recoverInterruptedUploads(): Promise<number> {
   if (rows.length) console.log(`[uploads] ${rows.length} upload check(s) interrupted by a restart marked failed`);
   return rows.length;
 }
+/**
+ * Uploads nobody finished (not stored, not discarded) are discarded after PLUMBLINE_UPLOAD_KEEP_DAYS without a change
+ * (default 14): their temp file and staged rows go, and the audit trail says so. Returns how many were discarded.
+ */
+export async function discardStaleUploads(keepDays = Number(process.env.PLUMBLINE_UPLOAD_KEEP_DAYS ?? 14)): Promise<number> {
+  const stale: { id: string; temp_path: string | null; planned_version_id: string | null; created_by: string | null }[] = await dataSource.query(
+    `SELECT id, temp_path, planned_version_id, created_by FROM cohort_uploads
+     WHERE status IN ('pending', 'checked', 'failed') AND updated_at < now() - make_interval(days => $1)`,
+    [keepDays],
+  );
+  for (const u of stale) {
+    if (running.has(u.id)) continue;
+    await dataSource.transaction(async (m) => {
+      const [, changed] = await m.query(
+        `UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, updated_at = now() WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`, [u.id]);
+      if (changed !== 1) return;
+      await deleteStagedRows(u.planned_version_id, m);
+      await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [u.id]);
+      await appendAudit({ action: 'cohort.upload.expired', actorId: null, targetType: 'cohort_upload', targetId: u.id, details: { keepDays, uploadedBy: u.created_by } }, m);
+    });
+    await removeQuietly(u.temp_path);
+  }
+  return stale.length;
+}
+
 registerBackground(async () => {
   await recoverInterruptedUploads();
   warmUploadThreads();
+  const sweep = () => void discardStaleUploads().catch((err: Error) => console.error('[uploads] discarding stale uploads failed:', err.message));
+  sweep();
+  const timer = setInterval(sweep, 6 * 60 * 60 * 1000);
+  timer.unref();
+  return () => clearInterval(timer);
 });
 
 // ---- Rejections ----------------------------------------------------------------------------------------------
