@@ -255,8 +255,10 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
   }
   const message = ending.type === 'error' ? ending.message : 'unknown ending';
   console.error(`[uploads] checking upload ${id} failed:`, message);
+  // The database's own message (table and constraint names) stays in the server log.
+  const shown = ending.type === 'error' && ending.database ? 'the database refused the rows (details are in the server log); try again' : message;
   await dataSource.query(`UPDATE cohort_uploads SET status = 'failed', error = $2, updated_at = now() WHERE id = $1 AND status = 'processing'`,
-    [id, `the file could not be processed: ${message}; nothing was stored`]).catch(() => undefined);
+    [id, `the file could not be processed: ${shown}; nothing was stored`]).catch(() => undefined);
 }
 
 /**

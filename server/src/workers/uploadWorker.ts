@@ -35,7 +35,7 @@ export type UploadWorkerMessage =
   | { type: 'progress'; fraction: number; rowsRead: number; rowsRejected: number }
   | { type: 'checked'; rowsRead: number; accepted: number; rejectedRows: number }
   | { type: 'refused'; refusal: ScreenFinding }
-  | { type: 'error'; message: string };
+  | { type: 'error'; message: string; /** PostgreSQL's own words: logged on the server, not shown to the steward. */ database?: boolean };
 
 /** COPY text escaping for free text (rejected values come straight from the file). */
 const copyField = (s: string) => s.replace(/\0/g, '').replace(/[\\\t\n\r]/g, (c) => (c === '\\' ? '\\\\' : c === '\t' ? '\\t' : c === '\n' ? '\\n' : '\\r'));
@@ -119,6 +119,12 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
   }
 }
 
+/** An error from pg carries a SQLSTATE and a severity; anything else is about the file (csv-parse, reading). */
+function failure(err: Error): Extract<UploadWorkerMessage, { type: 'error' }> {
+  const database = typeof (err as { severity?: unknown }).severity === 'string' || /^[0-9A-Z]{5}$/.test(String((err as { code?: unknown }).code ?? ''));
+  return { type: 'error', message: (err?.message ?? String(err)).split('\n')[0], database };
+}
+
 // A long-lived thread (server/src/services/uploadThreads.ts keeps a few): one job at a time, answered by job id.
 const port = parentPort;
 if (port) {
@@ -129,9 +135,9 @@ if (port) {
     if ('kind' in job.data) {
       screen(job.data.path).then(post, (err: Error) => post(err instanceof HttpError
         ? { type: 'refused-file', status: err.status, message: err.message, details: err.details }
-        : { type: 'error', message: (err?.message ?? String(err)).split('\n')[0] }));
+        : failure(err)));
       return;
     }
-    main(job.data, post).catch((err: Error) => post({ type: 'error', message: (err?.message ?? String(err)).split('\n')[0] }));
+    main(job.data, post).catch((err: Error) => post(failure(err)));
   });
 }
