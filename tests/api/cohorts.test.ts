@@ -12,6 +12,7 @@ import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
 import { uploadDir } from '../../server/src/routes/cohorts';
 import { loadCohortData } from '../../server/src/services/cohortData';
 import { discardStaleUploads, whenProcessed } from '../../server/src/services/uploads';
+import { FIXTURE_MODEL } from '../helpers/fixtures';
 import { app, bearer, countRows, dataSource, tokenFor, useDatabase } from '../helpers/api';
 
 useDatabase();
@@ -23,16 +24,7 @@ const run = `${Date.now()}`;
 
 beforeAll(async () => {
   // Our own test score (the Kestrel formula of the invented demo), created directly so this file needs no other team.
-  const model = {
-    intercept: -3.6,
-    predictors: [
-      { column: 'age', coefficient: 0.012, transform: 'linear' },
-      { column: 'length_of_stay', coefficient: 0.35, transform: 'log' },
-      { column: 'prior_admissions', coefficient: 0.28, transform: 'linear' },
-      { column: 'emergency_admission', coefficient: 0.45, transform: 'indicator', level: 'yes' },
-      { column: 'charlson_index', coefficient: 0.11, transform: 'linear' },
-    ],
-  };
+  const model = FIXTURE_MODEL;
   const [s] = await dataSource.query(
     `INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
      VALUES ($1, 'readmission', '30 days', 'adults', 'invented for tests', 'not medical advice') RETURNING id`,

@@ -16,6 +16,7 @@ import { DEMO_PASSWORD } from '../../server/src/config';
 import { closeDatabase, dataSource, initDatabase } from '../../server/src/db/dataSource';
 import { seedAccounts } from '../../server/src/db/seeds/accounts';
 import { seededRandom } from '../../server/src/db/seeds/kestrelData';
+import { KESTREL_V1_MODEL } from '../../server/src/db/seeds/scenario';
 
 const ROWS = Number(process.env.BENCH_ROWS ?? 1_000_000);
 const HEADER = ['age', 'length_of_stay', 'prior_admissions', 'emergency_admission', 'charlson_index', 'readmitted_30d', 'discharge_date', 'sex', 'age_band', 'unit', 'site', 'ward_moves'];
@@ -84,16 +85,7 @@ async function main() {
 
     await initDatabase(true);
     await seedAccounts();
-    const model = {
-      intercept: -3.6,
-      predictors: [
-        { column: 'age', coefficient: 0.012, transform: 'linear' },
-        { column: 'length_of_stay', coefficient: 0.35, transform: 'log' },
-        { column: 'prior_admissions', coefficient: 0.28, transform: 'linear' },
-        { column: 'emergency_admission', coefficient: 0.45, transform: 'indicator', level: 'yes' },
-        { column: 'charlson_index', coefficient: 0.11, transform: 'linear' },
-      ],
-    };
+    const model = KESTREL_V1_MODEL;
     const name = 'Ingest benchmark score (invented)';
     let [score] = await dataSource.query('SELECT id FROM scores WHERE name = $1', [name]);
     if (!score) [score] = await dataSource.query(`INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text) VALUES ($1, 'invented', '30 days', 'invented', 'invented for the benchmark', 'not medical advice') RETURNING id`, [name]);

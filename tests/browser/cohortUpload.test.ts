@@ -5,9 +5,10 @@ import { mkdirSync, readFileSync } from 'node:fs';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { closeDatabase, dataSource, initDatabase } from '../../server/src/db/dataSource';
+import { closeDatabase, initDatabase } from '../../server/src/db/dataSource';
 import { appUrl, startAppServer, stopAppServer } from '../helpers/appServer';
 import { launchBrowser, signIn, type BrowserSession } from '../helpers/browser';
+import { createScoreFixture } from '../helpers/fixtures';
 
 const artifacts = fileURLToPath(new URL('../artifacts', import.meta.url));
 const fixture = fileURLToPath(new URL('../fixtures/kestrel-2026q1.csv', import.meta.url));
@@ -17,22 +18,7 @@ let browser: BrowserSession;
 beforeAll(async () => {
   mkdirSync(artifacts, { recursive: true });
   await initDatabase(true);
-  const model = {
-    intercept: -3.6,
-    predictors: [
-      { column: 'age', coefficient: 0.012, transform: 'linear' },
-      { column: 'length_of_stay', coefficient: 0.35, transform: 'log' },
-      { column: 'prior_admissions', coefficient: 0.28, transform: 'linear' },
-      { column: 'emergency_admission', coefficient: 0.45, transform: 'indicator', level: 'yes' },
-      { column: 'charlson_index', coefficient: 0.11, transform: 'linear' },
-    ],
-  };
-  const [s] = await dataSource.query(
-    `INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
-     VALUES ($1, 'readmission', '30 days', 'adults', 'invented for tests', 'not medical advice') RETURNING id`,
-    [scoreName],
-  );
-  await dataSource.query(`INSERT INTO score_versions (score_id, version, mode, model) VALUES ($1, 1, 'formula', $2)`, [s.id, JSON.stringify(model)]);
+  await createScoreFixture({ name: scoreName });
   await startAppServer();
   browser = await launchBrowser();
 });
