@@ -129,55 +129,20 @@ export async function isPlainCsv(path: string): Promise<boolean> {
 }
 
 /**
- * The records of the file in batches, for the full pass. Files without quotes (the usual registry extract) are split
- * on newlines and the delimiter directly — about ten times faster than csv-parse; any other file goes through
- * csvStream, so quoting rules are the same as in the screen.
+ * The records of a file through csv-parse in batches, for the full pass over files with quotes (files without them
+ * are read by plainTextChunks): quoting rules are the same as in the screen.
  */
 export async function* csvBatches(path: string, delimiter: Delimiter, onBytes?: (bytesRead: number) => void): AsyncGenerator<string[][]> {
-  if (!(await isPlainCsv(path))) {
-    const parser = csvStream(path, delimiter, onBytes);
-    let batch: string[][] = [];
-    try {
-      for await (const record of parser as AsyncIterable<string[]>) {
-        batch.push(record);
-        if (batch.length >= 2048) { yield batch; batch = []; }
-      }
-      if (batch.length) yield batch;
-    } finally {
-      parser.destroy();
-    }
-    return;
-  }
-  const input = createReadStream(path, { highWaterMark: 1024 * 1024, encoding: 'utf8' });
-  let rest = '';
-  let first = true;
-  // Small batches: a whole megabyte of split records at once outlives V8's young generation and turns every batch
-  // into old-space garbage (measured: garbage collection took most of the pass).
-  const BATCH = 1024;
+  const parser = csvStream(path, delimiter, onBytes);
+  let batch: string[][] = [];
   try {
-    for await (const chunk of input as AsyncIterable<string>) {
-      let text = rest + chunk;
-      if (first) { first = false; if (text.charCodeAt(0) === 0xfeff) text = text.slice(1); }
-      const last = text.lastIndexOf('\n');
-      if (last === -1) { rest = text; continue; }
-      rest = text.slice(last + 1);
-      onBytes?.(input.bytesRead);
-      // Every line up to and including the newline at `last`; empty lines are kept as [''] (line numbers count them).
-      let start = 0;
-      while (start <= last) {
-        const batch: string[][] = [];
-        while (start <= last && batch.length < BATCH) {
-          const nl = text.indexOf('\n', start);
-          const stop = nl > start && text.charCodeAt(nl - 1) === 13 ? nl - 1 : nl;
-          batch.push(text.slice(start, stop).split(delimiter));
-          start = nl + 1;
-        }
-        yield batch;
-      }
+    for await (const record of parser as AsyncIterable<string[]>) {
+      batch.push(record);
+      if (batch.length >= 2048) { yield batch; batch = []; }
     }
-    if (rest !== '') yield [(rest.charCodeAt(rest.length - 1) === 13 ? rest.slice(0, -1) : rest).split(delimiter)];
+    if (batch.length) yield batch;
   } finally {
-    input.destroy();
+    parser.destroy();
   }
 }
 
