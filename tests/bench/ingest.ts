@@ -19,15 +19,16 @@ import { seededRandom } from '../../server/src/db/seeds/kestrelData';
 import { KESTREL_V1_MODEL } from '../../server/src/db/seeds/scenario';
 
 const ROWS = Number(process.env.BENCH_ROWS ?? 1_000_000);
+const WARM_UP_ROWS = 20_000;
 const HEADER = ['age', 'length_of_stay', 'prior_admissions', 'emergency_admission', 'charlson_index', 'readmitted_30d', 'discharge_date', 'sex', 'age_band', 'unit', 'site', 'ward_moves'];
 
-async function generate(file: string): Promise<void> {
+async function generate(file: string, rows: number): Promise<void> {
   const rand = seededRandom(424242);
   const out = createWriteStream(file);
   const units = ['Birch', 'Cedar', 'Alder', 'Rowan'];
   const bands = ['18-44', '45-64', '65-79', '80+'];
   let buf = `${HEADER.join(',')}\n`;
-  for (let i = 0; i < ROWS; i++) {
+  for (let i = 0; i < rows; i++) {
     const age = 18 + Math.floor(rand() * 72);
     buf += `${age},${1 + Math.floor(rand() * 25)},${Math.floor(rand() * 6)},${rand() < 0.6 ? 'yes' : 'no'},${Math.floor(rand() * 9)},${rand() < 0.14 ? 'yes' : 'no'},2025-${String(1 + Math.floor(rand() * 12)).padStart(2, '0')},${rand() < 0.5 ? 'F' : 'M'},${bands[Math.min(3, Math.floor((age - 18) / 20))]},${units[Math.floor(rand() * 4)]},${rand() < 0.7 ? 'Main campus' : 'North annex'},${Math.floor(rand() * 4)}\n`;
     if (buf.length > 1 << 20) {
@@ -79,7 +80,9 @@ async function main() {
   const file = path.join(dir, 'ingest.csv');
   try {
     let t = performance.now();
-    await generate(file);
+    await generate(file, ROWS);
+    const warmFile = path.join(dir, 'warm-up.csv');
+    await generate(warmFile, WARM_UP_ROWS);
     const bytes = statSync(file).size;
     console.log(`generated ${ROWS.toLocaleString('en')} rows × ${HEADER.length} columns, ${(bytes / 1048576).toFixed(1)} MB, in ${((performance.now() - t) / 1000).toFixed(1)} s`);
 
@@ -100,33 +103,45 @@ async function main() {
     const login = await call(base, 'POST', '/api/auth/login', null, { email: 'steward@demo.test', password: DEMO_PASSWORD });
     const token = login.body.token as string;
 
-    let peakRss = process.memoryUsage().rss;
-    const baseRss = peakRss;
-    const sampler = setInterval(() => (peakRss = Math.max(peakRss, process.memoryUsage().rss)), 50);
-
-    t = performance.now();
-    const up = await uploadMultipart(base, token, file, { scoreVersionId: sv.id, cohortName: `Benchmark cohort ${new Date().toISOString()}`, label: 'benchmark' });
-    if (up.status !== 201) throw new Error(`upload failed: ${up.status} ${JSON.stringify(up.body)}`);
-    const tUpload = performance.now() - t;
-    const id = up.body.upload.id;
     const mapping = {
       predictors: { age: 'age', length_of_stay: 'length_of_stay', prior_admissions: 'prior_admissions', emergency_admission: 'emergency_admission', charlson_index: 'charlson_index' },
       outcome: { column: 'readmitted_30d', positive: ['yes'], negative: ['no'] },
       date: { column: 'discharge_date' },
       subgroups: { sex: 'sex', age_band: 'age_band', unit: 'unit', site: 'site' },
     };
-    const m = await call(base, 'POST', `/api/uploads/${id}/mapping`, token, { mapping });
-    if (m.status !== 202) throw new Error(`mapping failed: ${m.status} ${JSON.stringify(m.body)}`);
-    let status = 'processing';
-    while (status === 'processing') {
-      await new Promise((r) => setTimeout(r, 25));
-      status = (await call(base, 'GET', `/api/uploads/${id}`, token)).body.upload.status;
-    }
-    if (status !== 'checked') throw new Error(`processing ended ${status}`);
-    const tChecked = performance.now() - t;
-    const c = await call(base, 'POST', `/api/uploads/${id}/commit`, token, { excludeRejected: true });
-    if (c.status !== 201) throw new Error(`commit failed: ${c.status} ${JSON.stringify(c.body)}`);
-    const apiSeconds = (performance.now() - t) / 1000;
+    /** One file through the API until stored; the times at which it was received and checked. */
+    const ingest = async (csv: string, cohortName: string) => {
+      const t0 = performance.now();
+      const up = await uploadMultipart(base, token, csv, { scoreVersionId: sv.id, cohortName, label: 'benchmark' });
+      if (up.status !== 201) throw new Error(`upload failed: ${up.status} ${JSON.stringify(up.body)}`);
+      const received = performance.now() - t0;
+      const id = up.body.upload.id;
+      const m = await call(base, 'POST', `/api/uploads/${id}/mapping`, token, { mapping });
+      if (m.status !== 202) throw new Error(`mapping failed: ${m.status} ${JSON.stringify(m.body)}`);
+      let status = 'processing';
+      while (status === 'processing') {
+        await new Promise((r) => setTimeout(r, 25));
+        status = (await call(base, 'GET', `/api/uploads/${id}`, token)).body.upload.status;
+      }
+      if (status !== 'checked') throw new Error(`processing ended ${status}`);
+      const checked = performance.now() - t0;
+      const c = await call(base, 'POST', `/api/uploads/${id}/commit`, token, { excludeRejected: true });
+      if (c.status !== 201) throw new Error(`commit failed: ${c.status} ${JSON.stringify(c.body)}`);
+      return { received, checked, stored: performance.now() - t0, rowCount: c.body.rowCount as number };
+    };
+    // A server that has been running answers with its code compiled: one small upload first, not timed (common
+    // practice for benchmarks of a JIT-compiled runtime, no source).
+    const stamp = new Date().toISOString();
+    await ingest(warmFile, `Benchmark warm-up ${stamp}`);
+
+    let peakRss = process.memoryUsage().rss;
+    const baseRss = peakRss;
+    const sampler = setInterval(() => (peakRss = Math.max(peakRss, process.memoryUsage().rss)), 50);
+    const run = await ingest(file, `Benchmark cohort ${stamp}`);
+    const tUpload = run.received;
+    const tChecked = run.checked;
+    const c = { body: { rowCount: run.rowCount } };
+    const apiSeconds = run.stored / 1000;
     clearInterval(sampler);
     server.close();
     await stopBackgroundServices();

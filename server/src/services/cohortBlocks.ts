@@ -56,7 +56,8 @@ class Bytes {
   /** Reserves a length word; returns its position for `endField`. */
   startField(): number { this.i32(0); return this.at; }
   endField(start: number) { this.view.setInt32(start - 4, this.at - start); }
-  take(): Buffer { const out = Buffer.from(this.buf.subarray(0, this.at)); this.at = 0; return out; }
+  // Buffer.from(a Buffer's view) copies element by element; allocUnsafe + copy is one memcpy.
+  take(): Buffer { const out = Buffer.allocUnsafe(this.at); this.buf.copy(out, 0, 0, this.at); this.at = 0; return out; }
 }
 
 /** Collects rows and encodes each full block as one binary COPY row. */
@@ -115,10 +116,14 @@ export class BlockWriter {
     for (let k = 0; k < this.sub.length; k++) this.sub[k][i] = sub[k];
   }
 
-  private utf8(v: string): Buffer {
+  /** A text array element: its length word and UTF-8 bytes. */
+  private element(v: string): Buffer {
     let e = this.encoded.get(v);
     if (e === undefined) {
-      e = Buffer.from(v.replace(/\0/g, ''), 'utf8');
+      const text = Buffer.from(v.replace(/\0/g, ''), 'utf8');
+      e = Buffer.allocUnsafe(4 + text.length);
+      e.writeInt32BE(text.length, 0);
+      text.copy(e, 4);
       if (this.encoded.size < 20_000) this.encoded.set(v, e);
     }
     return e;
@@ -138,9 +143,13 @@ export class BlockWriter {
       for (let i = 0; i < n; i++) {
         const v = col[i];
         if (v === null) { o.i32(-1); continue; }
-        const b = this.utf8(v);
-        o.i32(b.length);
-        o.bytes(b);
+        // Elements are a few bytes: a plain loop copies them faster than a native copy per element.
+        const e = this.element(v);
+        o.ensure(e.length);
+        const buf = o.buf;
+        let at = o.at;
+        for (let j = 0; j < e.length; j++) buf[at++] = e[j];
+        o.at = at;
       }
     }
     o.endField(f);

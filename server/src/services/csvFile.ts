@@ -146,22 +146,39 @@ export async function* csvBatches(path: string, delimiter: Delimiter, onBytes?: 
   }
 }
 
-/** The text of a file without quotes in pieces of whole lines (BOM stripped; the last line may lack its newline). */
-export async function* plainTextChunks(path: string, onBytes?: (bytesRead: number) => void): AsyncGenerator<string> {
-  const input = createReadStream(path, { highWaterMark: 1024 * 1024, encoding: 'utf8' });
-  let rest = '';
+/**
+ * The bytes of a file without quotes in pieces of whole lines (BOM stripped; the last line may lack its newline). The
+ * read buffers are passed on as views; only a line cut by a read boundary is copied.
+ */
+export async function* plainByteChunks(path: string, onBytes?: (bytesRead: number) => void): AsyncGenerator<Buffer> {
+  const input = createReadStream(path, { highWaterMark: 1024 * 1024 });
+  let rest: Buffer | null = null;
   let first = true;
+  const bom = (b: Buffer) => (b.length >= 3 && b[0] === 0xef && b[1] === 0xbb && b[2] === 0xbf ? b.subarray(3) : b);
   try {
-    for await (const chunk of input as AsyncIterable<string>) {
-      let text = rest + chunk;
-      if (first) { first = false; if (text.charCodeAt(0) === 0xfeff) text = text.slice(1); }
-      const last = text.lastIndexOf('\n');
-      if (last === -1) { rest = text; continue; }
-      rest = text.slice(last + 1);
+    for await (const chunk of input as AsyncIterable<Buffer>) {
+      let bytes: Buffer = chunk;
+      let from = 0;
+      if (rest) {
+        const nl = bytes.indexOf(0x0a);
+        if (nl === -1) { rest = Buffer.concat([rest, bytes]); continue; }
+        let joined: Buffer = Buffer.concat([rest, bytes.subarray(0, nl + 1)]);
+        if (first) { first = false; joined = bom(joined); }
+        rest = null;
+        yield joined;
+        from = nl + 1;
+      } else if (first) {
+        if (bytes.length < 3) { rest = bytes; continue; }
+        first = false;
+        bytes = bom(bytes);
+      }
+      const last = bytes.lastIndexOf(0x0a);
       onBytes?.(input.bytesRead);
-      yield text.slice(0, last + 1);
+      if (last < from) { rest = from < bytes.length ? bytes.subarray(from) : null; continue; }
+      yield bytes.subarray(from, last + 1);
+      rest = last + 1 < bytes.length ? bytes.subarray(last + 1) : null;
     }
-    if (rest !== '') yield rest;
+    if (rest) yield first ? bom(rest) : rest;
   } finally {
     input.destroy();
   }

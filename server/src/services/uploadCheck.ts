@@ -3,7 +3,8 @@
 // rows are encoded for PostgreSQL's COPY, and each column is summarised. No database access here: the caller (the
 // upload worker thread) decides where rows and rejections go, so this stays a plain function the tests can call.
 import type { ColumnMappingSpec, ColumnSummary, ScreenFinding } from '@shared/cohorts';
-import { csvBatches, extraLines, isEmptyRecord, isPlainCsv, plainTextChunks, type Delimiter } from './csvFile';
+import { csvBatches, extraLines, isEmptyRecord, isPlainCsv, plainByteChunks, type Delimiter } from './csvFile';
+import { KnownCells, plainNumber } from './plainCells';
 import { BlockWriter } from './cohortBlocks';
 import { ageOver89, isAgeHeader, looksLikeFormula, valueIdentifier } from './deidentify';
 
@@ -58,30 +59,49 @@ class Accumulator {
   max = -Infinity;
   sum = 0;
   reservoir: number[] = [];
-  levels = new Map<string, number>();
+  // The first few levels are counted in arrays (cells arrive as canonical copies, so === is mostly a pointer test).
+  private readonly fewLevels: string[] = [];
+  private readonly fewCounts: number[] = [];
+  private readonly moreLevels = new Map<string, number>();
   private seed = 0x9e3779b9;
+  // Algorithm L (Li 1994, "Reservoir-sampling algorithms of time complexity O(n(1 + log(N/n)))"): once the reservoir
+  // is full, the number of values to skip is drawn, instead of one draw per value.
+  private w = 1;
+  private nextPick = 0;
   constructor(public readonly asNumber: boolean) {}
+  /** xorshift32 in (0, 1): a seeded reservoir keeps the histogram reproducible for the same file. */
   private rand() {
-    // xorshift32: a seeded reservoir keeps the histogram reproducible for the same file.
     this.seed ^= this.seed << 13; this.seed ^= this.seed >>> 17; this.seed ^= this.seed << 5;
-    return (this.seed >>> 0) / 4294967296;
+    return ((this.seed >>> 0) + 1) / 4294967297;
+  }
+  private skip() {
+    this.w *= Math.exp(Math.log(this.rand()) / RESERVOIR);
+    this.nextPick += Math.floor(Math.log(this.rand()) / Math.log(1 - this.w)) + 1;
   }
   add(v: string | number | null) {
     if (v === null || v === '') { this.missing++; return; }
     this.n++;
     if (this.asNumber && typeof v === 'number') {
-      this.numeric++;
+      const i = this.numeric++;
       if (v < this.min) this.min = v;
       if (v > this.max) this.max = v;
       this.sum += v;
-      if (this.reservoir.length < RESERVOIR) this.reservoir.push(v);
-      else { const j = Math.floor(this.rand() * this.numeric); if (j < RESERVOIR) this.reservoir[j] = v; }
-    } else {
-      const s = String(v);
-      const c = this.levels.get(s);
-      if (c !== undefined) this.levels.set(s, c + 1);
-      else if (this.levels.size < 1000) this.levels.set(s, 1);
+      if (i < RESERVOIR) {
+        this.reservoir.push(v);
+        if (i === RESERVOIR - 1) { this.nextPick = i; this.skip(); }
+      } else if (i === this.nextPick) {
+        this.reservoir[Math.floor(this.rand() * RESERVOIR)] = v;
+        this.skip();
+      }
+      return;
     }
+    const s = String(v);
+    const few = this.fewLevels;
+    for (let k = 0; k < few.length; k++) if (few[k] === s) { this.fewCounts[k]++; return; }
+    if (few.length < 16) { few.push(s); this.fewCounts.push(1); return; }
+    const c = this.moreLevels.get(s);
+    if (c !== undefined) this.moreLevels.set(s, c + 1);
+    else if (few.length + this.moreLevels.size < 1000) this.moreLevels.set(s, 1);
   }
   summary(): ColumnSummary {
     if (this.asNumber) {
@@ -97,7 +117,8 @@ class Accumulator {
       return { kind: 'numeric', n: this.n, missing: this.missing, min: this.numeric ? this.min : null, max: this.numeric ? this.max : null,
         mean: this.numeric ? this.sum / this.numeric : null, histogram, histogramSampled: this.numeric > RESERVOIR };
     }
-    const sorted = [...this.levels.entries()].sort((a, b) => b[1] - a[1]);
+    const counted: [string, number][] = this.fewLevels.map((l, k) => [l, this.fewCounts[k]]);
+    const sorted = [...counted, ...this.moreLevels.entries()].sort((a, b) => b[1] - a[1]);
     return { kind: 'categorical', n: this.n, missing: this.missing, levels: sorted.slice(0, 50).map(([value, count]) => ({ value, count })), otherLevels: Math.max(0, sorted.length - 50) };
   }
 }
@@ -130,16 +151,6 @@ class Interner {
   /** The verdict of the value last interned (judged once per distinct value). */
   verdict: Verdict = CLEAN;
   constructor(private readonly judge: (v: string) => Verdict = () => CLEAN) {}
-  /** The same for the cell text[start, end), without cutting it out when it is one of the few levels. */
-  internAt(text: string, start: number, end: number): string {
-    const few = this.few;
-    const n = end - start;
-    for (let i = 0; i < few.length; i++) {
-      const f = few[i];
-      if (f.length === n && text.startsWith(f, start)) { this.verdict = this.fewVerdicts[i]; return f; }
-    }
-    return this.intern(text.slice(start, end));
-  }
   intern(v: string): string {
     const few = this.few;
     for (let i = 0; i < few.length; i++) if (few[i] === v) { this.verdict = this.fewVerdicts[i]; return few[i]; }
@@ -296,18 +307,82 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
 
     for (let k = 0; k < subs.length; k++) {
       const v = record[subs[k].idx].trim();
-      const value = v === '' ? null : subIntern[k].intern(v);
-      subAcc[k].add(value);
-      subVals[k] = value;
+      subVals[k] = v === '' ? null : subIntern[k].intern(v);
     }
+    return accept(line, y, date);
+  };
+  /** An accepted row, its values in `values`, `numVals`, `catVals` and `subVals`: summarised and added to the blocks. */
+  let lastY = 0;
+  let lastDate: string | null = null;
+  const accept = (line: number, y: number, date: string | null): number => {
+    for (let k = 0; k < subs.length; k++) subAcc[k].add(subVals[k]);
     for (let k = 0; k < preds.length; k++) predAcc[k].add(values[k]);
     outcomeAcc.add(y === 1 ? '1' : '0');
     if (dateAcc) dateAcc.add(date);
     if (date) { if (!minDate || date < minDate) minDate = date; if (!maxDate || date > maxDate) maxDate = date; }
     accepted++;
     events += y;
+    lastY = y;
+    lastDate = date;
     writer.add(line, y, date, numVals, catVals, subVals);
     return writer.full ? FLUSH : NEXT;
+  };
+
+  /**
+   * The byte path for files without quotes, or null when the mapping uses a column in two ways that it does not
+   * handle (a numeric predictor also mapped as something else). `row` answers -1 when the string path must decide.
+   */
+  type Meaning = { y: number; date: string | null; cat: string[]; sub: (string | null)[] };
+  const plainPlan = () => {
+    const numeric = preds.map((p, k) => ({ p, k })).filter(({ p }) => p.numeric);
+    const labelled = mappedIdx.filter((i) => !numericIdx.has(i));
+    if (numeric.some(({ p }) => labelled.includes(p.idx) || numeric.filter((n) => n.p.idx === p.idx).length > 1)) return null;
+    const known = labelled.map(() => new KnownCells<Meaning>());
+    const found: (Meaning | undefined)[] = new Array(labelled.length);
+    // Where each use of a labelled column takes its value from (its position in `labelled`).
+    const catFrom = catPreds.map((p) => labelled.indexOf(p.idx));
+    const subFrom = subs.map((s) => labelled.indexOf(s.idx));
+    const yFrom = labelled.indexOf(outcomeIdx);
+    const dateFrom = dateIdx >= 0 ? labelled.indexOf(dateIdx) : -1;
+    const catK = catPreds.map((p) => preds.indexOf(p));
+    return {
+      row(bytes: Buffer, start: Int32Array, end: Int32Array, line: number): number {
+        for (let j = 0; j < numeric.length; j++) {
+          const { p, k } = numeric[j];
+          const s = start[p.idx], e = end[p.idx];
+          const x = plainNumber(bytes, s, e);
+          if (x !== x) return -1;
+          // Shorter cells cannot match an identifier pattern and a leading digit is never formula-like (deidentify.ts).
+          if ((e - s >= 5 || bytes[s] === 45) && judge(bytes.toString('latin1', s, e)) !== CLEAN) return -1;
+          if (x < p.min || x > p.max || (p.positiveOnly && x <= 0) || (p.age && x > 89)) return -1;
+          values[k] = x;
+          numVals[slot[k]] = x;
+        }
+        for (let j = 0; j < labelled.length; j++) {
+          const c = known[j].find(bytes, start[labelled[j]], end[labelled[j]]);
+          if (c === undefined) return -1;
+          found[j] = c.meaning;
+        }
+        rowsRead++;
+        for (let m = 0; m < catFrom.length; m++) values[catK[m]] = catVals[m] = found[catFrom[m]]!.cat[m];
+        for (let m = 0; m < subFrom.length; m++) subVals[m] = found[subFrom[m]]!.sub[m];
+        const date = dateFrom >= 0 ? found[dateFrom]!.date : null;
+        return accept(line, found[yFrom]!.y, date);
+      },
+      /** After the string path accepted a row: its labelled cells are remembered with what they meant. */
+      learn(bytes: Buffer, start: Int32Array, end: Int32Array) {
+        for (let j = 0; j < labelled.length; j++) {
+          const i = labelled[j];
+          if (known[j].find(bytes, start[i], end[i])) continue;
+          known[j].add(bytes, start[i], end[i], {
+            y: i === outcomeIdx ? lastY : -1,
+            date: i === dateIdx ? lastDate : null,
+            cat: catPreds.map((p, m) => (p.idx === i ? catVals[m] : '')),
+            sub: subs.map((s, m) => (s.idx === i ? subVals[m] : null)),
+          });
+        }
+      },
+    };
   };
 
   let first = true;
@@ -320,44 +395,46 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   };
   const plain = await isPlainCsv(input.path);
   const batches = plain ? null : csvBatches(input.path, input.delimiter, (b) => (bytesRead = b));
-  const chunks = plain ? plainTextChunks(input.path, (b) => (bytesRead = b)) : null;
+  const chunks = plain ? plainByteChunks(input.path, (b) => (bytesRead = b)) : null;
   try {
     if (chunks) {
-      // A file without quotes: one record per line, fields found by scanning for the delimiter. One record array is
-      // reused and only mapped cells are cut out (repeating ones matched in place): almost nothing is allocated per
-      // row, which measured about twice as fast as splitting every line.
+      // A file without quotes: one record per line, its cells found in the bytes. A row whose mapped cells are all
+      // plain numbers within range or cells the string path has already accepted in that column (plainCells.ts) is
+      // taken without making a string; any other row is decoded and goes through checkRow like a row of any file.
       const ncols = headers.length;
-      const delim = input.delimiter;
-      const record: string[] = new Array(ncols).fill('');
-      const mapped = new Uint8Array(ncols);
-      const internOf: (Interner | null)[] = new Array(ncols).fill(null);
-      mappedIdx.forEach((i, j) => { mapped[i] = 1; internOf[i] = cellIntern[j]; });
-      outer: for await (const text of chunks) {
+      const delimiter = input.delimiter.charCodeAt(0);
+      const cellStart = new Int32Array(ncols);
+      const cellEnd = new Int32Array(ncols);
+      const fast = plainPlan();
+      outer: for await (const bytes of chunks) {
         let pos = 0;
-        const len = text.length;
+        const len = bytes.length;
         while (pos < len) {
-          const nl = text.indexOf('\n', pos);
+          const nl = bytes.indexOf(0x0a, pos);
           const stop = nl === -1 ? len : nl;
-          const end = stop > pos && text.charCodeAt(stop - 1) === 13 ? stop - 1 : stop;
+          const end = stop > pos && bytes[stop - 1] === 0x0d ? stop - 1 : stop;
           const line = nextLine++;
           const start = pos;
           pos = stop + 1;
           if (end === start) continue; // an empty line
           if (first) { first = false; continue; }
-          let col = 0;
-          let fs = start;
-          for (;;) {
-            let d = text.indexOf(delim, fs);
-            if (d === -1 || d > end) d = end;
-            if (col < ncols && mapped[col]) {
-              const it = internOf[col];
-              record[col] = it ? it.internAt(text, fs, d) : text.slice(fs, d);
-            }
-            col++;
-            if (d >= end) break;
-            fs = d + 1;
+          let cols = 0;
+          let cell = start;
+          for (let i = start; i < end; i++) {
+            if (bytes[i] !== delimiter) continue;
+            if (cols < ncols) { cellStart[cols] = cell; cellEnd[cols] = i; }
+            cols++;
+            cell = i + 1;
           }
-          const r = checkRow(col === ncols ? record : text.slice(start, end).split(delim), line);
+          if (cols < ncols) { cellStart[cols] = cell; cellEnd[cols] = end; }
+          cols++;
+          const whole = cols === ncols && fast !== null;
+          let r = whole ? fast.row(bytes, cellStart, cellEnd, line) : -1;
+          if (r < 0) {
+            const before = accepted;
+            r = checkRow(bytes.toString('utf8', start, end).split(input.delimiter), line);
+            if (whole && accepted > before) fast.learn(bytes, cellStart, cellEnd);
+          }
           if (r === STOP) break outer;
           if (r === FLUSH) await sink.rows(writer.flush());
         }

@@ -89,3 +89,89 @@ describe('row checks: the line-scanning path and the csv-parse path agree', () =
     }
   });
 });
+
+describe('row checks: cells read from the bytes agree with the string path', () => {
+  const header = ['age', 'lab', 'flag', 'died', 'period', 'unit'];
+  const unusual = {
+    predictors: { age: 'age', lab: 'lab', flag: 'flag' },
+    outcome: { column: 'died', positive: ['yes'], negative: ['no'] },
+    date: { column: 'period' },
+    subgroups: { unit: 'unit' },
+    ranges: {},
+  };
+  const preds: CheckInput['predictors'] = [
+    { column: 'age', kind: 'numeric', positiveOnly: false },
+    { column: 'lab', kind: 'numeric', positiveOnly: false },
+    { column: 'flag', kind: 'text', positiveOnly: false },
+  ];
+  const labs = ['-1.5', '007', '12345.678', '1e3', '0x10', ' 4', '4 ', '5.', '.5', '1.000000000000001', '99999999999999999', '0', '-0', '3.25', '', 'abc', '+2'];
+  const units = ['Ålesund', 'café', ' Birch', 'Birch', '', 'Cedar', 'Birch '];
+  const flags = ['yes', 'Yes', 'no', ' no'];
+  const periods = ['2025-01', '2025-Q3', '', '2025-13', '2025'];
+  const ages = ['45', '89', '0', '121', '90+', '07', '-1'];
+  const body: string[] = [];
+  for (let i = 0; i < 12_000; i++) {
+    // Mostly ordinary rows (so the byte path learns the labels), with the unusual cells mixed in.
+    const odd = i % 7 === 0;
+    const k = Math.floor(i / 7);
+    body.push([odd ? ages[k % ages.length] : String(20 + (i % 60)), odd ? labs[k % labs.length] : String(i % 50), flags[i % flags.length], i % 5 ? 'no' : 'yes',
+      odd ? periods[k % periods.length] : '2025-02', units[i % units.length]].join(','));
+  }
+
+  async function run(text: Buffer) {
+    const file = path.join(dir, `u${Math.random().toString(36).slice(2)}.csv`);
+    writeFileSync(file, text);
+    const copied: Buffer[] = [];
+    const result = await checkUploadRows(
+      { path: file, delimiter: ',', headers: header, mapping: unusual, predictors: preds, supplied: false, plannedVersionId: '0b7c5d0e-1f2a-4b3c-8d4e-5f6a7b8c9d0e', totalBytes: text.length },
+      { rows: (b) => void copied.push(b), progress: () => {} },
+    );
+    return { result, copied: Buffer.concat(copied) };
+  }
+
+  it('on signs, leading zeros, long and malformed numbers, padded and non-ASCII labels, invalid UTF-8', async () => {
+    // A cell with a byte that is not UTF-8 (0xff) goes through both paths too.
+    const bad = Buffer.from([0x34, 0x35, 0x2c, 0x33, 0x2c, 0x79, 0x65, 0x73, 0x2c, 0x6e, 0x6f, 0x2c, 0x32, 0x30, 0x32, 0x35, 0x2c, 0x42, 0xff, 0x0a]);
+    const plain = Buffer.concat([Buffer.from(`${header.join(',')}\n${body.join('\n')}\n`), bad, Buffer.from('46,3,yes,no,2025,Cedar')]);
+    const quoted = Buffer.concat([Buffer.from(`${header.map((h) => `"${h}"`).join(',')}\n${body.join('\n')}\n`), bad, Buffer.from('46,3,yes,no,2025,Cedar')]);
+    const a = await run(plain);
+    const b = await run(quoted);
+    expect(a.result.refusal).toBeNull();
+    expect(a.result.rowsRead).toBe(12_002);
+    expect(a.result.rejectedRows).toBeGreaterThan(100);
+    expect(a.result.accepted).toBeGreaterThan(10_000);
+    expect(a.result).toEqual(b.result);
+    expect(a.copied.equals(b.copied)).toBe(true);
+  });
+
+  it('refuses an age over 89 at the same line on both paths, after many rows taken from the bytes', async () => {
+    const rowsWithOld = body.filter((r) => !r.startsWith('90+') && !r.startsWith('121'));
+    rowsWithOld.splice(9_000, 0, '95,3,yes,no,2025-02,Birch');
+    const a = await run(Buffer.from(`${header.join(',')}\n${rowsWithOld.join('\n')}\n`));
+    const b = await run(Buffer.from(`${header.map((h) => `"${h}"`).join(',')}\n${rowsWithOld.join('\n')}\n`));
+    expect(a.result.refusal?.category).toBe('ages over 89');
+    expect(a.result.refusal).toEqual(b.result.refusal);
+    expect(a.result.rowsRead).toBe(b.result.rowsRead);
+  });
+});
+
+describe('plainNumber: the same double as Number() (ECMAScript StringToNumber) or NaN', () => {
+  it('on 200,000 random decimals and on text that is not a plain decimal', async () => {
+    const { plainNumber } = await import('../../../server/src/services/plainCells');
+    let seed = 12345;
+    const rand = () => { seed = (seed * 1103515245 + 12345) & 0x7fffffff; return seed / 0x80000000; };
+    for (let i = 0; i < 200_000; i++) {
+      const intDigits = 1 + Math.floor(rand() * 8);
+      const fracDigits = Math.floor(rand() * 8);
+      let s = rand() < 0.2 ? '-' : '';
+      for (let d = 0; d < intDigits; d++) s += Math.floor(rand() * 10);
+      if (fracDigits) { s += '.'; for (let d = 0; d < fracDigits; d++) s += Math.floor(rand() * 10); }
+      const b = Buffer.from(`,${s},`);
+      expect(Object.is(plainNumber(b, 1, b.length - 1), Number(s)), s).toBe(true);
+    }
+    for (const s of ['', '-', '.', '5.', '.5', '1e3', '0x10', ' 4', '4 ', '+2', '1,5', '1.2.3', '1234567890123456', 'NaN', 'Infinity']) {
+      const b = Buffer.from(s);
+      expect(plainNumber(b, 0, b.length), s).toBeNaN();
+    }
+  });
+});
