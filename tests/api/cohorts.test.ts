@@ -181,6 +181,42 @@ describe('good upload end to end', () => {
   });
 });
 
+describe('quotes found while receiving', () => {
+  it('marks a file plain only without quotes and lone CRs, wherever in the file they are', async () => {
+    const body = goodCsv(30_000, 11); // about 1.5 MB: received in many pieces
+    const lines = body.trimEnd().split('\n');
+    const late = [...lines];
+    late[late.length - 2] = late[late.length - 2].replace(/,([^,]*)$/, ',"$1"'); // one quoted cell near the end
+    const cases: [string, string, boolean][] = [
+      ['plain.csv', body, true],
+      ['crlf.csv', `${lines.join('\r\n')}\r\n`, true],
+      ['late-quote.csv', `${late.join('\n')}\n`, false],
+      ['lone-cr.csv', `${lines.slice(0, -1).join('\n')}\r${lines[lines.length - 1]}\n`, false],
+      ['cr-at-end.csv', `${lines.join('\n')}\r`, false],
+    ];
+    for (const [name, text, plain] of cases) {
+      const res = await upload(writeCsv(name, text));
+      expect(res.status, `${name}: ${JSON.stringify(res.body)}`).toBe(201);
+      const [row] = await dataSource.query('SELECT plain_text FROM cohort_uploads WHERE id = $1', [res.body.upload.id]);
+      expect(row.plain_text, name).toBe(plain);
+    }
+  });
+
+  it('checks a file with a late quoted cell through csv-parse: the same rows as the plain file', async () => {
+    const body = goodCsv(30_000, 12);
+    const lines = body.trimEnd().split('\n');
+    const quoted = [...lines];
+    quoted[quoted.length - 2] = quoted[quoted.length - 2].replace(/,([^,]*)$/, ',"$1"');
+    const a = await upload(writeCsv('plain-twin.csv', body));
+    const b = await upload(writeCsv('quoted-twin.csv', `${quoted.join('\n')}\n`));
+    const ua = await mapAndWait(a.body.upload.id);
+    const ub = await mapAndWait(b.body.upload.id);
+    expect(ub.status).toBe('checked');
+    expect({ read: ub.rowsRead, accepted: ub.rowsAccepted, rejected: ub.rowsRejected, events: ub.events, summary: ub.columnSummary })
+      .toEqual({ read: ua.rowsRead, accepted: ua.rowsAccepted, rejected: ua.rowsRejected, events: ua.events, summary: ua.columnSummary });
+  });
+});
+
 describe('the demo fixture with bad rows', () => {
   it('lists rejected rows, refuses to store them silently, and stores with the exclusions recorded', async () => {
     const fixture = path.resolve('tests/fixtures/kestrel-2026q1.csv');

@@ -1,9 +1,4 @@
-import { Readable } from 'node:stream';
-import { pipeline } from 'node:stream/promises';
-import type { PoolClient } from 'pg';
-import { from as copyFrom } from 'pg-copy-streams';
 import type { MigrationInterface, QueryRunner } from 'typeorm';
-import { BLOCK_ROWS, COPY_BLOCKS_SQL, encodeBlocks, type BlockRow } from '../services/cohortBlocks';
 
 /**
  * Cohort rows are stored by column, in blocks of up to 10,000 patients (server/src/services/cohortBlocks.ts), instead
@@ -20,7 +15,7 @@ export class RowBlocks1764634000000 implements MigrationInterface {
       CREATE TABLE cohort_row_blocks (
         cohort_version_id uuid NOT NULL,
         block_no integer NOT NULL CHECK (block_no >= 0),
-        row_count integer NOT NULL CHECK (row_count BETWEEN 1 AND ${BLOCK_ROWS}),
+        row_count integer NOT NULL CHECK (row_count BETWEEN 1 AND 10000),
         dated_count integer NOT NULL CHECK (dated_count BETWEEN 0 AND row_count),
         line_no integer[] NOT NULL CHECK (cardinality(line_no) = row_count),
         outcome smallint[] NOT NULL CHECK (cardinality(outcome) = row_count AND outcome <@ ARRAY[0, 1]::smallint[]),
@@ -50,6 +45,8 @@ export class RowBlocks1764634000000 implements MigrationInterface {
       CREATE TRIGGER cohort_row_blocks_immutable BEFORE UPDATE OR DELETE ON cohort_row_blocks
       FOR EACH ROW EXECUTE FUNCTION plumbline_guard_cohort_block()`);
 
+    // Written out here rather than with the upload's encoder (services/cohortBlocks.ts), which has moved on to a later
+    // layout (PackedBlocks1764700000000): this migration must keep producing the layout its own table has.
     const versions: { id: string }[] = await q.query('SELECT DISTINCT cohort_version_id AS id FROM cohort_rows');
     for (const { id } of versions) {
       const rows: { line_no: number; outcome: number; event_date: string | null; predictors: Record<string, number | string>; subgroups: Record<string, string> }[] =
@@ -58,13 +55,16 @@ export class RowBlocks1764634000000 implements MigrationInterface {
       const num = Object.keys(first).filter((k) => typeof first[k] === 'number');
       const cat = Object.keys(first).filter((k) => typeof first[k] !== 'number');
       const sub = [...new Set(rows.flatMap((r) => Object.keys(r.subgroups)))];
-      const blocks: BlockRow[] = rows.map((r) => ({
-        line: r.line_no, outcome: r.outcome as 0 | 1, date: r.event_date,
-        num: num.map((k) => Number(r.predictors[k])), cat: cat.map((k) => String(r.predictors[k])), sub: sub.map((k) => r.subgroups[k] ?? null),
-      }));
-      const text = encodeBlocks(id, { num, cat, sub }, blocks);
-      const client = (q as unknown as { databaseConnection: PoolClient }).databaseConnection;
-      await pipeline(Readable.from([text]), client.query(copyFrom(COPY_BLOCKS_SQL)));
+      for (let b = 0; b * 10_000 < rows.length; b++) {
+        const part = rows.slice(b * 10_000, (b + 1) * 10_000);
+        await q.query(
+          `INSERT INTO cohort_row_blocks (cohort_version_id, block_no, row_count, dated_count, line_no, outcome, event_date, num_names, num_values, cat_names, cat_values, sub_names, sub_values)
+           VALUES ($1, $2, $3, $4, $5, $6, $7::date[], $8, $9, $10, $11, $12, $13)`,
+          [id, b, part.length, part.filter((r) => r.event_date !== null).length, part.map((r) => r.line_no), part.map((r) => r.outcome), part.map((r) => r.event_date),
+            num, num.flatMap((k) => part.map((r) => Number(r.predictors[k]))), cat, cat.flatMap((k) => part.map((r) => String(r.predictors[k]))),
+            sub, sub.flatMap((k) => part.map((r) => r.subgroups[k] ?? null))],
+        );
+      }
     }
     await q.query('DROP TABLE cohort_rows');
     await q.query('DROP FUNCTION plumbline_guard_cohort_row');

@@ -28,6 +28,8 @@ export interface CheckInput {
   /** The id the cohort version will get; every COPY row carries it. */
   plannedVersionId: string;
   totalBytes: number;
+  /** Whether the file has no quote and no lone CR, when known from receiving it; otherwise the file is read once to find out. */
+  plain?: boolean;
 }
 
 export type Rejection = [line: number, column: string, value: string, reason: string];
@@ -393,7 +395,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     lastProgress = rowsRead;
     sink.progress(Math.min(0.99, bytesRead / Math.max(1, input.totalBytes)), rowsRead, rejectedRows);
   };
-  const plain = await isPlainCsv(input.path);
+  const plain = input.plain ?? (await isPlainCsv(input.path));
   const batches = plain ? null : csvBatches(input.path, input.delimiter, (b) => (bytesRead = b));
   const chunks = plain ? plainByteChunks(input.path, (b) => (bytesRead = b)) : null;
   try {

@@ -25,6 +25,8 @@ export interface ReceivedFile {
   originalName: string;
   sha256: string;
   bytes: number;
+  /** Found while receiving: no quote and no lone CR (the row checks then read it line by line). Absent: read to find out. */
+  plain?: boolean;
 }
 
 
@@ -120,10 +122,11 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
     const suggested = suggestMapping(headers, sample, required);
     const [row] = await dataSource.query(
       `INSERT INTO cohort_uploads (status, cohort_id, cohort_name, score_version_id, label, period_start, period_end, source_filename, temp_path,
-         sha256, bytes, delimiter, headers, warnings, suggested_mapping, created_by)
-       VALUES ('pending', $1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15) RETURNING id`,
+         sha256, bytes, delimiter, headers, warnings, suggested_mapping, created_by, plain_text)
+       VALUES ('pending', $1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16) RETURNING id`,
       [fields.cohortId ?? null, fields.cohortId ? null : fields.cohortName, sv.id, fields.label ?? '', fields.periodStart ?? null, fields.periodEnd ?? null,
-        file.originalName.slice(0, 255), file.path, file.sha256, file.bytes, delimiter, JSON.stringify(headers), JSON.stringify(screen.warnings), JSON.stringify(suggested), actor.id],
+        file.originalName.slice(0, 255), file.path, file.sha256, file.bytes, delimiter, JSON.stringify(headers), JSON.stringify(screen.warnings), JSON.stringify(suggested), actor.id,
+        file.plain ?? null],
     );
     await appendAudit({
       actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.received', targetType: 'cohort_upload', targetId: row.id, sourceIp: ip,
@@ -143,6 +146,7 @@ interface UploadRow {
   mapping: ColumnMappingSpec | null; progress: number; rows_read: number; rows_accepted: number; rows_rejected: number; events: number;
   rejection_counts: { reason: string; count: number }[]; column_summary: Record<string, import('@shared/cohorts').ColumnSummary>; event_period: { min: string; max: string } | null;
   planned_version_id: string | null; cohort_version_id: string | null; error: string | null; created_by: string | null; created_at: Date;
+  plain_text: boolean | null;
 }
 
 async function uploadRow(id: string): Promise<UploadRow> {
@@ -229,7 +233,7 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
   const r = await uploadRow(id);
   const data: UploadWorkerData = {
     uploadId: id, db: { ...config.db }, path: r.temp_path!, delimiter: r.delimiter, headers: r.headers, mapping,
-    predictors: requiredPredictors(sv), supplied: sv.mode === 'supplied', plannedVersionId, totalBytes: Number(r.bytes),
+    predictors: requiredPredictors(sv), supplied: sv.mode === 'supplied', plannedVersionId, totalBytes: Number(r.bytes), plain: r.plain_text ?? undefined,
   };
   let lastWrite = 0;
   let progressWrite: Promise<unknown> = Promise.resolve();
