@@ -242,7 +242,6 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     reasonCounts.set(kind, (reasonCounts.get(kind) ?? 0) + 1);
     if (rejections.length < MAX_STORED_REJECTIONS) rejections.push([line, column, value.slice(0, 500), reason]);
   };
-  const values: (number | string)[] = new Array(preds.length);
 
   const NEXT = 0, STOP = 1, FLUSH = 2;
   /** One data record: checked, summarised and added to the block writer, or rejected; STOP when the file is refused. */
@@ -277,11 +276,9 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
         if (!Number.isFinite(x)) { reject(line, p.fileCol, raw, `${p.name} must be a number`, `non-numeric ${p.name}`); bad = true; continue; }
         if (x < p.min || x > p.max) { reject(line, p.fileCol, raw, `${p.name} must be between ${p.min} and ${p.max}`, `${p.name} out of range`); bad = true; continue; }
         if (p.positiveOnly && x <= 0) { reject(line, p.fileCol, raw, `${p.name} enters the score as a logarithm and must be above 0`, `${p.name} not above 0`); bad = true; continue; }
-        values[k] = x;
         numVals[slot[k]] = x;
       } else {
         const v = catIntern[slot[k]].intern(raw);
-        values[k] = v;
         catVals[slot[k]] = v;
       }
     }
@@ -313,12 +310,13 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     }
     return accept(line, y, date);
   };
-  /** An accepted row, its values in `values`, `numVals`, `catVals` and `subVals`: summarised and added to the blocks. */
+  /** An accepted row, its values in `numVals`, `catVals` and `subVals`: summarised and added to the blocks. */
   let lastY = 0;
   let lastDate: string | null = null;
   const accept = (line: number, y: number, date: string | null): number => {
     for (let k = 0; k < subs.length; k++) subAcc[k].add(subVals[k]);
-    for (let k = 0; k < preds.length; k++) predAcc[k].add(values[k]);
+    // Numbers are read from the typed array (a generic array would box each one).
+    for (let k = 0; k < preds.length; k++) predAcc[k].add(preds[k].numeric ? numVals[slot[k]] : catVals[slot[k]]);
     outcomeAcc.add(y === 1 ? '1' : '0');
     if (dateAcc) dateAcc.add(date);
     if (date) { if (!minDate || date < minDate) minDate = date; if (!maxDate || date > maxDate) maxDate = date; }
@@ -346,7 +344,6 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     const subFrom = subs.map((s) => labelled.indexOf(s.idx));
     const yFrom = labelled.indexOf(outcomeIdx);
     const dateFrom = dateIdx >= 0 ? labelled.indexOf(dateIdx) : -1;
-    const catK = catPreds.map((p) => preds.indexOf(p));
     return {
       row(bytes: Buffer, start: Int32Array, end: Int32Array, line: number): number {
         for (let j = 0; j < numeric.length; j++) {
@@ -357,7 +354,6 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
           // Shorter cells cannot match an identifier pattern and a leading digit is never formula-like (deidentify.ts).
           if ((e - s >= 5 || bytes[s] === 45) && judge(bytes.toString('latin1', s, e)) !== CLEAN) return -1;
           if (x < p.min || x > p.max || (p.positiveOnly && x <= 0) || (p.age && x > 89)) return -1;
-          values[k] = x;
           numVals[slot[k]] = x;
         }
         for (let j = 0; j < labelled.length; j++) {
@@ -366,7 +362,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
           found[j] = c.meaning;
         }
         rowsRead++;
-        for (let m = 0; m < catFrom.length; m++) values[catK[m]] = catVals[m] = found[catFrom[m]]!.cat[m];
+        for (let m = 0; m < catFrom.length; m++) catVals[m] = found[catFrom[m]]!.cat[m];
         for (let m = 0; m < subFrom.length; m++) subVals[m] = found[subFrom[m]]!.sub[m];
         const date = dateFrom >= 0 ? found[dateFrom]!.date : null;
         return accept(line, found[yFrom]!.y, date);
