@@ -14,7 +14,7 @@ import { HttpError } from '../middleware/errors';
 import { readHeaderAndSample, sniffCsv, type Delimiter } from '../services/csvFile';
 import { screenColumns, type ScreenResult } from '../services/deidentify';
 import { checkUploadRows, type CheckInput, type Rejection } from '../services/uploadCheck';
-import { lowerThisThreadPriority } from './threadPriority';
+import { lowerDatabaseSessionPriority, lowerThisThreadPriority } from './threadPriority';
 
 export interface UploadWorkerData extends CheckInput {
   uploadId: string;
@@ -82,6 +82,8 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
   client.on('error', () => undefined); // a lost connection surfaces as the failed query below
   await client.connect();
   try {
+    // The COPY's database process gives way too, as this thread does (where the OS lets us; see threadPriority.ts).
+    await lowerDatabaseSessionPriority(client, data.db.host);
     await client.query('BEGIN');
     const copy = client.query(copyFrom(COPY_BLOCKS_SQL));
     const copied = finished(copy);
