@@ -1,11 +1,13 @@
 import express from 'express';
 import helmet from 'helmet';
 import { existsSync } from 'node:fs';
+import type { IncomingMessage, ServerResponse } from 'node:http';
 import path from 'node:path';
 import { config } from './config';
 import { errorHandler, HttpError } from './middleware/errors';
 import { refuseBadText } from './middleware/textGuard';
-import { mountRoutes } from './routes/define';
+import { markWrites } from './middleware/writeGeneration';
+import { keptAnswers, mountRoutes, recordHeaders } from './routes/define';
 import { routes } from './routes/table';
 
 /** Builds the app without listening, so tests drive it directly and only index.ts listens. */
@@ -13,29 +15,30 @@ export function createApp(options: { serveClient?: boolean } = {}) {
   const app = express();
   app.set('trust proxy', 'loopback');
   app.disable('x-powered-by');
-  app.use(
-    helmet({
-      contentSecurityPolicy: {
-        directives: {
-          defaultSrc: ["'self'"],
-          // Scripts only from our own files: no inline scripts, no eval (the client switches off zod's eval probe,
-          // client/src/zodConfig.ts), no inline event handlers (helmet's default script-src-attr 'none').
-          // tests/browser/csp.test.ts loads the built client in Chromium and fails on any violation.
-          scriptSrc: ["'self'"],
-          // Styles: Vuetify writes its theme variables into a <style> element at run time, which needs
-          // 'unsafe-inline' (checked in Chromium: with style-src 'self' that element is the only thing refused; Vue
-          // and Chart.js set element styles through the CSSOM, which CSP does not govern). A nonce would need a
-          // per-response index.html; inline styles cannot run code, so the simpler rule is kept.
-          styleSrc: ["'self'", "'unsafe-inline'"],
-          imgSrc: ["'self'", 'data:', 'blob:'],
-          fontSrc: ["'self'"],
-          connectSrc: ["'self'"],
-          objectSrc: ["'none'"],
-          frameAncestors: ["'none'"],
-        },
+  // First, so that every state-changing request invalidates the kept read answers (services/responseCache.ts).
+  app.use(markWrites);
+  const securityHeaders = helmet({
+    contentSecurityPolicy: {
+      directives: {
+        defaultSrc: ["'self'"],
+        // Scripts only from our own files: no inline scripts, no eval (the client switches off zod's eval probe,
+        // client/src/zodConfig.ts), no inline event handlers (helmet's default script-src-attr 'none').
+        // tests/browser/csp.test.ts loads the built client in Chromium and fails on any violation.
+        scriptSrc: ["'self'"],
+        // Styles: Vuetify writes its theme variables into a <style> element at run time, which needs
+        // 'unsafe-inline' (checked in Chromium: with style-src 'self' that element is the only thing refused; Vue
+        // and Chart.js set element styles through the CSSOM, which CSP does not govern). A nonce would need a
+        // per-response index.html; inline styles cannot run code, so the simpler rule is kept.
+        styleSrc: ["'self'", "'unsafe-inline'"],
+        imgSrc: ["'self'", 'data:', 'blob:'],
+        fontSrc: ["'self'"],
+        connectSrc: ["'self'"],
+        objectSrc: ["'none'"],
+        frameAncestors: ["'none'"],
       },
-    }),
-  );
+    },
+  });
+  app.use(securityHeaders);
   app.use('/api', express.json({ limit: '1mb' }));
   app.use('/api', refuseBadText);
 
@@ -50,5 +53,16 @@ export function createApp(options: { serveClient?: boolean } = {}) {
     app.get('/{*splat}', (_req, res) => res.sendFile(path.join(clientDir, 'index.html')));
   }
   app.use(errorHandler);
+
+  // Kept answers of the busiest reads go out before Express runs, with the headers securityHeaders sets (recorded
+  // once); every other request, and every miss or refusal, takes the full chain above (routes/define.ts, keptAnswers).
+  // app.handle is what both app.listen's server and supertest call for each request.
+  const answerKept = keptAnswers(routes, recordHeaders(securityHeaders));
+  const expressHandle = (app as unknown as { handle: (req: IncomingMessage, res: ServerResponse, done?: unknown) => void }).handle.bind(app);
+  (app as unknown as { handle: typeof expressHandle }).handle = (req, res, done) => {
+    const answered = answerKept(req, res);
+    if (answered === false) return expressHandle(req, res, done);
+    answered.then((sent) => sent || expressHandle(req, res, done), () => expressHandle(req, res, done));
+  };
   return app;
 }

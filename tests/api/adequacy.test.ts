@@ -7,6 +7,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { CohortAdequacy } from '@shared/adequacy';
 import type { RunDetail } from '@shared/runs';
 import { stopBackgroundServices } from '../../server/src/services/background';
+import { keptPrecision } from '../../server/src/services/adequacyPrecision';
 import { processNextRun } from '../../server/src/services/runs';
 import { precisionFor } from '../../server/src/stats/sampleSize';
 import { app, bearer, dataSource, DEMO_PASSWORD, tokenFor, useDatabase } from '../helpers/api';
@@ -81,6 +82,7 @@ describe('adequacy on a cohort version', () => {
 
 describe('adequacy on a run', () => {
   let run: RunDetail;
+  let keptBeforeOpening = false;
 
   beforeAll(async () => {
     const res = await request(app)
@@ -90,6 +92,10 @@ describe('adequacy on a run', () => {
     expect(res.status).toBe(201);
     expect(res.body.run.adequacy ?? null, 'a queued run has no adequacy yet').toBeNull();
     while (await processNextRun());
+    // The widths were worked out in the run's own thread, before anyone opened the page (not on the API thread).
+    const [stored] = await dataSource.query(`SELECT (results->'overall'->>'n')::int AS n, (results->'overall'->>'events')::int AS events,
+      (results->'overall'->'auc'->>'estimate')::float8 AS auc FROM validation_runs WHERE id = $1`, [res.body.run.id]);
+    keptBeforeOpening = keptPrecision(stored.n, stored.events, stored.auc) !== undefined;
     const got = await request(app).get(`/api/runs/${res.body.run.id}`).set(bearer(await tokenFor('statistician')));
     expect(got.status).toBe(200);
     run = got.body.run as RunDetail;
@@ -108,6 +114,10 @@ describe('adequacy on a run', () => {
     expect(a.precision.auc).toBeCloseTo(p.auc, 12);
     expect(a.precision.slope).toBeCloseTo(p.slope!, 12);
     expect(a.verdict.level).toBe(o.events >= 200 && o.nonEvents >= 200 ? 'preferred' : o.events >= 100 && o.nonEvents >= 100 ? 'minimum' : 'short');
+  });
+
+  it('has its widths from the run thread, kept before the run page was first opened', () => {
+    expect(keptBeforeOpening).toBe(true);
   });
 
   it('the expected AUC width is of the size the run’s own DeLong CI has', () => {

@@ -5,6 +5,7 @@ import type { Role } from '@shared/roles';
 import { config } from '../config';
 import { dataSource } from '../db/dataSource';
 import type { User } from '../entities/User';
+import { currentWriteGeneration } from '../services/responseCache';
 import { HttpError } from './errors';
 
 export interface AuthUser {
@@ -37,24 +38,68 @@ const verifyKey = createSecretKey(Buffer.from(config.jwtSecret, 'utf8'));
 
 const unauthorized = () => new HttpError(401, 'sign in required: the token is missing, invalid or expired');
 
+type AccountRow = { id: string; email: string; name: string; role: Role; active: boolean; token_version: number };
+
+// Tokens whose signature was checked: the same string always verifies the same way under the one secret, so only the
+// time limit is checked again on each use (as jsonwebtoken does: valid while floor(now in s) < exp). Tokens with a
+// not-before claim, and tokens that failed, are not kept. Bounded; the oldest dropped first.
+const TOKEN_LIMIT = 5_000;
+const verifiedTokens = new Map<string, TokenClaims & { exp: number }>();
+
+function verifiedClaims(token: string): TokenClaims {
+  const kept = verifiedTokens.get(token);
+  if (kept) {
+    if (Math.floor(Date.now() / 1000) < kept.exp) return kept;
+    verifiedTokens.delete(token);
+    throw unauthorized();
+  }
+  let claims: TokenClaims & { exp?: unknown; nbf?: unknown };
+  try {
+    claims = jwt.verify(token, verifyKey, { algorithms: ['HS256'] }) as unknown as TokenClaims & { exp?: unknown; nbf?: unknown };
+  } catch {
+    throw unauthorized();
+  }
+  if (typeof claims.exp === 'number' && claims.nbf === undefined) {
+    verifiedTokens.set(token, { sub: claims.sub, role: claims.role, tv: claims.tv, exp: claims.exp });
+    if (verifiedTokens.size > TOKEN_LIMIT) verifiedTokens.delete(verifiedTokens.keys().next().value as string);
+  }
+  return claims;
+}
+
+// Account rows (active, role, token version) as read for the current write generation (services/responseCache.ts):
+// every change to an account through Plumbline — deactivation, role change, password change or reset — is a
+// state-changing request, which bumps the generation before its answer leaves, so a row kept from before it is never
+// used after it. A change made straight in the database (an operator's emergency UPDATE) bumps nothing, so a kept row
+// is also read again once it is ACCOUNT_MAX_AGE_MS old: such a change takes effect within that time. Concurrent first
+// reads of one account share one query.
+const ACCOUNT_LIMIT = 1_000;
+const ACCOUNT_MAX_AGE_MS = 5_000;
+const accounts = new Map<string, { generation: number; at: number; row: Promise<AccountRow | undefined> }>();
+
+function accountRow(id: string): Promise<AccountRow | undefined> {
+  const generation = currentWriteGeneration();
+  const kept = accounts.get(id);
+  const now = Date.now();
+  if (kept && kept.generation === generation && now - kept.at < ACCOUNT_MAX_AGE_MS) return kept.row;
+  // One plain parameterised query (the query builder cost more than the query itself).
+  const row = (dataSource.query('SELECT id, email, name, role, active, token_version FROM users WHERE id = $1', [id]) as Promise<AccountRow[]>).then((rows) => rows[0]);
+  accounts.delete(id);
+  accounts.set(id, { generation, at: now, row });
+  if (accounts.size > ACCOUNT_LIMIT) accounts.delete(accounts.keys().next().value as string);
+  row.catch(() => {
+    if (accounts.get(id)?.row === row) accounts.delete(id);
+  });
+  return row;
+}
+
 /** Verifies the bearer token (HS256 only) and that the account is still active with the same role. */
 export async function authenticateRequest(req: Request): Promise<AuthUser> {
   const header = req.headers.authorization ?? '';
   const match = /^Bearer ([A-Za-z0-9_\-.]+)$/.exec(header);
   if (!match) throw unauthorized();
-  let claims: TokenClaims;
-  try {
-    claims = jwt.verify(match[1], verifyKey, { algorithms: ['HS256'] }) as unknown as TokenClaims;
-  } catch {
-    throw unauthorized();
-  }
+  const claims = verifiedClaims(match[1]);
   if (typeof claims.sub !== 'string' || !/^[0-9a-f-]{36}$/i.test(claims.sub)) throw unauthorized();
-  // One plain parameterised query (every request pays it; the query builder cost more than the query itself).
-  const rows: { id: string; email: string; name: string; role: Role; active: boolean; token_version: number }[] = await dataSource.query(
-    'SELECT id, email, name, role, active, token_version FROM users WHERE id = $1',
-    [claims.sub],
-  );
-  const user = rows[0];
+  const user = await accountRow(claims.sub);
   if (!user || !user.active || user.token_version !== claims.tv || user.role !== claims.role) throw unauthorized();
   return { id: user.id, email: user.email, name: user.name, role: user.role };
 }

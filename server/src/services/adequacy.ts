@@ -1,34 +1,8 @@
 // The `adequacy` block of run and cohort-version responses: the shared verdict (shared/src/adequacy.ts) plus the
 // expected CI widths from precisionFor (Riley et al. 2021, server/src/stats/sampleSize.ts).
-import { adequacyVerdict, ASSUMED_AUC, PRECISION_ASSUMPTION, type AdequacyAucSource, type AdequacyPrecision, type CohortAdequacy } from '@shared/adequacy';
+import { adequacyVerdict, ASSUMED_AUC, PRECISION_ASSUMPTION, type AdequacyAucSource, type CohortAdequacy } from '@shared/adequacy';
 import { dataSource } from '../db/dataSource';
-import { precisionFor } from '../stats/sampleSize';
-
-// precisionFor solves the anticipated LP distribution by bisection (~0.2 s); a run or cohort version asks the same
-// question every time it is opened, so answers are kept per (n, events, AUC).
-const MEMO_SIZE = 500;
-const memo = new Map<string, AdequacyPrecision>();
-
-function precision(n: number, events: number, auc: number | null): AdequacyPrecision {
-  if (events === 0 || events === n) return { oe: null, auc: null, slope: null, note: 'no precision can be given without both events and non-events' };
-  const key = `${n}|${events}|${auc}`;
-  const hit = memo.get(key);
-  if (hit) return hit;
-  const eventRate = events / n;
-  let out: AdequacyPrecision;
-  if (auc === null || !(auc > 0 && auc < 1)) {
-    const p = precisionFor(n, eventRate, 0.75); // O/E's width does not depend on the AUC
-    out = { oe: fin(p.oe), auc: null, slope: null, note: 'the AUC is not available, so only the O/E width is given' };
-  } else {
-    const p = precisionFor(n, eventRate, auc);
-    out = { oe: fin(p.oe), auc: fin(p.auc), slope: fin(p.slope), note: p.slope === null ? 'the calibration slope width needs an AUC above 0.5' : null };
-  }
-  if (memo.size >= MEMO_SIZE) memo.delete(memo.keys().next().value as string);
-  memo.set(key, out);
-  return out;
-}
-
-const fin = (v: number | null) => (v !== null && Number.isFinite(v) ? v : null);
+import { precision, runPrecisionInputs } from './adequacyPrecision';
 
 export function buildAdequacy(input: { n: number; events: number; auc: number | null; source: AdequacyAucSource; runId: string | null }): CohortAdequacy {
   const { n, events } = input;
@@ -47,10 +21,8 @@ export function buildAdequacy(input: { n: number; events: number; auc: number | 
 
 /** For a completed run: its own counts and AUC. */
 export function runAdequacy(run: { id: string; results: { overall: { n: number; events: number; auc: { estimate: number } } } | null }): CohortAdequacy | null {
-  const o = run.results?.overall;
-  if (!o || !Number.isInteger(o.n) || !Number.isInteger(o.events)) return null;
-  const auc = Number.isFinite(o.auc?.estimate) ? o.auc.estimate : null;
-  return buildAdequacy({ n: o.n, events: o.events, auc, source: 'this run', runId: run.id });
+  const inputs = runPrecisionInputs(run.results);
+  return inputs && buildAdequacy({ ...inputs, source: 'this run', runId: run.id });
 }
 
 /**

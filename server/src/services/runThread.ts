@@ -6,6 +6,7 @@ import { Worker } from 'node:worker_threads';
 import type { RunResults } from '@shared/runs';
 import type { RunWorkerMessage } from '../workers/runWorker';
 import type { ProgressFn, RunComputeInput } from './runCompute';
+import { keepPrecision } from './adequacyPrecision';
 import { RunInputError } from './runCompute';
 
 export interface RunningThread {
@@ -27,6 +28,7 @@ export function computeInThread(input: RunComputeInput, onProgress: ProgressFn =
       if (msg.type === 'progress') onProgress(msg.fraction, msg.message);
       else if (msg.type === 'done') {
         settled = true;
+        if (msg.precision) keepPrecision(msg.precision.n, msg.precision.events, msg.precision.auc, msg.precision.value);
         resolve(msg.results as RunResults);
         void worker.terminate();
       } else {
