@@ -130,7 +130,7 @@ export async function isPlainCsv(path: string): Promise<boolean> {
 
 /**
  * The records of a file through csv-parse in batches, for the full pass over files with quotes (files without them
- * are read by plainTextChunks): quoting rules are the same as in the screen.
+ * are read by plainByteChunks): quoting rules are the same as in the screen.
  */
 export async function* csvBatches(path: string, delimiter: Delimiter, onBytes?: (bytesRead: number) => void): AsyncGenerator<string[][]> {
   const parser = csvStream(path, delimiter, onBytes);
