@@ -70,6 +70,9 @@ export const cohortRowsQuery = pageQuery.extend({
 
 export const mappingListQuery = z.object({ cohortId: z.string().uuid().optional() });
 
+/** GET /api/uploads/:id?waitSeconds=N: while the rows are being checked, answer when the check ends or after N s. */
+export const uploadQuery = z.object({ waitSeconds: z.coerce.number().int().min(0).max(30).default(0) });
+
 export const versionParams = z.object({ id: z.string().uuid(), version: z.coerce.number().int().min(1).max(100_000) });
 export const uuidParam = z.object({ id: z.string().uuid('id must be a uuid') });
 

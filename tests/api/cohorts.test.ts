@@ -217,6 +217,24 @@ describe('quotes found while receiving', () => {
   });
 });
 
+describe('waiting for the row checks', () => {
+  it('GET with waitSeconds answers once the check has ended; out-of-range waits are refused', async () => {
+    const res = await upload(writeCsv('wait.csv', goodCsv(30_000, 13)));
+    expect(res.status).toBe(201);
+    const id = res.body.upload.id;
+    const mapped = await request(app).post(`/api/uploads/${id}/mapping`).set(bearer(await tokenFor('steward'))).send({ mapping: KESTREL_MAPPING });
+    expect(mapped.status).toBe(202);
+    expect(mapped.body.upload.status).toBe('processing');
+    const got = await request(app).get(`/api/uploads/${id}`).query({ waitSeconds: 30 }).set(bearer(await tokenFor('steward')));
+    expect(got.status).toBe(200);
+    expect(got.body.upload.status).toBe('checked');
+    expect(got.body.upload.rowsRead).toBe(30_000);
+    const bad = await request(app).get(`/api/uploads/${id}`).query({ waitSeconds: 99 }).set(bearer(await tokenFor('steward')));
+    expect(bad.status).toBe(400);
+    expect(bad.body.error).toMatch(/waitSeconds/);
+  });
+});
+
 describe('the demo fixture with bad rows', () => {
   it('lists rejected rows, refuses to store them silently, and stores with the exclusions recorded', async () => {
     const fixture = path.resolve('tests/fixtures/kestrel-2026q1.csv');

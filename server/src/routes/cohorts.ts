@@ -109,7 +109,9 @@ export async function listUploads(req: Request, res: Response) {
   res.json({ uploads: await uploads.listMyUploads(currentUser(req)) });
 }
 export async function getUpload(req: Request, res: Response) {
-  res.json({ upload: await uploads.getUpload(await ownUpload(req)) });
+  const id = await ownUpload(req);
+  const { waitSeconds } = req.query as unknown as { waitSeconds: number };
+  res.json({ upload: await uploads.getUpload(id, waitSeconds) });
 }
 export async function postMapping(req: Request, res: Response) {
   const id = await ownUpload(req);

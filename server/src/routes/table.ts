@@ -5,7 +5,7 @@ import { auditQuery } from '@shared/audit';
 import { createRunRequest, runCompareQuery, runListQuery } from '@shared/runs';
 import { changePasswordRequest, createUserRequest, idParam, loginRequest, resetPasswordRequest, updateUserRequest } from '@shared/auth';
 import { commentRequest, reviewRequest, revokeRequest, signoffRequest, versionIdParam } from '@shared/governance';
-import { cohortListQuery, cohortRowsQuery, commitRequest, mappingListQuery, mappingRequest, pageQuery, saveMappingRequest, uuidParam, versionParams } from '@shared/cohorts';
+import { cohortListQuery, cohortRowsQuery, commitRequest, mappingListQuery, mappingRequest, pageQuery, saveMappingRequest, uploadQuery, uuidParam, versionParams } from '@shared/cohorts';
 import { createScoreRequest, createScoreVersionRequest, scoreIdParam, scoreVersionParams, updateScoreRequest } from '@shared/scores';
 import { config } from '../config';
 import * as audit from './audit';
@@ -82,7 +82,7 @@ export const routes: RouteDef[] = [
   { method: 'get', path: '/api/cohorts/:id/versions/:version/rows', access: COHORT_READERS, summary: 'rows of a cohort version (paged, sorted, searched)', params: versionParams, query: cohortRowsQuery, handler: cohorts.listRows },
   { method: 'get', path: '/api/upload-score-versions', access: COHORT_WRITERS, summary: 'score versions a cohort can be uploaded against', handler: cohorts.scoreVersionChoices },
   { method: 'get', path: '/api/uploads', access: COHORT_WRITERS, summary: 'my unfinished uploads', handler: cohorts.listUploads },
-  { method: 'get', path: '/api/uploads/:id', access: COHORT_WRITERS, summary: 'an upload: status, progress, screening warnings, check results', params: uuidParam, handler: cohorts.getUpload },
+  { method: 'get', path: '/api/uploads/:id', access: COHORT_WRITERS, summary: 'an upload: status, progress, screening warnings, check results (waitSeconds: while checking, answer when it ends)', params: uuidParam, query: uploadQuery, handler: cohorts.getUpload },
   { method: 'post', path: '/api/uploads/:id/mapping', access: COHORT_WRITERS, summary: 'map file columns and start the row checks (accepted rows are staged in PostgreSQL by binary COPY)', params: uuidParam, body: mappingRequest, handler: cohorts.postMapping },
   { method: 'get', path: '/api/uploads/:id/rejections', access: COHORT_WRITERS, summary: 'rejected rows (paged)', params: uuidParam, query: pageQuery, handler: cohorts.listRejections },
   { method: 'get', path: '/api/uploads/:id/rejections.csv', access: COHORT_WRITERS, summary: 'rejected rows as CSV (formula-looking cells neutralised)', params: uuidParam, handler: cohorts.rejectionsCsv },

@@ -158,7 +158,14 @@ async function uploadRow(id: string): Promise<UploadRow> {
   return rows[0];
 }
 
-export async function getUpload(id: string): Promise<UploadView> {
+/** An upload; with `waitSeconds`, an upload being checked is answered when its check ends (or after that long). */
+export async function getUpload(id: string, waitSeconds = 0): Promise<UploadView> {
+  const pass = running.get(id);
+  if (waitSeconds > 0 && pass) {
+    let timer: NodeJS.Timeout | undefined;
+    await Promise.race([pass.catch(() => undefined), new Promise<void>((r) => (timer = setTimeout(r, waitSeconds * 1000)))]);
+    clearTimeout(timer);
+  }
   const r = await uploadRow(id);
   const sv = await dataSource.getRepository(ScoreVersion).findOne({ where: { id: r.score_version_id } });
   return {
