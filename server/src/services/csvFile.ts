@@ -94,13 +94,31 @@ export function extraLines(record: string[]): number {
 
 export const isEmptyRecord = (r: string[]) => r.length === 1 && r[0] === '';
 
-/** The header and the first rows, for the screen and the suggested mapping. */
-export async function readHeaderAndSample(path: string, delimiter: Delimiter, maxRows = 5000): Promise<{ headers: string[]; sample: string[][] }> {
-  const parser = csvStream(path, delimiter);
+/** The records of a file without quotes and lone CRs: each line split on the delimiter (as csv-parse reads such files). */
+async function* plainRecords(path: string, delimiter: Delimiter): AsyncGenerator<string[]> {
+  for await (const bytes of plainByteChunks(path)) {
+    const text = bytes.toString('utf8');
+    let pos = 0;
+    while (pos < text.length) {
+      const nl = text.indexOf('\n', pos);
+      const stop = nl === -1 ? text.length : nl;
+      yield text.slice(pos, stop > pos && text.charCodeAt(stop - 1) === 13 ? stop - 1 : stop).split(delimiter);
+      pos = stop + 1;
+    }
+  }
+}
+
+/**
+ * The header and the first rows, for the screen and the suggested mapping. `plain` (known from receiving the file: no
+ * quote, no lone CR) lets the lines be split directly, which gives the same records as csv-parse, faster.
+ */
+export async function readHeaderAndSample(path: string, delimiter: Delimiter, maxRows = 5000, plain = false): Promise<{ headers: string[]; sample: string[][] }> {
+  const parser = plain ? null : csvStream(path, delimiter);
+  const records = plain ? plainRecords(path, delimiter) : (parser as AsyncIterable<string[]>);
   let headers: string[] | null = null;
   const sample: string[][] = [];
   try {
-    for await (const record of parser as AsyncIterable<string[]>) {
+    for await (const record of records) {
       if (isEmptyRecord(record)) continue;
       if (!headers) headers = record.map((h) => h.trim());
       else sample.push(record);
@@ -109,7 +127,7 @@ export async function readHeaderAndSample(path: string, delimiter: Delimiter, ma
   } catch (err) {
     throw unprocessable(`the file could not be read as CSV: ${(err as Error).message.split('\n')[0]}`);
   } finally {
-    parser.destroy();
+    parser?.destroy();
   }
   if (!headers) throw unprocessable('the file is empty');
   if (headers.some((h) => h === '')) throw unprocessable(`the header has an empty column name (column ${headers.indexOf('') + 1})`);

@@ -101,7 +101,7 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
       if (found.length) throw conflict(`a cohort named "${fields.cohortName}" exists; upload a new version of it instead (cohortId ${found[0].id})`);
     }
     // Parsing the sample and running the screen's patterns is CPU work: done in an upload thread, off the API's loop.
-    const looked = await screenInThread(file.path);
+    const looked = await screenInThread(file.path, file.plain);
     if (looked.type === 'refused-file') throw new HttpError(looked.status, looked.message, looked.details);
     if (looked.type === 'error') throw new Error(looked.message);
     const { delimiter, headers, sample, screen } = looked;

@@ -25,6 +25,8 @@ export interface UploadWorkerData extends CheckInput {
 export interface ScreenJob {
   kind: 'screen';
   path: string;
+  /** Known from receiving the file: no quote and no lone CR (the sample is then read line by line). */
+  plain?: boolean;
 }
 
 export type ScreenAnswer =
@@ -69,9 +71,9 @@ async function copyRejections(client: pg.Client, uploadId: string, rejections: R
 
 const MAX_UPLOAD_COLUMNS = Number(process.env.PLUMBLINE_UPLOAD_MAX_COLUMNS ?? 500);
 
-async function screen(path: string): Promise<ScreenAnswer> {
+async function screen(path: string, plain?: boolean): Promise<ScreenAnswer> {
   const { delimiter } = await sniffCsv(path);
-  const { headers, sample } = await readHeaderAndSample(path, delimiter);
+  const { headers, sample } = await readHeaderAndSample(path, delimiter, 5000, plain === true);
   // A registry extract has tens of columns; thousands means a wrong file (or a hostile one) — refuse before storing anything.
   if (headers.length > MAX_UPLOAD_COLUMNS) throw new HttpError(422, `the file has ${headers.length} columns; at most ${MAX_UPLOAD_COLUMNS} are accepted`);
   return { type: 'screened', delimiter, headers, sample, screen: screenColumns(headers, sample) };
@@ -135,7 +137,7 @@ if (port) {
   port.on('message', (job: { jobId: number; data: UploadWorkerData | ScreenJob }) => {
     const post = (m: UploadWorkerMessage | ScreenAnswer) => port.postMessage({ jobId: job.jobId, message: m });
     if ('kind' in job.data) {
-      screen(job.data.path).then(post, (err: Error) => post(err instanceof HttpError
+      screen(job.data.path, job.data.plain).then(post, (err: Error) => post(err instanceof HttpError
         ? { type: 'refused-file', status: err.status, message: err.message, details: err.details }
         : failure(err)));
       return;

@@ -175,3 +175,20 @@ describe('plainNumber: the same double as Number() (ECMAScript StringToNumber) o
     }
   });
 });
+
+describe('the screen sample of a file without quotes, read line by line, is what csv-parse reads', () => {
+  it('with a BOM, CRLF and LF lines, empty lines, ragged rows and non-ASCII text', async () => {
+    const { readHeaderAndSample } = await import('../../../server/src/services/csvFile');
+    const body = rows();
+    body.splice(5, 0, '', '46,2,no,no,2025-03,Ålesund ward,n2', '47,2,no');
+    for (const text of [`\uFEFF${HEADER.join(',')}\r\n${body.join('\r\n')}\r\n`, `${HEADER.join(';')}\n${body.map((l) => l.replace(/,/g, ';')).join('\n')}`]) {
+      const file = path.join(dir, `s${Math.random().toString(36).slice(2)}.csv`);
+      writeFileSync(file, text);
+      const delimiter = text.includes(';') ? ';' : ',';
+      const parsed = await readHeaderAndSample(file, delimiter, 5000, false);
+      const split = await readHeaderAndSample(file, delimiter, 5000, true);
+      expect(split.sample).toHaveLength(5000);
+      expect(split).toEqual(parsed);
+    }
+  });
+});
