@@ -192,3 +192,29 @@ describe('the screen sample of a file without quotes, read line by line, is what
     }
   });
 });
+
+describe('column summaries: the histogram of a large numeric column comes from a uniform sample', () => {
+  it('Algorithm L (Li 1994) keeps each of 60,000 values with equal chance: a chi-square test on 20 bins passes', async () => {
+    const header = ['age', 'lab', 'flag', 'died', 'period', 'unit'];
+    const n = 60_000;
+    // lab runs 0…59,999 in file order, so a sample biased to early or late rows would show as a slope.
+    const lines = Array.from({ length: n }, (_, i) => `${20 + (i % 60)},${i},yes,${i % 5 ? 'no' : 'yes'},2025-02,Birch`);
+    const file = path.join(dir, `hist${Math.random().toString(36).slice(2)}.csv`);
+    writeFileSync(file, `${header.join(',')}\n${lines.join('\n')}\n`);
+    const res = await checkUploadRows(
+      { path: file, delimiter: ',', headers: header, mapping: { predictors: { age: 'age', lab: 'lab', flag: 'flag' }, outcome: { column: 'died', positive: ['yes'], negative: ['no'] }, date: null, subgroups: {}, ranges: {} },
+        predictors: [{ column: 'age', kind: 'numeric', positiveOnly: false }, { column: 'lab', kind: 'numeric', positiveOnly: false }, { column: 'flag', kind: 'text', positiveOnly: false }],
+        supplied: false, plannedVersionId: '0b7c5d0e-1f2a-4b3c-8d4e-5f6a7b8c9d0e', totalBytes: 1 },
+      { rows: () => {}, progress: () => {} },
+    );
+    const lab = res.columnSummary.lab as { kind: 'numeric'; histogram: { count: number }[]; histogramSampled: boolean };
+    expect(lab.histogramSampled).toBe(true);
+    expect(lab.histogram).toHaveLength(20);
+    // Back to reservoir counts (5,000 values, 250 expected per bin); chi-square with 19 df, 0.1 % critical value 43.82
+    // (common practice, no source; the critical value from a chi-square table, from memory).
+    const sampled = lab.histogram.map((h) => (h.count * 5000) / n);
+    const chi2 = sampled.reduce((acc, o) => acc + (o - 250) ** 2 / 250, 0);
+    expect(chi2).toBeLessThan(43.82);
+    expect(sampled.reduce((a, b) => a + b, 0)).toBeCloseTo(5000, -1);
+  });
+});
