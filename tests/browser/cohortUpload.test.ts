@@ -5,9 +5,9 @@ import { mkdirSync, readFileSync } from 'node:fs';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { closeDatabase, initDatabase } from '../../server/src/db/dataSource';
-import { appUrl, startAppServer, stopAppServer } from '../helpers/appServer';
-import { launchBrowser, signIn, type BrowserSession } from '../helpers/browser';
+import { initDatabase } from '../../server/src/db/dataSource';
+import { appUrl } from '../helpers/appServer';
+import { signIn, startAppAndBrowser, stopAppAndBrowser, type BrowserSession } from '../helpers/browser';
 import { createScoreFixture } from '../helpers/fixtures';
 
 const artifacts = fileURLToPath(new URL('../artifacts', import.meta.url));
@@ -19,14 +19,11 @@ beforeAll(async () => {
   mkdirSync(artifacts, { recursive: true });
   await initDatabase(true);
   await createScoreFixture({ name: scoreName });
-  await startAppServer();
-  browser = await launchBrowser();
+  browser = await startAppAndBrowser();
 });
 
 afterAll(async () => {
-  await browser?.close();
-  await stopAppServer();
-  await closeDatabase();
+  await stopAppAndBrowser(browser);
 });
 
 describe('cohort upload in the browser', () => {

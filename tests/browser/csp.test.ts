@@ -9,10 +9,10 @@ import { mkdirSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import type { Page, Response } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { closeDatabase, dataSource, initDatabase } from '../../server/src/db/dataSource';
+import { dataSource, initDatabase } from '../../server/src/db/dataSource';
 import { KESTREL_SCORE_NAME } from '../../server/src/db/seeds/cohorts';
-import { appUrl, startAppServer, stopAppServer } from '../helpers/appServer';
-import { launchBrowser, signIn, type BrowserSession } from '../helpers/browser';
+import { appUrl } from '../helpers/appServer';
+import { signIn, startAppAndBrowser, stopAppAndBrowser, type BrowserSession } from '../helpers/browser';
 
 const artifacts = fileURLToPath(new URL('../artifacts', import.meta.url));
 let browser: BrowserSession;
@@ -56,15 +56,12 @@ beforeAll(async () => {
   );
   expect(runs.length, 'the demo seed has a completed run').toBe(1);
   runId = runs[0].id;
-  await startAppServer();
-  browser = await launchBrowser();
+  browser = await startAppAndBrowser();
   await browser.context.addInitScript(RECORD_VIOLATIONS);
 });
 
 afterAll(async () => {
-  await browser?.close();
-  await stopAppServer();
-  await closeDatabase();
+  await stopAppAndBrowser(browser);
 });
 
 /** Directive name → its source list, from a CSP header value. */

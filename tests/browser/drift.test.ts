@@ -6,10 +6,10 @@ import 'reflect-metadata';
 import { mkdirSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { closeDatabase, dataSource, initDatabase } from '../../server/src/db/dataSource';
+import { dataSource, initDatabase } from '../../server/src/db/dataSource';
 import { KESTREL_SCORE_NAME } from '../../server/src/db/seeds/cohorts';
-import { appUrl, startAppServer, stopAppServer } from '../helpers/appServer';
-import { launchBrowser, signIn, type BrowserSession } from '../helpers/browser';
+import { appUrl } from '../helpers/appServer';
+import { signIn, startAppAndBrowser, stopAppAndBrowser, type BrowserSession } from '../helpers/browser';
 
 const artifacts = fileURLToPath(new URL('../artifacts', import.meta.url));
 let browser: BrowserSession;
@@ -21,14 +21,11 @@ beforeAll(async () => {
   const rows: { id: string }[] = await dataSource.query(`SELECT id FROM scores WHERE name = $1`, [KESTREL_SCORE_NAME]);
   expect(rows.length, 'the demo seed has the Kestrel score').toBe(1);
   scoreId = rows[0].id;
-  await startAppServer();
-  browser = await launchBrowser();
+  browser = await startAppAndBrowser();
 });
 
 afterAll(async () => {
-  await browser?.close();
-  await stopAppServer();
-  await closeDatabase();
+  await stopAppAndBrowser(browser);
 });
 
 describe('drift timeline in the browser', () => {

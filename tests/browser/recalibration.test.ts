@@ -9,10 +9,10 @@ import { fileURLToPath } from 'node:url';
 import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { DEMO_PASSWORD } from '../../server/src/config';
-import { closeDatabase, dataSource, initDatabase } from '../../server/src/db/dataSource';
+import { dataSource, initDatabase } from '../../server/src/db/dataSource';
 import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from '../../server/src/db/seeds/cohorts';
-import { appUrl, startAppServer, stopAppServer } from '../helpers/appServer';
-import { launchBrowser, signIn, type BrowserSession } from '../helpers/browser';
+import { appUrl } from '../helpers/appServer';
+import { signIn, startAppAndBrowser, stopAppAndBrowser, type BrowserSession } from '../helpers/browser';
 
 const artifacts = fileURLToPath(new URL('../artifacts', import.meta.url));
 const DERIVATION_QUARTER = '2025-Q1';
@@ -77,14 +77,11 @@ beforeAll(async () => {
   );
   expect(runs.length, `the demo seed has a completed Kestrel v2 run on ${DERIVATION_QUARTER}`).toBe(1);
   sourceRunId = runs[0].id;
-  await startAppServer();
-  browser = await launchBrowser();
+  browser = await startAppAndBrowser();
 });
 
 afterAll(async () => {
-  await browser?.close();
-  await stopAppServer();
-  await closeDatabase();
+  await stopAppAndBrowser(browser);
 });
 
 describe('propose a recalibrated version, validate it on a later quarter, sign it', () => {

@@ -8,9 +8,8 @@ import { fileURLToPath } from 'node:url';
 import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { DEMO_PASSWORD } from '../../server/src/config';
-import { closeDatabase, dataSource, initDatabase } from '../../server/src/db/dataSource';
-import { startAppServer, stopAppServer } from '../helpers/appServer';
-import { launchBrowser, signIn, type BrowserSession } from '../helpers/browser';
+import { dataSource, initDatabase } from '../../server/src/db/dataSource';
+import { signIn, startAppAndBrowser, stopAppAndBrowser, type BrowserSession } from '../helpers/browser';
 import { createCohortFixture, createScoreFixture, kestrelRows } from '../helpers/fixtures';
 
 const artifacts = fileURLToPath(new URL('../artifacts', import.meta.url));
@@ -63,14 +62,11 @@ beforeAll(async () => {
   versionId = score.scoreVersionId;
   const cohort = await createCohortFixture(kestrelRows(40, 5), { label: 'Browser fixture quarter' });
   runId = await insertCompletedRun(score.scoreVersionId, cohort.cohortVersionId);
-  await startAppServer();
-  browser = await launchBrowser();
+  browser = await startAppAndBrowser();
 });
 
 afterAll(async () => {
-  await browser?.close();
-  await stopAppServer();
-  await closeDatabase();
+  await stopAppAndBrowser(browser);
 });
 
 describe('review, sign-off and score card in the browser', () => {

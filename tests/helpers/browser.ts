@@ -4,7 +4,8 @@ import os from 'node:os';
 import path from 'node:path';
 import { chromium, type BrowserContext, type Page } from 'playwright-core';
 import { DEMO_PASSWORD } from '../../server/src/config';
-import { appUrl } from './appServer';
+import { closeDatabase } from '../../server/src/db/dataSource';
+import { appUrl, startAppServer, stopAppServer } from './appServer';
 
 export const CHROMIUM_PATH = process.env.PLUMBLINE_CHROMIUM ?? '/usr/bin/chromium';
 
@@ -40,6 +41,19 @@ export async function launchBrowser(): Promise<BrowserSession> {
       await rm(profile, { recursive: true, force: true });
     },
   };
+}
+
+/** The app server and a browser, as every browser test starts them once its own fixtures are in place. */
+export async function startAppAndBrowser(): Promise<BrowserSession> {
+  await startAppServer();
+  return launchBrowser();
+}
+
+/** Closes what startAppAndBrowser opened, and the test file's own database connection. */
+export async function stopAppAndBrowser(browser: BrowserSession | undefined): Promise<void> {
+  await browser?.close();
+  await stopAppServer();
+  await closeDatabase();
 }
 
 /** Fills the sign-in form and submits it; does not wait for the outcome. */
