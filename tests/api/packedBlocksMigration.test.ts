@@ -34,7 +34,8 @@ beforeAll(async () => {
   await a.query(`DROP DATABASE IF EXISTS ${scratch}`);
   await a.query(`CREATE DATABASE ${scratch}`);
   await a.end();
-  const upTo = source(migrations.filter((m) => m.name !== 'PackedBlocks1764700000000'));
+  // The schema as it was just before PackedBlocks (later migrations, e.g. the insert guard, come after it too).
+  const upTo = source(migrations.slice(0, migrations.findIndex((m) => m.name === 'PackedBlocks1764700000000')));
   await upTo.initialize();
   await upTo.runMigrations();
   const [cohort] = await upTo.query(`INSERT INTO cohorts (name) VALUES ('migration test') RETURNING id`);
@@ -87,6 +88,9 @@ describe('PackedBlocks migration', () => {
 
   it('leaves the blocks of a stored version immutable and checks the packed lengths', async () => {
     await expect(db.query('UPDATE cohort_row_blocks SET dated_count = 0 WHERE cohort_version_id = $1', [STORED])).rejects.toThrow(/immutable/);
+    // Nor can a block be added to it (BlockInsertGuard1764700200000); a well-formed block, so only the guard can refuse it.
+    await expect(db.query(`INSERT INTO cohort_row_blocks (cohort_version_id, block_no, row_count, dated_count, line_no, outcome, event_date, num_names, num_values, cat_names, sub_names, cat_codes, sub_codes, text_levels)
+      VALUES ($1, 99, 1, 0, '{2}', '{0}', '{NULL}', '{age}', float8send(50), '{}', '{}', '', '', '{}')`, [STORED])).rejects.toThrow(/INSERT on cohort_row_blocks is not allowed/);
     await expect(db.query(`INSERT INTO cohort_row_blocks (cohort_version_id, block_no, row_count, dated_count, line_no, outcome, event_date, num_names, num_values, cat_names, sub_names, cat_codes, sub_codes, text_levels)
       VALUES (gen_random_uuid(), 0, 1, 0, '{2}', '{0}', '{NULL}', '{age}', '\\x00'::bytea, '{}', '{}', '', '', '{}')`)).rejects.toThrow(/cohort_row_blocks_num_length/);
   });

@@ -58,12 +58,8 @@ export async function createCohortFixture(rows: FixtureRow[], opts: { name?: str
     opts.name ?? `Fixture cohort ${randomUUID().slice(0, 8)}`,
   ]);
   const events = rows.reduce((s, r) => s + r.outcome, 0);
-  const versions: { id: string }[] = await dataSource.query(
-    `INSERT INTO cohort_versions (cohort_id, version, label, source_filename, source_sha256, source_bytes, row_count, events, mapping)
-     VALUES ($1, 1, $2, 'fixture.csv', $3, $4, $5, $6, '{}'::jsonb) RETURNING id`,
-    [cohorts[0].id, opts.label ?? 'fixture', createHash('sha256').update(body).digest('hex'), Buffer.byteLength(body), rows.length, events],
-  );
-  const id = versions[0].id;
+  // As an upload stores them: the blocks first (the database refuses blocks for a version already stored), then the version.
+  const id = randomUUID();
   // The same block encoding and COPY the upload check uses (server/src/services/cohortBlocks.ts).
   const first = rows[0]?.predictors ?? {};
   const num = Object.keys(first).filter((k) => typeof first[k] === 'number');
@@ -81,6 +77,11 @@ export async function createCohortFixture(rows: FixtureRow[], opts: { name?: str
   } finally {
     await qr.release();
   }
+  await dataSource.query(
+    `INSERT INTO cohort_versions (id, cohort_id, version, label, source_filename, source_sha256, source_bytes, row_count, events, mapping)
+     VALUES ($1, $2, 1, $3, 'fixture.csv', $4, $5, $6, $7, '{}'::jsonb)`,
+    [id, cohorts[0].id, opts.label ?? 'fixture', createHash('sha256').update(body).digest('hex'), Buffer.byteLength(body), rows.length, events],
+  );
   return { cohortId: cohorts[0].id, cohortVersionId: id, rows };
 }
 
