@@ -17,6 +17,8 @@ const nodeProject = (name: string, include: string[], timeout: number, serial: b
     hookTimeout: timeout,
     fileParallelism: !serial,
     globalSetup: serial ? [here('./tests/helpers/globalSetup.ts')] : [],
+    // No widths worked out for old runs at each start (services/precisionThread.ts): each test file starts the server.
+    env: { PLUMBLINE_WARM_WIDTHS: '0' },
   },
 });
 

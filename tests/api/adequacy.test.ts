@@ -7,7 +7,9 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { CohortAdequacy } from '@shared/adequacy';
 import type { RunDetail } from '@shared/runs';
 import { stopBackgroundServices } from '../../server/src/services/background';
-import { keptPrecision } from '../../server/src/services/adequacyPrecision';
+import { forgetKeptPrecision, keptPrecision, widthsComputedHere } from '../../server/src/services/adequacyPrecision';
+import { warmRunWidths } from '../../server/src/services/precisionThread';
+import { noteWrite } from '../../server/src/services/responseCache';
 import { processNextRun } from '../../server/src/services/runs';
 import { precisionFor } from '../../server/src/stats/sampleSize';
 import { app, bearer, dataSource, DEMO_PASSWORD, tokenFor, useDatabase } from '../helpers/api';
@@ -118,6 +120,27 @@ describe('adequacy on a run', () => {
 
   it('has its widths from the run thread, kept before the run page was first opened', () => {
     expect(keptBeforeOpening).toBe(true);
+  });
+
+  it('with no widths kept (as after a restart) the run page gets them from the widths thread, not the API thread', async () => {
+    const o = run.results!.overall;
+    forgetKeptPrecision();
+    noteWrite(); // the kept answer of the page goes too, so the page is built again
+    const before = widthsComputedHere();
+    const got = await request(app).get(`/api/runs/${run.id}`).set(bearer(await tokenFor('statistician')));
+    expect(got.status).toBe(200);
+    expect((got.body.run as RunDetail).adequacy!.precision).toEqual(run.adequacy!.precision);
+    expect(widthsComputedHere(), 'widths worked out on the API thread').toBe(before);
+    expect(keptPrecision(o.n, o.events, o.auc.estimate)).toEqual(run.adequacy!.precision);
+  });
+
+  it('at start the widths of the newest completed runs are worked out in that thread, before any page asks', async () => {
+    const o = run.results!.overall;
+    forgetKeptPrecision();
+    const before = widthsComputedHere();
+    await warmRunWidths(5); // this file just completed the run: it is among the newest
+    expect(keptPrecision(o.n, o.events, o.auc.estimate)).toEqual(run.adequacy!.precision);
+    expect(widthsComputedHere()).toBe(before);
   });
 
   it('the expected AUC width is of the size the run’s own DeLong CI has', () => {

@@ -2,9 +2,10 @@
 // expected CI widths from precisionFor (Riley et al. 2021, server/src/stats/sampleSize.ts).
 import { adequacyVerdict, ASSUMED_AUC, PRECISION_ASSUMPTION, type AdequacyAucSource, type CohortAdequacy } from '@shared/adequacy';
 import { dataSource } from '../db/dataSource';
-import { precision, runPrecisionInputs } from './adequacyPrecision';
+import { runPrecisionInputs } from './adequacyPrecision';
+import { precisionOffThread } from './precisionThread';
 
-export function buildAdequacy(input: { n: number; events: number; auc: number | null; source: AdequacyAucSource; runId: string | null }): CohortAdequacy {
+export async function buildAdequacy(input: { n: number; events: number; auc: number | null; source: AdequacyAucSource; runId: string | null }): Promise<CohortAdequacy> {
   const { n, events } = input;
   const nonEvents = n - events;
   return {
@@ -14,13 +15,13 @@ export function buildAdequacy(input: { n: number; events: number; auc: number | 
     eventRate: n > 0 ? events / n : null,
     verdict: adequacyVerdict(events, nonEvents),
     auc: { value: input.auc, source: input.source, runId: input.runId },
-    precision: precision(n, events, input.auc),
+    precision: await precisionOffThread(n, events, input.auc),
     assumption: PRECISION_ASSUMPTION,
   };
 }
 
 /** For a completed run: its own counts and AUC. */
-export function runAdequacy(run: { id: string; results: { overall: { n: number; events: number; auc: { estimate: number } } } | null }): CohortAdequacy | null {
+export async function runAdequacy(run: { id: string; results: { overall: { n: number; events: number; auc: { estimate: number } } } | null }): Promise<CohortAdequacy | null> {
   const inputs = runPrecisionInputs(run.results);
   return inputs && buildAdequacy({ ...inputs, source: 'this run', runId: run.id });
 }

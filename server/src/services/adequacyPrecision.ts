@@ -1,12 +1,15 @@
 // The expected CI widths of the adequacy block (services/adequacy.ts), kept per (n, events, AUC). precisionFor solves
 // the anticipated LP distribution by bisection (about 0.2 s of CPU): a run's widths are worked out in its own thread
 // when it completes (workers/runWorker.ts) and kept here, so opening the run page does not pay them on the API thread.
-// No database access here: the run thread imports this module.
+// Any other widths are worked out in the widths thread (services/precisionThread.ts). No database access here: the
+// run thread and the widths thread import this module.
 import type { AdequacyPrecision } from '@shared/adequacy';
 import { precisionFor } from '../stats/sampleSize';
 
 const MEMO_SIZE = 500;
 const memo = new Map<string, AdequacyPrecision>();
+/** How many widths this thread has worked out itself (not kept, not received): the API thread's should stay at 0. */
+let computedHere = 0;
 const keyOf = (n: number, events: number, auc: number | null) => `${n}|${events}|${auc}`;
 const fin = (v: number | null) => (v !== null && Number.isFinite(v) ? v : null);
 
@@ -21,6 +24,7 @@ export function precision(n: number, events: number, auc: number | null): Adequa
   const key = keyOf(n, events, auc);
   const hit = memo.get(key);
   if (hit) return hit;
+  computedHere++;
   const eventRate = events / n;
   let out: AdequacyPrecision;
   if (auc === null || !(auc > 0 && auc < 1)) {
@@ -50,4 +54,13 @@ export function runPrecisionInputs(results: { overall?: { n?: unknown; events?: 
 /** The widths kept for these inputs, if any (without computing them). */
 export function keptPrecision(n: number, events: number, auc: number | null): AdequacyPrecision | undefined {
   return memo.get(keyOf(n, events, auc));
+}
+
+export function widthsComputedHere(): number {
+  return computedHere;
+}
+
+/** For tests: forgets every kept width (as a restart does). */
+export function forgetKeptPrecision(): void {
+  memo.clear();
 }

@@ -146,7 +146,7 @@ export async function getRun(id: string, manager: EntityManager = dataSource.man
   const run = rows[0].status === 'completed' && manager === dataSource.manager ? await completedRunRecord(id, load) : await load();
   const detail: RunDetail = { ...toSummary(rows[0]), settings: run.settings, results: run.results, inputsSha256: run.inputsSha256, resultsSha256: run.resultsSha256 };
   // Derived on read (not part of the sealed results): is this cohort big enough, and how precise are its figures?
-  if (opts.adequacy && run.status === 'completed') detail.adequacy = runAdequacy(run);
+  if (opts.adequacy && run.status === 'completed') detail.adequacy = await runAdequacy(run);
   return detail;
 }
 
