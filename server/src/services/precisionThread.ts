@@ -3,11 +3,11 @@
 // the rest — a run page first opened after a restart, a cohort version page with an assumed or borrowed AUC. At
 // start the thread also works out the widths of every completed run, newest first, before anyone asks.
 // If the thread cannot start or stops, the widths are computed here as before (slower for others, never wrong).
-import { fileURLToPath } from 'node:url';
-import { Worker } from 'node:worker_threads';
+import type { Worker } from 'node:worker_threads';
 import type { AdequacyPrecision } from '@shared/adequacy';
 import { dataSource } from '../db/dataSource';
 import type { PrecisionAnswer, PrecisionJob } from '../workers/precisionWorker';
+import { startTsWorker } from '../workers/tsWorker';
 import { keepPrecision, keptPrecision, precision, runPrecisionInputs } from './adequacyPrecision';
 import { registerBackground } from './background';
 
@@ -24,9 +24,7 @@ function settleInline(): void {
 
 function thread(): Worker | null {
   if (worker || broken) return worker;
-  const w = new Worker(new URL('../workers/runWorkerBoot.mjs', import.meta.url), {
-    workerData: { workerFile: new URL('../workers/precisionWorker.ts', import.meta.url).href, tsconfig: fileURLToPath(new URL('../../../tsconfig.json', import.meta.url)) },
-  });
+  const w = startTsWorker(new URL('../workers/precisionWorker.ts', import.meta.url));
   w.on('message', (a: PrecisionAnswer) => {
     const entry = waiting.get(a.id);
     if (!entry) return;

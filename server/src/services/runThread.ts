@@ -1,10 +1,7 @@
-// Starts the run worker thread. The source runs as TypeScript (tsx in the server, Vite in the tests), so the thread
-// starts from a small .mjs file that registers tsx inside the thread and then imports the .ts worker.
-// (`execArgv: ['--import', 'tsx']` does not reach a worker's entry module on Node 20.)
-import { fileURLToPath } from 'node:url';
-import { Worker } from 'node:worker_threads';
+// Starts the run worker thread (workers/tsWorker.ts starts TypeScript workers).
 import type { RunResults } from '@shared/runs';
 import type { RunWorkerMessage } from '../workers/runWorker';
+import { startTsWorker } from '../workers/tsWorker';
 import type { ProgressFn, RunComputeInput } from './runCompute';
 import { keepPrecision } from './adequacyPrecision';
 import { RunInputError } from './runCompute';
@@ -15,13 +12,7 @@ export interface RunningThread {
 }
 
 export function computeInThread(input: RunComputeInput, onProgress: ProgressFn = () => {}): RunningThread {
-  const worker = new Worker(new URL('../workers/runWorkerBoot.mjs', import.meta.url), {
-    workerData: {
-      ...input,
-      workerFile: new URL('../workers/runWorker.ts', import.meta.url).href,
-      tsconfig: fileURLToPath(new URL('../../../tsconfig.json', import.meta.url)),
-    },
-  });
+  const worker = startTsWorker(new URL('../workers/runWorker.ts', import.meta.url), input);
   let settled = false;
   const result = new Promise<RunResults>((resolve, reject) => {
     worker.on('message', (msg: RunWorkerMessage) => {

@@ -2,9 +2,9 @@
 // TypeScript load of its modules (most of a second on a busy machine), so threads are kept and given one job at a
 // time; further uploads wait in line (a screen of a newly received file goes first). PLUMBLINE_UPLOAD_THREADS sets
 // how many (default 2, the cores of the machine we measured on; each also holds a PostgreSQL connection while it works).
-import { fileURLToPath } from 'node:url';
-import { Worker } from 'node:worker_threads';
+import type { Worker } from 'node:worker_threads';
 import type { ScreenAnswer, ScreenJob, UploadWorkerData, UploadWorkerMessage } from '../workers/uploadWorker';
+import { startTsWorker } from '../workers/tsWorker';
 
 type Ending = Exclude<UploadWorkerMessage, { type: 'progress' }> | ScreenAnswer;
 interface Job {
@@ -23,9 +23,7 @@ let nextJobId = 1;
 
 function spawn(): Worker {
   started++;
-  const worker = new Worker(new URL('../workers/runWorkerBoot.mjs', import.meta.url), {
-    workerData: { workerFile: new URL('../workers/uploadWorker.ts', import.meta.url).href, tsconfig: fileURLToPath(new URL('../../../tsconfig.json', import.meta.url)) },
-  });
+  const worker = startTsWorker(new URL('../workers/uploadWorker.ts', import.meta.url));
   worker.on('message', ({ jobId, message }: { jobId: number; message: UploadWorkerMessage | ScreenAnswer }) => {
     const job = busy.get(worker);
     if (!job || job.jobId !== jobId) return;
