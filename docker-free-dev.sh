@@ -143,6 +143,9 @@ case "$MODE" in
     ensure_database plumbline_test
     export PLUMBLINE_TEST=1 PORT=${TEST_APP_PORT:-3100} SMTP_PORT=${TEST_SMTP_PORT:-2625}
     export PLUMBLINE_BCRYPT_COST=10
+    # A temp folder of this run's own: another Plumbline on the machine never adds files to it or sweeps it.
+    export PLUMBLINE_UPLOAD_DIR="$DATA_ROOT/uploads-test"
+    rm -rf "$PLUMBLINE_UPLOAD_DIR"
     bash server/scripts/run-tests.sh
     ;;
   *)

@@ -19,6 +19,8 @@ const nodeProject = (name: string, include: string[], timeout: number, serial: b
     globalSetup: serial ? [here('./tests/helpers/globalSetup.ts')] : [],
     // No widths worked out for old runs at each start (services/precisionThread.ts): each test file starts the server.
     env: { PLUMBLINE_WARM_WIDTHS: '0' },
+    // expect.poll waits for what a person waits for; on a busy machine that can take longer than vitest's 1 s default.
+    expect: { poll: { timeout: 30_000 } },
   },
 });
 
@@ -49,6 +51,7 @@ export default defineConfig({
           name: 'client',
           include: ['tests/client/**/*.test.ts'],
           environment: 'happy-dom',
+          setupFiles: [here('./tests/client/setup.ts')],
           server: { deps: { inline: ['vuetify'] } },
         },
       },

@@ -90,8 +90,7 @@ async function expectRefused(file: string, status: number, message: RegExp, fiel
   expect(await snapshot()).toEqual(before);
   // The response can leave before the unlink of a refused temp file completes. No file is added (earlier tests'
   // uploads may finish and remove theirs meanwhile, so the folder may also shrink).
-  await new Promise((r) => setTimeout(r, 50));
-  expect(tempFiles().filter((f) => !files.includes(f))).toEqual([]);
+  await expect.poll(() => tempFiles().filter((f) => !files.includes(f))).toEqual([]);
   return res.body;
 }
 

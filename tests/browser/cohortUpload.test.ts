@@ -1,57 +1,45 @@
 // A steward uploads the invented 2026-Q1 demo file, maps its columns, sees the rejected rows, excludes them,
 // and sees the stored cohort version with its SHA-256.
 import { createHash } from 'node:crypto';
-import { mkdirSync, readFileSync } from 'node:fs';
-import path from 'node:path';
+import { readFileSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { initDatabase } from '../../server/src/db/dataSource';
 import { appUrl } from '../helpers/appServer';
-import { signIn, startAppAndBrowser, stopAppAndBrowser, type BrowserSession } from '../helpers/browser';
+import { inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
 import { createScoreFixture } from '../helpers/fixtures';
 
-const artifacts = fileURLToPath(new URL('../artifacts', import.meta.url));
 const fixture = fileURLToPath(new URL('../fixtures/kestrel-2026q1.csv', import.meta.url));
 const scoreName = `Browser upload score ${Date.now()}`;
-let browser: BrowserSession;
-
-beforeAll(async () => {
-  mkdirSync(artifacts, { recursive: true });
+const browser = useAppAndBrowser(async () => {
   await initDatabase(true);
   await createScoreFixture({ name: scoreName });
-  browser = await startAppAndBrowser();
-});
-
-afterAll(async () => {
-  await stopAppAndBrowser(browser);
 });
 
 describe('cohort upload in the browser', () => {
-  it('uploads, maps, shows rejected rows, excludes them and shows the stored version', async () => {
-    const page = await browser.context.newPage();
-    await signIn(page, 'steward@demo.test');
-    await page.goto(`${appUrl}/cohorts/upload`);
-    await page.locator('[data-test="file-input"] input[type="file"]').setInputFiles(fixture);
-    await page.locator('[data-test="score-select"]').click();
-    await page.getByRole('option', { name: new RegExp(scoreName) }).click();
-    const cohortName = `Fernhollow 2026 browser ${Date.now()}`;
-    await page.locator('[data-test="cohort-name"] input').fill(cohortName);
-    await page.locator('[data-test="cohort-label"] input').fill('2026-Q1');
-    await page.locator('[data-test="send"]').click();
-    await page.getByText('Screened: no direct identifiers').waitFor({ timeout: 30_000 });
-    await page.screenshot({ path: path.join(artifacts, 'cohort-upload-mapping.png'), fullPage: true });
-    await page.locator('[data-test="check-rows"]').click();
-    await page.locator('[data-test="check-summary"]').waitFor({ timeout: 60_000 });
-    expect(await page.locator('[data-test="check-summary"]').innerText()).toMatch(/495 rows pass the checks; 5 rows were rejected/);
-    await expect.poll(() => page.locator('[data-test="rejections"] tbody tr').count()).toBe(5);
-    expect(await page.locator('[data-test="rejections"]').innerText()).toMatch(/maybe/);
-    await page.screenshot({ path: path.join(artifacts, 'cohort-upload-rejections.png'), fullPage: true });
-    await page.locator('[data-test="store"]').click();
-    await page.locator('[data-test="version-detail"]').waitFor({ timeout: 60_000 });
-    expect(await page.locator('[data-test="row-count"]').innerText()).toBe('495');
-    expect((await page.locator('[data-test="excluded-count"]').innerText()).startsWith('5')).toBe(true);
-    expect(await page.locator('[data-test="sha256"]').innerText()).toBe(createHash('sha256').update(readFileSync(fixture)).digest('hex'));
-    await page.screenshot({ path: path.join(artifacts, 'cohort-stored.png'), fullPage: true });
-    await page.close();
-  });
+  it('uploads, maps, shows rejected rows, excludes them and shows the stored version', () =>
+    inTab(browser(), 'cohort-upload', async (page) => {
+      await page.goto(`${appUrl}/cohorts/upload`);
+      await page.locator('[data-test="file-input"] input[type="file"]').setInputFiles(fixture);
+      await page.locator('[data-test="score-select"]').click();
+      await page.getByRole('option', { name: new RegExp(scoreName) }).click();
+      const cohortName = `Fernhollow 2026 browser ${Date.now()}`;
+      await page.locator('[data-test="cohort-name"] input').fill(cohortName);
+      await page.locator('[data-test="cohort-label"] input').fill('2026-Q1');
+      await page.locator('[data-test="send"]').click();
+      await page.getByText('Screened: no direct identifiers').waitFor();
+      await screenshot(page, 'cohort-upload-mapping');
+      await page.locator('[data-test="check-rows"]').click();
+      await page.locator('[data-test="check-summary"]').waitFor({ timeout: 120_000 });
+      await expect.poll(() => page.locator('[data-test="check-summary"]').innerText()).toMatch(/495 rows pass the checks; 5 rows were rejected/);
+      await expect.poll(() => page.locator('[data-test="rejections"] tbody tr').count()).toBe(5);
+      expect(await page.locator('[data-test="rejections"]').innerText()).toMatch(/maybe/);
+      await screenshot(page, 'cohort-upload-rejections');
+      await page.locator('[data-test="store"]').click();
+      await page.locator('[data-test="version-detail"]').waitFor({ timeout: 60_000 });
+      expect(await page.locator('[data-test="row-count"]').innerText()).toBe('495');
+      expect((await page.locator('[data-test="excluded-count"]').innerText()).startsWith('5')).toBe(true);
+      expect(await page.locator('[data-test="sha256"]').innerText()).toBe(createHash('sha256').update(readFileSync(fixture)).digest('hex'));
+      await screenshot(page, 'cohort-stored');
+    }, 'steward@demo.test'));
 });

@@ -5,17 +5,13 @@
 // A control case injects an inline script into a loaded page: it must be blocked and reported, which shows the
 // listener below really sees violations (otherwise "no violations" would prove nothing).
 import 'reflect-metadata';
-import { mkdirSync } from 'node:fs';
-import { fileURLToPath } from 'node:url';
 import type { Page, Response } from 'playwright-core';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import { dataSource, initDatabase } from '../../server/src/db/dataSource';
 import { KESTREL_SCORE_NAME } from '../../server/src/db/seeds/cohorts';
 import { appUrl } from '../helpers/appServer';
-import { signIn, startAppAndBrowser, stopAppAndBrowser, type BrowserSession } from '../helpers/browser';
+import { inTab, screenshot, signIn, useAppAndBrowser } from '../helpers/browser';
 
-const artifacts = fileURLToPath(new URL('../artifacts', import.meta.url));
-let browser: BrowserSession;
 let scoreId: string;
 let runId: string;
 
@@ -43,8 +39,7 @@ const RECORD_VIOLATIONS = () => {
   });
 };
 
-beforeAll(async () => {
-  mkdirSync(artifacts, { recursive: true });
+const browser = useAppAndBrowser(async () => {
   await initDatabase(false);
   const scores: { id: string }[] = await dataSource.query(`SELECT id FROM scores WHERE name = $1`, [KESTREL_SCORE_NAME]);
   expect(scores.length, 'the demo seed has the Kestrel score').toBe(1);
@@ -56,12 +51,11 @@ beforeAll(async () => {
   );
   expect(runs.length, 'the demo seed has a completed run').toBe(1);
   runId = runs[0].id;
-  browser = await startAppAndBrowser();
-  await browser.context.addInitScript(RECORD_VIOLATIONS);
 });
 
-afterAll(async () => {
-  await stopAppAndBrowser(browser);
+// Registered after the shared set-up, so it runs once the browser has started.
+beforeAll(async () => {
+  await browser().context.addInitScript(RECORD_VIOLATIONS);
 });
 
 /** Directive name → its source list, from a CSP header value. */
@@ -85,32 +79,31 @@ function watchConsole(page: Page): string[] {
 }
 
 async function violationsOn(page: Page): Promise<Violation[]> {
-  // Reports are queued as tasks; one more animation frame and a task let late ones arrive before reading.
-  await page.evaluate(() => new Promise((resolve) => requestAnimationFrame(() => setTimeout(resolve, 50))));
+  // Reports are queued as tasks: after one more animation frame and one task, those already raised have arrived.
+  await page.evaluate(() => new Promise((resolve) => requestAnimationFrame(() => setTimeout(resolve, 0))));
   return page.evaluate(() => window.__cspViolations ?? []);
 }
 
 const pages = () => [
-  { name: 'a run page', path: `/runs/${runId}`, ready: (p: Page) => p.getByRole('heading', { level: 1, name: new RegExp(`^${KESTREL_SCORE_NAME} v\\d+ on`) }).waitFor({ timeout: 30_000 }) },
-  { name: 'the score cards', path: '/scorecards', ready: (p: Page) => p.getByRole('heading', { level: 1, name: 'Score cards' }).waitFor({ timeout: 30_000 }) },
+  { name: 'a run page', path: `/runs/${runId}`, ready: (p: Page) => p.getByRole('heading', { level: 1, name: new RegExp(`^${KESTREL_SCORE_NAME} v\\d+ on`) }).waitFor() },
+  { name: 'the score cards', path: '/scorecards', ready: (p: Page) => p.getByRole('heading', { level: 1, name: 'Score cards' }).waitFor() },
   {
     name: 'a drift timeline',
     path: `/scores/${scoreId}/versions/2/drift`,
     ready: async (p: Page) => {
-      await p.getByRole('heading', { name: `Drift over time: ${KESTREL_SCORE_NAME} v2` }).waitFor({ timeout: 30_000 });
+      await p.getByRole('heading', { name: `Drift over time: ${KESTREL_SCORE_NAME} v2` }).waitFor();
       await p.getByRole('img', { name: 'Risk-adjusted CUSUM chart' }).waitFor();
     },
   },
-  { name: 'the upload page', path: '/cohorts/upload', ready: (p: Page) => p.getByRole('heading', { level: 1, name: 'Upload a cohort' }).waitFor({ timeout: 30_000 }) },
+  { name: 'the upload page', path: '/cohorts/upload', ready: (p: Page) => p.getByRole('heading', { level: 1, name: 'Upload a cohort' }).waitFor() },
 ];
 
 describe('content-security policy in Chromium', () => {
-  it('sends a policy that allows only the app’s own scripts', async () => {
-    const page = await browser.context.newPage();
-    try {
+  it('sends a policy that allows only the app’s own scripts', () =>
+    inTab(browser(), 'csp-policy', async (page) => {
       const response = (await page.goto(`${appUrl}/sign-in`)) as Response;
       const header = response.headers()['content-security-policy'];
-      expect(header, 'the HTML page carries a CSP header').toBeTruthy();
+      expect(typeof header, 'the HTML page carries a CSP header').toBe('string');
       const policy = parsePolicy(header);
       const scriptSrc = policy.get('script-src') ?? policy.get('default-src');
       expect(policy.has('script-src'), 'script-src is set explicitly').toBe(true);
@@ -123,15 +116,11 @@ describe('content-security policy in Chromium', () => {
       // API answers carry the policy too (a JSON answer opened as a page cannot run anything either).
       const api = await page.request.get(`${appUrl}/api/health`);
       expect(parsePolicy(api.headers()['content-security-policy'] ?? '').get('script-src')).toEqual(["'self'"]);
-    } finally {
-      await page.close();
-    }
-  });
+    }));
 
-  it('blocks and reports an injected inline script (the listener sees real violations)', async () => {
-    const page = await browser.context.newPage();
-    const consoleCsp = watchConsole(page);
-    try {
+  it('blocks and reports an injected inline script (the listener sees real violations)', () =>
+    inTab(browser(), 'csp-control', async (page) => {
+      const consoleCsp = watchConsole(page);
       await page.goto(`${appUrl}/sign-in`);
       await page.getByRole('heading', { name: 'Plumbline' }).waitFor();
       await page.evaluate(() => {
@@ -139,20 +128,15 @@ describe('content-security policy in Chromium', () => {
         s.textContent = 'window.__inlineRan = true;';
         document.head.append(s);
       });
-      const seen = await violationsOn(page);
+      await page.waitForFunction(() => (window.__cspViolations ?? []).some((v) => v.directive.startsWith('script-src')));
       expect(await page.evaluate(() => window.__inlineRan === true)).toBe(false);
-      expect(seen.some((v) => v.directive.startsWith('script-src'))).toBe(true);
-      expect(consoleCsp.length).toBeGreaterThan(0);
-    } finally {
-      await page.close();
-    }
-  });
+      await expect.poll(() => consoleCsp.length).toBeGreaterThan(0);
+    }));
 
-  it('loads sign-in and the signed-in pages without a single violation', async () => {
-    const page = await browser.context.newPage();
-    const consoleCsp = watchConsole(page);
-    const found: { page: string; violations: Violation[] }[] = [];
-    try {
+  it('loads sign-in and the signed-in pages without a single violation', () =>
+    inTab(browser(), 'csp-pages', async (page) => {
+      const consoleCsp = watchConsole(page);
+      const found: { page: string; violations: Violation[] }[] = [];
       await page.goto(`${appUrl}/sign-in`);
       await page.getByRole('heading', { name: 'Plumbline' }).waitFor();
       await page.waitForLoadState('networkidle');
@@ -167,15 +151,9 @@ describe('content-security policy in Chromium', () => {
         await page.waitForLoadState('networkidle');
         found.push({ page: target.name, violations: await violationsOn(page) });
       }
-      await page.screenshot({ path: `${artifacts}/csp-last-page.png` });
+      await screenshot(page, 'csp-last-page');
       expect(found.filter((f) => f.violations.length > 0), 'CSP violations by page').toEqual([]);
       expect(consoleCsp, 'CSP messages on the console').toEqual([]);
       expect(found.map((f) => f.page)).toEqual(['sign-in', 'after sign-in', 'a run page', 'the score cards', 'a drift timeline', 'the upload page']);
-    } catch (err) {
-      await page.screenshot({ path: `${artifacts}/csp-failure.png`, fullPage: true });
-      throw err;
-    } finally {
-      await page.close();
-    }
-  });
+    }));
 });

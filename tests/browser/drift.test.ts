@@ -3,77 +3,62 @@
 // The demo scenario (invented; seeded by tests/helpers/globalSetup.ts) raises baseline risk by about +0.08 logit
 // per quarter, so calibration-in-the-large and the deterioration CUSUM must move away from the go-live value.
 import 'reflect-metadata';
-import { mkdirSync } from 'node:fs';
-import { fileURLToPath } from 'node:url';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { dataSource, initDatabase } from '../../server/src/db/dataSource';
 import { KESTREL_SCORE_NAME } from '../../server/src/db/seeds/cohorts';
 import { appUrl } from '../helpers/appServer';
-import { signIn, startAppAndBrowser, stopAppAndBrowser, type BrowserSession } from '../helpers/browser';
+import { inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
 
-const artifacts = fileURLToPath(new URL('../artifacts', import.meta.url));
-let browser: BrowserSession;
 let scoreId: string;
-
-beforeAll(async () => {
-  mkdirSync(artifacts, { recursive: true });
+const browser = useAppAndBrowser(async () => {
   await initDatabase(false);
   const rows: { id: string }[] = await dataSource.query(`SELECT id FROM scores WHERE name = $1`, [KESTREL_SCORE_NAME]);
   expect(rows.length, 'the demo seed has the Kestrel score').toBe(1);
   scoreId = rows[0].id;
-  browser = await startAppAndBrowser();
-});
-
-afterAll(async () => {
-  await stopAppAndBrowser(browser);
 });
 
 describe('drift timeline in the browser', () => {
-  it('shows the per-period charts of the demo score and the alert the drift raised', async () => {
-    const page = await browser.context.newPage();
-    try {
-      await signIn(page, 'statistician@demo.test');
-      await page.goto(`${appUrl}/scores/${scoreId}/versions/2/drift`);
-      await page.getByRole('heading', { name: `Drift over time: ${KESTREL_SCORE_NAME} v2` }).waitFor({ timeout: 30_000 });
-      await page.getByRole('note', { name: 'Clinical-use caution' }).first().waitFor();
+  it('shows the per-period charts of the demo score and the alert the drift raised', () =>
+    inTab(
+      browser(),
+      'drift-timeline',
+      async (page) => {
+        await page.goto(`${appUrl}/scores/${scoreId}/versions/2/drift`);
+        await page.getByRole('heading', { name: `Drift over time: ${KESTREL_SCORE_NAME} v2` }).waitFor();
+        await page.getByRole('note', { name: 'Clinical-use caution' }).first().waitFor();
 
-      // Eight demo quarters → eight rows in the per-period table (common practice, no source: the seed's own design).
-      const periodRows = page.getByRole('table', { name: 'Patients and events per period' }).locator('tbody tr');
-      expect(await periodRows.count()).toBe(8);
+        // Eight demo quarters → eight rows in the per-period table (common practice, no source: the seed's own design).
+        const periodRows = page.getByRole('table', { name: 'Patients and events per period' }).locator('tbody tr');
+        await expect.poll(() => periodRows.count()).toBe(8);
 
-      // Every chart panel draws a canvas: CITL, O/E, AUC, slope, O − E limits, cumulative O − E, CUSUM.
-      for (const name of ['Calibration-in-the-large by period', 'O/E ratio by period', 'AUC (c-statistic) by period', 'Calibration slope by period']) {
-        const canvas = page.getByRole('img', { name });
-        await canvas.waitFor();
-        const box = await canvas.boundingBox();
-        expect(box && box.width > 100 && box.height > 100, `${name} is drawn`).toBe(true);
-      }
-      await page.getByRole('img', { name: 'Observed minus expected events per period with control limits' }).waitFor();
-      await page.getByRole('img', { name: 'Cumulative observed minus expected events' }).waitFor();
-      await page.getByRole('img', { name: 'Risk-adjusted CUSUM chart' }).waitFor();
-      expect(await page.locator('canvas').count()).toBeGreaterThanOrEqual(7);
+        // Every chart panel draws a canvas: CITL, O/E, AUC, slope, O − E limits, cumulative O − E, CUSUM.
+        for (const name of ['Calibration-in-the-large by period', 'O/E ratio by period', 'AUC (c-statistic) by period', 'Calibration slope by period']) {
+          const canvas = page.getByRole('img', { name });
+          await canvas.waitFor();
+          const box = await canvas.boundingBox();
+          expect(box && box.width > 100 && box.height > 100, `${name} is drawn`).toBe(true);
+        }
+        await page.getByRole('img', { name: 'Observed minus expected events per period with control limits' }).waitFor();
+        await page.getByRole('img', { name: 'Cumulative observed minus expected events' }).waitFor();
+        await page.getByRole('img', { name: 'Risk-adjusted CUSUM chart' }).waitFor();
+        await expect.poll(() => page.locator('canvas').count()).toBeGreaterThanOrEqual(7);
 
-      // The drift raised at least one alert, listed with its rule.
-      const alertRows = page.getByTestId('alert-list').locator('tbody tr');
-      await alertRows.first().waitFor();
-      expect(await alertRows.first().innerText()).not.toMatch(/No alerts/);
+        // The drift raised at least one alert, listed with its rule.
+        const alertRows = page.getByTestId('alert-list').locator('tbody tr');
+        await alertRows.first().waitFor();
+        await expect.poll(() => alertRows.first().innerText()).not.toMatch(/No alerts/);
 
-      // The table view of a chart carries the numbers (eight periods again).
-      const citlPanel = page.locator('.chart-panel').filter({ hasText: 'Calibration-in-the-large' }).first();
-      await citlPanel.getByRole('button', { name: 'Show the numbers as a table' }).click();
-      expect(await citlPanel.locator('tbody tr').count()).toBe(8);
-      // The seeded drift (+0.08 logit a quarter, seeds/kestrelData.ts) puts the last quarter's CITL above the first's.
-      const citlOf = async (row: number) => Number(await citlPanel.locator('tbody tr').nth(row).locator('td').nth(1).innerText());
-      expect(await citlOf(7)).toBeGreaterThan(await citlOf(0));
-      await citlPanel.getByRole('button', { name: 'Show the chart' }).click();
+        // The table view of a chart carries the numbers (eight periods again).
+        const citlPanel = page.locator('.chart-panel').filter({ hasText: 'Calibration-in-the-large' }).first();
+        await citlPanel.getByRole('button', { name: 'Show the numbers as a table' }).click();
+        await expect.poll(() => citlPanel.locator('tbody tr').count()).toBe(8);
+        // The seeded drift (+0.08 logit a quarter, seeds/kestrelData.ts) puts the last quarter's CITL above the first's.
+        const citlOf = async (row: number) => Number(await citlPanel.locator('tbody tr').nth(row).locator('td').nth(1).innerText());
+        expect(await citlOf(7)).toBeGreaterThan(await citlOf(0));
+        await citlPanel.getByRole('button', { name: 'Show the chart' }).click();
 
-      await page.evaluate(() => window.scrollTo(0, 0)); // the app bar is fixed: a scrolled full-page shot draws it mid-page
-      await page.screenshot({ path: `${artifacts}/drift-timeline.png`, fullPage: true });
-    } catch (err) {
-      await page.screenshot({ path: `${artifacts}/drift-timeline-failure.png`, fullPage: true });
-      throw err;
-    } finally {
-      await page.close();
-    }
-  });
+        await screenshot(page, 'drift-timeline');
+      },
+      'statistician@demo.test',
+    ));
 });

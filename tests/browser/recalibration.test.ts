@@ -4,21 +4,17 @@
 // it; the chair signs it after re-entering the password; the clinician's score card then names the new version.
 // Along the way the run and cohort pages show "Is the cohort big enough?". This checks the workflow, not the statistics.
 import 'reflect-metadata';
-import { mkdirSync } from 'node:fs';
-import { fileURLToPath } from 'node:url';
 import type { Page } from 'playwright-core';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { DEMO_PASSWORD } from '../../server/src/config';
 import { dataSource, initDatabase } from '../../server/src/db/dataSource';
 import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from '../../server/src/db/seeds/cohorts';
 import { appUrl } from '../helpers/appServer';
-import { signIn, startAppAndBrowser, stopAppAndBrowser, type BrowserSession } from '../helpers/browser';
+import { artifactsDir, inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
 
-const artifacts = fileURLToPath(new URL('../artifacts', import.meta.url));
 const DERIVATION_QUARTER = '2025-Q1';
 const LATER_QUARTER = '2025-Q3';
 
-let browser: BrowserSession;
 let scoreId: string;
 let cohortId: string;
 let laterCohortVersion: number;
@@ -28,37 +24,13 @@ let newVersion: number;
 let newVersionId: string;
 let newRunId: string;
 
-async function pageFor(email: string): Promise<Page> {
-  const page = await browser.context.newPage(); // a new tab has its own sessionStorage, so its own session
-  await signIn(page, email, DEMO_PASSWORD);
-  return page;
-}
-
-async function step(page: Page, name: string, body: () => Promise<void>): Promise<void> {
-  try {
-    await body();
-  } catch (err) {
-    await page.screenshot({ path: `${artifacts}/recalibration-${name}-failure.png`, fullPage: true }).catch(() => undefined);
-    throw err;
-  } finally {
-    await page.close();
-  }
-}
-
-/** The app bar is fixed: a scrolled full-page shot draws it mid-page. */
-async function shot(page: Page, name: string): Promise<void> {
-  await page.evaluate(() => window.scrollTo(0, 0));
-  await page.screenshot({ path: `${artifacts}/recalibration-${name}.png`, fullPage: true });
-}
-
 /** Vuetify lays its field over the input, hence force. */
 async function choose(page: Page, label: string, option: RegExp): Promise<void> {
   await page.getByRole('combobox', { name: label }).click({ force: true });
   await page.getByRole('option', { name: option }).click();
 }
 
-beforeAll(async () => {
-  mkdirSync(artifacts, { recursive: true });
+const browser = useAppAndBrowser(async () => {
   await initDatabase(false);
   const scores: { id: string }[] = await dataSource.query('SELECT id FROM scores WHERE name = $1', [KESTREL_SCORE_NAME]);
   expect(scores.length, 'the demo seed has the Kestrel score').toBe(1);
@@ -77,54 +49,53 @@ beforeAll(async () => {
   );
   expect(runs.length, `the demo seed has a completed Kestrel v2 run on ${DERIVATION_QUARTER}`).toBe(1);
   sourceRunId = runs[0].id;
-  browser = await startAppAndBrowser();
-});
-
-afterAll(async () => {
-  await stopAppAndBrowser(browser);
 });
 
 describe('propose a recalibrated version, validate it on a later quarter, sign it', () => {
   it('the statistician proposes a logistic recalibration from the 2025-Q1 run', async () => {
-    const page = await pageFor('statistician@demo.test');
-    await step(page, 'propose', async () => {
-      await page.goto(`${appUrl}/runs/${sourceRunId}`);
-      await page.getByRole('heading', { name: new RegExp(`${KESTREL_SCORE_NAME} v2 on`) }).waitFor({ timeout: 30_000 });
-      // The run page answers "Is the cohort big enough?" from the run's own counts and AUC.
-      const adequacy = page.locator('[data-test="adequacy-panel"]');
-      await adequacy.waitFor();
-      expect(await adequacy.locator('[data-test="adequacy-auc"]').innerText()).toMatch(/the AUC of this run/);
-      expect(await adequacy.locator('[data-test="adequacy-verdict"]').innerText()).toMatch(/Preferred size met|Minimum met|Below the minimum/);
+    await inTab(
+      browser(),
+      'recalibration-propose',
+      async (page) => {
+        await page.goto(`${appUrl}/runs/${sourceRunId}`);
+        await page.getByRole('heading', { name: new RegExp(`${KESTREL_SCORE_NAME} v2 on`) }).waitFor();
+        // The run page answers "Is the cohort big enough?" from the run's own counts and AUC.
+        const adequacy = page.locator('[data-test="adequacy-panel"]');
+        await adequacy.waitFor();
+        expect(await adequacy.locator('[data-test="adequacy-auc"]').innerText()).toMatch(/the AUC of this run/);
+        expect(await adequacy.locator('[data-test="adequacy-verdict"]').innerText()).toMatch(/Preferred size met|Minimum met|Below the minimum/);
 
-      await page.getByRole('button', { name: 'Propose recalibrated version' }).click();
-      const dialog = page.getByRole('dialog');
-      await dialog.getByText('Logistic recalibration', { exact: true }).click();
-      await dialog.getByRole('button', { name: 'Preview' }).click();
-      await dialog.getByRole('table', { name: 'Calibration before and after' }).waitFor({ timeout: 30_000 });
-      expect(await dialog.innerText()).toMatch(/Chosen: logistic recalibration/);
-      await dialog.getByRole('img', { name: 'Calibration before and after the proposed update' }).waitFor();
-      await page.screenshot({ path: `${artifacts}/recalibration-preview.png` });
+        await page.getByRole('button', { name: 'Propose recalibrated version' }).click();
+        const dialog = page.getByRole('dialog');
+        await dialog.getByText('Logistic recalibration', { exact: true }).click();
+        await dialog.getByRole('button', { name: 'Preview' }).click();
+        await dialog.getByRole('table', { name: 'Calibration before and after' }).waitFor();
+        expect(await dialog.innerText()).toMatch(/Chosen: logistic recalibration/);
+        await dialog.getByRole('img', { name: 'Calibration before and after the proposed update' }).waitFor();
+        await page.screenshot({ path: `${artifactsDir}/recalibration-preview.png` });
 
-      await dialog.getByRole('button', { name: 'Create draft version' }).click();
-      const created = dialog.getByTestId('recalibrated-version');
-      await created.waitFor({ timeout: 30_000 });
-      const text = await created.innerText();
-      expect(text).toMatch(/must be validated on different data \(a later period\) and signed off before clinical use/);
-      newVersion = Number(/Draft version (\d+) created/.exec(text)?.[1]);
-      expect(newVersion).toBeGreaterThan(2);
-      await page.screenshot({ path: `${artifacts}/recalibration-draft-created.png` });
+        await dialog.getByRole('button', { name: 'Create draft version' }).click();
+        const created = dialog.getByTestId('recalibrated-version');
+        await created.waitFor();
+        const text = await created.innerText();
+        expect(text).toMatch(/must be validated on different data \(a later period\) and signed off before clinical use/);
+        newVersion = Number(/Draft version (\d+) created/.exec(text)?.[1]);
+        expect(newVersion).toBeGreaterThan(2);
+        await page.screenshot({ path: `${artifactsDir}/recalibration-draft-created.png` });
 
-      // The version history lists the draft, linked to the run it came from, not approved and not yet used.
-      await created.getByRole('link', { name: 'Open the score’s version history' }).click();
-      await page.waitForURL(`**/scores/${scoreId}`);
-      const row = page.getByRole('row').filter({ hasText: `v${newVersion}` }).first();
-      await row.waitFor({ timeout: 15_000 });
-      const rowText = await row.innerText();
-      expect(rowText).toMatch(/recalibrated from/);
-      expect(rowText).toMatch(/not approved/);
-      expect(rowText).toMatch(/not yet used/);
-      await shot(page, 'version-history');
-    });
+        // The version history lists the draft, linked to the run it came from, not approved and not yet used.
+        await created.getByRole('link', { name: 'Open the score’s version history' }).click();
+        await page.waitForURL(`**/scores/${scoreId}`);
+        const row = page.getByRole('row').filter({ hasText: `v${newVersion}` }).first();
+        await row.waitFor();
+        const rowText = await row.innerText();
+        expect(rowText).toMatch(/recalibrated from/);
+        expect(rowText).toMatch(/not approved/);
+        expect(rowText).toMatch(/not yet used/);
+        await screenshot(page, 'recalibration-version-history');
+      },
+      'statistician@demo.test',
+    );
     const rows: { id: string; derived_from_run_id: string }[] = await dataSource.query(
       'SELECT id, derived_from_run_id FROM score_versions WHERE score_id = $1 AND version = $2',
       [scoreId, newVersion],
@@ -134,80 +105,96 @@ describe('propose a recalibrated version, validate it on a later quarter, sign i
   });
 
   it('the statistician runs the draft on the later quarter 2025-Q3, sees it complete and reviews it', async () => {
-    const page = await pageFor('statistician@demo.test');
-    await step(page, 'validate', async () => {
-      await page.goto(`${appUrl}/runs/new`);
-      await choose(page, 'Score version', new RegExp(`^${KESTREL_SCORE_NAME} — version ${newVersion}$`));
-      await choose(page, 'Cohort version', new RegExp(`version ${laterCohortVersion} · ${LATER_QUARTER}`));
-      await page.getByRole('button', { name: 'Queue the run' }).click();
-      await page.waitForURL(/\/runs\/[0-9a-f-]{36}$/, { timeout: 15_000 });
-      newRunId = page.url().split('/').pop()!;
-      await page.getByRole('heading', { name: new RegExp(`${KESTREL_SCORE_NAME} v${newVersion} on .* · ${LATER_QUARTER}`) }).waitFor();
-      // The page polls while the run waits and computes; the headline figures appear when it has completed.
-      await page.getByText('AUC (c-statistic)', { exact: true }).first().waitFor({ timeout: 180_000 });
-      await page.locator('[data-test="adequacy-panel"]').waitFor();
-      await page.getByRole('img', { name: 'Calibration plot' }).waitFor();
-      await shot(page, 'validation-run');
+    await inTab(
+      browser(),
+      'recalibration-validate',
+      async (page) => {
+        await page.goto(`${appUrl}/runs/new`);
+        await choose(page, 'Score version', new RegExp(`^${KESTREL_SCORE_NAME} — version ${newVersion}$`));
+        await choose(page, 'Cohort version', new RegExp(`version ${laterCohortVersion} · ${LATER_QUARTER}`));
+        await page.getByRole('button', { name: 'Queue the run' }).click();
+        await page.waitForURL(/\/runs\/[0-9a-f-]{36}$/);
+        newRunId = page.url().split('/').pop()!;
+        await page.getByRole('heading', { name: new RegExp(`${KESTREL_SCORE_NAME} v${newVersion} on .* · ${LATER_QUARTER}`) }).waitFor();
+        // The page polls while the run waits and computes; the headline figures appear when it has completed.
+        await page.getByText('AUC (c-statistic)', { exact: true }).first().waitFor({ timeout: 180_000 });
+        await page.locator('[data-test="adequacy-panel"]').waitFor();
+        await page.getByRole('img', { name: 'Calibration plot' }).waitFor();
+        await screenshot(page, 'recalibration-validation-run');
 
-      await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor();
-      await choose(page, 'Verdict', /^fit for use$/);
-      await page.getByLabel('Reasoning').fill(`Recalibrated v${newVersion} checked on ${LATER_QUARTER}, a later quarter than the one it was fitted on.`);
-      await page.getByRole('button', { name: 'Save review' }).click();
-      await page.getByText('awaiting the chair’s decision').waitFor();
-    });
+        await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor();
+        await choose(page, 'Verdict', /^fit for use$/);
+        await page.getByLabel('Reasoning').fill(`Recalibrated v${newVersion} checked on ${LATER_QUARTER}, a later quarter than the one it was fitted on.`);
+        await page.getByRole('button', { name: 'Save review' }).click();
+        await page.getByText('awaiting the chair’s decision').waitFor();
+      },
+      'statistician@demo.test',
+    );
     const [run]: { status: string; score_version_id: string }[] = await dataSource.query('SELECT status, score_version_id FROM validation_runs WHERE id = $1', [newRunId]);
     expect(run).toEqual({ status: 'completed', score_version_id: newVersionId });
   });
 
   it('the cohort page of 2025-Q3 answers "is it big enough?" with the AUC of a run on that quarter', async () => {
-    const page = await pageFor('statistician@demo.test');
-    await step(page, 'cohort', async () => {
-      await page.goto(`${appUrl}/cohorts/${cohortId}?version=${laterCohortVersion}`);
-      const panel = page.locator('[data-test="adequacy-panel"]');
-      await panel.waitFor({ timeout: 20_000 });
-      expect(await panel.locator('[data-test="adequacy-auc"]').innerText()).toMatch(/latest completed run on this cohort version/);
-      expect(await panel.getByRole('table', { name: 'Expected precision from this cohort' }).innerText()).toMatch(/Calibration slope/);
-      await panel.scrollIntoViewIfNeeded();
-      await page.screenshot({ path: `${artifacts}/recalibration-cohort-adequacy.png` });
-      // The link carries the cohort's event rate and AUC into the planner, which computes at once.
-      await panel.getByRole('link', { name: 'Plan the size of a cohort' }).click();
-      await page.waitForURL(/\/sample-size\?/);
-      await page.getByTestId('sample-size-largest').waitFor({ timeout: 20_000 });
-    });
+    await inTab(
+      browser(),
+      'recalibration-cohort',
+      async (page) => {
+        await page.goto(`${appUrl}/cohorts/${cohortId}?version=${laterCohortVersion}`);
+        const panel = page.locator('[data-test="adequacy-panel"]');
+        await panel.waitFor();
+        expect(await panel.locator('[data-test="adequacy-auc"]').innerText()).toMatch(/latest completed run on this cohort version/);
+        expect(await panel.getByRole('table', { name: 'Expected precision from this cohort' }).innerText()).toMatch(/Calibration slope/);
+        await panel.scrollIntoViewIfNeeded();
+        await page.screenshot({ path: `${artifactsDir}/recalibration-cohort-adequacy.png` });
+        // The link carries the cohort's event rate and AUC into the planner, which computes at once.
+        await panel.getByRole('link', { name: 'Plan the size of a cohort' }).click();
+        await page.waitForURL(/\/sample-size\?/);
+        await page.getByTestId('sample-size-largest').waitFor();
+      },
+      'statistician@demo.test',
+    );
   });
 
   it('the chair signs the validation run of the new version after re-entering the password', async () => {
-    const page = await pageFor('chair@demo.test');
-    await step(page, 'sign', async () => {
-      await page.goto(`${appUrl}/signoff-queue`);
-      const row = page.getByRole('row').filter({ hasText: `v${newVersion}` }).filter({ hasText: LATER_QUARTER });
-      await row.getByRole('link', { name: 'Open' }).click();
-      await page.waitForURL(`**/runs/${newRunId}`);
-      await page.getByRole('button', { name: 'Approve for clinical use' }).click();
-      const dialog = page.locator('[data-test="signature-dialog"]');
-      await dialog.getByText('Meaning of this signature: approve for clinical use.').waitFor();
-      await dialog.getByLabel('Re-enter your password to sign').fill(DEMO_PASSWORD);
-      await dialog.getByRole('button', { name: 'Sign' }).click();
-      const signed = page.locator('tr[data-meaning="approve for clinical use"]');
-      await signed.waitFor();
-      expect(await signed.innerText()).toMatch(/Dr\. Imogen Hartwell/);
-      await shot(page, 'signed');
-    });
+    await inTab(
+      browser(),
+      'recalibration-sign',
+      async (page) => {
+        await page.goto(`${appUrl}/signoff-queue`);
+        const row = page.getByRole('row').filter({ hasText: `v${newVersion}` }).filter({ hasText: LATER_QUARTER });
+        await row.getByRole('link', { name: 'Open' }).click();
+        await page.waitForURL(`**/runs/${newRunId}`);
+        await page.getByRole('button', { name: 'Approve for clinical use' }).click();
+        const dialog = page.locator('[data-test="signature-dialog"]');
+        await dialog.getByText('Meaning of this signature: approve for clinical use.').waitFor();
+        await dialog.getByLabel('Re-enter your password to sign').fill(DEMO_PASSWORD);
+        await dialog.getByRole('button', { name: 'Sign' }).click();
+        const signed = page.locator('tr[data-meaning="approve for clinical use"]');
+        await signed.waitFor();
+        expect(await signed.innerText()).toMatch(/Dr\. Imogen Hartwell/);
+        await screenshot(page, 'recalibration-signed');
+      },
+      'chair@demo.test',
+    );
     const [v]: { clinical_status: string; approved_run_id: string }[] = await dataSource.query('SELECT clinical_status, approved_run_id FROM score_versions WHERE id = $1', [newVersionId]);
     expect(v).toEqual({ clinical_status: 'approved', approved_run_id: newRunId });
   });
 
   it('the clinician’s score card names the new version', async () => {
-    const page = await pageFor('clinician@demo.test');
-    await step(page, 'scorecard', async () => {
-      await page.goto(`${appUrl}/scorecards`);
-      const card = page.locator(`.score-card[data-version="${newVersionId}"]`);
-      await card.waitFor({ timeout: 15_000 });
-      expect(await card.innerText()).toMatch(new RegExp(`Version ${newVersion} · approved for clinical use`));
-      await card.getByRole('note', { name: 'Clinical-use caution' }).waitFor();
-      expect(await card.locator('[data-test="approval"]').innerText()).toMatch(/Approved by Dr\. Imogen Hartwell/);
-      await card.scrollIntoViewIfNeeded();
-      await page.screenshot({ path: `${artifacts}/recalibration-scorecard.png` });
-    });
+    await inTab(
+      browser(),
+      'recalibration-scorecard',
+      async (page) => {
+        await page.goto(`${appUrl}/scorecards`);
+        const card = page.locator(`.score-card[data-version="${newVersionId}"]`);
+        await card.waitFor();
+        expect(await card.innerText()).toMatch(new RegExp(`Version ${newVersion} · approved for clinical use`));
+        await card.getByRole('note', { name: 'Clinical-use caution' }).waitFor();
+        expect(await card.locator('[data-test="approval"]').innerText()).toMatch(/Approved by Dr\. Imogen Hartwell/);
+        await card.scrollIntoViewIfNeeded();
+        await page.screenshot({ path: `${artifactsDir}/recalibration-scorecard.png` });
+      },
+      'clinician@demo.test',
+    );
   });
 });

@@ -1,31 +1,15 @@
 // Each demo role signs in through the form and sees exactly its own navigation; a wrong password
 // gets the same generic refusal as an unknown e-mail.
-import { mkdirSync } from 'node:fs';
-import path from 'node:path';
-import { fileURLToPath } from 'node:url';
 import type { Page } from 'playwright-core';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { ROLE_LABELS, ROLES } from '@shared/roles';
 import { navigation, navigationFor } from '../../client/src/navigation';
 import { DEMO_PASSWORD } from '../../server/src/config';
-import { appUrl, startAppServer, stopAppServer } from '../helpers/appServer';
-import { launchBrowser, signIn, submitSignIn, type BrowserSession } from '../helpers/browser';
+import { appUrl } from '../helpers/appServer';
+import { inTab, screenshot, signIn, submitSignIn, useAppAndBrowser } from '../helpers/browser';
 
-const artifacts = fileURLToPath(new URL('../artifacts', import.meta.url));
 const email = (role: string) => `${role}@demo.test`;
-
-let browser: BrowserSession;
-
-beforeAll(async () => {
-  mkdirSync(artifacts, { recursive: true });
-  await startAppServer();
-  browser = await launchBrowser();
-});
-
-afterAll(async () => {
-  await browser?.close();
-  await stopAppServer();
-});
+const browser = useAppAndBrowser();
 
 const mainNavigation = (page: Page) => page.getByRole('navigation', { name: 'Main navigation' });
 
@@ -35,10 +19,12 @@ async function navigationTitles(page: Page): Promise<string[]> {
   return (await links.allInnerTexts()).map((t) => t.trim());
 }
 
+const signInButton = (page: Page) => page.getByRole('button', { name: 'Sign in' });
+const leftSignIn = (page: Page) => page.waitForURL((url) => !url.pathname.startsWith('/sign-in'));
+
 describe('sign-in in the browser', () => {
-  it('refuses a wrong password and an unknown e-mail with the same generic message', async () => {
-    const page = await browser.context.newPage();
-    try {
+  it('refuses a wrong password and an unknown e-mail with the same generic message', () =>
+    inTab(browser(), 'signin-wrong-password', async (page) => {
       await submitSignIn(page, email('clinician'), 'not-the-password-1');
       const error = page.getByTestId('sign-in-error');
       await error.waitFor();
@@ -46,35 +32,64 @@ describe('sign-in in the browser', () => {
       expect(wrongPassword).toMatch(/not correct/i);
       expect(new URL(page.url()).pathname).toBe('/sign-in');
       expect(await page.evaluate(() => sessionStorage.getItem('plumbline.session'))).toBeNull();
-      await page.screenshot({ path: path.join(artifacts, 'signin-wrong-password.png') });
+      await screenshot(page, 'signin-wrong-password');
 
       await submitSignIn(page, 'nobody-here@demo.test', 'not-the-password-1');
       await page.getByTestId('sign-in-error').waitFor();
       expect((await page.getByTestId('sign-in-error').innerText()).trim()).toBe(wrongPassword);
-    } finally {
-      await page.close();
-    }
-  });
+    }));
 
-  it('sends a signed-out visitor to sign-in and back to the page they wanted', async () => {
-    const page = await browser.context.newPage();
-    try {
+  it('never disables the button for empty fields: pressing it shows what is missing', () =>
+    inTab(browser(), 'signin-empty', async (page) => {
+      await page.goto(`${appUrl}/sign-in`);
+      await expect.poll(() => signInButton(page).isEnabled()).toBe(true);
+      await signInButton(page).click();
+      await page.getByText('Required').first().waitFor();
+      expect(await page.getByText('Required').count()).toBe(2);
+      expect(new URL(page.url()).pathname).toBe('/sign-in');
+    }));
+
+  it('signs in with Enter in the password field', () =>
+    inTab(browser(), 'signin-enter', async (page) => {
+      await page.goto(`${appUrl}/sign-in`);
+      await page.getByLabel('E-mail').fill(email('statistician'));
+      await page.getByLabel('Password', { exact: true }).fill(DEMO_PASSWORD);
+      await page.getByLabel('Password', { exact: true }).press('Enter');
+      await leftSignIn(page);
+      expect(await page.evaluate(() => sessionStorage.getItem('plumbline.session'))).not.toBeNull();
+    }));
+
+  it('signs in when a password manager sets the fields without input events', () =>
+    inTab(browser(), 'signin-autofill', async (page) => {
+      await page.goto(`${appUrl}/sign-in`);
+      await page.getByLabel('E-mail').waitFor();
+      // Set the DOM values directly, as some password managers do: no input or change event reaches the app.
+      await page.evaluate(
+        ([user, secret]) => {
+          (document.querySelector('input[name="email"]') as HTMLInputElement).value = user;
+          (document.querySelector('input[name="password"]') as HTMLInputElement).value = secret;
+        },
+        [email('steward'), DEMO_PASSWORD],
+      );
+      await signInButton(page).click();
+      await leftSignIn(page);
+      expect(await page.evaluate(() => sessionStorage.getItem('plumbline.session'))).not.toBeNull();
+    }));
+
+  it('sends a signed-out visitor to sign-in and back to the page they wanted', () =>
+    inTab(browser(), 'signin-redirect', async (page) => {
       await page.goto(`${appUrl}/account`);
       await page.waitForURL((url) => url.pathname === '/sign-in');
       expect(new URL(page.url()).searchParams.get('redirect')).toBe('/account');
       await page.getByLabel('E-mail').fill(email('steward'));
       await page.getByLabel('Password', { exact: true }).fill(DEMO_PASSWORD);
-      await page.getByRole('button', { name: 'Sign in' }).click();
+      await signInButton(page).click();
       await page.waitForURL((url) => url.pathname === '/account');
       await page.getByRole('heading', { name: 'My account' }).waitFor();
-    } finally {
-      await page.close();
-    }
-  });
+    }));
 
-  it('ends a session the server no longer accepts and says why on the sign-in page', async () => {
-    const page = await browser.context.newPage();
-    try {
+  it('ends a session the server no longer accepts and says why on the sign-in page', () =>
+    inTab(browser(), 'signin-ended', async (page) => {
       await signIn(page, email('chair'));
       // Spoil the stored token's signature: the next API call answers 401.
       await page.evaluate(() => {
@@ -84,18 +99,14 @@ describe('sign-in in the browser', () => {
       });
       await page.goto(`${appUrl}/account`);
       await page.waitForURL((url) => url.pathname === '/sign-in');
+      await page.getByTestId('sign-in-notice').waitFor();
       expect(await page.getByTestId('sign-in-notice').innerText()).toMatch(/session has ended/i);
       expect(await page.evaluate(() => sessionStorage.getItem('plumbline.session'))).toBeNull();
-    } finally {
-      await page.close();
-    }
-  });
+    }));
 
   for (const role of ROLES) {
-    it(`shows the ${role} exactly the ${role}'s navigation`, async () => {
-      // A new tab has its own sessionStorage, so each role starts signed out.
-      const page = await browser.context.newPage();
-      try {
+    it(`shows the ${role} exactly the ${role}'s navigation`, () =>
+      inTab(browser(), `signin-${role}`, async (page) => {
         await signIn(page, email(role));
         expect(new URL(page.url()).pathname).toBe('/');
 
@@ -109,11 +120,16 @@ describe('sign-in in the browser', () => {
         // The landing page speaks to this role.
         await page.getByText(ROLE_LABELS[role], { exact: true }).first().waitFor();
         const caution = page.getByRole('note', { name: 'Clinical-use caution' });
-        expect(await caution.count()).toBe(role === 'clinician' ? 1 : 0);
-        if (role === 'clinician') expect(await caution.innerText()).toMatch(/not medical advice/i);
+        if (role === 'clinician') {
+          await caution.first().waitFor();
+          expect(await caution.count()).toBe(1);
+          expect(await caution.innerText()).toMatch(/not medical advice/i);
+        } else {
+          expect(await caution.count()).toBe(0);
+        }
 
         await page.evaluate(() => document.fonts.ready);
-        await page.screenshot({ path: path.join(artifacts, `signin-${role}.png`), fullPage: true });
+        await screenshot(page, `signin-${role}`);
 
         // Hiding a link is not the guard: a non-admin who types the address is told plainly.
         if (role !== 'admin') {
@@ -124,7 +140,7 @@ describe('sign-in in the browser', () => {
           await mainNavigation(page).getByRole('link', { name: 'Accounts' }).click();
           await page.waitForURL((url) => url.pathname === '/admin/accounts');
           for (const r of ROLES) await page.getByRole('cell', { name: email(r), exact: true }).waitFor();
-          await page.screenshot({ path: path.join(artifacts, 'admin-accounts.png'), fullPage: true });
+          await screenshot(page, 'admin-accounts');
 
           await mainNavigation(page).getByRole('link', { name: 'Audit trail' }).click();
           await page.waitForURL((url) => url.pathname === '/admin/audit');
@@ -132,7 +148,7 @@ describe('sign-in in the browser', () => {
           await page.getByRole('button', { name: 'Check the chain' }).click();
           await page.getByTestId('chain-result').waitFor();
           expect(await page.getByTestId('chain-result').innerText()).toMatch(/chain is unbroken/i);
-          await page.screenshot({ path: path.join(artifacts, 'admin-audit.png'), fullPage: true });
+          await screenshot(page, 'admin-audit');
         }
 
         // Signing out from the account menu ends the session.
@@ -140,9 +156,6 @@ describe('sign-in in the browser', () => {
         await page.getByRole('listitem').filter({ hasText: 'Sign out' }).click();
         await page.waitForURL((url) => url.pathname === '/sign-in');
         expect(await page.evaluate(() => sessionStorage.getItem('plumbline.session'))).toBeNull();
-      } finally {
-        await page.close();
-      }
-    });
+      }));
   }
 });

@@ -3,19 +3,15 @@
 // The run is inserted as a completed record with invented figures (this checks the workflow, not the statistics).
 import 'reflect-metadata';
 import { createHash, randomUUID } from 'node:crypto';
-import { mkdirSync } from 'node:fs';
-import { fileURLToPath } from 'node:url';
-import type { Page } from 'playwright-core';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { DEMO_PASSWORD } from '../../server/src/config';
 import { dataSource, initDatabase } from '../../server/src/db/dataSource';
-import { signIn, startAppAndBrowser, stopAppAndBrowser, type BrowserSession } from '../helpers/browser';
+import { appUrl } from '../helpers/appServer';
+import { inTab, useAppAndBrowser } from '../helpers/browser';
 import { createCohortFixture, createScoreFixture, kestrelRows } from '../helpers/fixtures';
 
-const artifacts = fileURLToPath(new URL('../artifacts', import.meta.url));
 const est = (estimate: number, lower: number, upper: number) => ({ estimate, lower, upper });
 
-let browser: BrowserSession;
 let runId: string;
 let scoreName: string;
 let versionId: string;
@@ -48,85 +44,66 @@ async function insertCompletedRun(scoreVersionId: string, cohortVersionId: strin
   return rows[0].id;
 }
 
-async function pageFor(email: string): Promise<Page> {
-  const page = await browser.context.newPage(); // a new tab has its own sessionStorage, so its own session
-  await signIn(page, email, DEMO_PASSWORD);
-  return page;
-}
-
-beforeAll(async () => {
-  mkdirSync(artifacts, { recursive: true });
+const browser = useAppAndBrowser(async () => {
   await initDatabase(false);
   scoreName = `Browser sign-off score ${randomUUID().slice(0, 6)}`;
   const score = await createScoreFixture({ name: scoreName });
   versionId = score.scoreVersionId;
   const cohort = await createCohortFixture(kestrelRows(40, 5), { label: 'Browser fixture quarter' });
   runId = await insertCompletedRun(score.scoreVersionId, cohort.cohortVersionId);
-  browser = await startAppAndBrowser();
-});
-
-afterAll(async () => {
-  await stopAppAndBrowser(browser);
 });
 
 describe('review, sign-off and score card in the browser', () => {
-  it('the statistician records a review on the run page', async () => {
-    const page = await pageFor('statistician@demo.test');
-    try {
-      await page.goto(`${new URL(page.url()).origin}/runs/${runId}`);
-      await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor({ timeout: 20_000 });
-      await page.getByRole('combobox', { name: 'Verdict' }).click({ force: true }); // Vuetify lays its field over the input
-      await page.getByRole('option', { name: 'fit for use', exact: true }).click();
-      await page.getByLabel('Reasoning').fill('AUC and calibration match the published figures; no subgroup concerns.');
-      await page.getByRole('button', { name: 'Save review' }).click();
-      await page.getByText('awaiting the chair’s decision').waitFor();
-    } catch (err) {
-      await page.screenshot({ path: `${artifacts}/signoff-statistician.png`, fullPage: true });
-      throw err;
-    } finally {
-      await page.close();
-    }
-  });
+  it('the statistician records a review on the run page', () =>
+    inTab(
+      browser(),
+      'signoff-statistician',
+      async (page) => {
+        await page.goto(`${appUrl}/runs/${runId}`);
+        await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor();
+        await page.getByRole('combobox', { name: 'Verdict' }).click({ force: true }); // Vuetify lays its field over the input
+        await page.getByRole('option', { name: 'fit for use', exact: true }).click();
+        await page.getByLabel('Reasoning').fill('AUC and calibration match the published figures; no subgroup concerns.');
+        await page.getByRole('button', { name: 'Save review' }).click();
+        await page.getByText('awaiting the chair’s decision').waitFor();
+      },
+      'statistician@demo.test',
+    ));
 
-  it('the chair finds it in the queue and signs after re-entering the password', async () => {
-    const page = await pageFor('chair@demo.test');
-    try {
-      await page.goto(`${new URL(page.url()).origin}/signoff-queue`);
-      const row = page.getByRole('row').filter({ hasText: scoreName });
-      await row.getByRole('link', { name: 'Open' }).click();
-      await page.getByRole('button', { name: 'Approve for clinical use' }).click();
-      const dialog = page.locator('[data-test="signature-dialog"]');
-      await expect(dialog.getByText('Meaning of this signature: approve for clinical use.')).toBeTruthy();
-      await dialog.getByText('Meaning of this signature: approve for clinical use.').waitFor();
-      await expect(await dialog.getByRole('button', { name: 'Sign' }).isDisabled()).toBe(true); // no password yet
-      await dialog.getByLabel('Re-enter your password to sign').fill(DEMO_PASSWORD);
-      await dialog.getByRole('button', { name: 'Sign' }).click();
-      const signed = page.locator('tr[data-meaning="approve for clinical use"]');
-      await signed.waitFor();
-      expect(await signed.innerText()).toMatch(/Dr\. Imogen Hartwell/);
-      expect(await signed.innerText()).toMatch(/UTC/);
-    } catch (err) {
-      await page.screenshot({ path: `${artifacts}/signoff-chair.png`, fullPage: true });
-      throw err;
-    } finally {
-      await page.close();
-    }
-  });
+  it('the chair finds it in the queue and signs after re-entering the password', () =>
+    inTab(
+      browser(),
+      'signoff-chair',
+      async (page) => {
+        await page.goto(`${appUrl}/signoff-queue`);
+        const row = page.getByRole('row').filter({ hasText: scoreName });
+        await row.getByRole('link', { name: 'Open' }).click();
+        await page.getByRole('button', { name: 'Approve for clinical use' }).click();
+        const dialog = page.locator('[data-test="signature-dialog"]');
+        await dialog.getByText('Meaning of this signature: approve for clinical use.').waitFor();
+        expect(await dialog.getByRole('button', { name: 'Sign' }).isDisabled(), 'no password yet').toBe(true);
+        await dialog.getByLabel('Re-enter your password to sign').fill(DEMO_PASSWORD);
+        await dialog.getByRole('button', { name: 'Sign' }).click();
+        const signed = page.locator('tr[data-meaning="approve for clinical use"]');
+        await signed.waitFor();
+        expect(await signed.innerText()).toMatch(/Dr\. Imogen Hartwell/);
+        expect(await signed.innerText()).toMatch(/UTC/);
+      },
+      'chair@demo.test',
+    ));
 
-  it('the clinician sees the score card with the clinical-use caution on it', async () => {
-    const page = await pageFor('clinician@demo.test');
-    try {
-      await page.goto(`${new URL(page.url()).origin}/scorecards`);
-      const card = page.locator(`.score-card[data-version="${versionId}"]`);
-      await card.waitFor({ timeout: 15_000 });
-      await card.getByRole('note', { name: 'Clinical-use caution' }).waitFor();
-      expect(await card.innerText()).toMatch(/AUC/);
-      expect(await card.locator('[data-test="approval"]').innerText()).toMatch(/Approved by Dr\. Imogen Hartwell/);
-    } catch (err) {
-      await page.screenshot({ path: `${artifacts}/signoff-clinician.png`, fullPage: true });
-      throw err;
-    } finally {
-      await page.close();
-    }
-  });
+  it('the clinician sees the score card with the clinical-use caution on it', () =>
+    inTab(
+      browser(),
+      'signoff-clinician',
+      async (page) => {
+        await page.goto(`${appUrl}/scorecards`);
+        const card = page.locator(`.score-card[data-version="${versionId}"]`);
+        await card.waitFor();
+        await card.getByRole('note', { name: 'Clinical-use caution' }).waitFor();
+        expect(await card.innerText()).toMatch(/AUC/);
+        expect(await card.locator('[data-test="approval"]').innerText()).toMatch(/Approved by Dr\. Imogen Hartwell/);
+      },
+      'clinician@demo.test',
+    ));
 });

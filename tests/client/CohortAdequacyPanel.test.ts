@@ -9,11 +9,6 @@ import { adequacyVerdict, PRECISION_ASSUMPTION, type CohortAdequacy } from '@sha
 import CohortAdequacyPanel from '@/components/CohortAdequacyPanel.vue';
 
 const vuetify = createVuetify();
-globalThis.ResizeObserver ??= class {
-  observe() {}
-  unobserve() {}
-  disconnect() {}
-} as unknown as typeof ResizeObserver;
 
 function adequacy(events: number, nonEvents: number, over: Partial<CohortAdequacy> = {}): CohortAdequacy {
   const n = events + nonEvents;

@@ -6,11 +6,6 @@ import RunSubgroupTable from '@/components/RunSubgroupTable.vue';
 import { toCsv } from '../../client/src/plugins/charts';
 
 const vuetify = createVuetify();
-globalThis.ResizeObserver ??= class {
-  observe() {}
-  unobserve() {}
-  disconnect() {}
-} as unknown as typeof ResizeObserver;
 
 const est = (estimate: number) => ({ estimate, lower: estimate - 0.05, upper: estimate + 0.05 });
 

@@ -5,12 +5,6 @@ import { createVuetify } from 'vuetify';
 import ScoreVersionForm from '@/components/ScoreVersionForm.vue';
 
 const vuetify = createVuetify();
-// Vuetify's layout code asks for ResizeObserver, which happy-dom lacks.
-globalThis.ResizeObserver ??= class {
-  observe() {}
-  unobserve() {}
-  disconnect() {}
-} as unknown as typeof ResizeObserver;
 
 const startFrom = {
   id: 'v1', scoreId: 's', version: 1, mode: 'formula' as const, probabilityColumn: null, changeNote: '', derivedFromRunId: null, derivation: null,

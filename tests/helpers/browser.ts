@@ -1,11 +1,17 @@
 // Debian's Chromium driven by playwright-core: never a downloaded browser.
+import { mkdirSync } from 'node:fs';
 import { mkdtemp, rm } from 'node:fs/promises';
 import os from 'node:os';
 import path from 'node:path';
+import { fileURLToPath } from 'node:url';
 import { chromium, type BrowserContext, type Page } from 'playwright-core';
+import { afterAll, beforeAll } from 'vitest';
 import { DEMO_PASSWORD } from '../../server/src/config';
 import { closeDatabase } from '../../server/src/db/dataSource';
 import { appUrl, startAppServer, stopAppServer } from './appServer';
+
+/** Screenshots of the browser tests (ignored by git). */
+export const artifactsDir = fileURLToPath(new URL('../artifacts', import.meta.url));
 
 export const CHROMIUM_PATH = process.env.PLUMBLINE_CHROMIUM ?? '/usr/bin/chromium';
 
@@ -34,6 +40,9 @@ export async function launchBrowser(): Promise<BrowserSession> {
     viewport: { width: 1366, height: 820 },
     locale: 'en-GB',
   });
+  // Generous on a busy machine: every wait is for something a person would wait for, so a long limit costs nothing when all is well.
+  context.setDefaultTimeout(60_000);
+  context.setDefaultNavigationTimeout(60_000);
   return {
     context,
     close: async () => {
@@ -56,6 +65,54 @@ export async function stopAppAndBrowser(browser: BrowserSession | undefined): Pr
   await closeDatabase();
 }
 
+/**
+ * The set-up every browser test file shares: its own fixtures first (`prepare`), then the app server and Chromium,
+ * all stopped after the file. Returns a getter for the browser session.
+ */
+export function useAppAndBrowser(prepare?: () => Promise<void>): () => BrowserSession {
+  let session: BrowserSession | undefined;
+  beforeAll(async () => {
+    mkdirSync(artifactsDir, { recursive: true });
+    await prepare?.();
+    session = await startAppAndBrowser();
+  });
+  afterAll(async () => {
+    await stopAppAndBrowser(session);
+  });
+  return () => {
+    if (!session) throw new Error('the app server and browser did not start');
+    return session;
+  };
+}
+
+/** A full-page screenshot in tests/artifacts, taken from the top (the app bar is fixed: a scrolled shot draws it mid-page). */
+export async function screenshot(page: Page, name: string): Promise<void> {
+  await page.evaluate(() => window.scrollTo(0, 0));
+  await page.screenshot({ path: path.join(artifactsDir, `${name}.png`), fullPage: true });
+}
+
+/**
+ * Runs `body` in a new tab (a tab has its own sessionStorage, so its own session), signed in first when `signInAs`
+ * is given. A failure leaves `<name>-failure.png` in tests/artifacts; the tab is always closed.
+ */
+export async function inTab(
+  session: BrowserSession,
+  name: string,
+  body: (page: Page) => Promise<void>,
+  signInAs?: string,
+): Promise<void> {
+  const page = await session.context.newPage();
+  try {
+    if (signInAs) await signIn(page, signInAs);
+    await body(page);
+  } catch (err) {
+    await page.screenshot({ path: path.join(artifactsDir, `${name}-failure.png`), fullPage: true }).catch(() => undefined);
+    throw err;
+  } finally {
+    await page.close();
+  }
+}
+
 /** Fills the sign-in form and submits it; does not wait for the outcome. */
 export async function submitSignIn(page: Page, email: string, password: string, baseUrl = appUrl): Promise<void> {
   await page.goto(`${baseUrl}/sign-in`);
@@ -67,5 +124,5 @@ export async function submitSignIn(page: Page, email: string, password: string, 
 /** Signs in through the form and waits until the app has left the sign-in page. */
 export async function signIn(page: Page, email: string, password = DEMO_PASSWORD, baseUrl = appUrl): Promise<void> {
   await submitSignIn(page, email, password, baseUrl);
-  await page.waitForURL((url) => !url.pathname.startsWith('/sign-in'), { timeout: 15_000 });
+  await page.waitForURL((url) => !url.pathname.startsWith('/sign-in'));
 }
