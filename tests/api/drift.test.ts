@@ -20,7 +20,7 @@ describe('GET /api/sample-size', () => {
     const res = await request(app).get('/api/sample-size?eventRate=0.018&auc=0.8&ciWidthAuc=0.1&ciWidthOE=1').set(bearer(await tokenFor('statistician')));
     expect(res.status).toBe(200);
     const auc = res.body.criteria.find((c: { criterion: string }) => c.criterion === 'auc');
-    expect(auc.n).toBe(4252); // REFERENCES.md [ref], Riley et al. 2021: φ = 0.018, C = 0.8, width 0.1
+    expect(auc.n).toBe(4252); // docs/references.md [ref], Riley et al. 2021: φ = 0.018, C = 0.8, width 0.1
     expect(res.body.largest.criterion).toBe('auc');
   });
 

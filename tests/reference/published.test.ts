@@ -1,4 +1,4 @@
-// Engine against published worked examples and check values (sources on each expected value; see REFERENCES.md).
+// Engine against published worked examples and check values (sources on each expected value; see docs/references.md).
 import { describe, expect, it } from 'vitest';
 import { validate } from '../../server/src/stats/index';
 import { delongAuc } from '../../server/src/stats/delongAuc';
@@ -23,12 +23,12 @@ describe('Hanley & McNeil (1982) rating example', () => {
 
   it('gives the printed AUC with ties counted one half', () => {
     expect(auc.estimate).toBeCloseTo(0.893, 3); // Hanley & McNeil 1982, printed 0.893 [pub]
-    expect(auc.estimate).toBeCloseTo(0.893171, 6); // exact, REFERENCES.md [ref]
+    expect(auc.estimate).toBeCloseTo(0.893171, 6); // exact, docs/references.md [ref]
   });
   it('gives the DeLong SE and CI', () => {
-    expect(auc.se).toBeCloseTo(0.030724, 6); // DeLong SE, REFERENCES.md [ref] (pROC 1.18)
-    expect(auc.lower).toBeCloseTo(0.83295, 5); // REFERENCES.md [ref]
-    expect(auc.upper).toBeCloseTo(0.95339, 5); // REFERENCES.md [ref]
+    expect(auc.se).toBeCloseTo(0.030724, 6); // DeLong SE, docs/references.md [ref] (pROC 1.18)
+    expect(auc.lower).toBeCloseTo(0.83295, 5); // docs/references.md [ref]
+    expect(auc.upper).toBeCloseTo(0.95339, 5); // docs/references.md [ref]
   });
 });
 
@@ -49,7 +49,7 @@ describe('Newcombe (1998) Wilson score intervals', () => {
 
 describe('Riley et al. (2021) O/E standard error', () => {
   it('n = 905 at φ = 0.018 gives a 95% CI of width ≈ 1 around O/E = 1', () => {
-    // Riley RD et al. 2021 Stat Med 40:4230–4251: n(O/E, CI width 1) = 905–906 at φ = 0.018, REFERENCES.md [ref]
+    // Riley RD et al. 2021 Stat Med 40:4230–4251: n(O/E, CI width 1) = 905–906 at φ = 0.018, docs/references.md [ref]
     const n = 905;
     const o = 0.018 * n;
     const r = oeFromCounts(o, o, n);
@@ -62,7 +62,7 @@ describe('Riley et al. (2021) O/E standard error', () => {
 
 describe('Logistic recalibration identity (exact by construction)', () => {
   it('refitting y on logit(p2), p2 = expit(0.5 + 1.5·logit p), returns intercept −1/3 and slope 2/3', () => {
-    // REFERENCES.md "Exact identity check": if y follows p, it follows a + b·logit(p2) with b = 1/1.5, a = −0.5/1.5
+    // docs/references.md "Exact identity check": if y follows p, it follows a + b·logit(p2) with b = 1/1.5, a = −0.5/1.5
     const n = 400;
     const p = new Float64Array(n);
     const y = new Uint8Array(n);
@@ -98,14 +98,14 @@ describe.skipIf(skipPython)('Spector & Mazzeo (1980) data, as shipped by statsmo
   });
   it('reproduces the logit coefficients, SEs and log-likelihood', () => {
     if (!fit.converged) throw new Error(fit.detail);
-    const expected = [-13.0213483201, 2.82611297201, 0.0951576702557, 2.37868772835]; // REFERENCES.md [ref], Greene to 3 d.p. [mem]
-    const se = [4.93132462871, 1.26294114526, 0.141554207662, 1.06456430165]; // REFERENCES.md [ref]
-    // REFERENCES.md's figures differ from a fully converged fit in the 7th significant digit (statsmodels 0.13.5 with
+    const expected = [-13.0213483201, 2.82611297201, 0.0951576702557, 2.37868772835]; // docs/references.md [ref], Greene to 3 d.p. [mem]
+    const se = [4.93132462871, 1.26294114526, 0.141554207662, 1.06456430165]; // docs/references.md [ref]
+    // docs/references.md's figures differ from a fully converged fit in the 7th significant digit (statsmodels 0.13.5 with
     // tol=1e-14 gives −13.02134686 and llf −12.88963422, as this engine does), so they are checked to 5 decimals here
     // and to 1e-8 against statsmodels itself below.
     fit.coefficients.forEach((c, i) => expect(c).toBeCloseTo(expected[i], 5));
     fit.se.forEach((c, i) => expect(c).toBeCloseTo(se[i], 5));
-    expect(fit.logLik).toBeCloseTo(-12.8896334653335, 5); // REFERENCES.md [ref]
+    expect(fit.logLik).toBeCloseTo(-12.8896334653335, 5); // docs/references.md [ref]
     const sm = runPython(
       'import json, statsmodels.api as sm; d = sm.datasets.spector.load_pandas(); r = sm.Logit(d.endog, sm.add_constant(d.exog)).fit(disp=0, tol=1e-14, maxiter=200); print(json.dumps({"b": r.params.tolist(), "se": r.bse.tolist(), "llf": r.llf}))',
     );
@@ -118,12 +118,12 @@ describe.skipIf(skipPython)('Spector & Mazzeo (1980) data, as shipped by statsmo
     const [b0, b1, b2, b3] = fit.coefficients;
     const p = Float64Array.from(data.GPA.map((g, i) => 1 / (1 + Math.exp(-(b0 + b1 * g + b2 * data.TUCE[i] + b3 * data.PSI[i])))));
     const r = validate(p, y);
-    expect(r.auc.estimate).toBeCloseTo(204 / 231, 10); // 204 of 231 pairs, REFERENCES.md [ref]
-    expect(r.auc.estimate).toBeCloseTo(0.8831169, 7); // REFERENCES.md [ref]
-    expect(r.brier).toBeCloseTo(0.1295053, 7); // REFERENCES.md [ref]
-    expect(r.logLoss).toBeCloseTo(0.4028011, 7); // = −llf/n, REFERENCES.md [ref]
-    expect(r.spiegelhalter.z).toBeCloseTo(0.036263, 6); // REFERENCES.md [ref]
-    expect(r.spiegelhalter.pValue).toBeCloseTo(0.971073, 6); // REFERENCES.md [ref]
+    expect(r.auc.estimate).toBeCloseTo(204 / 231, 10); // 204 of 231 pairs, docs/references.md [ref]
+    expect(r.auc.estimate).toBeCloseTo(0.8831169, 7); // docs/references.md [ref]
+    expect(r.brier).toBeCloseTo(0.1295053, 7); // docs/references.md [ref]
+    expect(r.logLoss).toBeCloseTo(0.4028011, 7); // = −llf/n, docs/references.md [ref]
+    expect(r.spiegelhalter.z).toBeCloseTo(0.036263, 6); // docs/references.md [ref]
+    expect(r.spiegelhalter.pValue).toBeCloseTo(0.971073, 6); // docs/references.md [ref]
     // in-sample, the development fit is calibrated by construction: intercept 0 and slope 1 (score equations)
     const lp = clampedLogit(p);
     const ci = calibrationIntercept(lp, y);

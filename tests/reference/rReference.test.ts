@@ -34,13 +34,13 @@ describe.skipIf(skipR)('pROC DeLong', () => {
     const scaled = (v: number[]) => Float64Array.from(v.map((x) => x / Math.max(...v)));
     const s100b = validate(scaled(d.s100b), y);
     const ndka = validate(scaled(d.ndka), y);
-    expect(y.length).toBe(113); // pROC aSAH: 113 patients, 41 poor outcomes, REFERENCES.md
-    expect(s100b.auc.estimate).toBeCloseTo(0.7313686, 7); // REFERENCES.md [ref]
-    expect(s100b.auc.lower).toBeCloseTo(0.6301182, 7); // REFERENCES.md [ref]
-    expect(s100b.auc.upper).toBeCloseTo(0.8326189, 7); // REFERENCES.md [ref]
-    expect(ndka.auc.estimate).toBeCloseTo(0.611958, 6); // REFERENCES.md [ref]
-    expect(ndka.auc.lower).toBeCloseTo(0.501245, 6); // REFERENCES.md [ref]
-    expect(ndka.auc.upper).toBeCloseTo(0.722671, 6); // REFERENCES.md [ref]
+    expect(y.length).toBe(113); // pROC aSAH: 113 patients, 41 poor outcomes, docs/references.md
+    expect(s100b.auc.estimate).toBeCloseTo(0.7313686, 7); // docs/references.md [ref]
+    expect(s100b.auc.lower).toBeCloseTo(0.6301182, 7); // docs/references.md [ref]
+    expect(s100b.auc.upper).toBeCloseTo(0.8326189, 7); // docs/references.md [ref]
+    expect(ndka.auc.estimate).toBeCloseTo(0.611958, 6); // docs/references.md [ref]
+    expect(ndka.auc.lower).toBeCloseTo(0.501245, 6); // docs/references.md [ref]
+    expect(ndka.auc.upper).toBeCloseTo(0.722671, 6); // docs/references.md [ref]
     const cmp = compareAucs(Float64Array.from(d.s100b), Float64Array.from(d.ndka), y);
     expect(relErr(cmp.z, d.z)).toBeLessThan(1e-9); // pROC roc.test(method = "delong"), run here [ref]
     expect(relErr(cmp.pValue, d.pv)).toBeLessThan(1e-8); // ibid. [ref]
@@ -82,20 +82,20 @@ describe.skipIf(skipR)('Hosmer–Lemeshow on MASS::birthwt', () => {
   const d = runR(`suppressMessages(library(MASS)); ${json}; f <- glm(low ~ age + lwt + factor(race) + smoke + ptl + ht + ui, family = binomial, data = birthwt); toJ(list(p = unname(fitted(f)), y = birthwt$low, ll = as.numeric(logLik(f))))`);
   const s = sortCohort(Float64Array.from(d.p), Uint8Array.from(d.y));
 
-  it('is the cohort REFERENCES.md describes', () => {
-    expect(s.n).toBe(189); // Hosmer & Lemeshow's birthwt as in MASS, REFERENCES.md
+  it('is the cohort docs/references.md describes', () => {
+    expect(s.n).toBe(189); // Hosmer & Lemeshow's birthwt as in MASS, docs/references.md
     expect(s.events).toBe(59);
-    expect(d.ll).toBeCloseTo(-100.7135, 4); // REFERENCES.md [ref]
+    expect(d.ll).toBeCloseTo(-100.7135, 4); // docs/references.md [ref]
   });
   it('10 groups, quantile type 2, ties together: 9.6525 on 8 df', () => {
     const hl = hosmerLemeshow(s, 10, 'quantile-type2');
-    expect(hl.statistic).toBeCloseTo(9.6525, 4); // REFERENCES.md [ref]
+    expect(hl.statistic).toBeCloseTo(9.6525, 4); // docs/references.md [ref]
     expect(hl.df).toBe(8);
-    expect(hl.pValue).toBeCloseTo(0.2903, 4); // REFERENCES.md [ref]
+    expect(hl.pValue).toBeCloseTo(0.2903, 4); // docs/references.md [ref]
   });
   it('10 groups, quantile type 7: 10.398', () => {
     const hl = hosmerLemeshow(s, 10, 'quantile-type7');
-    expect(hl.statistic).toBeCloseTo(10.398, 3); // REFERENCES.md [ref]
-    expect(hl.pValue).toBeCloseTo(0.238, 3); // REFERENCES.md [ref]
+    expect(hl.statistic).toBeCloseTo(10.398, 3); // docs/references.md [ref]
+    expect(hl.pValue).toBeCloseTo(0.238, 3); // docs/references.md [ref]
   });
 });

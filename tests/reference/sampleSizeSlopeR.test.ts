@@ -4,7 +4,7 @@
 // I_ab = E[LP^(a+b) · e^LP / (1 + e^LP)²] over the anticipated distribution of the linear predictor (LP), SE = width / 3.92.
 // Our assumption, not the paper's: with no LP distribution known, LP ~ Normal(μ, σ) with (μ, σ) solved so that
 // E[expit(LP)] equals the event rate and the AUC of a well-calibrated LP equals the anticipated AUC. The paper's worked
-// example used its own model's LP distribution and needs 9,835 participants (REFERENCES.md); under our assumption the
+// example used its own model's LP distribution and needs 9,835 participants (docs/references.md); under our assumption the
 // same event rate (0.018), AUC (0.8) and slope CI width (0.2) need 17,449 — so the paper's number cannot be checked
 // here, and the checks below test our computation of the formula for our LP distribution instead:
 //  (a) I00, I01, I11, the event rate and the AUC of that Normal LP by R's integrate(), within 1e-6 relative (1e-5 for

@@ -7,7 +7,7 @@ import { notFound } from '../middleware/errors';
 import { listReviews, listSignatures } from './governance';
 import { describeInputs } from './scorecards';
 
-/** Methods and where each is published (see /work/shared/REFERENCES.md for the full list the engine follows). */
+/** Methods and where each is published (see docs/references.md for the full list the engine follows). */
 function methods(settings: Partial<RunSettings> | null, results: RunResults | null): MethodNote[] {
   const o = results?.overall;
   return [

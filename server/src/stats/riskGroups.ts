@@ -5,7 +5,7 @@
  * so tied predictions always share a group, and with many ties there may be fewer than g groups.
  * Two quantile definitions (Hyndman RJ, Fan Y (1996) Am Stat 50:361–365): 'quantile-type2' (inverse empirical CDF,
  * averaging at jumps; default — cut points are observed values) and 'quantile-type7' (linear interpolation, R's
- * default quantile). Source for why the choice matters: see REFERENCES.md (birthwt: 9.6525 vs 10.398).
+ * default quantile). Source for why the choice matters: see docs/references.md (birthwt: 9.6525 vs 10.398).
  */
 import { quantileType2, quantileType7, type SortedCohort } from './sortedCohort';
 

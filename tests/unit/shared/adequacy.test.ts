@@ -1,6 +1,6 @@
 // The shared verdict behind "Is the cohort big enough?": both events and non-events must reach a threshold.
 // Thresholds: at least 100 events and 100 non-events — Vergouwe, Steyerberg, Eijkemans & Habbema (2005), J Clin Epidemiol
-// 58:475–483; 200 or more of each preferred — Collins, Ogundimu & Altman (2016), Stat Med 35:214–226 (REFERENCES.md).
+// 58:475–483; 200 or more of each preferred — Collins, Ogundimu & Altman (2016), Stat Med 35:214–226 (docs/references.md).
 import { describe, expect, it } from 'vitest';
 import { adequacyVerdict, MINIMUM_EACH, PREFERRED_EACH } from '@shared/adequacy';
 

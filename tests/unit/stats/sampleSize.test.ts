@@ -5,14 +5,14 @@ import { anticipatedLpDistribution, planSampleSize, sampleSizeAuc, sampleSizeOE,
 describe('Riley et al. (2021) sample-size criteria', () => {
   it('C statistic: φ = 0.018, C = 0.8, CI width 0.1 → n = 4,252', () => {
     const r = sampleSizeAuc(0.018, 0.8, 0.1);
-    expect(r.n).toBe(4252); // REFERENCES.md [ref]: Riley et al. 2021 formula, φ = 0.018, C = 0.8
+    expect(r.n).toBe(4252); // docs/references.md [ref]: Riley et al. 2021 formula, φ = 0.018, C = 0.8
     expect(seAuc(r.n, 0.018, 0.8)).toBeLessThanOrEqual(0.1 / 3.92 + 1e-4);
     expect(seAuc(r.n - 1, 0.018, 0.8)).toBeGreaterThan(0.1 / (2 * 1.959963984540054));
   });
 
   it('O/E: φ = 0.018, CI width 1 → n = 905–906', () => {
     const r = sampleSizeOE(0.018, 1);
-    expect(r.n).toBeGreaterThanOrEqual(905); // REFERENCES.md [ref]: 905–906 depending on step size (Riley et al. 2021)
+    expect(r.n).toBeGreaterThanOrEqual(905); // docs/references.md [ref]: 905–906 depending on step size (Riley et al. 2021)
     expect(r.n).toBeLessThanOrEqual(906);
     expect(r.events).toBe(Math.ceil(r.n * 0.018));
   });
