@@ -45,8 +45,10 @@ export async function ensureRuntimeRole(m: EntityManager, role: string, password
 export async function grantRuntimeRole(m: EntityManager, role: string, database: string): Promise<void> {
   await m.query('SELECT pg_advisory_xact_lock($1)', [GRANT_LOCK]);
   const r = ident(role);
-  await m.query(`GRANT CONNECT ON DATABASE ${ident(database)} TO ${r}`);
-  await m.query(`GRANT USAGE ON SCHEMA public TO ${r}`);
+  // Usually held through PUBLIC already; granted only when missing (an owner of the tables need not own the database).
+  const [has] = await m.query(`SELECT has_database_privilege($1, $2, 'CONNECT') AS connect, has_schema_privilege($1, 'public', 'USAGE') AS usage`, [role, database]);
+  if (!has.connect) await m.query(`GRANT CONNECT ON DATABASE ${ident(database)} TO ${r}`);
+  if (!has.usage) await m.query(`GRANT USAGE ON SCHEMA public TO ${r}`);
   const tables: { name: string }[] = await m.query(`SELECT tablename AS name FROM pg_tables WHERE schemaname = 'public' ORDER BY tablename`);
   for (const { name } of tables) {
     const t = `public.${ident(name)}`;
