@@ -114,7 +114,8 @@ case "$MODE" in
     npx tsx server/src/db/seed.ts
     log "Demo password: plumbline-demo-2026 (accounts: admin@, steward@, statistician@, chair@, clinician@demo.test)"
     log "fake SMTP on 127.0.0.1:${SMTP_PORT:-2525}; open http://localhost:$PORT  (Ctrl-C stops the app and the database)"
-    PLUMBLINE_FAKE_SMTP=1 npx tsx server/src/index.ts &
+    # One process (tsx as an import hook, not npx → tsx CLI → node), so stopping the script stops the server too.
+    PLUMBLINE_FAKE_SMTP=1 node --import tsx server/src/index.ts &
     CHILD=$!
     wait "$CHILD"
     ;;
