@@ -124,7 +124,7 @@ case "$MODE" in
     start_cluster pg "$DEV_PGPORT"
     ensure_database plumbline
     npx tsx server/src/db/seed.ts
-    log "PostgreSQL is up: PGHOST=127.0.0.1 PGPORT=$DEV_PGPORT PGDATABASE=plumbline PGUSER=postgres"
+    log "PostgreSQL is up: PGHOST=127.0.0.1 PGPORT=$DEV_PGPORT PGDATABASE=plumbline PGUSER=postgres (the owner; the app connects as plumbline_app)"
     ;;
   stop-db)
     PGDATA_DIR="$DATA_ROOT/pg"
