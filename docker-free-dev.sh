@@ -1,6 +1,6 @@
 #!/usr/bin/env bash
 # Plumbline, without Docker.
-#   ./docker-free-dev.sh          install what is missing, start PostgreSQL on loopback, migrate, seed the demo, serve the app
+#   ./docker-free-dev.sh          install what is missing, start PostgreSQL on loopback, migrate, seed the demo (into an empty database, once), serve the app
 #   ./docker-free-dev.sh test     the same on a throwaway cluster, then the whole test suite
 #   ./docker-free-dev.sh db       only start the dev database (migrated, seeded) and leave it running; stop-db stops it
 # Settings: PORT (app, default 3000), PLUMBLINE_PGPORT (dev database, default 54329; the test cluster uses +1),
@@ -110,11 +110,12 @@ case "$MODE" in
     ensure_database plumbline
     log "building the client"
     npx vite build --logLevel warn
-    log "migrating and seeding the demo"
+    log "migrating; seeding the demo if the database is empty"
     npx tsx server/src/db/seed.ts
     log "Demo password: plumbline-demo-2026 (accounts: admin@, steward@, statistician@, chair@, clinician@demo.test)"
     log "fake SMTP on 127.0.0.1:${SMTP_PORT:-2525}; open http://localhost:$PORT  (Ctrl-C stops the app and the database)"
-    PLUMBLINE_FAKE_SMTP=1 npx tsx server/src/index.ts &
+    # One process (tsx as an import hook, not npx → tsx CLI → node), so stopping the script stops the server too.
+    PLUMBLINE_FAKE_SMTP=1 node --import tsx server/src/index.ts &
     CHILD=$!
     wait "$CHILD"
     ;;
@@ -123,7 +124,7 @@ case "$MODE" in
     start_cluster pg "$DEV_PGPORT"
     ensure_database plumbline
     npx tsx server/src/db/seed.ts
-    log "PostgreSQL is up: PGHOST=127.0.0.1 PGPORT=$DEV_PGPORT PGDATABASE=plumbline PGUSER=postgres"
+    log "PostgreSQL is up: PGHOST=127.0.0.1 PGPORT=$DEV_PGPORT PGDATABASE=plumbline PGUSER=postgres (the owner; the app connects as plumbline_app)"
     ;;
   stop-db)
     PGDATA_DIR="$DATA_ROOT/pg"

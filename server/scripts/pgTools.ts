@@ -12,15 +12,18 @@ export function pgBinary(name: 'pg_dump' | 'pg_restore' | 'psql'): string {
   return existsSync(candidate) ? candidate : name;
 }
 
-/** The connection as libpq variables (the password travels in the environment, never on the command line). */
-export function pgEnv(database = config.db.database): NodeJS.ProcessEnv {
+/**
+ * The owner role's connection as libpq variables (the password travels in the environment, never on the command line):
+ * a backup reads every table and a restore creates them, which the API's runtime role may not.
+ */
+export function pgEnv(database = config.dbOwner.database): NodeJS.ProcessEnv {
   return {
     ...process.env,
-    PGHOST: config.db.host,
-    PGPORT: String(config.db.port),
-    PGUSER: config.db.user,
+    PGHOST: config.dbOwner.host,
+    PGPORT: String(config.dbOwner.port),
+    PGUSER: config.dbOwner.user,
     PGDATABASE: database,
-    ...(config.db.password ? { PGPASSWORD: config.db.password } : {}),
+    ...(config.dbOwner.password ? { PGPASSWORD: config.dbOwner.password } : {}),
   };
 }
 

@@ -40,10 +40,10 @@ async function main() {
 
   const restored = new DataSource({
     type: 'postgres',
-    host: config.db.host,
-    port: config.db.port,
-    username: config.db.user,
-    password: config.db.password,
+    host: config.dbOwner.host,
+    port: config.dbOwner.port,
+    username: config.dbOwner.user,
+    password: config.dbOwner.password,
     database,
     entities,
   });

@@ -8,8 +8,8 @@ step() { printf '\n\033[1;34m[plumbline test]\033[0m %s\n' "$*"; }
 
 step "type-check server, shared and tests"
 npx tsc -p tsconfig.json || status=1
-step "type-check and build the client"
-(npx vue-tsc -p client/tsconfig.json && npx vite build --logLevel warn) || status=1
+step "type-check the client; build client and server (npm run build: dist/client, dist/server)"
+(npx vue-tsc -p client/tsconfig.json && npx vite build --logLevel warn && node server/scripts/build-server.mjs) || status=1
 
 for project in unit client api browser; do
   step "vitest: $project"

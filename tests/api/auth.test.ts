@@ -70,6 +70,17 @@ describe('GET /api/auth/me', () => {
       expect(res.status, token).toBe(401);
     }
   });
+
+  it('refuses a correctly signed token that has no expiry, or one whose lifetime is longer than the setting', async () => {
+    const payload = JSON.parse(Buffer.from((await tokenFor('admin')).split('.')[1], 'base64url').toString());
+    const claims = { sub: payload.sub, role: payload.role, tv: payload.tv };
+    const forever = jwt.sign(claims, config.jwtSecret, { algorithm: 'HS256' });
+    const tooLong = jwt.sign(claims, config.jwtSecret, { algorithm: 'HS256', expiresIn: config.tokenLifetimeSeconds * 100 });
+    const fine = jwt.sign(claims, config.jwtSecret, { algorithm: 'HS256', expiresIn: config.tokenLifetimeSeconds });
+    expect((await request(app).get('/api/auth/me').set(bearer(forever))).status).toBe(401);
+    expect((await request(app).get('/api/auth/me').set(bearer(tooLong))).status).toBe(401);
+    expect((await request(app).get('/api/auth/me').set(bearer(fine))).status).toBe(200);
+  });
 });
 
 describe('role guard and account management', () => {

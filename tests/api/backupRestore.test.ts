@@ -10,7 +10,7 @@ import { afterAll, describe, expect, it } from 'vitest';
 import { config } from '../../server/src/config';
 import { entities } from '../../server/src/entities';
 import { appendAudit, verifyAuditChain } from '../../server/src/services/audit';
-import { dataSource, useDatabase } from '../helpers/api';
+import { dataSource, ownerQuery, useDatabase } from '../helpers/api';
 import { runTsx } from '../helpers/childServer';
 import { tableCounts } from '../helpers/routeProbe';
 
@@ -22,11 +22,12 @@ let restored: DataSource | undefined;
 
 afterAll(async () => {
   await restored?.destroy().catch(() => undefined);
-  await dataSource.query(`DROP DATABASE IF EXISTS ${target} WITH (FORCE)`).catch(() => undefined);
+  await ownerQuery(`DROP DATABASE IF EXISTS ${target} WITH (FORCE)`).catch(() => undefined);
   rmSync(dir, { recursive: true, force: true });
 });
 
-const env = () => ({ PGHOST: config.db.host, PGPORT: String(config.db.port), PGUSER: config.db.user, PGDATABASE: config.db.database });
+// Backup and restore are the owner's tools (server/scripts/pgTools.ts).
+const env = () => ({ PGHOST: config.dbOwner.host, PGPORT: String(config.dbOwner.port), PGUSER: config.dbOwner.user, PGDATABASE: config.dbOwner.database });
 
 describe('backup and restore', () => {
   it('restores into a fresh database with the same row counts and a verifying audit chain', async () => {
@@ -42,7 +43,7 @@ describe('backup and restore', () => {
     const restoreOut = runTsx('server/scripts/restore.ts', env(), ['--file', file, '--database', target]);
     expect(restoreOut).toMatch(/audit chain verified/);
 
-    restored = new DataSource({ type: 'postgres', host: config.db.host, port: config.db.port, username: config.db.user, password: config.db.password, database: target, entities });
+    restored = new DataSource({ type: 'postgres', host: config.dbOwner.host, port: config.dbOwner.port, username: config.dbOwner.user, password: config.dbOwner.password, database: target, entities });
     await restored.initialize();
     const after = await tableCounts((sql) => restored!.query(sql));
     expect(after).toEqual(before);

@@ -13,7 +13,7 @@ import { uploadDir } from '../../server/src/routes/cohorts';
 import { loadCohortData } from '../../server/src/services/cohortData';
 import { discardStaleUploads, whenProcessed } from '../../server/src/services/uploads';
 import { FIXTURE_MODEL } from '../helpers/fixtures';
-import { app, bearer, countRows, dataSource, tokenFor, useDatabase } from '../helpers/api';
+import { app, bearer, countRows, dataSource, ownerQuery, tokenFor, useDatabase } from '../helpers/api';
 
 useDatabase();
 
@@ -470,11 +470,12 @@ describe('storage is all or nothing', () => {
   // Faults are injected in PostgreSQL itself: a constraint added NOT VALID (existing rows untouched) that the next
   // write breaks, so the failure happens inside the real COPY or the real commit transaction.
   const fault = async (table: string, check: string, body: () => Promise<void>) => {
-    await dataSource.query(`ALTER TABLE ${table} ADD CONSTRAINT plumbline_test_fault CHECK (${check}) NOT VALID`);
+    // Only the owner may change a table; the API's role (which the upload runs as) may not.
+    await ownerQuery(`ALTER TABLE ${table} ADD CONSTRAINT plumbline_test_fault CHECK (${check}) NOT VALID`);
     try {
       await body();
     } finally {
-      await dataSource.query(`ALTER TABLE ${table} DROP CONSTRAINT plumbline_test_fault`);
+      await ownerQuery(`ALTER TABLE ${table} DROP CONSTRAINT plumbline_test_fault`);
     }
   };
 

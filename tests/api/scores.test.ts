@@ -7,7 +7,7 @@ import { ROLES } from '@shared/roles';
 import type { ScoreModel } from '@shared/model';
 import { KESTREL_SCORE, KESTREL_V1_MODEL, KESTREL_V2_MODEL, seedKestrelScore } from '../../server/src/db/seeds/scenario';
 import { lockScoreVersion } from '../../server/src/services/scores';
-import { app, bearer, countRows, dataSource, tokenFor, useDatabase } from '../helpers/api';
+import { app, bearer, countRows, dataSource, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
 
 useDatabase();
 
@@ -270,7 +270,7 @@ describe('a version used by a run is frozen', () => {
     await expect(dataSource.query(`UPDATE score_versions SET mode = 'supplied', probability_column = 'p' WHERE id = $1`, [versionId])).rejects.toThrow(/immutable/);
     await expect(dataSource.query(`UPDATE score_versions SET locked = false WHERE id = $1`, [versionId])).rejects.toThrow(/immutable/);
     await expect(dataSource.query(`UPDATE score_versions SET version = 9 WHERE id = $1`, [versionId])).rejects.toThrow(/immutable/);
-    await expect(dataSource.query(`DELETE FROM score_versions WHERE id = $1`, [versionId])).rejects.toThrow(/cannot be deleted/);
+    await refusedTwice(`DELETE FROM score_versions WHERE id = $1`, [versionId], /cannot be deleted/);
     const [row] = await dataSource.query('SELECT model, locked FROM score_versions WHERE id = $1', [versionId]);
     expect(row).toEqual({ model: splineModel, locked: true });
   });

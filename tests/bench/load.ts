@@ -57,15 +57,16 @@ async function main() {
   const watchdog = setTimeout(() => { console.error('[bench] hard time limit reached, stopping'); process.exit(2); }, HARD_LIMIT_MS);
   watchdog.unref();
 
-  log(`demo seed into ${process.env.PGDATABASE ?? 'plumbline'} (idempotent)`);
+  log(`demo seed into ${process.env.PGDATABASE ?? 'plumbline'} (only into an empty database)`);
   const seed = spawnSync(process.execPath, ['--import', 'tsx', 'server/src/db/seed.ts'], { cwd: root, stdio: 'inherit', env: process.env });
   if (seed.status !== 0) throw new Error('seeding failed');
 
   const port = await freePort();
   const base = `http://127.0.0.1:${port}`;
+  // NODE_ENV=test, not production: a production start refuses the demo accounts this benchmark signs in with.
   const child: ChildProcess = spawn(process.execPath, ['--import', 'tsx', '--import', './tests/bench/eventLoopProbe.mjs', 'server/src/index.ts'], {
     cwd: root,
-    env: { ...process.env, PORT: String(port), NODE_ENV: 'production', PLUMBLINE_CLIENT_DIR: path.join(root, 'dist/client'), PLUMBLINE_LOGIN_MAX_PER_IP: '100000' },
+    env: { ...process.env, PORT: String(port), NODE_ENV: 'test', PLUMBLINE_CLIENT_DIR: path.join(root, 'dist/client'), PLUMBLINE_LOGIN_MAX_PER_IP: '100000' },
     stdio: ['ignore', 'pipe', 'pipe', 'ipc'],
   });
   let serverOut = '';

@@ -1,11 +1,12 @@
 // Shared helpers for API tests: one app, a real PostgreSQL, and demo-account tokens.
 import 'reflect-metadata';
 import request from 'supertest';
-import { afterAll, beforeAll } from 'vitest';
+import { afterAll, beforeAll, expect } from 'vitest';
 import type { Role } from '@shared/roles';
 import { createApp } from '../../server/src/app';
 import { DEMO_PASSWORD } from '../../server/src/config';
-import { closeDatabase, dataSource, initDatabase } from '../../server/src/db/dataSource';
+import type { DataSource } from 'typeorm';
+import { closeDatabase, createOwnerDataSource, dataSource, initDatabase } from '../../server/src/db/dataSource';
 
 export const app = createApp({ serveClient: false });
 export { dataSource, DEMO_PASSWORD };
@@ -19,7 +20,31 @@ export function useDatabase(): void {
   });
   afterAll(async () => {
     await closeDatabase();
+    const o = owner;
+    owner = undefined;
+    if (o?.isInitialized) await o.destroy();
   });
+}
+
+let owner: DataSource | undefined;
+
+/**
+ * A connection as the owner role, for fixtures and attacks that need rights the API never has (tests run as the
+ * runtime role, like the server). Opened on first use, closed with the file's database (useDatabase).
+ */
+export async function ownerDataSource(): Promise<DataSource> {
+  if (!owner) owner = createOwnerDataSource();
+  if (!owner.isInitialized) await owner.initialize();
+  return owner;
+}
+
+/** One statement as the owner role (ownerDataSource). */
+export const ownerQuery = async (sql: string, params?: unknown[]) => (await ownerDataSource()).query(sql, params);
+
+/** The runtime role has no grant for this statement; the owner, who has one, still hits the table's trigger. */
+export async function refusedTwice(sql: string, params: unknown[], trigger: RegExp): Promise<void> {
+  await expect(dataSource.query(sql, params)).rejects.toThrow(/permission denied/);
+  await expect(ownerQuery(sql, params)).rejects.toThrow(trigger);
 }
 
 const tokens = new Map<string, string>();

@@ -19,6 +19,8 @@ export interface ChainReport {
   entries: number;
   firstBrokenSeq: string | null;
   reason: string | null;
+  /** The newest entry when the chain is whole. */
+  head: { seq: string; hash: string } | null;
 }
 
 export const listAudit = (filter: AuditFilter, signal?: AbortSignal) =>

@@ -14,7 +14,7 @@ import * as cohorts from '../services/cohorts';
 import { ResponseCache, sendJsonBody } from '../services/responseCache';
 import * as uploads from '../services/uploads';
 
-export const uploadDir = process.env.PLUMBLINE_UPLOAD_DIR ?? path.join(tmpdir(), 'plumbline-uploads');
+export const uploadDir = config.uploadDir ?? path.join(tmpdir(), 'plumbline-uploads');
 
 interface HashedFile extends Express.Multer.File {
   sha256: string;

@@ -60,7 +60,9 @@ export async function appendAudit(event: AuditEvent, manager?: EntityManager): P
       details: event.details ?? {},
     };
     const hash = entryHash(prevHash, entry);
-    await m.insert(AuditEntry, { ...entry, prevHash, hash } as never);
+    const inserted = await m.insert(AuditEntry, { ...entry, prevHash, hash } as never);
+    // The new head, where the runtime role can only add rows: a later deletion of this entry leaves it behind.
+    await m.query('INSERT INTO audit_checkpoints (seq, hash) VALUES ($1, $2)', [inserted.identifiers[0].seq, hash]);
   };
   if (manager) await write(manager);
   else await dataSource.transaction(write);
@@ -71,10 +73,35 @@ export interface ChainReport {
   entries: number;
   firstBrokenSeq: string | null;
   reason: string | null;
+  /** The newest entry, so an operator can note it outside the database and compare later. */
+  head: { seq: string; hash: string } | null;
 }
 
-/** Re-computes every hash in order; the first entry that does not match is reported. */
+/**
+ * Re-computes every hash in order (an edited or removed entry breaks the chain after it), then compares the head
+ * checkpoints (a removed tail leaves checkpoints whose entry is gone or different). What it cannot see: a tail removed
+ * together with its checkpoints by someone with owner rights; compare `head` with a copy kept outside for that.
+ */
 export async function verifyAuditChain(manager: EntityManager = dataSource.manager): Promise<ChainReport> {
+  const chain = await verifyLinks(manager);
+  if (!chain.ok) return chain;
+  const [lost]: { seq: string; present: boolean; newer: string }[] = await manager.query(
+    `SELECT c.seq::text AS seq, (a.seq IS NOT NULL) AS present,
+            (SELECT count(*)::text FROM audit_checkpoints n LEFT JOIN audit_log x ON x.seq = n.seq WHERE n.seq >= c.seq AND x.seq IS NULL) AS newer
+     FROM audit_checkpoints c LEFT JOIN audit_log a ON a.seq = c.seq
+     WHERE a.seq IS NULL OR a.hash <> c.hash
+     ORDER BY c.seq LIMIT 1`,
+  );
+  if (lost) {
+    const reason = lost.present
+      ? `entry ${lost.seq} differs from the head recorded when it was written`
+      : `entries are missing: ${lost.newer} recorded head${lost.newer === '1' ? '' : 's'} from entry ${lost.seq} on ${lost.newer === '1' ? 'has' : 'have'} no entry (the newest entries were deleted)`;
+    return { ...chain, ok: false, firstBrokenSeq: lost.seq, reason };
+  }
+  return chain;
+}
+
+async function verifyLinks(manager: EntityManager): Promise<ChainReport> {
   let prev = GENESIS;
   let count = 0;
   let after = '0';
@@ -89,11 +116,11 @@ export async function verifyAuditChain(manager: EntityManager = dataSource.manag
     if (rows.length === 0) break;
     for (const r of rows) {
       count++;
-      if (r.prevHash !== prev) return { ok: false, entries: count, firstBrokenSeq: r.seq, reason: 'link to previous entry broken' };
-      if (entryHash(prev, r) !== r.hash) return { ok: false, entries: count, firstBrokenSeq: r.seq, reason: 'entry content does not match its hash' };
+      if (r.prevHash !== prev) return { ok: false, entries: count, firstBrokenSeq: r.seq, reason: 'link to previous entry broken', head: null };
+      if (entryHash(prev, r) !== r.hash) return { ok: false, entries: count, firstBrokenSeq: r.seq, reason: 'entry content does not match its hash', head: null };
       prev = r.hash;
       after = r.seq;
     }
   }
-  return { ok: true, entries: count, firstBrokenSeq: null, reason: null };
+  return { ok: true, entries: count, firstBrokenSeq: null, reason: null, head: count ? { seq: after, hash: prev } : null };
 }

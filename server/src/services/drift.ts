@@ -24,6 +24,7 @@ import { loadCohortData } from './cohortData';
 import { queueEmail, recipientsForRole } from './mail';
 import { predictedRisk, type RunScoreInput } from './runCompute';
 import { createScoreVersion, getScoreVersionByNumber, scoreVersionDto } from './scores';
+import { config } from '../config';
 
 export const DEFAULT_CUSUM = { oddsRatio: 2, h: 4.5 };
 export const DEFAULT_IMPROVEMENT_OR = 0.5;
@@ -160,7 +161,7 @@ export async function warmDriftCache(): Promise<void> {
   for (const v of versions) await patientSeries(await versionById(v.id), await completedRuns(v.id));
 }
 
-if (process.env.PLUMBLINE_DRIFT_WARM !== 'off')
+if (config.driftWarm)
   registerBackground(() => {
     // In the background: a slow warm-up never delays the server's start.
     void warmDriftCache().catch((err) => console.error('[drift] cache warm-up failed:', err));

@@ -27,7 +27,7 @@ import { checkPassword } from './users';
 
 const DECISIVE: SignatureMeaning[] = ['approve for clinical use', 'return to statistician'];
 
-const appUrl = () => (process.env.PLUMBLINE_PUBLIC_URL ?? `http://localhost:${config.port}`).replace(/\/$/, '');
+const appUrl = () => config.publicUrl;
 
 interface RunRow {
   id: string;

@@ -107,7 +107,7 @@ export async function sendPendingOnce(limit = 25): Promise<SendReport> {
   return report;
 }
 
-const SEND_INTERVAL_MS = Number(process.env.PLUMBLINE_MAIL_INTERVAL_MS ?? 3_000);
+const SEND_INTERVAL_MS = config.mailIntervalMs;
 
 /** The background sender: one pass every few seconds; a pass that fails is logged and the next one tries again. */
 export function startMailSender(intervalMs = SEND_INTERVAL_MS): () => Promise<void> {
@@ -128,4 +128,4 @@ export function startMailSender(intervalMs = SEND_INTERVAL_MS): () => Promise<vo
 }
 
 // PLUMBLINE_MAIL_SENDER=off leaves the outbox untouched (e.g. to inspect pending rows); tests call sendPendingOnce().
-if (process.env.PLUMBLINE_MAIL_SENDER !== 'off') registerBackground(() => startMailSender());
+if (config.mailSender) registerBackground(() => startMailSender());

@@ -10,6 +10,7 @@ import type { PrecisionAnswer, PrecisionJob } from '../workers/precisionWorker';
 import { startTsWorker } from '../workers/tsWorker';
 import { keepPrecision, keptPrecision, precision, runPrecisionInputs } from './adequacyPrecision';
 import { registerBackground } from './background';
+import { config } from '../config';
 
 let worker: Worker | null = null;
 let broken = false;
@@ -24,7 +25,7 @@ function settleInline(): void {
 
 function thread(): Worker | null {
   if (worker || broken) return worker;
-  const w = startTsWorker(new URL('../workers/precisionWorker.ts', import.meta.url));
+  const w = startTsWorker('precisionWorker');
   w.on('message', (a: PrecisionAnswer) => {
     const entry = waiting.get(a.id);
     if (!entry) return;
@@ -99,7 +100,7 @@ export async function warmRunWidths(limit: number, stopped: () => boolean = () =
 // At start: the widths of the newest completed runs (PLUMBLINE_WARM_WIDTHS of them, default 50, at most 500; 0 = none,
 // as in the tests, where every file starts the server).
 registerBackground(() => {
-  const n = Number(process.env.PLUMBLINE_WARM_WIDTHS ?? 50);
+  const n = config.warmWidths;
   const limit = Number.isInteger(n) && n >= 0 ? Math.min(n, 500) : 50;
   let stopped = false;
   if (limit > 0) {

@@ -12,7 +12,7 @@ export interface RunningThread {
 }
 
 export function computeInThread(input: RunComputeInput, onProgress: ProgressFn = () => {}): RunningThread {
-  const worker = startTsWorker(new URL('../workers/runWorker.ts', import.meta.url), input);
+  const worker = startTsWorker('runWorker', input);
   let settled = false;
   const result = new Promise<RunResults>((resolve, reject) => {
     worker.on('message', (msg: RunWorkerMessage) => {

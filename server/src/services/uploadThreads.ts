@@ -5,6 +5,7 @@
 import type { Worker } from 'node:worker_threads';
 import type { ScreenAnswer, ScreenJob, UploadWorkerData, UploadWorkerMessage } from '../workers/uploadWorker';
 import { startTsWorker } from '../workers/tsWorker';
+import { config } from '../config';
 
 type Ending = Exclude<UploadWorkerMessage, { type: 'progress' }> | ScreenAnswer;
 interface Job {
@@ -14,7 +15,7 @@ interface Job {
   resolve: (m: Ending) => void;
 }
 
-const size = Math.max(1, Number(process.env.PLUMBLINE_UPLOAD_THREADS ?? 2));
+const size = config.uploadThreads;
 const idle: Worker[] = [];
 const busy = new Map<Worker, Job>();
 const queue: Job[] = [];
@@ -23,7 +24,7 @@ let nextJobId = 1;
 
 function spawn(): Worker {
   started++;
-  const worker = startTsWorker(new URL('../workers/uploadWorker.ts', import.meta.url));
+  const worker = startTsWorker('uploadWorker');
   worker.on('message', ({ jobId, message }: { jobId: number; message: UploadWorkerMessage | ScreenAnswer }) => {
     const job = busy.get(worker);
     if (!job || job.jobId !== jobId) return;

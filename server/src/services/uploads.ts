@@ -294,7 +294,7 @@ export async function recoverInterruptedUploads(): Promise<number> {
  * Uploads nobody finished (not stored, not discarded) are discarded after PLUMBLINE_UPLOAD_KEEP_DAYS without a change
  * (default 14): their temp file and staged rows go, and the audit trail says so. Returns how many were discarded.
  */
-export async function discardStaleUploads(keepDays = Number(process.env.PLUMBLINE_UPLOAD_KEEP_DAYS ?? 14)): Promise<number> {
+export async function discardStaleUploads(keepDays = config.uploadKeepDays): Promise<number> {
   const stale: { id: string; temp_path: string | null; planned_version_id: string | null; created_by: string | null }[] = await dataSource.query(
     `SELECT id, temp_path, planned_version_id, created_by FROM cohort_uploads
      WHERE status IN ('pending', 'checked', 'failed') AND updated_at < now() - make_interval(days => $1)`,

@@ -2,18 +2,16 @@
  * The bootstrap across worker threads: splits replicates 0 … R−1 into one contiguous range per core and runs
  * bootstrapWorker.ts on each. Each replicate has its own random stream (stats/bootstrap.ts), so the intervals are the
  * same as the single-thread bootstrap for the same seed, whatever the number of workers.
- * Workers load TypeScript through tsx's loader, registered in each thread by tsWorkerEntry.mjs.
+ * Workers start through startTsWorker (tsWorker.ts): tsx's loader from the sources, the compiled file in the build.
  * Pool size: by default one core is left to the API thread and PostgreSQL (cores − 1, at least one worker); the workers
  * also lower their own priority (threadPriority.ts). Callers that own the machine (the engine benchmark) pass a count.
  */
 import { availableParallelism } from 'node:os';
-import { Worker } from 'node:worker_threads';
 import type { ValidationResult, ValidationSettings } from '@shared/validation';
 import { percentileIntervals, scalarMetrics } from '../stats/bootstrap';
 import { computeFullSet, resolveSettings } from '../stats/fullSet';
+import { startTsWorker } from './tsWorker';
 
-const ENTRY_URL = new URL('./tsWorkerEntry.mjs', import.meta.url);
-const WORKER_SCRIPT = new URL('./bootstrapWorker.ts', import.meta.url).href;
 
 /** Cores − 1 (at least 1): on the 2-core reference machine a bootstrap never takes both cores from the API. */
 export const defaultBootstrapWorkers = () => Math.max(1, availableParallelism() - 1);
@@ -32,7 +30,7 @@ export async function bootstrapInWorkers(
     ranges.map(
       ([from, to]) =>
         new Promise<Record<string, number>[]>((resolve, reject) => {
-          const w = new Worker(ENTRY_URL, { workerData: { __script: WORKER_SCRIPT, p, y, settings, from, to } });
+          const w = startTsWorker('bootstrapWorker', { p, y, settings, from, to });
           w.once('message', resolve);
           w.once('error', reject);
           w.once('exit', (code) => code !== 0 && reject(new Error(`bootstrap worker exited with code ${code}`)));

@@ -11,12 +11,10 @@
 import { readFileSync } from 'node:fs';
 import { getPriority, setPriority } from 'node:os';
 import { isMainThread } from 'node:worker_threads';
+import { config } from '../config';
 
 /** Nice value for worker threads (0 = normal … 19 = lowest); PLUMBLINE_WORKER_NICE overrides, as for upload checks. */
-export const WORKER_NICE = (() => {
-  const n = Number(process.env.PLUMBLINE_WORKER_NICE ?? 10);
-  return Number.isInteger(n) && n >= 0 && n <= 19 ? n : 10;
-})();
+export const WORKER_NICE = config.workerNice;
 
 /** Lowers the CPU priority of the calling worker thread; returns whether it did. Never touches the main thread. */
 export function lowerThisThreadPriority(nice = WORKER_NICE): boolean {

@@ -15,6 +15,7 @@ import { readHeaderAndSample, sniffCsv, type Delimiter } from '../services/csvFi
 import { screenColumns, type ScreenResult } from '../services/deidentify';
 import { checkUploadRows, type CheckInput, type Rejection } from '../services/uploadCheck';
 import { lowerDatabaseSessionPriority, lowerThisThreadPriority } from './threadPriority';
+import { config } from '../config';
 
 export interface UploadWorkerData extends CheckInput {
   uploadId: string;
@@ -69,7 +70,7 @@ async function copyRejections(client: pg.Client, uploadId: string, rejections: R
   await finished(copy);
 }
 
-const MAX_UPLOAD_COLUMNS = Number(process.env.PLUMBLINE_UPLOAD_MAX_COLUMNS ?? 500);
+const MAX_UPLOAD_COLUMNS = config.uploadMaxColumns;
 
 async function screen(path: string, plain?: boolean): Promise<ScreenAnswer> {
   const { delimiter } = await sniffCsv(path);

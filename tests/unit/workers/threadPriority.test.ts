@@ -2,6 +2,7 @@
 // thread gets the CPU first. Checked against the kernel's own record (/proc/thread-self/stat, proc(5)): the worker
 // thread's nice value changes, the main thread's does not. Linux only (elsewhere the helper does nothing).
 import { existsSync } from 'node:fs';
+import { fileURLToPath } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import { describe, expect, it } from 'vitest';
 import { lowerThisThreadPriority, WORKER_NICE } from '../../../server/src/workers/threadPriority';
@@ -10,10 +11,12 @@ import { threadNice } from '../../helpers/threadNice';
 const linux = process.platform === 'linux' && existsSync('/proc/thread-self/stat');
 
 function probeInWorker(): Promise<{ before: number; lowered: boolean; after: number }> {
-  const entry = new URL('../../../server/src/workers/tsWorkerEntry.mjs', import.meta.url);
+  // The same boot file the server's threads start from (workers/tsWorker.ts), pointed at a probe script.
+  const entry = new URL('../../../server/src/workers/runWorkerBoot.mjs', import.meta.url);
   const script = new URL('../../helpers/threadPriorityProbe.ts', import.meta.url).href;
+  const tsconfig = fileURLToPath(new URL('../../../tsconfig.json', import.meta.url));
   return new Promise((resolve, reject) => {
-    const w = new Worker(entry, { workerData: { __script: script } });
+    const w = new Worker(entry, { workerData: { workerFile: script, tsconfig } });
     w.once('message', (m) => {
       resolve(m);
       void w.terminate();

@@ -1,0 +1,58 @@
+// The demo is seeded once, into an empty database (server/src/db/seed.ts): running the seed again — every dev start
+// does — files no review, signature or approval, even when a newer demo run is waiting and the demo password changed.
+import request from 'supertest';
+import { describe, expect, it } from 'vitest';
+import { runSettingsSchema } from '@shared/runs';
+import { seedDemo } from '../../server/src/db/seed';
+import { recordRunNow } from '../../server/src/services/runs';
+import { app, bearer, dataSource, DEMO_PASSWORD, loginAs, ownerDataSource, useDatabase } from '../helpers/api';
+
+useDatabase();
+
+const governanceCounts = async () =>
+  (
+    await dataSource.query(
+      `SELECT (SELECT count(*)::int FROM run_reviews) AS reviews, (SELECT count(*)::int FROM signatures) AS signatures,
+              (SELECT count(*)::int FROM audit_log WHERE source_ip = 'seed') AS seeded_acts, (SELECT count(*)::int FROM users) AS users`,
+    )
+  )[0];
+
+describe('the demo seed', () => {
+  it('was made once, with its governance acts on the record as seeded', async () => {
+    const [marker] = await dataSource.query(`SELECT count(*)::int AS n FROM audit_log WHERE action = 'demo.seeded'`);
+    expect(marker.n).toBe(1);
+    const acts: { action: string }[] = await dataSource.query(`SELECT action FROM audit_log WHERE source_ip = 'seed' AND action IN ('review.create', 'signature.approve') ORDER BY seq`);
+    expect(acts.map((a) => a.action)).toEqual(['review.create', 'signature.approve', 'review.create']);
+  });
+
+  it('a second seed changes nothing, even with a newer unreviewed demo run and a changed chair password', async () => {
+    const chairToken = await loginAs('chair@demo.test');
+    const changed = `changed-by-the-chair-${Date.now()}`;
+    expect((await request(app).post('/api/auth/password').set(bearer(chairToken)).send({ currentPassword: DEMO_PASSWORD, newPassword: changed })).status).toBe(200);
+    const [{ head }] = await dataSource.query('SELECT max(seq)::text AS head FROM audit_log');
+    let extraRun = '';
+    try {
+      // A newer run of the demo score on the newest demo quarter: the old seed reviewed (and signed) whatever was newest.
+      const [newest] = await dataSource.query(
+        `SELECT r.score_version_id, r.cohort_version_id FROM validation_runs r JOIN score_versions sv ON sv.id = r.score_version_id
+         JOIN scores s ON s.id = sv.score_id JOIN cohort_versions cv ON cv.id = r.cohort_version_id
+         WHERE r.status = 'completed' AND s.name ILIKE 'Kestrel%' ORDER BY cv.period_end DESC NULLS LAST, r.created_at DESC LIMIT 1`,
+      );
+      extraRun = await recordRunNow(null, newest.score_version_id, newest.cohort_version_id, runSettingsSchema.parse({ timeGrouping: 'month' }), { test: 'demo seed once' });
+      const before = await governanceCounts();
+      await expect(seedDemo()).resolves.toBe('already has data');
+      expect(await governanceCounts()).toEqual(before);
+    } finally {
+      // As the owner, take the extra run and its two audit entries (the newest) away again, so later files see the demo as seeded.
+      await (await ownerDataSource()).transaction(async (m) => {
+        await m.query('SET LOCAL session_replication_role = replica');
+        await m.query('DELETE FROM audit_checkpoints WHERE seq > $1', [head]);
+        await m.query('DELETE FROM audit_log WHERE seq > $1', [head]);
+        if (extraRun) await m.query('DELETE FROM validation_runs WHERE id = $1', [extraRun]);
+      });
+      const token = await loginAs('chair@demo.test', changed);
+      await request(app).post('/api/auth/password').set(bearer(token)).send({ currentPassword: changed, newPassword: DEMO_PASSWORD });
+    }
+    expect((await request(app).get('/api/audit/verify').set(bearer(await loginAs('admin@demo.test')))).body.ok).toBe(true);
+  });
+});
