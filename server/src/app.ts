@@ -6,14 +6,19 @@ import { config } from './config';
 import { errorHandler, HttpError } from './middleware/errors';
 import { refuseBadText } from './middleware/textGuard';
 import { apiCacheHeaders } from './middleware/cacheHeaders';
+import type { Logger } from 'pino';
+import { requestLogger } from './observability/log';
+import { timeRequests } from './observability/metrics';
 import { mountRoutes } from './routes/define';
 import { routes } from './routes/table';
 
 /** Builds the app without listening, so tests drive it directly and only index.ts listens. */
-export function createApp(options: { serveClient?: boolean } = {}) {
+export function createApp(options: { serveClient?: boolean; log?: Logger } = {}) {
   const app = express();
   app.set('trust proxy', 'loopback');
   app.disable('x-powered-by');
+  // First, so every answer (refusals and errors included) gets a request id, one log line and a duration.
+  app.use('/api', requestLogger(options.log), timeRequests);
   const securityHeaders = helmet({
     contentSecurityPolicy: {
       directives: {

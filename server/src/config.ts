@@ -30,6 +30,10 @@ export const config = {
   devOutbox: process.env.PLUMBLINE_DEV_OUTBOX !== 'false' && process.env.NODE_ENV !== 'production',
   clientDir: process.env.PLUMBLINE_CLIENT_DIR ?? 'dist/client',
   bcryptCost: num(process.env.PLUMBLINE_BCRYPT_COST, 10),
+  // pino level: trace, debug, info, warn, error, fatal or silent (the test suite sets warn).
+  logLevel: process.env.PLUMBLINE_LOG_LEVEL || 'info',
+  // When set, GET /api/metrics needs `Authorization: Bearer <this>` (a Prometheus scrape credential).
+  metricsToken: process.env.PLUMBLINE_METRICS_TOKEN ?? '',
 };
 
 export const DEMO_PASSWORD = 'plumbline-demo-2026';

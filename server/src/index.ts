@@ -4,22 +4,26 @@ import { config } from './config';
 import { closeDatabase, initDatabase } from './db/dataSource';
 import { registerBackground, startBackgroundServices, stopBackgroundServices } from './services/background';
 import { startFakeSmtp } from './services/fakeSmtp';
+import { logger } from './observability/log';
+import { startProcessMetrics } from './observability/metrics';
 
 // Development: a loopback mail server for the outbox page (docker-free-dev.sh sets PLUMBLINE_FAKE_SMTP=1).
 if (process.env.PLUMBLINE_FAKE_SMTP === '1') registerBackground(() => startFakeSmtp());
 
 async function main() {
   await initDatabase(true);
+  startProcessMetrics();
   const app = createApp();
   const server = app.listen(config.port, '127.0.0.1', () => {
-    console.log(`Plumbline is serving on http://localhost:${config.port}`);
+    logger.info({ port: config.port }, `Plumbline is serving on http://localhost:${config.port}`);
   });
   await startBackgroundServices();
   const stop = async (signal: string) => {
-    console.log(`Plumbline: ${signal} received, stopping`);
+    logger.info({ signal }, 'stopping');
     server.close();
     await stopBackgroundServices();
     await closeDatabase();
+    logger.flush();
     process.exit(0);
   };
   process.on('SIGINT', () => void stop('SIGINT'));
@@ -27,6 +31,6 @@ async function main() {
 }
 
 main().catch((err) => {
-  console.error('Plumbline failed to start:', err);
+  logger.fatal({ err }, 'Plumbline failed to start');
   process.exit(1);
 });

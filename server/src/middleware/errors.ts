@@ -1,3 +1,4 @@
+import { logger } from '../observability/log';
 import type { ErrorRequestHandler, Request, RequestHandler, Response } from 'express';
 import { ZodError } from 'zod';
 
@@ -104,6 +105,8 @@ function sendError(err: unknown, req: Request, res: Response): void {
     res.status(503).json({ error: 'the database is unavailable; try again shortly' });
     return;
   }
-  console.error(`[error] ${req.method} ${req.path}:`, err);
+  // pino-http writes it with the request's line (request id, route), at error level; never into the answer.
+  res.err = err as Error;
+  if (!req.log) logger.error({ err, method: req.method, path: req.path }, 'request failed');
   res.status(500).json({ error: 'internal error' });
 }

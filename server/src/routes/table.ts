@@ -41,7 +41,8 @@ const loginLimiter = rateLimit({
 });
 
 export const routes: RouteDef[] = [
-  { method: 'get', path: '/api/health', access: 'public', summary: 'service and database status', handler: health.health },
+  { method: 'get', path: '/api/health', access: 'public', summary: 'service, database and background queue status', handler: health.health },
+  { method: 'get', path: '/api/metrics', access: 'public', summary: 'Prometheus metrics (scrape token when PLUMBLINE_METRICS_TOKEN is set)', handler: health.metrics },
 
   { method: 'post', path: '/api/auth/login', access: 'public', summary: 'sign in', body: loginRequest, before: [loginLimiter], handler: auth.login },
   { method: 'get', path: '/api/auth/me', access: 'signed-in', summary: 'the signed-in account', handler: auth.me },

@@ -24,6 +24,7 @@ import { loadCohortData } from './cohortData';
 import { queueEmail, recipientsForRole } from './mail';
 import { predictedRisk, type RunScoreInput } from './runCompute';
 import { createScoreVersion, getScoreVersionByNumber, scoreVersionDto } from './scores';
+import { logger } from '../observability/log';
 
 export const DEFAULT_CUSUM = { oddsRatio: 2, h: 4.5 };
 export const DEFAULT_IMPROVEMENT_OR = 0.5;
@@ -163,7 +164,7 @@ export async function warmDriftCache(): Promise<void> {
 if (process.env.PLUMBLINE_DRIFT_WARM !== 'off')
   registerBackground(() => {
     // In the background: a slow warm-up never delays the server's start.
-    void warmDriftCache().catch((err) => console.error('[drift] cache warm-up failed:', err));
+    void warmDriftCache().catch((err) => logger.error({ err }, 'drift cache warm-up failed'));
   });
 
 // ---------------------------------------------------------------- the drift view

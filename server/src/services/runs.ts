@@ -17,6 +17,8 @@ import { queueEmail, recipientsForRole } from './mail';
 import { asStored, computeRunResults, ENGINE_VERSION, inputsSha256, resultsSha256, RunInputError, type RunComputeInput, type RunScoreInput } from './runCompute';
 import { completedRunRecord } from './runRecordCache';
 import { computeInThread, type RunningThread } from './runThread';
+import { logger } from '../observability/log';
+import { jobDuration } from '../observability/metrics';
 
 /** A run left 'running' by a stopped process is queued again, up to this many attempts in all. */
 export const MAX_ATTEMPTS = 3;
@@ -228,6 +230,8 @@ export async function processNextRun(): Promise<string | null> {
     return rows[0].id;
   });
   if (!claimed) return null;
+  const timer = jobDuration.startTimer({ job: 'run' });
+  let outcome = 'completed';
   const run = await dataSource.getRepository(ValidationRun).findOneOrFail({ where: { id: claimed } });
 
   let lastWrite = 0;
@@ -270,20 +274,23 @@ export async function processNextRun(): Promise<string | null> {
     if (stopping) {
       // A clean shutdown interrupted the computation: the run waits for the next start, not a failure.
       await dataSource.query(`UPDATE validation_runs SET status = 'queued', progress = 0, progress_message = 'waiting in the queue (server restarted)' WHERE id = $1 AND status = 'running'`, [claimed]);
+      timer({ outcome: 'interrupted' });
       return claimed;
     }
+    outcome = 'failed';
     const reason = err instanceof RunInputError ? (err as Error).message : `the computation failed: ${(err as Error).message ?? String(err)}`;
     await dataSource.transaction(async (m) => {
       await m.query(`UPDATE validation_runs SET status = 'failed', error = $2, progress_message = 'failed', finished_at = now() WHERE id = $1 AND status = 'running'`, [claimed, reason]);
       await appendAudit({ action: 'run.failed', targetType: 'validation_run', targetId: claimed, details: { reason } }, m);
     });
   }
+  timer({ outcome });
   await notifyRunFinished(claimed);
   // Drift rules of the score look at the new period; a failure there is logged and never fails the run.
   try {
     await evaluateAlertsForRun(claimed);
   } catch (err) {
-    console.error(`[drift] alert evaluation after run ${claimed} failed:`, err);
+    logger.error({ err, runId: claimed }, 'drift alert evaluation after a run failed');
   }
   return claimed;
 }
@@ -328,7 +335,7 @@ async function notifyRunFinished(runId: string): Promise<void> {
     await queueEmail({ to, subject: `Validation run ${run.status}: ${what}`, text, kind: `run.${run.status}` });
   } catch (err) {
     // E-mail is a courtesy; the run's outcome is already stored and audited.
-    console.error(`[runs] could not queue the e-mail for run ${runId}:`, (err as Error).message);
+    logger.error({ err, runId }, 'could not queue the e-mail for a finished run');
   }
 }
 
@@ -371,7 +378,7 @@ export async function startRunQueue(): Promise<() => Promise<void>> {
   stoppingQueue = false;
   const recovered = await recoverInterruptedRuns();
   if (recovered.requeued.length || recovered.failed.length)
-    console.log(`[runs] recovered interrupted runs: ${recovered.requeued.length} queued again, ${recovered.failed.length} failed`);
+    logger.warn({ requeued: recovered.requeued, failed: recovered.failed }, 'recovered interrupted runs');
   let stopped = false;
   const loop = (async () => {
     while (!stopped) {
@@ -379,7 +386,7 @@ export async function startRunQueue(): Promise<() => Promise<void>> {
       try {
         id = await processNextRun();
       } catch (err) {
-        if (!stopped) console.error('[runs] queue error:', (err as Error).message);
+        if (!stopped) logger.error({ err }, 'run queue error');
       }
       if (id || stopped) continue;
       await new Promise<void>((resolve) => {
