@@ -2,13 +2,10 @@ import 'reflect-metadata';
 import { createApp } from './app';
 import { config } from './config';
 import { closeDatabase, initDatabase } from './db/dataSource';
-import { registerBackground, startBackgroundServices, stopBackgroundServices } from './services/background';
+import { backgroundServices, startBackgroundServices, stopBackgroundServices } from './services/background';
 import { startFakeSmtp } from './services/fakeSmtp';
 import { logger } from './observability/log';
 import { startProcessMetrics } from './observability/metrics';
-
-// Development: a loopback mail server for the outbox page (docker-free-dev.sh sets PLUMBLINE_FAKE_SMTP=1).
-if (process.env.PLUMBLINE_FAKE_SMTP === '1') registerBackground(() => startFakeSmtp());
 
 async function main() {
   await initDatabase(true);
@@ -17,7 +14,10 @@ async function main() {
   const server = app.listen(config.port, '127.0.0.1', () => {
     logger.info({ port: config.port }, `Plumbline is serving on http://localhost:${config.port}`);
   });
-  await startBackgroundServices();
+  // Background work starts here, explicitly. Development: a loopback mail server for the outbox page
+  // (docker-free-dev.sh sets PLUMBLINE_FAKE_SMTP=1).
+  const fakeSmtp = process.env.PLUMBLINE_FAKE_SMTP === '1' ? [() => startFakeSmtp()] : [];
+  await startBackgroundServices([...fakeSmtp, ...backgroundServices()]);
   const stop = async (signal: string) => {
     logger.info({ signal }, 'stopping');
     server.close();

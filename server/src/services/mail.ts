@@ -7,7 +7,6 @@ import { config } from '../config';
 import { dataSource } from '../db/dataSource';
 import { EmailOutbox } from '../entities/EmailOutbox';
 import { User } from '../entities/User';
-import { registerBackground } from './background';
 import { logger } from '../observability/log';
 import { timeJob } from '../observability/metrics';
 
@@ -99,7 +98,7 @@ export async function sendPendingOnce(limit = 25): Promise<SendReport> {
           });
           if (giveUp) report.failed++;
           else report.retried++;
-          logger.warn({ outboxId: row.id, kind: row.kind, attempts, maxAttempts: MAX_ATTEMPTS, lastError }, giveUp ? 'gave up sending an e-mail' : 'sending an e-mail failed; will retry');
+          logger[giveUp ? 'warn' : 'info']({ outboxId: row.id, kind: row.kind, attempts, maxAttempts: MAX_ATTEMPTS, lastError }, giveUp ? 'gave up sending an e-mail' : 'sending an e-mail failed; will retry');
         }
       }
     });
@@ -129,5 +128,4 @@ export function startMailSender(intervalMs = SEND_INTERVAL_MS): () => Promise<vo
   };
 }
 
-// PLUMBLINE_MAIL_SENDER=off leaves the outbox untouched (e.g. to inspect pending rows); tests call sendPendingOnce().
-if (process.env.PLUMBLINE_MAIL_SENDER !== 'off') registerBackground(() => startMailSender());
+

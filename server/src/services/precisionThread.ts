@@ -9,7 +9,6 @@ import { dataSource } from '../db/dataSource';
 import type { PrecisionAnswer, PrecisionJob } from '../workers/precisionWorker';
 import { startTsWorker } from '../workers/tsWorker';
 import { keepPrecision, keptPrecision, precision, runPrecisionInputs } from './adequacyPrecision';
-import { registerBackground } from './background';
 import { logger } from '../observability/log';
 
 let worker: Worker | null = null;
@@ -99,7 +98,7 @@ export async function warmRunWidths(limit: number, stopped: () => boolean = () =
 
 // At start: the widths of the newest completed runs (PLUMBLINE_WARM_WIDTHS of them, default 50, at most 500; 0 = none,
 // as in the tests, where every file starts the server).
-registerBackground(() => {
+export function startWidthsWarmUp(): () => Promise<void> {
   const n = Number(process.env.PLUMBLINE_WARM_WIDTHS ?? 50);
   const limit = Number.isInteger(n) && n >= 0 ? Math.min(n, 500) : 50;
   let stopped = false;
@@ -110,4 +109,4 @@ registerBackground(() => {
     stopped = true;
     await stopPrecisionThread();
   };
-});
+}

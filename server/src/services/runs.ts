@@ -10,8 +10,10 @@ import type { AuthUser } from '../middleware/auth';
 import { badRequest, conflict, notFound } from '../middleware/errors';
 import { runAdequacy } from './adequacy';
 import { appendAudit } from './audit';
-import { registerBackground } from './background';
-import { cohortColumnNames, loadCohortData } from './cohortData';
+import { cohortColumnNames } from './cohortData';
+import { driftSeriesOf, storeDriftSeries } from './driftSeries';
+import { loadRunInput } from './runInput';
+export { loadRunInput };
 import { evaluateAlertsForRun } from './drift';
 import { queueEmail, recipientsForRole } from './mail';
 import { asStored, computeRunResults, ENGINE_VERSION, inputsSha256, resultsSha256, RunInputError, type RunComputeInput, type RunScoreInput } from './runCompute';
@@ -194,20 +196,6 @@ export async function runOptions(): Promise<RunOptions> {
 
 // ---------------------------------------------------------------- compute
 
-async function scoreInput(scoreVersionId: string): Promise<RunScoreInput> {
-  const sv = await dataSource.getRepository(ScoreVersion).findOneOrFail({ where: { id: scoreVersionId } });
-  return { mode: sv.mode, model: sv.model, probabilityColumn: sv.probabilityColumn };
-}
-
-/** Everything a run's computation reads, plus the hash over it. */
-export async function loadRunInput(run: Pick<ValidationRun, 'scoreVersionId' | 'cohortVersionId' | 'settings'>): Promise<{ input: RunComputeInput; inputsSha256: string }> {
-  const score = await scoreInput(run.scoreVersionId);
-  const cv = await dataSource.getRepository(CohortVersion).findOneOrFail({ where: { id: run.cohortVersionId } });
-  const data = await loadCohortData(run.cohortVersionId);
-  const settings = runSettingsSchema.parse(run.settings);
-  return { input: { score, data, settings }, inputsSha256: inputsSha256(score, { sourceSha256: cv.sourceSha256, rowCount: cv.rowCount }, settings) };
-}
-
 /** The stored form of a finished computation: results exactly as jsonb will hold them, and their hash. */
 export function sealResults(results: RunResults): { results: RunResults; resultsSha256: string } {
   const stored = asStored(results);
@@ -251,15 +239,15 @@ export async function processNextRun(): Promise<string | null> {
   };
 
   try {
-    const { input, inputsSha256: inputsHash } = await loadRunInput(run);
-    onProgress(0.01, 'computing');
-    const thread = computeInThread(input, onProgress);
+    // The thread loads the score and the cohort itself, through its own connection.
+    const thread = computeInThread({ task: 'run', scoreVersionId: run.scoreVersionId, cohortVersionId: run.cohortVersionId, settings: run.settings }, onProgress);
     active = { runId: claimed, thread };
-    const raw = await thread.result;
+    const { results: raw, inputsSha256: inputsHash, drift } = await thread.result;
     active = null;
     await pending;
     const sealed = sealResults(raw);
     await dataSource.transaction(async (m) => {
+      if (drift) await storeDriftSeries((sql, params) => m.query(sql, params), run.scoreVersionId, run.cohortVersionId, claimed, drift);
       await m.query(
         `UPDATE validation_runs SET status = 'completed', progress = 1, progress_message = 'completed', results = $2::jsonb, engine_version = $3,
            inputs_sha256 = $4, results_sha256 = $5, finished_at = now() WHERE id = $1 AND status = 'running'`,
@@ -347,6 +335,7 @@ export async function recordRunNow(actorId: string | null, scoreVersionId: strin
   const parsed = runSettingsSchema.parse(settings);
   const { input, inputsSha256: inputsHash } = await loadRunInput({ scoreVersionId, cohortVersionId, settings: parsed });
   const sealed = sealResults(computeRunResults(input));
+  const drift = driftSeriesOf(input.score, input.data);
   return dataSource.transaction(async (m) => {
     await m.query('UPDATE score_versions SET locked = true WHERE id = $1 AND NOT locked', [scoreVersionId]);
     const rows: { id: string }[] = await m.query(
@@ -356,6 +345,7 @@ export async function recordRunNow(actorId: string | null, scoreVersionId: strin
       [scoreVersionId, cohortVersionId, JSON.stringify(parsed), JSON.stringify(sealed.results), ENGINE_VERSION, inputsHash, sealed.resultsSha256, actorId],
     );
     const id = rows[0].id;
+    await storeDriftSeries((sql, params) => m.query(sql, params), scoreVersionId, cohortVersionId, id, drift);
     await appendAudit({ actorId, action: 'run.created', targetType: 'validation_run', targetId: id, details: { scoreVersionId, cohortVersionId, settings: parsed, ...details } }, m);
     await appendAudit({ action: 'run.completed', targetType: 'validation_run', targetId: id, details: { inputsSha256: inputsHash, resultsSha256: sealed.resultsSha256, engineVersion: ENGINE_VERSION, ...details } }, m);
     return id;
@@ -409,7 +399,6 @@ export async function startRunQueue(): Promise<() => Promise<void>> {
   };
 }
 
-registerBackground(startRunQueue);
 
 // ---------------------------------------------------------------- reproduce
 
@@ -430,8 +419,9 @@ export async function reproduceRun(actor: AuthUser, id: string, ip: string | nul
   const run = await dataSource.getRepository(ValidationRun).findOne({ where: { id } });
   if (!run) throw notFound('validation run');
   if (run.status !== 'completed' || !run.results || !run.resultsSha256) throw conflict(`only a completed run can be reproduced; this one is ${run.status}`);
-  const { input, inputsSha256: inputsHash } = await loadRunInput(run);
-  const recomputed = sealResults(await computeInThread(input).result);
+  const outcome = await computeInThread({ task: 'run', scoreVersionId: run.scoreVersionId, cohortVersionId: run.cohortVersionId, settings: run.settings }).result;
+  const inputsHash = outcome.inputsSha256;
+  const recomputed = sealResults(outcome.results);
   const storedNow = resultsSha256(run.results);
   const match = recomputed.resultsSha256 === run.resultsSha256 && storedNow === run.resultsSha256;
   const report: ReproduceReport = {

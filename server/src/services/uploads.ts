@@ -11,7 +11,6 @@ import { badRequest, conflict, HttpError, notFound } from '../middleware/errors'
 import type { AuthUser } from '../middleware/auth';
 import type { UploadWorkerData } from '../workers/uploadWorker';
 import { appendAudit } from './audit';
-import { registerBackground } from './background';
 import type { Delimiter } from './csvFile';
 import { neutraliseCell } from './deidentify';
 import { checkInThread, screenInThread, warmUploadThreads } from './uploadThreads';
@@ -317,7 +316,8 @@ export async function discardStaleUploads(keepDays = Number(process.env.PLUMBLIN
   return stale.length;
 }
 
-registerBackground(async () => {
+/** At start: interrupted checks marked failed, the checking threads started, and the stale-upload sweep every 6 hours. */
+export async function startUploadUpkeep(): Promise<() => void> {
   await recoverInterruptedUploads();
   warmUploadThreads();
   const sweep = () => void discardStaleUploads().catch((err: Error) => logger.error({ err }, 'discarding stale uploads failed'));
@@ -325,7 +325,7 @@ registerBackground(async () => {
   const timer = setInterval(sweep, 6 * 60 * 60 * 1000);
   timer.unref();
   return () => clearInterval(timer);
-});
+}
 
 // ---- Rejections ----------------------------------------------------------------------------------------------
 
