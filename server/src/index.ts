@@ -4,6 +4,7 @@ import { config } from './config';
 import { closeDatabase, initDatabase } from './db/dataSource';
 import { backgroundServices, startBackgroundServices, stopBackgroundServices } from './services/background';
 import { startFakeSmtp } from './services/fakeSmtp';
+import { stopRowsThread } from './services/rowsThread';
 import { logger } from './observability/log';
 import { startProcessMetrics } from './observability/metrics';
 
@@ -22,6 +23,7 @@ async function main() {
     logger.info({ signal }, 'stopping');
     server.close();
     await stopBackgroundServices();
+    await stopRowsThread();
     await closeDatabase();
     logger.flush();
     process.exit(0);
