@@ -73,6 +73,7 @@ const DRAIN_LIMIT = 16 * 1024 * 1024;
 function sendError(err: unknown, req: Request, res: Response): void {
   if (res.headersSent) return;
   if (err instanceof HttpError) {
+    if (err.status >= 500) res.err = err; // written with the request's log line
     res.status(err.status).json({ error: err.message, ...(err.details !== undefined ? { details: err.details } : {}) });
     return;
   }

@@ -49,6 +49,8 @@ export function requestLogger(log: Logger = logger) {
         headers: req.headers,
         remoteAddress: req.remoteAddress,
       }),
+      // The status only: the answer's headers are the same security headers every time.
+      res: (res: { statusCode: number }) => ({ statusCode: res.statusCode }),
     },
   });
 }
