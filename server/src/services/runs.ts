@@ -204,20 +204,46 @@ export function sealResults(results: RunResults): { results: RunResults; results
 
 let active: { runId: string; thread: RunningThread } | null = null;
 
+/** The advisory-lock key of a run's lease (the same expression in SQL: hashtextextended('plumbline run ' || id, 0)). */
+const LEASE_KEY_SQL = `hashtextextended('plumbline run ' || $1::text, 0)`;
+
 /**
  * Claims the oldest queued run (FOR UPDATE SKIP LOCKED, so several processes can share the queue), computes it in a
  * worker thread, and stores the outcome. Returns the run id, or null when the queue is empty.
+ *
+ * The claim takes a session-level advisory lock on a connection of its own and keeps it until the run ends: that is
+ * the run's lease. PostgreSQL drops it when this process dies, so recoverInterruptedRuns (in this or any other
+ * process) only takes back runs whose process is gone, never a run a live process is computing.
  */
 export async function processNextRun(): Promise<string | null> {
-  const claimed = await dataSource.transaction(async (m) => {
-    const rows: { id: string }[] = await m.query(
+  const lease = dataSource.createQueryRunner();
+  await lease.connect();
+  let claimed: string | null = null;
+  try {
+    await lease.startTransaction();
+    const rows: { id: string }[] = await lease.query(
       `SELECT id FROM validation_runs WHERE status = 'queued' ORDER BY created_at, id LIMIT 1 FOR UPDATE SKIP LOCKED`,
     );
-    if (!rows[0]) return null;
-    await m.query(`UPDATE validation_runs SET status = 'running', started_at = now(), progress = 0, progress_message = 'loading the cohort' WHERE id = $1`, [rows[0].id]);
-    return rows[0].id;
-  });
-  if (!claimed) return null;
+    if (rows[0]) {
+      // Taken before the claim commits, so no other process ever sees this run 'running' without its lease.
+      await lease.query(`SELECT pg_advisory_lock(${LEASE_KEY_SQL})`, [rows[0].id]);
+      await lease.query(`UPDATE validation_runs SET status = 'running', started_at = now(), progress = 0, progress_message = 'loading the cohort' WHERE id = $1`, [rows[0].id]);
+      claimed = rows[0].id;
+    }
+    await lease.commitTransaction();
+    if (!claimed) return null;
+    return await computeClaimedRun(claimed);
+  } catch (err) {
+    if (lease.isTransactionActive) await lease.rollbackTransaction().catch(() => undefined);
+    throw err;
+  } finally {
+    // Session-level locks outlive transactions: drop the lease before the connection goes back to the pool.
+    await lease.query('SELECT pg_advisory_unlock_all()').catch(() => undefined);
+    await lease.release();
+  }
+}
+
+async function computeClaimedRun(claimed: string): Promise<string> {
   const timer = jobDuration.startTimer({ job: 'run' });
   let outcome = 'completed';
   const run = await dataSource.getRepository(ValidationRun).findOneOrFail({ where: { id: claimed } });
@@ -283,10 +309,13 @@ export async function processNextRun(): Promise<string | null> {
   return claimed;
 }
 
-/** Runs left 'running' by a process that stopped without finishing: queued again, or failed after MAX_ATTEMPTS. */
+/** Runs left 'running' by a process that stopped (their lease is free): queued again, or failed after MAX_ATTEMPTS. */
 export async function recoverInterruptedRuns(): Promise<{ requeued: string[]; failed: string[] }> {
   return dataSource.transaction(async (m) => {
-    const rows: { id: string; attempt: number }[] = await m.query(`SELECT id, attempt FROM validation_runs WHERE status = 'running' FOR UPDATE SKIP LOCKED`);
+    // A run whose lease (advisory lock) is held belongs to a live process; only free leases are taken back.
+    const rows: { id: string; attempt: number }[] = await m.query(
+      `SELECT id, attempt FROM validation_runs WHERE status = 'running' AND pg_try_advisory_xact_lock(hashtextextended('plumbline run ' || id::text, 0)) FOR UPDATE SKIP LOCKED`,
+    );
     const requeued: string[] = [];
     const failed: string[] = [];
     for (const r of rows) {
