@@ -18,6 +18,7 @@ await build({
     runWorker: 'server/src/workers/runWorker.ts',
     precisionWorker: 'server/src/workers/precisionWorker.ts',
     bootstrapWorker: 'server/src/workers/bootstrapWorker.ts',
+    rowsWorker: 'server/src/workers/rowsWorker.ts',
   },
   outdir,
   bundle: true,

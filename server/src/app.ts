@@ -1,22 +1,24 @@
 import express from 'express';
 import helmet from 'helmet';
 import { existsSync } from 'node:fs';
-import type { IncomingMessage, ServerResponse } from 'node:http';
 import path from 'node:path';
 import { config } from './config';
 import { errorHandler, HttpError } from './middleware/errors';
 import { refuseBadText } from './middleware/textGuard';
-import { markWrites } from './middleware/writeGeneration';
-import { keptAnswers, mountRoutes, recordHeaders } from './routes/define';
+import { apiCacheHeaders } from './middleware/cacheHeaders';
+import type { Logger } from 'pino';
+import { requestLogger } from './observability/log';
+import { timeRequests } from './observability/metrics';
+import { mountRoutes } from './routes/define';
 import { routes } from './routes/table';
 
 /** Builds the app without listening, so tests drive it directly and only index.ts listens. */
-export function createApp(options: { serveClient?: boolean } = {}) {
+export function createApp(options: { serveClient?: boolean; log?: Logger } = {}) {
   const app = express();
   app.set('trust proxy', 'loopback');
   app.disable('x-powered-by');
-  // First, so that every state-changing request invalidates the kept read answers (services/responseCache.ts).
-  app.use(markWrites);
+  // First, so every answer (refusals and errors included) gets a request id, one log line and a duration.
+  app.use('/api', requestLogger(options.log), timeRequests);
   const securityHeaders = helmet({
     contentSecurityPolicy: {
       directives: {
@@ -41,6 +43,7 @@ export function createApp(options: { serveClient?: boolean } = {}) {
   app.use(securityHeaders);
   app.use('/api', express.json({ limit: '1mb' }));
   app.use('/api', refuseBadText);
+  app.use('/api', apiCacheHeaders);
 
   const api = express.Router();
   mountRoutes(api, routes);
@@ -54,15 +57,5 @@ export function createApp(options: { serveClient?: boolean } = {}) {
   }
   app.use(errorHandler);
 
-  // Kept answers of the busiest reads go out before Express runs, with the headers securityHeaders sets (recorded
-  // once); every other request, and every miss or refusal, takes the full chain above (routes/define.ts, keptAnswers).
-  // app.handle is what both app.listen's server and supertest call for each request.
-  const answerKept = keptAnswers(routes, recordHeaders(securityHeaders));
-  const expressHandle = (app as unknown as { handle: (req: IncomingMessage, res: ServerResponse, done?: unknown) => void }).handle.bind(app);
-  (app as unknown as { handle: typeof expressHandle }).handle = (req, res, done) => {
-    const answered = answerKept(req, res);
-    if (answered === false) return expressHandle(req, res, done);
-    answered.then((sent) => sent || expressHandle(req, res, done), () => expressHandle(req, res, done));
-  };
   return app;
 }

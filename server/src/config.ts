@@ -49,7 +49,6 @@ const envSchema = z.object({
   PLUMBLINE_UPLOAD_KEEP_DAYS: num(14, 0),
   PLUMBLINE_WORKER_NICE: int(10, 0, 19),
   PLUMBLINE_WARM_WIDTHS: int(50, 0, 500),
-  PLUMBLINE_DRIFT_WARM: flag(true),
   PLUMBLINE_MAIL_SENDER: flag(true),
   PLUMBLINE_MAIL_INTERVAL_MS: int(3000, 10, 24 * 3600 * 1000),
   PLUMBLINE_FAKE_SMTP: flag(false),
@@ -57,6 +56,10 @@ const envSchema = z.object({
   PLUMBLINE_PUBLIC_URL: z.preprocess(unset, z.url().optional()),
   PLUMBLINE_CLIENT_DIR: text('dist/client'),
   PLUMBLINE_BCRYPT_COST: int(10, 4, 15),
+  // pino level (the test suite sets warn).
+  PLUMBLINE_LOG_LEVEL: z.preprocess(unset, z.enum(['trace', 'debug', 'info', 'warn', 'error', 'fatal', 'silent']).default('info')),
+  // When set, GET /api/metrics needs `Authorization: Bearer <this>` (a Prometheus scrape credential).
+  PLUMBLINE_METRICS_TOKEN: text(''),
   // Read by the admin:create command only (server/src/cli/createAdmin.ts), never by the server.
   PLUMBLINE_ADMIN_PASSWORD: optionalText(),
   SMTP_HOST: text('127.0.0.1'),
@@ -131,7 +134,6 @@ export function loadConfig(env: Record<string, string | undefined>) {
     uploadKeepDays: e.PLUMBLINE_UPLOAD_KEEP_DAYS,
     workerNice: e.PLUMBLINE_WORKER_NICE,
     warmWidths: e.PLUMBLINE_WARM_WIDTHS,
-    driftWarm: e.PLUMBLINE_DRIFT_WARM,
     mailSender: e.PLUMBLINE_MAIL_SENDER,
     mailIntervalMs: e.PLUMBLINE_MAIL_INTERVAL_MS,
     fakeSmtp: e.PLUMBLINE_FAKE_SMTP,
@@ -147,6 +149,8 @@ export function loadConfig(env: Record<string, string | undefined>) {
     devOutbox: e.PLUMBLINE_DEV_OUTBOX && !production,
     clientDir: e.PLUMBLINE_CLIENT_DIR,
     bcryptCost: e.PLUMBLINE_BCRYPT_COST,
+    logLevel: e.PLUMBLINE_LOG_LEVEL,
+    metricsToken: e.PLUMBLINE_METRICS_TOKEN,
     adminPassword: e.PLUMBLINE_ADMIN_PASSWORD,
   };
 }

@@ -3,26 +3,32 @@ import { createApp } from './app';
 import { config } from './config';
 import { closeDatabase, initDatabase } from './db/dataSource';
 import { startChecks, StartRefused } from './db/startChecks';
-import { registerBackground, startBackgroundServices, stopBackgroundServices } from './services/background';
+import { backgroundServices, startBackgroundServices, stopBackgroundServices } from './services/background';
 import { startFakeSmtp } from './services/fakeSmtp';
-
-// Development: a loopback mail server for the outbox page (docker-free-dev.sh sets PLUMBLINE_FAKE_SMTP=1).
-if (config.fakeSmtp) registerBackground(() => startFakeSmtp());
+import { stopRowsThread } from './services/rowsThread';
+import { logger } from './observability/log';
+import { startProcessMetrics } from './observability/metrics';
 
 async function main() {
   // Migrations and the runtime role's grants as the owner; then the API's own connection as the runtime role.
   await initDatabase(true);
   await startChecks();
+  startProcessMetrics();
   const app = createApp();
   const server = app.listen(config.port, '127.0.0.1', () => {
-    console.log(`Plumbline is serving on http://localhost:${config.port} (${config.nodeEnv})`);
+    logger.info({ port: config.port, nodeEnv: config.nodeEnv }, `Plumbline is serving on http://localhost:${config.port} (${config.nodeEnv})`);
   });
-  await startBackgroundServices();
+  // Background work starts here, explicitly. Development: a loopback mail server for the outbox page
+  // (docker-free-dev.sh sets PLUMBLINE_FAKE_SMTP=1).
+  const fakeSmtp = config.fakeSmtp ? [() => startFakeSmtp()] : [];
+  await startBackgroundServices([...fakeSmtp, ...backgroundServices()]);
   const stop = async (signal: string) => {
-    console.log(`Plumbline: ${signal} received, stopping`);
+    logger.info({ signal }, 'stopping');
     server.close();
     await stopBackgroundServices();
+    await stopRowsThread();
     await closeDatabase();
+    logger.flush();
     process.exit(0);
   };
   process.on('SIGINT', () => void stop('SIGINT'));
@@ -30,8 +36,9 @@ async function main() {
 }
 
 main().catch(async (err) => {
-  if (err instanceof StartRefused) console.error(`Plumbline refuses to start: ${err.message}`);
-  else console.error('Plumbline failed to start:', err);
+  if (err instanceof StartRefused) logger.fatal(`Plumbline refuses to start: ${err.message}`);
+  else logger.fatal({ err }, 'Plumbline failed to start');
   await closeDatabase().catch(() => undefined);
+  logger.flush();
   process.exit(1);
 });

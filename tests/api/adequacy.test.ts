@@ -9,7 +9,6 @@ import type { RunDetail } from '@shared/runs';
 import { stopBackgroundServices } from '../../server/src/services/background';
 import { forgetKeptPrecision, keptPrecision, widthsComputedHere } from '../../server/src/services/adequacyPrecision';
 import { warmRunWidths } from '../../server/src/services/precisionThread';
-import { noteWrite } from '../../server/src/services/responseCache';
 import { processNextRun } from '../../server/src/services/runs';
 import { precisionFor } from '../../server/src/stats/sampleSize';
 import { app, bearer, dataSource, DEMO_PASSWORD, tokenFor, useDatabase } from '../helpers/api';
@@ -125,7 +124,6 @@ describe('adequacy on a run', () => {
   it('with no widths kept (as after a restart) the run page gets them from the widths thread, not the API thread', async () => {
     const o = run.results!.overall;
     forgetKeptPrecision();
-    noteWrite(); // the kept answer of the page goes too, so the page is built again
     const before = widthsComputedHere();
     const got = await request(app).get(`/api/runs/${run.id}`).set(bearer(await tokenFor('statistician')));
     expect(got.status).toBe(200);

@@ -63,6 +63,7 @@ describe('drift timeline, alert rules and recalibration', () => {
   let score: ScoreFixture;
   const periods: Row[][] = [];
   const runIds: string[] = [];
+  const cohortVersionIds: string[] = [];
   const startedAt = new Date();
 
   beforeAll(async () => {
@@ -72,6 +73,7 @@ describe('drift timeline, alert rules and recalibration', () => {
       const rows = shiftMonths(kestrelRows(1500, 101 + k, { logitShift: shifts[k], months: 3 }), 3 * k);
       periods.push(rows);
       const cohort = await createCohortFixture(rows, { label: `P${k + 1}` });
+      cohortVersionIds.push(cohort.cohortVersionId);
       runIds.push(await recordRunNow(null, score.scoreVersionId, cohort.cohortVersionId, runSettingsSchema.parse({})));
     }
   }, 120_000);
@@ -168,6 +170,33 @@ describe('drift timeline, alert rules and recalibration', () => {
 
     expect((await request(app).get(`/api/scores/${score.scoreId}/versions/1/drift`).set(bearer(await tokenFor('clinician')))).status).toBe(403);
     expect((await request(app).get(`/api/scores/${score.scoreId}/versions/9/drift`).set(bearer(await tokenFor('statistician')))).status).toBe(404);
+  });
+
+  it('reads per-patient series stored with each run (immutable), and works one out in the run thread where none is stored', async () => {
+    const stored: { cohort_version_id: string; run_id: string; n: number }[] = await dataSource.query(
+      'SELECT cohort_version_id, run_id, n FROM drift_series WHERE score_version_id = $1 ORDER BY n, cohort_version_id',
+      [score.scoreVersionId],
+    );
+    expect(stored.map((r) => [r.cohort_version_id, r.run_id, r.n]).sort()).toEqual(cohortVersionIds.map((id, k) => [id, runIds[k], 1500]).sort());
+    await expect(dataSource.query('UPDATE drift_series SET variance = 0 WHERE score_version_id = $1', [score.scoreVersionId])).rejects.toThrow(/not allowed/);
+    await expect(dataSource.query('DELETE FROM drift_series WHERE score_version_id = $1', [score.scoreVersionId])).rejects.toThrow(/not allowed/);
+
+    // The same formula as another score, with a completed run inserted straight into the table (as a run stored before
+    // series were kept): the first drift read works its series out, with the same figures as the stored one.
+    const other = await createScoreFixture({ name: `Drift fixture without series ${Date.now()}` });
+    await dataSource.query(
+      `INSERT INTO validation_runs (score_version_id, cohort_version_id, settings, status, progress, results, engine_version, inputs_sha256, results_sha256, finished_at)
+       SELECT $1, cohort_version_id, settings, 'completed', 1, results, engine_version, md5(random()::text) || md5(random()::text), md5(random()::text) || md5(random()::text), now()
+       FROM validation_runs WHERE id = $2`,
+      [other.scoreVersionId, runIds[0]],
+    );
+    expect(await dataSource.query('SELECT 1 FROM drift_series WHERE score_version_id = $1', [other.scoreVersionId])).toHaveLength(0);
+    const res = await request(app).get(`/api/scores/${other.scoreId}/versions/1/drift`).set(bearer(await tokenFor('statistician')));
+    expect(res.status).toBe(200);
+    const mine = (await request(app).get(`/api/scores/${score.scoreId}/versions/1/drift`).set(bearer(await tokenFor('statistician')))).body as DriftResponse;
+    expect((res.body as DriftResponse).periods[0].funnel).toEqual(mine.periods[0].funnel);
+    const made: { run_id: string | null; n: number }[] = await dataSource.query('SELECT run_id, n FROM drift_series WHERE score_version_id = $1', [other.scoreVersionId]);
+    expect(made).toEqual([{ run_id: null, n: 1500 }]);
   });
 
   it('lists alerts for statistician, chair and admin only, and acknowledges each once', async () => {

@@ -1,7 +1,9 @@
 // Validation runs: the queue, the stored record, reproduce, compare, the database's refusal to edit a completed run,
 // crash recovery, role rules and settings validation. Fixture data is invented (tests/helpers/fixtures.ts).
 import request from 'supertest';
+import pg from 'pg';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { config } from '../../server/src/config';
 import type { RunDetail, RunResults } from '@shared/runs';
 import { startBackgroundServices, stopBackgroundServices } from '../../server/src/services/background';
 import { asStored, engineSettings, ENGINE_VERSION } from '../../server/src/services/runCompute';
@@ -271,6 +273,48 @@ describe('crash recovery', () => {
     expect((await getRun(interrupted)).status).toBe('completed');
   });
 
+  it('leaves alone a run whose lease another live process holds, and takes it back once that process is gone', async () => {
+    const id = await insertRunning(1);
+    // Another process's lease: a session-level advisory lock on its own connection (as processNextRun takes it).
+    const other = new pg.Client({ ...config.db, application_name: 'plumbline test: another process' });
+    await other.connect();
+    try {
+      await other.query(`SELECT pg_advisory_lock(hashtextextended('plumbline run ' || $1::text, 0))`, [id]);
+      expect((await recoverInterruptedRuns()).requeued).not.toContain(id);
+      expect((await getRun(id)).status).toBe('running');
+    } finally {
+      await other.end(); // the process "dies": PostgreSQL drops its lock with its session
+    }
+    expect((await recoverInterruptedRuns()).requeued).toEqual([id]);
+    expect((await getRun(id)).status).toBe('queued');
+    await drainQueue();
+    expect((await getRun(id)).status).toBe('completed');
+  });
+
+  it('holds the lease while it computes, and drops it when the run ends', async () => {
+    const res = await createRun('statistician', { scoreVersionId: score.scoreVersionId, cohortVersionId: cohort.cohortVersionId });
+    expect(res.status).toBe(201);
+    const id = res.body.run.id as string;
+    const leaseHeld = async () =>
+      ((await dataSource.query(
+        `SELECT count(*)::int AS n FROM pg_locks WHERE locktype = 'advisory' AND granted
+           AND objsubid = 1 AND ((classid::bigint << 32) | objid::bigint) = hashtextextended('plumbline run ' || $1::text, 0)`,
+        [id],
+      )) as { n: number }[])[0].n > 0;
+    const processing = processNextRun();
+    let sawLease = false;
+    while (!sawLease) {
+      const status = (await getRun(id)).status;
+      if (status === 'running') sawLease = await leaseHeld();
+      if (status === 'completed' || status === 'failed') break;
+      await new Promise((r) => setTimeout(r, 20));
+    }
+    expect(await processing).toBe(id);
+    expect(sawLease).toBe(true);
+    expect(await leaseHeld()).toBe(false);
+    expect((await getRun(id)).status).toBe('completed');
+  });
+
   it('an UPDATE of a queued or running run is allowed (progress)', async () => {
     const id = await insertRunning(1);
     await dataSource.query(`UPDATE validation_runs SET progress = 0.5, progress_message = 'half way' WHERE id = $1`, [id]);
@@ -353,12 +397,15 @@ describe('settings validation', () => {
 });
 
 describe('the worker thread under plain tsx (as the server runs)', () => {
-  it('starts, computes, and gives the same result hash as an inline computation', async () => {
+  it('starts, loads the cohort itself, computes, and gives the same hashes as an inline computation', async () => {
     const { execFile } = await import('node:child_process');
     const { promisify } = await import('node:util');
     const { stdout } = await promisify(execFile)('node_modules/.bin/tsx', ['tests/helpers/runThreadProbe.ts'], { cwd: process.cwd(), timeout: 60_000 });
     const out = JSON.parse(stdout.trim().split('\n').pop()!);
     expect(out.threaded).toMatch(/^[0-9a-f]{64}$/);
     expect(out.threaded).toBe(out.inline);
+    expect(out.threadedInputs).toMatch(/^[0-9a-f]{64}$/);
+    expect(out.threadedInputs).toBe(out.inlineInputs);
+    expect(out.driftPatients).toBe(600);
   });
 });

@@ -70,8 +70,9 @@ async function main() {
     stdio: ['ignore', 'pipe', 'pipe', 'ipc'],
   });
   let serverOut = '';
-  child.stdout?.on('data', (d) => (serverOut += d));
-  child.stderr?.on('data', (d) => (serverOut += d));
+  // Only the tail is kept (for a failed start): the server logs one JSON line per request.
+  child.stdout?.on('data', (d) => (serverOut = (serverOut + d).slice(-20_000)));
+  child.stderr?.on('data', (d) => (serverOut = (serverOut + d).slice(-20_000)));
   const stopServer = async () => {
     if (child.exitCode === null) {
       child.kill('SIGTERM');

@@ -1,25 +1,31 @@
-// Run by tests/api/runs.test.ts under plain tsx (as the server runs): computes a small invented cohort in the run
-// worker thread and prints the result hash, so the thread start-up is proven outside vitest too.
-import { computeRunResults, resultsSha256, type RunComputeInput } from '../../server/src/services/runCompute';
+// Run by tests/api/runs.test.ts under plain tsx (as the server runs): stores a small invented cohort, computes it in
+// the run worker thread (which reads the cohort itself, through its own connection) and inline, and prints both
+// result hashes and input hashes, so the thread start-up and its own loading are proven outside vitest too.
+import 'reflect-metadata';
+import { closeDatabase, initDatabase } from '../../server/src/db/dataSource';
+import { computeRunResults, resultsSha256 } from '../../server/src/services/runCompute';
+import { loadRunInput } from '../../server/src/services/runInput';
 import { computeInThread } from '../../server/src/services/runThread';
 import { runSettingsSchema } from '../../shared/src/runs';
-import { FIXTURE_MODEL, kestrelRows } from './fixtures';
+import { createCohortFixture, createScoreFixture, kestrelRows } from './fixtures';
 
-const rows = kestrelRows(600, 5);
-const columns: Record<string, (number | string)[]> = {};
-for (const k of Object.keys(rows[0].predictors)) columns[k] = rows.map((r) => r.predictors[k]);
-const input: RunComputeInput = {
-  score: { mode: 'formula', model: FIXTURE_MODEL, probabilityColumn: null },
-  data: {
-    cohortVersionId: 'probe',
-    n: rows.length,
-    outcome: Uint8Array.from(rows.map((r) => r.outcome)),
-    lineNo: Int32Array.from(rows.map((_, i) => i + 1)),
-    columns,
-    eventDate: rows.map((r) => r.eventDate ?? null),
-    subgroups: { sex: rows.map((r) => r.subgroups!.sex) },
-  },
-  settings: runSettingsSchema.parse({ subgroupColumns: ['sex'], timeGrouping: 'quarter' }),
-};
-const threaded = await computeInThread(input).result;
-console.log(JSON.stringify({ threaded: resultsSha256(threaded), inline: resultsSha256(computeRunResults(input)) }));
+await initDatabase(false);
+try {
+  const score = await createScoreFixture({ name: `Thread probe ${Date.now()}` });
+  const cohort = await createCohortFixture(kestrelRows(600, 5), { label: 'thread probe' });
+  const settings = runSettingsSchema.parse({ subgroupColumns: ['sex'], timeGrouping: 'quarter' });
+  const job = { scoreVersionId: score.scoreVersionId, cohortVersionId: cohort.cohortVersionId, settings };
+  const threaded = await computeInThread({ task: 'run', ...job }).result;
+  const inline = await loadRunInput(job);
+  console.log(
+    JSON.stringify({
+      threaded: resultsSha256(threaded.results),
+      inline: resultsSha256(computeRunResults(inline.input)),
+      threadedInputs: threaded.inputsSha256,
+      inlineInputs: inline.inputsSha256,
+      driftPatients: threaded.drift?.n ?? null,
+    }),
+  );
+} finally {
+  await closeDatabase();
+}

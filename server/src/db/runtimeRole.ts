@@ -12,6 +12,8 @@ export const RUNTIME_GRANTS: Record<string, string[]> = {
   signatures: ['SELECT', 'INSERT'],
   run_comments: ['SELECT', 'INSERT'],
   cohort_versions: ['SELECT', 'INSERT'],
+  // A run's per-period drift series, stored once when the run completes.
+  drift_series: ['SELECT', 'INSERT'],
   // A review is append-only except for the one link to the review that supersedes it.
   run_reviews: ['SELECT', 'INSERT', 'UPDATE (superseded_by)'],
   // Staged blocks of a checked upload are deleted on a new mapping or a discard; the trigger refuses it for stored ones.

@@ -5,7 +5,6 @@ import type { Role } from '@shared/roles';
 import { config } from '../config';
 import { dataSource } from '../db/dataSource';
 import type { User } from '../entities/User';
-import { currentWriteGeneration } from '../services/responseCache';
 import { HttpError } from './errors';
 
 export interface AuthUser {
@@ -69,30 +68,12 @@ function verifiedClaims(token: string): TokenClaims {
   return claims;
 }
 
-// Account rows (active, role, token version) as read for the current write generation (services/responseCache.ts):
-// every change to an account through Plumbline — deactivation, role change, password change or reset — is a
-// state-changing request, which bumps the generation before its answer leaves, so a row kept from before it is never
-// used after it. A change made straight in the database (an operator's emergency UPDATE) bumps nothing, so a kept row
-// is also read again once it is ACCOUNT_MAX_AGE_MS old: such a change takes effect within that time. Concurrent first
-// reads of one account share one query.
-const ACCOUNT_LIMIT = 1_000;
-const ACCOUNT_MAX_AGE_MS = 5_000;
-const accounts = new Map<string, { generation: number; at: number; row: Promise<AccountRow | undefined> }>();
-
-function accountRow(id: string): Promise<AccountRow | undefined> {
-  const generation = currentWriteGeneration();
-  const kept = accounts.get(id);
-  const now = Date.now();
-  if (kept && kept.generation === generation && now - kept.at < ACCOUNT_MAX_AGE_MS) return kept.row;
+// The account row is read on every request (one indexed lookup), so a deactivation, role change or password change —
+// made through any API process or straight in the database — is refused on the very next request.
+async function accountRow(id: string): Promise<AccountRow | undefined> {
   // One plain parameterised query (the query builder cost more than the query itself).
-  const row = (dataSource.query('SELECT id, email, name, role, active, token_version FROM users WHERE id = $1', [id]) as Promise<AccountRow[]>).then((rows) => rows[0]);
-  accounts.delete(id);
-  accounts.set(id, { generation, at: now, row });
-  if (accounts.size > ACCOUNT_LIMIT) accounts.delete(accounts.keys().next().value as string);
-  row.catch(() => {
-    if (accounts.get(id)?.row === row) accounts.delete(id);
-  });
-  return row;
+  const rows: AccountRow[] = await dataSource.query('SELECT id, email, name, role, active, token_version FROM users WHERE id = $1', [id]);
+  return rows[0];
 }
 
 /** Verifies the bearer token (HS256 only) and that the account is still active with the same role. */

@@ -1,3 +1,4 @@
+import { logger } from '../observability/log';
 import type { ErrorRequestHandler, Request, RequestHandler, Response } from 'express';
 import { ZodError } from 'zod';
 
@@ -72,6 +73,7 @@ const DRAIN_LIMIT = 16 * 1024 * 1024;
 function sendError(err: unknown, req: Request, res: Response): void {
   if (res.headersSent) return;
   if (err instanceof HttpError) {
+    if (err.status >= 500) res.err = err; // written with the request's log line
     res.status(err.status).json({ error: err.message, ...(err.details !== undefined ? { details: err.details } : {}) });
     return;
   }
@@ -104,6 +106,8 @@ function sendError(err: unknown, req: Request, res: Response): void {
     res.status(503).json({ error: 'the database is unavailable; try again shortly' });
     return;
   }
-  console.error(`[error] ${req.method} ${req.path}:`, err);
+  // pino-http writes it with the request's line (request id, route), at error level; never into the answer.
+  res.err = err as Error;
+  if (!req.log) logger.error({ err, method: req.method, path: req.path }, 'request failed');
   res.status(500).json({ error: 'internal error' });
 }

@@ -11,7 +11,6 @@ import { config } from '../config';
 import { currentUser, sourceIp } from '../middleware/auth';
 import { badRequest, HttpError, zodMessage } from '../middleware/errors';
 import * as cohorts from '../services/cohorts';
-import { ResponseCache, sendJsonBody } from '../services/responseCache';
 import * as uploads from '../services/uploads';
 
 export const uploadDir = config.uploadDir ?? path.join(tmpdir(), 'plumbline-uploads');
@@ -86,15 +85,9 @@ const ownUpload = async (req: Request) => {
   return id;
 };
 
-// Cohort list pages, serialized once per write generation (services/responseCache.ts): a cohort or version is only
-// stored by a state-changing request (storing an upload), so a page kept from before it is never shown after it.
-// Keyed by the whole validated query (zod gives its keys in schema order); the same for every role allowed to read it.
-export const cohortListPages = new ResponseCache(100);
-export const cohortListKey = (_params: unknown, query: Record<string, unknown>) => JSON.stringify(query);
-
 export async function listCohorts(req: Request, res: Response) {
   const q = req.query as unknown as Parameters<typeof cohorts.listCohorts>[0];
-  sendJsonBody(req, res, await cohortListPages.get(cohortListKey(req.params, q), async () => ({ value: await cohorts.listCohorts(q), keep: true })));
+  res.json(await cohorts.listCohorts(q));
 }
 export async function getCohort(req: Request, res: Response) {
   res.json(await cohorts.getCohort(String(req.params.id)));

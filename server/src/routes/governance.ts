@@ -9,7 +9,6 @@ import { notFound } from '../middleware/errors';
 import { receivedMessages } from '../services/fakeSmtp';
 import * as governance from '../services/governance';
 import { runReport } from '../services/report';
-import { ResponseCache, sendJsonBody } from '../services/responseCache';
 import { getScoreCard, listScoreCards } from '../services/scorecards';
 
 const id = (req: Request) => (req.params as { id: string }).id;
@@ -42,14 +41,8 @@ export async function queue(req: Request, res: Response) {
   res.json(await governance.signoffQueue(currentUser(req)));
 }
 
-// The score card list, serialized once per write generation (services/responseCache.ts): sign-off, revoke and score
-// edits are state-changing requests, so a card list kept from before them is never shown after them. Same for every
-// role allowed to read it.
-export const scoreCardList = new ResponseCache(1);
-export const scoreCardListKey = () => 'all';
-
-export async function scorecards(req: Request, res: Response) {
-  sendJsonBody(req, res, await scoreCardList.get(scoreCardListKey(), async () => ({ value: await listScoreCards(), keep: true })));
+export async function scorecards(_req: Request, res: Response) {
+  res.json(await listScoreCards());
 }
 
 export async function scorecard(req: Request, res: Response) {

@@ -41,7 +41,8 @@ const loginLimiter = rateLimit({
 });
 
 export const routes: RouteDef[] = [
-  { method: 'get', path: '/api/health', access: 'public', summary: 'service and database status', handler: health.health },
+  { method: 'get', path: '/api/health', access: 'public', summary: 'service, database and background queue status', handler: health.health },
+  { method: 'get', path: '/api/metrics', access: 'public', summary: 'Prometheus metrics (scrape token when PLUMBLINE_METRICS_TOKEN is set)', handler: health.metrics },
 
   { method: 'post', path: '/api/auth/login', access: 'public', summary: 'sign in', body: loginRequest, before: [loginLimiter], handler: auth.login },
   { method: 'get', path: '/api/auth/me', access: 'signed-in', summary: 'the signed-in account', handler: auth.me },
@@ -61,7 +62,7 @@ export const routes: RouteDef[] = [
   { method: 'get', path: '/api/runs', access: ['steward', 'statistician', 'chair', 'admin'], summary: 'list validation runs (filter by score, status; paged)', query: runListQuery, handler: runs.list },
   { method: 'get', path: '/api/runs/options', access: ['steward', 'statistician'], summary: 'score and cohort versions a run may use', handler: runs.options },
   { method: 'get', path: '/api/runs/compare', access: ['statistician', 'chair', 'admin'], summary: 'compare the headline figures of two runs', query: runCompareQuery, handler: runs.compare },
-  { method: 'get', path: '/api/runs/:id', access: ['steward', 'statistician', 'chair', 'admin'], summary: 'one validation run with its results', params: idParam, handler: runs.get, cachedRead: { cache: runs.completedRunPages, key: runs.runPageKey } },
+  { method: 'get', path: '/api/runs/:id', access: ['steward', 'statistician', 'chair', 'admin'], summary: 'one validation run with its results', params: idParam, handler: runs.get },
   { method: 'post', path: '/api/runs/:id/reproduce', access: ['statistician', 'admin'], summary: 're-compute a completed run and compare its hash', params: idParam, handler: runs.reproduce },
   { method: 'get', path: '/api/runs/:id/review', access: RUN_TEAM, summary: 'reviews, signature manifest and next allowed acts on a run', params: idParam, handler: governance.getReview },
   { method: 'post', path: '/api/runs/:id/review', access: ['statistician'], summary: 'record or revise the review of a completed run', params: idParam, body: reviewRequest, handler: governance.postReview },
@@ -70,13 +71,13 @@ export const routes: RouteDef[] = [
   { method: 'get', path: '/api/runs/:id/comments', access: RUN_TEAM, summary: 'the discussion thread of a run', params: idParam, handler: governance.listComments },
   { method: 'post', path: '/api/runs/:id/comments', access: RUN_TEAM, summary: 'add a comment to a run', params: idParam, body: commentRequest, handler: governance.addComment },
   { method: 'get', path: '/api/signoff-queue', access: ['chair', 'admin'], summary: 'reviewed runs awaiting the committee decision', handler: governance.queue },
-  { method: 'get', path: '/api/scorecards', access: CARD_READERS, summary: 'score cards of approved score versions', handler: governance.scorecards, cachedRead: { cache: governance.scoreCardList, key: governance.scoreCardListKey } },
+  { method: 'get', path: '/api/scorecards', access: CARD_READERS, summary: 'score cards of approved score versions', handler: governance.scorecards },
   { method: 'get', path: '/api/scorecards/:versionId', access: CARD_READERS, summary: 'the score card of one approved version', params: versionIdParam, handler: governance.scorecard },
   { method: 'get', path: '/api/runs/:id/report', access: ['statistician', 'chair', 'admin'], summary: 'the validation report bundle of a run', params: idParam, handler: governance.report },
   { method: 'get', path: '/api/dev/outbox', access: ADMIN, summary: 'development only: e-mails received by the local fake SMTP server', handler: governance.devOutbox },
   // Cohorts: uploads are screened, mapped, checked, then stored in one transaction (services/uploads.ts).
   { method: 'post', path: '/api/cohorts', access: COHORT_WRITERS, summary: 'upload a CSV (multipart, field "file"); screened for identifiers before anything is kept', before: [cohorts.receiveFile], handler: cohorts.createUpload },
-  { method: 'get', path: '/api/cohorts', access: COHORT_READERS, summary: 'list cohorts (paged, sorted, searched on the server)', query: cohortListQuery, handler: cohorts.listCohorts, cachedRead: { cache: cohorts.cohortListPages, key: cohorts.cohortListKey } },
+  { method: 'get', path: '/api/cohorts', access: COHORT_READERS, summary: 'list cohorts (paged, sorted, searched on the server)', query: cohortListQuery, handler: cohorts.listCohorts },
   { method: 'get', path: '/api/cohorts/:id', access: COHORT_READERS, summary: 'a cohort with its versions', params: uuidParam, handler: cohorts.getCohort },
   { method: 'get', path: '/api/cohorts/:id/versions/:version', access: COHORT_READERS, summary: 'one cohort version with its column summary', params: versionParams, handler: cohorts.getVersion },
   { method: 'get', path: '/api/cohorts/:id/versions/:version/rows', access: COHORT_READERS, summary: 'rows of a cohort version (paged, sorted, searched)', params: versionParams, query: cohortRowsQuery, handler: cohorts.listRows },

@@ -1,16 +1,26 @@
-// Long-lived work that runs beside the HTTP server (run queue, e-mail retries, drift checks).
-// Each feature registers a starter here so index.ts and the tests start the same set.
+// Long-lived work beside the HTTP server: the run queue, upload upkeep (interrupted checks, the stale-upload sweep),
+// the outbox sender and the adequacy-widths warm-up. Nothing starts when a module is imported: the entry point
+// (server/src/index.ts) — or a test — calls startBackgroundServices(), and the list below is the whole of it.
+import { config } from '../config';
+import { startMailSender } from './mail';
+import { startWidthsWarmUp } from './precisionThread';
+import { startRunQueue } from './runs';
+import { startUploadUpkeep } from './uploads';
+
 type Stopper = () => Promise<void> | void;
-type Starter = () => Promise<Stopper | void> | Stopper | void;
+export type Starter = () => Promise<Stopper | void> | Stopper | void;
 
-const starters: Starter[] = [];
-let stoppers: Stopper[] = [];
-
-export function registerBackground(start: Starter): void {
-  starters.push(start);
+/** The background services a full process runs, in start order. */
+export function backgroundServices(): Starter[] {
+  const list: Starter[] = [startRunQueue, startUploadUpkeep, startWidthsWarmUp];
+  // PLUMBLINE_MAIL_SENDER=off leaves the outbox untouched (e.g. to inspect pending rows); tests call sendPendingOnce().
+  if (config.mailSender) list.push(() => startMailSender());
+  return list;
 }
 
-export async function startBackgroundServices(): Promise<void> {
+let stoppers: Stopper[] = [];
+
+export async function startBackgroundServices(starters: Starter[] = backgroundServices()): Promise<void> {
   for (const start of starters) {
     const stop = await start();
     if (stop) stoppers.push(stop);

@@ -14,10 +14,15 @@ export interface CohortData {
   subgroups: Record<string, (string | null)[]>;
 }
 
-export async function loadCohortData(cohortVersionId: string): Promise<CohortData> {
-  const meta: { row_count: number }[] = await dataSource.query('SELECT row_count FROM cohort_versions WHERE id = $1', [cohortVersionId]);
+/** A parameterised query returning rows: TypeORM's dataSource.query, or a pg client's in a worker thread. */
+export type Query = (sql: string, params?: unknown[]) => Promise<Record<string, unknown>[]>;
+
+export const mainQuery: Query = (sql, params) => dataSource.query(sql, params);
+
+export async function loadCohortData(cohortVersionId: string, query: Query = mainQuery): Promise<CohortData> {
+  const meta = await query('SELECT row_count FROM cohort_versions WHERE id = $1', [cohortVersionId]);
   if (!meta.length) throw notFound('cohort version');
-  const rows: Record<string, unknown>[] = await dataSource.query(SELECT_BLOCKS_SQL, [cohortVersionId]);
+  const rows = await query(SELECT_BLOCKS_SQL, [cohortVersionId]);
   const blocks: StoredBlock[] = rows.map(parseStoredBlock);
   const n = blocks.reduce((s, b) => s + b.row_count, 0);
   const outcome = new Uint8Array(n);

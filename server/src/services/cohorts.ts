@@ -1,11 +1,11 @@
 // Stored cohorts and their immutable versions: lists, details, rows with server-side paging, saved mappings.
 import type { ColumnMappingSpec } from '@shared/cohorts';
 import { dataSource } from '../db/dataSource';
-import { loadCohortData, type CohortData } from './cohortData';
 import type { AuthUser } from '../middleware/auth';
 import { badRequest, notFound } from '../middleware/errors';
 import { cohortVersionAdequacy } from './adequacy';
 import { appendAudit } from './audit';
+import { browseRows } from './rowsThread';
 
 const SORTS: Record<string, string> = { name: 'c.name', createdAt: 'c.created_at', versions: 'versions', latestRows: 'latest_rows' };
 
@@ -59,67 +59,18 @@ async function readCohortVersion(cohortId: string, version: number) {
   return rows[0];
 }
 
-// Stored versions never change: the last few loaded for the row browser stay in memory (bounded by rows held).
-const rowCache = new Map<string, { data: Promise<CohortData>; n: number }>();
-const ROW_CACHE_MAX_ROWS = 2_000_000;
-function cachedCohortData(id: string, n: number): Promise<CohortData> {
-  const hit = rowCache.get(id);
-  rowCache.delete(id);
-  const entry = hit ?? { data: loadCohortData(id), n };
-  entry.data.catch(() => rowCache.delete(id));
-  rowCache.set(id, entry); // most recently used last
-  let held = [...rowCache.values()].reduce((s, e) => s + e.n, 0);
-  for (const [key, e] of rowCache) {
-    if (held <= ROW_CACHE_MAX_ROWS || key === id) break;
-    rowCache.delete(key);
-    held -= e.n;
-  }
-  return entry.data;
-}
-
 /** Rows of one version, paged and sorted; sort keys are line_no, outcome, event_date, or a predictor/subgroup key. */
 export async function listCohortRows(cohortId: string, version: number, q: { page: number; pageSize: number; search?: string; sortBy: string; sortDir: 'asc' | 'desc' }) {
   const v = await readCohortVersion(cohortId, version);
   const mapping = v.mapping as ColumnMappingSpec;
   const predictorKeys = Object.keys(mapping.predictors ?? {});
   const subgroupKeys = Object.keys(mapping.subgroups ?? {});
-  let key: (i: number) => number | string | null;
   if (!['line_no', 'outcome', 'event_date', ...predictorKeys, ...subgroupKeys].includes(q.sortBy)) {
     throw badRequest(`cannot sort by "${q.sortBy}"; use line_no, outcome, event_date, a predictor or a subgroup`);
   }
-  const data = await cachedCohortData(v.id, Number(v.rowCount));
-  if (q.sortBy === 'line_no') key = (i) => data.lineNo[i];
-  else if (q.sortBy === 'outcome') key = (i) => data.outcome[i];
-  else if (q.sortBy === 'event_date') key = (i) => data.eventDate[i];
-  else if (predictorKeys.includes(q.sortBy)) { const col = data.columns[q.sortBy] ?? []; key = (i) => col[i] ?? null; }
-  else { const col = data.subgroups[q.sortBy] ?? []; key = (i) => col[i] ?? null; }
-
-  let idx = Array.from({ length: data.n }, (_, i) => i);
-  const needle = q.search?.trim().toLowerCase();
-  if (needle) {
-    const cols = [...Object.values(data.columns), ...Object.values(data.subgroups)];
-    idx = idx.filter((i) => String(data.lineNo[i]) === needle || cols.some((c) => c[i] !== null && c[i] !== undefined && String(c[i]).toLowerCase().includes(needle)));
-  }
-  const sign = q.sortDir === 'asc' ? 1 : -1;
-  idx.sort((a, b) => {
-    const x = key(a), y = key(b);
-    if (x !== y) {
-      if (x === null) return 1; // missing values last either way
-      if (y === null) return -1;
-      const c = typeof x === 'number' && typeof y === 'number' ? x - y : String(x).localeCompare(String(y));
-      if (c !== 0) return sign * c;
-    }
-    return data.lineNo[a] - data.lineNo[b];
-  });
-  const page = idx.slice((q.page - 1) * q.pageSize, q.page * q.pageSize);
-  const rows = page.map((i) => ({
-    lineNo: data.lineNo[i],
-    outcome: data.outcome[i],
-    eventDate: data.eventDate[i],
-    predictors: Object.fromEntries(Object.entries(data.columns).map(([k, c]) => [k, c[i]])),
-    subgroups: Object.fromEntries(Object.entries(data.subgroups).filter(([, c]) => c[i] !== null).map(([k, c]) => [k, c[i]])),
-  }));
-  return { rows, total: idx.length, page: q.page, pageSize: q.pageSize, predictorKeys, subgroupKeys };
+  // Loading, sorting and searching happen in the row browser's thread, once per version and order; here only a page.
+  const { rows, total } = await browseRows({ cohortVersionId: v.id, rowCount: Number(v.rowCount), sortBy: q.sortBy, sortDir: q.sortDir, search: q.search, page: q.page, pageSize: q.pageSize });
+  return { rows, total, page: q.page, pageSize: q.pageSize, predictorKeys, subgroupKeys };
 }
 
 export async function listMappings(cohortId?: string) {

@@ -19,12 +19,13 @@ import { interceptUpdate, logisticRecalibration, recalibratedProbabilities, tran
 import { riskAdjustedCusum, type CusumResult } from '../stats/riskAdjustedCusum';
 import { sortCohort } from '../stats/sortedCohort';
 import { appendAudit } from './audit';
-import { registerBackground } from './background';
-import { loadCohortData } from './cohortData';
+import { loadCohortData, mainQuery } from './cohortData';
+import { readDriftSeries, type DriftSeriesPart } from './driftSeries';
+import { computeInThread } from './runThread';
 import { queueEmail, recipientsForRole } from './mail';
 import { predictedRisk, type RunScoreInput } from './runCompute';
 import { createScoreVersion, getScoreVersionByNumber, scoreVersionDto } from './scores';
-import { config } from '../config';
+import { logger } from '../observability/log';
 
 export const DEFAULT_CUSUM = { oddsRatio: 2, h: 4.5 };
 export const DEFAULT_IMPROVEMENT_OR = 0.5;
@@ -57,13 +58,14 @@ interface VersionRow {
   probability_column: string | null;
 }
 
-/** Patients of the distinct cohort versions, in event-date order, with the cohort version each came from. */
+/** Patients of the distinct cohort versions, in event-date order, merged from their stored drift series. */
 interface PatientSeries {
   p: Float64Array;
   y: Uint8Array;
-  date: (string | null)[];
-  cohortIndex: Int32Array; // index into cohortVersionIds
-  cohortVersionIds: string[];
+  n: number;
+  /** The event date and cohort version of the patient at a position (looked up in the merged date groups). */
+  dateAt: (t: number) => string | null;
+  cohortAt: (t: number) => string;
   /** per cohort version: Σp(1−p) (for the funnel limits). */
   variance: Map<string, number>;
 }
@@ -96,76 +98,57 @@ async function completedRuns(versionId: string): Promise<RunRow[]> {
 
 const scoreInputOf = (v: VersionRow): RunScoreInput => ({ mode: v.mode, model: v.model, probabilityColumn: v.probability_column });
 
-// Predicted risk per (score version, cohort version): both are immutable, so an entry never goes stale; a new run
-// only loads its own cohort. Bounded so a long-lived server does not grow without end.
-interface CohortPart {
-  n: number;
-  p: Float64Array;
-  y: Uint8Array;
-  date: (string | null)[];
-  variance: number;
-}
-const partCache = new Map<string, Promise<CohortPart>>();
-const CACHE_LIMIT = 64;
-
-function cohortPart(version: VersionRow, cohortVersionId: string): Promise<CohortPart> {
-  const key = `${version.id}|${cohortVersionId}`;
-  let hit = partCache.get(key);
-  if (!hit) {
-    hit = (async () => {
-      const data = await loadCohortData(cohortVersionId);
-      const p = predictedRisk(scoreInputOf(version), data);
-      let variance = 0;
-      for (let i = 0; i < data.n; i++) variance += p[i] * (1 - p[i]);
-      return { n: data.n, p, y: data.outcome, date: data.eventDate, variance };
-    })();
-    partCache.set(key, hit);
-    hit.catch(() => partCache.delete(key));
-    if (partCache.size > CACHE_LIMIT) partCache.delete(partCache.keys().next().value!);
-  }
-  return hit;
+/** Stored series of the version on these cohort versions; a pair without one (a run stored before series were kept) gets it worked out in the run thread first. */
+async function storedSeries(versionId: string, cohortVersionIds: string[]): Promise<Map<string, DriftSeriesPart>> {
+  const found = await readDriftSeries(mainQuery, versionId, cohortVersionIds);
+  const missing = cohortVersionIds.filter((id) => !found.has(id));
+  if (!missing.length) return found;
+  for (const cohortVersionId of missing) await computeInThread({ task: 'drift-series', scoreVersionId: versionId, cohortVersionId }).result;
+  return readDriftSeries(mainQuery, versionId, cohortVersionIds);
 }
 
+/**
+ * Merges the stored series in event-date order: each series is already in date order, so only its date groups are
+ * ordered (undated last; ties keep the period order, then each cohort's line order) and their slices copied.
+ */
 async function patientSeries(version: VersionRow, runs: RunRow[]): Promise<PatientSeries> {
   const cohortVersionIds = [...new Set(runs.map((r) => r.cohort_version_id))];
-  const parts = await Promise.all(cohortVersionIds.map((id) => cohortPart(version, id)));
-  const total = parts.reduce((s, x) => s + x.n, 0);
-  const order: { c: number; i: number; d: string }[] = new Array(total);
-  const variance = new Map<string, number>();
-  let k = 0;
+  const stored = await storedSeries(version.id, cohortVersionIds);
+  const parts = cohortVersionIds.map((id) => stored.get(id)!);
+  const groups: { date: string | null; c: number; from: number; count: number }[] = [];
   parts.forEach((part, c) => {
-    // Undated patients sort after the dated ones (ties keep the period order, then the line order).
-    for (let i = 0; i < part.n; i++) order[k++] = { c, i, d: part.date[i] ?? '\uffff' };
-    variance.set(cohortVersionIds[c], part.variance);
+    let from = 0;
+    part.dates.forEach((date, k) => {
+      groups.push({ date, c, from, count: part.counts[k] });
+      from += part.counts[k];
+    });
   });
-  order.sort((a, b) => (a.d < b.d ? -1 : a.d > b.d ? 1 : a.c - b.c || a.i - b.i));
-  const p = new Float64Array(total);
-  const y = new Uint8Array(total);
-  const date: (string | null)[] = new Array(total);
-  const cohortIndex = new Int32Array(total);
-  order.forEach((o, t) => {
-    p[t] = parts[o.c].p[o.i];
-    y[t] = parts[o.c].y[o.i];
-    date[t] = parts[o.c].date[o.i];
-    cohortIndex[t] = o.c;
+  const key = (d: string | null) => d ?? '\uffff';
+  groups.sort((a, b) => (key(a.date) < key(b.date) ? -1 : key(a.date) > key(b.date) ? 1 : a.c - b.c));
+  const n = parts.reduce((s, x) => s + x.n, 0);
+  const p = new Float64Array(n);
+  const y = new Uint8Array(n);
+  const starts = new Int32Array(groups.length);
+  let at = 0;
+  groups.forEach((g, k) => {
+    starts[k] = at;
+    p.set(parts[g.c].p.subarray(g.from, g.from + g.count), at);
+    y.set(parts[g.c].y.subarray(g.from, g.from + g.count), at);
+    at += g.count;
   });
-  return { p, y, date, cohortIndex, cohortVersionIds, variance };
+  const groupAt = (t: number) => {
+    let lo = 0;
+    let hi = groups.length - 1;
+    while (lo < hi) {
+      const mid = (lo + hi + 1) >> 1;
+      if (starts[mid] <= t) lo = mid;
+      else hi = mid - 1;
+    }
+    return groups[lo];
+  };
+  const variance = new Map(cohortVersionIds.map((id, c) => [id, parts[c].variance]));
+  return { p, y, n, variance, dateAt: (t) => groupAt(t).date, cohortAt: (t) => cohortVersionIds[groupAt(t).c] };
 }
-
-/** Loads the patient series of versions that have alert rules, so the first drift page after a start is quick. */
-export async function warmDriftCache(): Promise<void> {
-  const versions: { id: string }[] = await dataSource.query(
-    `SELECT DISTINCT r.score_version_id AS id FROM validation_runs r JOIN score_versions sv ON sv.id = r.score_version_id
-     WHERE r.status = 'completed' AND EXISTS (SELECT 1 FROM alert_rules ar WHERE ar.score_id = sv.score_id AND ar.enabled)`,
-  );
-  for (const v of versions) await patientSeries(await versionById(v.id), await completedRuns(v.id));
-}
-
-if (config.driftWarm)
-  registerBackground(() => {
-    // In the background: a slow warm-up never delays the server's start.
-    void warmDriftCache().catch((err) => console.error('[drift] cache warm-up failed:', err));
-  });
 
 // ---------------------------------------------------------------- the drift view
 
@@ -186,7 +169,7 @@ async function driftCore(versionId: string): Promise<DriftCore> {
   const runs = await completedRuns(versionId);
   const series = await patientSeries(version, runs);
   const periods: DriftPeriod[] = runs.map((r) => {
-    // O and E as the run stored them; the variance Σp(1−p) is recomputed from the patients (the run does not keep it).
+    // O and E as the run stored them; the variance Σp(1−p) from the stored drift series.
     const observed = r.oe?.observed ?? 0;
     const expected = r.oe?.expected ?? 0;
     const variance = series.variance.get(r.cohort_version_id) ?? 0;
@@ -215,7 +198,7 @@ function cusumOf(series: PatientSeries, oddsRatio: number, h: number): CusumResu
 }
 
 const pointsOf = (series: PatientSeries, pts: { index: number; value: number }[]): DriftPoint[] =>
-  pts.map((q) => ({ index: q.index, date: series.date[q.index] ?? null, value: q.value }));
+  pts.map((q) => ({ index: q.index, date: series.dateAt(q.index), value: q.value }));
 
 async function cusumParams(scoreId: string): Promise<{ oddsRatio: number; h: number }> {
   const rows: { params: Record<string, unknown> }[] = await dataSource.query(
@@ -251,11 +234,11 @@ export async function driftForVersion(scoreId: string, versionNumber: number): P
       oddsRatio,
       h,
       points: pointsOf(series, up.series),
-      signals: up.signals.map((s) => ({ index: s.index, date: series.date[s.index] ?? null })),
+      signals: up.signals.map((s) => ({ index: s.index, date: series.dateAt(s.index) })),
       improvement: {
         oddsRatio: DEFAULT_IMPROVEMENT_OR,
         points: pointsOf(series, down.series),
-        signals: down.signals.map((s) => ({ index: s.index, date: series.date[s.index] ?? null })),
+        signals: down.signals.map((s) => ({ index: s.index, date: series.dateAt(s.index) })),
       },
     },
     observedMinusExpected: { points: pointsOf(series, oe.series) },
@@ -356,9 +339,9 @@ function fire(rule: { kind: AlertRuleKind; params: Record<string, unknown> }, co
     });
     const byPeriod = new Map<string, { period: DriftPeriod; signals: { index: number; date: string | null }[] }>();
     for (const s of res.signals) {
-      const period = labelOf.get(series.cohortVersionIds[series.cohortIndex[s.index]])!;
+      const period = labelOf.get(series.cohortAt(s.index))!;
       const entry = byPeriod.get(period.label) ?? { period, signals: [] };
-      entry.signals.push({ index: s.index, date: series.date[s.index] ?? null });
+      entry.signals.push({ index: s.index, date: series.dateAt(s.index) });
       byPeriod.set(period.label, entry);
     }
     for (const [label, e] of byPeriod)

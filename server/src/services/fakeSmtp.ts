@@ -3,6 +3,7 @@
 import { SMTPServer } from 'smtp-server';
 import type { ReceivedMail } from '@shared/governance';
 import { config } from '../config';
+import { logger } from '../observability/log';
 
 const KEEP = 500;
 const received: ReceivedMail[] = [];
@@ -76,7 +77,7 @@ export function startFakeSmtp(port = config.smtp.port): Promise<() => Promise<vo
   return new Promise((resolve, reject) => {
     server.once('error', reject);
     server.listen(port, '127.0.0.1', () => {
-      console.log(`[mail] fake SMTP server listening on 127.0.0.1:${port}`);
+      logger.info({ port }, 'fake SMTP server listening on 127.0.0.1');
       resolve(() => new Promise<void>((done) => server.close(() => done())));
     });
   });

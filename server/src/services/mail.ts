@@ -7,7 +7,8 @@ import { config } from '../config';
 import { dataSource } from '../db/dataSource';
 import { EmailOutbox } from '../entities/EmailOutbox';
 import { User } from '../entities/User';
-import { registerBackground } from './background';
+import { logger } from '../observability/log';
+import { timeJob } from '../observability/metrics';
 
 export interface MailMessage {
   to: string[];
@@ -36,7 +37,7 @@ export async function queueEmail(msg: MailMessage, manager?: EntityManager): Pro
   try {
     await dataSource.getRepository(EmailOutbox).insert(row as never);
   } catch (err) {
-    console.error(`[mail] could not queue "${msg.subject}" for ${to.join(', ')}:`, err);
+    logger.error({ err, subject: msg.subject, kind: msg.kind }, 'could not queue an e-mail');
   }
 }
 
@@ -97,7 +98,7 @@ export async function sendPendingOnce(limit = 25): Promise<SendReport> {
           });
           if (giveUp) report.failed++;
           else report.retried++;
-          console.error(`[mail] ${giveUp ? 'gave up on' : 'will retry'} "${row.subject}" (attempt ${attempts}/${MAX_ATTEMPTS}): ${lastError}`);
+          logger[giveUp ? 'warn' : 'info']({ outboxId: row.id, kind: row.kind, attempts, maxAttempts: MAX_ATTEMPTS, lastError }, giveUp ? 'gave up sending an e-mail' : 'sending an e-mail failed; will retry');
         }
       }
     });
@@ -114,8 +115,8 @@ export function startMailSender(intervalMs = SEND_INTERVAL_MS): () => Promise<vo
   let busy: Promise<unknown> | null = null;
   const timer = setInterval(() => {
     if (busy || !dataSource.isInitialized) return;
-    busy = sendPendingOnce()
-      .catch((err) => console.error('[mail] sender pass failed:', err))
+    busy = timeJob('mail_pass', () => sendPendingOnce())
+      .catch((err) => logger.error({ err }, 'mail sender pass failed'))
       .finally(() => {
         busy = null;
       });
@@ -127,5 +128,4 @@ export function startMailSender(intervalMs = SEND_INTERVAL_MS): () => Promise<vo
   };
 }
 
-// PLUMBLINE_MAIL_SENDER=off leaves the outbox untouched (e.g. to inspect pending rows); tests call sendPendingOnce().
-if (config.mailSender) registerBackground(() => startMailSender());
+

@@ -9,8 +9,8 @@ import { dataSource } from '../db/dataSource';
 import type { PrecisionAnswer, PrecisionJob } from '../workers/precisionWorker';
 import { startTsWorker } from '../workers/tsWorker';
 import { keepPrecision, keptPrecision, precision, runPrecisionInputs } from './adequacyPrecision';
-import { registerBackground } from './background';
 import { config } from '../config';
+import { logger } from '../observability/log';
 
 let worker: Worker | null = null;
 let broken = false;
@@ -38,7 +38,7 @@ function thread(): Worker | null {
   });
   const lost = (why: string) => {
     if (worker !== w) return;
-    console.error(`[adequacy] the widths thread stopped (${why}); widths are computed on the API thread`);
+    logger.error({ why }, 'the widths thread stopped; widths are computed on the API thread');
     worker = null;
     broken = true;
     settleInline();
@@ -99,15 +99,15 @@ export async function warmRunWidths(limit: number, stopped: () => boolean = () =
 
 // At start: the widths of the newest completed runs (PLUMBLINE_WARM_WIDTHS of them, default 50, at most 500; 0 = none,
 // as in the tests, where every file starts the server).
-registerBackground(() => {
+export function startWidthsWarmUp(): () => Promise<void> {
   const n = config.warmWidths;
   const limit = Number.isInteger(n) && n >= 0 ? Math.min(n, 500) : 50;
   let stopped = false;
   if (limit > 0) {
-    warmRunWidths(limit, () => stopped).catch((err) => console.error('[adequacy] working out the widths of completed runs failed:', (err as Error).message));
+    warmRunWidths(limit, () => stopped).catch((err) => logger.error({ err }, 'working out the widths of completed runs failed'));
   }
   return async () => {
     stopped = true;
     await stopPrecisionThread();
   };
-});
+}

@@ -10,13 +10,17 @@ import type { AuthUser } from '../middleware/auth';
 import { badRequest, conflict, notFound } from '../middleware/errors';
 import { runAdequacy } from './adequacy';
 import { appendAudit } from './audit';
-import { registerBackground } from './background';
-import { cohortColumnNames, loadCohortData } from './cohortData';
+import { cohortColumnNames } from './cohortData';
+import { driftSeriesOf, storeDriftSeries } from './driftSeries';
+import { loadRunInput } from './runInput';
+export { loadRunInput };
 import { evaluateAlertsForRun } from './drift';
 import { queueEmail, recipientsForRole } from './mail';
 import { asStored, computeRunResults, ENGINE_VERSION, inputsSha256, resultsSha256, RunInputError, type RunComputeInput, type RunScoreInput } from './runCompute';
 import { completedRunRecord } from './runRecordCache';
 import { computeInThread, type RunningThread } from './runThread';
+import { logger } from '../observability/log';
+import { jobDuration } from '../observability/metrics';
 
 /** A run left 'running' by a stopped process is queued again, up to this many attempts in all. */
 export const MAX_ATTEMPTS = 3;
@@ -192,20 +196,6 @@ export async function runOptions(): Promise<RunOptions> {
 
 // ---------------------------------------------------------------- compute
 
-async function scoreInput(scoreVersionId: string): Promise<RunScoreInput> {
-  const sv = await dataSource.getRepository(ScoreVersion).findOneOrFail({ where: { id: scoreVersionId } });
-  return { mode: sv.mode, model: sv.model, probabilityColumn: sv.probabilityColumn };
-}
-
-/** Everything a run's computation reads, plus the hash over it. */
-export async function loadRunInput(run: Pick<ValidationRun, 'scoreVersionId' | 'cohortVersionId' | 'settings'>): Promise<{ input: RunComputeInput; inputsSha256: string }> {
-  const score = await scoreInput(run.scoreVersionId);
-  const cv = await dataSource.getRepository(CohortVersion).findOneOrFail({ where: { id: run.cohortVersionId } });
-  const data = await loadCohortData(run.cohortVersionId);
-  const settings = runSettingsSchema.parse(run.settings);
-  return { input: { score, data, settings }, inputsSha256: inputsSha256(score, { sourceSha256: cv.sourceSha256, rowCount: cv.rowCount }, settings) };
-}
-
 /** The stored form of a finished computation: results exactly as jsonb will hold them, and their hash. */
 export function sealResults(results: RunResults): { results: RunResults; resultsSha256: string } {
   const stored = asStored(results);
@@ -214,20 +204,48 @@ export function sealResults(results: RunResults): { results: RunResults; results
 
 let active: { runId: string; thread: RunningThread } | null = null;
 
+/** The advisory-lock key of a run's lease (the same expression in SQL: hashtextextended('plumbline run ' || id, 0)). */
+const LEASE_KEY_SQL = `hashtextextended('plumbline run ' || $1::text, 0)`;
+
 /**
  * Claims the oldest queued run (FOR UPDATE SKIP LOCKED, so several processes can share the queue), computes it in a
  * worker thread, and stores the outcome. Returns the run id, or null when the queue is empty.
+ *
+ * The claim takes a session-level advisory lock on a connection of its own and keeps it until the run ends: that is
+ * the run's lease. PostgreSQL drops it when this process dies, so recoverInterruptedRuns (in this or any other
+ * process) only takes back runs whose process is gone, never a run a live process is computing.
  */
 export async function processNextRun(): Promise<string | null> {
-  const claimed = await dataSource.transaction(async (m) => {
-    const rows: { id: string }[] = await m.query(
+  const lease = dataSource.createQueryRunner();
+  await lease.connect();
+  let claimed: string | null = null;
+  try {
+    await lease.startTransaction();
+    const rows: { id: string }[] = await lease.query(
       `SELECT id FROM validation_runs WHERE status = 'queued' ORDER BY created_at, id LIMIT 1 FOR UPDATE SKIP LOCKED`,
     );
-    if (!rows[0]) return null;
-    await m.query(`UPDATE validation_runs SET status = 'running', started_at = now(), progress = 0, progress_message = 'loading the cohort' WHERE id = $1`, [rows[0].id]);
-    return rows[0].id;
-  });
-  if (!claimed) return null;
+    if (rows[0]) {
+      // Taken before the claim commits, so no other process ever sees this run 'running' without its lease.
+      await lease.query(`SELECT pg_advisory_lock(${LEASE_KEY_SQL})`, [rows[0].id]);
+      await lease.query(`UPDATE validation_runs SET status = 'running', started_at = now(), progress = 0, progress_message = 'loading the cohort' WHERE id = $1`, [rows[0].id]);
+      claimed = rows[0].id;
+    }
+    await lease.commitTransaction();
+    if (!claimed) return null;
+    return await computeClaimedRun(claimed);
+  } catch (err) {
+    if (lease.isTransactionActive) await lease.rollbackTransaction().catch(() => undefined);
+    throw err;
+  } finally {
+    // Session-level locks outlive transactions: drop the lease before the connection goes back to the pool.
+    await lease.query('SELECT pg_advisory_unlock_all()').catch(() => undefined);
+    await lease.release();
+  }
+}
+
+async function computeClaimedRun(claimed: string): Promise<string> {
+  const timer = jobDuration.startTimer({ job: 'run' });
+  let outcome = 'completed';
   const run = await dataSource.getRepository(ValidationRun).findOneOrFail({ where: { id: claimed } });
 
   let lastWrite = 0;
@@ -247,15 +265,15 @@ export async function processNextRun(): Promise<string | null> {
   };
 
   try {
-    const { input, inputsSha256: inputsHash } = await loadRunInput(run);
-    onProgress(0.01, 'computing');
-    const thread = computeInThread(input, onProgress);
+    // The thread loads the score and the cohort itself, through its own connection.
+    const thread = computeInThread({ task: 'run', scoreVersionId: run.scoreVersionId, cohortVersionId: run.cohortVersionId, settings: run.settings }, onProgress);
     active = { runId: claimed, thread };
-    const raw = await thread.result;
+    const { results: raw, inputsSha256: inputsHash, drift } = await thread.result;
     active = null;
     await pending;
     const sealed = sealResults(raw);
     await dataSource.transaction(async (m) => {
+      if (drift) await storeDriftSeries((sql, params) => m.query(sql, params), run.scoreVersionId, run.cohortVersionId, claimed, drift);
       await m.query(
         `UPDATE validation_runs SET status = 'completed', progress = 1, progress_message = 'completed', results = $2::jsonb, engine_version = $3,
            inputs_sha256 = $4, results_sha256 = $5, finished_at = now() WHERE id = $1 AND status = 'running'`,
@@ -270,28 +288,34 @@ export async function processNextRun(): Promise<string | null> {
     if (stopping) {
       // A clean shutdown interrupted the computation: the run waits for the next start, not a failure.
       await dataSource.query(`UPDATE validation_runs SET status = 'queued', progress = 0, progress_message = 'waiting in the queue (server restarted)' WHERE id = $1 AND status = 'running'`, [claimed]);
+      timer({ outcome: 'interrupted' });
       return claimed;
     }
+    outcome = 'failed';
     const reason = err instanceof RunInputError ? (err as Error).message : `the computation failed: ${(err as Error).message ?? String(err)}`;
     await dataSource.transaction(async (m) => {
       await m.query(`UPDATE validation_runs SET status = 'failed', error = $2, progress_message = 'failed', finished_at = now() WHERE id = $1 AND status = 'running'`, [claimed, reason]);
       await appendAudit({ action: 'run.failed', targetType: 'validation_run', targetId: claimed, details: { reason } }, m);
     });
   }
+  timer({ outcome });
   await notifyRunFinished(claimed);
   // Drift rules of the score look at the new period; a failure there is logged and never fails the run.
   try {
     await evaluateAlertsForRun(claimed);
   } catch (err) {
-    console.error(`[drift] alert evaluation after run ${claimed} failed:`, err);
+    logger.error({ err, runId: claimed }, 'drift alert evaluation after a run failed');
   }
   return claimed;
 }
 
-/** Runs left 'running' by a process that stopped without finishing: queued again, or failed after MAX_ATTEMPTS. */
+/** Runs left 'running' by a process that stopped (their lease is free): queued again, or failed after MAX_ATTEMPTS. */
 export async function recoverInterruptedRuns(): Promise<{ requeued: string[]; failed: string[] }> {
   return dataSource.transaction(async (m) => {
-    const rows: { id: string; attempt: number }[] = await m.query(`SELECT id, attempt FROM validation_runs WHERE status = 'running' FOR UPDATE SKIP LOCKED`);
+    // A run whose lease (advisory lock) is held belongs to a live process; only free leases are taken back.
+    const rows: { id: string; attempt: number }[] = await m.query(
+      `SELECT id, attempt FROM validation_runs WHERE status = 'running' AND pg_try_advisory_xact_lock(hashtextextended('plumbline run ' || id::text, 0)) FOR UPDATE SKIP LOCKED`,
+    );
     const requeued: string[] = [];
     const failed: string[] = [];
     for (const r of rows) {
@@ -328,7 +352,7 @@ async function notifyRunFinished(runId: string): Promise<void> {
     await queueEmail({ to, subject: `Validation run ${run.status}: ${what}`, text, kind: `run.${run.status}` });
   } catch (err) {
     // E-mail is a courtesy; the run's outcome is already stored and audited.
-    console.error(`[runs] could not queue the e-mail for run ${runId}:`, (err as Error).message);
+    logger.error({ err, runId }, 'could not queue the e-mail for a finished run');
   }
 }
 
@@ -340,6 +364,7 @@ export async function recordRunNow(actorId: string | null, scoreVersionId: strin
   const parsed = runSettingsSchema.parse(settings);
   const { input, inputsSha256: inputsHash } = await loadRunInput({ scoreVersionId, cohortVersionId, settings: parsed });
   const sealed = sealResults(computeRunResults(input));
+  const drift = driftSeriesOf(input.score, input.data);
   return dataSource.transaction(async (m) => {
     await m.query('UPDATE score_versions SET locked = true WHERE id = $1 AND NOT locked', [scoreVersionId]);
     const rows: { id: string }[] = await m.query(
@@ -349,6 +374,7 @@ export async function recordRunNow(actorId: string | null, scoreVersionId: strin
       [scoreVersionId, cohortVersionId, JSON.stringify(parsed), JSON.stringify(sealed.results), ENGINE_VERSION, inputsHash, sealed.resultsSha256, actorId],
     );
     const id = rows[0].id;
+    await storeDriftSeries((sql, params) => m.query(sql, params), scoreVersionId, cohortVersionId, id, drift);
     await appendAudit({ actorId, action: 'run.created', targetType: 'validation_run', targetId: id, details: { scoreVersionId, cohortVersionId, settings: parsed, ...details } }, m);
     await appendAudit({ action: 'run.completed', targetType: 'validation_run', targetId: id, details: { inputsSha256: inputsHash, resultsSha256: sealed.resultsSha256, engineVersion: ENGINE_VERSION, ...details } }, m);
     return id;
@@ -371,7 +397,7 @@ export async function startRunQueue(): Promise<() => Promise<void>> {
   stoppingQueue = false;
   const recovered = await recoverInterruptedRuns();
   if (recovered.requeued.length || recovered.failed.length)
-    console.log(`[runs] recovered interrupted runs: ${recovered.requeued.length} queued again, ${recovered.failed.length} failed`);
+    logger.warn({ requeued: recovered.requeued, failed: recovered.failed }, 'recovered interrupted runs');
   let stopped = false;
   const loop = (async () => {
     while (!stopped) {
@@ -379,7 +405,7 @@ export async function startRunQueue(): Promise<() => Promise<void>> {
       try {
         id = await processNextRun();
       } catch (err) {
-        if (!stopped) console.error('[runs] queue error:', (err as Error).message);
+        if (!stopped) logger.error({ err }, 'run queue error');
       }
       if (id || stopped) continue;
       await new Promise<void>((resolve) => {
@@ -402,7 +428,6 @@ export async function startRunQueue(): Promise<() => Promise<void>> {
   };
 }
 
-registerBackground(startRunQueue);
 
 // ---------------------------------------------------------------- reproduce
 
@@ -423,8 +448,9 @@ export async function reproduceRun(actor: AuthUser, id: string, ip: string | nul
   const run = await dataSource.getRepository(ValidationRun).findOne({ where: { id } });
   if (!run) throw notFound('validation run');
   if (run.status !== 'completed' || !run.results || !run.resultsSha256) throw conflict(`only a completed run can be reproduced; this one is ${run.status}`);
-  const { input, inputsSha256: inputsHash } = await loadRunInput(run);
-  const recomputed = sealResults(await computeInThread(input).result);
+  const outcome = await computeInThread({ task: 'run', scoreVersionId: run.scoreVersionId, cohortVersionId: run.cohortVersionId, settings: run.settings }).result;
+  const inputsHash = outcome.inputsSha256;
+  const recomputed = sealResults(outcome.results);
   const storedNow = resultsSha256(run.results);
   const match = recomputed.resultsSha256 === run.resultsSha256 && storedNow === run.resultsSha256;
   const report: ReproduceReport = {

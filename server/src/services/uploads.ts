@@ -11,11 +11,12 @@ import { badRequest, conflict, HttpError, notFound } from '../middleware/errors'
 import type { AuthUser } from '../middleware/auth';
 import type { UploadWorkerData } from '../workers/uploadWorker';
 import { appendAudit } from './audit';
-import { registerBackground } from './background';
 import type { Delimiter } from './csvFile';
 import { neutraliseCell } from './deidentify';
 import { checkInThread, screenInThread, warmUploadThreads } from './uploadThreads';
 import type { RequiredPredictor } from './uploadCheck';
+import { logger } from '../observability/log';
+import { timeJob } from '../observability/metrics';
 
 export { periodStart } from './uploadCheck';
 export type { RequiredPredictor };
@@ -224,7 +225,7 @@ export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnM
     if (saveAs) await m.query('INSERT INTO column_mappings (name, cohort_id, mapping, created_by) VALUES ($1, $2, $3, $4)', [saveAs, r.cohort_id, JSON.stringify(mapping), actor.id]);
     await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.mapped', targetType: 'cohort_upload', targetId: id, sourceIp: ip, details: { mapping, savedAs: saveAs ?? null } }, m);
   });
-  const job = processUpload(id, sv, mapping, plannedVersionId).finally(() => running.delete(id));
+  const job = timeJob('upload_check', () => processUpload(id, sv, mapping, plannedVersionId)).finally(() => running.delete(id));
   running.set(id, job);
   return getUpload(id);
 }
@@ -265,7 +266,7 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
     return;
   }
   const message = ending.type === 'error' ? ending.message : 'unknown ending';
-  console.error(`[uploads] checking upload ${id} failed:`, message);
+  logger.error({ uploadId: id, reason: message }, 'checking an upload failed');
   // The database's own message (table and constraint names) stays in the server log.
   const shown = ending.type === 'error' && ending.database ? 'the database refused the rows (details are in the server log); try again' : message;
   await dataSource.query(`UPDATE cohort_uploads SET status = 'failed', error = $2, updated_at = now() WHERE id = $1 AND status = 'processing'`,
@@ -287,7 +288,7 @@ export async function recoverInterruptedUploads(): Promise<number> {
       [r.id],
     );
   }
-  if (rows.length) console.log(`[uploads] ${rows.length} upload check(s) interrupted by a restart marked failed`);
+  if (rows.length) logger.warn({ uploads: rows.map((r) => r.id) }, 'upload checks interrupted by a restart marked failed');
   return rows.length;
 }
 /**
@@ -315,15 +316,16 @@ export async function discardStaleUploads(keepDays = config.uploadKeepDays): Pro
   return stale.length;
 }
 
-registerBackground(async () => {
+/** At start: interrupted checks marked failed, the checking threads started, and the stale-upload sweep every 6 hours. */
+export async function startUploadUpkeep(): Promise<() => void> {
   await recoverInterruptedUploads();
   warmUploadThreads();
-  const sweep = () => void discardStaleUploads().catch((err: Error) => console.error('[uploads] discarding stale uploads failed:', err.message));
+  const sweep = () => void discardStaleUploads().catch((err: Error) => logger.error({ err }, 'discarding stale uploads failed'));
   sweep();
   const timer = setInterval(sweep, 6 * 60 * 60 * 1000);
   timer.unref();
   return () => clearInterval(timer);
-});
+}
 
 // ---- Rejections ----------------------------------------------------------------------------------------------
 
@@ -419,7 +421,7 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
   } catch (err) {
     await qr.rollbackTransaction().catch(() => undefined);
     if (err instanceof HttpError) throw err;
-    console.error(`[uploads] storing upload ${id} failed, rolled back:`, (err as Error).message);
+    logger.error({ err, uploadId: id }, 'storing an upload failed, rolled back');
     throw new HttpError(500, 'storing the cohort failed and was rolled back: nothing was stored; try again or upload the file again');
   } finally {
     await qr.release();

@@ -1,27 +1,62 @@
-// Worker thread for one validation run: the CPU-heavy part runs here so the API's event loop stays free.
-// Receives the run input as workerData and answers with progress messages and then the results (or an error).
+// Worker thread for one validation run, or for one drift series: it reads its own inputs from PostgreSQL through its
+// own connection, so the API thread neither loads nor decodes the cohort, and answers with progress messages and
+// then the results (or an error).
 import { parentPort, workerData } from 'node:worker_threads';
+import pg from 'pg';
 import type { AdequacyPrecision } from '@shared/adequacy';
 import { precision, runPrecisionInputs } from '../services/adequacyPrecision';
-import { computeRunResults, RunInputError, type RunComputeInput } from '../services/runCompute';
+import type { Query } from '../services/cohortData';
+import { driftSeriesOf, storeDriftSeries, type DriftSeriesPart } from '../services/driftSeries';
+import { computeRunResults, RunInputError } from '../services/runCompute';
+import { loadRunInput } from '../services/runInput';
 import { lowerThisThreadPriority } from './threadPriority';
+
+export type RunJob =
+  | { task: 'run'; scoreVersionId: string; cohortVersionId: string; settings: unknown; db: pg.ClientConfig }
+  /** Works out and stores the drift series of a pair that has none (a run completed before series were kept). */
+  | { task: 'drift-series'; scoreVersionId: string; cohortVersionId: string; db: pg.ClientConfig };
 
 export type RunWorkerMessage =
   | { type: 'progress'; fraction: number; message: string }
-  | { type: 'done'; results: unknown; precision: { n: number; events: number; auc: number | null; value: AdequacyPrecision } | null }
+  | {
+      type: 'done';
+      results: unknown;
+      inputsSha256: string;
+      drift: DriftSeriesPart | null;
+      precision: { n: number; events: number; auc: number | null; value: AdequacyPrecision } | null;
+    }
   | { type: 'error'; message: string; inputError: boolean };
+
+async function main(job: RunJob, post: (m: RunWorkerMessage) => void): Promise<void> {
+  const client = new pg.Client({ ...job.db, application_name: `plumbline ${job.task}` });
+  client.on('error', () => undefined); // a lost connection surfaces as the failed query
+  await client.connect();
+  const query: Query = async (sql, params) => (await client.query(sql, params as unknown[])).rows;
+  try {
+    const { input, inputsSha256 } = await loadRunInput({ scoreVersionId: job.scoreVersionId, cohortVersionId: job.cohortVersionId, settings: job.task === 'run' ? job.settings : {} }, query);
+    if (job.task === 'drift-series') {
+      await storeDriftSeries(query, job.scoreVersionId, job.cohortVersionId, null, driftSeriesOf(input.score, input.data));
+      post({ type: 'done', results: null, inputsSha256, drift: null, precision: null });
+      return;
+    }
+    post({ type: 'progress', fraction: 0.01, message: 'computing' });
+    const results = computeRunResults(input, (fraction, message) => post({ type: 'progress', fraction, message }));
+    // The drift series of this (score version, cohort version), stored with the completed run by the caller.
+    const drift = driftSeriesOf(input.score, input.data);
+    // The run page's expected CI widths (adequacy) are worked out here too, not on the API thread when it is opened.
+    const inputs = runPrecisionInputs(results as Parameters<typeof runPrecisionInputs>[0]);
+    const widths = inputs && { ...inputs, value: precision(inputs.n, inputs.events, inputs.auc) };
+    post({ type: 'done', results, inputsSha256, drift, precision: widths });
+  } finally {
+    await client.end().catch(() => undefined);
+  }
+}
 
 const port = parentPort;
 if (port) {
   // A run may compute for minutes: it yields the CPU to the API thread (per-thread nice value, see threadPriority.ts).
   lowerThisThreadPriority();
-  try {
-    const results = computeRunResults(workerData as RunComputeInput, (fraction, message) => port.postMessage({ type: 'progress', fraction, message } satisfies RunWorkerMessage));
-    // The run page's expected CI widths (adequacy) are worked out here too, not on the API thread when it is opened.
-    const inputs = runPrecisionInputs(results as Parameters<typeof runPrecisionInputs>[0]);
-    const widths = inputs && { ...inputs, value: precision(inputs.n, inputs.events, inputs.auc) };
-    port.postMessage({ type: 'done', results, precision: widths } satisfies RunWorkerMessage);
-  } catch (err) {
-    port.postMessage({ type: 'error', message: (err as Error).message ?? String(err), inputError: err instanceof RunInputError } satisfies RunWorkerMessage);
-  }
+  main(workerData as RunJob, (m) => port.postMessage(m)).catch((err) =>
+    port.postMessage({ type: 'error', message: (err as Error).message ?? String(err), inputError: err instanceof RunInputError } satisfies RunWorkerMessage),
+  );
 }

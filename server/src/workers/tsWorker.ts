@@ -6,10 +6,10 @@ import { fileURLToPath } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import { compiled } from '../config';
 
-export type WorkerName = 'uploadWorker' | 'runWorker' | 'precisionWorker' | 'bootstrapWorker';
+export type WorkerName = 'uploadWorker' | 'runWorker' | 'precisionWorker' | 'bootstrapWorker' | 'rowsWorker';
 
 /** The compiled entry points, named as the build script writes them (server/scripts/build-server.mjs). */
-export const WORKER_NAMES: WorkerName[] = ['uploadWorker', 'runWorker', 'precisionWorker', 'bootstrapWorker'];
+export const WORKER_NAMES: WorkerName[] = ['uploadWorker', 'runWorker', 'precisionWorker', 'bootstrapWorker', 'rowsWorker'];
 
 /** A thread running the named worker (server/src/workers/<name>.ts), with `data` in its workerData. */
 export function startTsWorker(name: WorkerName, data: object = {}): Worker {

@@ -8,6 +8,7 @@ import type { ColumnMappingSpec } from '@shared/cohorts';
 import { dataSource } from '../dataSource';
 import { applyMapping, commitUpload, createUpload, getUpload, whenProcessed } from '../../services/uploads';
 import { demoQuarters, kestrelQuarterCsv } from './kestrelData';
+import { logger } from '../../observability/log';
 
 export const DEMO_COHORT_NAME = 'Fernhollow medical discharges (invented demo data)';
 export const KESTREL_SCORE_NAME = 'Kestrel 30-day Readmission Score';
@@ -39,7 +40,7 @@ export async function seedCohorts(): Promise<void> {
     [KESTREL_SCORE_NAME],
   );
   if (!sv.length) {
-    console.warn(`seedCohorts: score "${KESTREL_SCORE_NAME}" not found; run the score seed first — demo cohorts skipped`);
+    logger.warn(`seedCohorts: score "${KESTREL_SCORE_NAME}" not found; run the score seed first — demo cohorts skipped`);
     return;
   }
   const [steward] = await dataSource.query(`SELECT id, email, name, role FROM users WHERE email = 'steward@demo.test'`);

@@ -3,6 +3,7 @@
 import { dataSource } from '../dataSource';
 import { createAlertRule, evaluateAlertsForVersion } from '../../services/drift';
 import { KESTREL_SCORE_NAME } from './cohorts';
+import { logger } from '../../observability/log';
 
 const DEFAULT_RULES = [
   { kind: 'citl-consecutive', params: { periods: 2 } },
@@ -13,7 +14,7 @@ const DEFAULT_RULES = [
 export async function seedDrift(): Promise<void> {
   const scores: { id: string }[] = await dataSource.query('SELECT id FROM scores WHERE name = $1', [KESTREL_SCORE_NAME]);
   if (!scores.length) {
-    console.warn(`seedDrift: "${KESTREL_SCORE_NAME}" not found; drift rules skipped`);
+    logger.warn(`seedDrift: "${KESTREL_SCORE_NAME}" not found; drift rules skipped`);
     return;
   }
   const scoreId = scores[0].id;
@@ -32,5 +33,5 @@ export async function seedDrift(): Promise<void> {
   );
   let alerts = 0;
   for (const v of versions) alerts += (await evaluateAlertsForVersion(v.id)).length;
-  console.log(`[seed] drift: ${made} alert rule${made === 1 ? '' : 's'} added, ${alerts} new alert${alerts === 1 ? '' : 's'} raised`);
+  logger.info(`[seed] drift: ${made} alert rule${made === 1 ? '' : 's'} added, ${alerts} new alert${alerts === 1 ? '' : 's'} raised`);
 }

@@ -7,6 +7,7 @@ import type { AuthUser } from '../../middleware/auth';
 import { reviewRun, signoffRun } from '../../services/governance';
 import { dataSource } from '../dataSource';
 import { seedAccounts } from './accounts';
+import { logger } from '../../observability/log';
 
 const SEED_IP = 'seed';
 
@@ -51,7 +52,7 @@ export async function seedGovernance(): Promise<void> {
      ORDER BY cv.period_end ASC NULLS FIRST, r.created_at ASC`,
   );
   if (runs.length < 2) {
-    console.log('[seed] governance: fewer than two completed demo runs; nothing to review yet');
+    logger.info('[seed] governance: fewer than two completed demo runs; nothing to review yet');
     return;
   }
   const accounts = await seedAccounts();

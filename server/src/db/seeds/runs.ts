@@ -4,6 +4,7 @@ import { runSettingsSchema } from '@shared/runs';
 import { dataSource } from '../dataSource';
 import { recordRunNow } from '../../services/runs';
 import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from './cohorts';
+import { logger } from '../../observability/log';
 
 const DEMO_GROUPS = ['sex', 'age_band', 'unit', 'site'];
 
@@ -13,7 +14,7 @@ export async function seedRuns(): Promise<void> {
     [KESTREL_SCORE_NAME],
   );
   if (!sv.length) {
-    console.warn(`seedRuns: version 2 of "${KESTREL_SCORE_NAME}" not found; demo runs skipped`);
+    logger.warn(`seedRuns: version 2 of "${KESTREL_SCORE_NAME}" not found; demo runs skipped`);
     return;
   }
   const versions: { id: string; label: string; groups: string[] | null }[] = await dataSource.query(
@@ -24,7 +25,7 @@ export async function seedRuns(): Promise<void> {
     [DEMO_COHORT_NAME],
   );
   if (!versions.length) {
-    console.warn('seedRuns: no demo cohort versions; demo runs skipped');
+    logger.warn('seedRuns: no demo cohort versions; demo runs skipped');
     return;
   }
   const [statistician]: { id: string }[] = await dataSource.query(`SELECT id FROM users WHERE email = 'statistician@demo.test'`);
@@ -40,5 +41,5 @@ export async function seedRuns(): Promise<void> {
     await recordRunNow(statistician?.id ?? null, sv[0].id, cv.id, settings, { seeded: true });
     made++;
   }
-  console.log(`[seed] runs: ${made} demo validation run${made === 1 ? '' : 's'} computed (${versions.length - made} already there)`);
+  logger.info(`[seed] runs: ${made} demo validation run${made === 1 ? '' : 's'} computed (${versions.length - made} already there)`);
 }
