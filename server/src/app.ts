@@ -10,10 +10,21 @@ import { markWrites } from './middleware/writeGeneration';
 import { keptAnswers, mountRoutes, recordHeaders } from './routes/define';
 import { routes } from './routes/table';
 
+/** PLUMBLINE_TRUST_PROXY as Express reads 'trust proxy': a hop count, true/false, or addresses and subnets. */
+export function trustProxySetting(value: string): boolean | number | string {
+  const v = value.trim();
+  if (v === '' || v === 'false') return false;
+  if (v === 'true') return true;
+  if (/^\d+$/.test(v)) return Number(v);
+  return v;
+}
+
 /** Builds the app without listening, so tests drive it directly and only index.ts listens. */
 export function createApp(options: { serveClient?: boolean } = {}) {
   const app = express();
-  app.set('trust proxy', 'loopback');
+  // X-Forwarded-For decides the address that sign-in limits and the audit trail see, so it is believed only from a
+  // proxy the operator names (PLUMBLINE_TRUST_PROXY); by default nothing is trusted and the socket's address counts.
+  app.set('trust proxy', trustProxySetting(config.trustProxy));
   app.disable('x-powered-by');
   // First, so that every state-changing request invalidates the kept read answers (services/responseCache.ts).
   app.use(markWrites);

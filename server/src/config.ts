@@ -18,6 +18,8 @@ export const config = {
     maxPerIp: num(process.env.PLUMBLINE_LOGIN_MAX_PER_IP, 20),
     maxFailuresPerAccount: num(process.env.PLUMBLINE_LOGIN_MAX_FAILURES, 5),
   },
+  // Express 'trust proxy' value naming the reverse proxy (e.g. 'loopback', '10.0.0.5', 1); empty: X-Forwarded-For is ignored.
+  trustProxy: process.env.PLUMBLINE_TRUST_PROXY ?? '',
   uploadLimitBytes: num(process.env.PLUMBLINE_UPLOAD_LIMIT_MB, 64) * 1024 * 1024,
   smtp: {
     host: process.env.SMTP_HOST ?? '127.0.0.1',

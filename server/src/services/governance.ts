@@ -23,7 +23,7 @@ import type { AuthUser } from '../middleware/auth';
 import { conflict, forbidden, HttpError, notFound } from '../middleware/errors';
 import { appendAudit, canonical } from './audit';
 import { queueEmail, recipientsForRole } from './mail';
-import { checkPassword } from './users';
+import { verifyPasswordFor } from './users';
 
 const DECISIVE: SignatureMeaning[] = ['approve for clinical use', 'return to statistician'];
 
@@ -260,10 +260,9 @@ export async function reviewRun(actor: AuthUser, runId: string, input: ReviewReq
 
 // ---------- signatures ----------
 
+/** The signer's password, re-entered: limited and audited like sign-in (users.verifyPasswordFor). */
 async function reauthenticate(actor: AuthUser, password: string, act: string, targetType: string, targetId: string, ip: string) {
-  if (await checkPassword(actor.id, password)) return;
-  await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'signature.password_failed', targetType, targetId, sourceIp: ip, details: { act } });
-  throw new HttpError(403, 'the password is not correct; the signature was not recorded');
+  await verifyPasswordFor(actor, password, { action: 'signature', targetType, targetId, ip, details: { act } }, 'the password is not correct; the signature was not recorded');
 }
 
 const isUniqueViolation = (err: unknown) => (err as { code?: string; driverError?: { code?: string } }).code === '23505' || (err as { driverError?: { code?: string } }).driverError?.code === '23505';
