@@ -432,14 +432,23 @@ export async function discardUpload(actor: AuthUser, id: string, ip: string) {
   const r = await uploadRow(id);
   if (r.status === 'committed') throw conflict('this upload is stored as a cohort version; stored versions are immutable');
   if (r.status === 'processing') await whenProcessed(id);
-  const again = await uploadRow(id);
-  await removeQuietly(again.temp_path);
-  await dataSource.transaction(async (m) => {
-    await deleteStagedRows(again.planned_version_id, m);
+  // The upload's row is locked before anything is removed, as commitUpload locks it before storing: of a commit and a
+  // discard sent at once, the second waits, then finds the other's status and is refused.
+  const tempPath = await dataSource.transaction(async (m) => {
+    const [locked]: { status: UploadStatus; temp_path: string | null; planned_version_id: string | null }[] = await m.query(
+      'SELECT status, temp_path, planned_version_id FROM cohort_uploads WHERE id = $1 FOR UPDATE',
+      [id],
+    );
+    if (locked.status === 'discarded') return null;
+    if (locked.status === 'committed') throw conflict('this upload was stored as a cohort version meanwhile; stored versions are immutable');
+    if (locked.status === 'processing') throw conflict('this upload is being checked again; discard it when the check ends');
+    await deleteStagedRows(locked.planned_version_id, m);
     await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
     await m.query(`UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, updated_at = now() WHERE id = $1`, [id]);
     await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.discarded', targetType: 'cohort_upload', targetId: id, sourceIp: ip }, m);
+    return locked.temp_path;
   });
+  await removeQuietly(tempPath);
   return getUpload(id);
 }
 
