@@ -1,4 +1,4 @@
-import express from 'express';
+import express, { type RequestHandler } from 'express';
 import helmet from 'helmet';
 import { existsSync } from 'node:fs';
 import type { IncomingMessage, ServerResponse } from 'node:http';
@@ -18,6 +18,11 @@ export function trustProxySetting(value: string): boolean | number | string {
   if (/^\d+$/.test(v)) return Number(v);
   return v;
 }
+
+const noStore: RequestHandler = (_req, res, next) => {
+  res.setHeader('Cache-Control', 'no-store');
+  next();
+};
 
 /** Builds the app without listening, so tests drive it directly and only index.ts listens. */
 export function createApp(options: { serveClient?: boolean } = {}) {
@@ -50,6 +55,8 @@ export function createApp(options: { serveClient?: boolean } = {}) {
     },
   });
   app.use(securityHeaders);
+  // API answers carry patient-derived rows, tokens and account data: no browser or proxy may keep a copy.
+  app.use('/api', noStore);
   app.use('/api', express.json({ limit: '1mb' }));
   app.use('/api', refuseBadText);
 
@@ -68,7 +75,7 @@ export function createApp(options: { serveClient?: boolean } = {}) {
   // Kept answers of the busiest reads go out before Express runs, with the headers securityHeaders sets (recorded
   // once); every other request, and every miss or refusal, takes the full chain above (routes/define.ts, keptAnswers).
   // app.handle is what both app.listen's server and supertest call for each request.
-  const answerKept = keptAnswers(routes, recordHeaders(securityHeaders));
+  const answerKept = keptAnswers(routes, [...recordHeaders(securityHeaders), ...recordHeaders(noStore)]);
   const expressHandle = (app as unknown as { handle: (req: IncomingMessage, res: ServerResponse, done?: unknown) => void }).handle.bind(app);
   (app as unknown as { handle: typeof expressHandle }).handle = (req, res, done) => {
     const answered = answerKept(req, res);

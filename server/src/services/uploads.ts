@@ -1,6 +1,8 @@
 // Cohort uploads: screen → map and check rows → store (one transaction, COPY) or discard.
 import { randomUUID } from 'node:crypto';
-import { unlink } from 'node:fs/promises';
+import { readdir, stat, unlink } from 'node:fs/promises';
+import { tmpdir } from 'node:os';
+import path from 'node:path';
 import type { ColumnMappingSpec, ScreenFinding, UploadFields, UploadStatus, UploadView } from '@shared/cohorts';
 import { columnMapping } from '@shared/cohorts';
 import type { ScoreModel } from '@shared/model';
@@ -18,6 +20,9 @@ import { checkInThread, screenInThread, warmUploadThreads } from './uploadThread
 import type { RequiredPredictor } from './uploadCheck';
 
 export { periodStart } from './uploadCheck';
+
+/** Where received files wait between screening and storing (PLUMBLINE_UPLOAD_DIR). */
+export const uploadDir = process.env.PLUMBLINE_UPLOAD_DIR ?? path.join(tmpdir(), 'plumbline-uploads');
 export type { RequiredPredictor };
 
 export interface ReceivedFile {
@@ -267,10 +272,31 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
   const message = ending.type === 'error' ? ending.message : 'unknown ending';
   console.error(`[uploads] checking upload ${id} failed:`, message);
   // The database's own message (table and constraint names) stays in the server log.
-  const shown = ending.type === 'error' && ending.database ? 'the database refused the rows (details are in the server log); try again' : message;
-  await dataSource.query(`UPDATE cohort_uploads SET status = 'failed', error = $2, updated_at = now() WHERE id = $1 AND status = 'processing'`,
-    [id, `the file could not be processed: ${shown}; nothing was stored`]).catch(() => undefined);
+  const shown = ending.type === 'error' && ending.database ? 'the database refused the rows or went away (details are in the server log); try again' : message;
+  // The check may have failed because PostgreSQL went away: then this write fails too, and is tried again until the
+  // database is back, so the upload never stays "processing" (a restart meanwhile is covered by recoverInterruptedUploads).
+  await untilStored(`marking upload ${id} failed`, async () => {
+    await deleteStagedRows(plannedVersionId);
+    await dataSource.query(`UPDATE cohort_uploads SET status = 'failed', error = $2, updated_at = now() WHERE id = $1 AND status = 'processing'`,
+      [id, `the file could not be processed: ${shown}; nothing was stored`]);
+  });
 }
+
+/** Runs a write until it succeeds, waiting 1 s, 2 s, 4 s … (at most 30 s) between tries; stops when the server stops. */
+async function untilStored(what: string, write: () => Promise<void>): Promise<void> {
+  for (let attempt = 0; ; attempt++) {
+    try {
+      await write();
+      if (attempt > 0) console.log(`[uploads] ${what}: done after ${attempt + 1} tries`);
+      return;
+    } catch (err) {
+      if (stopping) return;
+      if (attempt === 0) console.error(`[uploads] ${what} failed (${(err as Error).message}); trying again until the database answers`);
+      await new Promise((r) => setTimeout(r, Math.min(30_000, 1000 * 2 ** attempt)).unref());
+    }
+  }
+}
+let stopping = false;
 
 /**
  * After a crash: a file whose check was under way was checked by a thread that no longer exists, and PostgreSQL
@@ -315,14 +341,55 @@ export async function discardStaleUploads(keepDays = Number(process.env.PLUMBLIN
   return stale.length;
 }
 
+// A received file is named <uuid>.csv; nothing else in the folder is ever removed.
+const TEMP_NAME = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}\.csv$/;
+// Unreferenced files younger than this may be another API process's upload still being received or screened.
+const ORPHAN_AGE_MS = 10 * 60 * 1000;
+
+/**
+ * Removes temp files no upload refers to (left by a crash or a kill mid-upload): at start and every ten minutes.
+ * Only our own file names, and only files untouched for ten minutes. Returns the names removed.
+ */
+export async function sweepUploadDir(now = Date.now()): Promise<string[]> {
+  let names: string[];
+  try {
+    names = (await readdir(uploadDir)).filter((n) => TEMP_NAME.test(n));
+  } catch {
+    return [];
+  }
+  if (!names.length) return [];
+  const rows: { temp_path: string }[] = await dataSource.query('SELECT temp_path FROM cohort_uploads WHERE temp_path IS NOT NULL');
+  const kept = new Set(rows.map((r) => path.resolve(r.temp_path)));
+  const removed: string[] = [];
+  for (const name of names) {
+    const file = path.resolve(uploadDir, name);
+    if (kept.has(file)) continue;
+    const info = await stat(file).catch(() => null);
+    if (!info || now - info.mtimeMs < ORPHAN_AGE_MS) continue;
+    await removeQuietly(file);
+    removed.push(name);
+  }
+  if (removed.length) console.log(`[uploads] removed ${removed.length} temp file(s) no upload refers to`);
+  return removed;
+}
+
 registerBackground(async () => {
+  stopping = false;
   await recoverInterruptedUploads();
   warmUploadThreads();
   const sweep = () => void discardStaleUploads().catch((err: Error) => console.error('[uploads] discarding stale uploads failed:', err.message));
+  const sweepFiles = () => void sweepUploadDir().catch((err: Error) => console.error('[uploads] sweeping the upload folder failed:', err.message));
   sweep();
+  sweepFiles();
   const timer = setInterval(sweep, 6 * 60 * 60 * 1000);
+  const fileTimer = setInterval(sweepFiles, ORPHAN_AGE_MS);
   timer.unref();
-  return () => clearInterval(timer);
+  fileTimer.unref();
+  return () => {
+    stopping = true;
+    clearInterval(timer);
+    clearInterval(fileTimer);
+  };
 });
 
 // ---- Rejections ----------------------------------------------------------------------------------------------
