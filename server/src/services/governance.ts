@@ -99,7 +99,7 @@ interface ReviewRow {
 }
 
 // The revocation that closed a review: of the review's score version, signed after the review was written, while no
-// chair had decided the review (both times from the database clock). Kept as a lateral join used by every reader.
+// chair had decided the review (both times from the database clock). One lateral join for the review list and the queue.
 const CLOSED_BY_SQL = `
   LEFT JOIN LATERAL (
     SELECT s.id AS closed_by_id, s.signed_at AS closed_at FROM signatures s
