@@ -12,10 +12,21 @@ import { timeRequests } from './observability/metrics';
 import { mountRoutes } from './routes/define';
 import { routes } from './routes/table';
 
+/** PLUMBLINE_TRUST_PROXY as Express reads 'trust proxy': a hop count, true/false, or addresses and subnets. */
+export function trustProxySetting(value: string): boolean | number | string {
+  const v = value.trim();
+  if (v === '' || v === 'false') return false;
+  if (v === 'true') return true;
+  if (/^\d+$/.test(v)) return Number(v);
+  return v;
+}
+
 /** Builds the app without listening, so tests drive it directly and only index.ts listens. */
 export function createApp(options: { serveClient?: boolean; log?: Logger } = {}) {
   const app = express();
-  app.set('trust proxy', 'loopback');
+  // X-Forwarded-For decides the address that sign-in limits and the audit trail see, so it is believed only from a
+  // proxy the operator names (PLUMBLINE_TRUST_PROXY); by default nothing is trusted and the socket's address counts.
+  app.set('trust proxy', trustProxySetting(config.trustProxy));
   app.disable('x-powered-by');
   // First, so every answer (refusals and errors included) gets a request id, one log line and a duration.
   app.use('/api', requestLogger(options.log), timeRequests);
@@ -41,9 +52,10 @@ export function createApp(options: { serveClient?: boolean; log?: Logger } = {})
     },
   });
   app.use(securityHeaders);
+  // API answers carry patient-derived rows, tokens and account data: no browser or proxy may keep a copy.
+  app.use('/api', apiCacheHeaders);
   app.use('/api', express.json({ limit: '1mb' }));
   app.use('/api', refuseBadText);
-  app.use('/api', apiCacheHeaders);
 
   const api = express.Router();
   mountRoutes(api, routes);

@@ -42,6 +42,8 @@ const envSchema = z.object({
   PLUMBLINE_LOGIN_WINDOW_MS: int(15 * 60 * 1000, 1000, 24 * 3600 * 1000),
   PLUMBLINE_LOGIN_MAX_PER_IP: int(20, 1, 1_000_000),
   PLUMBLINE_LOGIN_MAX_FAILURES: int(5, 1, 1_000_000),
+  // Express 'trust proxy' value naming the reverse proxy (e.g. 'loopback', '10.0.0.5', 1); empty: X-Forwarded-For is ignored.
+  PLUMBLINE_TRUST_PROXY: text(''),
   PLUMBLINE_UPLOAD_LIMIT_MB: num(64, 0.001),
   PLUMBLINE_UPLOAD_DIR: optionalText(),
   PLUMBLINE_UPLOAD_THREADS: int(2, 1, 64),
@@ -127,6 +129,7 @@ export function loadConfig(env: Record<string, string | undefined>) {
       maxPerIp: e.PLUMBLINE_LOGIN_MAX_PER_IP,
       maxFailuresPerAccount: e.PLUMBLINE_LOGIN_MAX_FAILURES,
     },
+    trustProxy: e.PLUMBLINE_TRUST_PROXY,
     uploadLimitBytes: e.PLUMBLINE_UPLOAD_LIMIT_MB * 1024 * 1024,
     uploadDir: e.PLUMBLINE_UPLOAD_DIR,
     uploadThreads: e.PLUMBLINE_UPLOAD_THREADS,

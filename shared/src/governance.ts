@@ -15,6 +15,10 @@ export const MEANING_OF_DECISION: Record<Decision, SignatureMeaning> = {
   return: 'return to statistician',
 };
 
+/** Verdicts against which an approval needs the chair's written reason (stored with the signature, in the manifest). */
+export const NEGATIVE_VERDICTS: readonly Verdict[] = ['not fit for use', 'recalibrate first'];
+export const approvalNeedsReason = (verdict: Verdict | null | undefined) => !!verdict && NEGATIVE_VERDICTS.includes(verdict);
+
 export const reviewRequest = z.object({
   verdict: z.enum(VERDICTS),
   reasoning: z.string().trim().min(1, 'reasoning is required').max(20_000),
@@ -56,6 +60,8 @@ export interface ReviewView {
   current: boolean;
   /** The decisive signature on this review, if any. */
   decision: SignatureMeaning | null;
+  /** The revocation that closed this review while it awaited a decision: it can no longer be signed. */
+  closedBy: { signatureId: string; signedAt: string } | null;
 }
 
 export interface SignatureView {
@@ -68,6 +74,8 @@ export interface SignatureView {
   role: string;
   meaning: SignatureMeaning;
   reason: string | null;
+  /** The verdict of the review this signature decided (an approval against a negative one carries a reason). */
+  reviewVerdict: Verdict | null;
   signedAt: string; // ISO 8601, UTC
   recordSha256: string;
   /** The hash recomputed from the linked record matches the stored one (21 CFR 11.70). */

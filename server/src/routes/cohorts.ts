@@ -2,7 +2,6 @@
 import { createHash, randomUUID } from 'node:crypto';
 import { createWriteStream, mkdirSync } from 'node:fs';
 import { unlink } from 'node:fs/promises';
-import { tmpdir } from 'node:os';
 import path from 'node:path';
 import type { NextFunction, Request, RequestHandler, Response } from 'express';
 import multer, { type StorageEngine } from 'multer';
@@ -12,8 +11,9 @@ import { currentUser, sourceIp } from '../middleware/auth';
 import { badRequest, HttpError, zodMessage } from '../middleware/errors';
 import * as cohorts from '../services/cohorts';
 import * as uploads from '../services/uploads';
+import { uploadDir } from '../services/uploads';
 
-export const uploadDir = config.uploadDir ?? path.join(tmpdir(), 'plumbline-uploads');
+export { uploadDir } from '../services/uploads';
 
 interface HashedFile extends Express.Multer.File {
   sha256: string;
@@ -40,9 +40,23 @@ const hashingStorage: StorageEngine = {
       for (let i = chunk.indexOf(0x0d); plain && i !== -1 && i + 1 < chunk.length; i = chunk.indexOf(0x0d, i + 1)) if (chunk[i + 1] !== 0x0a) plain = false;
       crAtEnd = chunk[chunk.length - 1] === 0x0d;
     });
+    // A request cut off mid-body (client gone, connection reset, a body that ends before its closing boundary) ends
+    // the part without its end: the unfinished, unscreened file is removed at once, never kept for a later sweep.
+    let settled = false;
+    const settle = (err: Error | null) => {
+      if (settled) return;
+      settled = true;
+      if (!err) return cb(null, { path: target, size, sha256: hash.digest('hex'), plain: plain && !crAtEnd } as Partial<HashedFile>);
+      out.destroy();
+      unlink(target).then(() => cb(err), () => cb(err));
+    };
+    file.stream.on('error', (err: Error) => settle(err));
+    file.stream.on('close', () => {
+      if (!file.stream.readableEnded) settle(new Error('the upload was cut off before the file ended'));
+    });
     file.stream.pipe(out);
-    out.on('error', (err) => cb(err));
-    out.on('finish', () => cb(null, { path: target, size, sha256: hash.digest('hex'), plain: plain && !crAtEnd } as Partial<HashedFile>));
+    out.on('error', (err) => settle(err));
+    out.on('finish', () => settle(null));
   },
   _removeFile(_req, file, cb) {
     unlink(file.path).then(() => cb(null), () => cb(null));

@@ -12,7 +12,7 @@ import type {
   SignatureView,
   SignoffQueueItem,
 } from '@shared/governance';
-import { MEANING_OF_DECISION } from '@shared/governance';
+import { approvalNeedsReason, MEANING_OF_DECISION } from '@shared/governance';
 import type { Role } from '@shared/roles';
 import { config } from '../config';
 import { dataSource } from '../db/dataSource';
@@ -23,7 +23,7 @@ import type { AuthUser } from '../middleware/auth';
 import { conflict, forbidden, HttpError, notFound } from '../middleware/errors';
 import { appendAudit, canonical } from './audit';
 import { queueEmail, recipientsForRole } from './mail';
-import { checkPassword } from './users';
+import { verifyPasswordFor } from './users';
 
 const DECISIVE: SignatureMeaning[] = ['approve for clinical use', 'return to statistician'];
 
@@ -94,13 +94,26 @@ interface ReviewRow {
   created_at: Date;
   superseded_by: string | null;
   decision: SignatureMeaning | null;
+  closed_by_id: string | null;
+  closed_at: Date | null;
 }
+
+// The revocation that closed a review: of the review's score version, signed after the review was written, while no
+// chair had decided the review (both times from the database clock). One lateral join for the review list and the queue.
+const CLOSED_BY_SQL = `
+  LEFT JOIN LATERAL (
+    SELECT s.id AS closed_by_id, s.signed_at AS closed_at FROM signatures s
+    JOIN validation_runs vr ON vr.id = rv.run_id
+    WHERE s.meaning = 'revoke approval' AND s.score_version_id = vr.score_version_id AND s.signed_at >= date_trunc('milliseconds', rv.created_at)
+      AND NOT EXISTS (SELECT 1 FROM signatures d WHERE d.review_id = rv.id AND d.meaning IN ('approve for clinical use', 'return to statistician'))
+    ORDER BY s.signed_at ASC LIMIT 1
+  ) closing ON true`;
 
 export async function listReviews(runId: string, m: EntityManager = dataSource.manager): Promise<ReviewView[]> {
   const rows: ReviewRow[] = await m.query(
-    `SELECT rv.*, u.name AS reviewer_name,
+    `SELECT rv.*, u.name AS reviewer_name, closing.closed_by_id, closing.closed_at,
             (SELECT s.meaning FROM signatures s WHERE s.review_id = rv.id AND s.meaning = ANY($2) LIMIT 1) AS decision
-     FROM run_reviews rv JOIN users u ON u.id = rv.reviewer_id
+     FROM run_reviews rv JOIN users u ON u.id = rv.reviewer_id ${CLOSED_BY_SQL}
      WHERE rv.run_id = $1 ORDER BY rv.created_at ASC, rv.id`,
     [runId, DECISIVE],
   );
@@ -115,6 +128,7 @@ export async function listReviews(runId: string, m: EntityManager = dataSource.m
     supersededBy: r.superseded_by,
     current: r.superseded_by === null,
     decision: r.decision,
+    closedBy: r.closed_by_id ? { signatureId: r.closed_by_id, signedAt: new Date(r.closed_at!).toISOString() } : null,
   }));
 }
 
@@ -132,7 +146,7 @@ interface SignatureRow {
   record_sha256: string;
   revokes_signature_id: string | null;
   results_sha256: string | null;
-  verdict: string | null;
+  verdict: ReviewView['verdict'] | null;
   reasoning: string | null;
 }
 
@@ -171,6 +185,7 @@ export async function listSignatures(runId: string, m: EntityManager = dataSourc
       role: s.role,
       meaning: s.meaning,
       reason: s.reason,
+      reviewVerdict: s.verdict,
       signedAt: signedAt.toISOString(),
       recordSha256: s.record_sha256,
       linkVerified: expected === s.record_sha256,
@@ -191,6 +206,7 @@ export async function getRunGovernance(actor: AuthUser, runId: string): Promise<
   if (actor.role !== 'chair') reasonCannotSign = 'only the committee chair signs';
   else if (!current) reasonCannotSign = 'the run has no review yet';
   else if (current.decision) reasonCannotSign = `the current review was already signed (${current.decision})`;
+  else if (current.closedBy) reasonCannotSign = 'the approval of this score version was revoked after this review was written; the statistician reviews the run again first';
   else if (reviews.some((r) => r.reviewerId === actor.id)) reasonCannotSign = 'you reviewed this run, so another chair must sign it';
   return {
     runId,
@@ -260,10 +276,9 @@ export async function reviewRun(actor: AuthUser, runId: string, input: ReviewReq
 
 // ---------- signatures ----------
 
+/** The signer's password, re-entered: limited and audited like sign-in (users.verifyPasswordFor). */
 async function reauthenticate(actor: AuthUser, password: string, act: string, targetType: string, targetId: string, ip: string) {
-  if (await checkPassword(actor.id, password)) return;
-  await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'signature.password_failed', targetType, targetId, sourceIp: ip, details: { act } });
-  throw new HttpError(403, 'the password is not correct; the signature was not recorded');
+  await verifyPasswordFor(actor, password, { action: 'signature', targetType, targetId, ip, details: { act } }, 'the password is not correct; the signature was not recorded');
 }
 
 const isUniqueViolation = (err: unknown) => (err as { code?: string; driverError?: { code?: string } }).code === '23505' || (err as { driverError?: { code?: string } }).driverError?.code === '23505';
@@ -288,7 +303,11 @@ export async function signoffRun(
   let signatureId: string;
   try {
     signatureId = await dataSource.transaction(async (m) => {
-      // Two chairs signing at once: the second waits here and then sees the first one's decision.
+      // Every signature on a score version waits for the version's row first (as a revocation does), then for the run:
+      // two chairs signing at once, or a sign-off during a revocation, go one after the other in that order.
+      const [unlocked] = await m.query('SELECT score_version_id FROM validation_runs WHERE id = $1', [runId]);
+      if (!unlocked) throw notFound('validation run');
+      await m.query('SELECT id FROM score_versions WHERE id = $1 FOR UPDATE', [unlocked.score_version_id]);
       const run = await loadRun(m, runId, true);
       if (run.status !== 'completed') throw conflict(`the run is ${run.status}; only a completed, reviewed run can be signed`);
       const current = await m.getRepository(RunReview).findOne({ where: { runId, supersededBy: IsNull() } });
@@ -297,6 +316,15 @@ export async function signoffRun(
       if (reviewed.length) throw forbidden('you reviewed this run, so another chair must sign it');
       const decided: { meaning: string }[] = await m.query('SELECT meaning FROM signatures WHERE review_id = $1 AND meaning = ANY($2)', [current.id, DECISIVE]);
       if (decided.length) throw conflict(`this review was already signed (${decided[0].meaning})`);
+      const [closing]: { id: string }[] = await m.query(
+        `SELECT s.id FROM signatures s JOIN run_reviews rv ON rv.id = $2
+         WHERE s.meaning = 'revoke approval' AND s.score_version_id = $1 AND s.signed_at >= date_trunc('milliseconds', rv.created_at)`,
+        [run.score_version_id, current.id],
+      );
+      if (closing) throw conflict('the approval of this score version was revoked after this review was written, which closed it; the statistician reviews the run again first');
+      if (input.decision === 'approve' && approvalNeedsReason(current.verdict) && !reason) {
+        throw new HttpError(400, `the review says "${current.verdict}": approving against it needs your written reason`);
+      }
 
       const signedAt = new Date(Math.floor(Date.now()));
       const [{ id }]: { id: string }[] = await m.query('SELECT gen_random_uuid() AS id');
@@ -388,7 +416,14 @@ export async function revokeApproval(actor: AuthUser, versionId: string, input: 
       const approval = approvals[0];
       if (!approval) throw conflict('no approval signature was found for this version');
       const review = approval.reviewId ? await m.getRepository(RunReview).findOne({ where: { id: approval.reviewId } }) : null;
-      const signedAt = new Date(Math.floor(Date.now()));
+      // The database clock, the one that dates reviews: every review written before this moment is closed (CLOSED_BY_SQL).
+      const [{ at: signedAt }]: { at: Date }[] = await m.query(`SELECT date_trunc('milliseconds', clock_timestamp()) AS at`);
+      const closes: { id: string; run_id: string }[] = await m.query(
+        `SELECT rv.id, rv.run_id FROM run_reviews rv JOIN validation_runs vr ON vr.id = rv.run_id
+         WHERE vr.score_version_id = $1 AND rv.superseded_by IS NULL AND date_trunc('milliseconds', rv.created_at) <= $2
+           AND NOT EXISTS (SELECT 1 FROM signatures d WHERE d.review_id = rv.id AND d.meaning = ANY($3))`,
+        [versionId, signedAt, DECISIVE],
+      );
       const [{ id }]: { id: string }[] = await m.query('SELECT gen_random_uuid() AS id');
       const meaning: SignatureMeaning = 'revoke approval';
       const record = {
@@ -429,7 +464,7 @@ export async function revokeApproval(actor: AuthUser, versionId: string, input: 
           targetType: 'score_version',
           targetId: versionId,
           sourceIp: ip,
-          details: { signatureId: id, revokes: approval.id, runId: run.id, reason: input.reason, signedAt: signedAt.toISOString() },
+          details: { signatureId: id, revokes: approval.id, runId: run.id, reason: input.reason, signedAt: signedAt.toISOString(), closesReviews: closes.map((c) => c.id) },
         },
         m,
       );
@@ -440,6 +475,7 @@ export async function revokeApproval(actor: AuthUser, versionId: string, input: 
           `${actor.name} (committee chair) revoked the clinical-use approval of ${run.score_name} v${run.score_version}.`,
           `Reason: ${input.reason}`,
           `Signed at ${signedAt.toISOString()} (UTC). Clinicians no longer see its score card.`,
+          ...(closes.length ? [`${closes.length} review(s) of this version awaiting a decision were closed; a new review is needed before any sign-off.`] : []),
           '',
           `${appUrl()}/runs/${run.id}`,
         ],
@@ -515,8 +551,8 @@ export async function signoffQueue(actor: AuthUser): Promise<SignoffQueueItem[]>
      JOIN scores s ON s.id = sv.score_id
      JOIN cohort_versions cv ON cv.id = r.cohort_version_id
      JOIN cohorts c ON c.id = cv.cohort_id
-     JOIN users u ON u.id = rv.reviewer_id
-     WHERE rv.superseded_by IS NULL AND r.status = 'completed'
+     JOIN users u ON u.id = rv.reviewer_id ${CLOSED_BY_SQL}
+     WHERE rv.superseded_by IS NULL AND r.status = 'completed' AND closing.closed_by_id IS NULL
        AND NOT EXISTS (SELECT 1 FROM signatures sg WHERE sg.review_id = rv.id AND sg.meaning = ANY($2))
      ORDER BY rv.created_at ASC`,
     [actor.id, DECISIVE],

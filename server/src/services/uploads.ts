@@ -1,6 +1,8 @@
 // Cohort uploads: screen → map and check rows → store (one transaction, COPY) or discard.
 import { randomUUID } from 'node:crypto';
-import { unlink } from 'node:fs/promises';
+import { readdir, stat, unlink } from 'node:fs/promises';
+import { tmpdir } from 'node:os';
+import path from 'node:path';
 import type { ColumnMappingSpec, ScreenFinding, UploadFields, UploadStatus, UploadView } from '@shared/cohorts';
 import { columnMapping } from '@shared/cohorts';
 import type { ScoreModel } from '@shared/model';
@@ -19,6 +21,9 @@ import { logger } from '../observability/log';
 import { timeJob } from '../observability/metrics';
 
 export { periodStart } from './uploadCheck';
+
+/** Where received files wait between screening and storing (PLUMBLINE_UPLOAD_DIR). */
+export const uploadDir = config.uploadDir ?? path.join(tmpdir(), 'plumbline-uploads');
 export type { RequiredPredictor };
 
 export interface ReceivedFile {
@@ -268,10 +273,31 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
   const message = ending.type === 'error' ? ending.message : 'unknown ending';
   logger.error({ uploadId: id, reason: message }, 'checking an upload failed');
   // The database's own message (table and constraint names) stays in the server log.
-  const shown = ending.type === 'error' && ending.database ? 'the database refused the rows (details are in the server log); try again' : message;
-  await dataSource.query(`UPDATE cohort_uploads SET status = 'failed', error = $2, updated_at = now() WHERE id = $1 AND status = 'processing'`,
-    [id, `the file could not be processed: ${shown}; nothing was stored`]).catch(() => undefined);
+  const shown = ending.type === 'error' && ending.database ? 'the database refused the rows or went away (details are in the server log); try again' : message;
+  // The check may have failed because PostgreSQL went away: then this write fails too, and is tried again until the
+  // database is back, so the upload never stays "processing" (a restart meanwhile is covered by recoverInterruptedUploads).
+  await untilStored(`marking upload ${id} failed`, async () => {
+    await deleteStagedRows(plannedVersionId);
+    await dataSource.query(`UPDATE cohort_uploads SET status = 'failed', error = $2, updated_at = now() WHERE id = $1 AND status = 'processing'`,
+      [id, `the file could not be processed: ${shown}; nothing was stored`]);
+  });
 }
+
+/** Runs a write until it succeeds, waiting 1 s, 2 s, 4 s … (at most 30 s) between tries; stops when the server stops. */
+async function untilStored(what: string, write: () => Promise<void>): Promise<void> {
+  for (let attempt = 0; ; attempt++) {
+    try {
+      await write();
+      if (attempt > 0) logger.info({ tries: attempt + 1 }, `${what}: done`);
+      return;
+    } catch (err) {
+      if (stopping) return;
+      if (attempt === 0) logger.warn({ err }, `${what} failed; trying again until the database answers`);
+      await new Promise((r) => setTimeout(r, Math.min(30_000, 1000 * 2 ** attempt)).unref());
+    }
+  }
+}
+let stopping = false;
 
 /**
  * After a crash: a file whose check was under way was checked by a thread that no longer exists, and PostgreSQL
@@ -316,15 +342,57 @@ export async function discardStaleUploads(keepDays = config.uploadKeepDays): Pro
   return stale.length;
 }
 
-/** At start: interrupted checks marked failed, the checking threads started, and the stale-upload sweep every 6 hours. */
+// A received file is named <uuid>.csv; nothing else in the folder is ever removed.
+const TEMP_NAME = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}\.csv$/;
+// Unreferenced files younger than this may be another API process's upload still being received or screened.
+const ORPHAN_AGE_MS = 10 * 60 * 1000;
+
+/**
+ * Removes temp files no upload refers to (left by a crash or a kill mid-upload): at start and every ten minutes.
+ * Only our own file names, and only files untouched for ten minutes. Returns the names removed.
+ */
+export async function sweepUploadDir(now = Date.now()): Promise<string[]> {
+  let names: string[];
+  try {
+    names = (await readdir(uploadDir)).filter((n) => TEMP_NAME.test(n));
+  } catch {
+    return [];
+  }
+  if (!names.length) return [];
+  const rows: { temp_path: string }[] = await dataSource.query('SELECT temp_path FROM cohort_uploads WHERE temp_path IS NOT NULL');
+  const kept = new Set(rows.map((r) => path.resolve(r.temp_path)));
+  const removed: string[] = [];
+  for (const name of names) {
+    const file = path.resolve(uploadDir, name);
+    if (kept.has(file)) continue;
+    const info = await stat(file).catch(() => null);
+    if (!info || now - info.mtimeMs < ORPHAN_AGE_MS) continue;
+    await removeQuietly(file);
+    removed.push(name);
+  }
+  if (removed.length) logger.info({ removed: removed.length }, 'removed temp files no upload refers to');
+  return removed;
+}
+
+/** At start: interrupted checks marked failed, the checking threads started, the stale-upload sweep every 6 hours and
+ * the temp-folder sweep every ten minutes. */
 export async function startUploadUpkeep(): Promise<() => void> {
+  stopping = false;
   await recoverInterruptedUploads();
   warmUploadThreads();
   const sweep = () => void discardStaleUploads().catch((err: Error) => logger.error({ err }, 'discarding stale uploads failed'));
+  const sweepFiles = () => void sweepUploadDir().catch((err: Error) => logger.error({ err }, 'sweeping the upload folder failed'));
   sweep();
+  sweepFiles();
   const timer = setInterval(sweep, 6 * 60 * 60 * 1000);
+  const fileTimer = setInterval(sweepFiles, ORPHAN_AGE_MS);
   timer.unref();
-  return () => clearInterval(timer);
+  fileTimer.unref();
+  return () => {
+    stopping = true;
+    clearInterval(timer);
+    clearInterval(fileTimer);
+  };
 }
 
 // ---- Rejections ----------------------------------------------------------------------------------------------
@@ -434,14 +502,23 @@ export async function discardUpload(actor: AuthUser, id: string, ip: string) {
   const r = await uploadRow(id);
   if (r.status === 'committed') throw conflict('this upload is stored as a cohort version; stored versions are immutable');
   if (r.status === 'processing') await whenProcessed(id);
-  const again = await uploadRow(id);
-  await removeQuietly(again.temp_path);
-  await dataSource.transaction(async (m) => {
-    await deleteStagedRows(again.planned_version_id, m);
+  // The upload's row is locked before anything is removed, as commitUpload locks it before storing: of a commit and a
+  // discard sent at once, the second waits, then finds the other's status and is refused.
+  const tempPath = await dataSource.transaction(async (m) => {
+    const [locked]: { status: UploadStatus; temp_path: string | null; planned_version_id: string | null }[] = await m.query(
+      'SELECT status, temp_path, planned_version_id FROM cohort_uploads WHERE id = $1 FOR UPDATE',
+      [id],
+    );
+    if (locked.status === 'discarded') return null;
+    if (locked.status === 'committed') throw conflict('this upload was stored as a cohort version meanwhile; stored versions are immutable');
+    if (locked.status === 'processing') throw conflict('this upload is being checked again; discard it when the check ends');
+    await deleteStagedRows(locked.planned_version_id, m);
     await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
     await m.query(`UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, updated_at = now() WHERE id = $1`, [id]);
     await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.discarded', targetType: 'cohort_upload', targetId: id, sourceIp: ip }, m);
+    return locked.temp_path;
   });
+  await removeQuietly(tempPath);
   return getUpload(id);
 }
 
