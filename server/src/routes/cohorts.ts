@@ -18,11 +18,9 @@ export const uploadDir = process.env.PLUMBLINE_UPLOAD_DIR ?? path.join(tmpdir(),
 
 interface HashedFile extends Express.Multer.File {
   sha256: string;
-  /** No quote and no CR outside a CRLF: the row checks may read it line by line (services/uploadCheck.ts). */
-  plain: boolean;
 }
 
-/** Streams the part to a temp file while hashing it (and looking for quotes), so the file never sits in memory. */
+/** Streams the part to a temp file while hashing it, so the file never sits in memory. */
 const hashingStorage: StorageEngine = {
   _handleFile(_req, file, cb) {
     mkdirSync(uploadDir, { recursive: true, mode: 0o700 });
@@ -30,20 +28,13 @@ const hashingStorage: StorageEngine = {
     const hash = createHash('sha256');
     const out = createWriteStream(target, { mode: 0o600, highWaterMark: 1024 * 1024 });
     let size = 0;
-    let plain = true;
-    let crAtEnd = false;
     file.stream.on('data', (chunk: Buffer) => {
       hash.update(chunk);
       size += chunk.length;
-      if (!plain) return;
-      if (crAtEnd && chunk[0] !== 0x0a) plain = false;
-      if (chunk.indexOf(0x22) !== -1) plain = false;
-      for (let i = chunk.indexOf(0x0d); plain && i !== -1 && i + 1 < chunk.length; i = chunk.indexOf(0x0d, i + 1)) if (chunk[i + 1] !== 0x0a) plain = false;
-      crAtEnd = chunk[chunk.length - 1] === 0x0d;
     });
     file.stream.pipe(out);
     out.on('error', (err) => cb(err));
-    out.on('finish', () => cb(null, { path: target, size, sha256: hash.digest('hex'), plain: plain && !crAtEnd } as Partial<HashedFile>));
+    out.on('finish', () => cb(null, { path: target, size, sha256: hash.digest('hex') } as Partial<HashedFile>));
   },
   _removeFile(_req, file, cb) {
     unlink(file.path).then(() => cb(null), () => cb(null));
@@ -76,7 +67,7 @@ export async function createUpload(req: Request, res: Response) {
   if (!fields.success) throw badRequest(`invalid fields: ${zodMessage(fields.error)}`);
   // From here the service owns the temp file (it deletes it on refusal).
   (req as { fileKept?: boolean }).fileKept = true;
-  const result = await uploads.createUpload(currentUser(req), { path: file.path, originalName: file.originalname, sha256: file.sha256, bytes: file.size, plain: file.plain }, fields.data, sourceIp(req));
+  const result = await uploads.createUpload(currentUser(req), { path: file.path, originalName: file.originalname, sha256: file.sha256, bytes: file.size }, fields.data, sourceIp(req));
   res.status(201).json(result);
 }
 

@@ -25,8 +25,6 @@ export interface ReceivedFile {
   originalName: string;
   sha256: string;
   bytes: number;
-  /** Found while receiving: no quote and no lone CR (the row checks then read it line by line). Absent: read to find out. */
-  plain?: boolean;
 }
 
 
@@ -101,7 +99,7 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
       if (found.length) throw conflict(`a cohort named "${fields.cohortName}" exists; upload a new version of it instead (cohortId ${found[0].id})`);
     }
     // Parsing the sample and running the screen's patterns is CPU work: done in an upload thread, off the API's loop.
-    const looked = await screenInThread(file.path, file.plain);
+    const looked = await screenInThread(file.path);
     if (looked.type === 'refused-file') throw new HttpError(looked.status, looked.message, looked.details);
     if (looked.type === 'error') throw new Error(looked.message);
     const { delimiter, headers, sample, screen } = looked;
@@ -122,11 +120,10 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
     const suggested = suggestMapping(headers, sample, required);
     const [row] = await dataSource.query(
       `INSERT INTO cohort_uploads (status, cohort_id, cohort_name, score_version_id, label, period_start, period_end, source_filename, temp_path,
-         sha256, bytes, delimiter, headers, warnings, suggested_mapping, created_by, plain_text)
-       VALUES ('pending', $1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16) RETURNING id`,
+         sha256, bytes, delimiter, headers, warnings, suggested_mapping, created_by)
+       VALUES ('pending', $1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15) RETURNING id`,
       [fields.cohortId ?? null, fields.cohortId ? null : fields.cohortName, sv.id, fields.label ?? '', fields.periodStart ?? null, fields.periodEnd ?? null,
-        file.originalName.slice(0, 255), file.path, file.sha256, file.bytes, delimiter, JSON.stringify(headers), JSON.stringify(screen.warnings), JSON.stringify(suggested), actor.id,
-        file.plain ?? null],
+        file.originalName.slice(0, 255), file.path, file.sha256, file.bytes, delimiter, JSON.stringify(headers), JSON.stringify(screen.warnings), JSON.stringify(suggested), actor.id],
     );
     await appendAudit({
       actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.received', targetType: 'cohort_upload', targetId: row.id, sourceIp: ip,
@@ -146,7 +143,6 @@ interface UploadRow {
   mapping: ColumnMappingSpec | null; progress: number; rows_read: number; rows_accepted: number; rows_rejected: number; events: number;
   rejection_counts: { reason: string; count: number }[]; column_summary: Record<string, import('@shared/cohorts').ColumnSummary>; event_period: { min: string; max: string } | null;
   planned_version_id: string | null; cohort_version_id: string | null; error: string | null; created_by: string | null; created_at: Date;
-  plain_text: boolean | null;
 }
 
 async function uploadRow(id: string): Promise<UploadRow> {
@@ -229,6 +225,9 @@ export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnM
   return getUpload(id);
 }
 
+/** What a discarded or expired upload forgets besides its rows and rejections: everything summarised from the file's cells. */
+const FORGET_DERIVED = `column_summary = '{}', event_period = NULL, rejection_counts = '[]', suggested_mapping = NULL, progress = 0`;
+
 /** Staged rows of an upload that never became a cohort version (re-mapped, discarded, failed). */
 async function deleteStagedRows(plannedVersionId: string | null, m: { query: (q: string, p: unknown[]) => Promise<unknown> } = dataSource) {
   if (!plannedVersionId) return;
@@ -240,7 +239,7 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
   const r = await uploadRow(id);
   const data: UploadWorkerData = {
     uploadId: id, db: { ...config.db }, path: r.temp_path!, delimiter: r.delimiter, headers: r.headers, mapping,
-    predictors: requiredPredictors(sv), supplied: sv.mode === 'supplied', plannedVersionId, totalBytes: Number(r.bytes), plain: r.plain_text ?? undefined,
+    predictors: requiredPredictors(sv), supplied: sv.mode === 'supplied', plannedVersionId, totalBytes: Number(r.bytes),
   };
   let lastWrite = 0;
   let progressWrite: Promise<unknown> = Promise.resolve();
@@ -258,8 +257,10 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
     await removeQuietly(r.temp_path);
     await dataSource.transaction(async (m) => {
       await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
-      await m.query(`UPDATE cohort_uploads SET status = 'refused', temp_path = NULL, warnings = $2, error = $3, updated_at = now() WHERE id = $1`,
-        [id, JSON.stringify([refusal]), `refused by the de-identification screen: column "${refusal.column}" ${refusal.reason}; nothing was stored`]);
+      const error = refusal.column === '(file)' ? `the file was refused: ${refusal.reason}; nothing was stored`
+        : `refused by the de-identification screen: column "${refusal.column}" ${refusal.reason}; nothing was stored`;
+      await m.query(`UPDATE cohort_uploads SET status = 'refused', temp_path = NULL, warnings = $2, error = $3, column_summary = '{}', event_period = NULL, updated_at = now() WHERE id = $1`,
+        [id, JSON.stringify([refusal]), error]);
       await appendAudit({ action: 'cohort.upload.refused', actorId: r.created_by, targetType: 'cohort_upload', targetId: id, details: { columns: [{ column: refusal.column, category: refusal.category }] } }, m);
     });
     return;
@@ -304,7 +305,7 @@ export async function discardStaleUploads(keepDays = Number(process.env.PLUMBLIN
     if (running.has(u.id)) continue;
     await dataSource.transaction(async (m) => {
       const [, changed] = await m.query(
-        `UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, updated_at = now() WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`, [u.id]);
+        `UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, ${FORGET_DERIVED}, updated_at = now() WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`, [u.id]);
       if (changed !== 1) return;
       await deleteStagedRows(u.planned_version_id, m);
       await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [u.id]);
@@ -437,7 +438,7 @@ export async function discardUpload(actor: AuthUser, id: string, ip: string) {
   await dataSource.transaction(async (m) => {
     await deleteStagedRows(again.planned_version_id, m);
     await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
-    await m.query(`UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, updated_at = now() WHERE id = $1`, [id]);
+    await m.query(`UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, ${FORGET_DERIVED}, updated_at = now() WHERE id = $1`, [id]);
     await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.discarded', targetType: 'cohort_upload', targetId: id, sourceIp: ip }, m);
   });
   return getUpload(id);
