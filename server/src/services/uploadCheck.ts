@@ -4,6 +4,7 @@
 // upload worker thread) decides where rows and rejections go, so this stays a plain function the tests can call.
 import type { ColumnMappingSpec, ColumnSummary, ScreenFinding } from '@shared/cohorts';
 import { csvBatches, extraLines, isEmptyRecord, type Delimiter } from './csvFile';
+import { parseDecimal } from '@shared/decimal';
 import { BlockWriter } from './cohortBlocks';
 import { ageOver89, cellRules, isAgeHeader, looksLikeFormula, nameLike, type CellHit } from './deidentify';
 
@@ -162,8 +163,6 @@ class Interner {
   }
 }
 
-/** A plain decimal (optional sign, digits, optional fraction): the only number form a predictor cell may take. */
-const DECIMAL = /^[+-]?(\d+\.?\d*|\.\d+)$/;
 
 /** Short cells of digits and points: no identifier rule can match them (every number rule needs 5+ digits; deidentify.ts). */
 function shortPlainNumber(v: string): boolean {
@@ -295,7 +294,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
       if (raw === '') { reject(line, p.fileCol, raw, `missing value for ${p.name}`, `missing ${p.name}`); bad = true; continue; }
       if (p.numeric) {
         // Decimal notation only: Number() would also read 0x10, 0b1, 1e3 and Infinity.
-        let x = DECIMAL.test(raw) ? Number(raw) : NaN;
+        let x = parseDecimal(raw);
         if (p.age && raw === '90+') x = 90; // the Safe Harbor grouping of ages over 89 enters the formula as 90
         else if (p.age && ageOver89(raw)) { refusal = { column: p.fileCol, category: 'ages over 89', reason: `holds an age over 89 (line ${line}); group them as "90+"` }; return STOP; }
         if (!Number.isFinite(x)) { reject(line, p.fileCol, raw, `${p.name} must be a decimal number`, `non-numeric ${p.name}`); bad = true; continue; }

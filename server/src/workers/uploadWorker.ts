@@ -125,7 +125,7 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
   }
 }
 
-/** An error from pg carries a SQLSTATE and a severity; anything else is about the file (csv-parse, reading). */
+/** An error from pg carries a SQLSTATE and a severity; anything else is about the file (parsing, reading). */
 function failure(err: Error): Extract<UploadWorkerMessage, { type: 'error' }> {
   const database = typeof (err as { severity?: unknown }).severity === 'string' || /^[0-9A-Z]{5}$/.test(String((err as { code?: unknown }).code ?? ''));
   return { type: 'error', message: (err?.message ?? String(err)).split('\n')[0], database };
