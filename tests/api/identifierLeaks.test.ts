@@ -73,7 +73,7 @@ async function stored(id: string): Promise<string> {
 describe('(a) a ragged row keeps only its line number and reason', () => {
   it('stores and serves no text of a row with extra fields', async () => {
     const rows = lines(40);
-    rows[6] += ',Nell Varga,078-05-1120,nell.varga@example.org';
+    rows[6] += ',Tamsin Okoro,078-05-1120,tamsin.okoro@example.org';
     rows[9] = rows[9].split(',').slice(0, 4).join(',') + ',Oskar Brandt';
     const res = await upload(writeCsv('ragged.csv', rows.join('\n') + '\n'));
     expect(res.status, JSON.stringify(res.body)).toBe(201);
@@ -84,7 +84,7 @@ describe('(a) a ragged row keeps only its line number and reason', () => {
     expect(rej.body.rejections.map((r: { line: number; value: string }) => [r.line, r.value])).toEqual([[7, ''], [10, '']]);
     expect(rej.body.rejections[0].reason).toMatch(/14 fields; the header has 11/);
     const everything = (await served(u.id)) + (await stored(u.id));
-    for (const needle of ['Nell Varga', '078-05-1120', 'nell.varga@example.org', 'Oskar Brandt']) expect(everything).not.toContain(needle);
+    for (const needle of ['Tamsin Okoro', '078-05-1120', 'tamsin.okoro@example.org', 'Oskar Brandt']) expect(everything).not.toContain(needle);
   });
 });
 
@@ -92,7 +92,7 @@ describe('(b) every cell of every mapped column goes through the full rule set',
   // Placed after the 5,000-row sample the screen looks at, in a mapped subgroup column or a numeric predictor.
   const cases: [string, number, string, RegExp][] = [
     ['record-number code in a subgroup', UNIT, 'MRN00482913', /identifying|record/],
-    ['person name in a subgroup', UNIT, 'Nell Varga', /name/],
+    ['person name in a subgroup', UNIT, 'Tamsin Okoro', /name/],
     ['5-digit ZIP in a subgroup', UNIT, '02139', /ZIP|geographic/],
     ['SSN-shaped value in a subgroup', UNIT, '078-05-1120', /social security/],
     ['10-digit phone in a numeric predictor', 2, '5552014477', /telephone|identifying|record/],

@@ -175,8 +175,39 @@ export function cellRules(header: string, role: 'number' | 'label'): (v: string)
   };
 }
 
-/** "Firstname Lastname" (with an optional initial): a person's name when it is rare in its column. */
-export const nameLike = (v: string) => /^[A-Z][a-z'’-]+,?( [A-Z]\.?)?( [A-Z][a-z'’-]+){1,2}$/.test(v);
+// Varga, Ashdown-Lee, O'Hara, McKay (a capital, then lower case; a prefix or a hyphenated second part allowed).
+const NAME_PART = /^(?:[A-Z]['’])?[A-Z][a-z]+(?:[A-Z][a-z]+)?(?:[-'’][A-Z]?[a-z'’]+)*,?$/;
+const INITIAL = /^[A-Z]\.?$/;
+
+/** "Firstname Lastname", two to three names with an optional initial between: a person's name when it is rare in its column. */
+export function nameLike(v: string): boolean {
+  if (v.length < 5 || v.length > 60) return false;
+  const parts = v.split(' ');
+  if (parts.length < 2 || parts.length > 4) return false;
+  let names = 0;
+  for (let i = 0; i < parts.length; i++) {
+    if (NAME_PART.test(parts[i])) names++;
+    else if (!(INITIAL.test(parts[i]) && i > 0 && i < parts.length - 1)) return false;
+  }
+  return names >= 2 && names <= 3;
+}
+
+/**
+ * The first rows shown back to the uploader while mapping: a cell that matches an identifier rule or looks like a
+ * name is masked, so an identifier in the file is never served back (the file is refused later, or it is unmapped).
+ */
+export function maskPreview(headers: string[], rows: string[][]): string[][] {
+  const rules = headers.map((h, c) => {
+    const values = rows.map((r) => (r[c] ?? '').trim()).filter((x) => x !== '');
+    const numeric = values.every((x) => /^[+-]?\d+(\.\d*)?$/.test(x));
+    return cellRules(h, numeric ? 'number' : 'label');
+  });
+  // Fields beyond the header (a ragged row) are never shown.
+  return rows.map((r) => r.slice(0, headers.length).map((cell, c) => {
+    const v = cell.trim();
+    return rules[c](v) || nameLike(v) || valueIdentifier(v) ? '•••' : cell;
+  }));
+}
 
 /** The value rule that matches one cell, if any (used on every cell during the full pass). */
 export function valueIdentifier(raw: string): { category: string; reason: string } | null {
@@ -236,7 +267,8 @@ export function screenColumns(headers: string[], sample: string[][], options: { 
     }
 
     const rule = cellRules(header, 'number');
-    for (const v of values) {
+    // Each distinct value once (units, sites and periods repeat thousands of times in a sample).
+    for (const v of new Set(values)) {
       const hit = rule(v);
       if (hit) {
         const category = hit.category === 'telephone numbers' && /(^|_)fax($|_)/.test(h) ? 'fax numbers' : hit.category;
@@ -247,12 +279,12 @@ export function screenColumns(headers: string[], sample: string[][], options: { 
 
     if (isAgeHeader(header)) {
       const over = values.find(ageOver89);
-      if (over !== undefined) addOnce(refused, { column: header, category: 'ages over 89', reason: `holds ages over 89 (e.g. ${over}); group them as "90+"` });
+      if (over !== undefined) addOnce(refused, { column: header, category: 'ages over 89', reason: `holds ages over 89 (e.g. line ${lineOf(sample, col, over)}); group them as "90+"` });
     }
 
     // Names: mostly distinct "Firstname Lastname" values (units and sites repeat, so they pass).
-    const nameLike = values.filter((v) => /^[A-Z][a-z'’-]+,?( [A-Z]\.?)?( [A-Z][a-z'’-]+){1,2}$/.test(v));
-    if (values.length >= 5 && nameLike.length / values.length >= 0.5 && distinctRatio(nameLike) >= 0.5) {
+    const names = values.filter(nameLike);
+    if (values.length >= 5 && names.length / values.length >= 0.5 && distinctRatio(names) >= 0.5) {
       addOnce(refused, { column: header, category: 'names', reason: 'holds values that look like personal names' });
     }
 

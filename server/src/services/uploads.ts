@@ -13,7 +13,7 @@ import type { UploadWorkerData } from '../workers/uploadWorker';
 import { appendAudit } from './audit';
 import { registerBackground } from './background';
 import type { Delimiter } from './csvFile';
-import { neutraliseCell } from './deidentify';
+import { maskPreview, neutraliseCell } from './deidentify';
 import { checkInThread, screenInThread, warmUploadThreads } from './uploadThreads';
 import type { RequiredPredictor } from './uploadCheck';
 
@@ -129,7 +129,7 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
       actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.received', targetType: 'cohort_upload', targetId: row.id, sourceIp: ip,
       details: { filename: file.originalName, sha256: file.sha256, bytes: file.bytes, columns: headers.length },
     });
-    return { upload: await getUpload(row.id), preview: sample.slice(0, 5) };
+    return { upload: await getUpload(row.id), preview: maskPreview(headers, sample.slice(0, 5)) };
   } catch (err) {
     await removeQuietly(file.path);
     throw err;
