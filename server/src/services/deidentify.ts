@@ -1,6 +1,9 @@
 // De-identification screen (pure): refuses columns whose header or contents look like one of HIPAA Safe Harbor's
 // 18 identifier categories, 45 CFR §164.514(b)(2). Rules are documented in docs-snippets/deidentification.md.
 import type { ScreenFinding } from '@shared/cohorts';
+import { looksLikeFormula } from '@shared/csv';
+
+export { looksLikeFormula };
 
 export type { ScreenFinding };
 
@@ -318,21 +321,4 @@ function distinctRatio(values: string[]): number {
 function lineOf(sample: string[][], col: number, value: string): number {
   // Line 1 is the header.
   return sample.findIndex((r) => (r[col] ?? '').trim() === value) + 2;
-}
-
-/** A spreadsheet would run it: starts with =, +, -, @ (or tab/CR) and is not a plain number. */
-export function looksLikeFormula(raw: string): boolean {
-  if (raw === '') return false;
-  const c = raw[0];
-  if (c === '\t' || c === '\r') return true;
-  // Stored and shown trimmed: " =1+2" is judged as "=1+2".
-  const v = c === ' ' ? raw.trim() : raw;
-  const d = v[0];
-  if (d !== '=' && d !== '+' && d !== '-' && d !== '@') return false;
-  return !/^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/.test(v.trim());
-}
-
-/** Prefix a formula-looking cell with an apostrophe so a spreadsheet shows it as text (OWASP CSV injection advice). */
-export function neutraliseCell(raw: string): string {
-  return looksLikeFormula(raw) ? `'${raw}` : raw;
 }

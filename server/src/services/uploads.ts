@@ -13,7 +13,8 @@ import type { UploadWorkerData } from '../workers/uploadWorker';
 import { appendAudit } from './audit';
 import { registerBackground } from './background';
 import type { Delimiter } from './csvFile';
-import { maskPreview, neutraliseCell } from './deidentify';
+import { csvRecords } from '@shared/csv';
+import { maskPreview } from './deidentify';
 import { checkInThread, screenInThread, warmUploadThreads } from './uploadThreads';
 import type { RequiredPredictor } from './uploadCheck';
 
@@ -337,11 +338,9 @@ export async function listRejections(id: string, page: number, pageSize: number)
   return { rejections: rows as { line: number; column: string; value: string; reason: string }[], total: n as number, page, pageSize };
 }
 
-const csvCell = (s: string) => (/[",\n\r;]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s);
-
 /** The rejected cells as CSV, formula-looking cells prefixed with an apostrophe so a spreadsheet shows them as text. */
 export async function* rejectionsCsv(id: string): AsyncGenerator<string> {
-  yield 'line,column,value,reason\n';
+  yield csvRecords([['line', 'column', 'value', 'reason']]);
   let after = -1;
   for (;;) {
     const rows: { line: number; column: string; value: string; reason: string }[] = await dataSource.query(
@@ -356,7 +355,7 @@ export async function* rejectionsCsv(id: string): AsyncGenerator<string> {
       const all = await dataSource.query(`SELECT line_no AS line, column_name AS column, value, reason FROM cohort_upload_rejections WHERE upload_id = $1 AND line_no = $2`, [id, lastLine]);
       page.push(...all);
     }
-    yield page.map((x) => [String(x.line), x.column, x.value, x.reason].map((c) => csvCell(neutraliseCell(c))).join(',')).join('\n') + '\n';
+    yield csvRecords(page.map((x) => [x.line, x.column, x.value, x.reason]));
     after = page[page.length - 1].line;
   }
 }
