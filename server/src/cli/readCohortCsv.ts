@@ -75,7 +75,7 @@ export async function readCohortCsv(file: string, source: CohortSource): Promise
     for await (const batch of csvBatches(file)) {
       for (const record of batch) {
         const line = nextLine;
-        nextLine += 1 + extraLines(record);
+        nextLine += batch.quoted ? 1 + extraLines(record) : 1;
         if (isEmptyRecord(record)) continue;
         if (!header) {
           header = record.map((h) => h.trim());

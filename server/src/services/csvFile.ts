@@ -37,7 +37,7 @@ function firstBadByte(chunk: Buffer, carried: number): number {
  * The text of a file, piece by piece: BOM removed, strictly UTF-8; a NUL byte, another binary control character or
  * an invalid byte sequence anywhere throws CsvBytesError naming the line.
  */
-export async function* csvText(path: string, onBytes?: (bytesRead: number) => void): AsyncGenerator<string> {
+export async function* csvText(path: string, onBytes?: (bytesRead: number) => void, onQuote?: () => void): AsyncGenerator<string> {
   const decoder = new TextDecoder('utf-8', { fatal: true });
   const input = createReadStream(path, { highWaterMark: 1024 * 1024 });
   let line = 1;
@@ -58,6 +58,7 @@ export async function* csvText(path: string, onBytes?: (bytesRead: number) => vo
         throw new CsvBytesError(`the file is not text: it contains ${what} (line ${line + countNewlines(text, bad.index)}); is it a spreadsheet or a compressed file? export it as CSV, UTF-8`);
       }
       line += countNewlines(text);
+      if (onQuote && text.indexOf('"') !== -1) { onQuote(); onQuote = undefined; }
       onBytes?.(input.bytesRead);
       if (text) yield text;
     }
@@ -72,14 +73,18 @@ export async function* csvText(path: string, onBytes?: (bytesRead: number) => vo
   }
 }
 
+/** A batch of records; `quoted` once a quote has been seen in the file (only then can a field hold a line break). */
+export type CsvBatch = string[][] & { quoted?: boolean };
+
 /**
  * The records of a file in batches (each a piece of the file, about 1 MB), parsed by papaparse: quoted fields, ragged
  * rows kept for the row checks, empty lines as [''] (the caller counts line numbers). The file is read only as fast as
  * the batches are taken.
  */
-export async function* csvBatches(path: string, delimiter?: Delimiter, onBytes?: (bytesRead: number) => void): AsyncGenerator<string[][]> {
-  const source = Readable.from(csvText(path, onBytes), { objectMode: false, encoding: 'utf8' });
-  const batches: string[][][] = [];
+export async function* csvBatches(path: string, delimiter?: Delimiter, onBytes?: (bytesRead: number) => void): AsyncGenerator<CsvBatch> {
+  let quoted = false;
+  const source = Readable.from(csvText(path, onBytes, () => (quoted = true)), { objectMode: false, encoding: 'utf8' });
+  const batches: CsvBatch[] = [];
   let parser: Papa.Parser | null = null;
   let done = false;
   let failure: unknown = null;
@@ -95,7 +100,9 @@ export async function* csvBatches(path: string, delimiter?: Delimiter, onBytes?:
       // Hold both the parser and the file until this batch is taken (papaparse's pause alone keeps reading the stream).
       p.pause();
       source.pause();
-      batches.push(results.data);
+      const batch: CsvBatch = results.data;
+      batch.quoted = quoted;
+      batches.push(batch);
       signal();
     },
     complete() { done = true; signal(); },

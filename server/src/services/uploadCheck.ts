@@ -361,7 +361,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     outer: for await (const records of batches) {
       for (const record of records) {
         const line = nextLine;
-        nextLine += 1 + extraLines(record);
+        nextLine += records.quoted ? 1 + extraLines(record) : 1;
         if (isEmptyRecord(record)) continue;
         if (first) { first = false; continue; }
         const r = checkRow(record, line);

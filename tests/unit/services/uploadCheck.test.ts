@@ -202,3 +202,16 @@ describe('column summaries: the histogram of a large numeric column comes from a
     expect(sampled.reduce((a, b) => a + b, 0)).toBeCloseTo(5000, -1);
   });
 });
+
+describe('line numbers count the lines a quoted field spans', () => {
+  it('a rejection after a field with a line break names the physical line', async () => {
+    const text = `${HEADER.join(',')}\n45,3,yes,no,2025-01,Birch,n1\n46,3,yes,no,2025-01,"Birch",n1\n47,3,yes,no,2025-01,Birch,"two\nlines"\n=1+2,3,yes,no,2025-01,Birch,n1\n`;
+    const file = path.join(dir, `q${Math.random().toString(36).slice(2)}.csv`);
+    writeFileSync(file, text);
+    const res = await checkUploadRows(
+      { path: file, delimiter: ',', headers: HEADER, mapping, predictors, supplied: false, plannedVersionId: '0b7c5d0e-1f2a-4b3c-8d4e-5f6a7b8c9d0e', totalBytes: text.length },
+      { rows: () => {}, progress: () => {} },
+    );
+    expect(res.rejections).toEqual([[6, 'age', '=1+2', 'the cell looks like a spreadsheet formula']]);
+  });
+});
