@@ -26,13 +26,6 @@ function countNewlines(text: string, end = text.length): number {
   return n;
 }
 
-/** Where the first bytes that are not UTF-8 begin in a chunk (the decoder only says that they exist). */
-function firstBadByte(chunk: Buffer, carried: number): number {
-  const lossy = chunk.toString('utf8');
-  const at = lossy.indexOf('\uFFFD');
-  return at === -1 ? 0 : Math.max(0, at - carried);
-}
-
 /**
  * The text of a file, piece by piece: BOM removed, strictly UTF-8; a NUL byte, another binary control character or
  * an invalid byte sequence anywhere throws CsvBytesError naming the line.
@@ -48,8 +41,10 @@ export async function* csvText(path: string, onBytes?: (bytesRead: number) => vo
       try {
         text = decoder.decode(chunk, { stream: true });
       } catch {
+        // The decoder only says that bad bytes exist; a lenient decoding shows where (as U+FFFD).
         const lossy = chunk.toString('utf8');
-        throw new CsvBytesError(`the file is not valid UTF-8 text (line ${line + countNewlines(lossy, firstBadByte(chunk, 0))}); export it as CSV with UTF-8 encoding`);
+        const at = Math.max(0, lossy.indexOf('\uFFFD'));
+        throw new CsvBytesError(`the file is not valid UTF-8 text (line ${line + countNewlines(lossy, at)}); export it as CSV with UTF-8 encoding`);
       }
       if (first) { first = false; if (text.charCodeAt(0) === 0xfeff) text = text.slice(1); }
       const bad = CONTROL.exec(text);
