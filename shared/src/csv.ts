@@ -1,7 +1,8 @@
 // The one CSV writer of Plumbline: every CSV the server sends (rejected rows, run results, the audit trail) and every
 // chart or table download of the client goes through here. csv-stringify quotes (RFC 4180); one neutraliser keeps a
 // spreadsheet from running a cell as a formula (OWASP, "CSV Injection").
-import { stringify } from 'csv-stringify/sync';
+// The browser build: it carries its own Buffer, so the client's downloads can use it (lib/ expects Node's).
+import { stringify } from 'csv-stringify/browser/esm/sync';
 
 export type CsvCell = string | number | boolean | null | undefined | Date;
 
