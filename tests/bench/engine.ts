@@ -38,7 +38,7 @@ let t = performance.now();
 const { p, y } = await readCohortCsv(file, { outcome: 'died', prediction: 'risk' });
 const parseMs = performance.now() - t;
 console.log(`cohort: ${N.toLocaleString('en')} rows (seed 2026), ${file}`);
-console.log(`CSV parse (streamed, csv-parse; not in the times below): ${ms(parseMs)}`);
+console.log(`CSV parse (streamed, papaparse; not in the times below): ${ms(parseMs)}`);
 
 validate(p.subarray(0, 20000), y.subarray(0, 20000)); // warm the JIT on a slice
 const full: number[] = [];

@@ -44,7 +44,8 @@ async function generate(file: string, rows: number): Promise<void> {
 function call(base: string, method: string, url: string, token: string | null, body?: unknown): Promise<{ status: number; body: any }> {
   return new Promise((resolve, reject) => {
     const data = body === undefined ? undefined : Buffer.from(JSON.stringify(body));
-    const req = http.request(`${base}${url}`, { method, headers: { ...(token ? { Authorization: `Bearer ${token}` } : {}), ...(data ? { 'Content-Type': 'application/json', 'Content-Length': data.length } : {}) } }, (res) => {
+    // agent: false — a kept-alive socket closed by the server's 5 s idle timeout during the \copy would reset the next request.
+    const req = http.request(`${base}${url}`, { method, agent: false, headers: { ...(token ? { Authorization: `Bearer ${token}` } : {}), ...(data ? { 'Content-Type': 'application/json', 'Content-Length': data.length } : {}) } }, (res) => {
       const chunks: Buffer[] = [];
       res.on('data', (c) => chunks.push(c));
       res.on('end', () => resolve({ status: res.statusCode ?? 0, body: JSON.parse(Buffer.concat(chunks).toString() || '{}') }));
@@ -63,7 +64,7 @@ function uploadMultipart(base: string, token: string, file: string, fields: Reco
   const tail = `\r\n--${boundary}--\r\n`;
   const length = Buffer.byteLength(head) + statSync(file).size + Buffer.byteLength(tail);
   return new Promise((resolve, reject) => {
-    const req = http.request(`${base}/api/cohorts`, { method: 'POST', headers: { Authorization: `Bearer ${token}`, 'Content-Type': `multipart/form-data; boundary=${boundary}`, 'Content-Length': length } }, (res) => {
+    const req = http.request(`${base}/api/cohorts`, { method: 'POST', agent: false, headers: { Authorization: `Bearer ${token}`, 'Content-Type': `multipart/form-data; boundary=${boundary}`, 'Content-Length': length } }, (res) => {
       const chunks: Buffer[] = [];
       res.on('data', (c) => chunks.push(c));
       res.on('end', () => resolve({ status: res.statusCode ?? 0, body: JSON.parse(Buffer.concat(chunks).toString() || '{}') }));

@@ -36,4 +36,8 @@ describe('toCsv (the CSV download of every chart and table)', () => {
   it('quotes cells with commas or quotes, doubles quotes, leaves missing values empty (RFC 4180)', () => {
     expect(toCsv(['level', 'n'], [['Birch, main', 4], ['say "hi"', null], ['Cedar', 0.125]])).toBe('level,n\r\n"Birch, main",4\r\n"say ""hi""",\r\nCedar,0.125\r\n');
   });
+  it('neutralises formula-looking text (a subgroup level or a label from a file) but keeps negative numbers', () => {
+    expect(toCsv(['level', 'n'], [['=HYPERLINK("http://x.invalid")', -2], [' @SUM(A1)', 1], ['-1+2', '-0.5']]))
+      .toBe(`level,n\r\n"'=HYPERLINK(""http://x.invalid"")",-2\r\n' @SUM(A1),1\r\n'-1+2,-0.5\r\n`);
+  });
 });

@@ -1,6 +1,7 @@
 // The de-identification screen, one case per HIPAA Safe Harbor category (45 CFR §164.514(b)(2)) plus the allowed forms.
 import { describe, expect, it } from 'vitest';
-import { ageOver89, looksLikeFormula, neutraliseCell, screenColumns, valueIdentifier } from '../../server/src/services/deidentify';
+import { neutraliseFormula as neutraliseCell } from '@shared/csv';
+import { ageOver89, looksLikeFormula, screenColumns, valueIdentifier } from '../../server/src/services/deidentify';
 import { periodStart } from '../../server/src/services/uploads';
 
 const rows = (n: number, f: (i: number) => string) => Array.from({ length: n }, (_, i) => [f(i)]);
@@ -77,7 +78,7 @@ describe('contents', () => {
 
 describe('formula cells', () => {
   it('flags =, +, -, @ followed by non-numbers, and neutralises them', () => {
-    for (const v of ['=HYPERLINK("x")', '+cmd', '-2+3', '@SUM(A1)', '\tx']) expect(looksLikeFormula(v), v).toBe(true);
+    for (const v of ['=HYPERLINK("x")', '+cmd', '-2+3', '@SUM(A1)', '\tx', ' =1+2', '  @SUM(A1)']) expect(looksLikeFormula(v), v).toBe(true);
     for (const v of ['-3.6', '+1', '-0.5e2', 'yes', '']) expect(looksLikeFormula(v), v).toBe(false);
     expect(neutraliseCell('=1+1')).toBe("'=1+1");
     expect(neutraliseCell('-3.6')).toBe('-3.6');

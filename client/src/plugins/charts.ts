@@ -57,14 +57,5 @@ export const CHART_COLOURS = {
   nonEvents: '#1f5f8b',
 };
 
-export type CsvCell = string | number | null | undefined;
-
-/** RFC 4180 CSV (CRLF, quotes doubled, cells with comma/quote/newline quoted); empty cell for a missing value. */
-export function toCsv(columns: string[], rows: CsvCell[][]): string {
-  const cell = (v: CsvCell) => {
-    if (v === null || v === undefined) return '';
-    const text = typeof v === 'number' ? String(v) : v;
-    return /[",\n\r]/.test(text) ? `"${text.replace(/"/g, '""')}"` : text;
-  };
-  return `${[columns, ...rows].map((r) => r.map(cell).join(',')).join('\r\n')}\r\n`;
-}
+// Chart and table downloads go through the one CSV writer (quoting and formula neutralisation), as the server's do.
+export { toCsv, type CsvCell } from '@shared/csv';

@@ -3,6 +3,7 @@
 import { readFileSync } from 'node:fs';
 import { scoreModelSchema, type ScoreModel } from '@shared/model';
 import type { Estimate, FitResult, ValidationResult } from '@shared/validation';
+import { ADEQUACY_SOURCES, adequacyVerdict, MINIMUM_EACH } from '@shared/adequacy';
 import { EngineInputError, validate } from '../stats/index';
 import { CsvInputError, readCohortCsv } from './readCohortCsv';
 
@@ -26,6 +27,17 @@ function parseArgs(argv: string[]): Record<string, string> {
 const num = (v: number) => (Number.isFinite(v) ? v : null);
 const est = (e: Estimate) => ({ estimate: num(e.estimate), lower: num(e.lower), upper: num(e.upper) });
 const fit = (f: FitResult<Estimate>) => (f.converged ? est(f) : null);
+
+/**
+ * A caution when events or non-events are fewer than the minimum the adequacy panel names (shared/adequacy.ts): the
+ * slope, Hosmer–Lemeshow and ICI are then imprecise however they look.
+ */
+export function smallSampleCaution(events: number, n: number): string | null {
+  const verdict = adequacyVerdict(events, n - events);
+  if (verdict.meetsMinimum) return null;
+  return `small sample: ${events} event(s) and ${n - events} non-event(s), below the minimum of ${MINIMUM_EACH} of each (${ADEQUACY_SOURCES.minimum}); `
+    + 'the calibration slope and intercept, Hosmer–Lemeshow and ICI/E50/E90/Emax are imprecise and may mislead';
+}
 
 /** The CLI's JSON: exactly the keys the command documents, NaN as null. */
 export function toCliJson(r: ValidationResult) {
@@ -58,7 +70,7 @@ export function toCliJson(r: ValidationResult) {
       tn: t.tn,
       fn: t.fn,
     })),
-    warnings: r.warnings,
+    warnings: [...[smallSampleCaution(r.events, r.n)].filter((w): w is string => w !== null), ...r.warnings],
   };
 }
 
@@ -67,12 +79,24 @@ function f(v: number | null | undefined, digits = 4): string {
 }
 const ci = (e: { estimate: number | null; lower: number | null; upper: number | null } | null, d = 4) => (e ? `${f(e.estimate, d)}  (${f(e.lower, d)} to ${f(e.upper, d)})` : 'not estimable');
 
+/** An AUC interval inside [0, 1]: DeLong's normal approximation can reach past the ends on small or extreme cohorts. */
+function aucInterval(auc: { estimate: number | null; lower: number | null; upper: number | null }): { text: string; note: string | null } {
+  const outside = (auc.lower !== null && auc.lower < 0) || (auc.upper !== null && auc.upper > 1);
+  if (!outside) return { text: ci(auc), note: null };
+  const clamp = (v: number | null) => (v === null ? null : Math.min(1, Math.max(0, v)));
+  return {
+    text: `${ci({ ...auc, lower: clamp(auc.lower), upper: clamp(auc.upper) })} †`,
+    note: `† DeLong's interval is a normal approximation and reached ${f(auc.lower)} to ${f(auc.upper)}, beyond the possible 0 to 1; it is shown truncated to [0, 1] (--format json gives it untruncated).`,
+  };
+}
+
 export function toTable(r: ValidationResult): string {
   const j = toCliJson(r);
+  const auc = aucInterval(j.auc);
   const rows: [string, string][] = [
     ['Rows', String(j.n)],
     ['Events', `${j.events} (${(100 * r.eventRate).toFixed(1)}%)`],
-    ['AUC (95% CI, DeLong)', ci(j.auc)],
+    ['AUC (95% CI, DeLong)', auc.text],
     ['Log loss (mean / total)', `${f(j.logLoss)} / ${f(j.logLossTotal, 2)}`],
     ['Brier / scaled Brier', `${f(j.brier)} / ${f(j.scaledBrier)}`],
     ['Calibration intercept', ci(j.calibrationIntercept)],
@@ -83,7 +107,9 @@ export function toTable(r: ValidationResult): string {
     ['ICI / E50 / E90 / Emax', [j.ici, j.e50, j.e90, j.emax].map((v) => f(v)).join(' / ')],
   ];
   const w = Math.max(...rows.map(([k]) => k.length));
-  const lines = rows.map(([k, v]) => `${k.padEnd(w)}  ${v}`);
+  const caution = smallSampleCaution(r.events, r.n);
+  const lines = [...(caution ? [`Caution: ${caution}.`, ''] : []), ...rows.map(([k, v]) => `${k.padEnd(w)}  ${v}`)];
+  if (auc.note) lines.push(auc.note);
   lines.push('', 'Threshold  Sens    Spec    PPV     NPV       TP      FP      TN      FN   NB model  NB all');
   j.thresholds.forEach((t, i) => {
     const nb = j.netBenefit[i];
@@ -92,7 +118,7 @@ export function toTable(r: ValidationResult): string {
         String(t.tp).padStart(8), String(t.fp).padStart(7), String(t.tn).padStart(7), String(t.fn).padStart(7), f(nb.model).padStart(9), f(nb.treatAll).padStart(7)].join(' '),
     );
   });
-  if (j.warnings.length) lines.push('', 'Warnings:', ...j.warnings.map((x) => `- ${x}`));
+  if (r.warnings.length) lines.push('', 'Warnings:', ...r.warnings.map((x) => `- ${x}`));
   return lines.join('\n');
 }
 

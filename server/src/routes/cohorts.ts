@@ -17,11 +17,9 @@ export { uploadDir } from '../services/uploads';
 
 interface HashedFile extends Express.Multer.File {
   sha256: string;
-  /** No quote and no CR outside a CRLF: the row checks may read it line by line (services/uploadCheck.ts). */
-  plain: boolean;
 }
 
-/** Streams the part to a temp file while hashing it (and looking for quotes), so the file never sits in memory. */
+/** Streams the part to a temp file while hashing it, so the file never sits in memory. */
 const hashingStorage: StorageEngine = {
   _handleFile(_req, file, cb) {
     mkdirSync(uploadDir, { recursive: true, mode: 0o700 });
@@ -29,16 +27,9 @@ const hashingStorage: StorageEngine = {
     const hash = createHash('sha256');
     const out = createWriteStream(target, { mode: 0o600, highWaterMark: 1024 * 1024 });
     let size = 0;
-    let plain = true;
-    let crAtEnd = false;
     file.stream.on('data', (chunk: Buffer) => {
       hash.update(chunk);
       size += chunk.length;
-      if (!plain) return;
-      if (crAtEnd && chunk[0] !== 0x0a) plain = false;
-      if (chunk.indexOf(0x22) !== -1) plain = false;
-      for (let i = chunk.indexOf(0x0d); plain && i !== -1 && i + 1 < chunk.length; i = chunk.indexOf(0x0d, i + 1)) if (chunk[i + 1] !== 0x0a) plain = false;
-      crAtEnd = chunk[chunk.length - 1] === 0x0d;
     });
     // A request cut off mid-body (client gone, connection reset, a body that ends before its closing boundary) ends
     // the part without its end: the unfinished, unscreened file is removed at once, never kept for a later sweep.
@@ -46,7 +37,7 @@ const hashingStorage: StorageEngine = {
     const settle = (err: Error | null) => {
       if (settled) return;
       settled = true;
-      if (!err) return cb(null, { path: target, size, sha256: hash.digest('hex'), plain: plain && !crAtEnd } as Partial<HashedFile>);
+      if (!err) return cb(null, { path: target, size, sha256: hash.digest('hex') } as Partial<HashedFile>);
       out.destroy();
       unlink(target).then(() => cb(err), () => cb(err));
     };
@@ -89,7 +80,7 @@ export async function createUpload(req: Request, res: Response) {
   if (!fields.success) throw badRequest(`invalid fields: ${zodMessage(fields.error)}`);
   // From here the service owns the temp file (it deletes it on refusal).
   (req as { fileKept?: boolean }).fileKept = true;
-  const result = await uploads.createUpload(currentUser(req), { path: file.path, originalName: file.originalname, sha256: file.sha256, bytes: file.size, plain: file.plain }, fields.data, sourceIp(req));
+  const result = await uploads.createUpload(currentUser(req), { path: file.path, originalName: file.originalname, sha256: file.sha256, bytes: file.size }, fields.data, sourceIp(req));
   res.status(201).json(result);
 }
 

@@ -1,85 +1,124 @@
-// Reading an uploaded CSV from disk: encoding and delimiter checks, header and sample, streamed records.
+// The one CSV reader of Plumbline (the upload screen, the row checks and the command line): the file's bytes are
+// decoded strictly as UTF-8 (a bad byte or a NUL anywhere refuses the file, naming the line) and split into records
+// by papaparse (DEVELOPERS.md, "Reading CSV", says why this parser). Streaming: one piece of the file at a time.
 import { createReadStream } from 'node:fs';
 import { open, stat } from 'node:fs/promises';
-import { parse, type Parser } from 'csv-parse';
+import { Readable } from 'node:stream';
+import Papa from 'papaparse';
 import { HttpError } from '../middleware/errors';
 
 export type Delimiter = ',' | ';';
 
 const unprocessable = (message: string) => new HttpError(422, message);
 
-/** Checks the first bytes: not empty, UTF-8 text without NUL bytes, comma or semicolon separated. */
-export async function sniffCsv(path: string): Promise<{ delimiter: Delimiter; bytes: number }> {
-  const { size } = await stat(path);
-  if (size === 0) throw unprocessable('the file is empty');
-  const fh = await open(path, 'r');
-  const buf = Buffer.alloc(Math.min(size, 64 * 1024));
-  try {
-    await fh.read(buf, 0, buf.length, 0);
-  } finally {
-    await fh.close();
+/** Bytes that are not UTF-8 text: refuses the whole file (415), with the line where they were found. */
+export class CsvBytesError extends HttpError {
+  constructor(message: string) {
+    super(415, message);
   }
-  if (buf.includes(0)) throw new HttpError(415, 'the file is not text: it contains NUL bytes (is it a spreadsheet or a compressed file? export it as CSV, UTF-8)');
-  // Cut at the last newline so a multi-byte character split by the 64 kB window is not blamed.
-  const cut = buf.length < size ? buf.lastIndexOf(0x0a) : buf.length;
-  let text: string;
-  try {
-    text = new TextDecoder('utf-8', { fatal: true }).decode(buf.subarray(0, cut > 0 ? cut : buf.length));
-  } catch {
-    throw new HttpError(415, 'the file is not valid UTF-8 text; export it as CSV with UTF-8 encoding');
-  }
-  text = text.replace(/^\uFEFF/, '');
-  if (text.trim() === '') throw unprocessable('the file is empty');
-  const controls = (text.match(/[\u0001-\u0008\u000e-\u001f]/g) ?? []).length;
-  if (controls > 0) throw new HttpError(415, 'the file contains binary control characters; it does not look like a CSV');
-  const header = firstRecordLine(text);
-  const commas = countOutsideQuotes(header, ',');
-  const semis = countOutsideQuotes(header, ';');
-  if (commas === 0 && semis === 0) {
-    const tabs = countOutsideQuotes(header, '\t');
-    throw unprocessable(
-      tabs > 0
-        ? 'the header is separated by tabs; Plumbline reads comma- or semicolon-separated files'
-        : 'the header has a single column: no comma or semicolon found; Plumbline reads comma- or semicolon-separated files',
-    );
-  }
-  return { delimiter: semis > commas ? ';' : ',', bytes: size };
 }
 
-function firstRecordLine(text: string): string {
-  let inQuotes = false;
-  for (let i = 0; i < text.length; i++) {
-    const c = text[i];
-    if (c === '"') inQuotes = !inQuotes;
-    else if ((c === '\n' || c === '\r') && !inQuotes) return text.slice(0, i);
-  }
-  return text;
-}
+const CONTROL = /[\u0000-\u0008\u000e-\u001f]/;
 
-function countOutsideQuotes(line: string, ch: string): number {
+function countNewlines(text: string, end = text.length): number {
   let n = 0;
-  let inQuotes = false;
-  for (const c of line) {
-    if (c === '"') inQuotes = !inQuotes;
-    else if (c === ch && !inQuotes) n++;
-  }
+  for (let i = text.indexOf('\n'); i !== -1 && i < end; i = text.indexOf('\n', i + 1)) n++;
   return n;
 }
 
-/** A csv-parse stream over the file: BOM stripped, quoted fields, ragged rows kept for the row checks. */
-export function csvStream(path: string, delimiter: Delimiter, onBytes?: (bytesRead: number) => void): Parser {
+/**
+ * The text of a file, piece by piece: BOM removed, strictly UTF-8; a NUL byte, another binary control character or
+ * an invalid byte sequence anywhere throws CsvBytesError naming the line.
+ */
+export async function* csvText(path: string, onBytes?: (bytesRead: number) => void, onQuote?: () => void): AsyncGenerator<string> {
+  const decoder = new TextDecoder('utf-8', { fatal: true });
   const input = createReadStream(path, { highWaterMark: 1024 * 1024 });
-  if (onBytes) input.on('data', () => onBytes(input.bytesRead));
-  const parser = parse({
-    bom: true,
-    delimiter,
-    relax_column_count: true,
-    relax_quotes: true,
-    // Empty lines come through as [''] and line numbers are counted by the caller: csv-parse's info option halves throughput.
-    skip_empty_lines: false,
+  let line = 1;
+  let first = true;
+  try {
+    for await (const chunk of input as AsyncIterable<Buffer>) {
+      let text: string;
+      try {
+        text = decoder.decode(chunk, { stream: true });
+      } catch {
+        // The decoder only says that bad bytes exist; a lenient decoding shows where (as U+FFFD).
+        const lossy = chunk.toString('utf8');
+        const at = Math.max(0, lossy.indexOf('\uFFFD'));
+        throw new CsvBytesError(`the file is not valid UTF-8 text (line ${line + countNewlines(lossy, at)}); export it as CSV with UTF-8 encoding`);
+      }
+      if (first) { first = false; if (text.charCodeAt(0) === 0xfeff) text = text.slice(1); }
+      const bad = CONTROL.exec(text);
+      if (bad) {
+        const what = bad[0] === '\0' ? 'a NUL byte' : 'a binary control character';
+        throw new CsvBytesError(`the file is not text: it contains ${what} (line ${line + countNewlines(text, bad.index)}); is it a spreadsheet or a compressed file? export it as CSV, UTF-8`);
+      }
+      line += countNewlines(text);
+      if (onQuote && text.indexOf('"') !== -1) { onQuote(); onQuote = undefined; }
+      onBytes?.(input.bytesRead);
+      if (text) yield text;
+    }
+    try {
+      const rest = decoder.decode();
+      if (rest) yield rest;
+    } catch {
+      throw new CsvBytesError(`the file is not valid UTF-8 text (it ends inside a character, line ${line}); export it as CSV with UTF-8 encoding`);
+    }
+  } finally {
+    input.destroy();
+  }
+}
+
+/** A batch of records; `quoted` once a quote has been seen in the file (only then can a field hold a line break). */
+export type CsvBatch = string[][] & { quoted?: boolean };
+
+/**
+ * The records of a file in batches (each a piece of the file, about 1 MB), parsed by papaparse: quoted fields, ragged
+ * rows kept for the row checks, empty lines as [''] (the caller counts line numbers). The file is read only as fast as
+ * the batches are taken.
+ */
+export async function* csvBatches(path: string, delimiter?: Delimiter, onBytes?: (bytesRead: number) => void): AsyncGenerator<CsvBatch> {
+  let quoted = false;
+  const source = Readable.from(csvText(path, onBytes, () => (quoted = true)), { objectMode: false, encoding: 'utf8' });
+  const batches: CsvBatch[] = [];
+  let parser: Papa.Parser | null = null;
+  let done = false;
+  let failure: unknown = null;
+  let wake: (() => void) | null = null;
+  const signal = () => { const w = wake; wake = null; w?.(); };
+  source.on('error', (err) => { failure ??= err; done = true; signal(); });
+  Papa.parse<string[]>(source as unknown as Papa.LocalFile, {
+    delimiter: delimiter ?? '',
+    quoteChar: '"',
+    skipEmptyLines: false,
+    chunk(results, p) {
+      parser = p;
+      // Hold both the parser and the file until this batch is taken (papaparse's pause alone keeps reading the stream).
+      p.pause();
+      source.pause();
+      const batch: CsvBatch = results.data;
+      batch.quoted = quoted;
+      batches.push(batch);
+      signal();
+    },
+    complete() { done = true; signal(); },
+    error(err: Error) { failure ??= err; done = true; signal(); },
   });
-  input.on('error', (err) => parser.destroy(err));
-  return input.pipe(parser);
+  try {
+    for (;;) {
+      const batch = batches.shift();
+      if (batch) {
+        yield batch;
+        if (!batches.length && !done && parser) { (parser as Papa.Parser).resume(); source.resume(); }
+        continue;
+      }
+      if (failure) throw failure;
+      if (done) return;
+      await new Promise<void>((resolve) => (wake = resolve));
+    }
+  } finally {
+    if (!done) (parser as Papa.Parser | null)?.abort();
+    source.destroy();
+  }
 }
 
 /** Counts the physical lines a record spanned (quoted fields may hold line breaks). */
@@ -92,42 +131,60 @@ export function extraLines(record: string[]): number {
   return n;
 }
 
-export const isEmptyRecord = (r: string[]) => r.length === 1 && r[0] === '';
+export const isEmptyRecord = (r: string[]) => r.length === 0 || (r.length === 1 && r[0] === '');
 
-/** The records of a file without quotes and lone CRs: each line split on the delimiter (as csv-parse reads such files). */
-async function* plainRecords(path: string, delimiter: Delimiter): AsyncGenerator<string[]> {
-  for await (const bytes of plainByteChunks(path)) {
-    const text = bytes.toString('utf8');
-    let pos = 0;
-    while (pos < text.length) {
-      const nl = text.indexOf('\n', pos);
-      const stop = nl === -1 ? text.length : nl;
-      yield text.slice(pos, stop > pos && text.charCodeAt(stop - 1) === 13 ? stop - 1 : stop).split(delimiter);
-      pos = stop + 1;
-    }
+/** Checks the first bytes: not empty, UTF-8 text without NUL bytes, comma or semicolon separated. */
+export async function sniffCsv(path: string): Promise<{ delimiter: Delimiter; bytes: number }> {
+  const { size } = await stat(path);
+  if (size === 0) throw unprocessable('the file is empty');
+  const fh = await open(path, 'r');
+  const buf = Buffer.alloc(Math.min(size, 64 * 1024));
+  try {
+    await fh.read(buf, 0, buf.length, 0);
+  } finally {
+    await fh.close();
   }
+  if (buf.includes(0)) throw new CsvBytesError('the file is not text: it contains NUL bytes (is it a spreadsheet or a compressed file? export it as CSV, UTF-8)');
+  // Cut at the last newline so a multi-byte character split by the 64 kB window is not blamed.
+  const cut = buf.length < size ? buf.lastIndexOf(0x0a) : buf.length;
+  let text: string;
+  try {
+    text = new TextDecoder('utf-8', { fatal: true }).decode(buf.subarray(0, cut > 0 ? cut : buf.length));
+  } catch {
+    throw new CsvBytesError('the file is not valid UTF-8 text; export it as CSV with UTF-8 encoding');
+  }
+  text = text.replace(/^\uFEFF/, '');
+  if (text.trim() === '') throw unprocessable('the file is empty');
+  if (CONTROL.test(text)) throw new CsvBytesError('the file contains binary control characters; it does not look like a CSV');
+  // The header as papaparse reads it with each candidate separator: the one giving the most columns wins.
+  const fields = (d: string) => (Papa.parse<string[]>(text, { delimiter: d, preview: 1, quoteChar: '"' }).data[0] ?? []).length;
+  const commas = fields(','), semis = fields(';');
+  if (commas <= 1 && semis <= 1) {
+    throw unprocessable(
+      fields('\t') > 1
+        ? 'the header is separated by tabs; Plumbline reads comma- or semicolon-separated files'
+        : 'the header has a single column: no comma or semicolon found; Plumbline reads comma- or semicolon-separated files',
+    );
+  }
+  return { delimiter: semis > commas ? ';' : ',', bytes: size };
 }
 
-/**
- * The header and the first rows, for the screen and the suggested mapping. `plain` (known from receiving the file: no
- * quote, no lone CR) lets the lines be split directly, which gives the same records as csv-parse, faster.
- */
-export async function readHeaderAndSample(path: string, delimiter: Delimiter, maxRows = 5000, plain = false): Promise<{ headers: string[]; sample: string[][] }> {
-  const parser = plain ? null : csvStream(path, delimiter);
-  const records = plain ? plainRecords(path, delimiter) : (parser as AsyncIterable<string[]>);
+/** The header and the first rows, for the screen and the suggested mapping. */
+export async function readHeaderAndSample(path: string, delimiter: Delimiter, maxRows = 5000): Promise<{ headers: string[]; sample: string[][] }> {
   let headers: string[] | null = null;
   const sample: string[][] = [];
   try {
-    for await (const record of records) {
-      if (isEmptyRecord(record)) continue;
-      if (!headers) headers = record.map((h) => h.trim());
-      else sample.push(record);
-      if (sample.length >= maxRows) break;
+    outer: for await (const batch of csvBatches(path, delimiter)) {
+      for (const record of batch) {
+        if (isEmptyRecord(record)) continue;
+        if (!headers) headers = record.map((h) => h.trim());
+        else sample.push(record);
+        if (sample.length >= maxRows) break outer;
+      }
     }
   } catch (err) {
+    if (err instanceof HttpError) throw err;
     throw unprocessable(`the file could not be read as CSV: ${(err as Error).message.split('\n')[0]}`);
-  } finally {
-    parser?.destroy();
   }
   if (!headers) throw unprocessable('the file is empty');
   if (headers.some((h) => h === '')) throw unprocessable(`the header has an empty column name (column ${headers.indexOf('') + 1})`);
@@ -135,69 +192,4 @@ export async function readHeaderAndSample(path: string, delimiter: Delimiter, ma
   if (dup !== undefined) throw unprocessable(`the header names column "${dup}" twice`);
   if (sample.length === 0) throw unprocessable('the file has a header but no data rows');
   return { headers, sample };
-}
-
-/** True when the file has no double quote and no bare carriage return: every record is one line split on the delimiter. */
-export async function isPlainCsv(path: string): Promise<boolean> {
-  for await (const chunk of createReadStream(path, { highWaterMark: 4 * 1024 * 1024 }) as AsyncIterable<Buffer>) {
-    if (chunk.indexOf(0x22) !== -1) return false;
-    for (let i = chunk.indexOf(0x0d); i !== -1; i = chunk.indexOf(0x0d, i + 1)) if (i + 1 >= chunk.length || chunk[i + 1] !== 0x0a) return false;
-  }
-  return true;
-}
-
-/**
- * The records of a file through csv-parse in batches, for the full pass over files with quotes (files without them
- * are read by plainByteChunks): quoting rules are the same as in the screen.
- */
-export async function* csvBatches(path: string, delimiter: Delimiter, onBytes?: (bytesRead: number) => void): AsyncGenerator<string[][]> {
-  const parser = csvStream(path, delimiter, onBytes);
-  let batch: string[][] = [];
-  try {
-    for await (const record of parser as AsyncIterable<string[]>) {
-      batch.push(record);
-      if (batch.length >= 2048) { yield batch; batch = []; }
-    }
-    if (batch.length) yield batch;
-  } finally {
-    parser.destroy();
-  }
-}
-
-/**
- * The bytes of a file without quotes in pieces of whole lines (BOM stripped; the last line may lack its newline). The
- * read buffers are passed on as views; only a line cut by a read boundary is copied.
- */
-export async function* plainByteChunks(path: string, onBytes?: (bytesRead: number) => void): AsyncGenerator<Buffer> {
-  const input = createReadStream(path, { highWaterMark: 1024 * 1024 });
-  let rest: Buffer | null = null;
-  let first = true;
-  const bom = (b: Buffer) => (b.length >= 3 && b[0] === 0xef && b[1] === 0xbb && b[2] === 0xbf ? b.subarray(3) : b);
-  try {
-    for await (const chunk of input as AsyncIterable<Buffer>) {
-      let bytes: Buffer = chunk;
-      let from = 0;
-      if (rest) {
-        const nl = bytes.indexOf(0x0a);
-        if (nl === -1) { rest = Buffer.concat([rest, bytes]); continue; }
-        let joined: Buffer = Buffer.concat([rest, bytes.subarray(0, nl + 1)]);
-        if (first) { first = false; joined = bom(joined); }
-        rest = null;
-        yield joined;
-        from = nl + 1;
-      } else if (first) {
-        if (bytes.length < 3) { rest = bytes; continue; }
-        first = false;
-        bytes = bom(bytes);
-      }
-      const last = bytes.lastIndexOf(0x0a);
-      onBytes?.(input.bytesRead);
-      if (last < from) { rest = from < bytes.length ? bytes.subarray(from) : null; continue; }
-      yield bytes.subarray(from, last + 1);
-      rest = last + 1 < bytes.length ? bytes.subarray(last + 1) : null;
-    }
-    if (rest) yield first ? bom(rest) : rest;
-  } finally {
-    input.destroy();
-  }
 }

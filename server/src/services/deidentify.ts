@@ -1,6 +1,9 @@
 // De-identification screen (pure): refuses columns whose header or contents look like one of HIPAA Safe Harbor's
 // 18 identifier categories, 45 CFR §164.514(b)(2). Rules are documented in docs-snippets/deidentification.md.
 import type { ScreenFinding } from '@shared/cohorts';
+import { looksLikeFormula } from '@shared/csv';
+
+export { looksLikeFormula };
 
 export type { ScreenFinding };
 
@@ -47,7 +50,7 @@ const VALUE_RULES: { category: string; test: (v: string) => boolean; reason: str
   { category: 'device identifiers', test: (v) => /^([0-9a-f]{2}[:-]){5}[0-9a-f]{2}$/i.test(v), reason: 'holds MAC (device) addresses' },
   { category: 'IP addresses', test: (v) => isIpv4(v) || isIpv6(v), reason: 'holds IP addresses' },
   { category: 'social security numbers', test: (v) => /^\d{3}-\d{2}-\d{4}$/.test(v), reason: 'holds values shaped like social security numbers (ddd-dd-dddd)' },
-  { category: 'dates', test: (v) => FULL_DATE.some((r) => r.test(v)), reason: 'holds full dates (day, month and year); Safe Harbor allows only the year' },
+  { category: 'dates', test: (v) => FULL_DATE.some((r) => r.test(v)) || isFullDate(v), reason: 'holds full dates (day, month and year); Safe Harbor allows only the year' },
   { category: 'geographic subdivision', test: (v) => /^\d{5}-\d{4}$/.test(v), reason: 'holds full ZIP+4 codes' },
   { category: 'telephone numbers', test: (v) => isPhone(v), reason: 'holds telephone numbers' },
   { category: 'vehicle identifiers', test: (v) => /^[A-HJ-NPR-Z0-9]{17}$/.test(v) && /\d/.test(v) && /[A-Z]/.test(v), reason: 'holds 17-character vehicle identification numbers' },
@@ -78,6 +81,135 @@ function isPhone(v: string): boolean {
   const digits = v.replace(/\D/g, '').length;
   if (digits < 9 || digits > 15) return false;
   return /\d{2,4}[\s.)-]+\d{2,4}/.test(v) && !/^-?\d+\.\d+$/.test(v);
+}
+
+// ---- Dates in the written forms a registry extract uses (README, "De-identification") ---------------------------
+const MONTH = /^(jan|feb|mar|apr|may|jun|jul|aug|sep|sept|oct|nov|dec|january|february|march|april|june|july|august|september|october|november|december)$/;
+const WEEKDAY = /\b(mon|tue|tues|wed|thu|thur|thurs|fri|sat|sun|monday|tuesday|wednesday|thursday|friday|saturday|sunday)\b/g;
+const TIME_AT_END = /(t|\s+|,\s*)\d{1,2}:\d{2}(:\d{2}([.,]\d+)?)?\s*(am|pm)?\s*(z|utc|gmt|[+-]\d{2}:?\d{2})?$/;
+const daysIn = (y: number, m: number) => new Date(Date.UTC(y, m, 0)).getUTCDate();
+const validYmd = (y: number, m: number, d: number) => y >= 1800 && y <= 2199 && m >= 1 && m <= 12 && d >= 1 && d <= daysIn(y, m);
+const yearLike = (t: string) => (t.length === 4 && +t >= 1800 && +t <= 2199) || t.length === 2;
+const digits = (t: string) => /^\d+$/.test(t);
+
+/** Eight digits read as YYYYMMDD, DDMMYYYY or MMDDYYYY with a real calendar day. */
+export function eightDigitDate(t: string): boolean {
+  if (!/^\d{8}$/.test(t)) return false;
+  const n = (a: number, b: number) => Number(t.slice(a, b));
+  return validYmd(n(0, 4), n(4, 6), n(6, 8)) || validYmd(n(4, 8), n(2, 4), n(0, 2)) || validYmd(n(4, 8), n(0, 2), n(2, 4));
+}
+
+/**
+ * A day, month and year written in one of the common forms: numbers with any separator (or eight digits with none),
+ * month names or abbreviations before or after the day, ordinals (14th), weekday names, ISO week dates (2025-W11-5,
+ * 2025-W11) and ordinal dates (2025-073), each optionally followed by a time of day.
+ */
+export function isFullDate(raw: string): boolean {
+  let v = raw.trim().toLowerCase();
+  if (v.length < 6 || v.length > 48) return false;
+  if (/^\d{4}-?w(0[1-9]|[1-4]\d|5[0-3])(-?[1-7])?$/.test(v)) return true;
+  const ord = /^(\d{4})-?(\d{3})$/.exec(v);
+  if (ord && +ord[1] >= 1800 && +ord[1] <= 2199 && +ord[2] >= 1 && +ord[2] <= 366) return true;
+  v = v.replace(TIME_AT_END, '').replace(WEEKDAY, ' ').replace(/(\d)(st|nd|rd|th)\b/g, '$1').replace(/\bof\b/g, ' ');
+  if (/[^a-z0-9\s\-/.,_']/.test(v)) return false;
+  const tokens = v.match(/[a-z]+|\d+/g) ?? [];
+  if (tokens.length === 1) return eightDigitDate(tokens[0]);
+  if (tokens.length !== 3) return false;
+  const month = tokens.findIndex((t) => MONTH.test(t));
+  if (month >= 0) {
+    const [a, b] = tokens.filter((_, i) => i !== month);
+    if (!digits(a) || !digits(b)) return false;
+    const day = (t: string) => t.length <= 2 && +t >= 1 && +t <= 31;
+    return (day(a) && yearLike(b)) || (day(b) && yearLike(a) && a.length === 4);
+  }
+  if (!tokens.every(digits)) return false;
+  const [a, b, c] = tokens;
+  if (a.length === 4) return b.length <= 2 && c.length <= 2 && validYmd(+a, +b, +c);
+  if (a.length > 2 || b.length > 2 || !(c.length === 4 || c.length === 2)) return false;
+  const y = c.length === 4 ? +c : 2000 + +c;
+  return validYmd(y, +b, +a) || validYmd(y, +a, +b);
+}
+
+/** Header names that say the column holds dates or times (an epoch number there is a timestamp). */
+export const isDateHeader = (h: string) =>
+  /(^|_)(date|dates|datetime|time|timestamp|ts|dt|day|dob|dod|born|birth|death|admit|admitted|admission|discharge|discharged|visit|epoch|when)($|_)|_(at|on)$/.test(norm(h));
+const isAgeLikeHeader = (h: string) => isAgeHeader(h) || /(^|_)age($|_)|age_?(band|group|range|class)/.test(norm(h));
+
+export type CellHit = { category: string; reason: string };
+
+/**
+ * The full rule set for one mapped column, applied to every cell of the file (trimmed), organised by the cell's shape.
+ * `number`: a numeric predictor, the outcome or the period (a 5- or 6-digit number is an ordinary value there);
+ * `label`: a subgroup or a categorical predictor (a 5-digit number there is a ZIP code, 6 digits a record number).
+ */
+export function cellRules(header: string, role: 'number' | 'label'): (v: string) => CellHit | null {
+  const dateHeader = isDateHeader(header);
+  const ageHeader = isAgeLikeHeader(header);
+  const numberShape = /^[+-]?(\d+)(\.\d*)?$/;
+  return (v: string) => {
+    if (v === '') return null;
+    const num = numberShape.exec(v);
+    if (num) {
+      const int = num[1];
+      const n = int.length;
+      if (ageHeader && ageOver89(v)) return { category: 'ages over 89', reason: 'holds an age over 89; group them as "90+"' };
+      if (n < 5) return null;
+      if (!num[2] && n === 8 && eightDigitDate(int)) return { category: 'dates', reason: 'holds an eight-digit full date (day, month and year)' };
+      if (dateHeader && n >= 9 && n <= 13) return { category: 'dates', reason: 'holds an epoch timestamp in a date column (a full date)' };
+      if (n >= 7) return { category: 'unique identifying numbers', reason: `holds a long digit string (${n} digits), like a record, account or telephone number` };
+      if (role === 'label' && !num[2] && n === 5) return { category: 'geographic subdivision', reason: 'holds a five-digit value in a label column, like a ZIP code' };
+      if (role === 'label' && !num[2] && n === 6) return { category: 'unique identifying numbers', reason: 'holds a six-digit value in a label column, like a record number' };
+      return null;
+    }
+    const hit = valueIdentifier(v);
+    if (hit) return hit;
+    if (/\d{7,}/.test(v)) return { category: 'unique identifying numbers', reason: 'holds a long digit string (7+ digits), like a record, account or telephone number' };
+    // Periods such as 2025-Q2 or 2025-H1 are not codes.
+    if (v.length >= 6 && /^[A-Za-z0-9][A-Za-z0-9_\-/.#:]+$/.test(v) && /[A-Za-z]/.test(v) && (v.match(/\d/g)?.length ?? 0) >= 5 && !/^\d{4}[-/ ]?[QqHhTt]\d{1,2}$/.test(v)) {
+      return { category: 'unique identifying numbers', reason: 'holds a code of letters and five or more digits, like a record, plan, licence or device number' };
+    }
+    if (ageHeader) {
+      const ages = v.match(/\d+/g)?.map(Number) ?? [];
+      if (ages.some((a) => a > 89 && a <= 120) && !/^(90\s*\+|>\s*89|≥\s*90|>=\s*90|90 (and|or) (over|older))$/i.test(v)) {
+        return { category: 'ages over 89', reason: 'holds an age group above 89; group them as "90+"' };
+      }
+    }
+    return null;
+  };
+}
+
+// Varga, Ashdown-Lee, O'Hara, McKay (a capital, then lower case; a prefix or a hyphenated second part allowed).
+const NAME_PART = /^(?:[A-Z]['’])?[A-Z][a-z]+(?:[A-Z][a-z]+)?(?:[-'’][A-Z]?[a-z'’]+)*,?$/;
+const INITIAL = /^[A-Z]\.?$/;
+
+/** "Firstname Lastname", two to three names with an optional initial between: a person's name when it is rare in its column. */
+export function nameLike(v: string): boolean {
+  if (v.length < 5 || v.length > 60) return false;
+  const parts = v.split(' ');
+  if (parts.length < 2 || parts.length > 4) return false;
+  let names = 0;
+  for (let i = 0; i < parts.length; i++) {
+    if (NAME_PART.test(parts[i])) names++;
+    else if (!(INITIAL.test(parts[i]) && i > 0 && i < parts.length - 1)) return false;
+  }
+  return names >= 2 && names <= 3;
+}
+
+/**
+ * The first rows shown back to the uploader while mapping: a cell that matches an identifier rule or looks like a
+ * name is masked, so an identifier in the file is never served back (the file is refused later, or it is unmapped).
+ */
+export function maskPreview(headers: string[], rows: string[][]): string[][] {
+  const rules = headers.map((h, c) => {
+    const values = rows.map((r) => (r[c] ?? '').trim()).filter((x) => x !== '');
+    const numeric = values.every((x) => /^[+-]?\d+(\.\d*)?$/.test(x));
+    return cellRules(h, numeric ? 'number' : 'label');
+  });
+  // Fields beyond the header (a ragged row) are never shown.
+  return rows.map((r) => r.slice(0, headers.length).map((cell, c) => {
+    const v = cell.trim();
+    return rules[c](v) || nameLike(v) || valueIdentifier(v) ? '•••' : cell;
+  }));
 }
 
 /** The value rule that matches one cell, if any (used on every cell during the full pass). */
@@ -137,8 +269,10 @@ export function screenColumns(headers: string[], sample: string[][], options: { 
       addOnce(refused, { column: header, category: 'geographic subdivision', reason: 'holds ZIP codes beyond the first three digits' });
     }
 
-    for (const v of values) {
-      const hit = valueIdentifier(v);
+    const rule = cellRules(header, 'number');
+    // Each distinct value once (units, sites and periods repeat thousands of times in a sample).
+    for (const v of new Set(values)) {
+      const hit = rule(v);
       if (hit) {
         const category = hit.category === 'telephone numbers' && /(^|_)fax($|_)/.test(h) ? 'fax numbers' : hit.category;
         addOnce(refused, { column: header, category, reason: `${hit.reason} (e.g. line ${lineOf(sample, col, v)})` });
@@ -148,12 +282,12 @@ export function screenColumns(headers: string[], sample: string[][], options: { 
 
     if (isAgeHeader(header)) {
       const over = values.find(ageOver89);
-      if (over !== undefined) addOnce(refused, { column: header, category: 'ages over 89', reason: `holds ages over 89 (e.g. ${over}); group them as "90+"` });
+      if (over !== undefined) addOnce(refused, { column: header, category: 'ages over 89', reason: `holds ages over 89 (e.g. line ${lineOf(sample, col, over)}); group them as "90+"` });
     }
 
     // Names: mostly distinct "Firstname Lastname" values (units and sites repeat, so they pass).
-    const nameLike = values.filter((v) => /^[A-Z][a-z'’-]+,?( [A-Z]\.?)?( [A-Z][a-z'’-]+){1,2}$/.test(v));
-    if (values.length >= 5 && nameLike.length / values.length >= 0.5 && distinctRatio(nameLike) >= 0.5) {
+    const names = values.filter(nameLike);
+    if (values.length >= 5 && names.length / values.length >= 0.5 && distinctRatio(names) >= 0.5) {
       addOnce(refused, { column: header, category: 'names', reason: 'holds values that look like personal names' });
     }
 
@@ -187,18 +321,4 @@ function distinctRatio(values: string[]): number {
 function lineOf(sample: string[][], col: number, value: string): number {
   // Line 1 is the header.
   return sample.findIndex((r) => (r[col] ?? '').trim() === value) + 2;
-}
-
-/** A spreadsheet would run it: starts with =, +, -, @ (or tab/CR) and is not a plain number. */
-export function looksLikeFormula(raw: string): boolean {
-  if (raw === '') return false;
-  const c = raw[0];
-  if (c === '\t' || c === '\r') return true;
-  if (c !== '=' && c !== '+' && c !== '-' && c !== '@') return false;
-  return !/^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/.test(raw.trim());
-}
-
-/** Prefix a formula-looking cell with an apostrophe so a spreadsheet shows it as text (OWASP CSV injection advice). */
-export function neutraliseCell(raw: string): string {
-  return looksLikeFormula(raw) ? `'${raw}` : raw;
 }

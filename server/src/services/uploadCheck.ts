@@ -3,10 +3,10 @@
 // rows are encoded for PostgreSQL's COPY, and each column is summarised. No database access here: the caller (the
 // upload worker thread) decides where rows and rejections go, so this stays a plain function the tests can call.
 import type { ColumnMappingSpec, ColumnSummary, ScreenFinding } from '@shared/cohorts';
-import { csvBatches, extraLines, isEmptyRecord, isPlainCsv, plainByteChunks, type Delimiter } from './csvFile';
-import { KnownCells, plainNumber } from './plainCells';
+import { csvBatches, extraLines, isEmptyRecord, type Delimiter } from './csvFile';
+import { parseDecimal } from '@shared/decimal';
 import { BlockWriter } from './cohortBlocks';
-import { ageOver89, isAgeHeader, looksLikeFormula, valueIdentifier } from './deidentify';
+import { ageOver89, cellRules, isAgeHeader, looksLikeFormula, nameLike, type CellHit } from './deidentify';
 
 export const MAX_STORED_REJECTIONS = 100_000;
 const RESERVOIR = 5000;
@@ -28,8 +28,6 @@ export interface CheckInput {
   /** The id the cohort version will get; every COPY row carries it. */
   plannedVersionId: string;
   totalBytes: number;
-  /** Whether the file has no quote and no lone CR, when known from receiving it; otherwise the file is read once to find out. */
-  plain?: boolean;
 }
 
 export type Rejection = [line: number, column: string, value: string, reason: string];
@@ -143,8 +141,8 @@ export function periodStart(raw: string): string | null {
  * are cached, so the summaries and the block encoding that follow look them up cheaply. Bounded: past 50,000
  * distinct values a column's cells are used as they come.
  */
-type Verdict = { formula: boolean; hit: { category: string; reason: string } | null };
-const CLEAN: Verdict = { formula: false, hit: null };
+type Verdict = { formula: boolean; hit: CellHit | null; name: boolean };
+const CLEAN: Verdict = { formula: false, hit: null, name: false };
 
 class Interner {
   private readonly few: string[] = [];
@@ -165,19 +163,15 @@ class Interner {
   }
 }
 
-/** Rows are checked cell by cell; the identifier patterns run once per distinct value (bounded cache). */
-function identifierCache() {
-  const cache = new Map<string, { category: string; reason: string } | null>();
-  return (v: string) => {
-    if (v.length < 5) return null;
-    let hit = cache.get(v);
-    if (hit === undefined) {
-      hit = valueIdentifier(v);
-      if (cache.size > 50_000) cache.clear();
-      cache.set(v, hit);
-    }
-    return hit;
-  };
+
+/** Short cells of digits and points: no identifier rule can match them (every number rule needs 5+ digits; deidentify.ts). */
+function shortPlainNumber(v: string): boolean {
+  if (v.length > 4) return false;
+  for (let i = 0; i < v.length; i++) {
+    const c = v.charCodeAt(i);
+    if ((c < 48 || c > 57) && c !== 46) return false;
+  }
+  return v.length > 0;
 }
 
 export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promise<CheckResult> {
@@ -208,15 +202,37 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   const dateAcc = mapping.date ? summaries.get(`period (${mapping.date.column})`)! : null;
   const subAcc = subs.map((s) => summaries.get(s.name)!);
   const mappedIdx = [...new Set([...preds.map((p) => p.idx), outcomeIdx, dateIdx, ...subs.map((s) => s.idx)].filter((i) => i >= 0))];
-  const identifier = identifierCache();
-  const judge = (v: string): Verdict => {
-    const formula = looksLikeFormula(v);
-    const hit = identifier(v);
-    return formula || hit ? { formula, hit } : CLEAN;
-  };
   // Numeric predictors take many values (checked cell by cell); the other mapped columns repeat a few levels.
   const numericIdx = new Set(preds.filter((p) => p.numeric).map((p) => p.idx));
-  const cellIntern = mappedIdx.map((i) => (numericIdx.has(i) ? null : new Interner(judge)));
+  const labelIdx = new Set([...preds.filter((p) => !p.numeric).map((p) => p.idx), ...subs.map((s) => s.idx)]);
+  // Every cell of every mapped column goes through the full rule set for its column (deidentify.ts, cellRules).
+  const judgeFor = (i: number) => {
+    const rule = cellRules(headers[i], labelIdx.has(i) && !numericIdx.has(i) ? 'label' : 'number');
+    return (raw: string): Verdict => {
+      const v = raw.trim();
+      const formula = looksLikeFormula(v);
+      const hit = rule(v);
+      const name = !hit && nameLike(v);
+      return formula || hit || name ? { formula, hit, name } : CLEAN;
+    };
+  };
+  const judges = mappedIdx.map(judgeFor);
+  const cellIntern = mappedIdx.map((i, j) => (numericIdx.has(i) ? null : new Interner(judges[j])));
+  // Numeric cells repeat too (ages, days): each distinct one is judged once, in a bounded cache.
+  const numberVerdicts = mappedIdx.map(() => new Map<string, Verdict>());
+  const judgeNumber = (j: number, v: string): Verdict => {
+    if (shortPlainNumber(v)) return CLEAN;
+    const cache = numberVerdicts[j];
+    let verdict = cache.get(v);
+    if (verdict === undefined) {
+      verdict = judges[j](v);
+      if (cache.size >= 50_000) cache.clear();
+      cache.set(v, verdict);
+    }
+    return verdict;
+  };
+  // Values shaped like a person's name: a unit or site repeats, a name is rare (checked when the file ends).
+  const names = mappedIdx.map(() => new Map<string, { count: number; line: number }>());
 
   const numPreds = preds.filter((p) => p.numeric);
   const catPreds = preds.filter((p) => !p.numeric);
@@ -248,7 +264,8 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   const checkRow = (record: string[], line: number): number => {
     rowsRead++;
     if (record.length !== headers.length) {
-      reject(line, '(row)', record.join(input.delimiter).slice(0, 200), `the row has ${record.length} fields; the header has ${headers.length}`, 'wrong number of fields');
+      // Only the line number and the reason: the row's text (and any extra field) is never kept.
+      reject(line, '(row)', '', `the row has ${record.length} fields; the header has ${headers.length}`, 'wrong number of fields');
       rejectedRows++;
       return NEXT;
     }
@@ -258,10 +275,16 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
       const cells = cellIntern[j];
       // Repeating columns: each distinct value is judged once; the canonical copy replaces the cell.
       const v = cells ? (record[i] = cells.intern(record[i])) : record[i];
-      const verdict = cells ? cells.verdict : judge(v);
+      const verdict = cells ? cells.verdict : judgeNumber(j, v);
       if (verdict === CLEAN) continue;
-      if (verdict.formula) { reject(line, headers[i], v, 'the cell looks like a spreadsheet formula', 'formula-looking cell'); bad = true; }
       if (verdict.hit) { refusal = { column: headers[i], category: verdict.hit.category, reason: `${verdict.hit.reason} (line ${line})` }; return STOP; }
+      if (verdict.name) {
+        const seen = names[j].get(v);
+        if (seen) seen.count++;
+        else if (names[j].size >= 10_000) { refusal = { column: headers[i], category: 'names', reason: `holds thousands of distinct values that look like personal names (line ${line})` }; return STOP; }
+        else names[j].set(v, { count: 1, line });
+      }
+      if (verdict.formula) { reject(line, headers[i], v.trim(), 'the cell looks like a spreadsheet formula', 'formula-looking cell'); bad = true; }
     }
     if (bad) { rejectedRows++; return NEXT; }
 
@@ -270,10 +293,11 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
       const raw = record[p.idx].trim();
       if (raw === '') { reject(line, p.fileCol, raw, `missing value for ${p.name}`, `missing ${p.name}`); bad = true; continue; }
       if (p.numeric) {
-        let x = Number(raw);
+        // Decimal notation only: Number() would also read 0x10, 0b1, 1e3 and Infinity.
+        let x = parseDecimal(raw);
         if (p.age && raw === '90+') x = 90; // the Safe Harbor grouping of ages over 89 enters the formula as 90
         else if (p.age && ageOver89(raw)) { refusal = { column: p.fileCol, category: 'ages over 89', reason: `holds an age over 89 (line ${line}); group them as "90+"` }; return STOP; }
-        if (!Number.isFinite(x)) { reject(line, p.fileCol, raw, `${p.name} must be a number`, `non-numeric ${p.name}`); bad = true; continue; }
+        if (!Number.isFinite(x)) { reject(line, p.fileCol, raw, `${p.name} must be a decimal number`, `non-numeric ${p.name}`); bad = true; continue; }
         if (x < p.min || x > p.max) { reject(line, p.fileCol, raw, `${p.name} must be between ${p.min} and ${p.max}`, `${p.name} out of range`); bad = true; continue; }
         if (p.positiveOnly && x <= 0) { reject(line, p.fileCol, raw, `${p.name} enters the score as a logarithm and must be above 0`, `${p.name} not above 0`); bad = true; continue; }
         numVals[slot[k]] = x;
@@ -311,8 +335,6 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     return accept(line, y, date);
   };
   /** An accepted row, its values in `numVals`, `catVals` and `subVals`: summarised and added to the blocks. */
-  let lastY = 0;
-  let lastDate: string | null = null;
   const accept = (line: number, y: number, date: string | null): number => {
     for (let k = 0; k < subs.length; k++) subAcc[k].add(subVals[k]);
     // Numbers are read from the typed array (a generic array would box each one).
@@ -322,65 +344,8 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     if (date) { if (!minDate || date < minDate) minDate = date; if (!maxDate || date > maxDate) maxDate = date; }
     accepted++;
     events += y;
-    lastY = y;
-    lastDate = date;
     writer.add(line, y, date, numVals, catVals, subVals);
     return writer.full ? FLUSH : NEXT;
-  };
-
-  /**
-   * The byte path for files without quotes, or null when the mapping uses a column in two ways that it does not
-   * handle (a numeric predictor also mapped as something else). `row` answers -1 when the string path must decide.
-   */
-  type Meaning = { y: number; date: string | null; cat: string[]; sub: (string | null)[] };
-  const plainPlan = () => {
-    const numeric = preds.map((p, k) => ({ p, k })).filter(({ p }) => p.numeric);
-    const labelled = mappedIdx.filter((i) => !numericIdx.has(i));
-    if (numeric.some(({ p }) => labelled.includes(p.idx) || numeric.filter((n) => n.p.idx === p.idx).length > 1)) return null;
-    const known = labelled.map(() => new KnownCells<Meaning>());
-    const found: (Meaning | undefined)[] = new Array(labelled.length);
-    // Where each use of a labelled column takes its value from (its position in `labelled`).
-    const catFrom = catPreds.map((p) => labelled.indexOf(p.idx));
-    const subFrom = subs.map((s) => labelled.indexOf(s.idx));
-    const yFrom = labelled.indexOf(outcomeIdx);
-    const dateFrom = dateIdx >= 0 ? labelled.indexOf(dateIdx) : -1;
-    return {
-      row(bytes: Buffer, start: Int32Array, end: Int32Array, line: number): number {
-        for (let j = 0; j < numeric.length; j++) {
-          const { p, k } = numeric[j];
-          const s = start[p.idx], e = end[p.idx];
-          const x = plainNumber(bytes, s, e);
-          if (x !== x) return -1;
-          // Shorter cells cannot match an identifier pattern and a leading digit is never formula-like (deidentify.ts).
-          if ((e - s >= 5 || bytes[s] === 45) && judge(bytes.toString('latin1', s, e)) !== CLEAN) return -1;
-          if (x < p.min || x > p.max || (p.positiveOnly && x <= 0) || (p.age && x > 89)) return -1;
-          numVals[slot[k]] = x;
-        }
-        for (let j = 0; j < labelled.length; j++) {
-          const c = known[j].find(bytes, start[labelled[j]], end[labelled[j]]);
-          if (c === undefined) return -1;
-          found[j] = c.meaning;
-        }
-        rowsRead++;
-        for (let m = 0; m < catFrom.length; m++) catVals[m] = found[catFrom[m]]!.cat[m];
-        for (let m = 0; m < subFrom.length; m++) subVals[m] = found[subFrom[m]]!.sub[m];
-        const date = dateFrom >= 0 ? found[dateFrom]!.date : null;
-        return accept(line, found[yFrom]!.y, date);
-      },
-      /** After the string path accepted a row: its labelled cells are remembered with what they meant. */
-      learn(bytes: Buffer, start: Int32Array, end: Int32Array) {
-        for (let j = 0; j < labelled.length; j++) {
-          const i = labelled[j];
-          if (known[j].find(bytes, start[i], end[i])) continue;
-          known[j].add(bytes, start[i], end[i], {
-            y: i === outcomeIdx ? lastY : -1,
-            date: i === dateIdx ? lastDate : null,
-            cat: catPreds.map((p, m) => (p.idx === i ? catVals[m] : '')),
-            sub: subs.map((s, m) => (s.idx === i ? subVals[m] : null)),
-          });
-        }
-      },
-    };
   };
 
   let first = true;
@@ -391,65 +356,24 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     lastProgress = rowsRead;
     sink.progress(Math.min(0.99, bytesRead / Math.max(1, input.totalBytes)), rowsRead, rejectedRows);
   };
-  const plain = input.plain ?? (await isPlainCsv(input.path));
-  const batches = plain ? null : csvBatches(input.path, input.delimiter, (b) => (bytesRead = b));
-  const chunks = plain ? plainByteChunks(input.path, (b) => (bytesRead = b)) : null;
+  const batches = csvBatches(input.path, input.delimiter, (b) => (bytesRead = b));
   try {
-    if (chunks) {
-      // A file without quotes: one record per line, its cells found in the bytes. A row whose mapped cells are all
-      // plain numbers within range or cells the string path has already accepted in that column (plainCells.ts) is
-      // taken without making a string; any other row is decoded and goes through checkRow like a row of any file.
-      const ncols = headers.length;
-      const delimiter = input.delimiter.charCodeAt(0);
-      const cellStart = new Int32Array(ncols);
-      const cellEnd = new Int32Array(ncols);
-      const fast = plainPlan();
-      outer: for await (const bytes of chunks) {
-        let pos = 0;
-        const len = bytes.length;
-        while (pos < len) {
-          const nl = bytes.indexOf(0x0a, pos);
-          const stop = nl === -1 ? len : nl;
-          const end = stop > pos && bytes[stop - 1] === 0x0d ? stop - 1 : stop;
-          const line = nextLine++;
-          const start = pos;
-          pos = stop + 1;
-          if (end === start) continue; // an empty line
-          if (first) { first = false; continue; }
-          let cols = 0;
-          let cell = start;
-          for (let i = start; i < end; i++) {
-            if (bytes[i] !== delimiter) continue;
-            if (cols < ncols) { cellStart[cols] = cell; cellEnd[cols] = i; }
-            cols++;
-            cell = i + 1;
-          }
-          if (cols < ncols) { cellStart[cols] = cell; cellEnd[cols] = end; }
-          cols++;
-          const whole = cols === ncols && fast !== null;
-          let r = whole ? fast.row(bytes, cellStart, cellEnd, line) : -1;
-          if (r < 0) {
-            const before = accepted;
-            r = checkRow(bytes.toString('utf8', start, end).split(input.delimiter), line);
-            if (whole && accepted > before) fast.learn(bytes, cellStart, cellEnd);
-          }
-          if (r === STOP) break outer;
-          if (r === FLUSH) await sink.rows(writer.flush());
-        }
-        progress();
+    outer: for await (const records of batches) {
+      for (const record of records) {
+        const line = nextLine;
+        nextLine += records.quoted ? 1 + extraLines(record) : 1;
+        if (isEmptyRecord(record)) continue;
+        if (first) { first = false; continue; }
+        const r = checkRow(record, line);
+        if (r === STOP) break outer;
+        if (r === FLUSH) await sink.rows(writer.flush());
       }
-    } else {
-      outer: for await (const records of batches!) {
-        for (const record of records) {
-          const line = nextLine;
-          nextLine += 1 + extraLines(record);
-          if (isEmptyRecord(record)) continue;
-          if (first) { first = false; continue; }
-          const r = checkRow(record, line);
-          if (r === STOP) break outer;
-          if (r === FLUSH) await sink.rows(writer.flush());
-        }
-        progress();
+      progress();
+    }
+    // A value shaped like a person's name in fewer than three rows of its column is taken for a name.
+    for (let j = 0; j < mappedIdx.length && !refusal; j++) {
+      for (const { count, line } of names[j].values()) {
+        if (count < 3) { refusal = { column: headers[mappedIdx[j]], category: 'names', reason: `holds a value that looks like a personal name in fewer than three rows (line ${line}); merge rare levels or remove names` }; break; }
       }
     }
     if (!refusal) {
@@ -457,8 +381,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
       await sink.rows(writer.end());
     }
   } finally {
-    await batches?.return(undefined);
-    await chunks?.return(undefined);
+    await batches.return(undefined);
   }
   return {
     refusal, rowsRead, accepted, rejectedRows, events,

@@ -79,9 +79,9 @@ export function checkInThread(data: UploadWorkerData, onProgress: Job['onProgres
 }
 
 /** The first look at a received file (encoding, delimiter, header, sample, identifier screen) in a thread. */
-export function screenInThread(path: string, plain?: boolean): Promise<ScreenAnswer | Extract<UploadWorkerMessage, { type: 'error' }>> {
+export function screenInThread(path: string): Promise<ScreenAnswer | Extract<UploadWorkerMessage, { type: 'error' }>> {
   return new Promise((resolve) => {
-    queue.push({ jobId: nextJobId++, data: { kind: 'screen', path, plain }, onProgress: () => {}, resolve: resolve as Job['resolve'] });
+    queue.push({ jobId: nextJobId++, data: { kind: 'screen', path }, onProgress: () => {}, resolve: resolve as Job['resolve'] });
     pump();
   });
 }

@@ -14,7 +14,8 @@ import type { AuthUser } from '../middleware/auth';
 import type { UploadWorkerData } from '../workers/uploadWorker';
 import { appendAudit } from './audit';
 import type { Delimiter } from './csvFile';
-import { neutraliseCell } from './deidentify';
+import { csvRecords } from '@shared/csv';
+import { maskPreview } from './deidentify';
 import { checkInThread, screenInThread, warmUploadThreads } from './uploadThreads';
 import type { RequiredPredictor } from './uploadCheck';
 import { logger } from '../observability/log';
@@ -31,8 +32,6 @@ export interface ReceivedFile {
   originalName: string;
   sha256: string;
   bytes: number;
-  /** Found while receiving: no quote and no lone CR (the row checks then read it line by line). Absent: read to find out. */
-  plain?: boolean;
 }
 
 
@@ -107,7 +106,7 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
       if (found.length) throw conflict(`a cohort named "${fields.cohortName}" exists; upload a new version of it instead (cohortId ${found[0].id})`);
     }
     // Parsing the sample and running the screen's patterns is CPU work: done in an upload thread, off the API's loop.
-    const looked = await screenInThread(file.path, file.plain);
+    const looked = await screenInThread(file.path);
     if (looked.type === 'refused-file') throw new HttpError(looked.status, looked.message, looked.details);
     if (looked.type === 'error') throw new Error(looked.message);
     const { delimiter, headers, sample, screen } = looked;
@@ -128,17 +127,16 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
     const suggested = suggestMapping(headers, sample, required);
     const [row] = await dataSource.query(
       `INSERT INTO cohort_uploads (status, cohort_id, cohort_name, score_version_id, label, period_start, period_end, source_filename, temp_path,
-         sha256, bytes, delimiter, headers, warnings, suggested_mapping, created_by, plain_text)
-       VALUES ('pending', $1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16) RETURNING id`,
+         sha256, bytes, delimiter, headers, warnings, suggested_mapping, created_by)
+       VALUES ('pending', $1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15) RETURNING id`,
       [fields.cohortId ?? null, fields.cohortId ? null : fields.cohortName, sv.id, fields.label ?? '', fields.periodStart ?? null, fields.periodEnd ?? null,
-        file.originalName.slice(0, 255), file.path, file.sha256, file.bytes, delimiter, JSON.stringify(headers), JSON.stringify(screen.warnings), JSON.stringify(suggested), actor.id,
-        file.plain ?? null],
+        file.originalName.slice(0, 255), file.path, file.sha256, file.bytes, delimiter, JSON.stringify(headers), JSON.stringify(screen.warnings), JSON.stringify(suggested), actor.id],
     );
     await appendAudit({
       actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.received', targetType: 'cohort_upload', targetId: row.id, sourceIp: ip,
       details: { filename: file.originalName, sha256: file.sha256, bytes: file.bytes, columns: headers.length },
     });
-    return { upload: await getUpload(row.id), preview: sample.slice(0, 5) };
+    return { upload: await getUpload(row.id), preview: maskPreview(headers, sample.slice(0, 5)) };
   } catch (err) {
     await removeQuietly(file.path);
     throw err;
@@ -152,7 +150,6 @@ interface UploadRow {
   mapping: ColumnMappingSpec | null; progress: number; rows_read: number; rows_accepted: number; rows_rejected: number; events: number;
   rejection_counts: { reason: string; count: number }[]; column_summary: Record<string, import('@shared/cohorts').ColumnSummary>; event_period: { min: string; max: string } | null;
   planned_version_id: string | null; cohort_version_id: string | null; error: string | null; created_by: string | null; created_at: Date;
-  plain_text: boolean | null;
 }
 
 async function uploadRow(id: string): Promise<UploadRow> {
@@ -235,6 +232,9 @@ export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnM
   return getUpload(id);
 }
 
+/** What a discarded or expired upload forgets besides its rows and rejections: everything summarised from the file's cells. */
+const FORGET_DERIVED = `column_summary = '{}', event_period = NULL, rejection_counts = '[]', suggested_mapping = NULL, progress = 0`;
+
 /** Staged rows of an upload that never became a cohort version (re-mapped, discarded, failed). */
 async function deleteStagedRows(plannedVersionId: string | null, m: { query: (q: string, p: unknown[]) => Promise<unknown> } = dataSource) {
   if (!plannedVersionId) return;
@@ -246,7 +246,7 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
   const r = await uploadRow(id);
   const data: UploadWorkerData = {
     uploadId: id, db: { ...config.db }, path: r.temp_path!, delimiter: r.delimiter, headers: r.headers, mapping,
-    predictors: requiredPredictors(sv), supplied: sv.mode === 'supplied', plannedVersionId, totalBytes: Number(r.bytes), plain: r.plain_text ?? undefined,
+    predictors: requiredPredictors(sv), supplied: sv.mode === 'supplied', plannedVersionId, totalBytes: Number(r.bytes),
   };
   let lastWrite = 0;
   let progressWrite: Promise<unknown> = Promise.resolve();
@@ -264,8 +264,10 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
     await removeQuietly(r.temp_path);
     await dataSource.transaction(async (m) => {
       await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
-      await m.query(`UPDATE cohort_uploads SET status = 'refused', temp_path = NULL, warnings = $2, error = $3, updated_at = now() WHERE id = $1`,
-        [id, JSON.stringify([refusal]), `refused by the de-identification screen: column "${refusal.column}" ${refusal.reason}; nothing was stored`]);
+      const error = refusal.column === '(file)' ? `the file was refused: ${refusal.reason}; nothing was stored`
+        : `refused by the de-identification screen: column "${refusal.column}" ${refusal.reason}; nothing was stored`;
+      await m.query(`UPDATE cohort_uploads SET status = 'refused', temp_path = NULL, warnings = $2, error = $3, column_summary = '{}', event_period = NULL, updated_at = now() WHERE id = $1`,
+        [id, JSON.stringify([refusal]), error]);
       await appendAudit({ action: 'cohort.upload.refused', actorId: r.created_by, targetType: 'cohort_upload', targetId: id, details: { columns: [{ column: refusal.column, category: refusal.category }] } }, m);
     });
     return;
@@ -331,7 +333,7 @@ export async function discardStaleUploads(keepDays = config.uploadKeepDays): Pro
     if (running.has(u.id)) continue;
     await dataSource.transaction(async (m) => {
       const [, changed] = await m.query(
-        `UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, updated_at = now() WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`, [u.id]);
+        `UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, ${FORGET_DERIVED}, updated_at = now() WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`, [u.id]);
       if (changed !== 1) return;
       await deleteStagedRows(u.planned_version_id, m);
       await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [u.id]);
@@ -406,11 +408,9 @@ export async function listRejections(id: string, page: number, pageSize: number)
   return { rejections: rows as { line: number; column: string; value: string; reason: string }[], total: n as number, page, pageSize };
 }
 
-const csvCell = (s: string) => (/[",\n\r;]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s);
-
 /** The rejected cells as CSV, formula-looking cells prefixed with an apostrophe so a spreadsheet shows them as text. */
 export async function* rejectionsCsv(id: string): AsyncGenerator<string> {
-  yield 'line,column,value,reason\n';
+  yield csvRecords([['line', 'column', 'value', 'reason']]);
   let after = -1;
   for (;;) {
     const rows: { line: number; column: string; value: string; reason: string }[] = await dataSource.query(
@@ -425,7 +425,7 @@ export async function* rejectionsCsv(id: string): AsyncGenerator<string> {
       const all = await dataSource.query(`SELECT line_no AS line, column_name AS column, value, reason FROM cohort_upload_rejections WHERE upload_id = $1 AND line_no = $2`, [id, lastLine]);
       page.push(...all);
     }
-    yield page.map((x) => [String(x.line), x.column, x.value, x.reason].map((c) => csvCell(neutraliseCell(c))).join(',')).join('\n') + '\n';
+    yield csvRecords(page.map((x) => [x.line, x.column, x.value, x.reason]));
     after = page[page.length - 1].line;
   }
 }
@@ -514,7 +514,7 @@ export async function discardUpload(actor: AuthUser, id: string, ip: string) {
     if (locked.status === 'processing') throw conflict('this upload is being checked again; discard it when the check ends');
     await deleteStagedRows(locked.planned_version_id, m);
     await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
-    await m.query(`UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, updated_at = now() WHERE id = $1`, [id]);
+    await m.query(`UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, ${FORGET_DERIVED}, updated_at = now() WHERE id = $1`, [id]);
     await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.discarded', targetType: 'cohort_upload', targetId: id, sourceIp: ip }, m);
     return locked.temp_path;
   });

@@ -9,6 +9,7 @@
  * Pure: columns come in as arrays of text (as read from a CSV), no I/O.
  */
 import type { Predictor, ScoreModel } from '@shared/model';
+import { parseDecimal } from '@shared/decimal';
 
 export type ApplyResult = { ok: true; p: Float64Array; linearPredictor: Float64Array } | { ok: false; row: number; column: string; message: string };
 
@@ -25,8 +26,8 @@ export function rcsTerm(x: number, knots: readonly number[], term: number): numb
 function predictorValue(pred: Predictor, text: string | undefined, row: number): number | string {
   if (pred.transform === 'indicator') return text?.trim() === pred.level ? 1 : 0;
   if (text === undefined || text.trim() === '') return `row ${row}: column ${pred.column} is empty`;
-  const x = Number(text);
-  if (!Number.isFinite(x)) return `row ${row}: column ${pred.column} is not a number (${JSON.stringify(text)})`;
+  const x = parseDecimal(text);
+  if (!Number.isFinite(x)) return `row ${row}: column ${pred.column} is not a decimal number (${JSON.stringify(text)})`;
   switch (pred.transform) {
     case 'linear':
       return x;

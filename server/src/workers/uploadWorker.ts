@@ -11,7 +11,7 @@ import { from as copyFrom } from 'pg-copy-streams';
 import type { ScreenFinding } from '@shared/cohorts';
 import { BLOCK_ROWS, COPY_BLOCKS_SQL } from '../services/cohortBlocks';
 import { HttpError } from '../middleware/errors';
-import { readHeaderAndSample, sniffCsv, type Delimiter } from '../services/csvFile';
+import { CsvBytesError, csvText, readHeaderAndSample, sniffCsv, type Delimiter } from '../services/csvFile';
 import { screenColumns, type ScreenResult } from '../services/deidentify';
 import { checkUploadRows, type CheckInput, type Rejection } from '../services/uploadCheck';
 import { lowerDatabaseSessionPriority, lowerThisThreadPriority } from './threadPriority';
@@ -26,8 +26,6 @@ export interface UploadWorkerData extends CheckInput {
 export interface ScreenJob {
   kind: 'screen';
   path: string;
-  /** Known from receiving the file: no quote and no lone CR (the sample is then read line by line). */
-  plain?: boolean;
 }
 
 export type ScreenAnswer =
@@ -72,9 +70,11 @@ async function copyRejections(client: pg.Client, uploadId: string, rejections: R
 
 const MAX_UPLOAD_COLUMNS = config.uploadMaxColumns;
 
-async function screen(path: string, plain?: boolean): Promise<ScreenAnswer> {
+async function screen(path: string): Promise<ScreenAnswer> {
   const { delimiter } = await sniffCsv(path);
-  const { headers, sample } = await readHeaderAndSample(path, delimiter, 5000, plain === true);
+  // Every byte of the file is text before anything of it is kept (csvText throws naming the line).
+  for await (const piece of csvText(path)) void piece;
+  const { headers, sample } = await readHeaderAndSample(path, delimiter, 5000);
   // A registry extract has tens of columns; thousands means a wrong file (or a hostile one) — refuse before storing anything.
   if (headers.length > MAX_UPLOAD_COLUMNS) throw new HttpError(422, `the file has ${headers.length} columns; at most ${MAX_UPLOAD_COLUMNS} are accepted`);
   return { type: 'screened', delimiter, headers, sample, screen: screenColumns(headers, sample) };
@@ -118,13 +118,15 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
     post({ type: 'checked', rowsRead: result.rowsRead, accepted: result.accepted, rejectedRows: result.rejectedRows });
   } catch (err) {
     await client.query('ROLLBACK').catch(() => undefined);
+    // Bytes that are not UTF-8 text refuse the file, like an identifier does (nothing of it is kept).
+    if (err instanceof CsvBytesError) { post({ type: 'refused', refusal: { column: '(file)', category: 'not text', reason: err.message } }); return; }
     throw err;
   } finally {
     await client.end().catch(() => undefined);
   }
 }
 
-/** An error from pg carries a SQLSTATE and a severity; anything else is about the file (csv-parse, reading). */
+/** An error from pg carries a SQLSTATE and a severity; anything else is about the file (parsing, reading). */
 function failure(err: Error): Extract<UploadWorkerMessage, { type: 'error' }> {
   const database = typeof (err as { severity?: unknown }).severity === 'string' || /^[0-9A-Z]{5}$/.test(String((err as { code?: unknown }).code ?? ''));
   return { type: 'error', message: (err?.message ?? String(err)).split('\n')[0], database };
@@ -138,7 +140,7 @@ if (port) {
   port.on('message', (job: { jobId: number; data: UploadWorkerData | ScreenJob }) => {
     const post = (m: UploadWorkerMessage | ScreenAnswer) => port.postMessage({ jobId: job.jobId, message: m });
     if ('kind' in job.data) {
-      screen(job.data.path, job.data.plain).then(post, (err: Error) => post(err instanceof HttpError
+      screen(job.data.path).then(post, (err: Error) => post(err instanceof HttpError
         ? { type: 'refused-file', status: err.status, message: err.message, details: err.details }
         : failure(err)));
       return;

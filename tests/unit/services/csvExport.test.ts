@@ -1,15 +1,17 @@
 // CSV export: formula neutralisation (OWASP "CSV Injection") and RFC 4180 quoting, read back by an independent parser.
-import { parse } from 'csv-parse/sync';
+import Papa from 'papaparse';
 import { execFileSync } from 'node:child_process';
 import { describe, expect, it } from 'vitest';
-import { csvCell, neutraliseFormula, toCsv } from '../../../server/src/services/csvExport';
+import { csvCellText, csvRecords, neutraliseFormula, toCsv, type CsvCell } from '../../../server/src/services/csvExport';
+
+const csvCell = (v: CsvCell) => csvRecords([[v]]).replace(/\r\n$/, '');
 
 describe('neutraliseFormula', () => {
   // The trigger characters are the ones OWASP lists for CSV injection: = + - @ tab CR.
-  it.each(['=1+1', '+1', '-1+2', '@SUM(A1)', '\tx', '\rx', '=HYPERLINK("http://x","y")', "=cmd|' /C calc'!A0"])('prefixes %j with a quote', (text) => {
+  it.each(['=1+1', '+cmd', '-1+2', '@SUM(A1)', '\tx', '\rx', '=HYPERLINK("http://x","y")', "=cmd|' /C calc'!A0", ' =not first', '  +1+1'])('prefixes %j with a quote', (text) => {
     expect(neutraliseFormula(text)).toBe(`'${text}`);
   });
-  it.each(['plain', '', ' =not first', '1=1', "'already", 'a-b', 'Birch'])('leaves %j alone', (text) => {
+  it.each(['plain', '', '1=1', "'already", 'a-b', 'Birch', '-3.6', '+1', '-0.5e2'])('leaves %j alone (text, or a plain number)', (text) => {
     expect(neutraliseFormula(text)).toBe(text);
   });
 });
@@ -22,6 +24,7 @@ describe('csvCell', () => {
     expect(csvCell(null)).toBe('');
     expect(csvCell(undefined)).toBe('');
     expect(csvCell(true)).toBe('true');
+    expect(csvCellText(-0.25)).toBe('-0.25');
   });
   it('quotes commas, quotes and line breaks as RFC 4180 §2.6–2.7 says', () => {
     expect(csvCell('a,b')).toBe('"a,b"');
@@ -45,10 +48,10 @@ const hostile = [
 ];
 
 describe('toCsv', () => {
-  it('round-trips through csv-parse with every dangerous cell neutralised', () => {
+  it('round-trips through papaparse (the one reader) with every dangerous cell neutralised', () => {
     const text = toCsv(['a', 'b', 'c', 'd'], hostile);
     expect(text.endsWith('\r\n')).toBe(true);
-    const back = parse(text, { columns: false, relax_column_count: false }) as string[][];
+    const back = Papa.parse<string[]>(text, { skipEmptyLines: true }).data;
     expect(back[0]).toEqual(['a', 'b', 'c', 'd']);
     expect(back).toHaveLength(4);
     for (const [i, row] of hostile.entries()) {

@@ -1,6 +1,6 @@
 // The command line as a person runs it: a child process on a small generated CSV.
 import { execFileSync, spawnSync } from 'node:child_process';
-import { mkdtempSync, writeFileSync } from 'node:fs';
+import { chmodSync, mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
@@ -42,5 +42,63 @@ describe('plumbline validate', () => {
     const r = cli(['validate', '--csv', good, '--outcome', 'dead', '--prediction', 'risk']);
     expect(r.status).toBe(1);
     expect(r.stderr).toMatch(/line 1, column dead: no such column/);
+  });
+});
+
+describe('plumbline validate: one-line errors and cautions', () => {
+  const oneLine = (r: ReturnType<typeof cli>) => {
+    expect(r.status, r.stderr).toBe(1);
+    expect(r.stderr.trim().split('\n'), r.stderr).toHaveLength(1);
+    expect(r.stderr).not.toMatch(/\bat .*\.(ts|js):\d+/); // no stack trace
+    return r.stderr;
+  };
+  const file = (name: string, text: string) => { const f = join(dir, name); writeFileSync(f, text); return f; };
+
+  it('a missing file and a folder', () => {
+    expect(oneLine(cli(['validate', '--csv', join(dir, 'nope.csv'), '--outcome', 'died', '--prediction', 'risk']))).toMatch(/nope\.csv: file not found/);
+    expect(oneLine(cli(['validate', '--csv', dir, '--outcome', 'died', '--prediction', 'risk']))).toMatch(/is a folder, not a CSV file/);
+  });
+  // root reads any file whatever its mode, so this can only be shown as another user.
+  it.skipIf(process.getuid?.() === 0)('an unreadable file', () => {
+    const f = file('locked.csv', 'risk,died\n0.2,0\n');
+    chmodSync(f, 0o000);
+    expect(oneLine(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']))).toMatch(/cannot be read \(permission denied\)/);
+  });
+  it('a duplicated column name', () => {
+    const f = file('dup.csv', 'died,risk,risk\n0,0.2,0.3\n1,0.4,0.5\n');
+    expect(oneLine(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']))).toMatch(/line 1, column risk: this column name appears more than once/);
+  });
+  it.each(['0b1', '0x10', '1e-1', 'Infinity', '.5.5'])('a risk written as %s', (form) => {
+    const f = file(`form-${form}.csv`, `died,risk\n0,0.2\n1,${form}\n`);
+    expect(oneLine(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']))).toMatch(/line 3, column risk: predicted probability is not a decimal number/);
+  });
+  it('bytes that are not UTF-8 text', () => {
+    const f = join(dir, 'latin1.csv');
+    writeFileSync(f, Buffer.from('died,risk\n0,0.2\n1,0.3\xe9\n', 'latin1'));
+    expect(oneLine(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']))).toMatch(/not valid UTF-8.*line 3/);
+  });
+  it('a small cohort gets a caution naming the minimum and its source, in the table and the JSON', () => {
+    const f = file('tiny.csv', 'died,risk\n0,0.2\n1,0.7\n0,0.1\n');
+    const table = cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk', '--format', 'table']);
+    expect(table.status, table.stderr).toBe(0);
+    expect(table.stdout.split('\n')[0]).toMatch(/^Caution: small sample: 1 event\(s\) and 2 non-event\(s\), below the minimum of 100 of each \(Vergouwe/);
+    const json = JSON.parse(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']).stdout);
+    expect(json.warnings[0]).toMatch(/small sample/);
+    const big = JSON.parse(execFileSync('npx', ['tsx', 'server/src/cli/main.ts', 'validate', '--csv', good, '--outcome', 'died', '--prediction', 'risk'], { encoding: 'utf8' }));
+    expect(big.events).toBeLessThan(100); // the 200-row file is short of events too
+    expect(big.warnings.some((w: string) => /small sample/.test(w))).toBe(true);
+  });
+  it('the table shows no AUC bound outside [0, 1] and says why when DeLong reached past it', () => {
+    const lines = ['died,risk'];
+    const y = [0, 0, 0, 1, 0, 1, 1, 1, 1, 1];
+    y.forEach((v, i) => lines.push(`${v},${(i + 1) / 11}`));
+    const f = file('edge.csv', lines.join('\n') + '\n');
+    const json = JSON.parse(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']).stdout);
+    expect(json.auc.upper).toBeGreaterThan(1); // the untruncated interval does reach past 1 on this file
+    const table = cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk', '--format', 'table']).stdout;
+    const aucLine = table.split('\n').find((l) => l.startsWith('AUC'))!;
+    for (const x of aucLine.match(/\d+\.\d+/g)!.map(Number)) expect(x).toBeLessThanOrEqual(1);
+    expect(aucLine).toContain('†');
+    expect(table).toMatch(/† DeLong's interval .* truncated to \[0, 1\]/);
   });
 });

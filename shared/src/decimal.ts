@@ -1,0 +1,14 @@
+// Numbers in files Plumbline reads (uploads, the command line) are written in plain decimal notation.
+
+const DECIMAL = /^[+-]?(\d+\.?\d*|\.\d+)$/;
+
+/**
+ * The value of a cell in decimal notation (optional sign, digits, optional fraction; spaces around are ignored), or
+ * NaN. JavaScript's Number() also reads 0x10, 0b1, 0o7, 1e3 and Infinity; a clinical extract never means those, and
+ * "0b1" read as 1 would be a risk of 100 %, so they are refused rather than guessed.
+ */
+export function parseDecimal(text: string | undefined): number {
+  if (text === undefined) return NaN;
+  const v = text.length > 0 && (text.charCodeAt(0) === 32 || text.charCodeAt(text.length - 1) === 32) ? text.trim() : text;
+  return DECIMAL.test(v) ? Number(v) : NaN;
+}
