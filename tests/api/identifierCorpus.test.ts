@@ -18,7 +18,7 @@ import { requiredPredictors, whenProcessed } from '../../server/src/services/upl
 import { csvText, readHeaderAndSample, sniffCsv } from '../../server/src/services/csvFile';
 import { screenColumns } from '../../server/src/services/deidentify';
 import { checkUploadRows } from '../../server/src/services/uploadCheck';
-import { FIXTURE_MODEL } from '../helpers/fixtures';
+import { createScoreFixture, FIXTURE_MODEL } from '../helpers/fixtures';
 import { app, bearer, dataSource, tokenFor, useDatabase } from '../helpers/api';
 
 useDatabase();
@@ -30,13 +30,7 @@ let versionId = '';
 let token = '';
 
 beforeAll(async () => {
-  const [s] = await dataSource.query(
-    `INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
-     VALUES ($1, 'readmission', '30 days', 'adults', 'invented for tests', 'not medical advice') RETURNING id`,
-    [`Corpus test score ${run}`],
-  );
-  const [v] = await dataSource.query(`INSERT INTO score_versions (score_id, version, mode, model) VALUES ($1, 1, 'formula', $2) RETURNING id`, [s.id, JSON.stringify(FIXTURE_MODEL)]);
-  versionId = v.id;
+  versionId = (await createScoreFixture({ name: `Corpus test score ${run}` })).scoreVersionId;
   token = await tokenFor('steward');
 });
 

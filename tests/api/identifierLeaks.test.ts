@@ -8,7 +8,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
 import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
 import { discardStaleUploads, whenProcessed } from '../../server/src/services/uploads';
-import { FIXTURE_MODEL } from '../helpers/fixtures';
+import { createScoreFixture, FIXTURE_MODEL } from '../helpers/fixtures';
 import { app, bearer, countRows, dataSource, tokenFor, useDatabase } from '../helpers/api';
 
 useDatabase();
@@ -19,13 +19,7 @@ const run = `${Date.now()}`;
 let versionId = '';
 
 beforeAll(async () => {
-  const [s] = await dataSource.query(
-    `INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
-     VALUES ($1, 'readmission', '30 days', 'adults', 'invented for tests', 'not medical advice') RETURNING id`,
-    [`Leak test score ${run}`],
-  );
-  const [v] = await dataSource.query(`INSERT INTO score_versions (score_id, version, mode, model) VALUES ($1, 1, 'formula', $2) RETURNING id`, [s.id, JSON.stringify(FIXTURE_MODEL)]);
-  versionId = v.id;
+  versionId = (await createScoreFixture({ name: `Leak test score ${run}` })).scoreVersionId;
 });
 
 const lines = (n: number, seed = 3) => [...kestrelQuarterCsv({ year: 2025, quarter: 2, index: 5, n, seed })];
