@@ -86,7 +86,7 @@ describe('an upload check cut off by a database outage', () => {
 
     cluster.stop('immediate');
     // The check fails with the database, and so does the first try to record that.
-    await waitFor('the check to fail on the outage', () => server.output.includes(`checking upload ${id} failed`), 60_000);
+    await waitFor('the check to fail on the outage', () => server.output.split('\n').some((line) => line.includes('checking an upload failed') && line.includes(id)), 60_000);
     await waitFor('the failure record to wait for the database', () => server.output.includes('trying again until the database answers'), 30_000);
 
     cluster.start();
