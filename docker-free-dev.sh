@@ -3,6 +3,7 @@
 #   ./docker-free-dev.sh          install what is missing, start PostgreSQL on loopback, migrate, seed the demo (into an empty database, once), serve the app
 #   ./docker-free-dev.sh test     the same on a throwaway cluster, then the whole test suite
 #   ./docker-free-dev.sh db       only start the dev database (migrated, seeded) and leave it running; stop-db stops it
+#   ./docker-free-dev.sh test-db  only start the test cluster and leave it running, for one test file at a time; stop-test-db stops it
 # Settings: PORT (app, default 3000), PLUMBLINE_PGPORT (dev database, default 54329; the test cluster uses +1),
 #           SMTP_PORT (local fake mail server, default 2525).
 set -euo pipefail
@@ -130,6 +131,17 @@ case "$MODE" in
     PGDATA_DIR="$DATA_ROOT/pg"
     stop_cluster
     ;;
+  test-db)
+    # The test cluster alone, left running: prints the settings for `npx vitest run --project api <file>`.
+    start_cluster pg-test "$((DEV_PGPORT + 1))"
+    ensure_database plumbline_test
+    log "run one file with:"
+    echo "PGHOST=127.0.0.1 PGPORT=$PGPORT PGUSER=postgres PGDATABASE=plumbline_test PLUMBLINE_TEST=1 PORT=${TEST_APP_PORT:-3100} SMTP_PORT=${TEST_SMTP_PORT:-2625} PLUMBLINE_BCRYPT_COST=10 PLUMBLINE_UPLOAD_DIR=$DATA_ROOT/uploads-test npx vitest run --project api <file>"
+    ;;
+  stop-test-db)
+    PGDATA_DIR="$DATA_ROOT/pg-test"
+    stop_cluster
+    ;;
   test)
     export CI=${CI:-}
     TEST_PGPORT=$((DEV_PGPORT + 1))
@@ -150,7 +162,7 @@ case "$MODE" in
     bash server/scripts/run-tests.sh
     ;;
   *)
-    echo "usage: $0 [dev|test]" >&2
+    echo "usage: $0 [dev|test|db|stop-db|test-db|stop-test-db]" >&2
     exit 2
     ;;
 esac
