@@ -8,6 +8,7 @@ export type MatrixAccess = 'public' | 'signed-in' | readonly Role[];
 
 export const accessMatrix: Record<string, MatrixAccess> = {
   'GET /api/health': 'public',
+  'GET /api/openapi.json': 'public',
   'GET /api/metrics': 'public',
   'POST /api/auth/login': 'public',
   'GET /api/auth/me': 'signed-in',

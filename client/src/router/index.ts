@@ -48,6 +48,7 @@ export const router = createRouter({
     { path: '/cohorts', name: 'cohorts', component: () => import('@/views/CohortListView.vue'), meta: { roles: ['steward', 'statistician', 'chair', 'admin'], title: 'Cohorts' } },
     { path: '/cohorts/upload', name: 'cohort-upload', component: () => import('@/views/CohortUploadView.vue'), meta: { roles: ['steward', 'statistician'], title: 'Upload cohort' } },
     { path: '/cohorts/:id', name: 'cohort', component: () => import('@/views/CohortDetailView.vue'), meta: { roles: ['steward', 'statistician', 'chair', 'admin'], title: 'Cohort' } },
+    { path: '/api-reference', name: 'api-reference', component: () => import('@/views/ApiReferenceView.vue'), meta: { public: true, title: 'API reference' } },
     { path: '/forbidden', name: 'forbidden', component: () => import('@/views/ForbiddenView.vue'), meta: { title: 'Not allowed' } },
     { path: '/:pathMatch(.*)*', name: 'not-found', component: () => import('@/views/NotFoundView.vue'), meta: { title: 'Page not found' } },
   ],

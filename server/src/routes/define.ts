@@ -16,6 +16,8 @@ export interface RouteDef {
   body?: ZodType;
   query?: ZodType;
   params?: ZodType;
+  /** For a multipart upload: the form field that carries the file (described in /api/openapi.json). */
+  multipartFile?: string;
   /** Middleware that must run before validation (e.g. a multipart upload parser). */
   before?: RequestHandler[];
   handler: RequestHandler;

@@ -16,6 +16,8 @@ import type { RouteDef } from './define';
 import * as drift from './drift';
 import * as governance from './governance';
 import * as health from './health';
+import { serveOpenApi } from './openapi';
+import packageJson from '../../../package.json';
 import * as runs from './runs';
 import * as scores from './scores';
 import * as users from './users';
@@ -42,6 +44,7 @@ const loginLimiter = rateLimit({
 
 export const routes: RouteDef[] = [
   { method: 'get', path: '/api/health', access: 'public', summary: 'service, database and background queue status', handler: health.health },
+  { method: 'get', path: '/api/openapi.json', access: 'public', summary: 'this API described as OpenAPI 3.1 (generated from this table)', handler: serveOpenApi(() => routes, packageJson.version) },
   { method: 'get', path: '/api/metrics', access: 'public', summary: 'Prometheus metrics (scrape token when PLUMBLINE_METRICS_TOKEN is set)', handler: health.metrics },
 
   { method: 'post', path: '/api/auth/login', access: 'public', summary: 'sign in', body: loginRequest, before: [loginLimiter], handler: auth.login },
@@ -76,7 +79,7 @@ export const routes: RouteDef[] = [
   { method: 'get', path: '/api/runs/:id/report', access: ['statistician', 'chair', 'admin'], summary: 'the validation report bundle of a run', params: idParam, handler: governance.report },
   { method: 'get', path: '/api/dev/outbox', access: ADMIN, summary: 'development only: e-mails received by the local fake SMTP server', handler: governance.devOutbox },
   // Cohorts: uploads are screened, mapped, checked, then stored in one transaction (services/uploads.ts).
-  { method: 'post', path: '/api/cohorts', access: COHORT_WRITERS, summary: 'upload a CSV (multipart, field "file"); screened for identifiers before anything is kept', before: [cohorts.receiveFile], handler: cohorts.createUpload },
+  { method: 'post', path: '/api/cohorts', access: COHORT_WRITERS, summary: 'upload a CSV (multipart, field "file"); screened for identifiers before anything is kept', multipartFile: 'file', before: [cohorts.receiveFile], handler: cohorts.createUpload },
   { method: 'get', path: '/api/cohorts', access: COHORT_READERS, summary: 'list cohorts (paged, sorted, searched on the server)', query: cohortListQuery, handler: cohorts.listCohorts },
   { method: 'get', path: '/api/cohorts/:id', access: COHORT_READERS, summary: 'a cohort with its versions', params: uuidParam, handler: cohorts.getCohort },
   { method: 'get', path: '/api/cohorts/:id/versions/:version', access: COHORT_READERS, summary: 'one cohort version with its column summary', params: versionParams, handler: cohorts.getVersion },
