@@ -3,22 +3,12 @@
  * Both come from the regularized incomplete gamma function Q(a, x):
  *   P(|Z| > z) = Q(1/2, z²/2);  P(χ²_df > x) = Q(df/2, x/2).
  * Source: Press WH et al. (2007) Numerical Recipes, 3rd ed., §6.2 (series for x < a+1, Lentz continued fraction otherwise);
- * log-gamma by the Lanczos approximation (g = 7, n = 9), ibid. §6.1.
+ * log-gamma from simple-statistics (gammaln).
  */
+import { gammaln } from 'simple-statistics';
 
-const LANCZOS = [
-  0.99999999999980993, 676.5203681218851, -1259.1392167224028, 771.32342877765313, -176.61502916214059,
-  12.507343278686905, -0.13857109526572012, 9.9843695780195716e-6, 1.5056327351493116e-7,
-];
-
-export function logGamma(x: number): number {
-  if (x < 0.5) return Math.log(Math.PI / Math.sin(Math.PI * x)) - logGamma(1 - x);
-  const z = x - 1;
-  let a = LANCZOS[0];
-  const t = z + 7.5;
-  for (let i = 1; i < 9; i++) a += LANCZOS[i] / (z + i);
-  return 0.5 * Math.log(2 * Math.PI) + (z + 0.5) * Math.log(t) - t + Math.log(a);
-}
+/** ln Γ(x) for x > 0: simple-statistics' gammaln (checked against R's lgamma in tests/reference/statsLibrary.test.ts). */
+export const logGamma = (x: number): number => gammaln(x);
 
 /** Regularized upper incomplete gamma Q(a, x) = Γ(a, x)/Γ(a). */
 export function gammaQ(a: number, x: number): number {

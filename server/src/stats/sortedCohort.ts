@@ -5,6 +5,7 @@
  * an index sort with a comparator) and merged; the merge yields the individual order and the tie groups
  * (one entry per distinct p with its event and non-event counts), so ties are handled exactly once, here.
  */
+import { quantileSorted } from 'simple-statistics';
 
 export interface SortedCohort {
   n: number;
@@ -115,13 +116,12 @@ export function sortNonNegative(a: Float64Array): void {
   if (src !== a) a.set(src);
 }
 
-/** Quantile of sorted data, R's type 7 (linear interpolation between order statistics). */
+/**
+ * Quantile of sorted data, R's type 7 (linear interpolation between order statistics): simple-statistics'
+ * quantileSorted, which is type 7 (equal to R's quantile(type = 7) in tests/reference/statsLibrary.test.ts).
+ */
 export function quantileType7(sorted: ArrayLike<number>, prob: number): number {
-  const n = sorted.length;
-  const h = (n - 1) * prob;
-  const lo = Math.floor(h);
-  const hi = Math.min(lo + 1, n - 1);
-  return sorted[lo] + (h - lo) * (sorted[hi] - sorted[lo]);
+  return quantileSorted(sorted as number[], prob);
 }
 
 /** Quantile of sorted data, R's type 2 (inverse empirical CDF, averaging at discontinuities). */
