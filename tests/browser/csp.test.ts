@@ -1,5 +1,5 @@
 // The content-security policy, checked where it matters: in Chromium, against the built client. Each page a user
-// reaches (sign-in, a run page, the score cards, a drift timeline, the upload page) must load and draw without one
+// reaches (sign-in, a run page, the score cards, a drift timeline, the API reference, the upload page) must load and draw without one
 // `securitypolicyviolation` event and without a CSP message on the console, and the policy itself must keep scripts
 // to the app's own files (no 'unsafe-inline', no 'unsafe-eval', no inline event-handler attributes).
 // A control case injects an inline script into a loaded page: it must be blocked and reported, which shows the
@@ -93,6 +93,14 @@ const pages = () => [
     ready: async (p: Page) => {
       await p.getByRole('heading', { name: `Drift over time: ${KESTREL_SCORE_NAME} v2` }).waitFor();
       await p.getByRole('img', { name: 'Risk-adjusted CUSUM chart' }).waitFor();
+    },
+  },
+  {
+    name: 'the API reference',
+    path: '/api-reference',
+    ready: async (p: Page) => {
+      await p.getByRole('heading', { level: 1, name: 'API reference' }).waitFor();
+      await p.getByRole('heading', { level: 2, name: '/api/runs' }).waitFor();
     },
   },
   { name: 'the upload page', path: '/cohorts/upload', ready: (p: Page) => p.getByRole('heading', { level: 1, name: 'Upload a cohort' }).waitFor() },
