@@ -5,7 +5,7 @@ import { config } from '../config';
 import { startJobs, JOB, type JobHandler, type JobName } from './jobs';
 import { mailJob } from './mail';
 import { startWidthsWarmUp } from './precisionThread';
-import { driftRulesJob, interruptRuns, resumeRuns, runAbandonedJob, runJob } from './runs';
+import { driftRulesJob, interruptRuns, runAbandonedJob, runJob } from './runs';
 import { startUploadUpkeep, uploadCheckAbandonedJob, uploadCheckJob, uploadSweepJob } from './uploads';
 
 type Stopper = () => Promise<void> | void;
@@ -28,7 +28,6 @@ function jobHandlers(): Partial<Record<JobName, { handler: JobHandler; concurren
 
 /** The job workers of this process, and the stale-upload sweep as a pg-boss schedule (hourly, whichever process is up). */
 export async function startJobWorkers(): Promise<Stopper> {
-  resumeRuns();
   const stop = await startJobs(jobHandlers(), [{ name: JOB.uploadSweep, cron: '17 * * * *' }]);
   return () => stop(interruptRuns);
 }

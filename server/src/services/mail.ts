@@ -9,6 +9,7 @@ import { dataSource } from '../db/dataSource';
 import { EmailOutbox } from '../entities/EmailOutbox';
 import { User } from '../entities/User';
 import { logger } from '../observability/log';
+import { timeJob } from '../observability/metrics';
 import { enqueue, JOB, type JobHandler } from './jobs';
 
 export interface MailMessage {
@@ -109,7 +110,7 @@ export const mailJob: JobHandler<{ outboxId: string }> = async (job) => {
   if (!row) return;
   const transporter = transport();
   try {
-    const outcome = await sendClaimed(row, transporter, job.retryCount >= job.retryLimit);
+    const outcome = await timeJob('mail', () => sendClaimed(row, transporter, job.retryCount >= job.retryLimit));
     if (outcome === 'retried') throw new Error(`sending e-mail ${row.id} failed; pg-boss tries again`);
   } finally {
     transporter.close();

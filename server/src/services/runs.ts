@@ -205,7 +205,8 @@ export function sealResults(results: RunResults): { results: RunResults; results
 
 /** Runs being computed in this process, so a clean stop can end their threads and hand them back to the queue. */
 const active = new Map<string, RunningThread>();
-let stoppingQueue = false;
+/** Runs whose threads a clean stop ended: they go back to the queue instead of failing. */
+const interrupted = new Set<string>();
 
 /** The advisory-lock key of a run's lease (the same expression in SQL: hashtextextended('plumbline run ' || id, 0)). */
 const LEASE_KEY_SQL = `hashtextextended('plumbline run ' || $1::text, 0)`;
@@ -314,7 +315,7 @@ async function computeClaimedRun(claimed: string): Promise<string> {
       await enqueue(m, JOB.driftRules, { runId: claimed });
     });
   } catch (err) {
-    const stopping = active.has(claimed) && stoppingQueue;
+    const stopping = interrupted.delete(claimed);
     active.delete(claimed);
     await pending;
     if (stopping) {
@@ -386,13 +387,8 @@ export async function recordRunNow(actorId: string | null, scoreVersionId: strin
 
 /** Before pg-boss stops: runs under way here end their threads and go back to the queue with a fresh job. */
 export async function interruptRuns(): Promise<void> {
-  stoppingQueue = true;
+  for (const id of active.keys()) interrupted.add(id);
   await Promise.all([...active.values()].map((t) => t.terminate()));
-}
-
-/** After a stop (tests start and stop the workers several times in one process). */
-export function resumeRuns(): void {
-  stoppingQueue = false;
 }
 
 // ---------------------------------------------------------------- reproduce
