@@ -72,7 +72,7 @@ beforeAll(async () => {
   await apiA.start(120_000);
   apiB = new ServerProcess(await freePort(3950, 50), { ...common, PLUMBLINE_JOBS: 'off' });
   await apiB.start(120_000);
-  worker = new ServerProcess(0, workerEnv, 'server/src/worker.ts');
+  worker = new ServerProcess(await freePort(3990, 10), workerEnv, 'server/src/worker.ts'); // the port is only a setting: a worker serves no HTTP
   await worker.start(120_000);
 }, 600_000);
 
@@ -174,7 +174,7 @@ describe('two API processes (jobs off) and one worker on one database', () => {
     expect(sql(`SELECT state FROM pgboss.job WHERE name = 'run' AND data->>'runId' = '${id}'`)).toBe('active');
 
     // The API processes never take the run over; a new worker gets the job once its claim has expired.
-    worker = new ServerProcess(0, workerEnv, 'server/src/worker.ts');
+    worker = new ServerProcess(await freePort(3990, 10), workerEnv, 'server/src/worker.ts'); // the port is only a setting: a worker serves no HTTP
     await worker.start(120_000);
     const final = await until('the replaced worker to finish the run', () => sql(`SELECT status FROM validation_runs WHERE id = '${id}'`), (s) => s === 'completed' || s === 'failed', 600_000, 500);
     expect(final).toBe('completed');
