@@ -88,6 +88,12 @@ type Outcome = 'sent' | 'retried' | 'failed';
 const CLAIM = `next_attempt_at = now() + interval '5 minutes'`;
 const RETURNING = `RETURNING id, recipients AS "to", subject, text, kind, attempts`;
 
+/** Runs a claiming UPDATE … RETURNING (TypeORM answers an UPDATE with [rows, count]). */
+async function claim(sql: string, params: unknown[]): Promise<OutboxRow[]> {
+  const [rows] = (await dataSource.query(sql, params)) as [OutboxRow[], number];
+  return rows;
+}
+
 /** Sends one claimed message and records the outcome; `lastTry` marks it failed instead of waiting for a retry. */
 async function sendClaimed(row: OutboxRow, transporter: ReturnType<typeof transport>, lastTry: boolean): Promise<Outcome> {
   const attempts = row.attempts + 1;
@@ -106,7 +112,7 @@ async function sendClaimed(row: OutboxRow, transporter: ReturnType<typeof transp
 
 /** The 'mail' job: sends its message unless it was sent meanwhile; a failure is thrown so pg-boss tries again later. */
 export const mailJob: JobHandler<{ outboxId: string }> = async (job) => {
-  const [row]: OutboxRow[] = await dataSource.query(`UPDATE email_outbox SET ${CLAIM} WHERE id = $1 AND status = 'pending' ${RETURNING}`, [job.data.outboxId]);
+  const [row] = await claim(`UPDATE email_outbox SET ${CLAIM} WHERE id = $1 AND status = 'pending' ${RETURNING}`, [job.data.outboxId]);
   if (!row) return;
   const transporter = transport();
   try {
@@ -128,7 +134,7 @@ export async function sendPendingOnce(limit = 25): Promise<SendReport> {
   const seen: string[] = [];
   try {
     while (seen.length < limit) {
-      const [row]: OutboxRow[] = await dataSource.query(
+      const [row] = await claim(
         `UPDATE email_outbox SET ${CLAIM} WHERE id = (
            SELECT id FROM email_outbox WHERE status = 'pending' AND next_attempt_at <= now() AND NOT (id = ANY($1::uuid[]))
            ORDER BY created_at LIMIT 1 FOR UPDATE SKIP LOCKED) ${RETURNING}`,
