@@ -62,7 +62,13 @@ export class ServerProcess {
   }
 
   async fetchJson(p: string, init: RequestInit = {}, timeoutMs = 15_000): Promise<{ status: number; body: Record<string, unknown> & { error?: string } }> {
-    const res = await fetch(`${this.url}${p}`, { ...init, signal: AbortSignal.timeout(timeoutMs) });
+    const send = () => fetch(`${this.url}${p}`, { ...init, signal: AbortSignal.timeout(timeoutMs) });
+    // A kept-alive socket the server closed at its keep-alive timeout just as it was reused: the request never reached
+    // the server (it closes only idle sockets), so it is sent once more on a new connection.
+    const res = await send().catch((err: Error & { cause?: { code?: string } }) => {
+      if (err.cause?.code === 'UND_ERR_SOCKET' && this.alive) return send();
+      throw err;
+    });
     const text = await res.text();
     let body: Record<string, unknown> = {};
     try {
