@@ -1,5 +1,5 @@
 // Compiles the server for `npm run start:prod`: one self-contained ES module per entry point in dist/server (the
-// server, the admin command and each worker thread), so `node` runs it without tsx. esbuild resolves the `@shared/*`
+// server, the jobs-only worker, the admin command and each worker thread), so `node` runs it without tsx. esbuild resolves the `@shared/*`
 // path alias from tsconfig.json while bundling; packages stay in node_modules. Like tsx, esbuild emits no decorator
 // metadata: every entity column names its type (DEVELOPERS.md).
 import { build } from 'esbuild';
@@ -13,6 +13,7 @@ await build({
   absWorkingDir: root,
   entryPoints: {
     index: 'server/src/index.ts',
+    worker: 'server/src/worker.ts',
     'create-admin': 'server/src/cli/createAdmin.ts',
     uploadWorker: 'server/src/workers/uploadWorker.ts',
     runWorker: 'server/src/workers/runWorker.ts',

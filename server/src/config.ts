@@ -52,7 +52,10 @@ const envSchema = z.object({
   PLUMBLINE_WORKER_NICE: int(10, 0, 19),
   PLUMBLINE_WARM_WIDTHS: int(50, 0, 500),
   PLUMBLINE_MAIL_SENDER: flag(true),
-  PLUMBLINE_MAIL_INTERVAL_MS: int(3000, 10, 24 * 3600 * 1000),
+  // off: an API-only process (it still enqueues jobs); `npm run worker` is the jobs-only process.
+  PLUMBLINE_JOBS: flag(true),
+  // How long a run or upload check may stay claimed before pg-boss gives it to another process (its one retry).
+  PLUMBLINE_JOB_EXPIRE_SECONDS: int(3600, 5, 23 * 3600),
   PLUMBLINE_FAKE_SMTP: flag(false),
   PLUMBLINE_DEV_OUTBOX: flag(true),
   PLUMBLINE_PUBLIC_URL: z.preprocess(unset, z.url().optional()),
@@ -138,7 +141,8 @@ export function loadConfig(env: Record<string, string | undefined>) {
     workerNice: e.PLUMBLINE_WORKER_NICE,
     warmWidths: e.PLUMBLINE_WARM_WIDTHS,
     mailSender: e.PLUMBLINE_MAIL_SENDER,
-    mailIntervalMs: e.PLUMBLINE_MAIL_INTERVAL_MS,
+    jobs: e.PLUMBLINE_JOBS,
+    jobExpireSeconds: e.PLUMBLINE_JOB_EXPIRE_SECONDS,
     fakeSmtp: e.PLUMBLINE_FAKE_SMTP,
     publicUrl: (e.PLUMBLINE_PUBLIC_URL ?? `http://localhost:${e.PORT}`).replace(/\/$/, ''),
     smtp: {

@@ -204,7 +204,10 @@ describe('waiting for the row checks', () => {
     const mapped = await request(app).post(`/api/uploads/${id}/mapping`).set(bearer(await tokenFor('steward'))).send({ mapping: KESTREL_MAPPING });
     expect(mapped.status).toBe(202);
     expect(mapped.body.upload.status).toBe('processing');
+    // No job worker runs in this test process: whenProcessed takes the check's job here, while the GET waits for it.
+    const checking = whenProcessed(id);
     const got = await request(app).get(`/api/uploads/${id}`).query({ waitSeconds: 30 }).set(bearer(await tokenFor('steward')));
+    await checking;
     expect(got.status).toBe(200);
     expect(got.body.upload.status).toBe('checked');
     expect(got.body.upload.rowsRead).toBe(30_000);

@@ -8,7 +8,8 @@ import type { RunGovernanceView, ScoreCardView, SignatureView } from '@shared/go
 import { config } from '../../server/src/config';
 import { verifyAuditChain } from '../../server/src/services/audit';
 import { clearReceived, receivedMessages, startFakeSmtp } from '../../server/src/services/fakeSmtp';
-import { queueEmail, sendPendingOnce } from '../../server/src/services/mail';
+import type { JobHandler } from '../../server/src/services/jobs';
+import { mailJob, queueEmail, sendPendingOnce } from '../../server/src/services/mail';
 import { app, bearer, dataSource, DEMO_PASSWORD, loginAs, refusedTwice, tokenFor, uniqueEmail, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, kestrelRows, type ScoreFixture } from '../helpers/fixtures';
 
@@ -426,5 +427,30 @@ describe('e-mail', () => {
     expect(res.body.received.length).toBeGreaterThan(0);
     expect(res.body.outbox[0]).toHaveProperty('status');
     expect((await request(app).get('/api/dev/outbox').set(await as('chair'))).status).toBe(403);
+  });
+
+  it('each message has its mail job from the same transaction; the job sends it once, retries on failure, and gives up on its last try', async () => {
+    const subject = `Mail job ${randomUUID()}`;
+    await queueEmail({ to: ['statistician@demo.test'], subject, text: 'sent by its job', kind: 'test.job' });
+    const [row] = await dataSource.query(`SELECT id FROM email_outbox WHERE subject = $1`, [subject]);
+    const jobs = await dataSource.query(`SELECT count(*)::int AS n FROM pgboss.job WHERE name = 'mail' AND data->>'outboxId' = $1`, [row.id]);
+    expect(jobs[0].n).toBe(1);
+    const job = (retryCount: number) => ({ id: `test-${row.id}`, name: 'mail', data: { outboxId: row.id }, retryCount, retryLimit: 7 }) as unknown as Parameters<JobHandler<{ outboxId: string }>>[0];
+    clearReceived();
+    await mailJob(job(0));
+    expect(receivedMessages().filter((m) => m.subject === subject)).toHaveLength(1);
+    await mailJob(job(1)); // a second delivery of the job finds the message sent
+    expect(receivedMessages().filter((m) => m.subject === subject)).toHaveLength(1);
+
+    await stopSmtp!();
+    stopSmtp = null;
+    const failing = `Mail job outage ${randomUUID()}`;
+    await queueEmail({ to: ['statistician@demo.test'], subject: failing, text: 'not sent', kind: 'test.job' });
+    const [f] = await dataSource.query(`SELECT id FROM email_outbox WHERE subject = $1`, [failing]);
+    const jobF = (retryCount: number) => ({ id: `test-${f.id}`, name: 'mail', data: { outboxId: f.id }, retryCount, retryLimit: 7 }) as unknown as Parameters<JobHandler<{ outboxId: string }>>[0];
+    await expect(mailJob(jobF(0))).rejects.toThrow(/tries again/);
+    expect(await dataSource.query(`SELECT status, attempts FROM email_outbox WHERE id = $1`, [f.id])).toEqual([{ status: 'pending', attempts: 1 }]);
+    await mailJob(jobF(7)); // the last try: marked failed instead of thrown
+    expect(await dataSource.query(`SELECT status, attempts FROM email_outbox WHERE id = $1`, [f.id])).toEqual([{ status: 'failed', attempts: 2 }]);
   });
 });

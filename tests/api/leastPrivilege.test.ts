@@ -33,6 +33,21 @@ describe('the runtime database role', () => {
     }
   });
 
+  it('works the job queue (pgboss schema) but cannot create, drop or empty its tables, nor create a queue', async () => {
+    await expect(dataSource.query('CREATE TABLE pgboss.plumbline_probe (x int)')).rejects.toThrow(denied);
+    await expect(dataSource.query('DROP TABLE pgboss.archive')).rejects.toThrow(denied);
+    await expect(dataSource.query('TRUNCATE pgboss.job')).rejects.toThrow(denied);
+    // Creating a queue creates its partition table: only the owner's migration does that.
+    await expect(dataSource.query(`SELECT pgboss.create_queue('plumbline-probe', '{"policy":"standard"}'::json)`)).rejects.toThrow(denied);
+    const rows: { table_name: string; privilege_type: string }[] = await dataSource.query(
+      `SELECT table_name, privilege_type FROM information_schema.role_table_grants WHERE grantee = current_user AND table_schema = 'pgboss'`,
+    );
+    const held = (t: string) => rows.filter((r) => r.table_name === t).map((r) => r.privilege_type).sort();
+    expect(held('job')).toEqual(['DELETE', 'INSERT', 'SELECT', 'UPDATE']);
+    expect(held('queue')).toEqual(['SELECT']);
+    expect(held('version')).toEqual(['SELECT', 'UPDATE']);
+  });
+
   it('cannot disable a trigger, drop a table or create one', async () => {
     await expect(dataSource.query('ALTER TABLE signatures DISABLE TRIGGER signatures_immutable')).rejects.toThrow(denied);
     await expect(dataSource.query('DROP TABLE run_comments')).rejects.toThrow(denied);

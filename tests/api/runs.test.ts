@@ -1,5 +1,5 @@
 // Validation runs: the queue, the stored record, reproduce, compare, the database's refusal to edit a completed run,
-// crash recovery, role rules and settings validation. Fixture data is invented (tests/helpers/fixtures.ts).
+// retries after a crash, role rules and settings validation. Fixture data is invented (tests/helpers/fixtures.ts).
 import request from 'supertest';
 import pg from 'pg';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -7,7 +7,8 @@ import { config } from '../../server/src/config';
 import type { RunDetail, RunResults } from '@shared/runs';
 import { startBackgroundServices, stopBackgroundServices } from '../../server/src/services/background';
 import { asStored, engineSettings, ENGINE_VERSION } from '../../server/src/services/runCompute';
-import { processNextRun, recoverInterruptedRuns } from '../../server/src/services/runs';
+import type { JobHandler } from '../../server/src/services/jobs';
+import { processNextRun, runAbandonedJob, runJob } from '../../server/src/services/runs';
 import { applyModel, validate } from '../../server/src/stats/index';
 import { app, bearer, dataSource, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, FIXTURE_MODEL, kestrelRows, type CohortFixture, type ScoreFixture } from '../helpers/fixtures';
@@ -255,40 +256,63 @@ describe('crash recovery', () => {
     return rows[0].id;
   }
 
-  it('puts a run left running back in the queue, and fails it after 3 attempts', async () => {
+  /** The job pg-boss hands a worker for a run; retryCount 1 is the retry after a process died. */
+  const jobOf = (runId: string, retryCount: number) => ({ id: `test-${runId}`, name: 'run', data: { runId }, retryCount, retryLimit: 1 }) as unknown as Parameters<JobHandler<{ runId: string }>>[0];
+  const auditCount = async (id: string, action: string) =>
+    ((await dataSource.query(`SELECT count(*)::int AS n FROM audit_log WHERE target_id = $1 AND action = $2`, [id, action])) as { n: number }[])[0].n;
+
+  it('the retry of a run whose process died computes it again, once; a later attempt stores nothing more', async () => {
     const interrupted = await insertRunning(1);
-    const exhausted = await insertRunning(3);
-    const out = await recoverInterruptedRuns();
-    expect(out.requeued).toEqual([interrupted]);
-    expect(out.failed).toEqual([exhausted]);
-    const a = await getRun(interrupted);
-    expect(a.status).toBe('queued');
-    expect(a.attempt).toBe(2);
-    expect(a.progress).toBe(0);
-    const b = await getRun(exhausted);
-    expect(b.status).toBe('failed');
-    expect(b.error).toMatch(/3 times/);
-    // The re-queued run then completes normally (its empty settings take the defaults).
-    await drainQueue();
-    expect((await getRun(interrupted)).status).toBe('completed');
+    await runJob(jobOf(interrupted, 1));
+    const done = await getRun(interrupted);
+    expect(done.status).toBe('completed');
+    expect(done.attempt).toBe(2);
+    expect(await auditCount(interrupted, 'run.requeued')).toBe(1);
+    // A duplicate delivery finds the result stored and does nothing: one result, one completion entry.
+    await runJob(jobOf(interrupted, 1));
+    const again = await getRun(interrupted);
+    expect(again.resultsSha256).toBe(done.resultsSha256);
+    expect(again.finishedAt).toBe(done.finishedAt);
+    expect(await auditCount(interrupted, 'run.completed')).toBe(1);
   });
 
-  it('leaves alone a run whose lease another live process holds, and takes it back once that process is gone', async () => {
+  it('a run cut off on both attempts is marked failed by its dead-letter job', async () => {
+    const exhausted = await insertRunning(2);
+    await runAbandonedJob(jobOf(exhausted, 0));
+    const b = await getRun(exhausted);
+    expect(b.status).toBe('failed');
+    expect(b.error).toMatch(/2 times/);
+  });
+
+  it('a retry waits while another live process holds the run, and finds it finished there', async () => {
     const id = await insertRunning(1);
-    // Another process's lease: a session-level advisory lock on its own connection (as processNextRun takes it).
+    // Another process's lease: a session-level advisory lock on its own connection (as runJob takes it).
     const other = new pg.Client({ ...config.db, application_name: 'plumbline test: another process' });
     await other.connect();
+    let retried: Promise<void> | undefined;
     try {
       await other.query(`SELECT pg_advisory_lock(hashtextextended('plumbline run ' || $1::text, 0))`, [id]);
-      expect((await recoverInterruptedRuns()).requeued).not.toContain(id);
-      expect((await getRun(id)).status).toBe('running');
+      retried = runJob(jobOf(id, 1));
+      // The retry is blocked on the lease (a waiting advisory lock request), and the run is untouched.
+      const waiting = async () =>
+        ((await dataSource.query(
+          `SELECT count(*)::int AS n FROM pg_locks WHERE locktype = 'advisory' AND NOT granted AND ((classid::bigint << 32) | objid::bigint) = hashtextextended('plumbline run ' || $1::text, 0)`,
+          [id],
+        )) as { n: number }[])[0].n;
+      const deadline = Date.now() + 60_000;
+      while ((await waiting()) === 0 && Date.now() < deadline) await new Promise((r) => setTimeout(r, 50));
+      expect(await waiting()).toBe(1);
+      expect((await getRun(id)).attempt).toBe(1);
+      // The "other process" finishes the run itself before it lets go.
+      await other.query(`UPDATE validation_runs SET status = 'failed', error = 'finished by the other process', finished_at = now() WHERE id = $1`, [id]);
     } finally {
-      await other.end(); // the process "dies": PostgreSQL drops its lock with its session
+      await other.end(); // PostgreSQL drops its lock with its session
     }
-    expect((await recoverInterruptedRuns()).requeued).toEqual([id]);
-    expect((await getRun(id)).status).toBe('queued');
-    await drainQueue();
-    expect((await getRun(id)).status).toBe('completed');
+    await retried;
+    const after = await getRun(id);
+    expect(after.status).toBe('failed');
+    expect(after.error).toBe('finished by the other process');
+    expect(after.attempt).toBe(1);
   });
 
   it('holds the lease while it computes, and drops it when the run ends', async () => {
@@ -319,8 +343,8 @@ describe('crash recovery', () => {
     const id = await insertRunning(1);
     await dataSource.query(`UPDATE validation_runs SET progress = 0.5, progress_message = 'half way' WHERE id = $1`, [id]);
     expect((await getRun(id)).progress).toBe(0.5);
-    await recoverInterruptedRuns();
-    await drainQueue();
+    await runJob(jobOf(id, 1));
+    expect((await getRun(id)).status).toBe('completed');
   });
 });
 

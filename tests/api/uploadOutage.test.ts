@@ -83,6 +83,8 @@ describe('an upload check cut off by a database outage', () => {
       body: JSON.stringify({ mapping: KESTREL_MAPPING }),
     });
     expect(mapped.status, JSON.stringify(mapped.body)).toBe(202);
+    // The check is a job: stop the database once the server's worker has claimed it, not before.
+    await waitFor('the check job to be claimed', () => cluster.psql(`SELECT state FROM pgboss.job WHERE name = 'upload-check' AND data->>'uploadId' = '${id}'`) === 'active', 60_000);
 
     cluster.stop('immediate');
     // The check fails with the database, and so does the first try to record that.

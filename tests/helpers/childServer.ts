@@ -19,6 +19,8 @@ export class ServerProcess {
   constructor(
     public port: number,
     private env: Record<string, string>,
+    /** server/src/worker.ts starts a jobs-only process: ready when it logs that its workers started (no HTTP). */
+    private entry = 'server/src/index.ts',
   ) {}
 
   get url() {
@@ -28,7 +30,7 @@ export class ServerProcess {
   async start(timeoutMs = 60_000): Promise<void> {
     this.output = '';
     // One process (tsx as an import hook, not the tsx CLI that runs the server in a grandchild), so SIGKILL hits the server itself.
-    this.child = spawn(process.execPath, ['--import', 'tsx', 'server/src/index.ts'], {
+    this.child = spawn(process.execPath, ['--import', 'tsx', this.entry], {
       cwd: repoRoot,
       env: { ...process.env, ...this.env, PORT: String(this.port), NODE_ENV: 'test', PLUMBLINE_CLIENT_DIR: '/nonexistent' },
       stdio: ['ignore', 'pipe', 'pipe'],
@@ -38,6 +40,11 @@ export class ServerProcess {
     const deadline = Date.now() + timeoutMs;
     while (Date.now() < deadline) {
       if (this.child.exitCode !== null) break;
+      if (this.entry.endsWith('worker.ts')) {
+        if (this.output.includes('job worker started')) return;
+        await new Promise((r) => setTimeout(r, 200));
+        continue;
+      }
       const h = await this.health().catch(() => null);
       if (h?.status === 200) return;
       await new Promise((r) => setTimeout(r, 200));
@@ -55,7 +62,13 @@ export class ServerProcess {
   }
 
   async fetchJson(p: string, init: RequestInit = {}, timeoutMs = 15_000): Promise<{ status: number; body: Record<string, unknown> & { error?: string } }> {
-    const res = await fetch(`${this.url}${p}`, { ...init, signal: AbortSignal.timeout(timeoutMs) });
+    const send = () => fetch(`${this.url}${p}`, { ...init, signal: AbortSignal.timeout(timeoutMs) });
+    // A kept-alive socket the server closed at its keep-alive timeout just as it was reused: the request never reached
+    // the server (it closes only idle sockets), so it is sent once more on a new connection.
+    const res = await send().catch((err: Error & { cause?: { code?: string } }) => {
+      if (err.cause?.code === 'UND_ERR_SOCKET' && this.alive) return send();
+      throw err;
+    });
     const text = await res.text();
     let body: Record<string, unknown> = {};
     try {

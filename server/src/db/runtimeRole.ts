@@ -22,7 +22,17 @@ export const RUNTIME_GRANTS: Record<string, string[]> = {
   cohort_upload_rejections: ['SELECT', 'INSERT', 'UPDATE', 'DELETE'],
   // The migrations' own bookkeeping: read only; only the owner migrates.
   migrations: ['SELECT'],
+  // pg-boss (schema and queues created by a migration as the owner): jobs are inserted, claimed, completed, retried
+  // (deleted and re-inserted) and archived; the maintenance stamp is updated; cron schedules are written at start.
+  'pgboss.job': ['SELECT', 'INSERT', 'UPDATE', 'DELETE'],
+  'pgboss.archive': ['SELECT', 'INSERT', 'DELETE'],
+  'pgboss.version': ['SELECT', 'UPDATE'],
+  'pgboss.queue': ['SELECT'],
+  'pgboss.schedule': ['SELECT', 'INSERT', 'UPDATE', 'DELETE'],
+  'pgboss.subscription': ['SELECT'],
 };
+/** Schemas besides public whose listed tables get grants (only those in RUNTIME_GRANTS; nothing by default). */
+const OTHER_SCHEMAS = ['pgboss'];
 const DEFAULT_GRANTS = ['SELECT', 'INSERT', 'UPDATE'];
 const GRANT_LOCK = 7_316_002; // advisory lock key: two starts at once do not update the same grants concurrently
 
@@ -58,4 +68,16 @@ export async function grantRuntimeRole(m: EntityManager, role: string, database:
     await m.query(`GRANT ${(RUNTIME_GRANTS[name] ?? DEFAULT_GRANTS).join(', ')} ON ${t} TO ${r}`);
   }
   await m.query(`GRANT USAGE, SELECT ON ALL SEQUENCES IN SCHEMA public TO ${r}`);
+  // The job queue's schema: usage, and only the listed tables (a queue's partition is reached through pgboss.job).
+  for (const schema of OTHER_SCHEMAS) {
+    const found: { name: string }[] = await m.query(`SELECT tablename AS name FROM pg_tables WHERE schemaname = $1 ORDER BY tablename`, [schema]);
+    if (!found.length) continue;
+    await m.query(`GRANT USAGE ON SCHEMA ${ident(schema)} TO ${r}`);
+    for (const { name } of found) {
+      const t = `${ident(schema)}.${ident(name)}`;
+      await m.query(`REVOKE ALL ON ${t} FROM ${r}`);
+      const grants = RUNTIME_GRANTS[`${schema}.${name}`];
+      if (grants) await m.query(`GRANT ${grants.join(', ')} ON ${t} TO ${r}`);
+    }
+  }
 }

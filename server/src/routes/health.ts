@@ -18,6 +18,10 @@ export async function health(_req: Request, res: Response) {
         runs: { queued: count('runs', 'queued'), running: count('runs', 'running') },
         uploadChecks: { running: count('upload_checks', 'running') },
         mail: { pending: count('mail', 'pending') },
+        // pg-boss's jobs per queue: waiting (created or retry) and active (claimed by a live or crashed process).
+        jobs: Object.fromEntries(
+          counts.filter((c) => c.queue.startsWith('job:') && c.state === 'waiting').map((c) => [c.queue.slice(4), { waiting: c.count, active: count(c.queue, 'active') }]),
+        ),
       },
     });
   } catch {

@@ -1,20 +1,43 @@
-// Long-lived work beside the HTTP server: the run queue, upload upkeep (interrupted checks, the stale-upload sweep),
-// the outbox sender and the adequacy-widths warm-up. Nothing starts when a module is imported: the entry point
-// (server/src/index.ts) — or a test — calls startBackgroundServices(), and the list below is the whole of it.
+// Long-lived work beside (or instead of) the HTTP server. Nothing starts when a module is imported: the entry points
+// (server/src/index.ts, server/src/worker.ts) — or a test — call startBackgroundServices(), and the lists below are
+// the whole of it. Job workers run where PLUMBLINE_JOBS is on (the default single process) or in `npm run worker`.
 import { config } from '../config';
-import { startMailSender } from './mail';
+import { startJobs, JOB, type JobHandler, type JobName } from './jobs';
+import { mailJob } from './mail';
 import { startWidthsWarmUp } from './precisionThread';
-import { startRunQueue } from './runs';
-import { startUploadUpkeep } from './uploads';
+import { driftRulesJob, interruptRuns, runAbandonedJob, runJob } from './runs';
+import { startUploadUpkeep, uploadCheckAbandonedJob, uploadCheckJob, uploadSweepJob } from './uploads';
 
 type Stopper = () => Promise<void> | void;
 export type Starter = () => Promise<Stopper | void> | Stopper | void;
 
-/** The background services a full process runs, in start order. */
-export function backgroundServices(): Starter[] {
-  const list: Starter[] = [startRunQueue, startUploadUpkeep, startWidthsWarmUp];
+/** Every job and who handles it; concurrency is workers per process (a run or check uses a thread of its own). */
+function jobHandlers(): Partial<Record<JobName, { handler: JobHandler; concurrency?: number }>> {
+  const h: Partial<Record<JobName, { handler: JobHandler; concurrency?: number }>> = {
+    [JOB.run]: { handler: runJob as JobHandler },
+    [JOB.runAbandoned]: { handler: runAbandonedJob as JobHandler },
+    [JOB.uploadCheck]: { handler: uploadCheckJob as JobHandler, concurrency: config.uploadThreads },
+    [JOB.uploadCheckAbandoned]: { handler: uploadCheckAbandonedJob as JobHandler },
+    [JOB.driftRules]: { handler: driftRulesJob as JobHandler },
+    [JOB.uploadSweep]: { handler: uploadSweepJob },
+  };
   // PLUMBLINE_MAIL_SENDER=off leaves the outbox untouched (e.g. to inspect pending rows); tests call sendPendingOnce().
-  if (config.mailSender) list.push(() => startMailSender());
+  if (config.mailSender) h[JOB.mail] = { handler: mailJob as JobHandler, concurrency: 2 };
+  return h;
+}
+
+/** The job workers of this process, and the stale-upload sweep as a pg-boss schedule (hourly, whichever process is up). */
+export async function startJobWorkers(): Promise<Stopper> {
+  const stop = await startJobs(jobHandlers(), [{ name: JOB.uploadSweep, cron: '17 * * * *' }]);
+  return () => stop(interruptRuns);
+}
+
+/** The background services of a process: `http` for one that serves the API, `jobs` for one that runs jobs. */
+export function backgroundServices(roles: { http: boolean; jobs: boolean } = { http: true, jobs: config.jobs }): Starter[] {
+  const list: Starter[] = [];
+  if (roles.jobs) list.push(startJobWorkers);
+  // Files a crash left in this host's upload folder; the widths warm-up fills this process's page cache.
+  if (roles.http) list.push(startUploadUpkeep, startWidthsWarmUp);
   return list;
 }
 

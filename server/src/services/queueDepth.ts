@@ -1,8 +1,10 @@
-// How much background work waits or is under way, read from PostgreSQL so every process reports the shared queue.
+// How much background work waits or is under way, read from PostgreSQL so every process reports the shared queue:
+// the records' own states (runs queued and running, checks under way, e-mails pending) and pg-boss's jobs per queue.
 import { dataSource } from '../db/dataSource';
+import { jobCounts } from './jobs';
 
 export interface QueueCount {
-  queue: 'runs' | 'upload_checks' | 'mail';
+  queue: string;
   state: string;
   count: number;
 }
@@ -20,6 +22,9 @@ export async function queueDepth(): Promise<QueueCount[]> {
     const kept = out.find((o) => o.queue === r.queue && o.state === r.state);
     if (kept) kept.count = Number(r.n);
     else out.push({ queue: r.queue, state: r.state, count: Number(r.n) });
+  }
+  for (const j of await jobCounts()) {
+    out.push({ queue: `job:${j.name}`, state: 'waiting', count: j.waiting }, { queue: `job:${j.name}`, state: 'active', count: j.active });
   }
   return out;
 }

@@ -15,6 +15,7 @@ import { driftSeriesOf, storeDriftSeries } from './driftSeries';
 import { loadRunInput } from './runInput';
 export { loadRunInput };
 import { evaluateAlertsForRun } from './drift';
+import { drainJobs, enqueue, JOB, type JobHandler } from './jobs';
 import { queueEmail, recipientsForRole } from './mail';
 import { asStored, computeRunResults, ENGINE_VERSION, inputsSha256, resultsSha256, RunInputError, type RunComputeInput, type RunScoreInput } from './runCompute';
 import { completedRunRecord } from './runRecordCache';
@@ -22,8 +23,8 @@ import { computeInThread, type RunningThread } from './runThread';
 import { logger } from '../observability/log';
 import { jobDuration } from '../observability/metrics';
 
-/** A run left 'running' by a stopped process is queued again, up to this many attempts in all. */
-export const MAX_ATTEMPTS = 3;
+/** A run whose process died is tried once more (pg-boss retryLimit 1 on the 'run' queue): two attempts in all. */
+export const MAX_ATTEMPTS = 2;
 const PROGRESS_WRITE_MS = 250;
 
 // ---------------------------------------------------------------- create
@@ -64,9 +65,9 @@ export async function createRun(actor: AuthUser, input: CreateRunInput, ip: stri
       { actorId: actor.id, actorEmail: actor.email, action: 'run.created', targetType: 'validation_run', targetId: run.id, sourceIp: ip, details: { scoreVersionId: sv.id, cohortVersionId: cv.id, settings } },
       m,
     );
+    await enqueue(m, JOB.run, { runId: run.id });
     return run.id;
   });
-  wakeQueue();
   return getRun(id);
 }
 
@@ -202,46 +203,74 @@ export function sealResults(results: RunResults): { results: RunResults; results
   return { results: stored, resultsSha256: resultsSha256(stored) };
 }
 
-let active: { runId: string; thread: RunningThread } | null = null;
+/** Runs being computed in this process, so a clean stop can end their threads and hand them back to the queue. */
+const active = new Map<string, RunningThread>();
+/** Runs whose threads a clean stop ended: they go back to the queue instead of failing. */
+const interrupted = new Set<string>();
 
 /** The advisory-lock key of a run's lease (the same expression in SQL: hashtextextended('plumbline run ' || id, 0)). */
 const LEASE_KEY_SQL = `hashtextextended('plumbline run ' || $1::text, 0)`;
 
 /**
- * Claims the oldest queued run (FOR UPDATE SKIP LOCKED, so several processes can share the queue), computes it in a
- * worker thread, and stores the outcome. Returns the run id, or null when the queue is empty.
- *
- * The claim takes a session-level advisory lock on a connection of its own and keeps it until the run ends: that is
- * the run's lease. PostgreSQL drops it when this process dies, so recoverInterruptedRuns (in this or any other
- * process) only takes back runs whose process is gone, never a run a live process is computing.
+ * The 'run' job: computes one run in a worker thread and stores the outcome. pg-boss hands the job to one process;
+ * the run's lease (a session-level advisory lock on a connection of its own, dropped by PostgreSQL when the process
+ * dies) makes a retry wait while a live process still computes it. A retry that finds the run completed or failed
+ * does nothing, so a result is stored once.
  */
-export async function processNextRun(): Promise<string | null> {
+export const runJob: JobHandler<{ runId: string }> = async (job) => {
+  const runId = job.data.runId;
   const lease = dataSource.createQueryRunner();
   await lease.connect();
-  let claimed: string | null = null;
   try {
-    await lease.startTransaction();
-    const rows: { id: string }[] = await lease.query(
-      `SELECT id FROM validation_runs WHERE status = 'queued' ORDER BY created_at, id LIMIT 1 FOR UPDATE SKIP LOCKED`,
+    await lease.query(`SELECT pg_advisory_lock(${LEASE_KEY_SQL})`, [runId]);
+    const attempt = job.retryCount + 1;
+    const claimed: { id: string }[] = await lease.query(
+      `UPDATE validation_runs SET status = 'running', started_at = now(), progress = 0, progress_message = 'loading the cohort', attempt = $2
+       WHERE id = $1 AND status IN ('queued', 'running') RETURNING id`,
+      [runId, attempt],
     );
-    if (rows[0]) {
-      // Taken before the claim commits, so no other process ever sees this run 'running' without its lease.
-      await lease.query(`SELECT pg_advisory_lock(${LEASE_KEY_SQL})`, [rows[0].id]);
-      await lease.query(`UPDATE validation_runs SET status = 'running', started_at = now(), progress = 0, progress_message = 'loading the cohort' WHERE id = $1`, [rows[0].id]);
-      claimed = rows[0].id;
+    if (!claimed.length) return;
+    if (attempt > 1) {
+      await appendAudit({ action: 'run.requeued', targetType: 'validation_run', targetId: runId, details: { attempt, reason: 'the process computing it stopped' } });
+      logger.warn({ runId, attempt }, 'computing a run again after its process stopped');
     }
-    await lease.commitTransaction();
-    if (!claimed) return null;
-    return await computeClaimedRun(claimed);
-  } catch (err) {
-    if (lease.isTransactionActive) await lease.rollbackTransaction().catch(() => undefined);
-    throw err;
+    await computeClaimedRun(runId);
   } finally {
     // Session-level locks outlive transactions: drop the lease before the connection goes back to the pool.
     await lease.query('SELECT pg_advisory_unlock_all()').catch(() => undefined);
     await lease.release();
   }
+};
+
+/** The dead-letter job of a run whose both attempts were cut off: it is marked failed, never left running. */
+export const runAbandonedJob: JobHandler<{ runId: string }> = async (job) => {
+  const runId = job.data.runId;
+  await dataSource.transaction(async (m) => {
+    const reason = `the server stopped during this run ${MAX_ATTEMPTS} times; it was not tried again`;
+    const [, changed] = await m.query(
+      `UPDATE validation_runs SET status = 'failed', error = $2, progress_message = 'failed', finished_at = now() WHERE id = $1 AND status IN ('queued', 'running')
+         AND pg_try_advisory_xact_lock(hashtextextended('plumbline run ' || id::text, 0))`,
+      [runId, reason],
+    );
+    if (changed === 1) await appendAudit({ action: 'run.failed', targetType: 'validation_run', targetId: runId, details: { reason } }, m);
+  });
+};
+
+/** Tests and the seed: computes the oldest waiting run here (and its drift-rule job); the run id, or null if none. */
+export async function processNextRun(): Promise<string | null> {
+  let ran: string | null = null;
+  await drainJobs<{ runId: string }>(JOB.run, async (job) => {
+    ran = job.data.runId;
+    await runJob(job);
+  }, 1);
+  if (ran) await drainJobs(JOB.driftRules, driftRulesJob);
+  return ran;
 }
+
+/** The 'drift-rules' job: the score's drift rules look at the new period (enqueued with the completed run). */
+export const driftRulesJob: JobHandler<{ runId: string }> = async (job) => {
+  await evaluateAlertsForRun(job.data.runId);
+};
 
 async function computeClaimedRun(claimed: string): Promise<string> {
   const timer = jobDuration.startTimer({ job: 'run' });
@@ -267,27 +296,34 @@ async function computeClaimedRun(claimed: string): Promise<string> {
   try {
     // The thread loads the score and the cohort itself, through its own connection.
     const thread = computeInThread({ task: 'run', scoreVersionId: run.scoreVersionId, cohortVersionId: run.cohortVersionId, settings: run.settings }, onProgress);
-    active = { runId: claimed, thread };
+    active.set(claimed, thread);
     const { results: raw, inputsSha256: inputsHash, drift } = await thread.result;
-    active = null;
+    active.delete(claimed);
     await pending;
     const sealed = sealResults(raw);
     await dataSource.transaction(async (m) => {
       if (drift) await storeDriftSeries((sql, params) => m.query(sql, params), run.scoreVersionId, run.cohortVersionId, claimed, drift);
-      await m.query(
+      // Idempotent: only a run still 'running' takes a result, so a second attempt never stores a second one.
+      const [, changed] = await m.query(
         `UPDATE validation_runs SET status = 'completed', progress = 1, progress_message = 'completed', results = $2::jsonb, engine_version = $3,
            inputs_sha256 = $4, results_sha256 = $5, finished_at = now() WHERE id = $1 AND status = 'running'`,
         [claimed, JSON.stringify(sealed.results), sealed.results.overall.engineVersion ?? ENGINE_VERSION, inputsHash, sealed.resultsSha256],
       );
+      if (changed !== 1) return;
       await appendAudit({ action: 'run.completed', targetType: 'validation_run', targetId: claimed, details: { inputsSha256: inputsHash, resultsSha256: sealed.resultsSha256, engineVersion: ENGINE_VERSION } }, m);
+      // Drift rules of the score look at the new period, as a job of its own: a failure there never fails the run.
+      await enqueue(m, JOB.driftRules, { runId: claimed });
     });
   } catch (err) {
-    const stopping = active?.runId === claimed && stoppingQueue;
-    active = null;
+    const stopping = interrupted.delete(claimed);
+    active.delete(claimed);
     await pending;
     if (stopping) {
-      // A clean shutdown interrupted the computation: the run waits for the next start, not a failure.
-      await dataSource.query(`UPDATE validation_runs SET status = 'queued', progress = 0, progress_message = 'waiting in the queue (server restarted)' WHERE id = $1 AND status = 'running'`, [claimed]);
+      // A clean shutdown interrupted the computation: the run waits in the queue with a fresh job, not a failure.
+      await dataSource.transaction(async (m) => {
+        const [, changed] = await m.query(`UPDATE validation_runs SET status = 'queued', progress = 0, progress_message = 'waiting in the queue (server restarted)' WHERE id = $1 AND status = 'running'`, [claimed]);
+        if (changed === 1) await enqueue(m, JOB.run, { runId: claimed });
+      });
       timer({ outcome: 'interrupted' });
       return claimed;
     }
@@ -300,41 +336,7 @@ async function computeClaimedRun(claimed: string): Promise<string> {
   }
   timer({ outcome });
   await notifyRunFinished(claimed);
-  // Drift rules of the score look at the new period; a failure there is logged and never fails the run.
-  try {
-    await evaluateAlertsForRun(claimed);
-  } catch (err) {
-    logger.error({ err, runId: claimed }, 'drift alert evaluation after a run failed');
-  }
   return claimed;
-}
-
-/** Runs left 'running' by a process that stopped (their lease is free): queued again, or failed after MAX_ATTEMPTS. */
-export async function recoverInterruptedRuns(): Promise<{ requeued: string[]; failed: string[] }> {
-  return dataSource.transaction(async (m) => {
-    // A run whose lease (advisory lock) is held belongs to a live process; only free leases are taken back.
-    const rows: { id: string; attempt: number }[] = await m.query(
-      `SELECT id, attempt FROM validation_runs WHERE status = 'running' AND pg_try_advisory_xact_lock(hashtextextended('plumbline run ' || id::text, 0)) FOR UPDATE SKIP LOCKED`,
-    );
-    const requeued: string[] = [];
-    const failed: string[] = [];
-    for (const r of rows) {
-      if (r.attempt >= MAX_ATTEMPTS) {
-        const reason = `the server stopped during this run ${r.attempt} times; it was not tried again`;
-        await m.query(`UPDATE validation_runs SET status = 'failed', error = $2, progress_message = 'failed', finished_at = now() WHERE id = $1`, [r.id, reason]);
-        await appendAudit({ action: 'run.failed', targetType: 'validation_run', targetId: r.id, details: { reason, attempt: r.attempt } }, m);
-        failed.push(r.id);
-      } else {
-        await m.query(
-          `UPDATE validation_runs SET status = 'queued', attempt = attempt + 1, progress = 0, started_at = NULL, progress_message = 'waiting in the queue (interrupted run, attempt ' || (attempt + 1) || ')' WHERE id = $1`,
-          [r.id],
-        );
-        await appendAudit({ action: 'run.requeued', targetType: 'validation_run', targetId: r.id, details: { attempt: r.attempt + 1 } }, m);
-        requeued.push(r.id);
-      }
-    }
-    return { requeued, failed };
-  });
 }
 
 async function notifyRunFinished(runId: string): Promise<void> {
@@ -381,53 +383,13 @@ export async function recordRunNow(actorId: string | null, scoreVersionId: strin
   });
 }
 
-// ---------------------------------------------------------------- queue in the background
+// ---------------------------------------------------------------- stopping
 
-let wake: (() => void) | null = null;
-let stoppingQueue = false;
-
-/** Lets a newly created run start at once instead of at the next poll. */
-export function wakeQueue(): void {
-  wake?.();
+/** Before pg-boss stops: runs under way here end their threads and go back to the queue with a fresh job. */
+export async function interruptRuns(): Promise<void> {
+  for (const id of active.keys()) interrupted.add(id);
+  await Promise.all([...active.values()].map((t) => t.terminate()));
 }
-
-const POLL_MS = 1000;
-
-export async function startRunQueue(): Promise<() => Promise<void>> {
-  stoppingQueue = false;
-  const recovered = await recoverInterruptedRuns();
-  if (recovered.requeued.length || recovered.failed.length)
-    logger.warn({ requeued: recovered.requeued, failed: recovered.failed }, 'recovered interrupted runs');
-  let stopped = false;
-  const loop = (async () => {
-    while (!stopped) {
-      let id: string | null = null;
-      try {
-        id = await processNextRun();
-      } catch (err) {
-        if (!stopped) logger.error({ err }, 'run queue error');
-      }
-      if (id || stopped) continue;
-      await new Promise<void>((resolve) => {
-        const t = setTimeout(resolve, POLL_MS);
-        wake = () => {
-          clearTimeout(t);
-          resolve();
-        };
-      });
-      wake = null;
-    }
-  })();
-  return async () => {
-    stopped = true;
-    stoppingQueue = true;
-    wake?.();
-    await active?.thread.terminate();
-    await loop;
-    stoppingQueue = false;
-  };
-}
-
 
 // ---------------------------------------------------------------- reproduce
 

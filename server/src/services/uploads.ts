@@ -16,6 +16,7 @@ import { appendAudit } from './audit';
 import type { Delimiter } from './csvFile';
 import { csvRecords } from '@shared/csv';
 import { maskPreview } from './deidentify';
+import { drainJobs, enqueue, JOB, jobWorkersRunning, type JobHandler } from './jobs';
 import { checkInThread, screenInThread, warmUploadThreads } from './uploadThreads';
 import type { RequiredPredictor } from './uploadCheck';
 import { logger } from '../observability/log';
@@ -161,15 +162,17 @@ async function uploadRow(id: string): Promise<UploadRow> {
   return rows[0];
 }
 
+const pause = (ms: number) => new Promise<void>((r) => setTimeout(r, ms));
+
 /** An upload; with `waitSeconds`, an upload being checked is answered when its check ends (or after that long). */
 export async function getUpload(id: string, waitSeconds = 0): Promise<UploadView> {
-  const pass = running.get(id);
-  if (waitSeconds > 0 && pass) {
-    let timer: NodeJS.Timeout | undefined;
-    await Promise.race([pass.catch(() => undefined), new Promise<void>((r) => (timer = setTimeout(r, waitSeconds * 1000)))]);
-    clearTimeout(timer);
+  // The check may run in another process: its row is what every process shares.
+  const deadline = Date.now() + waitSeconds * 1000;
+  let r = await uploadRow(id);
+  while (r.status === 'processing' && Date.now() < deadline) {
+    await pause(Math.min(250, Math.max(1, deadline - Date.now())));
+    r = await uploadRow(id);
   }
-  const r = await uploadRow(id);
   const sv = await dataSource.getRepository(ScoreVersion).findOne({ where: { id: r.score_version_id } });
   return {
     id: r.id, status: r.status, cohortId: r.cohort_id, cohortName: r.cohort_name, scoreVersionId: r.score_version_id, label: r.label,
@@ -189,9 +192,23 @@ export async function assertOwner(actor: AuthUser, id: string): Promise<void> {
 
 // ---- Step 2: mapping and the full pass over the file ----------------------------------------------------------
 
+/** Checks under way in this process (a discard waits for its own; the sweep leaves them alone). */
 const running = new Map<string, Promise<void>>();
-/** For tests and the seed: resolves when the upload's background pass ends. */
-export const whenProcessed = (id: string) => running.get(id) ?? Promise.resolve();
+
+/**
+ * For tests and the seed: resolves when the upload is no longer being checked. A process without job workers checks
+ * the waiting uploads itself (drainJobs); one with workers waits for them.
+ */
+export async function whenProcessed(id: string): Promise<void> {
+  for (;;) {
+    const local = running.get(id);
+    if (local) await local.catch(() => undefined);
+    const [row]: { status: UploadStatus }[] = await dataSource.query('SELECT status FROM cohort_uploads WHERE id = $1', [id]);
+    if (!row || row.status !== 'processing') return;
+    if (jobWorkersRunning()) await pause(100);
+    else if ((await drainJobs(JOB.uploadCheck, uploadCheckJob)) === 0) await pause(100);
+  }
+}
 
 export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnMappingSpec, ip: string, saveAs?: string): Promise<UploadView> {
   const r = await uploadRow(id);
@@ -226,11 +243,64 @@ export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnM
     await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
     if (saveAs) await m.query('INSERT INTO column_mappings (name, cohort_id, mapping, created_by) VALUES ($1, $2, $3, $4)', [saveAs, r.cohort_id, JSON.stringify(mapping), actor.id]);
     await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.mapped', targetType: 'cohort_upload', targetId: id, sourceIp: ip, details: { mapping, savedAs: saveAs ?? null } }, m);
+    await enqueue(m, JOB.uploadCheck, { uploadId: id, plannedVersionId });
   });
-  const job = timeJob('upload_check', () => processUpload(id, sv, mapping, plannedVersionId)).finally(() => running.delete(id));
-  running.set(id, job);
   return getUpload(id);
 }
+
+/** The advisory-lock key of an upload check's lease (as a run's: dropped by PostgreSQL when its process dies). */
+const UPLOAD_LEASE_SQL = `hashtextextended('plumbline upload ' || $1::text, 0)`;
+
+/**
+ * The 'upload-check' job. Its lease makes a retry wait while a live process still checks the file; a retry of a
+ * check whose process died finds the upload still 'processing' (PostgreSQL rolled the dead check's transaction back,
+ * so nothing of it is stored) and checks it again. A job of an older mapping, or of an upload already checked, does nothing.
+ */
+export const uploadCheckJob: JobHandler<{ uploadId: string; plannedVersionId: string }> = async (job) => {
+  const { uploadId: id, plannedVersionId } = job.data;
+  const lease = dataSource.createQueryRunner();
+  await lease.connect();
+  try {
+    await lease.query(`SELECT pg_advisory_lock(${UPLOAD_LEASE_SQL})`, [id]);
+    const r = await uploadRow(id);
+    if (r.status !== 'processing' || r.planned_version_id !== plannedVersionId || !r.mapping) return;
+    if (job.retryCount > 0) {
+      logger.warn({ uploadId: id, attempt: job.retryCount + 1 }, 'checking an upload again after its process stopped');
+      await deleteStagedRows(plannedVersionId);
+    }
+    const sv = await loadScoreVersion(r.score_version_id);
+    const pass = timeJob('upload_check', () => processUpload(id, sv, r.mapping!, plannedVersionId));
+    running.set(id, pass);
+    try {
+      await pass;
+    } finally {
+      running.delete(id);
+    }
+  } finally {
+    await lease.query('SELECT pg_advisory_unlock_all()').catch(() => undefined);
+    await lease.release();
+  }
+};
+
+/** The dead-letter job of a check cut off twice: the upload is marked failed; the steward maps it again. */
+export const uploadCheckAbandonedJob: JobHandler<{ uploadId: string; plannedVersionId: string }> = async (job) => {
+  const { uploadId: id, plannedVersionId } = job.data;
+  await dataSource.transaction(async (m) => {
+    const [, changed] = await m.query(
+      `UPDATE cohort_uploads SET status = 'failed', error = 'the server stopped while this file was being checked; nothing was stored — apply the mapping again to check it', updated_at = now()
+       WHERE id = $1 AND status = 'processing' AND planned_version_id = $2 AND pg_try_advisory_xact_lock(hashtextextended('plumbline upload ' || id::text, 0))`,
+      [id, plannedVersionId],
+    );
+    if (changed === 1) await deleteStagedRows(plannedVersionId, m);
+  });
+  logger.warn({ uploadId: id }, 'an upload check was cut off twice; marked failed');
+};
+
+/** The 'upload-sweep' job (a pg-boss schedule): uploads nobody finished are discarded after the keep period. */
+export const uploadSweepJob: JobHandler = async () => {
+  const n = await discardStaleUploads();
+  if (n) logger.info({ discarded: n }, 'discarded stale uploads');
+};
 
 /** What a discarded or expired upload forgets besides its rows and rejections: everything summarised from the file's cells. */
 const FORGET_DERIVED = `column_summary = '{}', event_period = NULL, rejection_counts = '[]', suggested_mapping = NULL, progress = 0`;
@@ -277,7 +347,7 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
   // The database's own message (table and constraint names) stays in the server log.
   const shown = ending.type === 'error' && ending.database ? 'the database refused the rows or went away (details are in the server log); try again' : message;
   // The check may have failed because PostgreSQL went away: then this write fails too, and is tried again until the
-  // database is back, so the upload never stays "processing" (a restart meanwhile is covered by recoverInterruptedUploads).
+  // database is back, so the upload never stays "processing" (a crash meanwhile is covered by the job's retry).
   await untilStored(`marking upload ${id} failed`, async () => {
     await deleteStagedRows(plannedVersionId);
     await dataSource.query(`UPDATE cohort_uploads SET status = 'failed', error = $2, updated_at = now() WHERE id = $1 AND status = 'processing'`,
@@ -301,24 +371,6 @@ async function untilStored(what: string, write: () => Promise<void>): Promise<vo
 }
 let stopping = false;
 
-/**
- * After a crash: a file whose check was under way was checked by a thread that no longer exists, and PostgreSQL
- * aborted that thread's transaction, so nothing of it is stored. Mark it failed; the steward applies the mapping again.
- */
-export async function recoverInterruptedUploads(): Promise<number> {
-  const rows: { id: string; planned_version_id: string | null }[] = await dataSource.query(`SELECT id, planned_version_id FROM cohort_uploads WHERE status = 'processing'`);
-  for (const r of rows) {
-    if (running.has(r.id)) continue;
-    await deleteStagedRows(r.planned_version_id);
-    await dataSource.query(
-      `UPDATE cohort_uploads SET status = 'failed', error = 'the server stopped while this file was being checked; nothing was stored — apply the mapping again to check it', updated_at = now()
-       WHERE id = $1 AND status = 'processing'`,
-      [r.id],
-    );
-  }
-  if (rows.length) logger.warn({ uploads: rows.map((r) => r.id) }, 'upload checks interrupted by a restart marked failed');
-  return rows.length;
-}
 /**
  * Uploads nobody finished (not stored, not discarded) are discarded after PLUMBLINE_UPLOAD_KEEP_DAYS without a change
  * (default 14): their temp file and staged rows go, and the audit trail says so. Returns how many were discarded.
@@ -376,23 +428,17 @@ export async function sweepUploadDir(now = Date.now()): Promise<string[]> {
   return removed;
 }
 
-/** At start: interrupted checks marked failed, the checking threads started, the stale-upload sweep every 6 hours and
- * the temp-folder sweep every ten minutes. */
+/** In every process that receives uploads: a checking thread started ahead, and the temp-folder sweep at start and
+ * every ten minutes (local files). */
 export async function startUploadUpkeep(): Promise<() => void> {
   stopping = false;
-  await recoverInterruptedUploads();
   warmUploadThreads();
-  const sweep = () => void discardStaleUploads().catch((err: Error) => logger.error({ err }, 'discarding stale uploads failed'));
   const sweepFiles = () => void sweepUploadDir().catch((err: Error) => logger.error({ err }, 'sweeping the upload folder failed'));
-  sweep();
   sweepFiles();
-  const timer = setInterval(sweep, 6 * 60 * 60 * 1000);
   const fileTimer = setInterval(sweepFiles, ORPHAN_AGE_MS);
-  timer.unref();
   fileTimer.unref();
   return () => {
     stopping = true;
-    clearInterval(timer);
     clearInterval(fileTimer);
   };
 }
@@ -501,7 +547,8 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
 export async function discardUpload(actor: AuthUser, id: string, ip: string) {
   const r = await uploadRow(id);
   if (r.status === 'committed') throw conflict('this upload is stored as a cohort version; stored versions are immutable');
-  if (r.status === 'processing') await whenProcessed(id);
+  // A check under way (in any process) is waited for a while; one still running then is refused below.
+  if (r.status === 'processing') await getUpload(id, 30);
   // The upload's row is locked before anything is removed, as commitUpload locks it before storing: of a commit and a
   // discard sent at once, the second waits, then finds the other's status and is refused.
   const tempPath = await dataSource.transaction(async (m) => {
