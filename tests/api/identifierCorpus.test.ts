@@ -48,6 +48,10 @@ const VARIANTS: Variant[] = [
   // A name repeated in several rows (one patient, several stays), in capitals, surname first, with a title, in a numeric column.
   v('names: repeated in 3 rows', 'Tamsin Okoro', [UNIT], 3), v('names: repeated in 12 rows', 'Oskar Brandvold', [UNIT, PRIOR], 12),
   v('names: capitals', 'TAMSIN OKORO', [UNIT], 4), v('names: surname first', 'Okoro, Tamsin', [UNIT], 3), v('names: title', 'Dr Okoro', [UNIT], 3),
+  v('names: accented letters', 'Zoë Ångström', [UNIT], 3), v('names: inside a text', 'seen by Tamsin Okoro on the ward', [UNIT, PRIOR]),
+  v('names: before a label', 'Dr Okoro, Cedar Ward', [UNIT], 3),
+  v('dates: inside a text', 'admitted 14/03/2025 via ED', [UNIT, PRIOR]), v('e-mail addresses: inside a text', 'contact tamsin.okoro@example.org', [UNIT]),
+  v('geographic subdivision: inside a text', 'lives at 12 Juniper Road', [UNIT]), v('free text: a long cell', `note ${'x'.repeat(130)}`, [UNIT]),
   v('names: title and initial', 'Mrs. R. Ashdown-Lee', [UNIT]), v('names: surname and initial', 'OKORO, T.', [UNIT], 3), v('names: particle', 'Anna van der Berg', [UNIT], 3),
   v('names: in a numeric column', "Ciaran O'Dowd", [PRIOR, AGE], 5),
   v('geographic subdivision', '02139'), v('geographic subdivision', '02139-4307'), v('geographic subdivision', '12 Juniper Road'),

@@ -109,6 +109,17 @@ describe('person names in a mapped column (row checks)', () => {
   });
 });
 
+describe('identifiers inside a longer text in a mapped column', () => {
+  const rule = cellRules('unit', 'label', { sixDigitRange: null });
+  it('finds a name, a date, an e-mail address, an address and a long free text', () => {
+    expect(['seen by Tamsin Okoro on the ward', 'Dr Okoro, Cedar Ward', 'admitted 14/03/2025 via ED', 'contact tamsin.okoro@example.org', 'lives at 12 Juniper Road', 'x'.repeat(121)]
+      .map((v) => rule(v)?.category)).toEqual(['names', 'names', 'dates', 'e-mail addresses', 'geographic subdivision', 'free text']);
+  });
+  it('lets labels of several words pass', () => {
+    for (const v of ['Birch Alder Unit', 'North Campus Cedar Ward', 'Main campus', 'Ward 4B', 'Self Pay', '65-79']) expect(rule(v), v).toBeNull();
+  });
+});
+
 describe('six-digit dates in a numeric column', () => {
   it('reads YYMMDD, DDMMYY and MMDDYY with a real calendar day', () => {
     expect(['250314', '140325', '031425', '000229'].map(sixDigitDate)).toEqual([true, true, true, true]);

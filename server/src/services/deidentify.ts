@@ -172,7 +172,7 @@ export function cellRules(header: string, role: 'number' | 'label', options?: Ce
     const x = Number(v);
     return range == null || !(x >= range.min && x <= range.max);
   };
-  return (v: string) => {
+  const rule = (v: string): CellHit | null => {
     if (v === '') return null;
     const num = numberShape.exec(v);
     if (num) {
@@ -205,14 +205,49 @@ export function cellRules(header: string, role: 'number' | 'label', options?: Ce
         return { category: 'ages over 89', reason: 'holds an age group above 89; group them as "90+"' };
       }
     }
-    return null;
+    // The row checks only (the sample screen also sees unmapped columns, which are never stored): text in a mapped column.
+    if (options === undefined) return null;
+    if (v.length > 120) return { category: 'free text', reason: 'holds free text (a cell over 120 characters) in a mapped column; map labels and numbers only' };
+    return v.indexOf(' ') === -1 ? null : embeddedIdentifier(v, rule);
   };
+  return rule;
+}
+
+const STRIP = /^[("'[]+|[)"'\].,;:!?]+$/g;
+
+/**
+ * An identifier inside a cell of several words ("seen by Tamsin Okoro on 14/03/2025"): each word through the cell's
+ * own rules, each run of two to five words through the value, date and name rules. A name must stand on its own (not
+ * inside a longer capitalised label such as "Birch Alder Unit").
+ */
+function embeddedIdentifier(v: string, rule: (v: string) => CellHit | null): CellHit | null {
+  const raw = v.split(/\s+/).filter((t) => t.replace(STRIP, '') !== '');
+  const words = raw.map((t) => t.replace(STRIP, ''));
+  const n = words.length;
+  if (n < 2) return null;
+  // Word i ends a phrase when punctuation follows it ("Dr Okoro, Cedar Ward").
+  const ends = (i: number) => /[,;:.)]$/.test(raw[i]);
+  const bounded = (i: number, len: number) => (i === 0 || ends(i - 1) || !/^\p{Lu}/u.test(words[i - 1])) && (i + len === n || ends(i + len - 1) || !/^\p{Lu}/u.test(words[i + len]));
+  for (let i = 0; i < n; i++) {
+    const hit = rule(words[i]);
+    if (hit) return { category: hit.category, reason: `${hit.reason}, inside a longer text` };
+    for (let len = 2; len <= 5 && i + len <= n; len++) {
+      if (len === n) break; // the whole cell was checked as it is
+      const w = words.slice(i, i + len).join(' ');
+      const id = valueIdentifier(w);
+      if (id) return { category: id.category, reason: `${id.reason}, inside a longer text` };
+      if (isFullDate(w)) return { category: 'dates', reason: 'holds a full date inside a longer text' };
+      if (personName(w) && bounded(i, len)) return { category: 'names', reason: 'holds a personal name inside a longer text' };
+    }
+  }
+  return null;
 }
 
 // Varga, Ashdown-Lee, O'Hara, McKay, VARGA (a capital, then lower case, or all capitals; a prefix or a hyphenated
 // second part allowed).
-const NAME_PART = /^(?:(?:[A-Z]['’])?[A-Z][a-z]+(?:[A-Z][a-z]+)?(?:[-'’][A-Z]?[a-z'’]+)*|(?:[A-Z]['’])?[A-Z]{2,}(?:[-'’][A-Z]{2,})*)$/;
-const INITIAL = /^[A-Z]\.?$/;
+// Letters of any script (Zoë Ångström, José Núñez), not only A–Z.
+const NAME_PART = /^(?:(?:\p{Lu}['’])?\p{Lu}\p{Ll}+(?:\p{Lu}\p{Ll}+)?(?:[-'’]\p{Lu}?[\p{Ll}'’]+)*|(?:\p{Lu}['’])?\p{Lu}{2,}(?:[-'’]\p{Lu}{2,})*)$/u;
+const INITIAL = /^\p{Lu}\.?$/u;
 const PARTICLE = /^(van|von|de|der|den|da|das|do|dos|del|della|di|du|la|le|bin|ibn|al|el|ten|ter)$/;
 const TITLE = /^(mr|mrs|ms|miss|mx|dr|prof|sir|dame|rev|fr)\.?$/i;
 
