@@ -35,15 +35,25 @@ beforeAll(async () => {
 });
 
 // Columns of the demo extract (server/src/db/seeds/kestrelData.ts).
-const AGE = 0, PRIOR = 2, PERIOD = 6, AGE_BAND = 8, UNIT = 9;
-type Variant = { category: string; value: string; columns: number[] };
-const v = (category: string, value: string, columns: number[] = [UNIT]): Variant => ({ category, value, columns });
+const AGE = 0, PRIOR = 2, OUTCOME = 5, PERIOD = 6, AGE_BAND = 8, UNIT = 9;
+/** `rows`: how many neighbouring rows hold the value (a patient with several stays repeats, so a name may too). */
+type Variant = { category: string; value: string; columns: number[]; rows?: number };
+const v = (category: string, value: string, columns: number[] = [UNIT], rows = 1): Variant => ({ category, value, columns, rows });
 const DIGITS = [UNIT, PRIOR];
 const DATES = [UNIT, PERIOD];
 
 /** Invented values, one or more per category and per date family. */
 const VARIANTS: Variant[] = [
   v('names', 'Tamsin Okoro'), v('names', 'Oskar J. Brandvold'), v('names', 'Ruth Ashdown-Lee'), v('names', "Ciaran O'Dowd"),
+  // A name repeated in several rows (one patient, several stays), in capitals, surname first, with a title, in a numeric column.
+  v('names: repeated in 3 rows', 'Tamsin Okoro', [UNIT], 3), v('names: repeated in 12 rows', 'Oskar Brandvold', [UNIT, PRIOR], 12),
+  v('names: capitals', 'TAMSIN OKORO', [UNIT], 4), v('names: surname first', 'Okoro, Tamsin', [UNIT], 3), v('names: title', 'Dr Okoro', [UNIT], 3),
+  v('names: accented letters', 'Zoë Ångström', [UNIT], 3), v('names: inside a text', 'seen by Tamsin Okoro on the ward', [UNIT, PRIOR]),
+  v('names: before a label', 'Dr Okoro, Cedar Ward', [UNIT], 3),
+  v('dates: inside a text', 'admitted 14/03/2025 via ED', [UNIT, PRIOR]), v('e-mail addresses: inside a text', 'contact tamsin.okoro@example.org', [UNIT]),
+  v('geographic subdivision: inside a text', 'lives at 12 Juniper Road', [UNIT]), v('free text: a long cell', `note ${'x'.repeat(130)}`, [UNIT]),
+  v('names: title and initial', 'Mrs. R. Ashdown-Lee', [UNIT]), v('names: surname and initial', 'OKORO, T.', [UNIT], 3), v('names: particle', 'Anna van der Berg', [UNIT], 3),
+  v('names: in a numeric column', "Ciaran O'Dowd", [PRIOR, AGE], 5),
   v('geographic subdivision', '02139'), v('geographic subdivision', '02139-4307'), v('geographic subdivision', '12 Juniper Road'),
   v('geographic subdivision', '221B Larch Street'), v('geographic subdivision', 'SW1A 1AA'), v('geographic subdivision', '4 Alder Close, Eastbury'),
   // Date families (README, "De-identification"): numeric with separators, none, month names, ordinals, ISO week and
@@ -56,7 +66,11 @@ const VARIANTS: Variant[] = [
   v('dates: ordinal with of', 'Friday 14th of March 2025', DATES), v('dates: year first with month name', '2025 Mar 14', DATES), v('dates: ISO week date', '2025-W11-5', DATES),
   v('dates: ISO week', '2025-W11', DATES), v('dates: ISO ordinal date', '2025-073', DATES), v('dates: date-time', '2025-03-14T10:30:00Z', DATES),
   v('dates: date-time with zone', '2025-03-14 10:30:00+01:00', DATES), v('dates: e-mail style', 'Fri, 14 Mar 2025 10:30:00 GMT', DATES), v('dates: compact date-time', '20250314T1030', DATES),
-  v('dates: birth date', '1950-03-14', DATES), v('dates: epoch seconds', '1741950000', [UNIT, PRIOR, PERIOD]), v('dates: epoch milliseconds', '1741950000000', [UNIT, PRIOR, PERIOD]),
+  v('dates: birth date', '1950-03-14', DATES),
+  // Six digits as YYMMDD, DDMMYY or MMDDYY: refused in a numeric predictor without a stated range, outside age's 0–120,
+  // in the outcome and the period (README, "Date rules").
+  v('dates: six digits, YYMMDD', '250314', [UNIT, PRIOR, AGE, OUTCOME, PERIOD]), v('dates: six digits, DDMMYY', '140325', [UNIT, PRIOR, AGE, OUTCOME, PERIOD]),
+  v('dates: six digits, MMDDYY', '031425', [PRIOR, OUTCOME]), v('dates: six digits with a point', '250314.0', [PRIOR, AGE]), v('dates: epoch seconds', '1741950000', [UNIT, PRIOR, PERIOD]), v('dates: epoch milliseconds', '1741950000000', [UNIT, PRIOR, PERIOD]),
   v('telephone numbers', '(555) 201-4477', DIGITS), v('telephone numbers', '+44 20 7946 0958', DIGITS), v('telephone numbers', '555.201.4477', DIGITS), v('telephone numbers', '5552014477', DIGITS),
   v('fax numbers', '+1 555 301 1234', DIGITS),
   v('e-mail addresses', 'tamsin.okoro@example.org'), v('e-mail addresses', 'o.brandvold+ward@mail.example'),
@@ -138,10 +152,12 @@ const searchable = (value: string) => value.length > 4;
 const csvField = (value: string) => (/[",\n]/.test(value) ? `"${value.replace(/"/g, '""')}"` : value);
 function placed(variant: Variant, col: number, place: Place): string[] {
   const lines = linesFor(place);
-  const line = lineFor(place);
-  const cells = lines[line - 1].split(',');
-  cells[col] = csvField(variant.value);
-  lines[line - 1] = cells.join(',');
+  for (let k = 0; k < (variant.rows ?? 1); k++) {
+    const line = lineFor(place, k);
+    const cells = lines[line - 1].split(',');
+    cells[col] = csvField(variant.value);
+    lines[line - 1] = cells.join(',');
+  }
   return lines;
 }
 

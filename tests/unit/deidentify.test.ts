@@ -1,7 +1,7 @@
 // The de-identification screen, one case per HIPAA Safe Harbor category (45 CFR §164.514(b)(2)) plus the allowed forms.
 import { describe, expect, it } from 'vitest';
 import { neutraliseFormula as neutraliseCell } from '@shared/csv';
-import { ageOver89, looksLikeFormula, screenColumns, valueIdentifier } from '../../server/src/services/deidentify';
+import { ageOver89, cellRules, looksLikeFormula, personName, screenColumns, sixDigitDate, valueIdentifier } from '../../server/src/services/deidentify';
 import { periodStart } from '../../server/src/services/uploads';
 
 const rows = (n: number, f: (i: number) => string) => Array.from({ length: n }, (_, i) => [f(i)]);
@@ -93,5 +93,50 @@ describe('event periods', () => {
     expect(periodStart('2025')).toBe('2025-01-01');
     expect(periodStart('2025-03-14')).toBeNull();
     expect(periodStart('March')).toBeNull();
+  });
+});
+
+describe('person names in a mapped column (row checks)', () => {
+  it('takes the written forms of a name for a name, however the value is cased or ordered', () => {
+    for (const v of ['Tamsin Okoro', 'TAMSIN OKORO', 'Okoro, Tamsin', 'OKORO, T.', 'T. Okoro', 'Dr Okoro', 'Mrs. R. Ashdown-Lee', "Ciaran O'Dowd", 'Anna van der Berg']) {
+      expect(personName(v), v).toBe(true);
+    }
+  });
+  it('lets labels of places, services, payers and groups pass', () => {
+    for (const v of ['Cedar Ward', 'Ward 4B', 'North Campus', 'MAIN CAMPUS', 'Self Pay', 'Kestrel Mutual', 'Pacific Islander', 'White British', 'female', 'Medicare', 'Birch', 'Main campus', '2025-Q1']) {
+      expect(personName(v), v).toBe(false);
+    }
+  });
+});
+
+describe('identifiers inside a longer text in a mapped column', () => {
+  const rule = cellRules('unit', 'label', { sixDigitRange: null });
+  it('finds a name, a date, an e-mail address, an address and a long free text', () => {
+    expect(['seen by Tamsin Okoro on the ward', 'Dr Okoro, Cedar Ward', 'admitted 14/03/2025 via ED', 'contact tamsin.okoro@example.org', 'lives at 12 Juniper Road', 'x'.repeat(121)]
+      .map((v) => rule(v)?.category)).toEqual(['names', 'names', 'dates', 'e-mail addresses', 'geographic subdivision', 'free text']);
+  });
+  it('lets labels of several words pass', () => {
+    for (const v of ['Birch Alder Unit', 'North Campus Cedar Ward', 'Main campus', 'Ward 4B', 'Self Pay', '65-79']) expect(rule(v), v).toBeNull();
+  });
+});
+
+describe('six-digit dates in a numeric column', () => {
+  it('reads YYMMDD, DDMMYY and MMDDYY with a real calendar day', () => {
+    expect(['250314', '140325', '031425', '000229'].map(sixDigitDate)).toEqual([true, true, true, true]);
+    expect(['999999', '123456', '202513', '253199'].map(sixDigitDate)).toEqual([false, false, false, false]);
+  });
+  it('refuses one in a date-named column, outside a stated range or without one; keeps one inside a stated range', () => {
+    const noRange = cellRules('prior_admissions', 'number', { sixDigitRange: null });
+    const wide = cellRules('platelets', 'number', { sixDigitRange: { min: 0, max: 1_000_000 } });
+    const sample = cellRules('prior_admissions', 'number');
+    expect(noRange('250314')?.category).toBe('dates');
+    expect(noRange('250314.0')?.category).toBe('dates');
+    expect(noRange('250314.5')).toBeNull();
+    expect(noRange('123456')).toBeNull();
+    expect(wide('250314')).toBeNull();
+    expect(cellRules('age', 'number', { sixDigitRange: { min: 0, max: 120 } })('140325')?.category).toBe('dates');
+    // The sample screen does not know the mapping: there only a date-named column refuses them.
+    expect(sample('250314')).toBeNull();
+    expect(cellRules('visit_day', 'number')('250314')?.category).toBe('dates');
   });
 });

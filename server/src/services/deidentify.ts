@@ -137,16 +137,42 @@ const isAgeLikeHeader = (h: string) => isAgeHeader(h) || /(^|_)age($|_)|age_?(ba
 
 export type CellHit = { category: string; reason: string };
 
+/** A six-digit whole number that reads as a real calendar day: YYMMDD, DDMMYY or MMDDYY (years 1900–2099). */
+export function sixDigitDate(t: string): boolean {
+  if (t.length !== 6) return false;
+  const a = +t.slice(0, 2), b = +t.slice(2, 4), c = +t.slice(4, 6);
+  const day = (y: number, m: number, d: number) => validYmd(2000 + y, m, d) || validYmd(1900 + y, m, d);
+  return day(a, b, c) || day(c, b, a) || day(c, a, b);
+}
+
+export interface CellRuleOptions {
+  /**
+   * The full pass of a mapped column: where a six-digit whole number that reads as a calendar day (`250314`) is an
+   * ordinary value — the predictor's plausible range; null: nowhere (the outcome, the period, a predictor without a
+   * stated range). Without options (the sample screen, which does not know the mapping) only a date-named column
+   * refuses them.
+   */
+  sixDigitRange?: { min: number; max: number } | null;
+}
+
 /**
  * The full rule set for one mapped column, applied to every cell of the file (trimmed), organised by the cell's shape.
  * `number`: a numeric predictor, the outcome or the period (a 5- or 6-digit number is an ordinary value there);
  * `label`: a subgroup or a categorical predictor (a 5-digit number there is a ZIP code, 6 digits a record number).
  */
-export function cellRules(header: string, role: 'number' | 'label'): (v: string) => CellHit | null {
+export function cellRules(header: string, role: 'number' | 'label', options?: CellRuleOptions): (v: string) => CellHit | null {
   const dateHeader = isDateHeader(header);
   const ageHeader = isAgeLikeHeader(header);
   const numberShape = /^[+-]?(\d+)(\.\d*)?$/;
-  return (v: string) => {
+  const sixDigitIsDate = (int: string, whole: boolean, v: string): boolean => {
+    if (!whole || !sixDigitDate(int)) return false;
+    if (dateHeader) return true;
+    if (options === undefined) return false;
+    const range = options.sixDigitRange;
+    const x = Number(v);
+    return range == null || !(x >= range.min && x <= range.max);
+  };
+  const rule = (v: string): CellHit | null => {
     if (v === '') return null;
     const num = numberShape.exec(v);
     if (num) {
@@ -154,7 +180,12 @@ export function cellRules(header: string, role: 'number' | 'label'): (v: string)
       const n = int.length;
       if (ageHeader && ageOver89(v)) return { category: 'ages over 89', reason: 'holds an age over 89; group them as "90+"' };
       if (n < 5) return null;
-      if (!num[2] && n === 8 && eightDigitDate(int)) return { category: 'dates', reason: 'holds an eight-digit full date (day, month and year)' };
+      // "250314" and "250314.0" alike: a point followed by zeros only does not make a date a measurement.
+      const whole = !num[2] || /^\.0*$/.test(num[2]);
+      if (whole && n === 8 && eightDigitDate(int)) return { category: 'dates', reason: 'holds an eight-digit full date (day, month and year)' };
+      if (n === 6 && sixDigitIsDate(int, whole, v)) {
+        return { category: 'dates', reason: 'holds a six-digit value that reads as a full date (YYMMDD, DDMMYY or MMDDYY) outside the column\'s plausible range; if six-digit values are real measurements here, state the predictor\'s range in the mapping' };
+      }
       if (dateHeader && n >= 9 && n <= 13) return { category: 'dates', reason: 'holds an epoch timestamp in a date column (a full date)' };
       if (n >= 7) return { category: 'unique identifying numbers', reason: `holds a long digit string (${n} digits), like a record, account or telephone number` };
       if (role === 'label' && !num[2] && n === 5) return { category: 'geographic subdivision', reason: 'holds a five-digit value in a label column, like a ZIP code' };
@@ -174,25 +205,95 @@ export function cellRules(header: string, role: 'number' | 'label'): (v: string)
         return { category: 'ages over 89', reason: 'holds an age group above 89; group them as "90+"' };
       }
     }
-    return null;
+    // The row checks only (the sample screen also sees unmapped columns, which are never stored): text in a mapped column.
+    if (options === undefined) return null;
+    if (v.length > 120) return { category: 'free text', reason: 'holds free text (a cell over 120 characters) in a mapped column; map labels and numbers only' };
+    return v.indexOf(' ') === -1 ? null : embeddedIdentifier(v, rule);
   };
+  return rule;
 }
 
-// Varga, Ashdown-Lee, O'Hara, McKay (a capital, then lower case; a prefix or a hyphenated second part allowed).
-const NAME_PART = /^(?:[A-Z]['’])?[A-Z][a-z]+(?:[A-Z][a-z]+)?(?:[-'’][A-Z]?[a-z'’]+)*,?$/;
-const INITIAL = /^[A-Z]\.?$/;
+const STRIP = /^[("'[]+|[)"'\].,;:!?]+$/g;
 
-/** "Firstname Lastname", two to three names with an optional initial between: a person's name when it is rare in its column. */
-export function nameLike(v: string): boolean {
-  if (v.length < 5 || v.length > 60) return false;
-  const parts = v.split(' ');
-  if (parts.length < 2 || parts.length > 4) return false;
+/**
+ * An identifier inside a cell of several words ("seen by Tamsin Okoro on 14/03/2025"): each word through the cell's
+ * own rules, each run of two to five words through the value, date and name rules. A name must stand on its own (not
+ * inside a longer capitalised label such as "Birch Alder Unit").
+ */
+function embeddedIdentifier(v: string, rule: (v: string) => CellHit | null): CellHit | null {
+  const raw = v.split(/\s+/).filter((t) => t.replace(STRIP, '') !== '');
+  const words = raw.map((t) => t.replace(STRIP, ''));
+  const n = words.length;
+  if (n < 2) return null;
+  // Word i ends a phrase when punctuation follows it ("Dr Okoro, Cedar Ward").
+  const ends = (i: number) => /[,;:.)]$/.test(raw[i]);
+  const bounded = (i: number, len: number) => (i === 0 || ends(i - 1) || !/^\p{Lu}/u.test(words[i - 1])) && (i + len === n || ends(i + len - 1) || !/^\p{Lu}/u.test(words[i + len]));
+  for (let i = 0; i < n; i++) {
+    const hit = rule(words[i]);
+    if (hit) return { category: hit.category, reason: `${hit.reason}, inside a longer text` };
+    for (let len = 2; len <= 5 && i + len <= n; len++) {
+      if (len === n) break; // the whole cell was checked as it is
+      const w = words.slice(i, i + len).join(' ');
+      const id = valueIdentifier(w);
+      if (id) return { category: id.category, reason: `${id.reason}, inside a longer text` };
+      if (isFullDate(w)) return { category: 'dates', reason: 'holds a full date inside a longer text' };
+      if (personName(w) && bounded(i, len)) return { category: 'names', reason: 'holds a personal name inside a longer text' };
+    }
+  }
+  return null;
+}
+
+// Varga, Ashdown-Lee, O'Hara, McKay, VARGA (a capital, then lower case, or all capitals; a prefix or a hyphenated
+// second part allowed).
+// Letters of any script (Zoë Ångström, José Núñez), not only A–Z.
+const NAME_PART = /^(?:(?:\p{Lu}['’])?\p{Lu}\p{Ll}+(?:\p{Lu}\p{Ll}+)?(?:[-'’]\p{Lu}?[\p{Ll}'’]+)*|(?:\p{Lu}['’])?\p{Lu}{2,}(?:[-'’]\p{Lu}{2,})*)$/u;
+const INITIAL = /^\p{Lu}\.?$/u;
+const PARTICLE = /^(van|von|de|der|den|da|das|do|dos|del|della|di|du|la|le|bin|ibn|al|el|ten|ter)$/;
+const TITLE = /^(mr|mrs|ms|miss|mx|dr|prof|sir|dame|rev|fr)\.?$/i;
+
+/**
+ * "Firstname Lastname", "LASTNAME, Firstname", "T. Lastname", "Dr Lastname": one to three names with initials before
+ * or between them (two parts at least), or a title and one to three names. A person's name in any mapped column refuses the upload (personName).
+ */
+export function nameLike(raw: string): boolean {
+  const v = raw.trim();
+  if (v.length < 4 || v.length > 60) return false;
+  const parts = v.split(/\s*,\s*|\s+/);
+  const titled = parts.length >= 2 && TITLE.test(parts[0]);
+  if (titled) parts.shift();
+  if (parts.length < (titled ? 1 : 2) || parts.length > 5) return false;
   let names = 0;
   for (let i = 0; i < parts.length; i++) {
     if (NAME_PART.test(parts[i])) names++;
-    else if (!(INITIAL.test(parts[i]) && i > 0 && i < parts.length - 1)) return false;
+    // Initials anywhere but last (unless after a comma): "Oskar J. Brandvold", "T. Okoro", "OKORO, T.".
+    else if (INITIAL.test(parts[i]) && (i < parts.length - 1 || v.includes(','))) continue;
+    // Particles between names: "Anna van der Berg", "Luis de la Vega".
+    else if (!(PARTICLE.test(parts[i]) && i > 0 && i < parts.length - 1)) return false;
   }
-  return names >= 2 && names <= 3;
+  return names >= 1 && names <= 3;
+}
+
+// Words that make a capitalised pair the label of a place, a service, a payer or a group of patients, not a person
+// ("Cedar Ward", "Main Campus", "Self Pay", "Pacific Islander"). Words that are also common surnames (West, Hall,
+// White, Day…) are left out on purpose: a label made only of such words is refused and recoded by the steward.
+const LABEL_WORDS = new Set(`ward wards unit units wing campus annex annexe site clinic clinics hospital hospitals
+infirmary centre center building block floor department dept service services team practice surgery surgical medicine
+medical general regional community trust health healthcare care acute intensive critical emergency outpatient
+outpatients inpatient inpatients cardiology oncology orthopaedics orthopedics maternity paediatrics pediatrics
+geriatrics renal stroke respiratory theatre theatres icu hdu ccu nicu picu ed er or main upper lower private public
+self pay paid insured uninsured insurance plan plans fund scheme payer medicaid medicare government federal military
+mutual assurance benefit benefits plus cross shield advantage choice basic standard commercial managed workers
+compensation
+veterans charity other others unknown not stated none missing declined male female british irish african american
+caribbean pacific islander native hispanic latino latina latinx asian mixed european arab indian chinese eastern
+middle hawaiian alaska alaskan aboriginal indigenous race ethnic ethnicity group urban rural home nursing residential
+hospice elective urgent planned routine referral transfer transferred discharged admitted`.split(/\s+/));
+
+/** A value shaped like a person's name (nameLike) none of whose words is a place, service, payer or group word. */
+export function personName(v: string): boolean {
+  if (!nameLike(v)) return false;
+  for (const w of v.trim().toLowerCase().split(/[\s,.]+/)) if (LABEL_WORDS.has(w)) return false;
+  return true;
 }
 
 /**
@@ -285,8 +386,8 @@ export function screenColumns(headers: string[], sample: string[][], options: { 
       if (over !== undefined) addOnce(refused, { column: header, category: 'ages over 89', reason: `holds ages over 89 (e.g. line ${lineOf(sample, col, over)}); group them as "90+"` });
     }
 
-    // Names: mostly distinct "Firstname Lastname" values (units and sites repeat, so they pass).
-    const names = values.filter(nameLike);
+    // Names in the sample: mostly distinct "Firstname Lastname" values (the row checks refuse any one in a mapped column).
+    const names = values.filter(personName);
     if (values.length >= 5 && names.length / values.length >= 0.5 && distinctRatio(names) >= 0.5) {
       addOnce(refused, { column: header, category: 'names', reason: 'holds values that look like personal names' });
     }

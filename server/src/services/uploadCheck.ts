@@ -6,7 +6,7 @@ import type { ColumnMappingSpec, ColumnSummary, ScreenFinding } from '@shared/co
 import { csvBatches, extraLines, isEmptyRecord, type Delimiter } from './csvFile';
 import { parseDecimal } from '@shared/decimal';
 import { BlockWriter } from './cohortBlocks';
-import { ageOver89, cellRules, isAgeHeader, looksLikeFormula, nameLike, type CellHit } from './deidentify';
+import { ageOver89, cellRules, isAgeHeader, looksLikeFormula, personName, type CellHit } from './deidentify';
 
 export const MAX_STORED_REJECTIONS = 100_000;
 const RESERVOIR = 5000;
@@ -205,14 +205,20 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   // Numeric predictors take many values (checked cell by cell); the other mapped columns repeat a few levels.
   const numericIdx = new Set(preds.filter((p) => p.numeric).map((p) => p.idx));
   const labelIdx = new Set([...preds.filter((p) => !p.numeric).map((p) => p.idx), ...subs.map((s) => s.idx)]);
-  // Every cell of every mapped column goes through the full rule set for its column (deidentify.ts, cellRules).
+  // Every cell of every mapped column goes through the full rule set for its column (deidentify.ts, cellRules). A
+  // six-digit calendar day is an ordinary value only inside a numeric predictor's stated plausible range.
+  const sixDigitRange = (i: number) => {
+    const p = preds.find((q) => q.idx === i && q.numeric);
+    if (!p || labelIdx.has(i) || i === outcomeIdx || i === dateIdx || !Number.isFinite(p.max)) return null;
+    return { min: p.min, max: p.max };
+  };
   const judgeFor = (i: number) => {
-    const rule = cellRules(headers[i], labelIdx.has(i) && !numericIdx.has(i) ? 'label' : 'number');
+    const rule = cellRules(headers[i], labelIdx.has(i) && !numericIdx.has(i) ? 'label' : 'number', { sixDigitRange: sixDigitRange(i) });
     return (raw: string): Verdict => {
       const v = raw.trim();
       const formula = looksLikeFormula(v);
       const hit = rule(v);
-      const name = !hit && nameLike(v);
+      const name = !hit && personName(v);
       return formula || hit || name ? { formula, hit, name } : CLEAN;
     };
   };
@@ -231,8 +237,6 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     }
     return verdict;
   };
-  // Values shaped like a person's name: a unit or site repeats, a name is rare (checked when the file ends).
-  const names = mappedIdx.map(() => new Map<string, { count: number; line: number }>());
 
   const numPreds = preds.filter((p) => p.numeric);
   const catPreds = preds.filter((p) => !p.numeric);
@@ -278,12 +282,8 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
       const verdict = cells ? cells.verdict : judgeNumber(j, v);
       if (verdict === CLEAN) continue;
       if (verdict.hit) { refusal = { column: headers[i], category: verdict.hit.category, reason: `${verdict.hit.reason} (line ${line})` }; return STOP; }
-      if (verdict.name) {
-        const seen = names[j].get(v);
-        if (seen) seen.count++;
-        else if (names[j].size >= 10_000) { refusal = { column: headers[i], category: 'names', reason: `holds thousands of distinct values that look like personal names (line ${line})` }; return STOP; }
-        else names[j].set(v, { count: 1, line });
-      }
+      // A person's name refuses wherever it is and however often it repeats (a patient with several stays repeats too).
+      if (verdict.name) { refusal = { column: headers[i], category: 'names', reason: `holds a value that looks like a personal name (line ${line}); recode the label or remove names` }; return STOP; }
       if (verdict.formula) { reject(line, headers[i], v.trim(), 'the cell looks like a spreadsheet formula', 'formula-looking cell'); bad = true; }
     }
     if (bad) { rejectedRows++; return NEXT; }
@@ -369,12 +369,6 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
         if (r === FLUSH) await sink.rows(writer.flush());
       }
       progress();
-    }
-    // A value shaped like a person's name in fewer than three rows of its column is taken for a name.
-    for (let j = 0; j < mappedIdx.length && !refusal; j++) {
-      for (const { count, line } of names[j].values()) {
-        if (count < 3) { refusal = { column: headers[mappedIdx[j]], category: 'names', reason: `holds a value that looks like a personal name in fewer than three rows (line ${line}); merge rare levels or remove names` }; break; }
-      }
     }
     if (!refusal) {
       if (writer.pending) await sink.rows(writer.flush());
