@@ -1,4 +1,5 @@
 // Cohort uploads: screen → map and check rows → store (one transaction, COPY) or discard.
+import type { PeriodKind } from '@shared/periods';
 import { randomUUID } from 'node:crypto';
 import { readdir, stat, unlink } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
@@ -148,7 +149,7 @@ interface UploadRow {
   period_start: string | null; period_end: string | null; source_filename: string; temp_path: string | null;
   sha256: string; bytes: string; delimiter: Delimiter; headers: string[]; warnings: ScreenFinding[]; suggested_mapping: ColumnMappingSpec | null;
   mapping: ColumnMappingSpec | null; progress: number; rows_read: number; rows_accepted: number; rows_rejected: number; events: number;
-  rejection_counts: { reason: string; count: number }[]; column_summary: Record<string, import('@shared/cohorts').ColumnSummary>; event_period: { min: string; max: string } | null;
+  rejection_counts: { reason: string; count: number }[]; column_summary: Record<string, import('@shared/cohorts').ColumnSummary>; event_period: { min: string; max: string; end?: string; kind?: PeriodKind | null } | null;
   planned_version_id: string | null; cohort_version_id: string | null; error: string | null; created_by: string | null; created_at: Date;
 }
 
@@ -462,17 +463,20 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
     const [{ next }] = await qr.query('SELECT coalesce(max(version), 0) + 1 AS next FROM cohort_versions WHERE cohort_id = $1', [cohortId]);
     version = next;
     const period = r.event_period;
+    // The version ends on the last day of its latest period (2026-Q2 ends 2026-06-30); an upload checked before the
+    // end was recorded falls back to the end of the latest start's month.
     const endOfMonth = (d: string) => {
       const [y, m] = d.split('-').map(Number);
       return new Date(Date.UTC(y, m, 0)).toISOString().slice(0, 10);
     };
     const exclusions = r.rejection_counts;
-    const mapping = { ...r.mapping, scoreVersionId: r.score_version_id, delimiter: r.delimiter };
+    // periodKind: how the rows' periods were labelled, so they are shown as uploaded (2026-Q2, not 2026-04-01).
+    const mapping = { ...r.mapping, scoreVersionId: r.score_version_id, delimiter: r.delimiter, periodKind: period?.kind ?? null };
     const [v] = await qr.query(
       `INSERT INTO cohort_versions (id, cohort_id, version, label, period_start, period_end, source_filename, source_sha256, source_bytes,
          row_count, events, excluded_count, exclusions, mapping, column_summary, uploaded_by)
        VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16) RETURNING id`,
-      [r.planned_version_id, cohortId, version, r.label || `version ${version}`, r.period_start ?? period?.min ?? null, r.period_end ?? (period ? endOfMonth(period.max) : null),
+      [r.planned_version_id, cohortId, version, r.label || `version ${version}`, r.period_start ?? period?.min ?? null, r.period_end ?? (period ? (period.end ?? endOfMonth(period.max)) : null),
         r.source_filename, r.sha256, r.bytes, r.rows_accepted, r.events, r.rows_rejected, JSON.stringify(exclusions), JSON.stringify(mapping), JSON.stringify(r.column_summary), actor.id],
     );
     versionId = v.id;
