@@ -61,6 +61,8 @@ export interface DriftPeriod {
   runChoice: 'chosen' | 'newest';
   /** other completed runs of the score version on the same cohort version, left off the timeline */
   otherRuns: number;
+  /** every completed run of the score version on this cohort version, oldest first (the statistician may choose one) */
+  runsOfCohortVersion: { runId: string; runNumber: number; finishedAt: string }[];
   label: string;
   /** what the cohort version's dates cover: one month, quarter, half-year or year, else the range; months when whole */
   period: { label: string; kind: PeriodKind | null; months: number | null };

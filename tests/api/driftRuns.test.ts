@@ -51,7 +51,8 @@ describe('drift timeline: one run per cohort version', () => {
     const body = await timeline();
     expect(body.periods.map((p) => p.cohortVersionId)).toEqual([cv.q1, cv.q2, cv.h2]);
     expect(body.periods.map((p) => p.runId)).toEqual([runs.q1again, runs.q2, runs.h2]);
-    expect(body.periods[0]).toMatchObject({ runChoice: 'newest', otherRuns: 1, runNumber: 4 });
+    expect(body.periods[0]).toMatchObject({ runChoice: "newest", otherRuns: 1, runNumber: 4 });
+    expect(body.periods[0].runsOfCohortVersion.map((r) => [r.runId, r.runNumber])).toEqual([[runs.q1first, 1], [runs.q1again, 4]]);
     expect(body.periods[1]).toMatchObject({ runChoice: 'newest', otherRuns: 0, runNumber: 3 });
     expect(body.periods.map((p) => p.period)).toEqual([
       { label: '2024-Q1', kind: 'quarter', months: 3 },

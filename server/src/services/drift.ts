@@ -52,7 +52,7 @@ interface RunRow {
   /** 1 for the first run of the score version, in the order runs were started */
   run_number: number;
   /** completed runs of this score version on the same cohort version */
-  completed_runs: number;
+  runs_of_cohort: DriftPeriod['runsOfCohortVersion'];
 }
 
 interface VersionRow {
@@ -100,7 +100,10 @@ async function completedRuns(versionId: string): Promise<RunRow[]> {
               ov.o->'calibrationSlope' AS slope, ov.o->'oe' AS oe,
               (ch.run_id = r.id) IS TRUE AS chosen,
               (SELECT count(*)::int FROM validation_runs x WHERE x.score_version_id = r.score_version_id AND (x.created_at, x.id) <= (r.created_at, r.id)) AS run_number,
-              (SELECT count(*)::int FROM validation_runs x WHERE x.score_version_id = r.score_version_id AND x.cohort_version_id = r.cohort_version_id AND x.status = 'completed') AS completed_runs,
+              (SELECT json_agg(json_build_object('runId', x.id, 'finishedAt', x.finished_at,
+                        'runNumber', (SELECT count(*) FROM validation_runs z WHERE z.score_version_id = x.score_version_id AND (z.created_at, z.id) <= (x.created_at, x.id)))
+                      ORDER BY x.created_at, x.id)
+               FROM validation_runs x WHERE x.score_version_id = r.score_version_id AND x.cohort_version_id = r.cohort_version_id AND x.status = 'completed') AS runs_of_cohort,
               r.finished_at
        FROM validation_runs r JOIN cohort_versions cv ON cv.id = r.cohort_version_id
        LEFT JOIN drift_run_choices ch ON ch.score_version_id = r.score_version_id AND ch.cohort_version_id = r.cohort_version_id
@@ -204,7 +207,8 @@ async function driftCore(versionId: string): Promise<DriftCore> {
       runNumber: r.run_number,
       cohortVersionId: r.cohort_version_id,
       runChoice: r.chosen ? 'chosen' : 'newest',
-      otherRuns: Math.max(0, r.completed_runs - 1),
+      otherRuns: Math.max(0, r.runs_of_cohort.length - 1),
+      runsOfCohortVersion: r.runs_of_cohort,
       label: r.label || r.period_start || r.id.slice(0, 8),
       periodStart: r.period_start,
       periodEnd: r.period_end,

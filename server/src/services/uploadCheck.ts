@@ -181,6 +181,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     const prob = input.supplied;
     return {
       name: p.column, fileCol, idx: col(fileCol), numeric: p.kind === 'numeric', positiveOnly: p.positiveOnly, age,
+      labels: mapping.labels?.[p.column] ? new Map(Object.entries(mapping.labels[p.column])) : null,
       min: range.min ?? (age ? 0 : prob ? 0 : -Infinity), max: range.max ?? (age ? 120 : prob ? 1 : Infinity),
     };
   });
@@ -301,7 +302,9 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
         numVals[slot[k]] = x;
       } else {
         const v = catIntern[slot[k]].intern(raw);
-        catVals[slot[k]] = v;
+        // The steward's confirmed reading of a label (Y → yes) is what is stored; '' keeps the label ("not the level").
+        const read = p.labels === null ? undefined : p.labels.get(v);
+        catVals[slot[k]] = read ? read : v;
       }
     }
     const yRaw = outcomeIntern.intern(record[outcomeIdx].trim());

@@ -1,5 +1,6 @@
 // Cohort uploads: screen → map and check rows → store (one transaction, COPY) or discard.
 import type { PeriodKind } from '@shared/periods';
+import { codingIssues, predictorViews } from './codingCheck';
 import { randomUUID } from 'node:crypto';
 import { readdir, stat, unlink } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
@@ -172,13 +173,15 @@ export async function getUpload(id: string, waitSeconds = 0): Promise<UploadView
   }
   const r = await uploadRow(id);
   const sv = await dataSource.getRepository(ScoreVersion).findOne({ where: { id: r.score_version_id } });
+  const views = sv ? predictorViews(sv, r.mapping ?? r.suggested_mapping) : [];
   return {
     id: r.id, status: r.status, cohortId: r.cohort_id, cohortName: r.cohort_name, scoreVersionId: r.score_version_id, label: r.label,
     periodStart: r.period_start, periodEnd: r.period_end, sourceFilename: r.source_filename, sha256: r.sha256, bytes: Number(r.bytes),
     delimiter: r.delimiter, headers: r.headers, warnings: r.warnings, suggestedMapping: r.suggested_mapping, mapping: r.mapping,
     progress: r.progress, rowsRead: r.rows_read, rowsAccepted: r.rows_accepted, rowsRejected: r.rows_rejected, events: r.events,
     rejectionCounts: r.rejection_counts, columnSummary: r.column_summary, cohortVersionId: r.cohort_version_id, error: r.error,
-    createdAt: new Date(r.created_at).toISOString(), requiredPredictors: sv ? requiredPredictors(sv) : [],
+    createdAt: new Date(r.created_at).toISOString(), requiredPredictors: views,
+    codingIssues: r.status === 'checked' ? codingIssues(views, r.mapping, r.column_summary) : [],
   };
 }
 
@@ -206,6 +209,12 @@ export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnM
     else if (!has(col)) problems.push(`predictor "${p.column}": the file has no column "${col}"`);
   }
   for (const k of Object.keys(mapping.predictors)) if (!requiredPredictors(sv).some((p) => p.column === k)) problems.push(`"${k}" is not a predictor of this score version`);
+  // Label readings only for indicator columns, and only into the formula's levels (or '' for "none of them").
+  for (const [k, readings] of Object.entries(mapping.labels ?? {})) {
+    const levels = predictorViews(sv, mapping).find((p) => p.column === k)?.levels ?? [];
+    if (!levels.length) { problems.push(`"${k}" is not an indicator predictor of this score version, so its labels cannot be mapped`); continue; }
+    for (const [label, level] of Object.entries(readings)) if (level !== '' && !levels.includes(level)) problems.push(`${k}: "${label}" can only be read as ${levels.map((l) => `"${l}"`).join(', ')} or as none of them`);
+  }
   if (!has(mapping.outcome.column)) problems.push(`outcome: the file has no column "${mapping.outcome.column}"`);
   const pos = mapping.outcome.positive.map((s) => s.toLowerCase());
   if (mapping.outcome.negative.some((n) => pos.includes(n.toLowerCase()))) problems.push('outcome: a label cannot be both positive and negative');
@@ -441,6 +450,9 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
   }
   if (r.rows_accepted === 0) throw new HttpError(422, 'no row passed the checks; nothing to store');
   const sv = await loadScoreVersion(r.score_version_id);
+  // A coding mismatch (Y/N against the level "yes") stores nothing: the steward maps the labels or goes back.
+  const mismatches = codingIssues(predictorViews(sv, r.mapping), r.mapping, r.column_summary);
+  if (mismatches.length) throw new HttpError(409, `the coding does not match the score: ${mismatches.map((m) => m.message).join(' ')}`, { codingIssues: mismatches });
   const qr = dataSource.createQueryRunner();
   await qr.connect();
   await qr.startTransaction();
