@@ -34,6 +34,11 @@ export const columnMapping = z.object({
   subgroups: z.record(z.string().trim().min(1).max(60).regex(/^[A-Za-z][A-Za-z0-9_ ]*$/, 'subgroup names are letters, digits, _ and spaces'), z.string().min(1).max(200)).default({}),
   /** Optional plausible range per predictor; age gets 0–120 and a supplied probability [0, 1] by default. */
   ranges: z.record(z.string(), z.object({ min: z.number().finite().optional(), max: z.number().finite().optional() })).default({}),
+  /**
+   * Per text predictor, the steward's confirmed reading of the file's labels: file label → the formula's level it means,
+   * or '' for "none of the formula's levels". Applied to the rows as they are stored (Y → yes).
+   */
+  labels: z.record(z.string().min(1).max(80), z.record(z.string().min(1).max(80), z.string().max(80))).optional(),
 });
 export type ColumnMappingSpec = z.infer<typeof columnMapping>;
 
@@ -131,6 +136,33 @@ export interface UploadView {
   cohortVersionId: string | null;
   error: string | null;
   createdAt: string;
-  /** The score's columns the mapping must cover (from the score version). */
-  requiredPredictors: { column: string; kind: 'numeric' | 'text'; positiveOnly: boolean }[];
+  /** The score's columns the mapping must cover (from the score version), with what the formula expects of each. */
+  requiredPredictors: RequiredPredictorView[];
+  /** Indicator columns whose labels do not match the formula's levels: the upload cannot be stored until each is resolved. */
+  codingIssues: CodingIssue[];
+}
+
+export interface RequiredPredictorView {
+  column: string;
+  kind: 'numeric' | 'text';
+  positiveOnly: boolean;
+  /** how the column enters the formula: linear, log, indicator, rcs (one column may feed several terms) */
+  transforms: string[];
+  /** indicator levels the formula names (the value that gives 1) */
+  levels: string[];
+  unit: string | null;
+  /** the plausible range the row checks apply (null bounds: none) */
+  range: { min: number | null; max: number | null };
+}
+
+export interface CodingIssue {
+  predictor: string;
+  fileColumn: string;
+  /** the levels the formula names for this column */
+  levels: string[];
+  /** levels that never occur in the checked rows */
+  absent: string[];
+  /** labels in the column that the formula does not name and the steward has not confirmed */
+  unnamed: { value: string; count: number }[];
+  message: string;
 }

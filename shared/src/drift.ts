@@ -1,6 +1,7 @@
 import { z } from 'zod';
 import type { Estimate } from './validation';
 import type { ScoreModel } from './model';
+import type { PeriodKind } from './periods';
 
 /** GET /api/sample-size: anticipated event rate and C, and at least one target 95% CI width. */
 export const sampleSizeQuery = z
@@ -52,8 +53,19 @@ export interface FunnelPoint {
 }
 
 export interface DriftPeriod {
+  /** The run this point comes from: one per cohort version (chosen by the statistician, else the newest completed). */
   runId: string;
+  /** 1 for the first run of the score version, in the order runs were started */
+  runNumber: number;
+  cohortVersionId: string;
+  runChoice: 'chosen' | 'newest';
+  /** other completed runs of the score version on the same cohort version, left off the timeline */
+  otherRuns: number;
+  /** every completed run of the score version on this cohort version, oldest first (the statistician may choose one) */
+  runsOfCohortVersion: { runId: string; runNumber: number; finishedAt: string }[];
   label: string;
+  /** what the cohort version's dates cover: one month, quarter, half-year or year, else the range; months when whole */
+  period: { label: string; kind: PeriodKind | null; months: number | null };
   periodStart: string | null;
   periodEnd: string | null;
   n: number;
@@ -67,6 +79,13 @@ export interface DriftPeriod {
   oe: Estimate | null;
   funnel: FunnelPoint;
 }
+
+export const driftRunChoice = z.object({
+  cohortVersionId: z.string().uuid(),
+  /** null: back to the newest completed run */
+  runId: z.string().uuid().nullable(),
+});
+export type DriftRunChoice = z.infer<typeof driftRunChoice>;
 
 export interface DriftCusum {
   oddsRatio: number;

@@ -93,12 +93,22 @@ export interface CommentView {
   createdAt: string;
 }
 
+export interface ApprovalView {
+  runId: string;
+  /** 1 for the first run of the score version, in the order runs were started. */
+  runNumber: number;
+  cohortLabel: string;
+  signedAt: string | null;
+}
+
 export interface RunGovernanceView {
   runId: string;
   runStatus: string;
   scoreVersionId: string;
   clinicalStatus: string;
   approvedRunId: string | null;
+  /** The run the score version's approval rests on (any run of the version, not necessarily this one). */
+  approval: ApprovalView | null;
   reviews: ReviewView[];
   signatures: SignatureView[];
   /** What may happen next, for the signed-in account (the server checks again on every request). */

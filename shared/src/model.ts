@@ -11,6 +11,8 @@ export const predictorSchema = z
     transform: z.enum(TRANSFORMS).default('linear'),
     /** indicator: the category value that gives 1 (compared as text). */
     level: z.string().max(80).optional(),
+    /** the unit the coefficient assumes (years, days, mmol/L…), shown when a cohort's columns are mapped */
+    unit: z.string().trim().max(30).optional(),
     /** rcs: the knots (ascending, at least 3) and which basis term (1 … knots − 2) this coefficient multiplies. */
     knots: z.array(z.number().finite()).min(3).max(10).optional(),
     term: z.number().int().min(1).max(8).optional(),

@@ -359,7 +359,9 @@ describe('row checks: listed rejections', () => {
     const text = 'vendor_probability,outcome,unit\n0.2,1,Birch\n1.4,0,Cedar\n-0.1,0,Alder\n0.5,0,Rowan\n';
     const res = await upload(writeCsv('prob.csv', text), { scoreVersionId: suppliedVersionId });
     expect(res.status, JSON.stringify(res.body)).toBe(201);
-    expect(res.body.upload.requiredPredictors).toEqual([{ column: 'vendor_probability', kind: 'numeric', positiveOnly: false }]);
+    expect(res.body.upload.requiredPredictors).toEqual([
+      { column: 'vendor_probability', kind: 'numeric', positiveOnly: false, transforms: ['supplied probability'], levels: [], unit: null, range: { min: 0, max: 1 } },
+    ]);
     const u = await mapAndWait(res.body.upload.id, { predictors: { vendor_probability: 'vendor_probability' }, outcome: { column: 'outcome' }, subgroups: { unit: 'unit' } });
     expect(u.rowsAccepted).toBe(2);
     expect(u.rowsRejected).toBe(2);

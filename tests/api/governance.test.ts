@@ -264,6 +264,19 @@ describe('chair sign-off', () => {
     expect(late.status).toBe(409);
   });
 
+  it("every run's panel names the approved run: its number within the score version, its cohort and the signing date", async () => {
+    const [signed] = await dataSource.query(`SELECT signed_at FROM signatures WHERE run_id = $1 AND meaning = 'approve for clinical use'`, [runA]);
+    const [cv] = await dataSource.query(`SELECT label FROM cohort_versions WHERE id = $1`, [cohortVersionId]);
+    const expected = { runId: runA, runNumber: 1, cohortLabel: cv.label, signedAt: new Date(signed.signed_at).toISOString() };
+    expect((await governanceOf(runA)).approval).toEqual(expected);
+    // Another run of the same score version says which run carries the approval, not a bare "approved".
+    const other = await governanceOf(runB, 'chair');
+    expect(other.clinicalStatus).toBe('approved');
+    expect(other.approval).toEqual(expected);
+    // A score version never approved has nothing to name.
+    expect((await governanceOf(runOther)).approval).toBeNull();
+  });
+
   it('the database refuses UPDATE and DELETE of a signature, even by direct SQL', async () => {
     await refusedTwice(`UPDATE signatures SET printed_name = 'Someone Else' WHERE run_id = $1`, [runA], /append-only/);
     await refusedTwice(`UPDATE signatures SET signed_at = now() WHERE run_id = $1`, [runA], /append-only/);

@@ -30,6 +30,10 @@ describe('drift timeline in the browser', () => {
         // Eight demo quarters → eight rows in the per-period table (common practice, no source: the seed's own design).
         const periodRows = page.getByRole('table', { name: 'Patients and events per period' }).locator('tbody tr');
         await expect.poll(() => periodRows.count()).toBe(8);
+        // Each point says which run it comes from (one run per cohort version, demo quarters in period order).
+        await expect.poll(() => periodRows.first().getByTestId('drift-period-run').innerText()).toMatch(/^run #\d+/);
+        expect(await periodRows.first().getByTestId('drift-period-span').innerText()).toBe('2024-Q1');
+        expect(await periodRows.last().getByTestId('drift-period-span').innerText()).toBe('2025-Q4');
 
         // Every chart panel draws a canvas: CITL, O/E, AUC, slope, O − E limits, cumulative O − E, CUSUM.
         for (const name of ['Calibration-in-the-large by period', 'O/E ratio by period', 'AUC (c-statistic) by period', 'Calibration slope by period']) {

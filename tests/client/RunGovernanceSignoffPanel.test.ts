@@ -21,6 +21,7 @@ const governance = (verdict: Verdict): RunGovernanceView => ({
   scoreVersionId: 'sv-1',
   clinicalStatus: 'not approved',
   approvedRunId: null,
+  approval: null,
   reviews: [
     { id: 'rv-1', runId: 'run-1', verdict, reasoning: 'r', reviewerId: 'u-2', reviewerName: 'A Statistician', createdAt: '2026-01-01T00:00:00Z', supersededBy: null, current: true, decision: null, closedBy: null },
   ],
@@ -71,6 +72,23 @@ describe('RunGovernanceSignoffPanel', () => {
     button('Sign')!.click();
     await flushPromises();
     expect(signoffRun).toHaveBeenCalledWith('run-1', { decision: 'approve', password: 'the-password', reason: 'A pilot on one ward with monthly checks.' });
+  });
+
+  it('names the approved run of the score version instead of a bare "approved"', async () => {
+    setActivePinia(createPinia());
+    const approved: RunGovernanceView = {
+      ...governance('fit for use'),
+      clinicalStatus: 'approved',
+      approvedRunId: 'run-7',
+      approval: { runId: 'run-7', runNumber: 3, cohortLabel: '2026-Q1', signedAt: '2026-04-20T09:30:00.000Z' },
+    };
+    const RouterLink = { props: ['to'], template: '<a :data-to="JSON.stringify(to)"><slot /></a>' };
+    wrapper = mount(RunGovernanceSignoffPanel, { props: { governance: approved }, global: { plugins: [createVuetify()], stubs: { RouterLink } }, attachTo: document.body });
+    const status = body().querySelector('.run-signoff-panel p')!.textContent!.replace(/\s+/g, ' ');
+    expect(status).toContain('Score version status: approved — run #3 on 2026-Q1, signed 2026-04-20 (not this run)');
+    expect(body().querySelector('[data-test="approved-run"]')!.getAttribute('data-to')).toContain('run-7');
+    await wrapper.setProps({ governance: { ...approved, runId: 'run-7' } });
+    expect(body().querySelector('.run-signoff-panel p')!.textContent!.replace(/\s+/g, ' ')).toContain('approved — run #3 on 2026-Q1, signed 2026-04-20 (this run)');
   });
 
   it('review "fit for use": no warning and no reason asked', async () => {

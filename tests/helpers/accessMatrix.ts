@@ -63,6 +63,7 @@ export const accessMatrix: Record<string, MatrixAccess> = {
   'GET /api/scores/:id/versions/:version/export': ['admin', 'steward', 'statistician', 'chair'],
   'GET /api/sample-size': ['admin', 'steward', 'statistician', 'chair'],
   'GET /api/scores/:id/versions/:version/drift': ['admin', 'steward', 'statistician', 'chair'],
+  'PUT /api/scores/:id/versions/:version/drift/runs': ['statistician'],
   'GET /api/alerts': ['admin', 'statistician', 'chair'],
   'POST /api/alerts/:id/acknowledge': ['statistician', 'chair'],
   'GET /api/scores/:id/alert-rules': ['admin', 'statistician', 'chair'],

@@ -52,7 +52,7 @@ export interface CohortFixture {
   rows: FixtureRow[];
 }
 
-export async function createCohortFixture(rows: FixtureRow[], opts: { name?: string; label?: string } = {}): Promise<CohortFixture> {
+export async function createCohortFixture(rows: FixtureRow[], opts: { name?: string; label?: string; periodStart?: string; periodEnd?: string } = {}): Promise<CohortFixture> {
   const body = JSON.stringify(rows);
   const cohorts: { id: string }[] = await dataSource.query(`INSERT INTO cohorts (name, description) VALUES ($1, 'fixture') RETURNING id`, [
     opts.name ?? `Fixture cohort ${randomUUID().slice(0, 8)}`,
@@ -78,9 +78,9 @@ export async function createCohortFixture(rows: FixtureRow[], opts: { name?: str
     await qr.release();
   }
   await dataSource.query(
-    `INSERT INTO cohort_versions (id, cohort_id, version, label, source_filename, source_sha256, source_bytes, row_count, events, mapping)
-     VALUES ($1, $2, 1, $3, 'fixture.csv', $4, $5, $6, $7, '{}'::jsonb)`,
-    [id, cohorts[0].id, opts.label ?? 'fixture', createHash('sha256').update(body).digest('hex'), Buffer.byteLength(body), rows.length, events],
+    `INSERT INTO cohort_versions (id, cohort_id, version, label, source_filename, source_sha256, source_bytes, row_count, events, mapping, period_start, period_end)
+     VALUES ($1, $2, 1, $3, 'fixture.csv', $4, $5, $6, $7, '{}'::jsonb, $8, $9)`,
+    [id, cohorts[0].id, opts.label ?? 'fixture', createHash('sha256').update(body).digest('hex'), Buffer.byteLength(body), rows.length, events, opts.periodStart ?? null, opts.periodEnd ?? null],
   );
   return { cohortId: cohorts[0].id, cohortVersionId: id, rows };
 }

@@ -91,6 +91,7 @@ describe('event periods', () => {
     expect(periodStart('2025-Q3')).toBe('2025-07-01');
     expect(periodStart('2025q4')).toBe('2025-10-01');
     expect(periodStart('2025')).toBe('2025-01-01');
+    expect(periodStart('2025-H2')).toBe('2025-07-01');
     expect(periodStart('2025-03-14')).toBeNull();
     expect(periodStart('March')).toBeNull();
   });

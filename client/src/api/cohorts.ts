@@ -39,6 +39,8 @@ export interface CohortRow {
   lineNo: number;
   outcome: number;
   eventDate: string | null;
+  /** the period as uploaded (2026-Q2), or its first day when the version's periods were of mixed kinds */
+  period: string | null;
   predictors: Record<string, number | string>;
   subgroups: Record<string, string>;
 }

@@ -6,6 +6,7 @@ import type {
   AlertRuleCreateResponse,
   AlertRuleListResponse,
   DriftResponse,
+  DriftRunChoice,
   RecalibrateResponse,
   RecalibrationMethod,
   RecalibrationPreviewResponse,
@@ -33,6 +34,7 @@ export type { SampleSizeCriterion, SampleSizePlan } from '@shared/drift';
 const version = (scoreId: string, v: number | string) => `/api/scores/${encodeURIComponent(scoreId)}/versions/${encodeURIComponent(String(v))}`;
 
 export const getDrift = (scoreId: string, v: number | string, signal?: AbortSignal) => http.get<DriftResponse>(`${version(scoreId, v)}/drift`, undefined, signal);
+export const chooseDriftRun = (scoreId: string, v: number | string, choice: DriftRunChoice) => http.put<{ choice: DriftRunChoice }>(`${version(scoreId, v)}/drift/runs`, choice);
 export const listAlerts = async (signal?: AbortSignal) => (await http.get<AlertListResponse>('/api/alerts', undefined, signal)).alerts;
 export const acknowledgeAlert = async (id: string, note: string) => (await http.post<AlertAckResponse>(`/api/alerts/${id}/acknowledge`, { note })).alert;
 export const listAlertRules = async (scoreId: string) => (await http.get<AlertRuleListResponse>(`/api/scores/${encodeURIComponent(scoreId)}/alert-rules`)).rules;

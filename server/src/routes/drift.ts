@@ -1,8 +1,9 @@
 import type { Request, Response } from 'express';
-import type { AlertAckBody, AlertRuleBody, RecalibrationBody, SampleSizeQuery } from '@shared/drift';
+import type { AlertAckBody, AlertRuleBody, DriftRunChoice, RecalibrationBody, SampleSizeQuery } from '@shared/drift';
 import { scoreVersionParams } from '@shared/scores';
 import { currentUser, sourceIp } from '../middleware/auth';
 import * as drift from '../services/drift';
+import { chooseDriftRun } from '../services/driftRunChoice';
 import { planSampleSize } from '../stats/sampleSize';
 
 /** The sample-size planner (Riley et al. 2021): required n and events per criterion and the largest. */
@@ -39,4 +40,10 @@ export async function recalibrationPreview(req: Request, res: Response) {
 
 export async function recalibrate(req: Request, res: Response) {
   res.status(201).json(await drift.recalibrate(currentUser(req), String(req.params.id), (req.body as RecalibrationBody).method, sourceIp(req)));
+}
+
+/** The statistician chooses which run of a cohort version the timeline takes (null: the newest completed). */
+export async function chooseRun(req: Request, res: Response) {
+  const { id, version } = scoreVersionParams.parse(req.params);
+  res.json({ choice: await chooseDriftRun(currentUser(req), id, version, req.body as DriftRunChoice, sourceIp(req)) });
 }

@@ -4,6 +4,7 @@
 import type { EntityManager } from 'typeorm';
 import type { AlertRuleBody, AlertRuleKind, AlertRuleView, AlertView, CalibrationPoint, CalibrationSummary, Derivation, DriftPeriod, DriftPoint, DriftResponse, RecalibrationMethod } from '@shared/drift';
 import { RECALIBRATION_BANNER } from '@shared/drift';
+import { formatPeriodRange, periodCovering, wholeMonths } from '@shared/periods';
 import type { Estimate, FitResult } from '@shared/validation';
 import { dataSource } from '../db/dataSource';
 import type { AuthUser } from '../middleware/auth';
@@ -46,6 +47,12 @@ interface RunRow {
   citl: FitResult<Estimate> | null;
   slope: FitResult<Estimate> | null;
   oe: (Estimate & { observed: number; expected: number }) | null;
+  /** the statistician chose this run for the timeline (else it is the newest completed run of its cohort version) */
+  chosen: boolean;
+  /** 1 for the first run of the score version, in the order runs were started */
+  run_number: number;
+  /** completed runs of this score version on the same cohort version */
+  runs_of_cohort: DriftPeriod['runsOfCohortVersion'];
 }
 
 interface VersionRow {
@@ -79,19 +86,34 @@ async function versionById(id: string, m: EntityManager = dataSource.manager): P
   return rows[0];
 }
 
-/** Completed runs of a version, ordered by the cohort's period (then by finish time). Only the headline figures. */
+/**
+ * One completed run per cohort version — the one the statistician chose (drift_run_choices), else the newest — so a
+ * re-run never counts the same patients twice; ordered by the cohort's period, then its label. Only the headline figures.
+ */
 async function completedRuns(versionId: string): Promise<RunRow[]> {
   return dataSource.query(
-    `SELECT r.id, r.cohort_version_id, cv.label, to_char(cv.period_start, 'YYYY-MM-DD') AS period_start, to_char(cv.period_end, 'YYYY-MM-DD') AS period_end,
-            (ov.o->>'n')::int AS n, (ov.o->>'events')::int AS events,
-            ov.o->'auc' AS auc, ov.o->'calibrationIntercept' AS citl,
-            ov.o->'calibrationSlope' AS slope, ov.o->'oe' AS oe
-     FROM validation_runs r JOIN cohort_versions cv ON cv.id = r.cohort_version_id
-     -- results is a large TOASTed jsonb: 'overall' is de-compressed once per run, not once per field (OFFSET 0 keeps
-     -- the planner from folding the sub-select back into the select list).
-     LEFT JOIN LATERAL (SELECT r.results->'overall' AS o OFFSET 0) ov ON true
-     WHERE r.score_version_id = $1 AND r.status = 'completed'
-     ORDER BY cv.period_start NULLS LAST, r.finished_at, r.id`,
+    `SELECT * FROM (
+       SELECT DISTINCT ON (r.cohort_version_id)
+              r.id, r.cohort_version_id, cv.label, to_char(cv.period_start, 'YYYY-MM-DD') AS period_start, to_char(cv.period_end, 'YYYY-MM-DD') AS period_end,
+              (ov.o->>'n')::int AS n, (ov.o->>'events')::int AS events,
+              ov.o->'auc' AS auc, ov.o->'calibrationIntercept' AS citl,
+              ov.o->'calibrationSlope' AS slope, ov.o->'oe' AS oe,
+              (ch.run_id = r.id) IS TRUE AS chosen,
+              (SELECT count(*)::int FROM validation_runs x WHERE x.score_version_id = r.score_version_id AND (x.created_at, x.id) <= (r.created_at, r.id)) AS run_number,
+              (SELECT json_agg(json_build_object('runId', x.id, 'finishedAt', x.finished_at,
+                        'runNumber', (SELECT count(*) FROM validation_runs z WHERE z.score_version_id = x.score_version_id AND (z.created_at, z.id) <= (x.created_at, x.id)))
+                      ORDER BY x.created_at, x.id)
+               FROM validation_runs x WHERE x.score_version_id = r.score_version_id AND x.cohort_version_id = r.cohort_version_id AND x.status = 'completed') AS runs_of_cohort,
+              r.finished_at
+       FROM validation_runs r JOIN cohort_versions cv ON cv.id = r.cohort_version_id
+       LEFT JOIN drift_run_choices ch ON ch.score_version_id = r.score_version_id AND ch.cohort_version_id = r.cohort_version_id
+       -- results is a large TOASTed jsonb: 'overall' is de-compressed once per run, not once per field (OFFSET 0 keeps
+       -- the planner from folding the sub-select back into the select list).
+       LEFT JOIN LATERAL (SELECT r.results->'overall' AS o OFFSET 0) ov ON true
+       WHERE r.score_version_id = $1 AND r.status = 'completed'
+       ORDER BY r.cohort_version_id, (ch.run_id = r.id) IS TRUE DESC, r.finished_at DESC, r.id DESC
+     ) one
+     ORDER BY period_start NULLS LAST, period_end NULLS LAST, label, finished_at`,
     [versionId],
   );
 }
@@ -152,6 +174,12 @@ async function patientSeries(version: VersionRow, runs: RunRow[]): Promise<Patie
 
 // ---------------------------------------------------------------- the drift view
 
+/** What a cohort version's dates cover: 2026-Q2, 2026-H1 (half-year), or a span of months, so unequal periods show as such. */
+function periodSpan(start: string | null, end: string | null): DriftPeriod['period'] {
+  const one = periodCovering(start, end);
+  return { label: one ? one.label : start || end ? formatPeriodRange(start, end) : 'period not recorded', kind: one?.kind ?? null, months: wholeMonths(start, end) };
+}
+
 const fitted = (f: FitResult<Estimate> | null): Estimate | null =>
   f && f.converged && Number.isFinite(f.estimate) ? { estimate: f.estimate, lower: f.lower, upper: f.upper } : null;
 const plain = (e: Estimate | null | undefined): Estimate | null =>
@@ -176,9 +204,15 @@ async function driftCore(versionId: string): Promise<DriftCore> {
     const lim = funnelLimits(observed, expected, variance);
     return {
       runId: r.id,
+      runNumber: r.run_number,
+      cohortVersionId: r.cohort_version_id,
+      runChoice: r.chosen ? 'chosen' : 'newest',
+      otherRuns: Math.max(0, r.runs_of_cohort.length - 1),
+      runsOfCohortVersion: r.runs_of_cohort,
       label: r.label || r.period_start || r.id.slice(0, 8),
       periodStart: r.period_start,
       periodEnd: r.period_end,
+      period: periodSpan(r.period_start, r.period_end),
       n: r.n,
       events: r.events,
       observed,

@@ -3,6 +3,7 @@
 import { createHash } from 'node:crypto';
 import { IsNull, type EntityManager } from 'typeorm';
 import type {
+  ApprovalView,
   CommentView,
   Decision,
   ReviewRequest,
@@ -194,6 +195,21 @@ export async function listSignatures(runId: string, m: EntityManager = dataSourc
   });
 }
 
+/** Which run of its score version carries the approval (numbered by creation within the version), on which cohort, signed when. */
+async function approvalOf(m: EntityManager, approvedRunId: string): Promise<ApprovalView | null> {
+  const rows: { run_number: string; cohort_label: string; signed_at: Date | null }[] = await m.query(
+    `SELECT (SELECT count(*) FROM validation_runs x WHERE x.score_version_id = r.score_version_id AND (x.created_at, x.id) <= (r.created_at, r.id)) AS run_number,
+            coalesce(nullif(cv.label, ''), c.name || ' v' || cv.version) AS cohort_label,
+            (SELECT max(s.signed_at) FROM signatures s WHERE s.run_id = r.id AND s.meaning = 'approve for clinical use') AS signed_at
+     FROM validation_runs r JOIN cohort_versions cv ON cv.id = r.cohort_version_id JOIN cohorts c ON c.id = cv.cohort_id
+     WHERE r.id = $1`,
+    [approvedRunId],
+  );
+  const a = rows[0];
+  if (!a) return null;
+  return { runId: approvedRunId, runNumber: Number(a.run_number), cohortLabel: a.cohort_label, signedAt: a.signed_at ? new Date(a.signed_at).toISOString() : null };
+}
+
 /** Reviews, signatures and what the signed-in account may do next on this run. */
 export async function getRunGovernance(actor: AuthUser, runId: string): Promise<RunGovernanceView> {
   const m = dataSource.manager;
@@ -214,6 +230,7 @@ export async function getRunGovernance(actor: AuthUser, runId: string): Promise<
     scoreVersionId: run.score_version_id,
     clinicalStatus: run.clinical_status,
     approvedRunId: run.approved_run_id,
+    approval: run.approved_run_id ? await approvalOf(m, run.approved_run_id) : null,
     reviews,
     signatures,
     can: {

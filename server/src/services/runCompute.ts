@@ -149,6 +149,28 @@ export function periodOf(date: string | null, grouping: TimeGrouping): string | 
 
 const MISSING_LEVEL = '(not recorded)';
 
+/** Below this share of patients (or this many) an indicator's level is called rare on the run page. */
+const RARE_LEVEL_SHARE = 0.01;
+const RARE_LEVEL_COUNT = 10;
+
+/** Warnings for indicator predictors whose level is absent or rare in the cohort: a coding mismatch gives wrong risks silently. */
+export function indicatorLevelWarnings(score: RunScoreInput, data: CohortData): string[] {
+  if (score.mode !== 'formula' || !score.model) return [];
+  const out: string[] = [];
+  for (const t of score.model.predictors) {
+    if (t.transform !== 'indicator' || t.level === undefined) continue;
+    const values = data.columns[t.column];
+    if (!values) continue;
+    let hits = 0;
+    for (let i = 0; i < data.n; i++) if (values[i] !== null && String(values[i]) === t.level) hits++;
+    const share = data.n ? hits / data.n : 0;
+    if (hits === 0) out.push(`No patient has ${t.column} = "${t.level}", the level the formula expects: that term never counts, so predicted risks may be wrong. Check how the column is coded.`);
+    else if (hits < RARE_LEVEL_COUNT || share < RARE_LEVEL_SHARE)
+      out.push(`Only ${hits} patient${hits === 1 ? '' : 's'} (${(100 * share).toFixed(1)}%) have ${t.column} = "${t.level}", the level the formula expects: check how the column is coded.`);
+  }
+  return out;
+}
+
 /** The whole run: overall figures, then each subgroup level, then each period. Throws RunInputError on bad input. */
 export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn = () => {}): RunResults {
   const { data, settings } = input;
@@ -163,6 +185,7 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
   } catch (err) {
     throw new RunInputError((err as Error).message);
   }
+  overall.warnings.push(...indicatorLevelWarnings(input.score, data));
 
   const subgroups: SubgroupResult[] = [];
   const nCols = settings.subgroupColumns.length;

@@ -5,6 +5,7 @@
 import type { ColumnMappingSpec, ColumnSummary, ScreenFinding } from '@shared/cohorts';
 import { csvBatches, extraLines, isEmptyRecord, type Delimiter } from './csvFile';
 import { parseDecimal } from '@shared/decimal';
+import { parsePeriod, comparePeriodLabels, type Period, type PeriodKind } from '@shared/periods';
 import { BlockWriter } from './cohortBlocks';
 import { ageOver89, cellRules, isAgeHeader, looksLikeFormula, personName, type CellHit } from './deidentify';
 
@@ -46,7 +47,9 @@ export interface CheckResult {
   events: number;
   reasonCounts: { reason: string; count: number }[];
   columnSummary: Record<string, ColumnSummary>;
-  eventPeriod: { min: string; max: string } | null;
+  /** min/max: the earliest and latest period start; end: the last day of the latest-ending period; kind: the
+   * uploaded labels' kind when they all share one (rows then show their label), else null. */
+  eventPeriod: { min: string; max: string; end: string; kind: PeriodKind | null } | null;
   /** The first MAX_STORED_REJECTIONS rejected cells, in line order. */
   rejections: Rejection[];
 }
@@ -68,7 +71,8 @@ class Accumulator {
   // is full, the number of values to skip is drawn, instead of one draw per value.
   private w = 1;
   private nextPick = 0;
-  constructor(public readonly asNumber: boolean) {}
+  /** inTimeOrder: levels are periods, listed forwards in time rather than by count. */
+  constructor(public readonly asNumber: boolean, private readonly inTimeOrder = false) {}
   /** xorshift32 in (0, 1): a seeded reservoir keeps the histogram reproducible for the same file. */
   private rand() {
     this.seed ^= this.seed << 13; this.seed ^= this.seed >>> 17; this.seed ^= this.seed << 5;
@@ -118,21 +122,14 @@ class Accumulator {
         mean: this.numeric ? this.sum / this.numeric : null, histogram, histogramSampled: this.numeric > RESERVOIR };
     }
     const counted: [string, number][] = this.fewLevels.map((l, k) => [l, this.fewCounts[k]]);
-    const sorted = [...counted, ...this.moreLevels.entries()].sort((a, b) => b[1] - a[1]);
+    const sorted = [...counted, ...this.moreLevels.entries()].sort(this.inTimeOrder ? (a, b) => comparePeriodLabels(a[0], b[0]) : (a, b) => b[1] - a[1]);
     return { kind: 'categorical', n: this.n, missing: this.missing, levels: sorted.slice(0, 50).map(([value, count]) => ({ value, count })), otherLevels: Math.max(0, sorted.length - 50) };
   }
 }
 
-/** Turns a period cell (YYYY-MM, YYYY-Qn, YYYY) into the first day of the period, or null when unreadable. */
+/** Turns a period cell (YYYY-MM, YYYY-Qn, YYYY-Hn, YYYY) into the first day of the period, or null when unreadable. */
 export function periodStart(raw: string): string | null {
-  const v = raw.trim();
-  let m = /^(\d{4})-(0[1-9]|1[0-2])$/.exec(v);
-  if (m) return `${m[1]}-${m[2]}-01`;
-  m = /^(\d{4})-?Q([1-4])$/i.exec(v);
-  if (m) return `${m[1]}-${String((Number(m[2]) - 1) * 3 + 1).padStart(2, '0')}-01`;
-  m = /^(\d{4})$/.exec(v);
-  if (m) return `${m[1]}-01-01`;
-  return null;
+  return parsePeriod(raw)?.start ?? null;
 }
 
 /**
@@ -184,6 +181,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     const prob = input.supplied;
     return {
       name: p.column, fileCol, idx: col(fileCol), numeric: p.kind === 'numeric', positiveOnly: p.positiveOnly, age,
+      labels: mapping.labels?.[p.column] ? new Map(Object.entries(mapping.labels[p.column])) : null,
       min: range.min ?? (age ? 0 : prob ? 0 : -Infinity), max: range.max ?? (age ? 120 : prob ? 1 : Infinity),
     };
   });
@@ -195,7 +193,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   const summaries = new Map<string, Accumulator>();
   for (const p of preds) summaries.set(p.name, new Accumulator(p.numeric));
   summaries.set(`outcome (${mapping.outcome.column})`, new Accumulator(false));
-  if (mapping.date) summaries.set(`period (${mapping.date.column})`, new Accumulator(false));
+  if (mapping.date) summaries.set(`period (${mapping.date.column})`, new Accumulator(false, true));
   for (const s of subs) summaries.set(s.name, new Accumulator(false));
   const predAcc = preds.map((p) => summaries.get(p.name)!);
   const outcomeAcc = summaries.get(`outcome (${mapping.outcome.column})`)!;
@@ -251,9 +249,10 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   const outcomeOf = new Map<string, number>();
   // Slot of each predictor in numVals / catVals.
   const slot = preds.map((p) => (p.numeric ? numPreds : catPreds).indexOf(p));
-  const periodCache = new Map<string, string | null>();
+  const periodCache = new Map<string, Period | null>();
   let rowsRead = 0, accepted = 0, rejectedRows = 0, events = 0;
-  let minDate: string | null = null, maxDate: string | null = null;
+  let minDate: string | null = null, maxDate: string | null = null, endDate: string | null = null;
+  const periodKinds = new Set<PeriodKind>();
   const reasonCounts = new Map<string, number>();
   const rejections: Rejection[] = [];
   let bytesRead = 0;
@@ -303,7 +302,9 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
         numVals[slot[k]] = x;
       } else {
         const v = catIntern[slot[k]].intern(raw);
-        catVals[slot[k]] = v;
+        // The steward's confirmed reading of a label (Y → yes) is what is stored; '' keeps the label ("not the level").
+        const read = p.labels === null ? undefined : p.labels.get(v);
+        catVals[slot[k]] = read ? read : v;
       }
     }
     const yRaw = outcomeIntern.intern(record[outcomeIdx].trim());
@@ -317,13 +318,13 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
       reject(line, mapping.outcome.column, yRaw, yRaw === '' ? 'missing outcome' : `the outcome must be one of ${[...pos, ...neg].join(', ')}`, yRaw === '' ? 'missing outcome' : 'outcome not a known label');
       bad = true;
     }
-    let date: string | null = null;
+    let date: Period | null = null;
     if (dateIdx >= 0) {
       const d = dateIntern.intern(record[dateIdx].trim());
       if (d !== '') {
         date = periodCache.get(d) ?? null;
-        if (date === null && !periodCache.has(d)) { date = periodStart(d); if (periodCache.size < 10_000) periodCache.set(d, date); }
-        if (!date) { reject(line, mapping.date!.column, d, 'the period must be YYYY-MM, YYYY-Qn or YYYY', 'unreadable period'); bad = true; }
+        if (date === null && !periodCache.has(d)) { date = parsePeriod(d); if (periodCache.size < 10_000) periodCache.set(d, date); }
+        if (!date) { reject(line, mapping.date!.column, d, 'the period must be YYYY-MM, YYYY-Qn, YYYY-Hn or YYYY', 'unreadable period'); bad = true; }
       }
     }
     if (bad) { rejectedRows++; return NEXT; }
@@ -335,13 +336,20 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     return accept(line, y, date);
   };
   /** An accepted row, its values in `numVals`, `catVals` and `subVals`: summarised and added to the blocks. */
-  const accept = (line: number, y: number, date: string | null): number => {
+  const accept = (line: number, y: number, period: Period | null): number => {
+    const date = period ? period.start : null;
     for (let k = 0; k < subs.length; k++) subAcc[k].add(subVals[k]);
     // Numbers are read from the typed array (a generic array would box each one).
     for (let k = 0; k < preds.length; k++) predAcc[k].add(preds[k].numeric ? numVals[slot[k]] : catVals[slot[k]]);
     outcomeAcc.add(y === 1 ? '1' : '0');
-    if (dateAcc) dateAcc.add(date);
-    if (date) { if (!minDate || date < minDate) minDate = date; if (!maxDate || date > maxDate) maxDate = date; }
+    // The summary keeps the label as uploaded (2026-Q2), not the first day it is stored as.
+    if (dateAcc) dateAcc.add(period ? period.label : null);
+    if (period) {
+      if (!minDate || period.start < minDate) minDate = period.start;
+      if (!maxDate || period.start > maxDate) maxDate = period.start;
+      if (!endDate || period.end > endDate) endDate = period.end;
+      periodKinds.add(period.kind);
+    }
     accepted++;
     events += y;
     writer.add(line, y, date, numVals, catVals, subVals);
@@ -381,7 +389,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     refusal, rowsRead, accepted, rejectedRows, events,
     reasonCounts: [...reasonCounts.entries()].map(([reason, count]) => ({ reason, count })),
     columnSummary: Object.fromEntries([...summaries.entries()].map(([k, a]) => [k, a.summary()])),
-    eventPeriod: minDate ? { min: minDate, max: maxDate! } : null,
+    eventPeriod: minDate ? { min: minDate, max: maxDate!, end: endDate!, kind: periodKinds.size === 1 ? [...periodKinds][0] : null } : null,
     rejections,
   };
 }

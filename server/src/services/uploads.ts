@@ -1,4 +1,6 @@
 // Cohort uploads: screen → map and check rows → store (one transaction, COPY) or discard.
+import type { PeriodKind } from '@shared/periods';
+import { codingIssues, predictorViews } from './codingCheck';
 import { randomUUID } from 'node:crypto';
 import { readdir, stat, unlink } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
@@ -149,7 +151,7 @@ interface UploadRow {
   period_start: string | null; period_end: string | null; source_filename: string; temp_path: string | null;
   sha256: string; bytes: string; delimiter: Delimiter; headers: string[]; warnings: ScreenFinding[]; suggested_mapping: ColumnMappingSpec | null;
   mapping: ColumnMappingSpec | null; progress: number; rows_read: number; rows_accepted: number; rows_rejected: number; events: number;
-  rejection_counts: { reason: string; count: number }[]; column_summary: Record<string, import('@shared/cohorts').ColumnSummary>; event_period: { min: string; max: string } | null;
+  rejection_counts: { reason: string; count: number }[]; column_summary: Record<string, import('@shared/cohorts').ColumnSummary>; event_period: { min: string; max: string; end?: string; kind?: PeriodKind | null } | null;
   planned_version_id: string | null; cohort_version_id: string | null; error: string | null; created_by: string | null; created_at: Date;
 }
 
@@ -174,13 +176,15 @@ export async function getUpload(id: string, waitSeconds = 0): Promise<UploadView
     r = await uploadRow(id);
   }
   const sv = await dataSource.getRepository(ScoreVersion).findOne({ where: { id: r.score_version_id } });
+  const views = sv ? predictorViews(sv, r.mapping ?? r.suggested_mapping) : [];
   return {
     id: r.id, status: r.status, cohortId: r.cohort_id, cohortName: r.cohort_name, scoreVersionId: r.score_version_id, label: r.label,
     periodStart: r.period_start, periodEnd: r.period_end, sourceFilename: r.source_filename, sha256: r.sha256, bytes: Number(r.bytes),
     delimiter: r.delimiter, headers: r.headers, warnings: r.warnings, suggestedMapping: r.suggested_mapping, mapping: r.mapping,
     progress: r.progress, rowsRead: r.rows_read, rowsAccepted: r.rows_accepted, rowsRejected: r.rows_rejected, events: r.events,
     rejectionCounts: r.rejection_counts, columnSummary: r.column_summary, cohortVersionId: r.cohort_version_id, error: r.error,
-    createdAt: new Date(r.created_at).toISOString(), requiredPredictors: sv ? requiredPredictors(sv) : [],
+    createdAt: new Date(r.created_at).toISOString(), requiredPredictors: views,
+    codingIssues: r.status === 'checked' ? codingIssues(views, r.mapping, r.column_summary) : [],
   };
 }
 
@@ -222,6 +226,12 @@ export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnM
     else if (!has(col)) problems.push(`predictor "${p.column}": the file has no column "${col}"`);
   }
   for (const k of Object.keys(mapping.predictors)) if (!requiredPredictors(sv).some((p) => p.column === k)) problems.push(`"${k}" is not a predictor of this score version`);
+  // Label readings only for indicator columns, and only into the formula's levels (or '' for "none of them").
+  for (const [k, readings] of Object.entries(mapping.labels ?? {})) {
+    const levels = predictorViews(sv, mapping).find((p) => p.column === k)?.levels ?? [];
+    if (!levels.length) { problems.push(`"${k}" is not an indicator predictor of this score version, so its labels cannot be mapped`); continue; }
+    for (const [label, level] of Object.entries(readings)) if (level !== '' && !levels.includes(level)) problems.push(`${k}: "${label}" can only be read as ${levels.map((l) => `"${l}"`).join(', ')} or as none of them`);
+  }
   if (!has(mapping.outcome.column)) problems.push(`outcome: the file has no column "${mapping.outcome.column}"`);
   const pos = mapping.outcome.positive.map((s) => s.toLowerCase());
   if (mapping.outcome.negative.some((n) => pos.includes(n.toLowerCase()))) problems.push('outcome: a label cannot be both positive and negative');
@@ -486,6 +496,9 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
   }
   if (r.rows_accepted === 0) throw new HttpError(422, 'no row passed the checks; nothing to store');
   const sv = await loadScoreVersion(r.score_version_id);
+  // A coding mismatch (Y/N against the level "yes") stores nothing: the steward maps the labels or goes back.
+  const mismatches = codingIssues(predictorViews(sv, r.mapping), r.mapping, r.column_summary);
+  if (mismatches.length) throw new HttpError(409, `the coding does not match the score: ${mismatches.map((m) => m.message).join(' ')}`, { codingIssues: mismatches });
   const qr = dataSource.createQueryRunner();
   await qr.connect();
   await qr.startTransaction();
@@ -508,17 +521,20 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
     const [{ next }] = await qr.query('SELECT coalesce(max(version), 0) + 1 AS next FROM cohort_versions WHERE cohort_id = $1', [cohortId]);
     version = next;
     const period = r.event_period;
+    // The version ends on the last day of its latest period (2026-Q2 ends 2026-06-30); an upload checked before the
+    // end was recorded falls back to the end of the latest start's month.
     const endOfMonth = (d: string) => {
       const [y, m] = d.split('-').map(Number);
       return new Date(Date.UTC(y, m, 0)).toISOString().slice(0, 10);
     };
     const exclusions = r.rejection_counts;
-    const mapping = { ...r.mapping, scoreVersionId: r.score_version_id, delimiter: r.delimiter };
+    // periodKind: how the rows' periods were labelled, so they are shown as uploaded (2026-Q2, not 2026-04-01).
+    const mapping = { ...r.mapping, scoreVersionId: r.score_version_id, delimiter: r.delimiter, periodKind: period?.kind ?? null };
     const [v] = await qr.query(
       `INSERT INTO cohort_versions (id, cohort_id, version, label, period_start, period_end, source_filename, source_sha256, source_bytes,
          row_count, events, excluded_count, exclusions, mapping, column_summary, uploaded_by)
        VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16) RETURNING id`,
-      [r.planned_version_id, cohortId, version, r.label || `version ${version}`, r.period_start ?? period?.min ?? null, r.period_end ?? (period ? endOfMonth(period.max) : null),
+      [r.planned_version_id, cohortId, version, r.label || `version ${version}`, r.period_start ?? period?.min ?? null, r.period_end ?? (period ? (period.end ?? endOfMonth(period.max)) : null),
         r.source_filename, r.sha256, r.bytes, r.rows_accepted, r.events, r.rows_rejected, JSON.stringify(exclusions), JSON.stringify(mapping), JSON.stringify(r.column_summary), actor.id],
     );
     versionId = v.id;
