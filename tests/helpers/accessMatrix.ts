@@ -59,6 +59,7 @@ export const accessMatrix: Record<string, MatrixAccess> = {
   'POST /api/scores/:id/versions': ['admin', 'statistician'],
   'GET /api/scores/:id/versions/:version': ['admin', 'steward', 'statistician', 'chair'],
   'PATCH /api/scores/:id/versions/:version': ['admin', 'statistician'],
+  'GET /api/scores/:id/versions/:version/template.csv': ['admin', 'steward', 'statistician', 'chair'],
   'GET /api/scores/:id/versions/:version/export': ['admin', 'steward', 'statistician', 'chair'],
   'GET /api/sample-size': ['admin', 'steward', 'statistician', 'chair'],
   'GET /api/scores/:id/versions/:version/drift': ['admin', 'steward', 'statistician', 'chair'],

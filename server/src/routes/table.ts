@@ -99,6 +99,7 @@ export const routes: RouteDef[] = [
   { method: 'post', path: '/api/scores/:id/versions', access: SCORE_WRITERS, summary: 'add the next version (form body or an imported --model file)', params: scoreIdParam, body: createScoreVersionRequest, handler: scores.createVersion },
   { method: 'get', path: '/api/scores/:id/versions/:version', access: SCORE_READERS, summary: 'one score version', params: scoreVersionParams, handler: scores.getVersion },
   { method: 'patch', path: '/api/scores/:id/versions/:version', access: SCORE_WRITERS, summary: 'always refused (409): versions are never edited; create the next one', params: scoreVersionParams, handler: scores.editVersion },
+  { method: 'get', path: '/api/scores/:id/versions/:version/template.csv', access: SCORE_READERS, summary: 'a CSV header of the columns a cohort file needs for this score version', params: scoreVersionParams, handler: scores.cohortTemplate },
   { method: 'get', path: '/api/scores/:id/versions/:version/export', access: SCORE_READERS, summary: 'download the formula as a --model JSON file', params: scoreVersionParams, handler: scores.exportVersion },
 
   { method: 'get', path: '/api/sample-size', access: RUN_TEAM, summary: 'sample-size planner for external validation (Riley et al. 2021)', query: sampleSizeQuery, handler: drift.sampleSize },
