@@ -535,8 +535,8 @@ export async function listMyUploads(actor: AuthUser) {
 
 /** Score versions a cohort can be uploaded against (for the upload form's select). */
 export async function scoreVersionChoices() {
-  const rows: { id: string; scoreName: string; version: number; mode: string; probability_column: string | null; model: ScoreModel | null }[] = await dataSource.query(
-    `SELECT sv.id, s.name AS "scoreName", sv.version, sv.mode, sv.probability_column, sv.model FROM score_versions sv JOIN scores s ON s.id = sv.score_id ORDER BY s.name, sv.version DESC`,
+  const rows: { id: string; scoreId: string; scoreName: string; version: number; mode: string; probability_column: string | null; model: ScoreModel | null }[] = await dataSource.query(
+    `SELECT sv.id, s.id AS "scoreId", s.name AS "scoreName", sv.version, sv.mode, sv.probability_column, sv.model FROM score_versions sv JOIN scores s ON s.id = sv.score_id ORDER BY s.name, sv.version DESC`,
   );
-  return rows.map((r) => ({ id: r.id, scoreName: r.scoreName, version: r.version, mode: r.mode, requiredPredictors: requiredPredictors({ mode: r.mode as 'formula', model: r.model, probabilityColumn: r.probability_column }) }));
+  return rows.map((r) => ({ id: r.id, scoreId: r.scoreId, scoreName: r.scoreName, version: r.version, mode: r.mode, requiredPredictors: requiredPredictors({ mode: r.mode as 'formula', model: r.model, probabilityColumn: r.probability_column }) }));
 }
