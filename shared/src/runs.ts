@@ -181,5 +181,5 @@ export interface RunComparison {
 /** What the start form offers: score versions and cohort versions with the columns a run can group by. */
 export interface RunOptions {
   scoreVersions: { id: string; scoreId: string; scoreName: string; version: number; mode: 'formula' | 'supplied'; clinicalStatus: string; columns: string[] }[];
-  cohortVersions: { id: string; cohortId: string; cohortName: string; version: number; label: string; rowCount: number; events: number; groupColumns: string[]; hasDates: boolean; createdAt: string }[];
+  cohortVersions: { id: string; cohortId: string; cohortName: string; version: number; label: string; rowCount: number; events: number; groupColumns: string[]; hasDates: boolean; periods: 'month' | 'quarter' | null; createdAt: string }[];
 }

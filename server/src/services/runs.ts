@@ -1,5 +1,7 @@
 // Validation runs: creating them, the persisted job queue that computes them off the request path, reading,
 // reproducing and comparing them. A completed run is immutable (database trigger in migration 1764633800000-Runs).
+import type { ColumnSummary } from '@shared/cohorts';
+import { periodGroupingOf } from '@shared/periodGrouping';
 import type { EntityManager } from 'typeorm';
 import { runSettingsSchema, type CompareMetric, type ReproduceReport, type RunComparison, type RunDetail, type RunListQuery, type RunOptions, type RunResults, type RunSettings, type RunStatus, type RunSummary } from '@shared/runs';
 import { dataSource } from '../db/dataSource';
@@ -155,13 +157,20 @@ export async function getRun(id: string, manager: EntityManager = dataSource.man
 }
 
 /** Score versions and cohort versions a run may combine, for the start form. */
+/** The cohort's own periods (month or quarter), read from the period column's levels in its column summary. */
+function cohortPeriods(summary: Record<string, ColumnSummary> | null): 'month' | 'quarter' | null {
+  const entry = Object.entries(summary ?? {}).find(([k, v]) => k.startsWith('period (') && v.kind === 'categorical');
+  if (!entry || entry[1].kind !== 'categorical') return 'month';
+  return periodGroupingOf(entry[1].levels.map((l) => l.value)) ?? 'month';
+}
+
 export async function runOptions(): Promise<RunOptions> {
   const svs: Record<string, unknown>[] = await dataSource.query(
     `SELECT sv.id, sv.score_id, s.name AS score_name, sv.version, sv.mode, sv.model, sv.probability_column, sv.clinical_status
      FROM score_versions sv JOIN scores s ON s.id = sv.score_id ORDER BY s.name, sv.version DESC`,
   );
   const cvs: Record<string, unknown>[] = await dataSource.query(
-    `SELECT cv.id, cv.cohort_id, c.name AS cohort_name, cv.version, cv.label, cv.row_count, cv.events, cv.created_at,
+    `SELECT cv.id, cv.cohort_id, c.name AS cohort_name, cv.version, cv.label, cv.row_count, cv.events, cv.created_at, cv.column_summary,
             (SELECT b.sub_names FROM cohort_row_blocks b WHERE b.cohort_version_id = cv.id ORDER BY b.block_no LIMIT 1) AS subgroups,
             EXISTS (SELECT 1 FROM cohort_row_blocks b WHERE b.cohort_version_id = cv.id AND b.dated_count > 0) AS has_dates
      FROM cohort_versions cv JOIN cohorts c ON c.id = cv.cohort_id ORDER BY c.name, cv.version DESC`,
@@ -189,6 +198,7 @@ export async function runOptions(): Promise<RunOptions> {
       events: r.events as number,
       groupColumns: [...((r.subgroups as string[] | null) ?? [])].sort(),
       hasDates: r.has_dates as boolean,
+      periods: r.has_dates ? cohortPeriods(r.column_summary as Record<string, ColumnSummary> | null) : null,
       createdAt: iso(r.created_at)!,
     })),
   };
