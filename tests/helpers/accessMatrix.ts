@@ -65,6 +65,7 @@ export const accessMatrix: Record<string, MatrixAccess> = {
   'GET /api/scores/:id/versions/:version/drift': ['admin', 'steward', 'statistician', 'chair'],
   'GET /api/alerts': ['admin', 'statistician', 'chair'],
   'POST /api/alerts/:id/acknowledge': ['statistician', 'chair'],
+  'POST /api/alerts/acknowledge': ['statistician', 'chair'],
   'GET /api/scores/:id/alert-rules': ['admin', 'statistician', 'chair'],
   'POST /api/scores/:id/alert-rules': ['statistician'],
   'POST /api/runs/:id/recalibration-preview': ['statistician'],

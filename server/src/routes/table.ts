@@ -10,7 +10,7 @@ import { createScoreRequest, createScoreVersionRequest, scoreIdParam, scoreVersi
 import { config } from '../config';
 import * as audit from './audit';
 import * as auth from './auth';
-import { alertAckBody, alertRuleBody, recalibrationBody, sampleSizeQuery } from '@shared/drift';
+import { alertAckBody, alertBulkAckBody, alertListQuery, alertRuleBody, recalibrationBody, sampleSizeQuery } from '@shared/drift';
 import * as cohorts from './cohorts';
 import type { RouteDef } from './define';
 import * as drift from './drift';
@@ -105,7 +105,8 @@ export const routes: RouteDef[] = [
   { method: 'get', path: '/api/sample-size', access: RUN_TEAM, summary: 'sample-size planner for external validation (Riley et al. 2021)', query: sampleSizeQuery, handler: drift.sampleSize },
   // Drift monitoring and model updating (services/drift.ts).
   { method: 'get', path: '/api/scores/:id/versions/:version/drift', access: ['statistician', 'chair', 'admin', 'steward'], summary: 'drift timeline of a score version: per-period figures, funnel limits, CUSUM, O − E, alerts', params: scoreVersionParams, handler: drift.timeline },
-  { method: 'get', path: '/api/alerts', access: ['statistician', 'chair', 'admin'], summary: 'drift alerts, open ones first', handler: drift.listAlerts },
+  { method: 'get', path: '/api/alerts', access: ['statistician', 'chair', 'admin'], summary: 'drift alerts, open ones first (filter by score)', query: alertListQuery, handler: drift.listAlerts },
+  { method: 'post', path: '/api/alerts/acknowledge', access: ['statistician', 'chair'], summary: 'acknowledge several open drift alerts with one note (all or none)', body: alertBulkAckBody, handler: drift.acknowledgeMany },
   { method: 'post', path: '/api/alerts/:id/acknowledge', access: ['statistician', 'chair'], summary: 'acknowledge a drift alert with a note (once)', params: idParam, body: alertAckBody, handler: drift.acknowledge },
   { method: 'get', path: '/api/scores/:id/alert-rules', access: ['statistician', 'chair', 'admin'], summary: 'drift alert rules of a score', params: scoreIdParam, handler: drift.listRules },
   { method: 'post', path: '/api/scores/:id/alert-rules', access: ['statistician'], summary: 'add a drift alert rule to a score', params: scoreIdParam, body: alertRuleBody, handler: drift.createRule },
