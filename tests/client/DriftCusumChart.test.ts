@@ -4,7 +4,7 @@ import { mount } from '@vue/test-utils';
 import { describe, expect, it, vi } from 'vitest';
 import { createVuetify } from 'vuetify';
 import DriftCusumChart from '@/components/DriftCusumChart.vue';
-import { cusumPeriodSpans } from '@/charts/cusumPeriods';
+import { cusumPeriodSpans } from '../../client/src/charts/cusumPeriods';
 
 // happy-dom has no canvas: the chart itself is tested in Chromium; here only what the component works out.
 vi.mock('vue-chartjs', () => ({ Line: { name: 'Line', template: '<canvas />' } }));
