@@ -1,8 +1,10 @@
 // The steward's way through a new version of an existing cohort: from the cohort's page, an upload bound to it, left
 // and resumed, subgroups chosen in the mapping, rejected rows ticked one by one, then stored as the next version; the
-// run form then follows the cohort (its periods, its subgroups).
+// run form then follows the cohort (its periods, its subgroups); the run is computed, reviewed by the statistician,
+// found by its status and signed by the chair, and the clinician reads the score card.
 import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
+import { DEMO_PASSWORD } from '../../server/src/config';
 import { initDatabase } from '../../server/src/db/dataSource';
 import { appUrl } from '../helpers/appServer';
 import { inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
@@ -13,13 +15,15 @@ const stamp = Date.now();
 const scoreName = `Steward flow score ${stamp}`;
 const cohortName = `Steward flow cohort ${stamp}`;
 let cohortId = '';
+let scoreVersionId = '';
+let runId = '';
 const browser = useAppAndBrowser(async () => {
   await initDatabase(true);
-  await createScoreFixture({ name: scoreName });
+  scoreVersionId = (await createScoreFixture({ name: scoreName })).scoreVersionId;
   cohortId = (await createCohortFixture(kestrelRows(80, 4), { name: cohortName, label: '2025-Q4' })).cohortId;
 });
 
-describe('a new version of an existing cohort, in the browser', () => {
+describe('steward → statistician → chair → clinician on a new version of an existing cohort', () => {
   it('is uploaded from the cohort page, resumed after leaving, mapped with subgroups, and stored with ticked exclusions', () =>
     inTab(browser(), 'steward-new-version', async (page) => {
       await page.goto(`${appUrl}/cohorts/${cohortId}`);
@@ -77,6 +81,56 @@ describe('a new version of an existing cohort, in the browser', () => {
       const subgroups = page.locator('.v-select', { hasText: 'Subgroups' });
       await expect.poll(() => subgroups.innerText()).toMatch(/age_band[\s\S]*sex[\s\S]*unit/);
       expect(await subgroups.innerText()).not.toMatch(/\bsite\b/);
+      await page.locator('.v-select', { hasText: 'Score version' }).locator('.v-field').click();
+      await page.getByRole('option', { name: new RegExp(scoreName) }).click();
       await screenshot(page, 'steward-run-defaults');
+      await page.getByRole('button', { name: 'Queue the run' }).click();
+      await page.waitForURL(/\/runs\/[0-9a-f-]{36}$/);
+      runId = page.url().split('/').pop()!;
+      // The run computes in the server's run thread; its page says what it is doing, then shows the figures.
+      await page.getByText('AUC (c-statistic)').first().waitFor({ timeout: 180_000 });
+      await expect.poll(() => page.locator('body').innerText()).toMatch(/age_band/);
+      await screenshot(page, 'steward-run-completed');
     }, 'steward@demo.test'));
+
+  it('the statistician reviews the run', () =>
+    inTab(browser(), 'steward-flow-statistician', async (page) => {
+      await page.goto(`${appUrl}/runs/${runId}`);
+      await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor();
+      await page.getByRole('combobox', { name: 'Verdict' }).click({ force: true }); // Vuetify lays its field over the input
+      await page.getByRole('option', { name: 'fit for use', exact: true }).click();
+      await page.getByLabel('Reasoning').fill('Discrimination and calibration hold on the new quarter; subgroups by unit show no concern.');
+      await page.getByRole('button', { name: 'Save review' }).click();
+      await page.getByText('awaiting the chair’s decision').waitFor();
+      await screenshot(page, 'steward-flow-review');
+    }, 'statistician@demo.test'));
+
+  it('the chair finds the run in the runs list by its status and signs it', () =>
+    inTab(browser(), 'steward-flow-chair', async (page) => {
+      await page.goto(`${appUrl}/runs`);
+      await page.locator('[data-test="runs-search"] input').fill(cohortName);
+      await page.locator('[data-test="runs-stage"]').locator('.v-field').click();
+      await page.getByRole('option', { name: 'awaiting sign-off' }).click();
+      const row = page.getByRole('row').filter({ hasText: cohortName });
+      await expect.poll(() => row.count()).toBe(1);
+      expect(await row.innerText()).toMatch(/fit for use[\s\S]*awaiting sign-off/);
+      await screenshot(page, 'steward-flow-runs-list');
+      await row.click();
+      await page.getByRole('button', { name: 'Approve for clinical use' }).click();
+      const dialog = page.locator('[data-test="signature-dialog"]');
+      await dialog.getByLabel('Re-enter your password to sign').fill(DEMO_PASSWORD);
+      await dialog.getByRole('button', { name: 'Sign' }).click();
+      await page.locator('tr[data-meaning="approve for clinical use"]').waitFor();
+      await screenshot(page, 'steward-flow-signed');
+    }, 'chair@demo.test'));
+
+  it('the clinician reads the score card', () =>
+    inTab(browser(), 'steward-flow-clinician', async (page) => {
+      await page.goto(`${appUrl}/scorecards`);
+      const card = page.locator(`.score-card[data-version="${scoreVersionId}"]`);
+      await card.waitFor();
+      await card.getByRole('note', { name: 'Clinical-use caution' }).waitFor();
+      expect(await card.innerText()).toMatch(/AUC/);
+      await screenshot(page, 'steward-flow-card');
+    }, 'clinician@demo.test'));
 });
