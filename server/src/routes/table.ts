@@ -59,7 +59,7 @@ export const routes: RouteDef[] = [
 
   // Validation runs. /options and /compare before /:id so the literal paths are not taken for an id.
   { method: 'post', path: '/api/runs', access: ['steward', 'statistician'], summary: 'queue a validation run', body: createRunRequest, handler: runs.create },
-  { method: 'get', path: '/api/runs', access: ['steward', 'statistician', 'chair', 'admin'], summary: 'list validation runs (filter by score, status; paged)', query: runListQuery, handler: runs.list },
+  { method: 'get', path: '/api/runs', access: ['steward', 'statistician', 'chair', 'admin'], summary: 'list validation runs with review and sign-off status (filter by score, status, stage; search; paged)', query: runListQuery, handler: runs.list },
   { method: 'get', path: '/api/runs/options', access: ['steward', 'statistician'], summary: 'score and cohort versions a run may use', handler: runs.options },
   { method: 'get', path: '/api/runs/compare', access: ['statistician', 'chair', 'admin'], summary: 'compare the headline figures of two runs', query: runCompareQuery, handler: runs.compare },
   { method: 'get', path: '/api/runs/:id', access: ['steward', 'statistician', 'chair', 'admin'], summary: 'one validation run with its results', params: idParam, handler: runs.get },
