@@ -39,7 +39,7 @@ describe('alerts and the audit trail in the browser', () => {
   it('the admin reads the trail in names, filters it by day and downloads it', () =>
     inTab(browser(), 'audit-names', async (page) => {
       await page.goto(`${appUrl}/admin/audit`);
-      await page.getByLabel('Action starts with').fill('drift_alert.acknowledged');
+      await page.getByRole('textbox', { name: 'Action starts with' }).fill('drift_alert.acknowledged');
       const rows = page.locator('tbody tr').filter({ hasText: 'drift_alert.acknowledged' });
       await expect.poll(() => rows.count()).toBeGreaterThanOrEqual(3);
       const first = await rows.first().innerText();
