@@ -48,7 +48,11 @@ export const mappingRequest = z.object({
   saveAs: z.string().trim().min(1).max(160).optional(),
 });
 
-export const commitRequest = z.object({ excludeRejected: z.boolean().default(false) });
+export const commitRequest = z.object({
+  excludeRejected: z.boolean().default(false),
+  /** Or the rejected rows the steward chose to exclude, by line number (every rejected row must be chosen or fixed). */
+  excludeLines: z.array(z.number().int().min(1)).max(100_000).optional(),
+});
 
 export const saveMappingRequest = z.object({
   name: z.string().trim().min(1).max(160),

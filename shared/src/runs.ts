@@ -54,11 +54,17 @@ export const createRunRequest = z
   .strict();
 export type CreateRunRequest = z.input<typeof createRunRequest>;
 
+/** Where a run stands in review and sign-off (the runs list filters by it). */
+export const RUN_STAGES = ['not reviewed', 'awaiting sign-off', 'approved', 'returned', 'revoked'] as const;
+export type RunStage = (typeof RUN_STAGES)[number];
+
 export const runListQuery = z.object({
   score: z.uuid().optional(),
   scoreVersion: z.uuid().optional(),
   cohortVersion: z.uuid().optional(),
   status: z.enum(RUN_STATUSES).optional(),
+  stage: z.enum(RUN_STAGES).optional(),
+  search: z.string().trim().max(160).optional(),
   limit: z.coerce.number().int().min(1).max(200).default(50),
   offset: z.coerce.number().int().min(0).default(0),
 });
@@ -137,6 +143,10 @@ export interface RunSummary {
   attempt: number;
   /** headline numbers for lists, when completed. */
   headline: { n: number; events: number; auc: number; oe: number } | null;
+  /** The current review's verdict, if any. */
+  review?: { verdict: string; reviewedAt: string } | null;
+  /** The run's latest signature (approve, return or revoke), if any. */
+  signoff?: { meaning: string; signedAt: string; signedBy: string } | null;
 }
 
 export interface RunDetail extends RunSummary {
@@ -181,5 +191,5 @@ export interface RunComparison {
 /** What the start form offers: score versions and cohort versions with the columns a run can group by. */
 export interface RunOptions {
   scoreVersions: { id: string; scoreId: string; scoreName: string; version: number; mode: 'formula' | 'supplied'; clinicalStatus: string; columns: string[] }[];
-  cohortVersions: { id: string; cohortId: string; cohortName: string; version: number; label: string; rowCount: number; events: number; groupColumns: string[]; hasDates: boolean; createdAt: string }[];
+  cohortVersions: { id: string; cohortId: string; cohortName: string; version: number; label: string; rowCount: number; events: number; groupColumns: string[]; hasDates: boolean; periods: 'month' | 'quarter' | null; createdAt: string }[];
 }

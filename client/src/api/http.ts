@@ -84,3 +84,21 @@ export function errorMessage(err: unknown): string {
   if (err instanceof Error) return err.message;
   return String(err);
 }
+
+/** A file the API sends (CSV): fetched with the Bearer token and handed to the browser as a download. */
+export async function downloadFile(path: string, filename: string, query?: Query): Promise<void> {
+  const token = tokenSource();
+  const res = await fetch(withQuery(path, query), { headers: token ? { Authorization: `Bearer ${token}` } : {} });
+  if (!res.ok) {
+    const body = (await res.json().catch(() => ({}))) as { error?: unknown };
+    throw new ApiError(res.status, typeof body.error === 'string' ? body.error : `download failed (HTTP ${res.status})`);
+  }
+  const url = URL.createObjectURL(await res.blob());
+  const a = document.createElement('a');
+  a.href = url;
+  a.download = filename;
+  document.body.appendChild(a);
+  a.click();
+  a.remove();
+  setTimeout(() => URL.revokeObjectURL(url), 1000);
+}

@@ -1,10 +1,12 @@
 // Validation runs: start, list, read, reproduce, compare.
-import type { CreateRunRequest, ReproduceReport, RunComparison, RunDetail, RunOptions, RunStatus, RunSummary } from '@shared/runs';
+import type { CreateRunRequest, ReproduceReport, RunComparison, RunDetail, RunOptions, RunStage, RunStatus, RunSummary } from '@shared/runs';
 import { http } from './http';
 
 export interface RunFilter {
   score?: string;
   status?: RunStatus;
+  stage?: RunStage;
+  search?: string;
   limit?: number;
   offset?: number;
 }

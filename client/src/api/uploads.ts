@@ -1,9 +1,10 @@
 // Cohort uploads: the multipart transfer (with progress), mapping, checks, rejected rows, store or discard.
 import type { ColumnMappingSpec, ScreenFinding, UploadView } from '@shared/cohorts';
-import { ApiError, http } from './http';
+import { ApiError, downloadFile, http } from './http';
 
 export interface ScoreVersionChoice {
   id: string;
+  scoreId: string;
   scoreName: string;
   version: number;
   mode: string;
@@ -66,22 +67,21 @@ export const postMapping = async (id: string, mapping: ColumnMappingSpec, saveAs
   (await http.post<{ upload: UploadView }>(`/api/uploads/${encodeURIComponent(id)}/mapping`, { mapping, ...(saveAs ? { saveAs } : {}) })).upload;
 export const listRejections = (id: string, page: number, pageSize: number) =>
   http.get<{ rejections: { line: number; column: string; value: string; reason: string }[]; total: number }>(`/api/uploads/${encodeURIComponent(id)}/rejections`, { page, pageSize });
-export const commitUpload = (id: string, excludeRejected: boolean) =>
+/** Store: every rejected row excluded (`true`), or the rejected rows chosen by line number. */
+export const commitUpload = (id: string, exclude: true | number[]) =>
   http.post<{ cohortId: string; cohortVersionId: string; version: number; rowCount: number; events: number; excludedCount: number; sha256: string }>(
     `/api/uploads/${encodeURIComponent(id)}/commit`,
-    { excludeRejected },
+    exclude === true ? { excludeRejected: true } : { excludeLines: exclude },
   );
+export const listUploads = async () => (await http.get<{ uploads: UploadView[] }>('/api/uploads')).uploads;
+/** A same-name upload refused with 409: the cohort it names, so the page can offer to add a version of it. */
+export const existingCohort = (err: unknown): { id: string; name: string } | null =>
+  err instanceof ApiError && err.status === 409 ? ((err.details as { existingCohort?: { id: string; name: string } } | undefined)?.existingCohort ?? null) : null;
+/** The CSV header a cohort file needs for a score version. */
+export const downloadTemplate = (scoreId: string, version: number, scoreName: string) =>
+  downloadFile(`/api/scores/${encodeURIComponent(scoreId)}/versions/${version}/template.csv`, `${scoreName.toLowerCase().replace(/[^a-z0-9]+/g, '-')}-v${version}-cohort-template.csv`);
 export const discardUpload = async (id: string) => (await http.post<{ upload: UploadView }>(`/api/uploads/${encodeURIComponent(id)}/discard`)).upload;
 export const listMappings = async (cohortId?: string) => (await http.get<{ mappings: SavedMapping[] }>('/api/mappings', { cohortId })).mappings;
 
-/** The rejected rows CSV needs the Bearer token, so it is fetched and handed to the browser as a blob. */
-export async function downloadRejections(id: string, token: string): Promise<void> {
-  const res = await fetch(`/api/uploads/${encodeURIComponent(id)}/rejections.csv`, { headers: { Authorization: `Bearer ${token}` } });
-  if (!res.ok) throw new ApiError(res.status, `download failed (HTTP ${res.status})`);
-  const url = URL.createObjectURL(await res.blob());
-  const a = document.createElement('a');
-  a.href = url;
-  a.download = `rejected-rows-${id.slice(0, 8)}.csv`;
-  a.click();
-  setTimeout(() => URL.revokeObjectURL(url), 1000);
-}
+/** The rejected rows with their mapped values, to fix and upload again. */
+export const downloadRejections = (id: string) => downloadFile(`/api/uploads/${encodeURIComponent(id)}/rejections.csv`, `rejected-rows-${id.slice(0, 8)}.csv`);

@@ -3,6 +3,7 @@ import type { AuditQuery } from '@shared/audit';
 import { dataSource } from '../db/dataSource';
 import { AuditEntry } from '../entities/AuditEntry';
 import { verifyAuditChain } from '../services/audit';
+import { withNames } from '../services/auditNames';
 import { type CsvCell, sendCsv } from '../services/csvExport';
 
 function filtered(q: AuditQuery) {
@@ -18,7 +19,7 @@ function filtered(q: AuditQuery) {
 export async function list(req: Request, res: Response) {
   const q = req.query as unknown as AuditQuery;
   const [rows, total] = await filtered(q).skip(q.offset).take(q.limit).getManyAndCount();
-  res.json({ total, entries: rows });
+  res.json({ total, entries: await withNames(rows) });
 }
 
 export async function verify(_req: Request, res: Response) {

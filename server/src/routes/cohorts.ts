@@ -129,7 +129,7 @@ export async function rejectionsCsv(req: Request, res: Response) {
 }
 export async function commit(req: Request, res: Response) {
   const id = await ownUpload(req);
-  res.status(201).json(await uploads.commitUpload(currentUser(req), id, req.body.excludeRejected, sourceIp(req)));
+  res.status(201).json(await uploads.commitUpload(currentUser(req), id, req.body.excludeRejected, sourceIp(req), req.body.excludeLines));
 }
 export async function discard(req: Request, res: Response) {
   const id = await ownUpload(req);

@@ -1,5 +1,6 @@
 import type { Request, Response } from 'express';
-import type { AlertAckBody, AlertRuleBody, DriftRunChoice, RecalibrationBody, SampleSizeQuery } from '@shared/drift';
+import type { AlertAckBody, AlertBulkAckBody, AlertRuleBody, DriftRunChoice, RecalibrationBody, SampleSizeQuery } from '@shared/drift';
+import { acknowledgeAlerts } from '../services/alerts';
 import { scoreVersionParams } from '@shared/scores';
 import { currentUser, sourceIp } from '../middleware/auth';
 import * as drift from '../services/drift';
@@ -17,8 +18,14 @@ export async function timeline(req: Request, res: Response) {
   res.json(await drift.driftForVersion(id, version));
 }
 
-export async function listAlerts(_req: Request, res: Response) {
-  res.json({ alerts: await drift.listAlerts() });
+export async function listAlerts(req: Request, res: Response) {
+  const q = req.query as { score?: string };
+  res.json({ alerts: await drift.listAlerts({ scoreId: q.score }) });
+}
+
+export async function acknowledgeMany(req: Request, res: Response) {
+  const body = req.body as AlertBulkAckBody;
+  res.json({ alerts: await acknowledgeAlerts(currentUser(req), body.ids, body.note, sourceIp(req)) });
 }
 
 export async function acknowledge(req: Request, res: Response) {

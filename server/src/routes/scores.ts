@@ -2,6 +2,7 @@ import type { Request, Response } from 'express';
 import { modelFileName, scoreVersionParams } from '@shared/scores';
 import { currentUser, sourceIp } from '../middleware/auth';
 import * as scores from '../services/scores';
+import { cohortTemplateCsv } from '../services/uploads';
 
 // The table validates params; parse again here for their types (":version" arrives as text).
 const versionParams = (req: Request) => scoreVersionParams.parse(req.params);
@@ -51,4 +52,12 @@ export async function exportVersion(req: Request, res: Response) {
     .type('application/json')
     .attachment(modelFileName(out.score.name, out.version.version))
     .send(`${JSON.stringify(out.model, null, 2)}\n`);
+}
+
+/** A CSV with the columns a cohort file needs for this score version (header only), to fill in and upload. */
+export async function cohortTemplate(req: Request, res: Response) {
+  const { id, version } = versionParams(req);
+  const [score, v] = [await scores.getScore(id), await scores.getScoreVersionByNumber(id, version)];
+  const base = score.name.toLowerCase().replace(/[^a-z0-9]+/g, '-').replace(/^-|-$/g, '').slice(0, 60) || 'score';
+  res.status(200).type('text/csv; charset=utf-8').attachment(`${base}-v${v.version}-cohort-template.csv`).send(cohortTemplateCsv(v));
 }

@@ -10,7 +10,7 @@ import { createScoreRequest, createScoreVersionRequest, scoreIdParam, scoreVersi
 import { config } from '../config';
 import * as audit from './audit';
 import * as auth from './auth';
-import { alertAckBody, alertRuleBody, driftRunChoice, recalibrationBody, sampleSizeQuery } from '@shared/drift';
+import { alertAckBody, alertBulkAckBody, alertListQuery, alertRuleBody, driftRunChoice, recalibrationBody, sampleSizeQuery } from '@shared/drift';
 import * as cohorts from './cohorts';
 import type { RouteDef } from './define';
 import * as drift from './drift';
@@ -62,7 +62,7 @@ export const routes: RouteDef[] = [
 
   // Validation runs. /options and /compare before /:id so the literal paths are not taken for an id.
   { method: 'post', path: '/api/runs', access: ['steward', 'statistician'], summary: 'queue a validation run', body: createRunRequest, handler: runs.create },
-  { method: 'get', path: '/api/runs', access: ['steward', 'statistician', 'chair', 'admin'], summary: 'list validation runs (filter by score, status; paged)', query: runListQuery, handler: runs.list },
+  { method: 'get', path: '/api/runs', access: ['steward', 'statistician', 'chair', 'admin'], summary: 'list validation runs with review and sign-off status (filter by score, status, stage; search; paged)', query: runListQuery, handler: runs.list },
   { method: 'get', path: '/api/runs/options', access: ['steward', 'statistician'], summary: 'score and cohort versions a run may use', handler: runs.options },
   { method: 'get', path: '/api/runs/compare', access: ['statistician', 'chair', 'admin'], summary: 'compare the headline figures of two runs', query: runCompareQuery, handler: runs.compare },
   { method: 'get', path: '/api/runs/:id', access: ['steward', 'statistician', 'chair', 'admin'], summary: 'one validation run with its results', params: idParam, handler: runs.get },
@@ -102,13 +102,15 @@ export const routes: RouteDef[] = [
   { method: 'post', path: '/api/scores/:id/versions', access: SCORE_WRITERS, summary: 'add the next version (form body or an imported --model file)', params: scoreIdParam, body: createScoreVersionRequest, handler: scores.createVersion },
   { method: 'get', path: '/api/scores/:id/versions/:version', access: SCORE_READERS, summary: 'one score version', params: scoreVersionParams, handler: scores.getVersion },
   { method: 'patch', path: '/api/scores/:id/versions/:version', access: SCORE_WRITERS, summary: 'always refused (409): versions are never edited; create the next one', params: scoreVersionParams, handler: scores.editVersion },
+  { method: 'get', path: '/api/scores/:id/versions/:version/template.csv', access: SCORE_READERS, summary: 'a CSV header of the columns a cohort file needs for this score version', params: scoreVersionParams, handler: scores.cohortTemplate },
   { method: 'get', path: '/api/scores/:id/versions/:version/export', access: SCORE_READERS, summary: 'download the formula as a --model JSON file', params: scoreVersionParams, handler: scores.exportVersion },
 
   { method: 'get', path: '/api/sample-size', access: RUN_TEAM, summary: 'sample-size planner for external validation (Riley et al. 2021)', query: sampleSizeQuery, handler: drift.sampleSize },
   // Drift monitoring and model updating (services/drift.ts).
   { method: 'get', path: '/api/scores/:id/versions/:version/drift', access: ['statistician', 'chair', 'admin', 'steward'], summary: 'drift timeline of a score version: per-period figures, funnel limits, CUSUM, O − E, alerts', params: scoreVersionParams, handler: drift.timeline },
   { method: 'put', path: '/api/scores/:id/versions/:version/drift/runs', access: ['statistician'], summary: 'choose which run of a cohort version the drift timeline takes (runId null: the newest completed)', params: scoreVersionParams, body: driftRunChoice, handler: drift.chooseRun },
-  { method: 'get', path: '/api/alerts', access: ['statistician', 'chair', 'admin'], summary: 'drift alerts, open ones first', handler: drift.listAlerts },
+  { method: 'get', path: '/api/alerts', access: ['statistician', 'chair', 'admin'], summary: 'drift alerts, open ones first (filter by score)', query: alertListQuery, handler: drift.listAlerts },
+  { method: 'post', path: '/api/alerts/acknowledge', access: ['statistician', 'chair'], summary: 'acknowledge several open drift alerts with one note (all or none)', body: alertBulkAckBody, handler: drift.acknowledgeMany },
   { method: 'post', path: '/api/alerts/:id/acknowledge', access: ['statistician', 'chair'], summary: 'acknowledge a drift alert with a note (once)', params: idParam, body: alertAckBody, handler: drift.acknowledge },
   { method: 'get', path: '/api/scores/:id/alert-rules', access: ['statistician', 'chair', 'admin'], summary: 'drift alert rules of a score', params: scoreIdParam, handler: drift.listRules },
   { method: 'post', path: '/api/scores/:id/alert-rules', access: ['statistician'], summary: 'add a drift alert rule to a score', params: scoreIdParam, body: alertRuleBody, handler: drift.createRule },

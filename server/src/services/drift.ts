@@ -282,7 +282,7 @@ export async function driftForVersion(scoreId: string, versionNumber: number): P
 
 // ---------------------------------------------------------------- alerts
 
-interface AlertRow {
+export interface AlertRow {
   id: string;
   score_id: string;
   score_name: string;
@@ -297,12 +297,12 @@ interface AlertRow {
   ack_note: string | null;
 }
 
-const ALERT_SELECT = `SELECT a.id, s.id AS score_id, s.name AS score_name, a.score_version_id, sv.version, ar.kind, a.period, a.detail, a.raised_at,
+export const ALERT_SELECT = `SELECT a.id, s.id AS score_id, s.name AS score_name, a.score_version_id, sv.version, ar.kind, a.period, a.detail, a.raised_at,
     coalesce(u.name, u.email) AS acknowledged_by, a.acknowledged_at, a.ack_note
   FROM drift_alerts a JOIN alert_rules ar ON ar.id = a.rule_id JOIN score_versions sv ON sv.id = a.score_version_id
   JOIN scores s ON s.id = sv.score_id LEFT JOIN users u ON u.id = a.acknowledged_by`;
 
-function toAlertView(r: AlertRow): AlertView {
+export function toAlertView(r: AlertRow): AlertView {
   return {
     id: r.id,
     scoreId: r.score_id,
@@ -320,10 +320,10 @@ function toAlertView(r: AlertRow): AlertView {
   };
 }
 
-export async function listAlerts(filter: { versionId?: string } = {}, m: EntityManager = dataSource.manager): Promise<AlertView[]> {
+export async function listAlerts(filter: { versionId?: string; scoreId?: string } = {}, m: EntityManager = dataSource.manager): Promise<AlertView[]> {
   const rows: AlertRow[] = filter.versionId
     ? await m.query(`${ALERT_SELECT} WHERE a.score_version_id = $1 ORDER BY a.raised_at DESC, a.period`, [filter.versionId])
-    : await m.query(`${ALERT_SELECT} ORDER BY (a.acknowledged_at IS NULL) DESC, a.raised_at DESC LIMIT 500`);
+    : await m.query(`${ALERT_SELECT} WHERE ($1::uuid IS NULL OR s.id = $1) ORDER BY (a.acknowledged_at IS NULL) DESC, a.raised_at DESC LIMIT 500`, [filter.scoreId ?? null]);
   return rows.map(toAlertView);
 }
 

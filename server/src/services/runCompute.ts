@@ -171,17 +171,32 @@ export function indicatorLevelWarnings(score: RunScoreInput, data: CohortData): 
   return out;
 }
 
+/** "Computing bootstrap replicate 420 of 2,000": what the run page says while the bootstrap runs. */
+export function bootstrapProgressText(done: number, total: number): string {
+  const n = (x: number) => x.toLocaleString('en-US');
+  return `Computing bootstrap replicate ${n(done)} of ${n(total)}`;
+}
+
 /** The whole run: overall figures, then each subgroup level, then each period. Throws RunInputError on bad input. */
 export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn = () => {}): RunResults {
   const { data, settings } = input;
-  onProgress(0.02, 'computing predicted risk');
+  onProgress(0.02, 'Computing predicted risk');
   const p = predictedRisk(input.score, data);
   const y = data.outcome;
 
-  onProgress(0.1, settings.bootstrapReplicates > 0 ? `whole cohort (with ${settings.bootstrapReplicates} bootstrap replicates)` : 'whole cohort');
+  onProgress(0.1, 'Computing the whole cohort\'s figures');
+  const total = settings.bootstrapReplicates;
+  let lastTold = 0;
+  // The bootstrap takes most of a run: each replicate moves the bar from 10 % to 50 %, told at most every 200 ms.
+  const onReplicate = (done: number) => {
+    const now = Date.now();
+    if (done < total && now - lastTold < 200) return;
+    lastTold = now;
+    onProgress(0.1 + (0.4 * done) / total, bootstrapProgressText(done, total));
+  };
   let overall: ValidationResult;
   try {
-    overall = validate(p, y, engineSettings(settings));
+    overall = validate(p, y, engineSettings(settings), onReplicate);
   } catch (err) {
     throw new RunInputError((err as Error).message);
   }
@@ -190,7 +205,7 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
   const subgroups: SubgroupResult[] = [];
   const nCols = settings.subgroupColumns.length;
   settings.subgroupColumns.forEach((column, c) => {
-    onProgress(0.5 + (0.35 * c) / Math.max(1, nCols), `subgroups by ${column}`);
+    onProgress(0.5 + (0.35 * c) / Math.max(1, nCols), `Computing subgroups by ${column}`);
     const values = data.subgroups[column] ?? data.columns[column];
     if (!values) throw new RunInputError(`the cohort has no subgroup column "${column}"`);
     const byLevel = new Map<string, number[]>();
@@ -211,7 +226,7 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
   const periods: PeriodResult[] = [];
   let undatedRows: number | undefined;
   if (settings.timeGrouping !== 'none') {
-    onProgress(0.85, `periods by ${settings.timeGrouping}`);
+    onProgress(0.85, `Computing periods by ${settings.timeGrouping}`);
     const byPeriod = new Map<string, number[]>();
     undatedRows = 0;
     for (let i = 0; i < data.n; i++) {
@@ -246,6 +261,6 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
       });
     }
   }
-  onProgress(1, 'done');
+  onProgress(1, 'Done');
   return { overall, subgroups, periods, ...(undatedRows !== undefined ? { undatedRows } : {}), minSubgroupEvents: MIN_SUBGROUP_EVENTS };
 }

@@ -1,7 +1,9 @@
 // Validation runs: creating them, the persisted job queue that computes them off the request path, reading,
 // reproducing and comparing them. A completed run is immutable (database trigger in migration 1764633800000-Runs).
+import type { ColumnSummary } from '@shared/cohorts';
+import { periodGroupingOf } from '@shared/periodGrouping';
 import type { EntityManager } from 'typeorm';
-import { runSettingsSchema, type CompareMetric, type ReproduceReport, type RunComparison, type RunDetail, type RunListQuery, type RunOptions, type RunResults, type RunSettings, type RunStatus, type RunSummary } from '@shared/runs';
+import { runSettingsSchema, type CompareMetric, type ReproduceReport, type RunComparison, type RunDetail, type RunListQuery, type RunOptions, type RunResults, type RunSettings, type RunStage, type RunStatus, type RunSummary } from '@shared/runs';
 import { dataSource } from '../db/dataSource';
 import { ScoreVersion } from '../entities/ScoreVersion';
 import { CohortVersion } from '../entities/CohortVersion';
@@ -73,23 +75,40 @@ export async function createRun(actor: AuthUser, input: CreateRunInput, ip: stri
 
 // ---------------------------------------------------------------- read
 
-const SUMMARY_SELECT = `
-  SELECT r.id, r.status, r.progress, r.progress_message, r.error, r.engine_version, r.created_by, r.created_at, r.started_at,
-         r.finished_at, r.attempt, r.score_version_id, r.cohort_version_id,
-         sv.version AS score_version, s.id AS score_id, s.name AS score_name,
-         cv.version AS cohort_version, cv.label AS cohort_label, c.id AS cohort_id, c.name AS cohort_name,
-         u.name AS created_by_name,
-         CASE WHEN r.status = 'completed' THEN jsonb_build_object(
-           'n', ov.o->'n', 'events', ov.o->'events', 'auc', ov.o->'auc'->'estimate', 'oe', ov.o->'oe'->'estimate') END AS headline
+// The tables a run summary reads, with the current review and the latest signature of each run (the list's filters
+// and its count read the same joins).
+const SUMMARY_FROM = `
   FROM validation_runs r
   JOIN score_versions sv ON sv.id = r.score_version_id
   JOIN scores s ON s.id = sv.score_id
   JOIN cohort_versions cv ON cv.id = r.cohort_version_id
   JOIN cohorts c ON c.id = cv.cohort_id
   LEFT JOIN users u ON u.id = r.created_by
+  LEFT JOIN LATERAL (SELECT rr.verdict, rr.created_at FROM run_reviews rr WHERE rr.run_id = r.id AND rr.superseded_by IS NULL) rv ON true
+  LEFT JOIN LATERAL (SELECT g.meaning, g.signed_at, g.printed_name FROM signatures g WHERE g.run_id = r.id ORDER BY g.signed_at DESC LIMIT 1) sg ON true`;
+
+const SUMMARY_SELECT = `
+  SELECT r.id, r.status, r.progress, r.progress_message, r.error, r.engine_version, r.created_by, r.created_at, r.started_at,
+         r.finished_at, r.attempt, r.score_version_id, r.cohort_version_id,
+         sv.version AS score_version, s.id AS score_id, s.name AS score_name,
+         cv.version AS cohort_version, cv.label AS cohort_label, c.id AS cohort_id, c.name AS cohort_name,
+         u.name AS created_by_name, rv.verdict AS review_verdict, rv.created_at AS reviewed_at,
+         sg.meaning AS signoff_meaning, sg.signed_at AS signed_at, sg.printed_name AS signed_by,
+         CASE WHEN r.status = 'completed' THEN jsonb_build_object(
+           'n', ov.o->'n', 'events', ov.o->'events', 'auc', ov.o->'auc'->'estimate', 'oe', ov.o->'oe'->'estimate') END AS headline
+  ${SUMMARY_FROM}
   -- results is a large TOASTed jsonb: every r.results->… de-compresses all of it again, so 'overall' is taken once
   -- (OFFSET 0 keeps the planner from folding the sub-select back into four separate de-compressions).
   LEFT JOIN LATERAL (SELECT r.results->'overall' AS o OFFSET 0) ov ON true`;
+
+/** Where a run stands in governance, as the list filters it. */
+const STAGE_SQL: Record<RunStage, string> = {
+  'not reviewed': `r.status = 'completed' AND rv.verdict IS NULL`,
+  'awaiting sign-off': `rv.verdict IS NOT NULL AND (sg.meaning IS NULL OR sg.signed_at < rv.created_at)`,
+  approved: `sg.meaning = 'approve for clinical use' AND sg.signed_at >= rv.created_at`,
+  returned: `sg.meaning = 'return to statistician' AND sg.signed_at >= rv.created_at`,
+  revoked: `sg.meaning = 'revoke approval'`,
+};
 
 type SummaryRow = Record<string, unknown>;
 const iso = (v: unknown) => (v ? new Date(v as string).toISOString() : null);
@@ -118,6 +137,8 @@ function toSummary(r: SummaryRow): RunSummary {
     finishedAt: iso(r.finished_at),
     attempt: r.attempt as number,
     headline: (r.headline as RunSummary['headline']) ?? null,
+    review: r.review_verdict ? { verdict: r.review_verdict as string, reviewedAt: iso(r.reviewed_at)! } : null,
+    signoff: r.signoff_meaning ? { meaning: r.signoff_meaning as string, signedAt: iso(r.signed_at)!, signedBy: (r.signed_by as string) ?? '' } : null,
   };
 }
 
@@ -132,11 +153,11 @@ export async function listRuns(q: RunListQuery): Promise<{ total: number; runs: 
   if (q.scoreVersion) add('r.score_version_id = ?', q.scoreVersion);
   if (q.cohortVersion) add('r.cohort_version_id = ?', q.cohortVersion);
   if (q.status) add('r.status = ?', q.status);
+  if (q.stage) where.push(`(${STAGE_SQL[q.stage]})`);
+  // Words in the score, cohort, label or the name of who started it; LIKE's own wildcards are taken literally.
+  if (q.search) add(`concat_ws(' ', s.name, c.name, cv.label, u.name, rv.verdict) ILIKE ?`, `%${q.search.replace(/[\\%_]/g, (ch) => `\\${ch}`)}%`);
   const filter = where.length ? ` WHERE ${where.join(' AND ')}` : '';
-  const total: { n: string }[] = await dataSource.query(
-    `SELECT count(*)::text AS n FROM validation_runs r JOIN score_versions sv ON sv.id = r.score_version_id JOIN scores s ON s.id = sv.score_id${filter}`,
-    args,
-  );
+  const total: { n: string }[] = await dataSource.query(`SELECT count(*)::text AS n ${SUMMARY_FROM}${filter}`, args);
   const rows: SummaryRow[] = await dataSource.query(`${SUMMARY_SELECT}${filter} ORDER BY r.created_at DESC, r.id LIMIT ${q.limit} OFFSET ${q.offset}`, args);
   return { total: Number(total[0].n), runs: rows.map(toSummary) };
 }
@@ -155,6 +176,13 @@ export async function getRun(id: string, manager: EntityManager = dataSource.man
   return detail;
 }
 
+/** The cohort's own periods (month or quarter), read from the period column's levels in its column summary. */
+function cohortPeriods(summary: Record<string, ColumnSummary> | null): 'month' | 'quarter' | null {
+  const entry = Object.entries(summary ?? {}).find(([k, v]) => k.startsWith('period (') && v.kind === 'categorical');
+  if (!entry || entry[1].kind !== 'categorical') return 'month';
+  return periodGroupingOf(entry[1].levels.map((l) => l.value)) ?? 'month';
+}
+
 /** Score versions and cohort versions a run may combine, for the start form. */
 export async function runOptions(): Promise<RunOptions> {
   const svs: Record<string, unknown>[] = await dataSource.query(
@@ -162,7 +190,7 @@ export async function runOptions(): Promise<RunOptions> {
      FROM score_versions sv JOIN scores s ON s.id = sv.score_id ORDER BY s.name, sv.version DESC`,
   );
   const cvs: Record<string, unknown>[] = await dataSource.query(
-    `SELECT cv.id, cv.cohort_id, c.name AS cohort_name, cv.version, cv.label, cv.row_count, cv.events, cv.created_at,
+    `SELECT cv.id, cv.cohort_id, c.name AS cohort_name, cv.version, cv.label, cv.row_count, cv.events, cv.created_at, cv.column_summary,
             (SELECT b.sub_names FROM cohort_row_blocks b WHERE b.cohort_version_id = cv.id ORDER BY b.block_no LIMIT 1) AS subgroups,
             EXISTS (SELECT 1 FROM cohort_row_blocks b WHERE b.cohort_version_id = cv.id AND b.dated_count > 0) AS has_dates
      FROM cohort_versions cv JOIN cohorts c ON c.id = cv.cohort_id ORDER BY c.name, cv.version DESC`,
@@ -190,6 +218,7 @@ export async function runOptions(): Promise<RunOptions> {
       events: r.events as number,
       groupColumns: [...((r.subgroups as string[] | null) ?? [])].sort(),
       hasDates: r.has_dates as boolean,
+      periods: r.has_dates ? cohortPeriods(r.column_summary as Record<string, ColumnSummary> | null) : null,
       createdAt: iso(r.created_at)!,
     })),
   };

@@ -16,10 +16,11 @@ import type { AuthUser } from '../middleware/auth';
 import type { UploadWorkerData } from '../workers/uploadWorker';
 import { appendAudit } from './audit';
 import type { Delimiter } from './csvFile';
-import { csvRecords } from '@shared/csv';
+import { toCsv } from '@shared/csv';
 import { maskPreview } from './deidentify';
 import { drainJobs, enqueue, JOB, jobWorkersRunning, type JobHandler } from './jobs';
 import { checkInThread, screenInThread, warmUploadThreads } from './uploadThreads';
+import { rejectedLineNumbers, rejectedRowsCsv } from './rejectedRows';
 import type { RequiredPredictor } from './uploadCheck';
 import { logger } from '../observability/log';
 import { timeJob } from '../observability/metrics';
@@ -49,6 +50,11 @@ export function requiredPredictors(sv: Pick<ScoreVersion, 'mode' | 'model' | 'pr
     out.set(p.column, prev);
   }
   return [...out.values()];
+}
+
+/** The header of a cohort file for a score version: its predictor columns, the outcome and the period (as suggestMapping reads them). */
+export function cohortTemplateCsv(sv: Pick<ScoreVersion, 'mode' | 'model' | 'probabilityColumn'>): string {
+  return toCsv([...requiredPredictors(sv).map((p) => p.column), 'outcome', 'period'], []);
 }
 
 async function loadScoreVersion(id: string): Promise<ScoreVersion> {
@@ -105,8 +111,9 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
       const found = await dataSource.query('SELECT id FROM cohorts WHERE id = $1', [fields.cohortId]);
       if (!found.length) throw notFound('cohort');
     } else {
-      const found = await dataSource.query('SELECT id FROM cohorts WHERE lower(name) = lower($1)', [fields.cohortName]);
-      if (found.length) throw conflict(`a cohort named "${fields.cohortName}" exists; upload a new version of it instead (cohortId ${found[0].id})`);
+      const found: { id: string; name: string }[] = await dataSource.query('SELECT id, name FROM cohorts WHERE lower(name) = lower($1)', [fields.cohortName]);
+      // Said in words; the details let the client offer "add as a new version of" that cohort.
+      if (found.length) throw conflict(`a cohort named "${found[0].name}" already exists: add this file as a new version of "${found[0].name}", or choose another name for a new cohort`, { existingCohort: { id: found[0].id, name: found[0].name } });
     }
     // Parsing the sample and running the screen's patterns is CPU work: done in an upload thread, off the API's loop.
     const looked = await screenInThread(file.path);
@@ -464,34 +471,30 @@ export async function listRejections(id: string, page: number, pageSize: number)
   return { rejections: rows as { line: number; column: string; value: string; reason: string }[], total: n as number, page, pageSize };
 }
 
-/** The rejected cells as CSV, formula-looking cells prefixed with an apostrophe so a spreadsheet shows them as text. */
+/** The rejected rows as CSV with their mapped values (services/rejectedRows.ts), formula-looking cells neutralised. */
 export async function* rejectionsCsv(id: string): AsyncGenerator<string> {
-  yield csvRecords([['line', 'column', 'value', 'reason']]);
-  let after = -1;
-  for (;;) {
-    const rows: { line: number; column: string; value: string; reason: string }[] = await dataSource.query(
-      `SELECT line_no AS line, column_name AS column, value, reason FROM cohort_upload_rejections WHERE upload_id = $1 AND line_no > $2 ORDER BY line_no LIMIT 5000`,
-      [id, after],
-    );
-    if (!rows.length) return;
-    // Lines can hold several rejected cells: read whole lines per page so none is split.
-    const lastLine = rows[rows.length - 1].line;
-    const page = rows.length === 5000 ? rows.filter((x) => x.line < lastLine) : rows;
-    if (!page.length) {
-      const all = await dataSource.query(`SELECT line_no AS line, column_name AS column, value, reason FROM cohort_upload_rejections WHERE upload_id = $1 AND line_no = $2`, [id, lastLine]);
-      page.push(...all);
-    }
-    yield csvRecords(page.map((x) => [x.line, x.column, x.value, x.reason]));
-    after = page[page.length - 1].line;
-  }
+  const r = await uploadRow(id);
+  yield* rejectedRowsCsv({ uploadId: id, tempPath: r.temp_path, delimiter: r.delimiter, headers: r.headers, mapping: r.mapping });
 }
 
 // ---- Step 3: store or discard ---------------------------------------------------------------------------------
 
-export async function commitUpload(actor: AuthUser, id: string, excludeRejected: boolean, ip: string) {
+export async function commitUpload(actor: AuthUser, id: string, excludeRejected: boolean, ip: string, excludeLines?: number[]) {
   const r = await uploadRow(id);
   if (r.status !== 'checked' || !r.planned_version_id) throw conflict(`this upload is ${r.status}; only a checked upload can be stored`);
-  if (r.rows_rejected > 0 && !excludeRejected) {
+  let excludedLines: number[] | null = null;
+  if (r.rows_rejected > 0 && excludeLines && !excludeRejected) {
+    // Rows excluded one by one: every rejected row must be chosen; the rest are fixed in the file first.
+    const rejected = await rejectedLineNumbers(id);
+    const chosen = new Set(excludeLines);
+    const unknown = excludeLines.filter((l) => !rejected.includes(l));
+    if (unknown.length) throw badRequest(`line(s) ${unknown.slice(0, 10).join(', ')} were not rejected; only rejected rows can be excluded`);
+    const open = rejected.filter((l) => !chosen.has(l));
+    if (open.length || rejected.length < r.rows_rejected) {
+      throw conflict(`${open.length || r.rows_rejected - rejected.length} rejected row(s) are neither excluded nor fixed (line ${open.slice(0, 10).join(', ')}${open.length > 10 ? ', …' : ''}): exclude them too, or download the rejected rows, fix them in the file and upload it again`, { openLines: open.slice(0, 1000) });
+    }
+    excludedLines = rejected;
+  } else if (r.rows_rejected > 0 && !excludeRejected) {
     throw conflict(`${r.rows_rejected} row(s) were rejected: store with excludeRejected: true (the exclusions are recorded), or fix the file and upload it again`);
   }
   if (r.rows_accepted === 0) throw new HttpError(422, 'no row passed the checks; nothing to store');
@@ -545,7 +548,7 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
     await qr.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
     await appendAudit({
       actorId: actor.id, actorEmail: actor.email, action: 'cohort.version.stored', targetType: 'cohort_version', targetId: versionId, sourceIp: ip,
-      details: { cohortId, version, rows: r.rows_accepted, events: r.events, excluded: r.rows_rejected, sha256: r.sha256, uploadId: id },
+      details: { cohortId, version, rows: r.rows_accepted, events: r.events, excluded: r.rows_rejected, sha256: r.sha256, uploadId: id, ...(excludedLines ? { excludedLines: excludedLines.slice(0, 1000) } : {}) },
     }, qr.manager);
     await qr.commitTransaction();
   } catch (err) {
@@ -595,8 +598,8 @@ export async function listMyUploads(actor: AuthUser) {
 
 /** Score versions a cohort can be uploaded against (for the upload form's select). */
 export async function scoreVersionChoices() {
-  const rows: { id: string; scoreName: string; version: number; mode: string; probability_column: string | null; model: ScoreModel | null }[] = await dataSource.query(
-    `SELECT sv.id, s.name AS "scoreName", sv.version, sv.mode, sv.probability_column, sv.model FROM score_versions sv JOIN scores s ON s.id = sv.score_id ORDER BY s.name, sv.version DESC`,
+  const rows: { id: string; scoreId: string; scoreName: string; version: number; mode: string; probability_column: string | null; model: ScoreModel | null }[] = await dataSource.query(
+    `SELECT sv.id, s.id AS "scoreId", s.name AS "scoreName", sv.version, sv.mode, sv.probability_column, sv.model FROM score_versions sv JOIN scores s ON s.id = sv.score_id ORDER BY s.name, sv.version DESC`,
   );
-  return rows.map((r) => ({ id: r.id, scoreName: r.scoreName, version: r.version, mode: r.mode, requiredPredictors: requiredPredictors({ mode: r.mode as 'formula', model: r.model, probabilityColumn: r.probability_column }) }));
+  return rows.map((r) => ({ id: r.id, scoreId: r.scoreId, scoreName: r.scoreName, version: r.version, mode: r.mode, requiredPredictors: requiredPredictors({ mode: r.mode as 'formula', model: r.model, probabilityColumn: r.probability_column }) }));
 }

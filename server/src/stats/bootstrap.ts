@@ -63,7 +63,7 @@ export function scalarMetrics(r: ValidationResult): Record<string, number> {
 }
 
 /** Metric values of replicates [from, to): one row of values per replicate, keyed like scalarMetrics. */
-export function runReplicates(p: Float64Array, y: Uint8Array, settings: ValidationSettings, from: number, to: number): Record<string, number>[] {
+export function runReplicates(p: Float64Array, y: Uint8Array, settings: ValidationSettings, from: number, to: number, onReplicate?: (done: number) => void): Record<string, number>[] {
   const n = p.length;
   const bp = new Float64Array(n);
   const by = new Uint8Array(n);
@@ -80,6 +80,7 @@ export function runReplicates(p: Float64Array, y: Uint8Array, settings: Validati
     } catch {
       rows.push({}); // a resample the engine refuses (e.g. no events): every metric failed
     }
+    onReplicate?.(r + 1);
   }
   return rows;
 }
@@ -99,6 +100,6 @@ export function percentileIntervals(point: Record<string, number>, rows: Record<
 }
 
 /** In-process bootstrap (single thread); see bootstrapPool.ts for the same across worker threads. */
-export function bootstrap(p: Float64Array, y: Uint8Array, settings: ValidationSettings, point: ValidationResult): NonNullable<ValidationResult['bootstrap']> {
-  return percentileIntervals(scalarMetrics(point), runReplicates(p, y, settings, 0, settings.bootstrapReplicates), settings.bootstrapSeed);
+export function bootstrap(p: Float64Array, y: Uint8Array, settings: ValidationSettings, point: ValidationResult, onReplicate?: (done: number) => void): NonNullable<ValidationResult['bootstrap']> {
+  return percentileIntervals(scalarMetrics(point), runReplicates(p, y, settings, 0, settings.bootstrapReplicates, onReplicate), settings.bootstrapSeed);
 }

@@ -12,9 +12,10 @@ export { EngineInputError, checkInputs } from './checkInputs';
 export { applyModel } from './applyModel';
 export { compareAucs } from './delongAuc';
 
-export function validate(p: Float64Array, y: Uint8Array, settings: Partial<ValidationSettings> = {}): ValidationResult {
+/** `onReplicate` hears of each finished bootstrap replicate (the run's progress text counts them). */
+export function validate(p: Float64Array, y: Uint8Array, settings: Partial<ValidationSettings> = {}, onReplicate?: (done: number) => void): ValidationResult {
   const s = resolveSettings(settings);
   const result = computeFullSet(p, y, s);
-  if (s.bootstrapReplicates > 0) result.bootstrap = bootstrap(p, y, s, result);
+  if (s.bootstrapReplicates > 0) result.bootstrap = bootstrap(p, y, s, result, onReplicate);
   return result;
 }

@@ -39,7 +39,7 @@ async function main(job: RunJob, post: (m: RunWorkerMessage) => void): Promise<v
       post({ type: 'done', results: null, inputsSha256, drift: null, precision: null });
       return;
     }
-    post({ type: 'progress', fraction: 0.01, message: 'computing' });
+    post({ type: 'progress', fraction: 0.01, message: 'Starting the computation' });
     const results = computeRunResults(input, (fraction, message) => post({ type: 'progress', fraction, message }));
     // The drift series of this (score version, cohort version), stored with the completed run by the caller.
     const drift = driftSeriesOf(input.score, input.data);
