@@ -1,6 +1,7 @@
 // Accessibility of every page each role can reach, checked by axe-core (pinned in package.json) in Debian's Chromium:
 // no critical or serious violation on the menu pages of each role, nor on the run page, the drift page, the report,
-// a cohort and a score. Also: the rows of the runs, cohorts and scores lists open with the keyboard (Enter on a row).
+// a cohort and a score. Also: the rows of the runs, cohorts and scores lists open with the keyboard (Enter on a row), and
+// the run page fits a 390 px wide phone screen.
 import 'reflect-metadata';
 import { readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
@@ -11,7 +12,7 @@ import { navigationFor } from '../../client/src/navigation';
 import { dataSource, initDatabase } from '../../server/src/db/dataSource';
 import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from '../../server/src/db/seeds/cohorts';
 import { appUrl } from '../helpers/appServer';
-import { inTab, useAppAndBrowser } from '../helpers/browser';
+import { inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
 
 const axeSource = readFileSync(createRequire(import.meta.url).resolve('axe-core/axe.min.js'), 'utf8');
 
@@ -115,4 +116,24 @@ describe('lists work from the keyboard', () => {
         'statistician@demo.test',
       ));
   }
+});
+
+describe('a phone-sized screen', () => {
+  it('the run page fits 390 px without sideways scrolling (wide tables scroll inside their own box)', () =>
+    inTab(
+      browser(),
+      'run-page-390',
+      async (page) => {
+        await page.setViewportSize({ width: 390, height: 844 });
+        await page.goto(`${appUrl}/runs/${ids.runId}`);
+        await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor();
+        await page.getByRole('img', { name: 'ROC curve' }).waitFor();
+        await page.waitForLoadState('networkidle');
+        const widths = await page.evaluate(() => ({ scroll: document.documentElement.scrollWidth, client: document.documentElement.clientWidth }));
+        expect(widths.client).toBeLessThanOrEqual(390);
+        expect(widths.scroll, 'the page scrolls sideways').toBeLessThanOrEqual(widths.client);
+        await screenshot(page, 'run-page-390');
+      },
+      'statistician@demo.test',
+    ));
 });
