@@ -77,6 +77,7 @@ const ROLES: Role[] = ['steward', 'statistician', 'chair', 'clinician', 'admin']
 
 describe('accessibility of every page, for every role (axe-core)', () => {
   for (const role of ROLES) {
+    // Up to 13 pages a role, each scanned whole: on a busy 2-core machine a role takes 1–3 minutes, hence the long limit.
     it(`${role}: no critical or serious violation on any page the role can reach`, () =>
       inTab(
         browser(),
@@ -89,7 +90,8 @@ describe('accessibility of every page, for every role (axe-core)', () => {
           expect(findings, JSON.stringify(findings, null, 2)).toEqual([]);
         },
         `${role}@demo.test`,
-      ));
+      ),
+    600_000);
   }
 });
 
