@@ -30,8 +30,8 @@ apt_install() {
 install_dependencies() {
   apt_install postgresql-15 postgresql-client-15
   if [ "$MODE" = test ]; then
-    # Browser tests use Debian's Chromium; reference checks use Debian's R and Python statistics packages.
-    apt_install chromium python3-sklearn python3-statsmodels python3-pandas r-base-core r-cran-proc r-cran-mass
+    # Browser tests use Debian's Chromium (and poppler-utils to read the printed report); reference checks use Debian's R and Python statistics packages.
+    apt_install chromium poppler-utils python3-sklearn python3-statsmodels python3-pandas r-base-core r-cran-proc r-cran-mass
   fi
   local stamp=node_modules/.plumbline-lock
   if [ ! -f "$stamp" ] || ! cmp -s package-lock.json "$stamp"; then

@@ -8,6 +8,7 @@
 //            considerations for the external validation of a multivariable prognostic model: a resampling study.
 //            Stat Med 35:214–226.
 //   Precision: Riley RD, Debray TPA, Collins GS, et al. (2021), Stat Med 40:4230–4251 (server/src/stats/sampleSize.ts).
+import { formatCount } from './format';
 
 export const MINIMUM_EACH = 100;
 export const PREFERRED_EACH = 200;
@@ -43,9 +44,8 @@ export function adequacyVerdict(events: number, nonEvents: number): AdequacyVerd
   const meetsMinimum = events >= MINIMUM_EACH && nonEvents >= MINIMUM_EACH;
   const meetsPreferred = events >= PREFERRED_EACH && nonEvents >= PREFERRED_EACH;
   const level: AdequacyLevel = meetsPreferred ? 'preferred' : meetsMinimum ? 'minimum' : 'short';
-  const count = (n: number) => n.toLocaleString('en-GB');
   const lacking = (m: { events: number; nonEvents: number }) =>
-    [m.events ? `${count(m.events)} more event${m.events === 1 ? '' : 's'}` : '', m.nonEvents ? `${count(m.nonEvents)} more non-event${m.nonEvents === 1 ? '' : 's'}` : '']
+    [m.events ? `${formatCount(m.events)} more event${m.events === 1 ? '' : 's'}` : '', m.nonEvents ? `${formatCount(m.nonEvents)} more non-event${m.nonEvents === 1 ? '' : 's'}` : '']
       .filter(Boolean)
       .join(' and ');
   const missingForMinimum = { events: missing(events, MINIMUM_EACH), nonEvents: missing(nonEvents, MINIMUM_EACH) };

@@ -170,6 +170,8 @@ export interface ChecklistItem {
   item: string;
   present: boolean;
   where: string;
+  /** The report parts (shared/src/report.ts) that answer the item; none for what Plumbline does not record. */
+  parts: string[];
 }
 
 export interface MethodNote {
@@ -185,6 +187,7 @@ export interface RunReport {
     status: string;
     engineVersion: string | null;
     settings: unknown;
+    inputsSha256: string | null;
     resultsSha256: string | null;
     createdAt: string | null;
     completedAt: string | null;
@@ -200,6 +203,8 @@ export interface RunReport {
     inputs: { name: string; how: string }[];
     intercept: number | null;
     clinicalStatus: string;
+    /** The run this version was recalibrated from, when it is an update. */
+    derivedFromRunId: string | null;
   };
   cohort: {
     label: string;

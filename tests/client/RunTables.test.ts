@@ -24,11 +24,29 @@ describe('RunSubgroupTable', () => {
     });
     const rows = w.findAll('tbody tr');
     expect(rows).toHaveLength(2);
-    expect(rows[0].text()).toContain('0.700 (0.650–0.750)');
+    expect(rows[0].text()).toContain('0.700 (0.650 to 0.750)');
     expect(rows[0].text()).not.toContain('too small');
     expect(rows[1].text()).toContain('too small to judge');
     expect(rows[1].text()).not.toContain('0.700');
     expect(w.text()).toContain('fewer than 10 events');
+  });
+
+  it('writes each figure with the decimals it has on every page, and counts with thousands separators', () => {
+    const w = mount(RunSubgroupTable, {
+      props: {
+        minEvents: 10,
+        periods: [],
+        subgroups: [
+          { column: 'site', level: 'North', n: 12000, events: 1500, tooSmall: false, result: { eventRate: 0.125, auc: est(0.7), calibrationIntercept: est(-0.02), calibrationSlope: est(0.95), oe: est(1.1), brier: 0.12, ici: 0.01, warnings: [] } },
+        ],
+      },
+      global: { plugins: [vuetify] },
+    });
+    const text = w.find('tbody tr').text();
+    expect(text).toContain('12,000');
+    expect(text).toContain('1,500');
+    expect(text).toContain('1.10 (1.05 to 1.15)'); // O/E: two decimals (shared/src/format.ts)
+    expect(text).toContain('-0.020 (-0.070 to 0.030)'); // calibration-in-the-large: three
   });
 });
 

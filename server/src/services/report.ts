@@ -1,5 +1,7 @@
 // The validation report of one run: everything a committee file needs, as one JSON bundle the client prints.
-import type { ChecklistItem, MethodNote, RunReport } from '@shared/governance';
+import type { MethodNote, RunReport } from '@shared/governance';
+import { formatCount, formatThresholdList } from '@shared/format';
+import { CHECKLIST_SOURCE, reportChecklist, type ReportBundle } from '@shared/report';
 import type { ScoreModel } from '@shared/model';
 import type { RunResults, RunSettings } from '@shared/runs';
 import { dataSource } from '../db/dataSource';
@@ -43,73 +45,20 @@ function methods(settings: Partial<RunSettings> | null, results: RunResults | nu
     },
     {
       name: 'Clinical usefulness',
-      how: 'net benefit across thresholds against treat-all and treat-none; sensitivity, specificity, PPV and NPV at chosen thresholds with Wilson CIs.',
+      how: `net benefit across thresholds${settings?.netBenefitThresholds ? ` (${formatThresholdList(settings.netBenefitThresholds)})` : ''} against treat-all and treat-none; sensitivity, specificity, PPV and NPV at chosen thresholds${settings?.thresholds ? ` (${formatThresholdList(settings.thresholds)})` : ''} with Wilson CIs.`,
       source: 'Vickers AJ, Elkin EB (2006) Med Decis Making 26:565–574; Newcombe RG (1998) Stat Med 17:857–872',
     },
     {
       name: 'Sample size adequacy',
-      how: 'events and non-events against published minimums for external validation.',
+      how: `events${o ? ` (${formatCount(o.events)})` : ''} and non-events${o ? ` (${formatCount(o.nonEvents)})` : ''} against published minimums for external validation.`,
       source: 'Collins GS, Ogundimu EO, Altman DG (2016) Stat Med 35:214–226; Riley RD et al. (2021) Stat Med 40:4230–4251',
     },
   ];
 }
 
-export const CHECKLIST_SOURCE =
-  'Items paraphrased in our own words from the TRIPOD statement for validation studies (Collins GS, Reitsma JB, Altman DG, Moons KGM (2015). BMJ 350:g7594); consult the statement for its exact wording.';
-
-interface ChecklistFacts {
-  hasCitation: boolean;
-  hasCohortDescription: boolean;
-  hasDates: boolean;
-  hasOutcome: boolean;
-  hasPredictors: boolean;
-  hasResults: boolean;
-  hasThresholds: boolean;
-  hasSubgroups: boolean;
-  hasReview: boolean;
-  isUpdate: boolean;
-}
-
-/** Which TRIPOD validation items this report covers; "absent" means Plumbline does not record it. */
-export function tripodChecklist(f: ChecklistFacts): ChecklistItem[] {
-  const item = (code: string, topic: string, text: string, present: boolean, where: string): ChecklistItem => ({ code, topic, item: text, present, where });
-  return [
-    item('1', 'Title', 'Say that this is a validation of a prediction model, for whom, and for which outcome.', true, 'report heading'),
-    item('2', 'Abstract', 'Give a short summary of aims, data, methods, results and conclusions.', f.hasResults, 'summary section'),
-    item('3a', 'Background', 'Explain the clinical context and cite the model being validated.', f.hasCitation, 'score section (published source)'),
-    item('3b', 'Objectives', 'State that the aim is to check an existing model on new data.', true, 'report heading'),
-    item('4a', 'Source of data', 'Describe where the data come from (design, registry, file).', true, 'cohort section (source file and SHA-256)'),
-    item('4b', 'Source of data', 'Give the start and end dates of the period covered.', f.hasDates, f.hasDates ? 'cohort section (period)' : 'no period recorded for this cohort'),
-    item('5a', 'Participants', 'Describe the setting and locations where patients were treated.', f.hasCohortDescription, f.hasCohortDescription ? 'cohort description' : 'no cohort description recorded'),
-    item('5b', 'Participants', 'Give the eligibility criteria of the patients included.', f.hasCohortDescription, f.hasCohortDescription ? 'cohort description and intended population' : 'not recorded'),
-    item('5c', 'Participants', 'Describe any treatment the patients received, where relevant.', false, 'not recorded by Plumbline'),
-    item('6a', 'Outcome', 'Define the outcome, how and when it was assessed.', f.hasOutcome, 'score section (outcome and time horizon)'),
-    item('6b', 'Outcome', 'Say whether outcome assessment was blind to the predictors.', false, 'not recorded by Plumbline'),
-    item('7a', 'Predictors', 'Define every predictor and how it was measured.', f.hasPredictors, 'score section (inputs)'),
-    item('7b', 'Predictors', 'Say whether predictor assessment was blind to the outcome.', false, 'not recorded by Plumbline'),
-    item('8', 'Sample size', 'Explain how the sample size was reached and whether it suffices.', f.hasResults, 'results (events, non-events, adequacy warnings)'),
-    item('9', 'Missing data', 'Describe how missing or invalid values were handled.', true, 'cohort section (excluded rows)'),
-    item('10c', 'Analysis', 'Describe how predictions were computed for the validation data.', f.hasPredictors, 'methods (formula or supplied probability)'),
-    item('10d', 'Analysis', 'Name every measure used to judge performance.', true, 'methods section'),
-    item('10e', 'Analysis', 'Describe any updating of the model that followed the validation.', f.isUpdate, f.isUpdate ? 'score section (derived version)' : 'no update in this run'),
-    item('11', 'Risk groups', 'Give details of any risk thresholds or groups used.', f.hasThresholds, 'threshold table'),
-    item('12', 'Development vs validation', 'Compare setting, eligibility, outcome and predictors with the development study.', false, 'not recorded by Plumbline'),
-    item('13a', 'Participants', 'Give the flow of patients: numbers included, excluded, with and without the outcome.', f.hasResults, 'cohort section and results'),
-    item('13b', 'Participants', 'Describe the patients’ characteristics.', f.hasSubgroups, f.hasSubgroups ? 'subgroup table' : 'no subgroup columns in this run'),
-    item('13c', 'Participants', 'Compare the distribution of predictors with the development data.', false, 'not recorded by Plumbline'),
-    item('16', 'Model performance', 'Report performance measures with confidence intervals.', f.hasResults, 'results section'),
-    item('17', 'Model updating', 'Report the results of any model updating.', f.isUpdate, f.isUpdate ? 'derivation of this version' : 'no update in this run'),
-    item('18', 'Limitations', 'Discuss limitations (e.g. small numbers, missing data).', f.hasReview, f.hasReview ? 'review reasoning and warnings' : 'no review yet'),
-    item('19a', 'Interpretation', 'Interpret the results against the published performance.', f.hasReview, f.hasReview ? 'review reasoning' : 'no review yet'),
-    item('20', 'Implications', 'Discuss possible clinical use and further research.', f.hasReview, f.hasReview ? 'review verdict and committee decision' : 'no review yet'),
-    item('21', 'Supplementary', 'Say where more information (data, code, settings) can be found.', f.hasResults, 'run settings, engine version and results SHA-256'),
-    item('22', 'Funding', 'Give the source of funding and the funders’ role.', false, 'not recorded by Plumbline'),
-  ];
-}
-
 export async function runReport(runId: string): Promise<RunReport> {
   const rows: Record<string, unknown>[] = await dataSource.query(
-    `SELECT r.id, r.status, r.engine_version, r.settings, r.results, r.results_sha256, r.created_at, r.finished_at,
+    `SELECT r.id, r.status, r.engine_version, r.settings, r.results, r.inputs_sha256, r.results_sha256, r.created_at, r.finished_at,
             sv.version, sv.mode, sv.model, sv.probability_column, sv.clinical_status, sv.derived_from_run_id,
             s.name AS score_name, s.citation, s.outcome_definition, s.time_horizon, s.intended_population,
             coalesce(nullif(cv.label, ''), c.name || ' v' || cv.version) AS cohort_label, c.description AS cohort_description,
@@ -132,13 +81,14 @@ export async function runReport(runId: string): Promise<RunReport> {
   const signatures = await listSignatures(runId);
   const iso = (v: unknown) => (v ? new Date(v as string).toISOString() : null);
   const inputs = describeInputs(r.mode as string, model, r.probability_column as string | null);
-  return {
+  const bundle: ReportBundle = {
     generatedAt: new Date().toISOString(),
     run: {
       id: runId,
       status: r.status as string,
       engineVersion: (r.engine_version as string | null) ?? null,
       settings,
+      inputsSha256: (r.inputs_sha256 as string | null)?.trim() ?? null,
       resultsSha256: (r.results_sha256 as string | null)?.trim() ?? null,
       createdAt: iso(r.created_at),
       completedAt: iso(r.finished_at),
@@ -154,6 +104,7 @@ export async function runReport(runId: string): Promise<RunReport> {
       inputs,
       intercept: model?.intercept ?? null,
       clinicalStatus: r.clinical_status as string,
+      derivedFromRunId: (r.derived_from_run_id as string | null) ?? null,
     },
     cohort: {
       label: r.cohort_label as string,
@@ -170,18 +121,7 @@ export async function runReport(runId: string): Promise<RunReport> {
     methods: methods(settings, results),
     reviews,
     signatures,
-    checklist: tripodChecklist({
-      hasCitation: !!r.citation,
-      hasCohortDescription: !!(r.cohort_description as string)?.trim(),
-      hasDates: !!(r.period_start && r.period_end),
-      hasOutcome: !!r.outcome_definition,
-      hasPredictors: inputs.length > 0,
-      hasResults: !!results,
-      hasThresholds: !!results?.overall?.thresholds?.length,
-      hasSubgroups: !!results?.subgroups?.length,
-      hasReview: reviews.some((v) => v.current),
-      isUpdate: !!r.derived_from_run_id,
-    }),
-    checklistSource: CHECKLIST_SOURCE,
   };
+  // The checklist is derived from the same bundle the report is rendered from (shared/src/report.ts).
+  return { ...bundle, checklist: reportChecklist(bundle), checklistSource: CHECKLIST_SOURCE };
 }

@@ -22,6 +22,7 @@ import { queueEmail, recipientsForRole } from './mail';
 import { asStored, computeRunResults, ENGINE_VERSION, inputsSha256, resultsSha256, RunInputError, type RunComputeInput, type RunScoreInput } from './runCompute';
 import { completedRunRecord } from './runRecordCache';
 import { computeInThread, type RunningThread } from './runThread';
+import { formatCount, formatFigure } from '@shared/format';
 import { logger } from '../observability/log';
 import { jobDuration } from '../observability/metrics';
 
@@ -378,7 +379,7 @@ async function notifyRunFinished(runId: string): Promise<void> {
     const h = run.headline;
     const text =
       run.status === 'completed'
-        ? `The validation run of ${what} has completed.\n\nPatients: ${h?.n}, events: ${h?.events}, AUC: ${h?.auc?.toFixed(3)}, O/E: ${h?.oe?.toFixed(2)}.\n\nOpen it in Plumbline: /runs/${run.id}\n\nThis is a statistical check of past performance on local data, not medical advice.`
+        ? `The validation run of ${what} has completed.\n\nPatients: ${formatCount(h?.n)}, events: ${formatCount(h?.events)}, AUC: ${formatFigure('auc', h?.auc)}, O/E: ${formatFigure('oe', h?.oe)}.\n\nOpen it in Plumbline: /runs/${run.id}\n\nThis is a statistical check of past performance on local data, not medical advice.`
         : `The validation run of ${what} failed.\n\nReason: ${run.error}\n\nOpen it in Plumbline: /runs/${run.id}`;
     await queueEmail({ to, subject: `Validation run ${run.status}: ${what}`, text, kind: `run.${run.status}` });
   } catch (err) {
