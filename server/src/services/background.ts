@@ -3,7 +3,7 @@
 // (server/src/index.ts) — or a test — calls startBackgroundServices(), and the list below is the whole of it.
 import { config } from '../config';
 import { startMailSender } from './mail';
-import { startWidthsWarmUp } from './precisionThread';
+import { startWidthsWarmUp } from './adequacyWidths';
 import { startRunQueue } from './runs';
 import { startUploadUpkeep } from './uploads';
 

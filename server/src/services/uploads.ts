@@ -16,7 +16,7 @@ import { appendAudit } from './audit';
 import type { Delimiter } from './csvFile';
 import { csvRecords } from '@shared/csv';
 import { maskPreview } from './deidentify';
-import { checkInThread, screenInThread, warmUploadThreads } from './uploadThreads';
+import { checkInThread, screenInThread, warmUploadThreads } from '../workers/pool';
 import type { RequiredPredictor } from './uploadCheck';
 import { logger } from '../observability/log';
 import { timeJob } from '../observability/metrics';
