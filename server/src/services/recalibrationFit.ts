@@ -14,6 +14,10 @@ import { sortCohort } from '../stats/sortedCohort';
 /** A fit that cannot be made (separation, no convergence): answered as a conflict, with this message. */
 export class RecalibrationRefused extends Error {}
 
+/** How many fits this thread has made itself: the API thread's stays at 0 (the fits are made in the pool). */
+let madeHere = 0;
+export const fitsMadeHere = () => madeHere;
+
 export const fitted = (f: FitResult<Estimate> | null): Estimate | null =>
   f && f.converged && Number.isFinite(f.estimate) ? { estimate: f.estimate, lower: f.lower, upper: f.upper } : null;
 export const plain = (e: Estimate | null | undefined): Estimate | null =>
@@ -30,6 +34,7 @@ function curve(p: Float64Array, y: Uint8Array): CalibrationPoint[] {
 const estOf = (e: { estimate: number; lower: number; upper: number }): Estimate => ({ estimate: e.estimate, lower: e.lower, upper: e.upper });
 
 export function derive(method: RecalibrationMethod, lp: Float64Array, y: Uint8Array): { derivation: Derivation; fit: UpdateFit | null } {
+  madeHere++;
   let fit: UpdateFit | null;
   let chosen: Derivation['chosen'];
   let lrTests: Derivation['lrTests'] = [];
