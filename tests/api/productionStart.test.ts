@@ -193,13 +193,13 @@ describe('the production start (node dist/server/index.js)', () => {
         run = (await api(`/api/runs/${queued.body.run.id}`, { token })).body.run;
         if (run.status !== 'queued' && run.status !== 'running') break;
       }
-      expect(run.status, JSON.stringify(run.error ?? run.status)).toBe('completed');
+      expect(run.status, `${JSON.stringify(run.error ?? run.status)}\n${r.output().slice(-3000)}`).toBe('completed');
       expect(run.results.overall.n).toBe(upload.rowsAccepted);
       expect(run.adequacy.precision.oe).toBeGreaterThan(0);
     } finally {
       await stop(r.child);
     }
-  });
+  }, 360_000);
 
   it('refuses to start on a database that holds a demo account', async () => {
     psql(`INSERT INTO users (email, name, role, password_hash) VALUES ('chair@demo.test', 'Demo Chair', 'chair', '$2a$10$abcdefghijklmnopqrstuuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ01')`);
