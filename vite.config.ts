@@ -21,7 +21,7 @@ const nodeProject = (name: string, include: string[], timeout: number, serial: b
     hookTimeout: timeout,
     fileParallelism: !serial,
     globalSetup: serial ? [here('./tests/helpers/globalSetup.ts')] : [],
-    // No widths worked out for old runs at each start (services/precisionThread.ts): each test file starts the server.
+    // No widths worked out for old runs at each start (services/adequacyWidths.ts): each test file starts the server.
     env: { PLUMBLINE_WARM_WIDTHS: '0' },
     // expect.poll waits for what a person waits for; on a busy machine that can take longer than vitest's 1 s default.
     expect: { poll: { timeout: 30_000 } },

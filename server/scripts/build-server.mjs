@@ -1,5 +1,5 @@
 // Compiles the server for `npm run start:prod`: one self-contained ES module per entry point in dist/server (the
-// server, the jobs-only worker, the admin command and each worker thread), so `node` runs it without tsx. esbuild resolves the `@shared/*`
+// server, the jobs-only worker, the admin command and the worker threads' task module), so `node` runs it without tsx. esbuild resolves the `@shared/*`
 // path alias from tsconfig.json while bundling; packages stay in node_modules. Like tsx, esbuild emits no decorator
 // metadata: every entity column names its type (DEVELOPERS.md).
 import { build } from 'esbuild';
@@ -15,15 +15,12 @@ await build({
     index: 'server/src/index.ts',
     worker: 'server/src/worker.ts',
     'create-admin': 'server/src/cli/createAdmin.ts',
-    uploadWorker: 'server/src/workers/uploadWorker.ts',
-    runWorker: 'server/src/workers/runWorker.ts',
-    precisionWorker: 'server/src/workers/precisionWorker.ts',
-    bootstrapWorker: 'server/src/workers/bootstrapWorker.ts',
-    rowsWorker: 'server/src/workers/rowsWorker.ts',
+    // Every pool's threads load this one module (server/src/workers/pool.ts).
+    tasks: 'server/src/workers/tasks.ts',
   },
   outdir,
   bundle: true,
-  // No shared chunks: each file's import.meta.url is dist/server itself, where tsWorker.ts looks for the workers.
+  // No shared chunks: each file's import.meta.url is dist/server itself, where workers/pool.ts looks for tasks.js.
   splitting: false,
   platform: 'node',
   format: 'esm',

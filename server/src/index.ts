@@ -5,7 +5,7 @@ import { closeDatabase, initDatabase } from './db/dataSource';
 import { startChecks, StartRefused } from './db/startChecks';
 import { backgroundServices, startBackgroundServices, stopBackgroundServices } from './services/background';
 import { startFakeSmtp } from './services/fakeSmtp';
-import { stopRowsThread } from './services/rowsThread';
+import { stopPools } from './workers/pool';
 import { logger } from './observability/log';
 import { startProcessMetrics } from './observability/metrics';
 
@@ -26,7 +26,7 @@ async function main() {
     logger.info({ signal }, 'stopping');
     server.close();
     await stopBackgroundServices();
-    await stopRowsThread();
+    await stopPools();
     await closeDatabase();
     logger.flush();
     process.exit(0);

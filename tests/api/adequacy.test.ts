@@ -8,7 +8,7 @@ import type { CohortAdequacy } from '@shared/adequacy';
 import type { RunDetail } from '@shared/runs';
 import { stopBackgroundServices } from '../../server/src/services/background';
 import { forgetKeptPrecision, keptPrecision, widthsComputedHere } from '../../server/src/services/adequacyPrecision';
-import { warmRunWidths } from '../../server/src/services/precisionThread';
+import { warmRunWidths } from '../../server/src/services/adequacyWidths';
 import { processNextRun } from '../../server/src/services/runs';
 import { precisionFor } from '../../server/src/stats/sampleSize';
 import { app, bearer, dataSource, DEMO_PASSWORD, tokenFor, useDatabase } from '../helpers/api';

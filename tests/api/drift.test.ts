@@ -9,6 +9,7 @@ import type { AlertView, Derivation, DriftResponse } from '@shared/drift';
 import type { ScoreModel } from '@shared/model';
 import { runSettingsSchema } from '@shared/runs';
 import { evaluateAlertsForRun, evaluateAlertsForVersion } from '../../server/src/services/drift';
+import { fitsMadeHere } from '../../server/src/services/recalibrationFit';
 import { processNextRun, recordRunNow } from '../../server/src/services/runs';
 import { app, bearer, dataSource, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, FIXTURE_MODEL, kestrelRows, type ScoreFixture } from '../helpers/fixtures';
@@ -228,8 +229,10 @@ describe('drift timeline, alert rules and recalibration', () => {
     const stat = bearer(await tokenFor('statistician'));
     expect((await request(app).post(`/api/runs/${runId}/recalibrate`).set(stat).send({ method: 'cubic' })).status).toBe(400);
 
+    const fitsBefore = fitsMadeHere();
     const preview = await request(app).post(`/api/runs/${runId}/recalibration-preview`).set(stat).send({ method: 'closed-test' });
     expect(preview.status).toBe(200);
+    expect(fitsMadeHere(), 'the preview was fitted on the API thread, not in the pool').toBe(fitsBefore);
     // A pure shift of +0.9 on the logit scale: closed testing rejects "original" and keeps the intercept update
     // unless the slope clearly differs from 1 (Vergouwe et al. 2017); either way not the original score.
     expect(preview.body.derivation.chosen).not.toBe('original');
@@ -238,6 +241,7 @@ describe('drift timeline, alert rules and recalibration', () => {
     const before = Number((await dataSource.query('SELECT count(*) AS n FROM score_versions WHERE score_id = $1', [score.scoreId]))[0].n);
     const res = await request(app).post(`/api/runs/${runId}/recalibrate`).set(stat).send({ method: 'logistic' });
     expect(res.status).toBe(201);
+    expect(fitsMadeHere(), 'the proposal was fitted on the API thread, not in the pool').toBe(fitsBefore);
     expect(res.body.banner).toBe('Draft: this recalibrated version must be validated on different data (a later period) and signed off before clinical use.');
     const v = res.body.version;
     expect(v).toMatchObject({ scoreId: score.scoreId, version: before + 1, derivedFromRunId: runId });

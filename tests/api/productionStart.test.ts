@@ -1,7 +1,7 @@
 // The production build (npm run build → dist/server) started with node, as `npm run start:prod` does: it refuses a
 // missing, development or weak signing secret and a database with demo accounts; a good start migrates an empty
 // database, serves the client, seeds nothing, connects as a runtime role that is not a superuser, and its compiled
-// worker threads work (an upload is screened and checked in them).
+// worker threads work (an upload is screened and checked, its rows browsed and a run computed in them).
 import { execFileSync, spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
 import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
@@ -179,10 +179,27 @@ describe('the production start (node dist/server/index.js)', () => {
       }
       expect(upload.status, JSON.stringify(upload)).toBe('checked');
       expect(upload.rowsAccepted).toBeGreaterThan(250);
+      // The other pools of the compiled task module: the row browser, a run, and its adequacy widths.
+      const commit = await api(`/api/uploads/${upBody.upload.id}/commit`, { method: 'POST', token, body: JSON.stringify({ excludeRejected: true }) });
+      expect(commit.status, JSON.stringify(commit.body)).toBe(201);
+      const rows = await api(`/api/cohorts/${commit.body.cohortId}/versions/1/rows?page=1&pageSize=5&sortBy=line_no&sortDir=desc`, { token });
+      expect(rows.status, JSON.stringify(rows.body)).toBe(200);
+      expect(rows.body.rows).toHaveLength(5);
+      expect(rows.body.total).toBe(upload.rowsAccepted);
+      const queued = await api('/api/runs', { method: 'POST', token, body: JSON.stringify({ scoreVersionId: versionId, cohortVersionId: commit.body.cohortVersionId }) });
+      expect(queued.status, JSON.stringify(queued.body)).toBe(201);
+      let run: Record<string, any> = {};
+      for (const until = Date.now() + 120_000; Date.now() < until; await new Promise((res) => setTimeout(res, 300))) {
+        run = (await api(`/api/runs/${queued.body.run.id}`, { token })).body.run;
+        if (run.status !== 'queued' && run.status !== 'running') break;
+      }
+      expect(run.status, `${JSON.stringify(run.error ?? run.status)}\n${r.output().slice(-3000)}`).toBe('completed');
+      expect(run.results.overall.n).toBe(upload.rowsAccepted);
+      expect(run.adequacy.precision.oe).toBeGreaterThan(0);
     } finally {
       await stop(r.child);
     }
-  });
+  }, 360_000);
 
   it('refuses to start on a database that holds a demo account', async () => {
     psql(`INSERT INTO users (email, name, role, password_hash) VALUES ('chair@demo.test', 'Demo Chair', 'chair', '$2a$10$abcdefghijklmnopqrstuuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ01')`);

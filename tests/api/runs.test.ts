@@ -424,7 +424,7 @@ describe('the worker thread under plain tsx (as the server runs)', () => {
   it('starts, loads the cohort itself, computes, and gives the same hashes as an inline computation', async () => {
     const { execFile } = await import('node:child_process');
     const { promisify } = await import('node:util');
-    const { stdout } = await promisify(execFile)('node_modules/.bin/tsx', ['tests/helpers/runThreadProbe.ts'], { cwd: process.cwd(), timeout: 60_000 });
+    const { stdout } = await promisify(execFile)('node_modules/.bin/tsx', ['tests/helpers/runPoolProbe.ts'], { cwd: process.cwd(), timeout: 60_000 });
     const out = JSON.parse(stdout.trim().split('\n').pop()!);
     expect(out.threaded).toMatch(/^[0-9a-f]{64}$/);
     expect(out.threaded).toBe(out.inline);

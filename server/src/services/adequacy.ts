@@ -3,7 +3,7 @@
 import { adequacyVerdict, ASSUMED_AUC, PRECISION_ASSUMPTION, type AdequacyAucSource, type CohortAdequacy } from '@shared/adequacy';
 import { dataSource } from '../db/dataSource';
 import { runPrecisionInputs } from './adequacyPrecision';
-import { precisionOffThread } from './precisionThread';
+import { precisionOffThread } from './adequacyWidths';
 
 export async function buildAdequacy(input: { n: number; events: number; auc: number | null; source: AdequacyAucSource; runId: string | null }): Promise<CohortAdequacy> {
   const { n, events } = input;

@@ -4,7 +4,7 @@
 import { config } from '../config';
 import { startJobs, JOB, type JobHandler, type JobName } from './jobs';
 import { mailJob } from './mail';
-import { startWidthsWarmUp } from './precisionThread';
+import { startWidthsWarmUp } from './adequacyWidths';
 import { driftRulesJob, interruptRuns, runAbandonedJob, runJob } from './runs';
 import { startUploadUpkeep, uploadCheckAbandonedJob, uploadCheckJob, uploadSweepJob } from './uploads';
 

@@ -6,7 +6,7 @@ import type { AuthUser } from '../middleware/auth';
 import { badRequest, notFound } from '../middleware/errors';
 import { cohortVersionAdequacy } from './adequacy';
 import { appendAudit } from './audit';
-import { browseRows } from './rowsThread';
+import { browseRows } from '../workers/pool';
 
 const SORTS: Record<string, string> = { name: 'c.name', createdAt: 'c.created_at', versions: 'versions', latestRows: 'latest_rows' };
 

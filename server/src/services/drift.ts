@@ -9,22 +9,17 @@ import type { Estimate, FitResult } from '@shared/validation';
 import { dataSource } from '../db/dataSource';
 import type { AuthUser } from '../middleware/auth';
 import { conflict, notFound } from '../middleware/errors';
-import { calibrationIntercept } from '../stats/calibrationIntercept';
-import { calibrationSlope } from '../stats/calibrationSlope';
-import { closedTest } from '../stats/closedTest';
 import { funnelLimits } from '../stats/funnelLimits';
-import { groupedCalibration } from '../stats/groupedCalibration';
-import { observedExpected } from '../stats/observedExpected';
 import { observedMinusExpected } from '../stats/observedMinusExpected';
-import { interceptUpdate, logisticRecalibration, recalibratedProbabilities, transformModel, type UpdateFit } from '../stats/recalibration';
+import { transformModel } from '../stats/recalibration';
 import { riskAdjustedCusum, type CusumResult } from '../stats/riskAdjustedCusum';
-import { sortCohort } from '../stats/sortedCohort';
 import { appendAudit } from './audit';
-import { loadCohortData, mainQuery } from './cohortData';
+import { mainQuery } from './cohortData';
 import { readDriftSeries, type DriftSeriesPart } from './driftSeries';
-import { computeInThread } from './runThread';
+import { computeInThread, recalibrateInPool } from '../workers/pool';
 import { queueEmail, recipientsForRole } from './mail';
-import { predictedRisk, type RunScoreInput } from './runCompute';
+import type { RunScoreInput } from './runCompute';
+import { fitted, plain } from './recalibrationFit';
 import { createScoreVersion, getScoreVersionByNumber, scoreVersionDto } from './scores';
 import { logger } from '../observability/log';
 
@@ -492,14 +487,8 @@ export async function createAlertRule(actor: Pick<AuthUser, 'id' | 'email'> | nu
 
 // ---------------------------------------------------------------- recalibration
 
-interface RecalInput {
-  run: { id: string; scoreVersionId: string; cohortVersionId: string };
-  version: VersionRow;
-  lp: Float64Array;
-  y: Uint8Array;
-}
-
-async function recalInput(runId: string): Promise<RecalInput> {
+/** Checks the run and its version here; the cohort is loaded and the fit made in a pool thread (workers/pool.ts). */
+async function recalibrationFit(runId: string, method: RecalibrationMethod) {
   const rows: { id: string; status: string; score_version_id: string; cohort_version_id: string }[] = await dataSource.query(
     'SELECT id, status, score_version_id, cohort_version_id FROM validation_runs WHERE id = $1',
     [runId],
@@ -509,69 +498,18 @@ async function recalInput(runId: string): Promise<RecalInput> {
   const version = await versionById(rows[0].score_version_id);
   if (version.mode !== 'formula' || !version.model)
     throw conflict('this score version uses supplied probabilities and has no formula to transform; recalibration needs a formula version');
-  const data = await loadCohortData(rows[0].cohort_version_id);
-  const p = predictedRisk(scoreInputOf(version), data);
-  const lp = new Float64Array(p.length);
-  for (let i = 0; i < p.length; i++) lp[i] = Math.log(p[i] / (1 - p[i]));
-  return { run: { id: rows[0].id, scoreVersionId: version.id, cohortVersionId: rows[0].cohort_version_id }, version, lp, y: data.outcome };
-}
-
-function summary(lp: Float64Array, p: Float64Array, y: Uint8Array): CalibrationSummary {
-  return { citl: fitted(calibrationIntercept(lp, y)), slope: fitted(calibrationSlope(lp, y)), oe: plain(observedExpected(p, y)) };
-}
-
-function curve(p: Float64Array, y: Uint8Array): CalibrationPoint[] {
-  return groupedCalibration(sortCohort(p, y), 10).map((g) => ({ meanPredicted: g.meanPredicted, observed: g.observed.estimate }));
-}
-
-const estOf = (e: { estimate: number; lower: number; upper: number }): Estimate => ({ estimate: e.estimate, lower: e.lower, upper: e.upper });
-
-function derive(method: RecalibrationMethod, lp: Float64Array, y: Uint8Array): { derivation: Derivation; fit: UpdateFit | null } {
-  let fit: UpdateFit | null;
-  let chosen: Derivation['chosen'];
-  let lrTests: Derivation['lrTests'] = [];
-  if (method === 'closed-test') {
-    const ct = closedTest(lp, y);
-    if (!ct.converged) throw conflict(`the recalibration fit failed: ${ct.reason} (${ct.detail})`);
-    chosen = ct.choice;
-    fit = ct.choice === 'intercept' ? ct.intercept : ct.choice === 'logistic' ? ct.logistic : null;
-    lrTests = ct.tests.map((t) => ({ comparison: t.comparison, statistic: t.statistic, df: t.df, pValue: t.pValue }));
-  } else {
-    const f = method === 'intercept' ? interceptUpdate(lp, y) : logisticRecalibration(lp, y);
-    if (!f.converged) throw conflict(`the recalibration fit failed: ${f.reason} (${f.detail})`);
-    fit = f;
-    chosen = method;
-  }
-  const a = fit ? fit.a.estimate : 0;
-  const b = fit ? fit.b.estimate : 1;
-  const before = recalibratedProbabilities(lp, 0, 1);
-  const after = recalibratedProbabilities(lp, a, b);
-  const lpAfter = new Float64Array(lp.length);
-  for (let i = 0; i < lp.length; i++) lpAfter[i] = a + b * lp[i];
-  return {
-    fit,
-    derivation: {
-      method,
-      chosen,
-      intercept: fit ? estOf(fit.a) : { estimate: 0, lower: 0, upper: 0 },
-      slope: fit && fit.method === 'logistic' ? estOf(fit.b) : null,
-      lrTests,
-      before: summary(lp, before, y),
-      after: summary(lpAfter, after, y),
-      calibrationBefore: curve(before, y),
-      calibrationAfter: curve(after, y),
-    },
-  };
+  const answer = await recalibrateInPool({ cohortVersionId: rows[0].cohort_version_id, score: scoreInputOf(version), method });
+  if (!answer.ok) throw conflict(answer.message);
+  return { version, derivation: answer.derivation, fit: answer.fit };
 }
 
 export async function recalibrationPreview(runId: string, method: RecalibrationMethod): Promise<Derivation> {
-  const input = await recalInput(runId);
-  return derive(method, input.lp, input.y).derivation;
+  return (await recalibrationFit(runId, method)).derivation;
 }
 
 export async function recalibrate(actor: AuthUser, runId: string, method: RecalibrationMethod, ip: string) {
-  const input = await recalInput(runId);
-  const { derivation, fit } = derive(method, input.lp, input.y);
+  const input = await recalibrationFit(runId, method);
+  const { derivation, fit } = input;
   if (!fit) throw conflict('closed testing keeps the original score (no update is significant); no new version was proposed');
   const model = transformModel(input.version.model!, fit.a.estimate, fit.b.estimate);
   const sv = await createScoreVersion(

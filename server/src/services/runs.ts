@@ -21,7 +21,7 @@ import { drainJobs, enqueue, JOB, type JobHandler } from './jobs';
 import { queueEmail, recipientsForRole } from './mail';
 import { asStored, computeRunResults, ENGINE_VERSION, inputsSha256, resultsSha256, RunInputError, type RunComputeInput, type RunScoreInput } from './runCompute';
 import { completedRunRecord } from './runRecordCache';
-import { computeInThread, type RunningThread } from './runThread';
+import { computeInThread, type RunningThread } from '../workers/pool';
 import { formatCount, formatFigure } from '@shared/format';
 import { logger } from '../observability/log';
 import { jobDuration } from '../observability/metrics';

@@ -19,7 +19,7 @@ import type { Delimiter } from './csvFile';
 import { toCsv } from '@shared/csv';
 import { maskPreview } from './deidentify';
 import { drainJobs, enqueue, JOB, jobWorkersRunning, type JobHandler } from './jobs';
-import { checkInThread, screenInThread, warmUploadThreads } from './uploadThreads';
+import { checkInThread, screenInThread, warmUploadThreads } from '../workers/pool';
 import { rejectedLineNumbers, rejectedRowsCsv } from './rejectedRows';
 import type { RequiredPredictor } from './uploadCheck';
 import { logger } from '../observability/log';

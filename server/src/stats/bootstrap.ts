@@ -5,7 +5,7 @@
  * Choices: replicate r draws from its own stream, mulberry32 seeded with splitmix32(seed ⊕ r·golden), so the result
  * is the same for the same seed however replicates are split across workers; a replicate whose resample cannot be
  * validated (e.g. no events) or whose fit fails counts as failed for that metric and is left out, with the count
- * reported. Pure: the worker orchestration lives in server/src/workers/bootstrapPool.ts.
+ * reported. Pure: the thread pool that spreads it lives in server/src/workers/pool.ts.
  */
 import type { Estimate, ValidationResult, ValidationSettings } from '@shared/validation';
 import { computeFullSet } from './fullSet';
@@ -99,7 +99,7 @@ export function percentileIntervals(point: Record<string, number>, rows: Record<
   return { replicates: rows.length, seed, intervals, failed, method: 'percentile (2.5th, 97.5th; type 7), resampling rows with replacement' };
 }
 
-/** In-process bootstrap (single thread); see bootstrapPool.ts for the same across worker threads. */
+/** In-process bootstrap (single thread); see bootstrapInWorkers (workers/pool.ts) for the same across worker threads. */
 export function bootstrap(p: Float64Array, y: Uint8Array, settings: ValidationSettings, point: ValidationResult, onReplicate?: (done: number) => void): NonNullable<ValidationResult['bootstrap']> {
   return percentileIntervals(scalarMetrics(point), runReplicates(p, y, settings, 0, settings.bootstrapReplicates, onReplicate), settings.bootstrapSeed);
 }

@@ -1,14 +1,13 @@
-// Worker thread of the cohort row browser: loads a stored cohort version through its own PostgreSQL connection, and
-// sorts or searches it once per (version, key, direction) or (version, search); each page request then only slices.
-// Stored versions never change, so what this thread keeps is never stale, whatever other processes do. Bounded by
-// the rows it holds; least recently used versions go first.
-import { parentPort, workerData } from 'node:worker_threads';
+// Pool task of the cohort row browser (workers/pool.ts runs it in a pool of one thread, so what it keeps is shared by
+// every request): loads a stored cohort version through its own PostgreSQL connection, and sorts or searches it once
+// per (version, key, direction) or (version, search); each page request then only slices. Stored versions never
+// change, so what this thread keeps is never stale, whatever other processes do. Bounded by the rows it holds; least
+// recently used versions go first.
 import pg from 'pg';
+import { config } from '../config';
 import { loadCohortData, type CohortData, type Query } from '../services/cohortData';
-import { lowerThisThreadPriority } from './threadPriority';
 
 export interface RowsRequest {
-  requestId: number;
   cohortVersionId: string;
   rowCount: number;
   sortBy: string;
@@ -26,7 +25,7 @@ export interface BrowsedRow {
   subgroups: Record<string, string | null>;
 }
 
-export type RowsAnswer = { requestId: number; ok: true; rows: BrowsedRow[]; total: number } | { requestId: number; ok: false; message: string };
+export type RowsAnswer = { ok: true; rows: BrowsedRow[]; total: number } | { ok: false; message: string };
 
 const MAX_ROWS_HELD = 2_000_000;
 const MAX_ORDERS_PER_VERSION = 12;
@@ -39,7 +38,15 @@ interface Held {
 }
 
 const held = new Map<string, Held>();
-let query: Query;
+let pool: pg.Pool | null = null;
+// This thread's own connections, opened with its first request.
+const query: Query = async (sql, params) => {
+  if (!pool) {
+    pool = new pg.Pool({ ...config.db, max: 2, application_name: 'plumbline row browser' });
+    pool.on('error', () => undefined);
+  }
+  return (await pool.query(sql, params as unknown[])).rows;
+};
 
 function version(id: string, n: number): Held {
   let h = held.get(id);
@@ -113,19 +120,14 @@ async function answer(r: RowsRequest): Promise<RowsAnswer> {
     predictors: Object.fromEntries(Object.entries(data.columns).map(([k, c]) => [k, c[i]])),
     subgroups: Object.fromEntries(Object.entries(data.subgroups).filter(([, c]) => c[i] !== null).map(([k, c]) => [k, c[i]])),
   }));
-  return { requestId: r.requestId, ok: true, rows, total: idx.length };
+  return { ok: true, rows, total: idx.length };
 }
 
-const port = parentPort;
-if (port) {
-  lowerThisThreadPriority();
-  const pool = new pg.Pool({ ...(workerData as { db: pg.PoolConfig }).db, max: 2, application_name: 'plumbline row browser' });
-  pool.on('error', () => undefined);
-  query = async (sql, params) => (await pool.query(sql, params as unknown[])).rows;
-  port.on('message', (r: RowsRequest) => {
-    answer(r).then(
-      (a) => port.postMessage(a),
-      (err) => port.postMessage({ requestId: r.requestId, ok: false, message: (err as Error).message ?? String(err) } satisfies RowsAnswer),
-    );
-  });
+/** The pool task: one page of rows, or why they could not be read. */
+export async function rows(r: RowsRequest): Promise<RowsAnswer> {
+  try {
+    return await answer(r);
+  } catch (err) {
+    return { ok: false, message: (err as Error).message ?? String(err) };
+  }
 }

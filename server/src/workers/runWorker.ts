@@ -1,7 +1,7 @@
-// Worker thread for one validation run, or for one drift series: it reads its own inputs from PostgreSQL through its
-// own connection, so the API thread neither loads nor decodes the cohort, and answers with progress messages and
-// then the results (or an error).
-import { parentPort, workerData } from 'node:worker_threads';
+// Pool task for one validation run, or for one drift series (workers/pool.ts): it reads its own inputs from PostgreSQL
+// through its own connection, so the API thread neither loads nor decodes the cohort, posts progress on the port it is
+// given and returns the results (or an error).
+import type { MessagePort } from 'node:worker_threads';
 import pg from 'pg';
 import type { AdequacyPrecision } from '@shared/adequacy';
 import { precision, runPrecisionInputs } from '../services/adequacyPrecision';
@@ -9,12 +9,14 @@ import type { Query } from '../services/cohortData';
 import { driftSeriesOf, storeDriftSeries, type DriftSeriesPart } from '../services/driftSeries';
 import { computeRunResults, RunInputError } from '../services/runCompute';
 import { loadRunInput } from '../services/runInput';
-import { lowerThisThreadPriority } from './threadPriority';
 
 export type RunJob =
   | { task: 'run'; scoreVersionId: string; cohortVersionId: string; settings: unknown; db: pg.ClientConfig }
   /** Works out and stores the drift series of a pair that has none (a run completed before series were kept). */
   | { task: 'drift-series'; scoreVersionId: string; cohortVersionId: string; db: pg.ClientConfig };
+
+/** A run task as the pool receives it: the job and, for runs that report progress, the port to post it on. */
+export type RunTask = RunJob & { progress?: MessagePort };
 
 export type RunWorkerMessage =
   | { type: 'progress'; fraction: number; message: string }
@@ -52,11 +54,18 @@ async function main(job: RunJob, post: (m: RunWorkerMessage) => void): Promise<v
   }
 }
 
-const port = parentPort;
-if (port) {
-  // A run may compute for minutes: it yields the CPU to the API thread (per-thread nice value, see threadPriority.ts).
-  lowerThisThreadPriority();
-  main(workerData as RunJob, (m) => port.postMessage(m)).catch((err) =>
-    port.postMessage({ type: 'error', message: (err as Error).message ?? String(err), inputError: err instanceof RunInputError } satisfies RunWorkerMessage),
-  );
+/** The pool task: never throws for a failed run, so the caller learns whether the inputs were at fault. */
+export async function run(task: RunTask): Promise<Exclude<RunWorkerMessage, { type: 'progress' }>> {
+  const { progress, ...job } = task;
+  let ending: Exclude<RunWorkerMessage, { type: 'progress' }> | null = null;
+  try {
+    await main(job as RunJob, (m) => {
+      if (m.type === 'progress') progress?.postMessage(m);
+      else ending = m;
+    });
+  } catch (err) {
+    ending = { type: 'error', message: (err as Error).message ?? String(err), inputError: err instanceof RunInputError };
+  }
+  // The port stays open: the caller reads what is left on it and then closes it.
+  return ending ?? { type: 'error', message: 'the run ended without a result', inputError: false };
 }

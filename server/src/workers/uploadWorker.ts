@@ -1,11 +1,11 @@
-// Worker thread for one upload's row checks. Parsing and checking a large file is CPU work: here it cannot delay the
+// Pool tasks for one upload's row checks and for the first look at a received file (workers/pool.ts). Parsing and checking a large file is CPU work: here it cannot delay the
 // API's event loop. The thread holds its own PostgreSQL connection and, in ONE transaction, streams the accepted rows
 // into cohort_row_blocks with COPY while it reads the file, stores the rejected cells, and marks the upload checked. A crash
 // or error anywhere aborts that transaction: no row is left behind. The rows stay invisible until the steward stores
 // the upload (a cohort_versions row with the planned id is what makes them a cohort version).
 import { finished } from 'node:stream/promises';
 import type { Writable } from 'node:stream';
-import { parentPort, workerData } from 'node:worker_threads';
+import type { MessagePort } from 'node:worker_threads';
 import pg from 'pg';
 import { from as copyFrom } from 'pg-copy-streams';
 import type { ScreenFinding } from '@shared/cohorts';
@@ -14,7 +14,7 @@ import { HttpError } from '../middleware/errors';
 import { CsvBytesError, csvText, readHeaderAndSample, sniffCsv, type Delimiter } from '../services/csvFile';
 import { screenColumns, type ScreenResult } from '../services/deidentify';
 import { checkUploadRows, type CheckInput, type Rejection } from '../services/uploadCheck';
-import { lowerDatabaseSessionPriority, lowerThisThreadPriority } from './threadPriority';
+import { lowerDatabaseSessionPriority } from './sessionPriority';
 import { config } from '../config';
 
 export interface UploadWorkerData extends CheckInput {
@@ -85,7 +85,7 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
   client.on('error', () => undefined); // a lost connection surfaces as the failed query below
   await client.connect();
   try {
-    // The COPY's database process gives way too, as this thread does (where the OS lets us; see threadPriority.ts).
+    // The COPY's database process gives way too, as this thread does (where the OS lets us; see sessionPriority.ts).
     await lowerDatabaseSessionPriority(client, data.db.host);
     await client.query('BEGIN');
     const copy = client.query(copyFrom(COPY_BLOCKS_SQL));
@@ -132,19 +132,27 @@ function failure(err: Error): Extract<UploadWorkerMessage, { type: 'error' }> {
   return { type: 'error', message: (err?.message ?? String(err)).split('\n')[0], database };
 }
 
-// A long-lived thread (server/src/services/uploadThreads.ts keeps a few): one job at a time, answered by job id.
-const port = parentPort;
-if (port) {
-  // Checking a file yields the CPU to the API thread when both want it (per-thread nice value, see threadPriority.ts).
-  lowerThisThreadPriority();
-  port.on('message', (job: { jobId: number; data: UploadWorkerData | ScreenJob }) => {
-    const post = (m: UploadWorkerMessage | ScreenAnswer) => port.postMessage({ jobId: job.jobId, message: m });
-    if ('kind' in job.data) {
-      screen(job.data.path).then(post, (err: Error) => post(err instanceof HttpError
-        ? { type: 'refused-file', status: err.status, message: err.message, details: err.details }
-        : failure(err)));
-      return;
-    }
-    main(job.data, post).catch((err: Error) => post(failure(err)));
-  });
+/** The pool task for a screen: the answer, a refusal of the file, or an error. */
+export async function screenFile(path: string): Promise<ScreenAnswer | Extract<UploadWorkerMessage, { type: 'error' }>> {
+  try {
+    return await screen(path);
+  } catch (err) {
+    return err instanceof HttpError
+      ? { type: 'refused-file', status: err.status, message: err.message, details: err.details }
+      : failure(err as Error);
+  }
+}
+
+/** The pool task for a full check: progress goes to `progress`; the ending (stored or rolled back by then) is returned. */
+export async function checkUpload(task: { data: UploadWorkerData; progress: MessagePort }): Promise<Exclude<UploadWorkerMessage, { type: 'progress' }>> {
+  let ending: Exclude<UploadWorkerMessage, { type: 'progress' }> | null = null;
+  try {
+    await main(task.data, (m) => {
+      if (m.type === 'progress') task.progress.postMessage(m);
+      else ending = m;
+    });
+  } catch (err) {
+    return failure(err as Error);
+  }
+  return ending ?? { type: 'error', message: 'the check ended without an answer' };
 }

@@ -5,7 +5,7 @@ import 'reflect-metadata';
 import { closeDatabase, initDatabase } from '../../server/src/db/dataSource';
 import { computeRunResults, resultsSha256 } from '../../server/src/services/runCompute';
 import { loadRunInput } from '../../server/src/services/runInput';
-import { computeInThread } from '../../server/src/services/runThread';
+import { computeInThread, stopPools } from '../../server/src/workers/pool';
 import { runSettingsSchema } from '../../shared/src/runs';
 import { createCohortFixture, createScoreFixture, kestrelRows } from './fixtures';
 
@@ -27,5 +27,6 @@ try {
     }),
   );
 } finally {
+  await stopPools();
   await closeDatabase();
 }
