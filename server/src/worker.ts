@@ -5,7 +5,7 @@ import 'reflect-metadata';
 import { closeDatabase, initDatabase } from './db/dataSource';
 import { startChecks, StartRefused } from './db/startChecks';
 import { backgroundServices, startBackgroundServices, stopBackgroundServices } from './services/background';
-import { stopRowsThread } from './services/rowsThread';
+import { stopPools } from './workers/pool';
 import { logger } from './observability/log';
 import { startProcessMetrics } from './observability/metrics';
 
@@ -21,7 +21,7 @@ async function main() {
     stopping = true;
     logger.info({ signal }, 'stopping');
     await stopBackgroundServices();
-    await stopRowsThread();
+    await stopPools();
     await closeDatabase();
     logger.flush();
     process.exit(0);

@@ -175,11 +175,6 @@ function periodSpan(start: string | null, end: string | null): DriftPeriod['peri
   return { label: one ? one.label : start || end ? formatPeriodRange(start, end) : 'period not recorded', kind: one?.kind ?? null, months: wholeMonths(start, end) };
 }
 
-const fitted = (f: FitResult<Estimate> | null): Estimate | null =>
-  f && f.converged && Number.isFinite(f.estimate) ? { estimate: f.estimate, lower: f.lower, upper: f.upper } : null;
-const plain = (e: Estimate | null | undefined): Estimate | null =>
-  e && Number.isFinite(e.estimate) ? { estimate: e.estimate, lower: e.lower, upper: e.upper } : null;
-
 interface DriftCore {
   version: VersionRow;
   runs: RunRow[];
