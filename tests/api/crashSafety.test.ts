@@ -21,6 +21,7 @@ import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
 import { runTsx, ServerProcess } from '../helpers/childServer';
 import { FIXTURE_MODEL } from '../helpers/fixtures';
 import { createThrowawayCluster, freePort, type ThrowawayCluster } from '../helpers/throwawayPg';
+import { until as waitUntil } from '../helpers/until';
 
 const ROWS = Number(process.env.PLUMBLINE_CRASH_ROWS ?? 1_000_000);
 let cluster: ThrowawayCluster;
@@ -30,21 +31,8 @@ let scoreVersionId = '';
 const sql = (q: string) => cluster.psql(q);
 const num = (q: string) => Number(sql(q));
 
-async function until<T>(what: string, get: () => Promise<T> | T, ok: (v: T) => boolean, timeoutMs: number, stepMs = 100): Promise<T> {
-  const deadline = Date.now() + timeoutMs;
-  let last: T | undefined;
-  while (Date.now() < deadline) {
-    // One slow or refused answer on a loaded machine is not the end of the wait: try again until the deadline.
-    try {
-      last = await get();
-      if (ok(last)) return last;
-    } catch {
-      /* retried */
-    }
-    await new Promise((r) => setTimeout(r, stepMs));
-  }
-  throw new Error(`timed out waiting for ${what} (last: ${JSON.stringify(last)}):\n${server?.output.slice(-2000)}`);
-}
+const until = <T>(what: string, get: () => Promise<T> | T, ok: (v: T) => boolean, timeoutMs: number, stepMs = 100) =>
+  waitUntil(what, get, ok, timeoutMs, stepMs, () => server?.output.slice(-2000) ?? '');
 
 async function writeBigCsv(file: string, n: number) {
   const out = createWriteStream(file);

@@ -13,6 +13,7 @@ import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
 import { runTsx, ServerProcess } from '../helpers/childServer';
 import { FIXTURE_MODEL } from '../helpers/fixtures';
 import { createThrowawayCluster, freePort, type ThrowawayCluster } from '../helpers/throwawayPg';
+import { until as waitUntil } from '../helpers/until';
 
 // Three servers and a bootstrap run on a shared 2-core machine: minutes, not the suite's default two.
 vi.setConfig({ testTimeout: 600_000 });
@@ -28,20 +29,8 @@ let scoreVersionId = '';
 let cohortVersionId = '';
 let workerEnv: Record<string, string>;
 
-async function until<T>(what: string, get: () => Promise<T> | T, ok: (v: T) => boolean, timeoutMs: number, stepMs = 200): Promise<T> {
-  const deadline = Date.now() + timeoutMs;
-  let last: T | undefined;
-  while (Date.now() < deadline) {
-    try {
-      last = await get();
-      if (ok(last)) return last;
-    } catch {
-      /* a slow answer on a loaded machine: try again until the deadline */
-    }
-    await new Promise((r) => setTimeout(r, stepMs));
-  }
-  throw new Error(`timed out waiting for ${what} (last: ${JSON.stringify(last)}):\nworker:\n${worker?.output.slice(-2000)}`);
-}
+const until = <T>(what: string, get: () => Promise<T> | T, ok: (v: T) => boolean, timeoutMs: number, stepMs = 200) =>
+  waitUntil(what, get, ok, timeoutMs, stepMs, () => `worker:\n${worker?.output.slice(-2000)}`);
 
 async function token(server: ServerProcess, email: string, password = DEMO_PASSWORD) {
   const r = await server.login(email, password);

@@ -1,4 +1,5 @@
 // The one place the client talks HTTP: adds the Bearer token, parses JSON, turns {error} into ApiError.
+import { saveBlob } from '@/plugins/saveFile';
 
 /** A failed API call; `message` is the server's own {error} text, safe to show. */
 export class ApiError extends Error {
@@ -93,12 +94,5 @@ export async function downloadFile(path: string, filename: string, query?: Query
     const body = (await res.json().catch(() => ({}))) as { error?: unknown };
     throw new ApiError(res.status, typeof body.error === 'string' ? body.error : `download failed (HTTP ${res.status})`);
   }
-  const url = URL.createObjectURL(await res.blob());
-  const a = document.createElement('a');
-  a.href = url;
-  a.download = filename;
-  document.body.appendChild(a);
-  a.click();
-  a.remove();
-  setTimeout(() => URL.revokeObjectURL(url), 1000);
+  saveBlob(await res.blob(), filename);
 }

@@ -5,7 +5,7 @@ import { access, stat } from 'node:fs/promises';
 import type { ScoreModel } from '@shared/model';
 import { parseDecimal } from '@shared/decimal';
 import { linearPredictorRow } from '../stats/applyModel';
-import { csvBatches, extraLines, isEmptyRecord } from '../services/csvFile';
+import { csvBatches, LineNumbers } from '../services/csvFile';
 
 export class CsvInputError extends Error {
   constructor(
@@ -70,13 +70,12 @@ export async function readCohortCsv(file: string, source: CohortSource): Promise
   let header: string[] | null = null;
   let yi = -1, pi = -1;
   let index: Record<string, number> = {};
-  let nextLine = 1;
+  const lines = new LineNumbers();
   try {
     for await (const batch of csvBatches(file)) {
       for (const record of batch) {
-        const line = nextLine;
-        nextLine += batch.quoted ? 1 + extraLines(record) : 1;
-        if (isEmptyRecord(record)) continue;
+        const line = lines.next(record, batch.quoted);
+        if (!line) continue;
         if (!header) {
           header = record.map((h) => h.trim());
           const dup = header.find((h, i) => header!.indexOf(h) !== i);

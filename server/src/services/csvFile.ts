@@ -152,6 +152,20 @@ export function extraLines(record: string[]): number {
 
 export const isEmptyRecord = (r: string[]) => r.length === 0 || (r.length === 1 && r[0] === '');
 
+/**
+ * Numbers records as a person counts the file's lines (the row checks, the rejected-rows CSV and the CLI agree):
+ * a quoted line break counts as a line; an empty line counts but is skipped. `next` gives the record's first line
+ * number, or 0 for an empty record.
+ */
+export class LineNumbers {
+  private nextLine = 1;
+  next(record: string[], quoted: boolean | undefined): number {
+    const line = this.nextLine;
+    this.nextLine += quoted ? 1 + extraLines(record) : 1;
+    return isEmptyRecord(record) ? 0 : line;
+  }
+}
+
 /** Checks the first bytes: not empty, UTF-8 text without NUL bytes, comma or semicolon separated. */
 export async function sniffCsv(path: string): Promise<{ delimiter: Delimiter; bytes: number }> {
   const { size } = await stat(path);

@@ -4,7 +4,7 @@
 import type { ColumnMappingSpec } from '@shared/cohorts';
 import { csvRecords } from '@shared/csv';
 import { dataSource } from '../db/dataSource';
-import { csvBatches, extraLines, isEmptyRecord, type Delimiter } from './csvFile';
+import { csvBatches, LineNumbers, type Delimiter } from './csvFile';
 
 /** The file columns a mapping reads, in the file's order (the only columns a download may carry). */
 export function mappedColumns(headers: string[], mapping: ColumnMappingSpec): string[] {
@@ -53,15 +53,14 @@ export async function* rejectedRowsCsv(src: RejectedRowsSource): AsyncGenerator<
   const last = Math.max(...lines.keys());
   if (src.tempPath && columns.length) {
     // Line numbers are counted as the row checks count them (uploadCheck.ts): quoted line breaks included, empty lines skipped.
-    let nextLine = 1;
+    const numbers = new LineNumbers();
     let first = true;
     const batches = csvBatches(src.tempPath, src.delimiter);
     try {
       outer: for await (const records of batches) {
         for (const record of records) {
-          const line = nextLine;
-          nextLine += records.quoted ? 1 + extraLines(record) : 1;
-          if (isEmptyRecord(record)) continue;
+          const line = numbers.next(record, records.quoted);
+          if (!line) continue;
           if (first) { first = false; continue; }
           if (line > last) break outer;
           const e = lines.get(line);

@@ -3,7 +3,7 @@
 // rows are encoded for PostgreSQL's COPY, and each column is summarised. No database access here: the caller (the
 // upload worker thread) decides where rows and rejections go, so this stays a plain function the tests can call.
 import type { ColumnMappingSpec, ColumnSummary, ScreenFinding } from '@shared/cohorts';
-import { csvBatches, extraLines, isEmptyRecord, type Delimiter } from './csvFile';
+import { csvBatches, LineNumbers, type Delimiter } from './csvFile';
 import { parseDecimal } from '@shared/decimal';
 import { parsePeriod, comparePeriodLabels, type Period, type PeriodKind } from '@shared/periods';
 import { BlockWriter } from './cohortBlocks';
@@ -357,7 +357,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   };
 
   let first = true;
-  let nextLine = 1;
+  const lines = new LineNumbers();
   let lastProgress = 0;
   const progress = () => {
     if (rowsRead - lastProgress < 20_000) return;
@@ -368,9 +368,8 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   try {
     outer: for await (const records of batches) {
       for (const record of records) {
-        const line = nextLine;
-        nextLine += records.quoted ? 1 + extraLines(record) : 1;
-        if (isEmptyRecord(record)) continue;
+        const line = lines.next(record, records.quoted);
+        if (!line) continue;
         if (first) { first = false; continue; }
         const r = checkRow(record, line);
         if (r === STOP) break outer;
