@@ -48,6 +48,7 @@ const detailPages = (i: Ids): { path: string; roles: Role[] }[] => [
   { path: `/scores/${i.scoreId}/versions/2/drift`, roles: ['statistician', 'chair', 'admin', 'steward'] },
   { path: `/scores/${i.scoreId}/versions/new`, roles: ['statistician', 'admin'] },
   { path: `/cohorts/${i.cohortId}`, roles: ['steward', 'statistician', 'chair', 'admin'] },
+  { path: '/api-reference', roles: ['admin'] },
 ];
 
 interface Finding {
