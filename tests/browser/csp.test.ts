@@ -162,6 +162,6 @@ describe('content-security policy in Chromium', () => {
       await screenshot(page, 'csp-last-page');
       expect(found.filter((f) => f.violations.length > 0), 'CSP violations by page').toEqual([]);
       expect(consoleCsp, 'CSP messages on the console').toEqual([]);
-      expect(found.map((f) => f.page)).toEqual(['sign-in', 'after sign-in', 'a run page', 'the score cards', 'a drift timeline', 'the upload page']);
+      expect(found.map((f) => f.page)).toEqual(['sign-in', 'after sign-in', 'a run page', 'the score cards', 'a drift timeline', 'the API reference', 'the upload page']);
     }));
 });
