@@ -5,16 +5,16 @@ import { describe, expect, it, vi } from 'vitest';
 import { createRouter, createMemoryHistory } from 'vue-router';
 import { createVuetify } from 'vuetify';
 import { ROLES, type Role } from '@shared/roles';
-import { navigationFor } from '@/navigation';
-import { useAuthStore } from '@/stores/auth';
+import { navigationFor } from '../../client/src/navigation';
 import HomeView from '@/views/HomeView.vue';
 
 vi.mock('@/api/drift', () => ({ listAlerts: async () => [] }));
 
 async function overviewAs(role: Role) {
+  // A signed-in session as the auth store keeps it (client/src/stores/auth.ts reads it when created).
+  sessionStorage.setItem('plumbline.session', JSON.stringify({ token: 't', expiresAt: Date.now() + 600_000, user: { id: 'u1', email: `${role}@example.test`, name: 'Test Person', role, active: true } }));
   const pinia = createPinia();
   setActivePinia(pinia);
-  useAuthStore().start({ token: 't', expiresInSeconds: 600, user: { id: 'u1', email: `${role}@example.test`, name: 'Test Person', role, active: true } as never });
   const router = createRouter({ history: createMemoryHistory(), routes: [{ path: '/:any(.*)*', component: { template: '<div />' } }] });
   const w = mount(HomeView, { global: { plugins: [createVuetify(), pinia, router] } });
   await flushPromises();
