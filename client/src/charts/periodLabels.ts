@@ -1,7 +1,7 @@
 // One name per drift period, used by every chart, table and CSV of the drift page: the period the cohort version
 // covers (2026-Q2), said in words when it is unlike the usual one (a half-year among quarters), after the cohort's own
 // label when that differs. On an axis the two parts go on two lines so neighbouring periods do not overlap.
-import type { DriftPeriod } from '@/api/drift';
+import type { DriftPeriod } from '@shared/drift';
 
 const KIND_WORDS: Record<string, string> = { month: 'month', quarter: 'quarter', half: 'half-year', year: 'year' };
 const SEPARATOR = ' · ';
