@@ -1,4 +1,4 @@
-// Access control, proven route by route: every route in server/src/routes/table.ts × every role, with real tokens.
+// Access control, proven route by route: every route in server/src/http/routes/table.ts × every role, with real tokens.
 // Expected access comes from the explicit matrix in tests/helpers/accessMatrix.ts, which must agree with the table.
 import request from 'supertest';
 import { describe, expect, it } from 'vitest';
