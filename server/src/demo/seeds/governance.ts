@@ -3,7 +3,7 @@
 // sign-off — with the e-mail notifications those acts produce. Invented scenario; idempotent.
 import type { RunResults } from '@shared/runs';
 import { DEMO_PASSWORD } from '../../platform/config';
-import type { AuthUser } from '../../http/middleware/auth';
+import type { AuthUser } from '../../domain/accounts/actor';
 import { reviewRun, signoffRun } from '../../domain/governance/governance';
 import { dataSource } from '../../platform/database/dataSource';
 import { seedAccounts } from './accounts';

@@ -4,9 +4,9 @@ import type { Role } from '@shared/roles';
 import { config } from '../../platform/config';
 import { dataSource } from '../../platform/database/dataSource';
 import { User } from '../../platform/database/entities/User';
-import { conflict, HttpError, notFound } from '../../http/middleware/errors';
-import type { AuthUser } from '../../http/middleware/auth';
-import { signToken } from '../../http/middleware/auth';
+import { conflict, DomainError, forbidden, notFound } from '../errors';
+import type { AuthUser } from './actor';
+import { signToken } from './sessionToken';
 import { appendAudit } from './audit';
 
 const repo = () => dataSource.getRepository(User);
@@ -58,7 +58,7 @@ export async function login(email: string, password: string, ip: string) {
       sourceIp: ip,
       details: reason === 'locked' ? {} : { reason },
     });
-    throw new HttpError(401, GENERIC_LOGIN_FAILURE);
+    throw new DomainError('not-signed-in', GENERIC_LOGIN_FAILURE);
   }
   if (!ok) {
     await appendAudit({
@@ -68,7 +68,7 @@ export async function login(email: string, password: string, ip: string) {
       sourceIp: ip,
       details: { reason: 'wrong password', failures: reserved.failures },
     });
-    throw new HttpError(401, GENERIC_LOGIN_FAILURE);
+    throw new DomainError('not-signed-in', GENERIC_LOGIN_FAILURE);
   }
   await clearFailures(reserved.id);
   const user = await getUser(reserved.id);
@@ -91,11 +91,11 @@ export async function verifyPasswordFor(actor: AuthUser, password: string, act: 
   const audit = { actorId: actor.id, actorEmail: actor.email, targetType: act.targetType, targetId: act.targetId, sourceIp: act.ip };
   if (!reserved) {
     await appendAudit({ ...audit, action: `${act.action}.password_locked`, details: { ...act.details } });
-    throw new HttpError(429, 'too many wrong passwords: the account is locked for a while; nothing was recorded');
+    throw new DomainError('too-many-tries', 'too many wrong passwords: the account is locked for a while; nothing was recorded');
   }
   await appendAudit({ ...audit, action: `${act.action}.password_failed`, details: { ...act.details, failures: reserved.failures } });
   if (reserved.locks) await appendAudit({ ...audit, action: 'auth.account_locked', details: { reason: `wrong password re-entered (${act.action})`, failures: reserved.failures } });
-  throw new HttpError(403, wrong);
+  throw forbidden(wrong);
 }
 
 export const hashPassword = (password: string) => bcrypt.hash(password, config.bcryptCost);

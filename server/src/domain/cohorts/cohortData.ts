@@ -1,7 +1,7 @@
 // Loads one stored cohort version as column arrays for the engine (runs, drift, recalibration): its blocks in order
 // (services/cohortBlocks.ts), concatenated column by column.
 import { dataSource } from '../../platform/database/dataSource';
-import { notFound } from '../../http/middleware/errors';
+import { notFound } from '../errors';
 import { parseStoredBlock, SELECT_BLOCKS_SQL, type StoredBlock } from './cohortBlocks';
 
 export interface CohortData {

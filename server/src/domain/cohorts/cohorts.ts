@@ -2,8 +2,8 @@
 import type { ColumnMappingSpec } from '@shared/cohorts';
 import { periodLabel, type PeriodKind } from '@shared/periods';
 import { dataSource } from '../../platform/database/dataSource';
-import type { AuthUser } from '../../http/middleware/auth';
-import { badRequest, notFound } from '../../http/middleware/errors';
+import type { AuthUser } from '../accounts/actor';
+import { invalid, notFound } from '../errors';
 import { cohortVersionAdequacy } from '../runs/adequacy';
 import { appendAudit } from '../accounts/audit';
 import { browseRows } from '../../jobs/threads/pool';
@@ -67,7 +67,7 @@ export async function listCohortRows(cohortId: string, version: number, q: { pag
   const predictorKeys = Object.keys(mapping.predictors ?? {});
   const subgroupKeys = Object.keys(mapping.subgroups ?? {});
   if (!['line_no', 'outcome', 'event_date', ...predictorKeys, ...subgroupKeys].includes(q.sortBy)) {
-    throw badRequest(`cannot sort by "${q.sortBy}"; use line_no, outcome, event_date, a predictor or a subgroup`);
+    throw invalid(`cannot sort by "${q.sortBy}"; use line_no, outcome, event_date, a predictor or a subgroup`);
   }
   // Loading, sorting and searching happen in the row browser's thread, once per version and order; here only a page.
   const browsed = await browseRows({ cohortVersionId: v.id, rowCount: Number(v.rowCount), sortBy: q.sortBy, sortDir: q.sortDir, search: q.search, page: q.page, pageSize: q.pageSize });

@@ -6,16 +6,16 @@ import { createReadStream } from 'node:fs';
 import { open, stat } from 'node:fs/promises';
 import { Readable } from 'node:stream';
 import Papa from 'papaparse';
-import { HttpError } from '../../http/middleware/errors';
+import { DomainError, refused } from '../errors';
 
 export type Delimiter = ',' | ';';
 
-const unprocessable = (message: string) => new HttpError(422, message);
+const unprocessable = (message: string) => refused(message);
 
-/** Bytes that are not UTF-8 text: refuses the whole file (415), with the line where they were found. */
-export class CsvBytesError extends HttpError {
+/** Bytes that are not UTF-8 text: refuses the whole file, with the line where they were found. */
+export class CsvBytesError extends DomainError {
   constructor(message: string) {
-    super(415, message);
+    super('not-text', message);
   }
 }
 
@@ -216,7 +216,7 @@ export async function readHeaderAndSample(path: string, delimiter: Delimiter, ma
       }
     }
   } catch (err) {
-    if (err instanceof HttpError) throw err;
+    if (err instanceof DomainError) throw err;
     throw unprocessable(`the file could not be read as CSV: ${(err as Error).message.split('\n')[0]}`);
   }
   if (!headers) throw unprocessable('the file is empty');

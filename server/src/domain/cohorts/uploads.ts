@@ -11,8 +11,8 @@ import type { ScoreModel } from '@shared/model';
 import { config } from '../../platform/config';
 import { dataSource } from '../../platform/database/dataSource';
 import { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
-import { badRequest, conflict, HttpError, notFound } from '../../http/middleware/errors';
-import type { AuthUser } from '../../http/middleware/auth';
+import { conflict, DomainError, invalid, notFound, refused } from '../errors';
+import type { AuthUser } from '../accounts/actor';
 import type { UploadWorkerData } from '../../jobs/threads/uploadWorker';
 import { appendAudit } from '../accounts/audit';
 import type { Delimiter } from './csvFile';
@@ -117,7 +117,7 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
     }
     // Parsing the sample and running the screen's patterns is CPU work: done in an upload thread, off the API's loop.
     const looked = await screenInThread(file.path);
-    if (looked.type === 'refused-file') throw new HttpError(looked.status, looked.message, looked.details);
+    if (looked.type === 'refused-file') throw new DomainError(looked.kind, looked.message, looked.details);
     if (looked.type === 'error') throw new Error(looked.message);
     const { delimiter, headers, sample, screen } = looked;
     if (screen.refused.length) {
@@ -129,7 +129,7 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
         sourceIp: ip,
         details: { filename: file.originalName, sha256: file.sha256, columns: screen.refused.map((f) => ({ column: f.column, category: f.category })) },
       });
-      throw new HttpError(422, `the file was refused by the de-identification screen: ${screen.refused.length} column(s) look like direct identifiers; nothing was stored`, {
+      throw refused(`the file was refused by the de-identification screen: ${screen.refused.length} column(s) look like direct identifiers; nothing was stored`, {
         columns: screen.refused,
       });
     }
@@ -244,7 +244,7 @@ export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnM
   if (mapping.outcome.negative.some((n) => pos.includes(n.toLowerCase()))) problems.push('outcome: a label cannot be both positive and negative');
   if (mapping.date && !has(mapping.date.column)) problems.push(`date: the file has no column "${mapping.date.column}"`);
   for (const [name, col] of Object.entries(mapping.subgroups)) if (!has(col)) problems.push(`subgroup "${name}": the file has no column "${col}"`);
-  if (problems.length) throw badRequest(`the mapping does not fit this file: ${problems.join('; ')}`, { problems });
+  if (problems.length) throw invalid(`the mapping does not fit this file: ${problems.join('; ')}`, { problems });
 
   const plannedVersionId = randomUUID();
   await dataSource.transaction(async (m) => {
@@ -488,7 +488,7 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
     const rejected = await rejectedLineNumbers(id);
     const chosen = new Set(excludeLines);
     const unknown = excludeLines.filter((l) => !rejected.includes(l));
-    if (unknown.length) throw badRequest(`line(s) ${unknown.slice(0, 10).join(', ')} were not rejected; only rejected rows can be excluded`);
+    if (unknown.length) throw invalid(`line(s) ${unknown.slice(0, 10).join(', ')} were not rejected; only rejected rows can be excluded`);
     const open = rejected.filter((l) => !chosen.has(l));
     if (open.length || rejected.length < r.rows_rejected) {
       throw conflict(`${open.length || r.rows_rejected - rejected.length} rejected row(s) are neither excluded nor fixed (line ${open.slice(0, 10).join(', ')}${open.length > 10 ? ', …' : ''}): exclude them too, or download the rejected rows, fix them in the file and upload it again`, { openLines: open.slice(0, 1000) });
@@ -497,11 +497,11 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
   } else if (r.rows_rejected > 0 && !excludeRejected) {
     throw conflict(`${r.rows_rejected} row(s) were rejected: store with excludeRejected: true (the exclusions are recorded), or fix the file and upload it again`);
   }
-  if (r.rows_accepted === 0) throw new HttpError(422, 'no row passed the checks; nothing to store');
+  if (r.rows_accepted === 0) throw refused('no row passed the checks; nothing to store');
   const sv = await loadScoreVersion(r.score_version_id);
   // A coding mismatch (Y/N against the level "yes") stores nothing: the steward maps the labels or goes back.
   const mismatches = codingIssues(predictorViews(sv, r.mapping), r.mapping, r.column_summary);
-  if (mismatches.length) throw new HttpError(409, `the coding does not match the score: ${mismatches.map((m) => m.message).join(' ')}`, { codingIssues: mismatches });
+  if (mismatches.length) throw conflict(`the coding does not match the score: ${mismatches.map((m) => m.message).join(' ')}`, { codingIssues: mismatches });
   const qr = dataSource.createQueryRunner();
   await qr.connect();
   await qr.startTransaction();
@@ -553,9 +553,9 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
     await qr.commitTransaction();
   } catch (err) {
     await qr.rollbackTransaction().catch(() => undefined);
-    if (err instanceof HttpError) throw err;
+    if (err instanceof DomainError) throw err;
     logger.error({ err, uploadId: id }, 'storing an upload failed, rolled back');
-    throw new HttpError(500, 'storing the cohort failed and was rolled back: nothing was stored; try again or upload the file again');
+    throw new DomainError('failed', 'storing the cohort failed and was rolled back: nothing was stored; try again or upload the file again');
   } finally {
     await qr.release();
   }

@@ -1,8 +1,8 @@
 // Drift alerts acknowledged together: one note for several open alerts, all or none, one audit entry per alert.
 import type { AlertView } from '@shared/drift';
 import { dataSource } from '../../platform/database/dataSource';
-import type { AuthUser } from '../../http/middleware/auth';
-import { conflict, notFound } from '../../http/middleware/errors';
+import type { AuthUser } from '../accounts/actor';
+import { conflict, notFound } from '../errors';
 import { appendAudit } from '../accounts/audit';
 import { ALERT_SELECT, toAlertView, type AlertRow } from './drift';
 

@@ -2,8 +2,8 @@
 // newest completed run counts when none is chosen). Stored in drift_run_choices, each change an audit entry.
 import type { DriftRunChoice } from '@shared/drift';
 import { dataSource } from '../../platform/database/dataSource';
-import type { AuthUser } from '../../http/middleware/auth';
-import { badRequest, forbidden } from '../../http/middleware/errors';
+import type { AuthUser } from '../accounts/actor';
+import { forbidden, invalid } from '../errors';
 import { appendAudit } from '../accounts/audit';
 import { getScoreVersionByNumber } from '../scores/scores';
 
@@ -16,11 +16,11 @@ export async function chooseDriftRun(actor: AuthUser, scoreId: string, versionNu
         'SELECT status FROM validation_runs WHERE id = $1 AND score_version_id = $2 AND cohort_version_id = $3',
         [body.runId, sv.id, body.cohortVersionId],
       );
-      if (!runs[0]) throw badRequest('that run is not a run of this score version on this cohort version');
-      if (runs[0].status !== 'completed') throw badRequest(`that run is ${runs[0].status}; only a completed run can stand for its cohort version`);
+      if (!runs[0]) throw invalid('that run is not a run of this score version on this cohort version');
+      if (runs[0].status !== 'completed') throw invalid(`that run is ${runs[0].status}; only a completed run can stand for its cohort version`);
     } else {
       const cvs: unknown[] = await m.query('SELECT 1 FROM cohort_versions WHERE id = $1', [body.cohortVersionId]);
-      if (!cvs.length) throw badRequest('no such cohort version');
+      if (!cvs.length) throw invalid('no such cohort version');
     }
     const [before]: { run_id: string | null }[] = await m.query(
       'SELECT run_id FROM drift_run_choices WHERE score_version_id = $1 AND cohort_version_id = $2 FOR UPDATE',

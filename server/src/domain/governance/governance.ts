@@ -20,8 +20,8 @@ import { dataSource } from '../../platform/database/dataSource';
 import { RunComment } from '../../platform/database/entities/RunComment';
 import { RunReview } from '../../platform/database/entities/RunReview';
 import { Signature } from '../../platform/database/entities/Signature';
-import type { AuthUser } from '../../http/middleware/auth';
-import { conflict, forbidden, HttpError, notFound } from '../../http/middleware/errors';
+import type { AuthUser } from '../accounts/actor';
+import { conflict, forbidden, invalid, notFound } from '../errors';
 import { appendAudit, canonical } from '../accounts/audit';
 import { queueEmail, recipientsForRole } from '../notifications/mail';
 import { verifyPasswordFor } from '../accounts/users';
@@ -316,7 +316,7 @@ export async function signoffRun(
   await reauthenticate(actor, input.password, `signoff.${input.decision}`, 'validation_run', runId, ip);
   const meaning = MEANING_OF_DECISION[input.decision];
   const reason = input.reason?.trim() || null;
-  if (input.decision === 'return' && !reason) throw new HttpError(400, 'a return needs a reason');
+  if (input.decision === 'return' && !reason) throw invalid('a return needs a reason');
   let signatureId: string;
   try {
     signatureId = await dataSource.transaction(async (m) => {
@@ -340,7 +340,7 @@ export async function signoffRun(
       );
       if (closing) throw conflict('the approval of this score version was revoked after this review was written, which closed it; the statistician reviews the run again first');
       if (input.decision === 'approve' && approvalNeedsReason(current.verdict) && !reason) {
-        throw new HttpError(400, `the review says "${current.verdict}": approving against it needs your written reason`);
+        throw invalid(`the review says "${current.verdict}": approving against it needs your written reason`);
       }
 
       const signedAt = new Date(Math.floor(Date.now()));

@@ -149,3 +149,19 @@ export async function sendPendingOnce(limit = 25): Promise<SendReport> {
   }
   return report;
 }
+
+/** The newest outbox rows (at most 200), for the development outbox page. */
+export async function recentOutbox() {
+  const rows = await dataSource.getRepository(EmailOutbox).find({ order: { createdAt: 'DESC' }, take: 200 });
+  return rows.map((r) => ({
+    id: r.id,
+    to: r.to,
+    subject: r.subject,
+    kind: r.kind,
+    status: r.status,
+    attempts: r.attempts,
+    lastError: r.lastError,
+    createdAt: r.createdAt.toISOString(),
+    sentAt: r.sentAt ? r.sentAt.toISOString() : null,
+  }));
+}

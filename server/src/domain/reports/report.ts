@@ -5,7 +5,7 @@ import { CHECKLIST_SOURCE, reportChecklist, type ReportBundle } from '@shared/re
 import type { ScoreModel } from '@shared/model';
 import type { RunResults, RunSettings } from '@shared/runs';
 import { dataSource } from '../../platform/database/dataSource';
-import { notFound } from '../../http/middleware/errors';
+import { notFound } from '../errors';
 import { listReviews, listSignatures } from '../governance/governance';
 import { describeInputs } from './scorecards';
 

@@ -4,7 +4,7 @@ import type { ScoreCardView, IntervalView } from '@shared/governance';
 import type { ScoreModel } from '@shared/model';
 import type { ValidationResult } from '@shared/validation';
 import { dataSource } from '../../platform/database/dataSource';
-import { notFound } from '../../http/middleware/errors';
+import { notFound } from '../errors';
 
 const f2 = (x: number) => x.toFixed(2);
 const ci = (e: IntervalView) => `${f2(e.estimate)} (95% CI ${f2(e.lower)} to ${f2(e.upper)})`;

@@ -1,7 +1,7 @@
 // What a run's computation reads — the score version, the cohort version's rows and the settings — and the hash over
 // it. Called through the run worker thread's own connection (workers/runWorker.ts), or dataSource in the seed.
 import { runSettingsSchema } from '@shared/runs';
-import { notFound } from '../../http/middleware/errors';
+import { notFound } from '../errors';
 import { loadCohortData, mainQuery, type Query } from '../cohorts/cohortData';
 import { inputsSha256, type RunComputeInput, type RunScoreInput } from './runCompute';
 

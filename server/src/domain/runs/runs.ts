@@ -8,8 +8,8 @@ import { dataSource } from '../../platform/database/dataSource';
 import { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
 import { CohortVersion } from '../../platform/database/entities/CohortVersion';
 import { ValidationRun } from '../../platform/database/entities/ValidationRun';
-import type { AuthUser } from '../../http/middleware/auth';
-import { badRequest, conflict, notFound } from '../../http/middleware/errors';
+import type { AuthUser } from '../accounts/actor';
+import { conflict, invalid, notFound } from '../errors';
 import { runAdequacy } from './adequacy';
 import { appendAudit } from '../accounts/audit';
 import { cohortColumnNames } from '../cohorts/cohortData';
@@ -53,8 +53,8 @@ export async function createRun(actor: AuthUser, input: CreateRunInput, ip: stri
     if (!cv) throw notFound('cohort version');
     const cols = await cohortColumns(m, cv.id);
     const missing = settings.subgroupColumns.filter((c) => !cols.subgroups.has(c));
-    if (missing.length) throw badRequest(`the cohort version has no column ${missing.map((c) => `"${c}"`).join(', ')} to group by`);
-    if (settings.timeGrouping !== 'none' && !cols.hasDates) throw badRequest('time grouping needs event dates, and this cohort version has none');
+    if (missing.length) throw invalid(`the cohort version has no column ${missing.map((c) => `"${c}"`).join(', ')} to group by`);
+    if (settings.timeGrouping !== 'none' && !cols.hasDates) throw invalid('time grouping needs event dates, and this cohort version has none');
 
     // The formula is frozen from the moment a run uses it (score_versions trigger keeps it so).
     if (!sv.locked) {

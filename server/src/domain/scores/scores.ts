@@ -11,8 +11,8 @@ import { changeNoteProblem, createScoreVersionRequest } from '@shared/scores';
 import { dataSource } from '../../platform/database/dataSource';
 import { Score } from '../../platform/database/entities/Score';
 import { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
-import type { AuthUser } from '../../http/middleware/auth';
-import { badRequest, conflict, notFound, zodMessage } from '../../http/middleware/errors';
+import type { AuthUser } from '../accounts/actor';
+import { conflict, invalid, notFound, zodMessage } from '../errors';
 import { appendAudit } from '../accounts/audit';
 
 type Actor = Pick<AuthUser, 'id' | 'email'>;
@@ -185,7 +185,7 @@ export async function createScoreVersion(
   const parsed = createScoreVersionRequest.safeParse(
     input.mode === 'formula' ? { mode: 'formula', model: input.model, changeNote: input.changeNote ?? undefined } : { mode: 'supplied', probabilityColumn: input.probabilityColumn, changeNote: input.changeNote ?? undefined },
   );
-  if (!parsed.success) throw badRequest(`invalid score version: ${zodMessage(parsed.error)}`);
+  if (!parsed.success) throw invalid(`invalid score version: ${zodMessage(parsed.error)}`);
   const valid = parsed.data;
 
   const work = async (m: EntityManager) => {
@@ -193,7 +193,7 @@ export async function createScoreVersion(
     if (locked.length === 0) throw notFound('score');
     const [{ next }]: { next: number }[] = await m.query('SELECT coalesce(max(version), 0) + 1 AS next FROM score_versions WHERE score_id = $1', [scoreId]);
     const problem = changeNoteProblem(next, valid.changeNote);
-    if (problem) throw badRequest(problem);
+    if (problem) throw invalid(problem);
     const row = m.create(ScoreVersion, {
       scoreId,
       version: next,

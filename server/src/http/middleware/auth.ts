@@ -3,16 +3,11 @@ import type { Request, RequestHandler } from 'express';
 import jwt from 'jsonwebtoken';
 import type { Role } from '@shared/roles';
 import { config } from '../../platform/config';
-import { dataSource } from '../../platform/database/dataSource';
-import type { User } from '../../platform/database/entities/User';
+import type { AuthUser } from '../../domain/accounts/actor';
+import { accountForToken, type TokenClaims } from '../../domain/accounts/sessionToken';
 import { HttpError } from './errors';
 
-export interface AuthUser {
-  id: string;
-  email: string;
-  name: string;
-  role: Role;
-}
+export type { AuthUser };
 
 declare module 'express-serve-static-core' {
   interface Request {
@@ -20,24 +15,11 @@ declare module 'express-serve-static-core' {
   }
 }
 
-interface TokenClaims {
-  sub: string;
-  role: Role;
-  tv: number;
-}
-
-export function signToken(user: Pick<User, 'id' | 'role' | 'tokenVersion'>): string {
-  const claims: TokenClaims = { sub: user.id, role: user.role, tv: user.tokenVersion };
-  return jwt.sign(claims, config.jwtSecret, { algorithm: 'HS256', expiresIn: config.tokenLifetimeSeconds });
-}
-
 // Made once: given a string, jsonwebtoken first tries it as a public key (createPublicKey throws) on every verify,
 // which cost more CPU than the rest of a typical GET together. A secret KeyObject skips that.
 const verifyKey = createSecretKey(Buffer.from(config.jwtSecret, 'utf8'));
 
 const unauthorized = () => new HttpError(401, 'sign in required: the token is missing, invalid or expired');
-
-type AccountRow = { id: string; email: string; name: string; role: Role; active: boolean; token_version: number };
 
 // Tokens whose signature was checked: the same string always verifies the same way under the one secret, so only the
 // time limit is checked again on each use (as jsonwebtoken does: valid while floor(now in s) < exp). Tokens with a
@@ -68,14 +50,6 @@ function verifiedClaims(token: string): TokenClaims {
   return claims;
 }
 
-// The account row is read on every request (one indexed lookup), so a deactivation, role change or password change —
-// made through any API process or straight in the database — is refused on the very next request.
-async function accountRow(id: string): Promise<AccountRow | undefined> {
-  // One plain parameterised query (the query builder cost more than the query itself).
-  const rows: AccountRow[] = await dataSource.query('SELECT id, email, name, role, active, token_version FROM users WHERE id = $1', [id]);
-  return rows[0];
-}
-
 /** Verifies the bearer token (HS256 only) and that the account is still active with the same role. */
 export async function authenticateRequest(req: Request): Promise<AuthUser> {
   const header = req.headers.authorization ?? '';
@@ -83,7 +57,7 @@ export async function authenticateRequest(req: Request): Promise<AuthUser> {
   if (!match) throw unauthorized();
   const claims = verifiedClaims(match[1]);
   if (typeof claims.sub !== 'string' || !/^[0-9a-f-]{36}$/i.test(claims.sub)) throw unauthorized();
-  const user = await accountRow(claims.sub);
+  const user = await accountForToken(claims.sub);
   if (!user || !user.active || user.token_version !== claims.tv || user.role !== claims.role) throw unauthorized();
   return { id: user.id, email: user.email, name: user.name, role: user.role };
 }

@@ -1,6 +1,23 @@
 import { logger } from '../../platform/observability/log';
 import type { ErrorRequestHandler, Request, RequestHandler, Response } from 'express';
 import { ZodError } from 'zod';
+import { DomainError, zodMessage, type DomainErrorKind } from '../../domain/errors';
+
+export { zodMessage };
+
+/** The one place a domain failure becomes an HTTP status. */
+export const STATUS_OF: Record<DomainErrorKind, number> = {
+  invalid: 400,
+  'not-signed-in': 401,
+  forbidden: 403,
+  'not-found': 404,
+  conflict: 409,
+  'not-text': 415,
+  refused: 422,
+  'too-many-tries': 429,
+  failed: 500,
+  unavailable: 503,
+};
 
 /** A known failure with an HTTP status and a message that is safe to show. */
 export class HttpError extends Error {
@@ -17,12 +34,6 @@ export const badRequest = (message: string, details?: unknown) => new HttpError(
 export const notFound = (what: string) => new HttpError(404, `${what} not found`);
 export const forbidden = (message = 'your role may not do this') => new HttpError(403, message);
 export const conflict = (message: string, details?: unknown) => new HttpError(409, message, details);
-
-export function zodMessage(err: ZodError): string {
-  return err.issues
-    .map((i) => (i.path.length ? `${i.path.join('.')}: ${i.message}` : i.message))
-    .join('; ');
-}
 
 /** PostgreSQL connection failures: the API answers 503 rather than 500. */
 export function isDatabaseDown(err: unknown): boolean {
@@ -72,9 +83,10 @@ const DRAIN_LIMIT = 16 * 1024 * 1024;
 
 function sendError(err: unknown, req: Request, res: Response): void {
   if (res.headersSent) return;
-  if (err instanceof HttpError) {
-    if (err.status >= 500) res.err = err; // written with the request's log line
-    res.status(err.status).json({ error: err.message, ...(err.details !== undefined ? { details: err.details } : {}) });
+  const known = err instanceof DomainError ? { status: STATUS_OF[err.kind], message: err.message, details: err.details } : err instanceof HttpError ? err : null;
+  if (known) {
+    if (known.status >= 500) res.err = err as Error; // written with the request's log line, with its own stack
+    res.status(known.status).json({ error: known.message, ...(known.details !== undefined ? { details: known.details } : {}) });
     return;
   }
   if (err instanceof ZodError) {

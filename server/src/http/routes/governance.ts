@@ -2,12 +2,11 @@
 import type { Request, Response } from 'express';
 import type { CommentRequest, ReviewRequest, RevokeRequest, SignoffRequest } from '@shared/governance';
 import { config } from '../../platform/config';
-import { dataSource } from '../../platform/database/dataSource';
-import { EmailOutbox } from '../../platform/database/entities/EmailOutbox';
 import { currentUser, sourceIp } from '../middleware/auth';
 import { notFound } from '../middleware/errors';
 import { receivedMessages } from '../../platform/mail/fakeSmtp';
 import * as governance from '../../domain/governance/governance';
+import { recentOutbox } from '../../domain/notifications/mail';
 import { runReport } from '../../domain/reports/report';
 import { getScoreCard, listScoreCards } from '../../domain/reports/scorecards';
 
@@ -56,19 +55,5 @@ export async function report(req: Request, res: Response) {
 /** Development only: what the local fake SMTP server received, and the outbox rows behind it. */
 export async function devOutbox(_req: Request, res: Response) {
   if (!config.devOutbox) throw notFound('dev outbox (disabled outside development)');
-  const rows = await dataSource.getRepository(EmailOutbox).find({ order: { createdAt: 'DESC' }, take: 200 });
-  res.json({
-    received: receivedMessages(),
-    outbox: rows.map((r) => ({
-      id: r.id,
-      to: r.to,
-      subject: r.subject,
-      kind: r.kind,
-      status: r.status,
-      attempts: r.attempts,
-      lastError: r.lastError,
-      createdAt: r.createdAt.toISOString(),
-      sentAt: r.sentAt ? r.sentAt.toISOString() : null,
-    })),
-  });
+  res.json({ received: receivedMessages(), outbox: await recentOutbox() });
 }

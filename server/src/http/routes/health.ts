@@ -1,6 +1,5 @@
 import type { Request, Response } from 'express';
 import { config } from '../../platform/config';
-import { dataSource } from '../../platform/database/dataSource';
 import { HttpError } from '../middleware/errors';
 import { registry } from '../../platform/observability/metrics';
 import { queueDepth } from '../../jobs/queueDepth';
@@ -8,7 +7,6 @@ import { queueDepth } from '../../jobs/queueDepth';
 /** The database, and the shared background queue as every process sees it (read from PostgreSQL). */
 export async function health(_req: Request, res: Response) {
   try {
-    if (!dataSource.isInitialized) throw new Error('not initialised');
     const counts = await queueDepth();
     const count = (queue: string, state: string) => counts.find((c) => c.queue === queue && c.state === state)?.count ?? 0;
     res.json({

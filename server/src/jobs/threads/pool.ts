@@ -19,7 +19,7 @@ import type { AdequacyPrecision } from '@shared/adequacy';
 import type { RunResults } from '@shared/runs';
 import type { ValidationResult, ValidationSettings } from '@shared/validation';
 import { compiled, config } from '../../platform/config';
-import { HttpError } from '../../http/middleware/errors';
+import { DomainError } from '../../domain/errors';
 import { logger } from '../../platform/observability/log';
 import { keepPrecision } from '../../domain/runs/adequacyPrecision';
 import type { DriftSeriesPart } from '../../domain/drift/driftSeries';
@@ -195,6 +195,6 @@ export function recalibrateInPool(input: RecalibrationTask): Promise<Recalibrati
 /** One page of a cohort version's rows, from the row browser's thread. */
 export async function browseRows(request: RowsRequest): Promise<{ rows: BrowsedRow[]; total: number }> {
   const a = await task('rows', 'rows', request);
-  if (!a.ok) throw new HttpError(503, `the rows could not be read: ${a.message}`);
+  if (!a.ok) throw new DomainError('unavailable', `the rows could not be read: ${a.message}`);
   return { rows: a.rows, total: a.total };
 }

@@ -10,7 +10,7 @@ import pg from 'pg';
 import { from as copyFrom } from 'pg-copy-streams';
 import type { ScreenFinding } from '@shared/cohorts';
 import { BLOCK_ROWS, COPY_BLOCKS_SQL } from '../../domain/cohorts/cohortBlocks';
-import { HttpError } from '../../http/middleware/errors';
+import { DomainError, refused, type DomainErrorKind } from '../../domain/errors';
 import { CsvBytesError, csvText, readHeaderAndSample, sniffCsv, type Delimiter } from '../../domain/cohorts/csvFile';
 import { screenColumns, type ScreenResult } from '../../domain/cohorts/deidentify';
 import { checkUploadRows, type CheckInput, type Rejection } from '../../domain/cohorts/uploadCheck';
@@ -30,7 +30,7 @@ export interface ScreenJob {
 
 export type ScreenAnswer =
   | { type: 'screened'; delimiter: Delimiter; headers: string[]; sample: string[][]; screen: ScreenResult }
-  | { type: 'refused-file'; status: number; message: string; details?: unknown };
+  | { type: 'refused-file'; kind: DomainErrorKind; message: string; details?: unknown };
 
 export type UploadWorkerMessage =
   | { type: 'progress'; fraction: number; rowsRead: number; rowsRejected: number }
@@ -76,7 +76,7 @@ async function screen(path: string): Promise<ScreenAnswer> {
   for await (const piece of csvText(path)) void piece;
   const { headers, sample } = await readHeaderAndSample(path, delimiter, 5000);
   // A registry extract has tens of columns; thousands means a wrong file (or a hostile one) — refuse before storing anything.
-  if (headers.length > MAX_UPLOAD_COLUMNS) throw new HttpError(422, `the file has ${headers.length} columns; at most ${MAX_UPLOAD_COLUMNS} are accepted`);
+  if (headers.length > MAX_UPLOAD_COLUMNS) throw refused(`the file has ${headers.length} columns; at most ${MAX_UPLOAD_COLUMNS} are accepted`);
   return { type: 'screened', delimiter, headers, sample, screen: screenColumns(headers, sample) };
 }
 
@@ -137,8 +137,8 @@ export async function screenFile(path: string): Promise<ScreenAnswer | Extract<U
   try {
     return await screen(path);
   } catch (err) {
-    return err instanceof HttpError
-      ? { type: 'refused-file', status: err.status, message: err.message, details: err.details }
+    return err instanceof DomainError
+      ? { type: 'refused-file', kind: err.kind, message: err.message, details: err.details }
       : failure(err as Error);
   }
 }

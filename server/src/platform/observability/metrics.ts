@@ -1,9 +1,7 @@
-// Prometheus metrics (prom-client): request durations by route, job durations, queue depth read from PostgreSQL at
-// scrape time (so every process reports the same shared queue), and the process's own figures including event-loop
-// delay. Served by GET /api/metrics (routes/table.ts).
+// Prometheus metrics (prom-client): request durations by route, job durations, and the process's own figures including
+// event-loop delay (the queue depth gauge lives with what it reads, jobs/queueDepth.ts). Served by GET /api/metrics (routes/table.ts).
 import type { RequestHandler } from 'express';
-import { collectDefaultMetrics, Gauge, Histogram, Registry } from 'prom-client';
-import { queueDepth } from '../../jobs/queueDepth';
+import { collectDefaultMetrics, Histogram, Registry } from 'prom-client';
 
 export const registry = new Registry();
 
@@ -21,17 +19,6 @@ export const jobDuration = new Histogram({
   labelNames: ['job', 'outcome'] as const,
   buckets: [0.1, 0.5, 1, 2.5, 5, 10, 30, 60, 120, 300, 900],
   registers: [registry],
-});
-
-new Gauge({
-  name: 'plumbline_queue_depth',
-  help: 'Background work waiting or under way, from the database (the same for every process)',
-  labelNames: ['queue', 'state'] as const,
-  registers: [registry],
-  async collect() {
-    this.reset();
-    for (const q of await queueDepth()) this.set({ queue: q.queue, state: q.state }, q.count);
-  },
 });
 
 let processMetrics = false;
