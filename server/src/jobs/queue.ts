@@ -1,5 +1,5 @@
 // Background work as pg-boss jobs in PostgreSQL (DEVELOPERS.md, "Processes and jobs"). The schema and the queues are
-// created by a migration as the owner (migrations/1764900000000-JobQueue.ts); here pg-boss only reads and writes rows.
+// created by a migration as the owner (platform/database/migrations/1764900000000-JobQueue.ts); here pg-boss only reads and writes rows.
 // A job is enqueued inside the transaction of the change that causes it (enqueue(manager, …)), so a change without
 // its job, or a job without its change, cannot be committed. Only a process with jobs on starts pg-boss's workers.
 import PgBoss from 'pg-boss';

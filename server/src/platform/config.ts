@@ -32,7 +32,7 @@ const envSchema = z.object({
   PGPASSWORD: text(''),
   PLUMBLINE_DB_OWNER_USER: optionalText(),
   PLUMBLINE_DB_OWNER_PASSWORD: optionalText(),
-  // The runtime role the API connects as (no superuser, owns nothing, only the grants in db/runtimeRole.ts).
+  // The runtime role the API connects as (no superuser, owns nothing, only the grants in platform/database/runtimeRole.ts).
   PLUMBLINE_DB_APP_USER: z.preprocess(unset, roleName.default('plumbline_app')),
   PLUMBLINE_DB_APP_PASSWORD: text(''),
   PLUMBLINE_DB_MANAGE_ROLE: flag(true),

@@ -8,6 +8,7 @@ import { reviewRun, signoffRun } from '../../domain/governance/governance';
 import { dataSource } from '../../platform/database/dataSource';
 import { seedAccounts } from './accounts';
 import { logger } from '../../platform/observability/log';
+import { RUN_SCORE_COHORT_JOIN } from '../../domain/runs/runJoin';
 
 const SEED_IP = 'seed';
 
@@ -43,11 +44,7 @@ export async function seedGovernance(): Promise<void> {
     `SELECT r.id, r.results, coalesce(nullif(cv.label, ''), c.name) AS label, to_char(cv.period_end, 'YYYY-MM-DD') AS period_end,
             (SELECT count(*)::int FROM run_reviews rv WHERE rv.run_id = r.id) AS reviews,
             (SELECT count(*)::int FROM signatures sg WHERE sg.run_id = r.id) AS decided
-     FROM validation_runs r
-     JOIN score_versions sv ON sv.id = r.score_version_id
-     JOIN scores s ON s.id = sv.score_id
-     JOIN cohort_versions cv ON cv.id = r.cohort_version_id
-     JOIN cohorts c ON c.id = cv.cohort_id
+     FROM ${RUN_SCORE_COHORT_JOIN}
      WHERE r.status = 'completed' AND s.name ILIKE 'Kestrel%'
      ORDER BY cv.period_end ASC NULLS FIRST, r.created_at ASC`,
   );

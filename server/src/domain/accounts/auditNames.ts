@@ -1,6 +1,7 @@
 // The audit page shows who and what in words: the actor's name and a name for each target (score, cohort version,
 // run…), looked up in one query per kind of target, never stored in the chained entries themselves.
 import { dataSource } from '../../platform/database/dataSource';
+import { RUN_SCORE_COHORT_JOIN } from '../runs/runJoin';
 
 export interface NamedEntry {
   actorId: string | null;
@@ -16,8 +17,7 @@ const TARGET_NAMES: Record<string, string> = {
   cohort_version: `SELECT cv.id::text, c.name || ' version ' || cv.version AS name FROM cohort_versions cv JOIN cohorts c ON c.id = cv.cohort_id WHERE cv.id::text = ANY($1)`,
   cohort_upload: `SELECT u.id::text, 'upload of ' || u.source_filename AS name FROM cohort_uploads u WHERE u.id::text = ANY($1)`,
   validation_run: `SELECT r.id::text, 'run of ' || s.name || ' v' || sv.version || ' on ' || c.name || ' v' || cv.version AS name
-    FROM validation_runs r JOIN score_versions sv ON sv.id = r.score_version_id JOIN scores s ON s.id = sv.score_id
-    JOIN cohort_versions cv ON cv.id = r.cohort_version_id JOIN cohorts c ON c.id = cv.cohort_id WHERE r.id::text = ANY($1)`,
+    FROM ${RUN_SCORE_COHORT_JOIN} WHERE r.id::text = ANY($1)`,
   drift_alert: `SELECT a.id::text, 'alert on ' || s.name || ' v' || sv.version || ', ' || a.period AS name
     FROM drift_alerts a JOIN score_versions sv ON sv.id = a.score_version_id JOIN scores s ON s.id = sv.score_id WHERE a.id::text = ANY($1)`,
   alert_rule: `SELECT r.id::text, 'alert rule on ' || s.name AS name FROM alert_rules r JOIN scores s ON s.id = r.score_id WHERE r.id::text = ANY($1)`,

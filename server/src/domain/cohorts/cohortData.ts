@@ -1,5 +1,5 @@
 // Loads one stored cohort version as column arrays for the engine (runs, drift, recalibration): its blocks in order
-// (services/cohortBlocks.ts), concatenated column by column.
+// (domain/cohorts/cohortBlocks.ts), concatenated column by column.
 import { dataSource } from '../../platform/database/dataSource';
 import { notFound } from '../errors';
 import { parseStoredBlock, SELECT_BLOCKS_SQL, type StoredBlock } from './cohortBlocks';

@@ -34,7 +34,7 @@ export interface CheckInput {
 export type Rejection = [line: number, column: string, value: string, reason: string];
 
 export interface CheckSink {
-  /** Binary COPY data for cohort_row_blocks (services/cohortBlocks.ts): the signature, one row per block, the trailer. */
+  /** Binary COPY data for cohort_row_blocks (domain/cohorts/cohortBlocks.ts): the signature, one row per block, the trailer. */
   rows(copy: Buffer): Promise<void> | void;
   progress(fraction: number, rowsRead: number, rowsRejected: number): void;
 }

@@ -10,6 +10,8 @@ import { columnMapping } from '@shared/cohorts';
 import type { ScoreModel } from '@shared/model';
 import { config } from '../../platform/config';
 import { dataSource } from '../../platform/database/dataSource';
+import { In, IsNull, Not } from 'typeorm';
+import { CohortUpload } from '../../platform/database/entities/CohortUpload';
 import { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
 import { conflict, DomainError, invalid, notFound, refused } from '../errors';
 import type { AuthUser } from '../accounts/actor';
@@ -153,22 +155,12 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
   }
 }
 
-interface UploadRow {
-  id: string; status: UploadStatus; cohort_id: string | null; cohort_name: string | null; score_version_id: string; label: string;
-  period_start: string | null; period_end: string | null; source_filename: string; temp_path: string | null;
-  sha256: string; bytes: string; delimiter: Delimiter; headers: string[]; warnings: ScreenFinding[]; suggested_mapping: ColumnMappingSpec | null;
-  mapping: ColumnMappingSpec | null; progress: number; rows_read: number; rows_accepted: number; rows_rejected: number; events: number;
-  rejection_counts: { reason: string; count: number }[]; column_summary: Record<string, import('@shared/cohorts').ColumnSummary>; event_period: { min: string; max: string; end?: string; kind?: PeriodKind | null } | null;
-  planned_version_id: string | null; cohort_version_id: string | null; error: string | null; created_by: string | null; created_at: Date;
-}
+const uploads = () => dataSource.getRepository(CohortUpload);
 
-async function uploadRow(id: string): Promise<UploadRow> {
-  const rows: UploadRow[] = await dataSource.query(
-    `SELECT *, to_char(period_start, 'YYYY-MM-DD') AS period_start, to_char(period_end, 'YYYY-MM-DD') AS period_end FROM cohort_uploads WHERE id = $1`,
-    [id],
-  );
-  if (!rows.length) throw notFound('upload');
-  return rows[0];
+async function uploadRow(id: string): Promise<CohortUpload> {
+  const row = await uploads().findOneBy({ id });
+  if (!row) throw notFound('upload');
+  return row;
 }
 
 const pause = (ms: number) => new Promise<void>((r) => setTimeout(r, ms));
@@ -182,23 +174,23 @@ export async function getUpload(id: string, waitSeconds = 0): Promise<UploadView
     await pause(Math.min(250, Math.max(1, deadline - Date.now())));
     r = await uploadRow(id);
   }
-  const sv = await dataSource.getRepository(ScoreVersion).findOne({ where: { id: r.score_version_id } });
-  const views = sv ? predictorViews(sv, r.mapping ?? r.suggested_mapping) : [];
+  const sv = await dataSource.getRepository(ScoreVersion).findOne({ where: { id: r.scoreVersionId } });
+  const views = sv ? predictorViews(sv, r.mapping ?? r.suggestedMapping) : [];
   return {
-    id: r.id, status: r.status, cohortId: r.cohort_id, cohortName: r.cohort_name, scoreVersionId: r.score_version_id, label: r.label,
-    periodStart: r.period_start, periodEnd: r.period_end, sourceFilename: r.source_filename, sha256: r.sha256, bytes: Number(r.bytes),
-    delimiter: r.delimiter, headers: r.headers, warnings: r.warnings, suggestedMapping: r.suggested_mapping, mapping: r.mapping,
-    progress: r.progress, rowsRead: r.rows_read, rowsAccepted: r.rows_accepted, rowsRejected: r.rows_rejected, events: r.events,
-    rejectionCounts: r.rejection_counts, columnSummary: r.column_summary, cohortVersionId: r.cohort_version_id, error: r.error,
-    createdAt: new Date(r.created_at).toISOString(), requiredPredictors: views,
-    codingIssues: r.status === 'checked' ? codingIssues(views, r.mapping, r.column_summary) : [],
+    id: r.id, status: r.status, cohortId: r.cohortId, cohortName: r.cohortName, scoreVersionId: r.scoreVersionId, label: r.label,
+    periodStart: r.periodStart, periodEnd: r.periodEnd, sourceFilename: r.sourceFilename, sha256: r.sha256, bytes: Number(r.bytes),
+    delimiter: r.delimiter, headers: r.headers, warnings: r.warnings, suggestedMapping: r.suggestedMapping, mapping: r.mapping,
+    progress: r.progress, rowsRead: r.rowsRead, rowsAccepted: r.rowsAccepted, rowsRejected: r.rowsRejected, events: r.events,
+    rejectionCounts: r.rejectionCounts, columnSummary: r.columnSummary, cohortVersionId: r.cohortVersionId, error: r.error,
+    createdAt: new Date(r.createdAt).toISOString(), requiredPredictors: views,
+    codingIssues: r.status === 'checked' ? codingIssues(views, r.mapping, r.columnSummary) : [],
   };
 }
 
-/** Uploads are private to their uploader (and visible to the admin); others get 404, not a hint. */
+/** Uploads are private to their uploader (the admin's role reaches no upload route: COHORT_WRITERS in http/routes/table.ts); others get 404, not a hint. */
 export async function assertOwner(actor: AuthUser, id: string): Promise<void> {
   const r = await uploadRow(id);
-  if (r.created_by !== actor.id && actor.role !== 'admin') throw notFound('upload');
+  if (r.createdBy !== actor.id) throw notFound('upload');
 }
 
 // ---- Step 2: mapping and the full pass over the file ----------------------------------------------------------
@@ -214,7 +206,7 @@ export async function whenProcessed(id: string): Promise<void> {
   for (;;) {
     const local = running.get(id);
     if (local) await local.catch(() => undefined);
-    const [row]: { status: UploadStatus }[] = await dataSource.query('SELECT status FROM cohort_uploads WHERE id = $1', [id]);
+    const row = await uploads().findOne({ where: { id }, select: { id: true, status: true } });
     if (!row || row.status !== 'processing') return;
     if (jobWorkersRunning()) await pause(100);
     else if ((await drainJobs(JOB.uploadCheck, uploadCheckJob)) === 0) await pause(100);
@@ -223,8 +215,8 @@ export async function whenProcessed(id: string): Promise<void> {
 
 export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnMappingSpec, ip: string, saveAs?: string): Promise<UploadView> {
   const r = await uploadRow(id);
-  if (!['pending', 'checked', 'failed'].includes(r.status) || !r.temp_path) throw conflict(`this upload is ${r.status}; mapping is possible only before it is stored`);
-  const sv = await loadScoreVersion(r.score_version_id);
+  if (!['pending', 'checked', 'failed'].includes(r.status) || !r.tempPath) throw conflict(`this upload is ${r.status}; mapping is possible only before it is stored`);
+  const sv = await loadScoreVersion(r.scoreVersionId);
   const problems: string[] = [];
   const has = (c: string) => r.headers.includes(c);
   for (const p of requiredPredictors(sv)) {
@@ -256,9 +248,9 @@ export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnM
     );
     if (changed !== 1) throw conflict('this upload changed meanwhile (checked again or stored from another window); reload it');
     // A second mapping replaces the first pass: its staged rows and rejections go.
-    await deleteStagedRows(r.planned_version_id, m);
+    await deleteStagedRows(r.plannedVersionId, m);
     await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
-    if (saveAs) await m.query('INSERT INTO column_mappings (name, cohort_id, mapping, created_by) VALUES ($1, $2, $3, $4)', [saveAs, r.cohort_id, JSON.stringify(mapping), actor.id]);
+    if (saveAs) await m.query('INSERT INTO column_mappings (name, cohort_id, mapping, created_by) VALUES ($1, $2, $3, $4)', [saveAs, r.cohortId, JSON.stringify(mapping), actor.id]);
     await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.mapped', targetType: 'cohort_upload', targetId: id, sourceIp: ip, details: { mapping, savedAs: saveAs ?? null } }, m);
     await enqueue(m, JOB.uploadCheck, { uploadId: id, plannedVersionId });
   });
@@ -280,12 +272,12 @@ export const uploadCheckJob: JobHandler<{ uploadId: string; plannedVersionId: st
   try {
     await lease.query(`SELECT pg_advisory_lock(${UPLOAD_LEASE_SQL})`, [id]);
     const r = await uploadRow(id);
-    if (r.status !== 'processing' || r.planned_version_id !== plannedVersionId || !r.mapping) return;
+    if (r.status !== 'processing' || r.plannedVersionId !== plannedVersionId || !r.mapping) return;
     if (job.retryCount > 0) {
       logger.warn({ uploadId: id, attempt: job.retryCount + 1 }, 'checking an upload again after its process stopped');
       await deleteStagedRows(plannedVersionId);
     }
-    const sv = await loadScoreVersion(r.score_version_id);
+    const sv = await loadScoreVersion(r.scoreVersionId);
     const pass = timeJob('upload_check', () => processUpload(id, sv, r.mapping!, plannedVersionId));
     running.set(id, pass);
     try {
@@ -332,7 +324,7 @@ async function deleteStagedRows(plannedVersionId: string | null, m: { query: (q:
 async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappingSpec, plannedVersionId: string): Promise<void> {
   const r = await uploadRow(id);
   const data: UploadWorkerData = {
-    uploadId: id, db: { ...config.db }, path: r.temp_path!, delimiter: r.delimiter, headers: r.headers, mapping,
+    uploadId: id, db: { ...config.db }, path: r.tempPath!, delimiter: r.delimiter, headers: r.headers, mapping,
     predictors: requiredPredictors(sv), supplied: sv.mode === 'supplied', plannedVersionId, totalBytes: Number(r.bytes),
   };
   let lastWrite = 0;
@@ -348,14 +340,14 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
   if (ending.type === 'checked') return;
   if (ending.type === 'refused') {
     const refusal = ending.refusal;
-    await removeQuietly(r.temp_path);
+    await removeQuietly(r.tempPath);
     await dataSource.transaction(async (m) => {
       await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
       const error = refusal.column === '(file)' ? `the file was refused: ${refusal.reason}; nothing was stored`
         : `refused by the de-identification screen: column "${refusal.column}" ${refusal.reason}; nothing was stored`;
       await m.query(`UPDATE cohort_uploads SET status = 'refused', temp_path = NULL, warnings = $2, error = $3, column_summary = '{}', event_period = NULL, updated_at = now() WHERE id = $1`,
         [id, JSON.stringify([refusal]), error]);
-      await appendAudit({ action: 'cohort.upload.refused', actorId: r.created_by, targetType: 'cohort_upload', targetId: id, details: { columns: [{ column: refusal.column, category: refusal.category }] } }, m);
+      await appendAudit({ action: 'cohort.upload.refused', actorId: r.createdBy, targetType: 'cohort_upload', targetId: id, details: { columns: [{ column: refusal.column, category: refusal.category }] } }, m);
     });
     return;
   }
@@ -393,22 +385,22 @@ let stopping = false;
  * (default 14): their temp file and staged rows go, and the audit trail says so. Returns how many were discarded.
  */
 export async function discardStaleUploads(keepDays = config.uploadKeepDays): Promise<number> {
-  const stale: { id: string; temp_path: string | null; planned_version_id: string | null; created_by: string | null }[] = await dataSource.query(
-    `SELECT id, temp_path, planned_version_id, created_by FROM cohort_uploads
-     WHERE status IN ('pending', 'checked', 'failed') AND updated_at < now() - make_interval(days => $1)`,
-    [keepDays],
-  );
+  const stale = await uploads()
+    .createQueryBuilder('u')
+    .select(['u.id', 'u.tempPath', 'u.plannedVersionId', 'u.createdBy'])
+    .where(`u.status IN ('pending', 'checked', 'failed') AND u.updated_at < now() - make_interval(days => :keepDays)`, { keepDays })
+    .getMany();
   for (const u of stale) {
     if (running.has(u.id)) continue;
     await dataSource.transaction(async (m) => {
       const [, changed] = await m.query(
         `UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, ${FORGET_DERIVED}, updated_at = now() WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`, [u.id]);
       if (changed !== 1) return;
-      await deleteStagedRows(u.planned_version_id, m);
+      await deleteStagedRows(u.plannedVersionId, m);
       await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [u.id]);
-      await appendAudit({ action: 'cohort.upload.expired', actorId: null, targetType: 'cohort_upload', targetId: u.id, details: { keepDays, uploadedBy: u.created_by } }, m);
+      await appendAudit({ action: 'cohort.upload.expired', actorId: null, targetType: 'cohort_upload', targetId: u.id, details: { keepDays, uploadedBy: u.createdBy } }, m);
     });
-    await removeQuietly(u.temp_path);
+    await removeQuietly(u.tempPath);
   }
   return stale.length;
 }
@@ -430,12 +422,12 @@ export async function sweepUploadDir(now = Date.now()): Promise<string[]> {
     return [];
   }
   if (!names.length) return [];
-  const rows: { temp_path: string }[] = await dataSource.query('SELECT temp_path FROM cohort_uploads WHERE temp_path IS NOT NULL');
-  const kept = new Set(rows.map((r) => path.resolve(r.temp_path)));
+  const rows = await uploads().find({ where: { tempPath: Not(IsNull()) }, select: { id: true, tempPath: true } });
+  const referenced = new Set(rows.map((r) => path.resolve(r.tempPath!)));
   const removed: string[] = [];
   for (const name of names) {
     const file = path.resolve(uploadDir, name);
-    if (kept.has(file)) continue;
+    if (referenced.has(file)) continue;
     const info = await stat(file).catch(() => null);
     if (!info || now - info.mtimeMs < ORPHAN_AGE_MS) continue;
     await removeQuietly(file);
@@ -471,36 +463,36 @@ export async function listRejections(id: string, page: number, pageSize: number)
   return { rejections: rows as { line: number; column: string; value: string; reason: string }[], total: n as number, page, pageSize };
 }
 
-/** The rejected rows as CSV with their mapped values (services/rejectedRows.ts), formula-looking cells neutralised. */
+/** The rejected rows as CSV with their mapped values (domain/cohorts/rejectedRows.ts), formula-looking cells neutralised. */
 export async function* rejectionsCsv(id: string): AsyncGenerator<string> {
   const r = await uploadRow(id);
-  yield* rejectedRowsCsv({ uploadId: id, tempPath: r.temp_path, delimiter: r.delimiter, headers: r.headers, mapping: r.mapping });
+  yield* rejectedRowsCsv({ uploadId: id, tempPath: r.tempPath, delimiter: r.delimiter, headers: r.headers, mapping: r.mapping });
 }
 
 // ---- Step 3: store or discard ---------------------------------------------------------------------------------
 
 export async function commitUpload(actor: AuthUser, id: string, excludeRejected: boolean, ip: string, excludeLines?: number[]) {
   const r = await uploadRow(id);
-  if (r.status !== 'checked' || !r.planned_version_id) throw conflict(`this upload is ${r.status}; only a checked upload can be stored`);
+  if (r.status !== 'checked' || !r.plannedVersionId) throw conflict(`this upload is ${r.status}; only a checked upload can be stored`);
   let excludedLines: number[] | null = null;
-  if (r.rows_rejected > 0 && excludeLines && !excludeRejected) {
+  if (r.rowsRejected > 0 && excludeLines && !excludeRejected) {
     // Rows excluded one by one: every rejected row must be chosen; the rest are fixed in the file first.
     const rejected = await rejectedLineNumbers(id);
     const chosen = new Set(excludeLines);
     const unknown = excludeLines.filter((l) => !rejected.includes(l));
     if (unknown.length) throw invalid(`line(s) ${unknown.slice(0, 10).join(', ')} were not rejected; only rejected rows can be excluded`);
     const open = rejected.filter((l) => !chosen.has(l));
-    if (open.length || rejected.length < r.rows_rejected) {
-      throw conflict(`${open.length || r.rows_rejected - rejected.length} rejected row(s) are neither excluded nor fixed (line ${open.slice(0, 10).join(', ')}${open.length > 10 ? ', …' : ''}): exclude them too, or download the rejected rows, fix them in the file and upload it again`, { openLines: open.slice(0, 1000) });
+    if (open.length || rejected.length < r.rowsRejected) {
+      throw conflict(`${open.length || r.rowsRejected - rejected.length} rejected row(s) are neither excluded nor fixed (line ${open.slice(0, 10).join(', ')}${open.length > 10 ? ', …' : ''}): exclude them too, or download the rejected rows, fix them in the file and upload it again`, { openLines: open.slice(0, 1000) });
     }
     excludedLines = rejected;
-  } else if (r.rows_rejected > 0 && !excludeRejected) {
-    throw conflict(`${r.rows_rejected} row(s) were rejected: store with excludeRejected: true (the exclusions are recorded), or fix the file and upload it again`);
+  } else if (r.rowsRejected > 0 && !excludeRejected) {
+    throw conflict(`${r.rowsRejected} row(s) were rejected: store with excludeRejected: true (the exclusions are recorded), or fix the file and upload it again`);
   }
-  if (r.rows_accepted === 0) throw refused('no row passed the checks; nothing to store');
-  const sv = await loadScoreVersion(r.score_version_id);
+  if (r.rowsAccepted === 0) throw refused('no row passed the checks; nothing to store');
+  const sv = await loadScoreVersion(r.scoreVersionId);
   // A coding mismatch (Y/N against the level "yes") stores nothing: the steward maps the labels or goes back.
-  const mismatches = codingIssues(predictorViews(sv, r.mapping), r.mapping, r.column_summary);
+  const mismatches = codingIssues(predictorViews(sv, r.mapping), r.mapping, r.columnSummary);
   if (mismatches.length) throw conflict(`the coding does not match the score: ${mismatches.map((m) => m.message).join(' ')}`, { codingIssues: mismatches });
   const qr = dataSource.createQueryRunner();
   await qr.connect();
@@ -510,35 +502,35 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
   let version: number;
   try {
     // Two windows storing the same upload: the second waits here, then finds it stored.
-    const [locked] = await qr.query('SELECT status FROM cohort_uploads WHERE id = $1 FOR UPDATE', [id]);
+    const locked = await qr.manager.getRepository(CohortUpload).findOneOrFail({ where: { id }, select: { id: true, status: true }, lock: { mode: 'pessimistic_write' } });
     if (locked.status !== 'checked') throw conflict(`this upload is ${locked.status}; only a checked upload can be stored`);
-    if (r.cohort_id) {
-      cohortId = r.cohort_id;
+    if (r.cohortId) {
+      cohortId = r.cohortId;
       await qr.query('SELECT id FROM cohorts WHERE id = $1 FOR UPDATE', [cohortId]);
     } else {
-      const existing = await qr.query('SELECT id FROM cohorts WHERE lower(name) = lower($1)', [r.cohort_name]);
-      if (existing.length) throw conflict(`a cohort named "${r.cohort_name}" was created meanwhile; upload again as a new version of it`);
-      const [c] = await qr.query('INSERT INTO cohorts (name, score_id, created_by) VALUES ($1, $2, $3) RETURNING id', [r.cohort_name, sv.scoreId, actor.id]);
+      const existing = await qr.query('SELECT id FROM cohorts WHERE lower(name) = lower($1)', [r.cohortName]);
+      if (existing.length) throw conflict(`a cohort named "${r.cohortName}" was created meanwhile; upload again as a new version of it`);
+      const [c] = await qr.query('INSERT INTO cohorts (name, score_id, created_by) VALUES ($1, $2, $3) RETURNING id', [r.cohortName, sv.scoreId, actor.id]);
       cohortId = c.id;
     }
     const [{ next }] = await qr.query('SELECT coalesce(max(version), 0) + 1 AS next FROM cohort_versions WHERE cohort_id = $1', [cohortId]);
     version = next;
-    const period = r.event_period;
+    const period = r.eventPeriod;
     // The version ends on the last day of its latest period (2026-Q2 ends 2026-06-30); an upload checked before the
     // end was recorded falls back to the end of the latest start's month.
     const endOfMonth = (d: string) => {
       const [y, m] = d.split('-').map(Number);
       return new Date(Date.UTC(y, m, 0)).toISOString().slice(0, 10);
     };
-    const exclusions = r.rejection_counts;
+    const exclusions = r.rejectionCounts;
     // periodKind: how the rows' periods were labelled, so they are shown as uploaded (2026-Q2, not 2026-04-01).
-    const mapping = { ...r.mapping, scoreVersionId: r.score_version_id, delimiter: r.delimiter, periodKind: period?.kind ?? null };
+    const mapping = { ...r.mapping, scoreVersionId: r.scoreVersionId, delimiter: r.delimiter, periodKind: period?.kind ?? null };
     const [v] = await qr.query(
       `INSERT INTO cohort_versions (id, cohort_id, version, label, period_start, period_end, source_filename, source_sha256, source_bytes,
          row_count, events, excluded_count, exclusions, mapping, column_summary, uploaded_by)
        VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16) RETURNING id`,
-      [r.planned_version_id, cohortId, version, r.label || `version ${version}`, r.period_start ?? period?.min ?? null, r.period_end ?? (period ? (period.end ?? endOfMonth(period.max)) : null),
-        r.source_filename, r.sha256, r.bytes, r.rows_accepted, r.events, r.rows_rejected, JSON.stringify(exclusions), JSON.stringify(mapping), JSON.stringify(r.column_summary), actor.id],
+      [r.plannedVersionId, cohortId, version, r.label || `version ${version}`, r.periodStart ?? period?.min ?? null, r.periodEnd ?? (period ? (period.end ?? endOfMonth(period.max)) : null),
+        r.sourceFilename, r.sha256, r.bytes, r.rowsAccepted, r.events, r.rowsRejected, JSON.stringify(exclusions), JSON.stringify(mapping), JSON.stringify(r.columnSummary), actor.id],
     );
     versionId = v.id;
     // The rows were streamed in by the check, in the same transaction that recorded rows_accepted (the worker compares
@@ -548,7 +540,7 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
     await qr.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
     await appendAudit({
       actorId: actor.id, actorEmail: actor.email, action: 'cohort.version.stored', targetType: 'cohort_version', targetId: versionId, sourceIp: ip,
-      details: { cohortId, version, rows: r.rows_accepted, events: r.events, excluded: r.rows_rejected, sha256: r.sha256, uploadId: id, ...(excludedLines ? { excludedLines: excludedLines.slice(0, 1000) } : {}) },
+      details: { cohortId, version, rows: r.rowsAccepted, events: r.events, excluded: r.rowsRejected, sha256: r.sha256, uploadId: id, ...(excludedLines ? { excludedLines: excludedLines.slice(0, 1000) } : {}) },
     }, qr.manager);
     await qr.commitTransaction();
   } catch (err) {
@@ -559,8 +551,8 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
   } finally {
     await qr.release();
   }
-  await removeQuietly(r.temp_path);
-  return { cohortId, cohortVersionId: versionId, version, rowCount: r.rows_accepted, events: r.events, excludedCount: r.rows_rejected, sha256: r.sha256 };
+  await removeQuietly(r.tempPath);
+  return { cohortId, cohortVersionId: versionId, version, rowCount: r.rowsAccepted, events: r.events, excludedCount: r.rowsRejected, sha256: r.sha256 };
 }
 
 export async function discardUpload(actor: AuthUser, id: string, ip: string) {
@@ -571,28 +563,31 @@ export async function discardUpload(actor: AuthUser, id: string, ip: string) {
   // The upload's row is locked before anything is removed, as commitUpload locks it before storing: of a commit and a
   // discard sent at once, the second waits, then finds the other's status and is refused.
   const tempPath = await dataSource.transaction(async (m) => {
-    const [locked]: { status: UploadStatus; temp_path: string | null; planned_version_id: string | null }[] = await m.query(
-      'SELECT status, temp_path, planned_version_id FROM cohort_uploads WHERE id = $1 FOR UPDATE',
-      [id],
-    );
+    const locked = await m.getRepository(CohortUpload).findOneOrFail({
+      where: { id },
+      select: { id: true, status: true, tempPath: true, plannedVersionId: true },
+      lock: { mode: 'pessimistic_write' },
+    });
     if (locked.status === 'discarded') return null;
     if (locked.status === 'committed') throw conflict('this upload was stored as a cohort version meanwhile; stored versions are immutable');
     if (locked.status === 'processing') throw conflict('this upload is being checked again; discard it when the check ends');
-    await deleteStagedRows(locked.planned_version_id, m);
+    await deleteStagedRows(locked.plannedVersionId, m);
     await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
     await m.query(`UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, ${FORGET_DERIVED}, updated_at = now() WHERE id = $1`, [id]);
     await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.discarded', targetType: 'cohort_upload', targetId: id, sourceIp: ip }, m);
-    return locked.temp_path;
+    return locked.tempPath;
   });
   await removeQuietly(tempPath);
   return getUpload(id);
 }
 
 export async function listMyUploads(actor: AuthUser) {
-  const rows: { id: string }[] = await dataSource.query(
-    `SELECT id FROM cohort_uploads WHERE ($1::uuid IS NULL OR created_by = $1) AND status IN ('pending', 'processing', 'checked', 'failed') ORDER BY created_at DESC LIMIT 50`,
-    [actor.role === 'admin' ? null : actor.id],
-  );
+  const rows = await uploads().find({
+    where: { createdBy: actor.id, status: In(['pending', 'processing', 'checked', 'failed'] as UploadStatus[]) },
+    select: { id: true },
+    order: { createdAt: 'DESC' },
+    take: 50,
+  });
   return Promise.all(rows.map((r) => getUpload(r.id)));
 }
 

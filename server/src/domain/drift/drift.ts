@@ -482,7 +482,7 @@ export async function createAlertRule(actor: Pick<AuthUser, 'id' | 'email'> | nu
 
 // ---------------------------------------------------------------- recalibration
 
-/** Checks the run and its version here; the cohort is loaded and the fit made in a pool thread (workers/pool.ts). */
+/** Checks the run and its version here; the cohort is loaded and the fit made in a pool thread (jobs/threads/pool.ts). */
 async function recalibrationFit(runId: string, method: RecalibrationMethod) {
   const rows: { id: string; status: string; score_version_id: string; cohort_version_id: string }[] = await dataSource.query(
     'SELECT id, status, score_version_id, cohort_version_id FROM validation_runs WHERE id = $1',

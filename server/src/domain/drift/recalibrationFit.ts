@@ -1,6 +1,6 @@
 // The recalibration fit of a run's cohort (intercept update, logistic recalibration or the closed test) and the
-// before/after calibration it shows. Pure: it runs in a pool thread (workers/recalibrationWorker.ts), never on the API
-// thread, for the preview and for the proposal alike (services/drift.ts).
+// before/after calibration it shows. Pure: it runs in a pool thread (jobs/threads/recalibrationWorker.ts), never on the API
+// thread, for the preview and for the proposal alike (domain/drift/drift.ts).
 import type { CalibrationPoint, CalibrationSummary, Derivation, RecalibrationMethod } from '@shared/drift';
 import type { Estimate, FitResult } from '@shared/validation';
 import { calibrationIntercept } from '../../stats/calibrationIntercept';

@@ -25,6 +25,7 @@ import { conflict, forbidden, invalid, notFound } from '../errors';
 import { appendAudit, canonical } from '../accounts/audit';
 import { queueEmail, recipientsForRole } from '../notifications/mail';
 import { verifyPasswordFor } from '../accounts/users';
+import { COHORT_LABEL_SQL, RUN_SCORE_COHORT_JOIN } from '../runs/runJoin';
 
 const DECISIVE: SignatureMeaning[] = ['approve for clinical use', 'return to statistician'];
 
@@ -44,13 +45,9 @@ interface RunRow {
 
 const RUN_SQL = `
   SELECT r.id, r.status, r.score_version_id, r.results_sha256, s.name AS score_name, sv.version AS score_version,
-         coalesce(nullif(cv.label, ''), c.name || ' v' || cv.version) AS cohort_label,
+         ${COHORT_LABEL_SQL} AS cohort_label,
          sv.clinical_status, sv.approved_run_id
-  FROM validation_runs r
-  JOIN score_versions sv ON sv.id = r.score_version_id
-  JOIN scores s ON s.id = sv.score_id
-  JOIN cohort_versions cv ON cv.id = r.cohort_version_id
-  JOIN cohorts c ON c.id = cv.cohort_id
+  FROM ${RUN_SCORE_COHORT_JOIN}
   WHERE r.id = $1`;
 
 /** Reads a run with its score and cohort names; `lock` serialises every governance act on that run. */
@@ -199,7 +196,7 @@ export async function listSignatures(runId: string, m: EntityManager = dataSourc
 async function approvalOf(m: EntityManager, approvedRunId: string): Promise<ApprovalView | null> {
   const rows: { run_number: string; cohort_label: string; signed_at: Date | null }[] = await m.query(
     `SELECT (SELECT count(*) FROM validation_runs x WHERE x.score_version_id = r.score_version_id AND (x.created_at, x.id) <= (r.created_at, r.id)) AS run_number,
-            coalesce(nullif(cv.label, ''), c.name || ' v' || cv.version) AS cohort_label,
+            ${COHORT_LABEL_SQL} AS cohort_label,
             (SELECT max(s.signed_at) FROM signatures s WHERE s.run_id = r.id AND s.meaning = 'approve for clinical use') AS signed_at
      FROM validation_runs r JOIN cohort_versions cv ON cv.id = r.cohort_version_id JOIN cohorts c ON c.id = cv.cohort_id
      WHERE r.id = $1`,
@@ -559,15 +556,11 @@ export async function signoffQueue(actor: AuthUser): Promise<SignoffQueueItem[]>
     own_review: boolean;
   }[] = await dataSource.query(
     `SELECT r.id AS run_id, rv.id AS review_id, s.name AS score_name, sv.version AS score_version, sv.id AS score_version_id,
-            coalesce(nullif(cv.label, ''), c.name || ' v' || cv.version) AS cohort_label,
+            ${COHORT_LABEL_SQL} AS cohort_label,
             rv.verdict, u.name AS reviewer_name, rv.created_at AS reviewed_at,
             EXISTS (SELECT 1 FROM run_reviews o WHERE o.run_id = r.id AND o.reviewer_id = $1) AS own_review
-     FROM run_reviews rv
-     JOIN validation_runs r ON r.id = rv.run_id
-     JOIN score_versions sv ON sv.id = r.score_version_id
-     JOIN scores s ON s.id = sv.score_id
-     JOIN cohort_versions cv ON cv.id = r.cohort_version_id
-     JOIN cohorts c ON c.id = cv.cohort_id
+     FROM ${RUN_SCORE_COHORT_JOIN}
+     JOIN run_reviews rv ON rv.run_id = r.id
      JOIN users u ON u.id = rv.reviewer_id ${CLOSED_BY_SQL}
      WHERE rv.superseded_by IS NULL AND r.status = 'completed' AND closing.closed_by_id IS NULL
        AND NOT EXISTS (SELECT 1 FROM signatures sg WHERE sg.review_id = rv.id AND sg.meaning = ANY($2))

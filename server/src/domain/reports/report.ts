@@ -8,6 +8,7 @@ import { dataSource } from '../../platform/database/dataSource';
 import { notFound } from '../errors';
 import { listReviews, listSignatures } from '../governance/governance';
 import { describeInputs } from './scorecards';
+import { COHORT_LABEL_SQL, RUN_SCORE_COHORT_JOIN } from '../runs/runJoin';
 
 /** Methods and where each is published (see docs/references.md for the full list the engine follows). */
 function methods(settings: Partial<RunSettings> | null, results: RunResults | null): MethodNote[] {
@@ -61,14 +62,10 @@ export async function runReport(runId: string): Promise<RunReport> {
     `SELECT r.id, r.status, r.engine_version, r.settings, r.results, r.inputs_sha256, r.results_sha256, r.created_at, r.finished_at,
             sv.version, sv.mode, sv.model, sv.probability_column, sv.clinical_status, sv.derived_from_run_id,
             s.name AS score_name, s.citation, s.outcome_definition, s.time_horizon, s.intended_population,
-            coalesce(nullif(cv.label, ''), c.name || ' v' || cv.version) AS cohort_label, c.description AS cohort_description,
+            ${COHORT_LABEL_SQL} AS cohort_label, c.description AS cohort_description,
             to_char(cv.period_start, 'YYYY-MM-DD') AS period_start, to_char(cv.period_end, 'YYYY-MM-DD') AS period_end,
             cv.row_count, cv.events, cv.excluded_count, cv.source_filename, cv.source_sha256
-     FROM validation_runs r
-     JOIN score_versions sv ON sv.id = r.score_version_id
-     JOIN scores s ON s.id = sv.score_id
-     JOIN cohort_versions cv ON cv.id = r.cohort_version_id
-     JOIN cohorts c ON c.id = cv.cohort_id
+     FROM ${RUN_SCORE_COHORT_JOIN}
      WHERE r.id = $1`,
     [runId],
   );

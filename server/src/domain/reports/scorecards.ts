@@ -5,6 +5,7 @@ import type { ScoreModel } from '@shared/model';
 import type { ValidationResult } from '@shared/validation';
 import { dataSource } from '../../platform/database/dataSource';
 import { notFound } from '../errors';
+import { COHORT_LABEL_SQL } from '../runs/runJoin';
 
 const f2 = (x: number) => x.toFixed(2);
 const ci = (e: IntervalView) => `${f2(e.estimate)} (95% CI ${f2(e.lower)} to ${f2(e.upper)})`;
@@ -94,7 +95,7 @@ const CARD_SQL = `
          s.name AS score_name, s.outcome_definition, s.time_horizon, s.intended_population, s.citation, s.caution_text,
          CASE WHEN r.id IS NOT NULL THEN jsonb_build_object('n', ov.o->'n', 'events', ov.o->'events', 'auc', ov.o->'auc', 'oe', ov.o->'oe',
            'calibrationIntercept', ov.o->'calibrationIntercept', 'calibrationSlope', ov.o->'calibrationSlope') END AS overall,
-         coalesce(nullif(cv.label, ''), c.name || ' v' || cv.version) AS cohort_label,
+         ${COHORT_LABEL_SQL} AS cohort_label,
          to_char(cv.period_start, 'YYYY-MM-DD') AS period_start, to_char(cv.period_end, 'YYYY-MM-DD') AS period_end,
          cv.row_count, cv.events,
          sg.printed_name, sg.role AS signer_role, sg.signed_at

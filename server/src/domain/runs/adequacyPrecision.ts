@@ -1,7 +1,7 @@
-// The expected CI widths of the adequacy block (services/adequacy.ts), kept per (n, events, AUC). precisionFor solves
+// The expected CI widths of the adequacy block (domain/runs/adequacy.ts), kept per (n, events, AUC). precisionFor solves
 // the anticipated LP distribution by bisection (about 0.2 s of CPU): a run's widths are worked out in its own thread
-// when it completes (workers/runWorker.ts) and kept here, so opening the run page does not pay them on the API thread.
-// Any other widths are worked out in the requests pool (services/adequacyWidths.ts). No database access here: the
+// when it completes (jobs/threads/runWorker.ts) and kept here, so opening the run page does not pay them on the API thread.
+// Any other widths are worked out in the requests pool (domain/runs/adequacyWidths.ts). No database access here: the
 // worker threads import this module.
 import type { AdequacyPrecision } from '@shared/adequacy';
 import { precisionFor } from '../../stats/sampleSize';

@@ -1,5 +1,5 @@
-// Adequacy widths for the API thread (services/adequacy.ts): kept ones at once, new ones worked out in the requests
-// pool (workers/pool.ts) and kept. A run's own widths already come from its run task; this is for the rest — a run
+// Adequacy widths for the API thread (domain/runs/adequacy.ts): kept ones at once, new ones worked out in the requests
+// pool (jobs/threads/pool.ts) and kept. A run's own widths already come from its run task; this is for the rest — a run
 // page first opened after a restart, a cohort version page with an assumed or borrowed AUC. At start the widths of
 // the newest completed runs are worked out too, before anyone asks.
 // If the pool cannot run the task, the widths are computed here as before (slower for others, never wrong).

@@ -25,6 +25,7 @@ import { computeInThread, type RunningThread } from '../../jobs/threads/pool';
 import { formatCount, formatFigure } from '@shared/format';
 import { logger } from '../../platform/observability/log';
 import { jobDuration } from '../../platform/observability/metrics';
+import { RUN_SCORE_COHORT_JOIN } from './runJoin';
 
 /** A run whose process died is tried once more (pg-boss retryLimit 1 on the 'run' queue): two attempts in all. */
 export const MAX_ATTEMPTS = 2;
@@ -79,11 +80,7 @@ export async function createRun(actor: AuthUser, input: CreateRunInput, ip: stri
 // The tables a run summary reads, with the current review and the latest signature of each run (the list's filters
 // and its count read the same joins).
 const SUMMARY_FROM = `
-  FROM validation_runs r
-  JOIN score_versions sv ON sv.id = r.score_version_id
-  JOIN scores s ON s.id = sv.score_id
-  JOIN cohort_versions cv ON cv.id = r.cohort_version_id
-  JOIN cohorts c ON c.id = cv.cohort_id
+  FROM ${RUN_SCORE_COHORT_JOIN}
   LEFT JOIN users u ON u.id = r.created_by
   LEFT JOIN LATERAL (SELECT rr.verdict, rr.created_at FROM run_reviews rr WHERE rr.run_id = r.id AND rr.superseded_by IS NULL) rv ON true
   LEFT JOIN LATERAL (SELECT g.meaning, g.signed_at, g.printed_name FROM signatures g WHERE g.run_id = r.id ORDER BY g.signed_at DESC LIMIT 1) sg ON true`;
@@ -168,7 +165,7 @@ export async function getRun(id: string, manager: EntityManager = dataSource.man
   const rows: SummaryRow[] = await manager.query(`${SUMMARY_SELECT} WHERE r.id = $1`, [id]);
   if (!rows[0]) throw notFound('validation run');
   // A completed run never changes (trigger plumbline_run_guard): read outside a transaction, its record is final and
-  // is kept in memory (services/runRecordCache.ts).
+  // is kept in memory (domain/runs/runRecordCache.ts).
   const load = () => manager.getRepository(ValidationRun).findOneOrFail({ where: { id } });
   const run = rows[0].status === 'completed' && manager === dataSource.manager ? await completedRunRecord(id, load) : await load();
   const detail: RunDetail = { ...toSummary(rows[0]), settings: run.settings, results: run.results, inputsSha256: run.inputsSha256, resultsSha256: run.resultsSha256 };

@@ -1,4 +1,4 @@
-// Thin handlers for cohorts, uploads and saved mappings; the rules live in services/uploads.ts and services/cohorts.ts.
+// Thin handlers for cohorts, uploads and saved mappings; the rules live in domain/cohorts/uploads.ts and domain/cohorts/cohorts.ts.
 import { createHash, randomUUID } from 'node:crypto';
 import { createWriteStream, mkdirSync } from 'node:fs';
 import { unlink } from 'node:fs/promises';

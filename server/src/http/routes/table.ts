@@ -32,7 +32,7 @@ const COHORT_READERS = ['steward', 'statistician', 'chair', 'admin'] as const;
 const RUN_TEAM = ['admin', 'steward', 'statistician', 'chair'] as const;
 const CARD_READERS = ['clinician', 'statistician', 'chair', 'admin'] as const;
 
-// Per-IP limit on failed sign-ins; the per-account lock-out lives in services/users.ts.
+// Per-IP limit on failed sign-ins; the per-account lock-out lives in domain/accounts/users.ts.
 const loginLimiter = rateLimit({
   windowMs: config.loginRateLimit.windowMs,
   limit: config.loginRateLimit.maxPerIp,
@@ -78,7 +78,7 @@ export const routes: RouteDef[] = [
   { method: 'get', path: '/api/scorecards/:versionId', access: CARD_READERS, summary: 'the score card of one approved version', params: versionIdParam, handler: governance.scorecard },
   { method: 'get', path: '/api/runs/:id/report', access: ['statistician', 'chair', 'admin'], summary: 'the validation report bundle of a run', params: idParam, handler: governance.report },
   { method: 'get', path: '/api/dev/outbox', access: ADMIN, summary: 'development only: e-mails received by the local fake SMTP server', handler: governance.devOutbox },
-  // Cohorts: uploads are screened, mapped, checked, then stored in one transaction (services/uploads.ts).
+  // Cohorts: uploads are screened, mapped, checked, then stored in one transaction (domain/cohorts/uploads.ts).
   { method: 'post', path: '/api/cohorts', access: COHORT_WRITERS, summary: 'upload a CSV (multipart, field "file"); screened for identifiers before anything is kept', multipartFile: 'file', before: [cohorts.receiveFile], handler: cohorts.createUpload },
   { method: 'get', path: '/api/cohorts', access: COHORT_READERS, summary: 'list cohorts (paged, sorted, searched on the server)', query: cohortListQuery, handler: cohorts.listCohorts },
   { method: 'get', path: '/api/cohorts/:id', access: COHORT_READERS, summary: 'a cohort with its versions', params: uuidParam, handler: cohorts.getCohort },
@@ -106,7 +106,7 @@ export const routes: RouteDef[] = [
   { method: 'get', path: '/api/scores/:id/versions/:version/export', access: SCORE_READERS, summary: 'download the formula as a --model JSON file', params: scoreVersionParams, handler: scores.exportVersion },
 
   { method: 'get', path: '/api/sample-size', access: RUN_TEAM, summary: 'sample-size planner for external validation (Riley et al. 2021)', query: sampleSizeQuery, handler: drift.sampleSize },
-  // Drift monitoring and model updating (services/drift.ts).
+  // Drift monitoring and model updating (domain/drift/drift.ts).
   { method: 'get', path: '/api/scores/:id/versions/:version/drift', access: ['statistician', 'chair', 'admin', 'steward'], summary: 'drift timeline of a score version: per-period figures, funnel limits, CUSUM, O − E, alerts', params: scoreVersionParams, handler: drift.timeline },
   { method: 'put', path: '/api/scores/:id/versions/:version/drift/runs', access: ['statistician'], summary: 'choose which run of a cohort version the drift timeline takes (runId null: the newest completed)', params: scoreVersionParams, body: driftRunChoice, handler: drift.chooseRun },
   { method: 'get', path: '/api/alerts', access: ['statistician', 'chair', 'admin'], summary: 'drift alerts, open ones first (filter by score)', query: alertListQuery, handler: drift.listAlerts },

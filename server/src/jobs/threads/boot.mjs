@@ -1,4 +1,4 @@
-// From the sources only (workers/pool.ts): registers tsx inside this worker thread, with the project's tsconfig so
+// From the sources only (jobs/threads/pool.ts): registers tsx inside this worker thread, with the project's tsconfig so
 // '@shared/…' paths resolve wherever the process was started, then loads the task module. On Node 20 a loader given
 // to the thread as `--import tsx` does not reliably reach modules the thread imports; registering here does.
 import { fileURLToPath } from 'node:url';

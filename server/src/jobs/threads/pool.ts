@@ -1,6 +1,6 @@
 /**
  * Every worker thread of the server, through piscina pools. One boot path: every pool's threads load the one task
- * module (workers/tasks.ts) and run a task by its name. From the sources a thread starts from boot.mjs, which registers
+ * module (jobs/threads/tasks.ts) and run a task by its name. From the sources a thread starts from boot.mjs, which registers
  * tsx and loads tasks.ts; in the production build it is the bundled dist/server/tasks.js next to the server's file.
  * Background threads lower their CPU priority with piscina's niceIncrement (PLUMBLINE_WORKER_NICE; on Linux the
  * nice value is per thread), so the API thread, which only answers requests, gets a core first.
@@ -69,7 +69,7 @@ function pool(name: PoolName): Piscina {
   return p;
 }
 
-/** Runs a task of workers/tasks.ts in the named pool. */
+/** Runs a task of jobs/threads/tasks.ts in the named pool. */
 function task<K extends TaskName>(
   poolName: PoolName,
   name: K,

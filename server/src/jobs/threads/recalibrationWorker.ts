@@ -1,5 +1,5 @@
-// Pool task for a recalibration (services/drift.ts): loads the run's cohort through this thread's own connection,
-// computes each patient's linear predictor and makes the fit (services/recalibrationFit.ts) off the API thread.
+// Pool task for a recalibration (domain/drift/drift.ts): loads the run's cohort through this thread's own connection,
+// computes each patient's linear predictor and makes the fit (domain/drift/recalibrationFit.ts) off the API thread.
 import type { Derivation, RecalibrationMethod } from '@shared/drift';
 import pg from 'pg';
 import { config } from '../../platform/config';

@@ -1,4 +1,4 @@
-// Pool task of the cohort row browser (workers/pool.ts runs it in a pool of one thread, so what it keeps is shared by
+// Pool task of the cohort row browser (jobs/threads/pool.ts runs it in a pool of one thread, so what it keeps is shared by
 // every request): loads a stored cohort version through its own PostgreSQL connection, and sorts or searches it once
 // per (version, key, direction) or (version, search); each page request then only slices. Stored versions never
 // change, so what this thread keeps is never stale, whatever other processes do. Bounded by the rows it holds; least

@@ -1,4 +1,4 @@
-// Pool task for one validation run, or for one drift series (workers/pool.ts): it reads its own inputs from PostgreSQL
+// Pool task for one validation run, or for one drift series (jobs/threads/pool.ts): it reads its own inputs from PostgreSQL
 // through its own connection, so the API thread neither loads nor decodes the cohort, posts progress on the port it is
 // given and returns the results (or an error).
 import type { MessagePort } from 'node:worker_threads';

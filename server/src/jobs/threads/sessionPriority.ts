@@ -1,5 +1,5 @@
 // The PostgreSQL side of a long upload check gives way to the backends answering the API, as the checking thread itself
-// does (its pool lowers its threads' priority: workers/pool.ts, piscina's niceIncrement). Background sessions only.
+// does (its pool lowers its threads' priority: jobs/threads/pool.ts, piscina's niceIncrement). Background sessions only.
 import { readFileSync } from 'node:fs';
 import { getPriority, setPriority } from 'node:os';
 import { config } from '../../platform/config';

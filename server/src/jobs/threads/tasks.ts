@@ -1,4 +1,4 @@
-// The one entry module of every worker thread (workers/pool.ts): its default export runs a task by name. From the
+// The one entry module of every worker thread (jobs/threads/pool.ts): its default export runs a task by name. From the
 // sources a thread loads it through boot.mjs (tsx); the production build bundles it into dist/server/tasks.js
 // (server/scripts/build-server.mjs). The upload tasks load with the thread (the uploads pool keeps one warm); the rest
 // load on a thread's first task of their kind, so a thread starts with only what it runs.

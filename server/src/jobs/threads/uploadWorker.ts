@@ -1,4 +1,4 @@
-// Pool tasks for one upload's row checks and for the first look at a received file (workers/pool.ts). Parsing and checking a large file is CPU work: here it cannot delay the
+// Pool tasks for one upload's row checks and for the first look at a received file (jobs/threads/pool.ts). Parsing and checking a large file is CPU work: here it cannot delay the
 // API's event loop. The thread holds its own PostgreSQL connection and, in ONE transaction, streams the accepted rows
 // into cohort_row_blocks with COPY while it reads the file, stores the rejected cells, and marks the upload checked. A crash
 // or error anywhere aborts that transaction: no row is left behind. The rows stay invisible until the steward stores

@@ -1,5 +1,5 @@
 // The runtime role the API connects as: no superuser, owns nothing, and holds only the grants below. Applied by the
-// owner connection after the migrations at every start (db/dataSource.ts, prepareDatabase), so a new table gets its
+// owner connection after the migrations at every start (platform/database/dataSource.ts, prepareDatabase), so a new table gets its
 // grants on the next start. Append-only records get SELECT and INSERT only; their triggers then hold, because only a
 // superuser (session_replication_role) or the owner (ALTER TABLE … DISABLE TRIGGER) could switch them off.
 import type { EntityManager } from 'typeorm';

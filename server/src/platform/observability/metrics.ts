@@ -1,5 +1,5 @@
 // Prometheus metrics (prom-client): request durations by route, job durations, and the process's own figures including
-// event-loop delay (the queue depth gauge lives with what it reads, jobs/queueDepth.ts). Served by GET /api/metrics (routes/table.ts).
+// event-loop delay (the queue depth gauge lives with what it reads, jobs/queueDepth.ts). Served by GET /api/metrics (http/routes/table.ts).
 import type { RequestHandler } from 'express';
 import { collectDefaultMetrics, Histogram, Registry } from 'prom-client';
 
@@ -29,7 +29,7 @@ export function startProcessMetrics(): void {
   collectDefaultMetrics({ register: registry, eventLoopMonitoringPrecision: 10 });
 }
 
-/** Times every API answer by its route pattern from routes/table.ts (never the raw path, which carries ids). */
+/** Times every API answer by its route pattern from http/routes/table.ts (never the raw path, which carries ids). */
 export const timeRequests: RequestHandler = (req, res, next) => {
   const end = httpDuration.startTimer();
   res.on('finish', () => {

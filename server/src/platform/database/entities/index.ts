@@ -2,6 +2,7 @@
 import { AlertRule } from './AlertRule';
 import { AuditEntry } from './AuditEntry';
 import { Cohort } from './Cohort';
+import { CohortUpload } from './CohortUpload';
 import { CohortVersion } from './CohortVersion';
 import { ColumnMapping } from './ColumnMapping';
 import { DriftAlert } from './DriftAlert';
@@ -14,5 +15,5 @@ import { Signature } from './Signature';
 import { User } from './User';
 import { ValidationRun } from './ValidationRun';
 
-export { AuditEntry, Cohort, CohortVersion, ColumnMapping, Score, ScoreVersion, User, ValidationRun, RunReview, Signature, RunComment, EmailOutbox, AlertRule, DriftAlert };
-export const entities = [User, AuditEntry, Score, ScoreVersion, Cohort, ColumnMapping, CohortVersion, ValidationRun, RunReview, Signature, RunComment, EmailOutbox, AlertRule, DriftAlert];
+export { AuditEntry, Cohort, CohortUpload, CohortVersion, ColumnMapping, Score, ScoreVersion, User, ValidationRun, RunReview, Signature, RunComment, EmailOutbox, AlertRule, DriftAlert };
+export const entities = [User, AuditEntry, Score, ScoreVersion, Cohort, ColumnMapping, CohortVersion, CohortUpload, ValidationRun, RunReview, Signature, RunComment, EmailOutbox, AlertRule, DriftAlert];

@@ -45,7 +45,7 @@ export class RowBlocks1764634000000 implements MigrationInterface {
       CREATE TRIGGER cohort_row_blocks_immutable BEFORE UPDATE OR DELETE ON cohort_row_blocks
       FOR EACH ROW EXECUTE FUNCTION plumbline_guard_cohort_block()`);
 
-    // Written out here rather than with the upload's encoder (services/cohortBlocks.ts), which has moved on to a later
+    // Written out here rather than with the upload's encoder (domain/cohorts/cohortBlocks.ts), which has moved on to a later
     // layout (PackedBlocks1764700000000): this migration must keep producing the layout its own table has.
     const versions: { id: string }[] = await q.query('SELECT DISTINCT cohort_version_id AS id FROM cohort_rows');
     for (const { id } of versions) {

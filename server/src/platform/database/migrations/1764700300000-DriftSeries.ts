@@ -2,7 +2,7 @@ import type { MigrationInterface, QueryRunner } from 'typeorm';
 
 /**
  * The per-patient drift series of a (score version, cohort version): predicted risk and outcome in event-date order,
- * worked out once in the run's worker thread when the run completes (services/driftSeries.ts), so the drift page and
+ * worked out once in the run's worker thread when the run completes (domain/drift/driftSeries.ts), so the drift page and
  * the drift rules only merge stored series instead of loading and sorting every cohort on the API thread. Both inputs
  * are immutable, so a series never changes (plumbline_refuse_change) and any run of the pair may write it first.
  * p is float8 little-endian and y one byte per patient; `dates`/`counts` give the date groups in order (NULL last).

@@ -3,7 +3,7 @@ import type { MigrationInterface, QueryRunner } from 'typeorm';
 /**
  * Uploads kept before the de-identification fixes: a ragged row's stored text is blanked (only its line number and
  * reason stay), discarded and refused uploads forget what was summarised from their cells, and the plain-file flag
- * goes (every file is read by the one parser now, services/csvFile.ts).
+ * goes (every file is read by the one parser now, domain/cohorts/csvFile.ts).
  */
 export class ForgetUploadText1764700316000 implements MigrationInterface {
   name = 'ForgetUploadText1764700316000';
