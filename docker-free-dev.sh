@@ -112,7 +112,7 @@ case "$MODE" in
     log "building the client"
     npx vite build --logLevel warn
     log "migrating; seeding the demo if the database is empty"
-    npx tsx server/src/db/seed.ts
+    npx tsx server/src/demo/seed.ts
     log "Demo password: plumbline-demo-2026 (accounts: admin@, steward@, statistician@, chair@, clinician@demo.test)"
     log "fake SMTP on 127.0.0.1:${SMTP_PORT:-2525}; open http://localhost:$PORT  (Ctrl-C stops the app and the database)"
     # One process (tsx as an import hook, not npx → tsx CLI → node), so stopping the script stops the server too.
@@ -124,7 +124,7 @@ case "$MODE" in
     # Only the dev database, left running (for `npm run dev` / trying things): stop with `./docker-free-dev.sh stop-db`.
     start_cluster pg "$DEV_PGPORT"
     ensure_database plumbline
-    npx tsx server/src/db/seed.ts
+    npx tsx server/src/demo/seed.ts
     log "PostgreSQL is up: PGHOST=127.0.0.1 PGPORT=$DEV_PGPORT PGDATABASE=plumbline PGUSER=postgres (the owner; the app connects as plumbline_app)"
     ;;
   stop-db)

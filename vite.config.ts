@@ -3,7 +3,7 @@ import { defineConfig } from 'vitest/config';
 import vue from '@vitejs/plugin-vue';
 import vuetify from 'vite-plugin-vuetify';
 
-// Tests log at warn and above only (server/src/observability/log.ts), so passing tests print no request lines; set
+// Tests log at warn and above only (server/src/platform/observability/log.ts), so passing tests print no request lines; set
 // here so the global set-up, the test workers and the child servers they start all inherit it.
 process.env.PLUMBLINE_LOG_LEVEL ??= 'warn';
 

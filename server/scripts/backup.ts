@@ -6,9 +6,9 @@ import { spawnSync } from 'node:child_process';
 import { createHash } from 'node:crypto';
 import { mkdirSync, readFileSync, statSync } from 'node:fs';
 import path from 'node:path';
-import { config } from '../src/config';
-import { closeDatabase, dataSource } from '../src/db/dataSource';
-import { verifyAuditChain } from '../src/services/audit';
+import { config } from '../src/platform/config';
+import { closeDatabase, dataSource } from '../src/platform/database/dataSource';
+import { verifyAuditChain } from '../src/domain/accounts/audit';
 import { argValue, pgBinary, pgEnv, tableCounts } from './pgTools';
 
 async function main() {

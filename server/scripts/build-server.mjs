@@ -15,8 +15,8 @@ await build({
     index: 'server/src/index.ts',
     worker: 'server/src/worker.ts',
     'create-admin': 'server/src/cli/createAdmin.ts',
-    // Every pool's threads load this one module (server/src/workers/pool.ts).
-    tasks: 'server/src/workers/tasks.ts',
+    // Every pool's threads load this one module (server/src/jobs/threads/pool.ts).
+    tasks: 'server/src/jobs/threads/tasks.ts',
   },
   outdir,
   bundle: true,

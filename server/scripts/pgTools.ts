@@ -1,7 +1,7 @@
 // Shared bits of the backup and restore scripts: Debian's PostgreSQL client binaries and the PG* connection settings.
 import { existsSync } from 'node:fs';
 import path from 'node:path';
-import { config } from '../src/config';
+import { config } from '../src/platform/config';
 
 const DEBIAN_BIN = '/usr/lib/postgresql/15/bin';
 

@@ -5,9 +5,9 @@ import 'reflect-metadata';
 import { spawnSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { DataSource } from 'typeorm';
-import { config } from '../src/config';
-import { entities } from '../src/entities';
-import { verifyAuditChain } from '../src/services/audit';
+import { config } from '../src/platform/config';
+import { entities } from '../src/platform/database/entities';
+import { verifyAuditChain } from '../src/domain/accounts/audit';
 import { argValue, hasFlag, pgBinary, pgEnv, tableCounts } from './pgTools';
 
 const quoteIdent = (name: string) => `"${name.replace(/"/g, '""')}"`;

@@ -1,10 +1,10 @@
 import 'reflect-metadata';
-import { createApp } from './app';
-import { config } from './config';
+import { createApp } from './http/app';
+import { config } from './platform/config';
 import { prepareProcess, runMain, stopOnSignals } from './processLifecycle';
-import { backgroundServices, startBackgroundServices } from './services/background';
-import { startFakeSmtp } from './services/fakeSmtp';
-import { logger } from './observability/log';
+import { backgroundServices, startBackgroundServices } from './jobs/background';
+import { startFakeSmtp } from './platform/mail/fakeSmtp';
+import { logger } from './platform/observability/log';
 
 runMain('Plumbline', async () => {
   // Migrations and the runtime role's grants as the owner; then the API's own connection as the runtime role.

@@ -1,10 +1,10 @@
 // How the two entry points (index.ts: the API, worker.ts: jobs only) start and stop, in one place.
-import { closeDatabase, initDatabase } from './db/dataSource';
-import { startChecks, StartRefused } from './db/startChecks';
-import { stopBackgroundServices } from './services/background';
-import { stopPools } from './workers/pool';
-import { logger } from './observability/log';
-import { startProcessMetrics } from './observability/metrics';
+import { closeDatabase, initDatabase } from './platform/database/dataSource';
+import { startChecks, StartRefused } from './platform/database/startChecks';
+import { stopBackgroundServices } from './jobs/background';
+import { stopPools } from './jobs/threads/pool';
+import { logger } from './platform/observability/log';
+import { startProcessMetrics } from './platform/observability/metrics';
 
 /** Migrations and the runtime role's grants as the owner, the refusals at start, then the process metrics. */
 export async function prepareProcess(): Promise<void> {

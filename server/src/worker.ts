@@ -3,8 +3,8 @@
 // beside API processes started with PLUMBLINE_JOBS=off (README, "Several processes").
 import 'reflect-metadata';
 import { prepareProcess, runMain, stopOnSignals } from './processLifecycle';
-import { backgroundServices, startBackgroundServices } from './services/background';
-import { logger } from './observability/log';
+import { backgroundServices, startBackgroundServices } from './jobs/background';
+import { logger } from './platform/observability/log';
 
 runMain('Plumbline job worker', async () => {
   await prepareProcess();

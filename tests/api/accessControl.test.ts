@@ -1,4 +1,4 @@
-// Access control, proven route by route: every route in server/src/routes/table.ts × every role, with real tokens.
+// Access control, proven route by route: every route in server/src/http/routes/table.ts × every role, with real tokens.
 // Expected access comes from the explicit matrix in tests/helpers/accessMatrix.ts, which must agree with the table.
 import request from 'supertest';
 import { describe, expect, it } from 'vitest';
@@ -19,13 +19,13 @@ const send = (method: string, path: string) => {
 describe('the access matrix', () => {
   it('has exactly one entry per route in the table, and they agree', () => {
     const keys = routes.map(routeKey);
-    expect(new Set(keys).size, 'duplicate METHOD path in routes/table.ts').toBe(keys.length);
+    expect(new Set(keys).size, 'duplicate METHOD path in http/routes/table.ts').toBe(keys.length);
     const missing = keys.filter((k) => !(k in accessMatrix));
     expect(missing, 'routes without an entry in tests/helpers/accessMatrix.ts (npx tsx server/scripts/print-access-matrix.ts --write)').toEqual([]);
     const stale = Object.keys(accessMatrix).filter((k) => !keys.includes(k));
     expect(stale, 'matrix entries for routes that no longer exist').toEqual([]);
     const differ = routes.filter((r) => norm(r.access) !== norm(accessMatrix[routeKey(r)])).map(routeKey);
-    expect(differ, 'access in routes/table.ts differs from tests/helpers/accessMatrix.ts').toEqual([]);
+    expect(differ, 'access in http/routes/table.ts differs from tests/helpers/accessMatrix.ts').toEqual([]);
   });
 
   it('covers every route the app mounts: nothing is reachable outside the table', () => {

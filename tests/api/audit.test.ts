@@ -1,6 +1,6 @@
 import request from 'supertest';
 import { describe, expect, it } from 'vitest';
-import { verifyAuditChain } from '../../server/src/services/audit';
+import { verifyAuditChain } from '../../server/src/domain/accounts/audit';
 import { app, bearer, dataSource, loginAs, ownerDataSource, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
 
 useDatabase();

@@ -1,7 +1,7 @@
 import jwt from 'jsonwebtoken';
 import request from 'supertest';
 import { describe, expect, it } from 'vitest';
-import { config } from '../../server/src/config';
+import { config } from '../../server/src/platform/config';
 import { app, bearer, countRows, dataSource, DEMO_PASSWORD, loginAs, tokenFor, uniqueEmail, useDatabase } from '../helpers/api';
 
 useDatabase();

@@ -9,11 +9,11 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { CodingIssue, UploadView } from '@shared/cohorts';
 import type { RunResults } from '@shared/runs';
 import { runSettingsSchema } from '@shared/runs';
-import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
-import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
-import { loadCohortData } from '../../server/src/services/cohortData';
-import { recordRunNow } from '../../server/src/services/runs';
-import { whenProcessed } from '../../server/src/services/uploads';
+import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
+import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
+import { loadCohortData } from '../../server/src/domain/cohorts/cohortData';
+import { recordRunNow } from '../../server/src/domain/runs/runs';
+import { whenProcessed } from '../../server/src/domain/cohorts/uploads';
 import { app, bearer, dataSource, tokenFor, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, kestrelRows, type ScoreFixture } from '../helpers/fixtures';
 

@@ -7,11 +7,11 @@ import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Role } from '@shared/roles';
 import { ROLES } from '@shared/roles';
-import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
-import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
-import { uploadDir } from '../../server/src/routes/cohorts';
-import { loadCohortData } from '../../server/src/services/cohortData';
-import { discardStaleUploads, whenProcessed } from '../../server/src/services/uploads';
+import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
+import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
+import { uploadDir } from '../../server/src/http/routes/cohorts';
+import { loadCohortData } from '../../server/src/domain/cohorts/cohortData';
+import { discardStaleUploads, whenProcessed } from '../../server/src/domain/cohorts/uploads';
 import { FIXTURE_MODEL } from '../helpers/fixtures';
 import { app, bearer, countRows, dataSource, ownerQuery, tokenFor, useDatabase } from '../helpers/api';
 

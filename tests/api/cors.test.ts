@@ -6,7 +6,7 @@
 // the choice itself.
 import request from 'supertest';
 import { describe, expect, it } from 'vitest';
-import { routes } from '../../server/src/routes/table';
+import { routes } from '../../server/src/http/routes/table';
 import { app, bearer, DEMO_PASSWORD, tokenFor, useDatabase } from '../helpers/api';
 
 useDatabase();

@@ -14,10 +14,10 @@ import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 
 // A million rows on a shared machine: minutes, not the suite's default two.
 vi.setConfig({ testTimeout: 600_000 });
-import { DEMO_PASSWORD } from '../../server/src/config';
-import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
-import { BLOCK_ROWS } from '../../server/src/services/cohortBlocks';
-import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
+import { DEMO_PASSWORD } from '../../server/src/platform/config';
+import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
+import { BLOCK_ROWS } from '../../server/src/domain/cohorts/cohortBlocks';
+import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
 import { runTsx, ServerProcess } from '../helpers/childServer';
 import { FIXTURE_MODEL } from '../helpers/fixtures';
 import { createThrowawayCluster, freePort, type ThrowawayCluster } from '../helpers/throwawayPg';

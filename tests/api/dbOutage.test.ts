@@ -1,7 +1,7 @@
 // Stop PostgreSQL under the running server: the API answers 503 with a clear message, /api/health says the database
 // is down, and the server recovers by itself when PostgreSQL is back. Uses its own throwaway cluster and a real child server.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { DEMO_PASSWORD } from '../../server/src/config';
+import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import { runTsx, ServerProcess } from '../helpers/childServer';
 import { createThrowawayCluster, freePort, type ThrowawayCluster } from '../helpers/throwawayPg';
 

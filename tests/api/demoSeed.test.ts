@@ -1,10 +1,10 @@
-// The demo is seeded once, into an empty database (server/src/db/seed.ts): running the seed again — every dev start
+// The demo is seeded once, into an empty database (server/src/demo/seed.ts): running the seed again — every dev start
 // does — files no review, signature or approval, even when a newer demo run is waiting and the demo password changed.
 import request from 'supertest';
 import { describe, expect, it } from 'vitest';
 import { runSettingsSchema } from '@shared/runs';
-import { seedDemo } from '../../server/src/db/seed';
-import { recordRunNow } from '../../server/src/services/runs';
+import { seedDemo } from '../../server/src/demo/seed';
+import { recordRunNow } from '../../server/src/domain/runs/runs';
 import { app, bearer, dataSource, DEMO_PASSWORD, loginAs, ownerDataSource, useDatabase } from '../helpers/api';
 
 useDatabase();

@@ -5,11 +5,11 @@ import { createHash, randomUUID } from 'node:crypto';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { RunGovernanceView, ScoreCardView, SignatureView } from '@shared/governance';
-import { config } from '../../server/src/config';
-import { verifyAuditChain } from '../../server/src/services/audit';
-import { clearReceived, receivedMessages, startFakeSmtp } from '../../server/src/services/fakeSmtp';
-import type { JobHandler } from '../../server/src/services/jobs';
-import { mailJob, queueEmail, sendPendingOnce } from '../../server/src/services/mail';
+import { config } from '../../server/src/platform/config';
+import { verifyAuditChain } from '../../server/src/domain/accounts/audit';
+import { clearReceived, receivedMessages, startFakeSmtp } from '../../server/src/platform/mail/fakeSmtp';
+import type { JobHandler } from '../../server/src/jobs/queue';
+import { mailJob, queueEmail, sendPendingOnce } from '../../server/src/domain/notifications/mail';
 import { app, bearer, dataSource, DEMO_PASSWORD, loginAs, refusedTwice, tokenFor, uniqueEmail, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, kestrelRows, type ScoreFixture } from '../helpers/fixtures';
 
@@ -295,7 +295,7 @@ describe('chair sign-off', () => {
          VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10)`,
         [runB, sig.score_version_id, rv.id, sig.signer_id, sig.printed_name, sig.role, sig.meaning, sig.reason, sig.signed_at, sig.record_sha256],
       );
-      const { listSignatures } = await import('../../server/src/services/governance');
+      const { listSignatures } = await import('../../server/src/domain/governance/governance');
       const copied = await listSignatures(runB, qr.manager);
       expect(copied).toHaveLength(1);
       expect(copied[0].linkVerified).toBe(false);

@@ -139,7 +139,7 @@ describe('SQL injection strings', () => {
   });
 
   it('the leak detector itself finds a stack frame, driver error text and SQL', () => {
-    expect(leakMarkers('Error: x\n    at Object.<anonymous> (/work/main/server/src/app.ts:10:5)')).toEqual(expect.arrayContaining(['stack frame', 'source path']));
+    expect(leakMarkers('Error: x\n    at Object.<anonymous> (/work/main/server/src/http/app.ts:10:5)')).toEqual(expect.arrayContaining(['stack frame', 'source path']));
     expect(leakMarkers('QueryFailedError: syntax error at or near "OR"')).toEqual(expect.arrayContaining(['QueryFailedError', 'PostgreSQL error text']));
     expect(leakMarkers('{"error":"SELECT * FROM users"}')).toEqual(['SQL']);
     expect(leakMarkers('{"error":"invalid body: email: email must be an e-mail address"}')).toEqual([]);

@@ -12,12 +12,12 @@ import { tmpdir } from 'node:os';
 import path from 'node:path';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
-import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
-import { requiredPredictors, whenProcessed } from '../../server/src/services/uploads';
-import { csvText, readHeaderAndSample, sniffCsv } from '../../server/src/services/csvFile';
-import { screenColumns } from '../../server/src/services/deidentify';
-import { checkUploadRows } from '../../server/src/services/uploadCheck';
+import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
+import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
+import { requiredPredictors, whenProcessed } from '../../server/src/domain/cohorts/uploads';
+import { csvText, readHeaderAndSample, sniffCsv } from '../../server/src/domain/cohorts/csvFile';
+import { screenColumns } from '../../server/src/domain/cohorts/deidentify';
+import { checkUploadRows } from '../../server/src/domain/cohorts/uploadCheck';
 import { createScoreFixture, FIXTURE_MODEL } from '../helpers/fixtures';
 import { app, bearer, dataSource, tokenFor, useDatabase } from '../helpers/api';
 
@@ -34,7 +34,7 @@ beforeAll(async () => {
   token = await tokenFor('steward');
 });
 
-// Columns of the demo extract (server/src/db/seeds/kestrelData.ts).
+// Columns of the demo extract (server/src/demo/seeds/kestrelData.ts).
 const AGE = 0, PRIOR = 2, OUTCOME = 5, PERIOD = 6, AGE_BAND = 8, UNIT = 9;
 /** `rows`: how many neighbouring rows hold the value (a patient with several stays repeats, so a name may too). */
 type Variant = { category: string; value: string; columns: number[]; rows?: number };

@@ -5,9 +5,9 @@ import { tmpdir } from 'node:os';
 import path from 'node:path';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
-import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
-import { discardStaleUploads, whenProcessed } from '../../server/src/services/uploads';
+import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
+import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
+import { discardStaleUploads, whenProcessed } from '../../server/src/domain/cohorts/uploads';
 import { createScoreFixture, FIXTURE_MODEL } from '../helpers/fixtures';
 import { app, bearer, countRows, dataSource, tokenFor, useDatabase } from '../helpers/api';
 

@@ -1,9 +1,9 @@
-// The API's database role (server/src/db/runtimeRole.ts): not a superuser, owns no table, and holds only the grants it
+// The API's database role (server/src/platform/database/runtimeRole.ts): not a superuser, owns no table, and holds only the grants it
 // needs, so it cannot switch off the immutability triggers, empty a table or change a signed record. The suite runs
 // as this role, like the server.
 import { describe, expect, it } from 'vitest';
-import { config } from '../../server/src/config';
-import { RUNTIME_GRANTS } from '../../server/src/db/runtimeRole';
+import { config } from '../../server/src/platform/config';
+import { RUNTIME_GRANTS } from '../../server/src/platform/database/runtimeRole';
 import { dataSource, ownerDataSource, useDatabase } from '../helpers/api';
 
 useDatabase();

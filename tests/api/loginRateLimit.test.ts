@@ -1,7 +1,7 @@
 // Its own file: the per-IP limiter's memory lives per test file, so other files are not throttled.
 import request from 'supertest';
 import { describe, expect, it } from 'vitest';
-import { config } from '../../server/src/config';
+import { config } from '../../server/src/platform/config';
 import { app, useDatabase } from '../helpers/api';
 
 useDatabase();

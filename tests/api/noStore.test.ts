@@ -2,7 +2,7 @@
 // which no browser cache or proxy may keep. Checked on answers with such data, on repeated reads, and on refusals.
 import request from 'supertest';
 import { describe, expect, it } from 'vitest';
-import { routes } from '../../server/src/routes/table';
+import { routes } from '../../server/src/http/routes/table';
 import { app, bearer, dataSource, DEMO_PASSWORD, tokenFor, useDatabase } from '../helpers/api';
 
 useDatabase();

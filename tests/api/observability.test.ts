@@ -4,10 +4,10 @@
 import { Writable } from 'node:stream';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { createApp } from '../../server/src/app';
-import { config } from '../../server/src/config';
-import { createLogger } from '../../server/src/observability/log';
-import { startProcessMetrics } from '../../server/src/observability/metrics';
+import { createApp } from '../../server/src/http/app';
+import { config } from '../../server/src/platform/config';
+import { createLogger } from '../../server/src/platform/observability/log';
+import { startProcessMetrics } from '../../server/src/platform/observability/metrics';
 import { bearer, dataSource, DEMO_PASSWORD, demoEmail, tokenFor, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, kestrelRows } from '../helpers/fixtures';
 

@@ -8,8 +8,8 @@ import pg from 'pg';
 import { from as copyFrom } from 'pg-copy-streams';
 import { DataSource } from 'typeorm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { migrations } from '../../server/src/migrations';
-import { COPY_BLOCKS_SQL, encodeBlocks, parseStoredBlock, SELECT_BLOCKS_SQL, type BlockRow } from '../../server/src/services/cohortBlocks';
+import { migrations } from '../../server/src/platform/database/migrations';
+import { COPY_BLOCKS_SQL, encodeBlocks, parseStoredBlock, SELECT_BLOCKS_SQL, type BlockRow } from '../../server/src/domain/cohorts/cohortBlocks';
 
 const base = { host: process.env.PGHOST ?? '127.0.0.1', port: Number(process.env.PGPORT ?? 54329), username: process.env.PGUSER ?? 'postgres', password: process.env.PGPASSWORD ?? '' };
 const scratch = `${process.env.PGDATABASE ?? 'plumbline'}_packed_${process.pid}`;

@@ -8,9 +8,9 @@ import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'no
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { config, DEV_JWT_SECRET } from '../../server/src/config';
-import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
-import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
+import { config, DEV_JWT_SECRET } from '../../server/src/platform/config';
+import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
+import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
 import { repoRoot } from '../helpers/childServer';
 import { FIXTURE_MODEL } from '../helpers/fixtures';
 import { ownerQuery, useDatabase } from '../helpers/api';

@@ -3,12 +3,12 @@
 import request from 'supertest';
 import pg from 'pg';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { config } from '../../server/src/config';
+import { config } from '../../server/src/platform/config';
 import type { RunDetail, RunResults } from '@shared/runs';
-import { startBackgroundServices, stopBackgroundServices } from '../../server/src/services/background';
-import { asStored, engineSettings, ENGINE_VERSION } from '../../server/src/services/runCompute';
-import type { JobHandler } from '../../server/src/services/jobs';
-import { processNextRun, runAbandonedJob, runJob } from '../../server/src/services/runs';
+import { startBackgroundServices, stopBackgroundServices } from '../../server/src/jobs/background';
+import { asStored, engineSettings, ENGINE_VERSION } from '../../server/src/domain/runs/runCompute';
+import type { JobHandler } from '../../server/src/jobs/queue';
+import { processNextRun, runAbandonedJob, runJob } from '../../server/src/domain/runs/runs';
 import { applyModel, validate } from '../../server/src/stats/index';
 import { app, bearer, dataSource, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, FIXTURE_MODEL, kestrelRows, type CohortFixture, type ScoreFixture } from '../helpers/fixtures';

@@ -1,9 +1,9 @@
 // The demo runs seed: Kestrel v2 on each demo quarter, completed with hashes that the API's reproduce confirms.
 import request from 'supertest';
 import { describe, expect, it } from 'vitest';
-import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME, seedCohorts } from '../../server/src/db/seeds/cohorts';
-import { seedRuns } from '../../server/src/db/seeds/runs';
-import { seedKestrelScore } from '../../server/src/db/seeds/scenario';
+import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME, seedCohorts } from '../../server/src/demo/seeds/cohorts';
+import { seedRuns } from '../../server/src/demo/seeds/runs';
+import { seedKestrelScore } from '../../server/src/demo/seeds/scenario';
 import { app, bearer, dataSource, tokenFor, useDatabase } from '../helpers/api';
 
 useDatabase();

@@ -5,8 +5,8 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import type { Role } from '@shared/roles';
 import { ROLES } from '@shared/roles';
 import type { ScoreModel } from '@shared/model';
-import { KESTREL_SCORE, KESTREL_V1_MODEL, KESTREL_V2_MODEL, seedKestrelScore } from '../../server/src/db/seeds/scenario';
-import { lockScoreVersion } from '../../server/src/services/scores';
+import { KESTREL_SCORE, KESTREL_V1_MODEL, KESTREL_V2_MODEL, seedKestrelScore } from '../../server/src/demo/seeds/scenario';
+import { lockScoreVersion } from '../../server/src/domain/scores/scores';
 import { app, bearer, countRows, dataSource, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
 
 useDatabase();

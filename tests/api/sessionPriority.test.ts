@@ -1,10 +1,10 @@
 // The upload check's database session is lowered in priority like the check thread itself
-// (server/src/workers/sessionPriority.ts), checked against the kernel's record of the backend process (proc(5):
+// (server/src/jobs/threads/sessionPriority.ts), checked against the kernel's record of the backend process (proc(5):
 // /proc/<pid>/stat, field 19 is the nice value). Linux, with PostgreSQL on this machine.
 import { existsSync, readFileSync } from 'node:fs';
 import pg from 'pg';
 import { describe, expect, it } from 'vitest';
-import { lowerDatabaseSessionPriority, WORKER_NICE } from '../../server/src/workers/sessionPriority';
+import { lowerDatabaseSessionPriority, WORKER_NICE } from '../../server/src/jobs/threads/sessionPriority';
 
 const linux = process.platform === 'linux' && existsSync('/proc/self/stat');
 const niceOf = (pid: number) => Number(readFileSync(`/proc/${pid}/stat`, 'utf8').split(') ')[1].split(' ')[16]);

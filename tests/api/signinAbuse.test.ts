@@ -3,8 +3,8 @@
 import { randomUUID } from 'node:crypto';
 import request from 'supertest';
 import { afterAll, describe, expect, it } from 'vitest';
-import { createApp } from '../../server/src/app';
-import { config } from '../../server/src/config';
+import { createApp } from '../../server/src/http/app';
+import { config } from '../../server/src/platform/config';
 import { app, bearer, dataSource, DEMO_PASSWORD, loginAs, tokenFor, uniqueEmail, useDatabase } from '../helpers/api';
 
 useDatabase();

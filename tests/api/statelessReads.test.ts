@@ -9,9 +9,9 @@ import path from 'node:path';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { ScoreCardView } from '@shared/governance';
-import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
-import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
-import { whenProcessed } from '../../server/src/services/uploads';
+import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
+import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
+import { whenProcessed } from '../../server/src/domain/cohorts/uploads';
 import { app, bearer, dataSource, DEMO_PASSWORD, loginAs, tokenFor, uniqueEmail, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, kestrelRows, type ScoreFixture } from '../helpers/fixtures';
 

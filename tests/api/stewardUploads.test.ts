@@ -6,9 +6,9 @@ import path from 'node:path';
 import Papa from 'papaparse';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
-import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
-import { whenProcessed } from '../../server/src/services/uploads';
+import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
+import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
+import { whenProcessed } from '../../server/src/domain/cohorts/uploads';
 import { app, bearer, dataSource, tokenFor, useDatabase } from '../helpers/api';
 import { createScoreFixture, type ScoreFixture } from '../helpers/fixtures';
 

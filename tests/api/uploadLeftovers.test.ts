@@ -19,9 +19,9 @@ const dir = await vi.hoisted(async () => {
   return made;
 });
 
-import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
-import { uploadDir } from '../../server/src/routes/cohorts';
-import { sweepUploadDir } from '../../server/src/services/uploads';
+import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
+import { uploadDir } from '../../server/src/http/routes/cohorts';
+import { sweepUploadDir } from '../../server/src/domain/cohorts/uploads';
 import { app, bearer, dataSource, tokenFor, useDatabase } from '../helpers/api';
 import { createScoreFixture, FIXTURE_MODEL } from '../helpers/fixtures';
 

@@ -6,9 +6,9 @@ import { existsSync, mkdtempSync, readdirSync, rmSync, utimesSync, writeFileSync
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { DEMO_PASSWORD } from '../../server/src/config';
-import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
-import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
+import { DEMO_PASSWORD } from '../../server/src/platform/config';
+import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
+import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
 import { runTsx, ServerProcess } from '../helpers/childServer';
 import { FIXTURE_MODEL } from '../helpers/fixtures';
 import { createThrowawayCluster, freePort, type ThrowawayCluster } from '../helpers/throwawayPg';

@@ -14,7 +14,7 @@ import { clampedLogit } from '../../server/src/stats/checkInputs';
 import { calibrationIntercept } from '../../server/src/stats/calibrationIntercept';
 import { calibrationSlope } from '../../server/src/stats/calibrationSlope';
 import { readCohortCsv } from '../../server/src/cli/readCohortCsv';
-import { bootstrapInWorkers } from '../../server/src/workers/pool';
+import { bootstrapInWorkers } from '../../server/src/jobs/threads/pool';
 
 const N = 1_000_000;
 const dir = mkdtempSync(join(tmpdir(), 'plumbline-bench-'));

@@ -21,9 +21,9 @@ import { once } from 'node:events';
 import net from 'node:net';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { DEMO_PASSWORD } from '../../server/src/config';
-import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
-import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
+import { DEMO_PASSWORD } from '../../server/src/platform/config';
+import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
+import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
 
 const root = fileURLToPath(new URL('../..', import.meta.url));
 const SECONDS = Number(process.env.BENCH_SECONDS ?? 30);
@@ -59,7 +59,7 @@ async function main() {
   watchdog.unref();
 
   log(`demo seed into ${process.env.PGDATABASE ?? 'plumbline'} (only into an empty database)`);
-  const seed = spawnSync(process.execPath, ['--import', 'tsx', 'server/src/db/seed.ts'], { cwd: root, stdio: 'inherit', env: process.env });
+  const seed = spawnSync(process.execPath, ['--import', 'tsx', 'server/src/demo/seed.ts'], { cwd: root, stdio: 'inherit', env: process.env });
   if (seed.status !== 0) throw new Error('seeding failed');
 
   // Two API processes (jobs off) with the event-loop probe, and one job worker.

@@ -9,8 +9,8 @@ import type { Page } from 'playwright-core';
 import { describe, expect, it } from 'vitest';
 import type { Role } from '../../shared/src/roles';
 import { navigationFor } from '../../client/src/navigation';
-import { dataSource, initDatabase } from '../../server/src/db/dataSource';
-import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from '../../server/src/db/seeds/cohorts';
+import { dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
+import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from '../../server/src/demo/seeds/cohorts';
 import { appUrl } from '../helpers/appServer';
 import { inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
 

@@ -6,7 +6,7 @@ import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
-import { initDatabase } from '../../server/src/db/dataSource';
+import { initDatabase } from '../../server/src/platform/database/dataSource';
 import { appUrl } from '../helpers/appServer';
 import { inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
 import { createScoreFixture } from '../helpers/fixtures';

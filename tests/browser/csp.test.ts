@@ -7,8 +7,8 @@
 import 'reflect-metadata';
 import type { Page, Response } from 'playwright-core';
 import { beforeAll, describe, expect, it } from 'vitest';
-import { dataSource, initDatabase } from '../../server/src/db/dataSource';
-import { KESTREL_SCORE_NAME } from '../../server/src/db/seeds/cohorts';
+import { dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
+import { KESTREL_SCORE_NAME } from '../../server/src/demo/seeds/cohorts';
 import { appUrl } from '../helpers/appServer';
 import { inTab, screenshot, signIn, useAppAndBrowser } from '../helpers/browser';
 

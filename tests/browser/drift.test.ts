@@ -4,8 +4,8 @@
 // per quarter, so calibration-in-the-large and the deterioration CUSUM must move away from the go-live value.
 import 'reflect-metadata';
 import { describe, expect, it } from 'vitest';
-import { dataSource, initDatabase } from '../../server/src/db/dataSource';
-import { KESTREL_SCORE_NAME } from '../../server/src/db/seeds/cohorts';
+import { dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
+import { KESTREL_SCORE_NAME } from '../../server/src/demo/seeds/cohorts';
 import { appUrl } from '../helpers/appServer';
 import { inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
 

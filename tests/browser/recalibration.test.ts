@@ -6,9 +6,9 @@
 import 'reflect-metadata';
 import type { Page } from 'playwright-core';
 import { describe, expect, it } from 'vitest';
-import { DEMO_PASSWORD } from '../../server/src/config';
-import { dataSource, initDatabase } from '../../server/src/db/dataSource';
-import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from '../../server/src/db/seeds/cohorts';
+import { DEMO_PASSWORD } from '../../server/src/platform/config';
+import { dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
+import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from '../../server/src/demo/seeds/cohorts';
 import { appUrl } from '../helpers/appServer';
 import { artifactsDir, inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
 

@@ -8,8 +8,8 @@ import { mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { dataSource, initDatabase } from '../../server/src/db/dataSource';
-import { KESTREL_SCORE_NAME } from '../../server/src/db/seeds/cohorts';
+import { dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
+import { KESTREL_SCORE_NAME } from '../../server/src/demo/seeds/cohorts';
 import { appUrl } from '../helpers/appServer';
 import { artifactsDir, inTab, useAppAndBrowser } from '../helpers/browser';
 

@@ -4,7 +4,7 @@ import type { Page } from 'playwright-core';
 import { describe, expect, it } from 'vitest';
 import { ROLE_LABELS, ROLES } from '@shared/roles';
 import { navigation, navigationFor } from '../../client/src/navigation';
-import { DEMO_PASSWORD } from '../../server/src/config';
+import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import { appUrl } from '../helpers/appServer';
 import { inTab, screenshot, signIn, submitSignIn, useAppAndBrowser } from '../helpers/browser';
 

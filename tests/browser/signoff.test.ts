@@ -4,8 +4,8 @@
 import 'reflect-metadata';
 import { createHash, randomUUID } from 'node:crypto';
 import { describe, expect, it } from 'vitest';
-import { DEMO_PASSWORD } from '../../server/src/config';
-import { dataSource, initDatabase } from '../../server/src/db/dataSource';
+import { DEMO_PASSWORD } from '../../server/src/platform/config';
+import { dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
 import { appUrl } from '../helpers/appServer';
 import { inTab, useAppAndBrowser } from '../helpers/browser';
 import { createCohortFixture, createScoreFixture, kestrelRows } from '../helpers/fixtures';

@@ -4,8 +4,8 @@
 // found by its status and signed by the chair, and the clinician reads the score card.
 import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
-import { DEMO_PASSWORD } from '../../server/src/config';
-import { initDatabase } from '../../server/src/db/dataSource';
+import { DEMO_PASSWORD } from '../../server/src/platform/config';
+import { initDatabase } from '../../server/src/platform/database/dataSource';
 import { appUrl } from '../helpers/appServer';
 import { inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
 import { createCohortFixture, createScoreFixture, kestrelRows } from '../helpers/fixtures';

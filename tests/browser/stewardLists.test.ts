@@ -3,7 +3,7 @@
 import 'reflect-metadata';
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import { dataSource, initDatabase } from '../../server/src/db/dataSource';
+import { dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
 import { appUrl } from '../helpers/appServer';
 import { inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
 import { createScoreFixture } from '../helpers/fixtures';

@@ -1,5 +1,5 @@
 // Who may call each API route: 'public' (no token), 'signed-in' (any active account) or the roles allowed.
-// A second, hand-checked copy of the access field in server/src/routes/table.ts: tests/api/accessControl.test.ts
+// A second, hand-checked copy of the access field in server/src/http/routes/table.ts: tests/api/accessControl.test.ts
 // fails when a route has no entry here, when an entry has no route, or when the two disagree.
 // Regenerate after adding routes: npx tsx server/scripts/print-access-matrix.ts --write  (then review the diff).
 import type { Role } from '@shared/roles';

@@ -3,10 +3,10 @@ import 'reflect-metadata';
 import request from 'supertest';
 import { afterAll, beforeAll, expect } from 'vitest';
 import type { Role } from '@shared/roles';
-import { createApp } from '../../server/src/app';
-import { DEMO_PASSWORD } from '../../server/src/config';
+import { createApp } from '../../server/src/http/app';
+import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import type { DataSource } from 'typeorm';
-import { closeDatabase, createOwnerDataSource, dataSource, initDatabase } from '../../server/src/db/dataSource';
+import { closeDatabase, createOwnerDataSource, dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
 
 export const app = createApp({ serveClient: false });
 export { dataSource, DEMO_PASSWORD };

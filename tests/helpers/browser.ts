@@ -6,8 +6,8 @@ import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { chromium, type BrowserContext, type Page } from 'playwright-core';
 import { afterAll, beforeAll } from 'vitest';
-import { DEMO_PASSWORD } from '../../server/src/config';
-import { closeDatabase } from '../../server/src/db/dataSource';
+import { DEMO_PASSWORD } from '../../server/src/platform/config';
+import { closeDatabase } from '../../server/src/platform/database/dataSource';
 import { appUrl, startAppServer, stopAppServer } from './appServer';
 
 /** Screenshots of the browser tests (ignored by git). */

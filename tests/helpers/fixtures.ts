@@ -6,9 +6,9 @@ import { pipeline } from 'node:stream/promises';
 import type { PoolClient } from 'pg';
 import { from as copyFrom } from 'pg-copy-streams';
 import type { ScoreModel } from '@shared/model';
-import { dataSource } from '../../server/src/db/dataSource';
-import { KESTREL_V1_MODEL } from '../../server/src/db/seeds/scenario';
-import { COPY_BLOCKS_SQL, encodeBlocks } from '../../server/src/services/cohortBlocks';
+import { dataSource } from '../../server/src/platform/database/dataSource';
+import { KESTREL_V1_MODEL } from '../../server/src/demo/seeds/scenario';
+import { COPY_BLOCKS_SQL, encodeBlocks } from '../../server/src/domain/cohorts/cohortBlocks';
 import { mulberry32 } from '../../server/src/stats/bootstrap';
 
 /** The invented Kestrel formula (version 1 of the demo scenario). */
@@ -60,7 +60,7 @@ export async function createCohortFixture(rows: FixtureRow[], opts: { name?: str
   const events = rows.reduce((s, r) => s + r.outcome, 0);
   // As an upload stores them: the blocks first (the database refuses blocks for a version already stored), then the version.
   const id = randomUUID();
-  // The same block encoding and COPY the upload check uses (server/src/services/cohortBlocks.ts).
+  // The same block encoding and COPY the upload check uses (server/src/domain/cohorts/cohortBlocks.ts).
   const first = rows[0]?.predictors ?? {};
   const num = Object.keys(first).filter((k) => typeof first[k] === 'number');
   const cat = Object.keys(first).filter((k) => typeof first[k] !== 'number');

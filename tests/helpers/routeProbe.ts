@@ -1,9 +1,9 @@
-// Helpers for suites that walk every route in server/src/routes/table.ts (access control, injection, fuzz).
+// Helpers for suites that walk every route in server/src/http/routes/table.ts (access control, injection, fuzz).
 import { randomUUID } from 'node:crypto';
 import type { Role } from '@shared/roles';
 import { ROLES } from '@shared/roles';
-import type { Access, RouteDef } from '../../server/src/routes/define';
-import { routes } from '../../server/src/routes/table';
+import type { Access, RouteDef } from '../../server/src/http/routes/define';
+import { routes } from '../../server/src/http/routes/table';
 
 export { routes };
 export type { RouteDef };

@@ -2,10 +2,10 @@
 // the run worker thread (which reads the cohort itself, through its own connection) and inline, and prints both
 // result hashes and input hashes, so the thread start-up and its own loading are proven outside vitest too.
 import 'reflect-metadata';
-import { closeDatabase, initDatabase } from '../../server/src/db/dataSource';
-import { computeRunResults, resultsSha256 } from '../../server/src/services/runCompute';
-import { loadRunInput } from '../../server/src/services/runInput';
-import { computeInThread, stopPools } from '../../server/src/workers/pool';
+import { closeDatabase, initDatabase } from '../../server/src/platform/database/dataSource';
+import { computeRunResults, resultsSha256 } from '../../server/src/domain/runs/runCompute';
+import { loadRunInput } from '../../server/src/domain/runs/runInput';
+import { computeInThread, stopPools } from '../../server/src/jobs/threads/pool';
 import { runSettingsSchema } from '../../shared/src/runs';
 import { createCohortFixture, createScoreFixture, kestrelRows } from './fixtures';
 

@@ -1,8 +1,8 @@
 // The de-identification screen, one case per HIPAA Safe Harbor category (45 CFR §164.514(b)(2)) plus the allowed forms.
 import { describe, expect, it } from 'vitest';
 import { neutraliseFormula as neutraliseCell } from '@shared/csv';
-import { ageOver89, cellRules, looksLikeFormula, personName, screenColumns, sixDigitDate, valueIdentifier } from '../../server/src/services/deidentify';
-import { periodStart } from '../../server/src/services/uploads';
+import { ageOver89, cellRules, looksLikeFormula, personName, screenColumns, sixDigitDate, valueIdentifier } from '../../server/src/domain/cohorts/deidentify';
+import { periodStart } from '../../server/src/domain/cohorts/uploads';
 
 const rows = (n: number, f: (i: number) => string) => Array.from({ length: n }, (_, i) => [f(i)]);
 const refusedCategory = (header: string, values: (i: number) => string, n = 30) => screenColumns([header], rows(n, values)).refused.map((r) => r.category);

@@ -6,11 +6,11 @@
 import 'reflect-metadata';
 import { parseArgs } from 'node:util';
 import { createUserRequest } from '@shared/auth';
-import { config, DEMO_PASSWORD } from '../config';
-import { closeDatabase, dataSource, initDatabase } from '../db/dataSource';
-import { User } from '../entities/User';
-import { appendAudit } from '../services/audit';
-import { hashPassword } from '../services/users';
+import { config, DEMO_PASSWORD } from '../platform/config';
+import { closeDatabase, dataSource, initDatabase } from '../platform/database/dataSource';
+import { User } from '../platform/database/entities/User';
+import { appendAudit } from '../domain/accounts/audit';
+import { hashPassword } from '../domain/accounts/users';
 
 const USAGE = 'usage: admin:create --email ADDRESS --name "FULL NAME"   (password from PLUMBLINE_ADMIN_PASSWORD or the first line of stdin)';
 

@@ -5,7 +5,7 @@ import { access, stat } from 'node:fs/promises';
 import type { ScoreModel } from '@shared/model';
 import { parseDecimal } from '@shared/decimal';
 import { linearPredictorRow } from '../stats/applyModel';
-import { csvBatches, LineNumbers } from '../services/csvFile';
+import { csvBatches, LineNumbers } from '../domain/cohorts/csvFile';
 
 export class CsvInputError extends Error {
   constructor(

@@ -5,7 +5,7 @@
  * Choices: replicate r draws from its own stream, mulberry32 seeded with splitmix32(seed ⊕ r·golden), so the result
  * is the same for the same seed however replicates are split across workers; a replicate whose resample cannot be
  * validated (e.g. no events) or whose fit fails counts as failed for that metric and is left out, with the count
- * reported. Pure: the thread pool that spreads it lives in server/src/workers/pool.ts.
+ * reported. Pure: the thread pool that spreads it lives in server/src/jobs/threads/pool.ts.
  */
 import type { Estimate, ValidationResult, ValidationSettings } from '@shared/validation';
 import { computeFullSet } from './fullSet';

@@ -1,7 +1,7 @@
 /**
  * Plumbline's validation engine: `validate(p, y, settings)` returns every metric of a ValidationResult.
  * Pure (no I/O); each metric lives in its own file here with its formula and source. For a bootstrap across worker
- * threads use bootstrapInWorkers from server/src/workers/pool.ts.
+ * threads use bootstrapInWorkers from server/src/jobs/threads/pool.ts.
  */
 import type { ValidationResult, ValidationSettings } from '@shared/validation';
 import { bootstrap } from './bootstrap';

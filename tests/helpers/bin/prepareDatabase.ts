@@ -1,7 +1,7 @@
 // Migrates the database named by the PG* variables and creates the demo accounts (no demo scenario), then exits.
 import 'reflect-metadata';
-import { closeDatabase, initDatabase } from '../../../server/src/db/dataSource';
-import { seedAccounts } from '../../../server/src/db/seeds/accounts';
+import { closeDatabase, initDatabase } from '../../../server/src/platform/database/dataSource';
+import { seedAccounts } from '../../../server/src/demo/seeds/accounts';
 
 await initDatabase(true);
 await seedAccounts();

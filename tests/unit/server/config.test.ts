@@ -1,8 +1,8 @@
-// Settings are read and checked once (server/src/config.ts): a bad value names its variable; production refuses
+// Settings are read and checked once (server/src/platform/config.ts): a bad value names its variable; production refuses
 // missing, development or weak signing secrets.
 import { randomBytes } from 'node:crypto';
 import { describe, expect, it } from 'vitest';
-import { ConfigError, DEV_JWT_SECRET, jwtSecretProblem, loadConfig } from '../../../server/src/config';
+import { ConfigError, DEV_JWT_SECRET, jwtSecretProblem, loadConfig } from '../../../server/src/platform/config';
 
 const fails = (env: Record<string, string>) => {
   try {

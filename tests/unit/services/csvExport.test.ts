@@ -2,7 +2,7 @@
 import Papa from 'papaparse';
 import { execFileSync } from 'node:child_process';
 import { describe, expect, it } from 'vitest';
-import { csvCellText, csvRecords, neutraliseFormula, toCsv, type CsvCell } from '../../../server/src/services/csvExport';
+import { csvCellText, csvRecords, neutraliseFormula, toCsv, type CsvCell } from '../../../server/src/domain/cohorts/csvExport';
 
 const csvCell = (v: CsvCell) => csvRecords([[v]]).replace(/\r\n$/, '');
 

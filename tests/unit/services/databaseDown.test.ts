@@ -1,6 +1,6 @@
 // Which driver errors count as "the database is unavailable" (503) rather than an internal error (500).
 import { describe, expect, it } from 'vitest';
-import { isDatabaseDown } from '../../../server/src/middleware/errors';
+import { isDatabaseDown } from '../../../server/src/http/middleware/errors';
 
 describe('isDatabaseDown', () => {
   // SQLSTATE classes from the PostgreSQL manual, Appendix A (class 08 connection exception, 57P operator intervention).

@@ -2,7 +2,7 @@
 import { describe, expect, it } from 'vitest';
 import { defaultRunSettings } from '@shared/runs';
 import { periodGroupingOf } from '@shared/periodGrouping';
-import { bootstrapProgressText, computeRunResults } from '../../../server/src/services/runCompute';
+import { bootstrapProgressText, computeRunResults } from '../../../server/src/domain/runs/runCompute';
 import { mulberry32 } from '../../../server/src/stats/bootstrap';
 
 function cohort(n: number) {

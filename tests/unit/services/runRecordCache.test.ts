@@ -1,9 +1,9 @@
-// The in-memory records of completed runs (server/src/services/runRecordCache.ts): only a completed record is kept,
+// The in-memory records of completed runs (server/src/domain/runs/runRecordCache.ts): only a completed record is kept,
 // concurrent first reads share one load, a kept record cannot be changed by a caller, and a failed load is not kept.
 // Common practice, no source: the rule being tested is the project's own (completed runs are immutable).
 import { beforeEach, describe, expect, it } from 'vitest';
-import type { ValidationRun } from '../../../server/src/entities/ValidationRun';
-import { clearRunRecordCache, completedRunRecord } from '../../../server/src/services/runRecordCache';
+import type { ValidationRun } from '../../../server/src/platform/database/entities/ValidationRun';
+import { clearRunRecordCache, completedRunRecord } from '../../../server/src/domain/runs/runRecordCache';
 
 const record = (id: string, status: string) => ({ id, status, results: { overall: { n: 10, auc: { estimate: 0.7 } } }, settings: { subgroupColumns: [] } }) as unknown as ValidationRun;
 

@@ -5,7 +5,7 @@ import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
-import { checkUploadRows, type CheckInput } from '../../../server/src/services/uploadCheck';
+import { checkUploadRows, type CheckInput } from '../../../server/src/domain/cohorts/uploadCheck';
 
 const dir = mkdtempSync(path.join(tmpdir(), 'plumbline-check-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
@@ -163,7 +163,7 @@ describe('row checks: unusual cells give the same result with and without quotes
 
 describe('the screen sample is what the row checks read', () => {
   it('with a BOM, CRLF and LF lines, empty lines, ragged rows and non-ASCII text, with and without quotes', async () => {
-    const { readHeaderAndSample } = await import('../../../server/src/services/csvFile');
+    const { readHeaderAndSample } = await import('../../../server/src/domain/cohorts/csvFile');
     const body = rows();
     body.splice(5, 0, '', '46,2,no,no,2025-03,Ålesund ward,n2', '47,2,no');
     const expected = { headers: HEADER, sample: body.filter((l) => l !== '').slice(0, 5000).map((l) => l.split(',')) };

@@ -3,7 +3,7 @@ import { describe, expect, it } from 'vitest';
 import { EngineInputError, validate } from '../../../server/src/stats/index';
 import { applyModel, rcsTerm } from '../../../server/src/stats/applyModel';
 import { checkInputs } from '../../../server/src/stats/checkInputs';
-import { bootstrapInWorkers } from '../../../server/src/workers/pool';
+import { bootstrapInWorkers } from '../../../server/src/jobs/threads/pool';
 import { resolveSettings } from '../../../server/src/stats/fullSet';
 
 const f = (a: number[]) => Float64Array.from(a);

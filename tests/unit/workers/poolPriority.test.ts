@@ -1,12 +1,12 @@
-// The worker pools lower their threads' CPU priority (server/src/workers/pool.ts, piscina's niceIncrement) so the API
+// The worker pools lower their threads' CPU priority (server/src/jobs/threads/pool.ts, piscina's niceIncrement) so the API
 // thread gets a core first. Checked against the kernel's own record (/proc/self/task/<tid>/stat, proc(5)): after pool
 // tasks ran, this process has threads at the lowered nice value, and the calling thread keeps its own. Linux only.
 import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import { afterAll, describe, expect, it } from 'vitest';
 import { resolveSettings } from '../../../server/src/stats/fullSet';
 import { validate } from '../../../server/src/stats/index';
-import { WORKER_NICE } from '../../../server/src/workers/sessionPriority';
-import { bootstrapInWorkers, precisionInPool, stopPools } from '../../../server/src/workers/pool';
+import { WORKER_NICE } from '../../../server/src/jobs/threads/sessionPriority';
+import { bootstrapInWorkers, precisionInPool, stopPools } from '../../../server/src/jobs/threads/pool';
 import { threadNice } from '../../helpers/threadNice';
 
 const linux = process.platform === 'linux' && existsSync('/proc/self/task');

@@ -1,0 +1,102 @@
+// Stored cohorts and their immutable versions: lists, details, rows with server-side paging, saved mappings.
+import type { ColumnMappingSpec } from '@shared/cohorts';
+import { periodLabel, type PeriodKind } from '@shared/periods';
+import { dataSource } from '../../platform/database/dataSource';
+import type { AuthUser } from '../accounts/actor';
+import { invalid, notFound } from '../errors';
+import { cohortVersionAdequacy } from '../runs/adequacy';
+import { appendAudit } from '../accounts/audit';
+import { browseRows } from '../../jobs/threads/pool';
+
+const SORTS: Record<string, string> = { name: 'c.name', createdAt: 'c.created_at', versions: 'versions', latestRows: 'latest_rows' };
+
+export async function listCohorts(q: { page: number; pageSize: number; search?: string; sortBy: string; sortDir: 'asc' | 'desc' }) {
+  const where = q.search ? `WHERE c.name ILIKE $3 OR c.description ILIKE $3` : '';
+  const params: unknown[] = [q.pageSize, (q.page - 1) * q.pageSize];
+  if (q.search) params.push(`%${q.search.replace(/[%_\\]/g, (m) => `\\${m}`)}%`);
+  const rows = await dataSource.query(
+    `SELECT c.id, c.name, c.description, c.score_id AS "scoreId", c.created_at AS "createdAt",
+       (SELECT count(*)::int FROM cohort_versions v WHERE v.cohort_id = c.id) AS versions,
+       lv.version AS "latestVersion", lv.label AS "latestLabel", lv.row_count AS latest_rows, lv.events AS "latestEvents", lv.created_at AS "latestAt"
+     FROM cohorts c
+     LEFT JOIN LATERAL (SELECT version, label, row_count, events, created_at FROM cohort_versions v WHERE v.cohort_id = c.id ORDER BY version DESC LIMIT 1) lv ON true
+     ${where}
+     ORDER BY ${SORTS[q.sortBy]} ${q.sortDir === 'asc' ? 'ASC' : 'DESC'} NULLS LAST, c.id
+     LIMIT $1 OFFSET $2`,
+    params,
+  );
+  const [{ n }] = await dataSource.query(`SELECT count(*)::int AS n FROM cohorts c ${q.search ? 'WHERE c.name ILIKE $1 OR c.description ILIKE $1' : ''}`, q.search ? [params[2]] : []);
+  return { cohorts: rows.map(({ latest_rows, ...r }: Record<string, unknown>) => ({ ...r, latestRows: latest_rows })), total: n as number, page: q.page, pageSize: q.pageSize };
+}
+
+const VERSION_COLUMNS = `v.id, v.cohort_id AS "cohortId", v.version, v.label, to_char(v.period_start, 'YYYY-MM-DD') AS "periodStart",
+  to_char(v.period_end, 'YYYY-MM-DD') AS "periodEnd", v.source_filename AS "sourceFilename", v.source_sha256 AS "sourceSha256",
+  v.source_bytes::float8 AS "sourceBytes", v.row_count AS "rowCount", v.events, v.excluded_count AS "excludedCount", v.exclusions,
+  v.mapping, v.uploaded_by AS "uploadedBy", u.name AS "uploadedByName", v.created_at AS "createdAt"`;
+
+export async function getCohort(id: string) {
+  const rows = await dataSource.query(`SELECT id, name, description, score_id AS "scoreId", created_at AS "createdAt" FROM cohorts WHERE id = $1`, [id]);
+  if (!rows.length) throw notFound('cohort');
+  const versions = await dataSource.query(
+    `SELECT ${VERSION_COLUMNS} FROM cohort_versions v LEFT JOIN users u ON u.id = v.uploaded_by WHERE v.cohort_id = $1 ORDER BY v.version DESC`,
+    [id],
+  );
+  return { cohort: rows[0], versions };
+}
+
+/** One version as the API returns it, with `adequacy`: is it big enough, and how precise would a run on it be? */
+export async function getCohortVersion(cohortId: string, version: number) {
+  const v = await readCohortVersion(cohortId, version);
+  return { ...v, adequacy: await cohortVersionAdequacy(v) };
+}
+
+async function readCohortVersion(cohortId: string, version: number) {
+  const rows = await dataSource.query(
+    `SELECT ${VERSION_COLUMNS}, v.column_summary AS "columnSummary" FROM cohort_versions v LEFT JOIN users u ON u.id = v.uploaded_by
+     WHERE v.cohort_id = $1 AND v.version = $2`,
+    [cohortId, version],
+  );
+  if (!rows.length) throw notFound('cohort version');
+  return rows[0];
+}
+
+/** Rows of one version, paged and sorted; sort keys are line_no, outcome, event_date, or a predictor/subgroup key. */
+export async function listCohortRows(cohortId: string, version: number, q: { page: number; pageSize: number; search?: string; sortBy: string; sortDir: 'asc' | 'desc' }) {
+  const v = await readCohortVersion(cohortId, version);
+  const mapping = v.mapping as ColumnMappingSpec;
+  const predictorKeys = Object.keys(mapping.predictors ?? {});
+  const subgroupKeys = Object.keys(mapping.subgroups ?? {});
+  if (!['line_no', 'outcome', 'event_date', ...predictorKeys, ...subgroupKeys].includes(q.sortBy)) {
+    throw invalid(`cannot sort by "${q.sortBy}"; use line_no, outcome, event_date, a predictor or a subgroup`);
+  }
+  // Loading, sorting and searching happen in the row browser's thread, once per version and order; here only a page.
+  // Rows store a period's first day; they show the label the file had (2026-Q2) when the version's periods share one kind.
+  const periodKind = (v.mapping as { periodKind?: PeriodKind | null }).periodKind ?? null;
+  const browsed = await browseRows({ cohortVersionId: v.id, rowCount: Number(v.rowCount), sortBy: q.sortBy, sortDir: q.sortDir, search: q.search, periodKind, page: q.page, pageSize: q.pageSize });
+  const rows = browsed.rows.map((r) => ({ ...r, period: periodLabel(r.eventDate, periodKind) }));
+  return { rows, total: browsed.total, page: q.page, pageSize: q.pageSize, predictorKeys, subgroupKeys };
+}
+
+export async function listMappings(cohortId?: string) {
+  return dataSource.query(
+    `SELECT id, name, cohort_id AS "cohortId", mapping, created_at AS "createdAt" FROM column_mappings
+     WHERE ($1::uuid IS NULL OR cohort_id = $1 OR cohort_id IS NULL) ORDER BY created_at DESC LIMIT 200`,
+    [cohortId ?? null],
+  );
+}
+
+export async function saveMapping(actor: AuthUser, body: { name: string; cohortId?: string | null; mapping: ColumnMappingSpec }, ip: string) {
+  if (body.cohortId) {
+    const found = await dataSource.query('SELECT id FROM cohorts WHERE id = $1', [body.cohortId]);
+    if (!found.length) throw notFound('cohort');
+  }
+  return dataSource.transaction(async (m) => {
+    const [row] = await m.query(
+      `INSERT INTO column_mappings (name, cohort_id, mapping, created_by) VALUES ($1, $2, $3, $4)
+       RETURNING id, name, cohort_id AS "cohortId", mapping, created_at AS "createdAt"`,
+      [body.name, body.cohortId ?? null, JSON.stringify(body.mapping), actor.id],
+    );
+    await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.mapping.saved', targetType: 'column_mapping', targetId: row.id, sourceIp: ip, details: { name: body.name } }, m);
+    return row;
+  });
+}

@@ -1,0 +1,88 @@
+// The rejected rows of a checked upload as a CSV the steward can fix and upload again: one record per rejected line,
+// its reasons, and the values of the mapped columns only (read back from the upload's own temp file, which the
+// screen has already passed; unmapped columns and the text of rows with the wrong number of fields are never sent).
+import type { ColumnMappingSpec } from '@shared/cohorts';
+import { csvRecords } from '@shared/csv';
+import { dataSource } from '../../platform/database/dataSource';
+import { csvBatches, LineNumbers, type Delimiter } from './csvFile';
+
+/** The file columns a mapping reads, in the file's order (the only columns a download may carry). */
+export function mappedColumns(headers: string[], mapping: ColumnMappingSpec): string[] {
+  const used = new Set<string>([...Object.values(mapping.predictors), mapping.outcome.column, ...(mapping.date ? [mapping.date.column] : []), ...Object.values(mapping.subgroups)]);
+  return headers.filter((h) => used.has(h));
+}
+
+interface Rejected {
+  reasons: string[];
+  /** A row with the wrong number of fields: its text is never sent. */
+  ragged: boolean;
+  values: string[] | null;
+}
+
+/** Rejected lines (the stored rejections, at most MAX_STORED_REJECTIONS cells), with their reasons joined per line. */
+async function rejectedLines(uploadId: string): Promise<Map<number, Rejected>> {
+  const rows: { line: number; column: string; reason: string }[] = await dataSource.query(
+    'SELECT line_no AS line, column_name AS column, reason FROM cohort_upload_rejections WHERE upload_id = $1 ORDER BY line_no, column_name',
+    [uploadId],
+  );
+  const out = new Map<number, Rejected>();
+  for (const r of rows) {
+    const e = out.get(r.line) ?? { reasons: [], ragged: false, values: null };
+    e.reasons.push(r.column === '(row)' ? r.reason : `${r.column}: ${r.reason}`);
+    if (r.column === '(row)') e.ragged = true;
+    out.set(r.line, e);
+  }
+  return out;
+}
+
+export interface RejectedRowsSource {
+  uploadId: string;
+  tempPath: string | null;
+  delimiter: Delimiter;
+  headers: string[];
+  mapping: ColumnMappingSpec | null;
+}
+
+/** The CSV: `line`, `reason`, then the mapped columns under their file names, so the fixed rows map the same way. */
+export async function* rejectedRowsCsv(src: RejectedRowsSource): AsyncGenerator<string> {
+  const columns = src.mapping ? mappedColumns(src.headers, src.mapping) : [];
+  yield csvRecords([['line', 'reason', ...columns]]);
+  const lines = await rejectedLines(src.uploadId);
+  if (!lines.size) return;
+  const idx = columns.map((c) => src.headers.indexOf(c));
+  const last = Math.max(...lines.keys());
+  if (src.tempPath && columns.length) {
+    // Line numbers are counted as the row checks count them (uploadCheck.ts): quoted line breaks included, empty lines skipped.
+    const numbers = new LineNumbers();
+    let first = true;
+    const batches = csvBatches(src.tempPath, src.delimiter);
+    try {
+      outer: for await (const records of batches) {
+        for (const record of records) {
+          const line = numbers.next(record, records.quoted);
+          if (!line) continue;
+          if (first) { first = false; continue; }
+          if (line > last) break outer;
+          const e = lines.get(line);
+          if (e && !e.ragged && record.length === src.headers.length) e.values = idx.map((i) => record[i].trim());
+        }
+      }
+    } catch {
+      // The temp file went (discarded meanwhile) or cannot be read: the lines and reasons are still sent.
+    } finally {
+      await batches.return(undefined);
+    }
+  }
+  const out: (string | number)[][] = [];
+  for (const [line, e] of [...lines.entries()].sort((a, b) => a[0] - b[0])) {
+    out.push([line, e.reasons.join('; '), ...(e.values ?? columns.map(() => ''))]);
+    if (out.length === 5000) yield csvRecords(out.splice(0));
+  }
+  if (out.length) yield csvRecords(out);
+}
+
+/** The distinct rejected line numbers of an upload (for a commit that excludes chosen rows). */
+export async function rejectedLineNumbers(uploadId: string): Promise<number[]> {
+  const rows: { line: number }[] = await dataSource.query('SELECT DISTINCT line_no AS line FROM cohort_upload_rejections WHERE upload_id = $1 ORDER BY line_no', [uploadId]);
+  return rows.map((r) => r.line);
+}

@@ -1,0 +1,600 @@
+// Cohort uploads: screen → map and check rows → store (one transaction, COPY) or discard.
+import type { PeriodKind } from '@shared/periods';
+import { codingIssues, predictorViews } from './codingCheck';
+import { randomUUID } from 'node:crypto';
+import { readdir, stat, unlink } from 'node:fs/promises';
+import { tmpdir } from 'node:os';
+import path from 'node:path';
+import type { ColumnMappingSpec, ScreenFinding, UploadFields, UploadStatus, UploadView } from '@shared/cohorts';
+import { columnMapping } from '@shared/cohorts';
+import type { ScoreModel } from '@shared/model';
+import { config } from '../../platform/config';
+import { dataSource } from '../../platform/database/dataSource';
+import { In, IsNull, Not } from 'typeorm';
+import { CohortUpload } from '../../platform/database/entities/CohortUpload';
+import { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
+import { conflict, DomainError, invalid, notFound, refused } from '../errors';
+import type { AuthUser } from '../accounts/actor';
+import type { UploadWorkerData } from '../../jobs/threads/uploadWorker';
+import { appendAudit } from '../accounts/audit';
+import type { Delimiter } from './csvFile';
+import { toCsv } from '@shared/csv';
+import { maskPreview } from './deidentify';
+import { drainJobs, enqueue, JOB, jobWorkersRunning, type JobHandler } from '../../jobs/queue';
+import { checkInThread, screenInThread, warmUploadThreads } from '../../jobs/threads/pool';
+import { rejectedLineNumbers, rejectedRowsCsv } from './rejectedRows';
+import type { RequiredPredictor } from './uploadCheck';
+import { logger } from '../../platform/observability/log';
+import { timeJob } from '../../platform/observability/metrics';
+
+export { periodStart } from './uploadCheck';
+
+/** Where received files wait between screening and storing (PLUMBLINE_UPLOAD_DIR). */
+export const uploadDir = config.uploadDir ?? path.join(tmpdir(), 'plumbline-uploads');
+export type { RequiredPredictor };
+
+export interface ReceivedFile {
+  path: string;
+  originalName: string;
+  sha256: string;
+  bytes: number;
+}
+
+
+/** The columns a score version reads from a cohort, one entry per distinct column. */
+export function requiredPredictors(sv: Pick<ScoreVersion, 'mode' | 'model' | 'probabilityColumn'>): RequiredPredictor[] {
+  if (sv.mode === 'supplied') return [{ column: sv.probabilityColumn!, kind: 'numeric', positiveOnly: false }];
+  const out = new Map<string, RequiredPredictor>();
+  for (const p of (sv.model as ScoreModel).predictors) {
+    const prev = out.get(p.column) ?? { column: p.column, kind: 'text' as const, positiveOnly: false };
+    if (p.transform !== 'indicator') prev.kind = 'numeric';
+    if (p.transform === 'log') prev.positiveOnly = true;
+    out.set(p.column, prev);
+  }
+  return [...out.values()];
+}
+
+/** The header of a cohort file for a score version: its predictor columns, the outcome and the period (as suggestMapping reads them). */
+export function cohortTemplateCsv(sv: Pick<ScoreVersion, 'mode' | 'model' | 'probabilityColumn'>): string {
+  return toCsv([...requiredPredictors(sv).map((p) => p.column), 'outcome', 'period'], []);
+}
+
+async function loadScoreVersion(id: string): Promise<ScoreVersion> {
+  const sv = await dataSource.getRepository(ScoreVersion).findOne({ where: { id } });
+  if (!sv) throw notFound('score version');
+  return sv;
+}
+
+const normName = (s: string) => s.toLowerCase().replace(/[^a-z0-9]/g, '');
+
+/** A first guess the steward corrects: same names, usual outcome and period columns, usual subgroup names. */
+export function suggestMapping(headers: string[], sample: string[][], required: RequiredPredictor[]): ColumnMappingSpec {
+  const byNorm = new Map(headers.map((h) => [normName(h), h]));
+  const find = (...names: string[]) => {
+    for (const n of names) if (byNorm.has(normName(n))) return byNorm.get(normName(n))!;
+    return headers.find((h) => names.some((n) => normName(h).includes(normName(n))));
+  };
+  const predictors: Record<string, string> = {};
+  for (const r of required) {
+    const h = byNorm.get(normName(r.column)) ?? headers.find((x) => normName(x).includes(normName(r.column)));
+    if (h) predictors[r.column] = h;
+  }
+  const outcomeCol = find('outcome', 'readmitted_30d', 'readmitted', 'readmission', 'event', 'died', 'death', 'y') ?? headers[0];
+  const idx = headers.indexOf(outcomeCol);
+  const levels = new Set(sample.map((r) => (r[idx] ?? '').trim().toLowerCase()).filter(Boolean));
+  let positive = ['1'];
+  let negative = ['0'];
+  if ([...levels].some((l) => l === 'yes' || l === 'no')) [positive, negative] = [['yes'], ['no']];
+  else if ([...levels].some((l) => l === 'true' || l === 'false')) [positive, negative] = [['true'], ['false']];
+  const dateCol = headers.find((h) => /date|month|quarter|period/i.test(h));
+  const subgroups: Record<string, string> = {};
+  for (const [name, aliases] of [
+    ['sex', ['sex', 'gender']],
+    ['age_band', ['age_band', 'ageband', 'age_group']],
+    ['unit', ['unit', 'ward']],
+    ['site', ['site', 'campus']],
+  ] as const) {
+    const h = find(...aliases);
+    if (h && !Object.values(predictors).includes(h)) subgroups[name] = h;
+  }
+  return columnMapping.parse({ predictors, outcome: { column: outcomeCol, positive, negative }, date: dateCol ? { column: dateCol } : null, subgroups });
+}
+
+async function removeQuietly(path: string | null | undefined) {
+  if (path) await unlink(path).catch(() => undefined);
+}
+
+
+/** Step 1: screen the received file; refuse (422, file deleted) or keep it as a pending upload. */
+export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: UploadFields, ip: string) {
+  try {
+    const sv = await loadScoreVersion(fields.scoreVersionId);
+    if (fields.cohortId) {
+      const found = await dataSource.query('SELECT id FROM cohorts WHERE id = $1', [fields.cohortId]);
+      if (!found.length) throw notFound('cohort');
+    } else {
+      const found: { id: string; name: string }[] = await dataSource.query('SELECT id, name FROM cohorts WHERE lower(name) = lower($1)', [fields.cohortName]);
+      // Said in words; the details let the client offer "add as a new version of" that cohort.
+      if (found.length) throw conflict(`a cohort named "${found[0].name}" already exists: add this file as a new version of "${found[0].name}", or choose another name for a new cohort`, { existingCohort: { id: found[0].id, name: found[0].name } });
+    }
+    // Parsing the sample and running the screen's patterns is CPU work: done in an upload thread, off the API's loop.
+    const looked = await screenInThread(file.path);
+    if (looked.type === 'refused-file') throw new DomainError(looked.kind, looked.message, looked.details);
+    if (looked.type === 'error') throw new Error(looked.message);
+    const { delimiter, headers, sample, screen } = looked;
+    if (screen.refused.length) {
+      await appendAudit({
+        actorId: actor.id,
+        actorEmail: actor.email,
+        action: 'cohort.upload.refused',
+        targetType: 'cohort_upload',
+        sourceIp: ip,
+        details: { filename: file.originalName, sha256: file.sha256, columns: screen.refused.map((f) => ({ column: f.column, category: f.category })) },
+      });
+      throw refused(`the file was refused by the de-identification screen: ${screen.refused.length} column(s) look like direct identifiers; nothing was stored`, {
+        columns: screen.refused,
+      });
+    }
+    const required = requiredPredictors(sv);
+    const suggested = suggestMapping(headers, sample, required);
+    const [row] = await dataSource.query(
+      `INSERT INTO cohort_uploads (status, cohort_id, cohort_name, score_version_id, label, period_start, period_end, source_filename, temp_path,
+         sha256, bytes, delimiter, headers, warnings, suggested_mapping, created_by)
+       VALUES ('pending', $1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15) RETURNING id`,
+      [fields.cohortId ?? null, fields.cohortId ? null : fields.cohortName, sv.id, fields.label ?? '', fields.periodStart ?? null, fields.periodEnd ?? null,
+        file.originalName.slice(0, 255), file.path, file.sha256, file.bytes, delimiter, JSON.stringify(headers), JSON.stringify(screen.warnings), JSON.stringify(suggested), actor.id],
+    );
+    await appendAudit({
+      actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.received', targetType: 'cohort_upload', targetId: row.id, sourceIp: ip,
+      details: { filename: file.originalName, sha256: file.sha256, bytes: file.bytes, columns: headers.length },
+    });
+    return { upload: await getUpload(row.id), preview: maskPreview(headers, sample.slice(0, 5)) };
+  } catch (err) {
+    await removeQuietly(file.path);
+    throw err;
+  }
+}
+
+const uploads = () => dataSource.getRepository(CohortUpload);
+
+async function uploadRow(id: string): Promise<CohortUpload> {
+  const row = await uploads().findOneBy({ id });
+  if (!row) throw notFound('upload');
+  return row;
+}
+
+const pause = (ms: number) => new Promise<void>((r) => setTimeout(r, ms));
+
+/** An upload; with `waitSeconds`, an upload being checked is answered when its check ends (or after that long). */
+export async function getUpload(id: string, waitSeconds = 0): Promise<UploadView> {
+  // The check may run in another process: its row is what every process shares.
+  const deadline = Date.now() + waitSeconds * 1000;
+  let r = await uploadRow(id);
+  while (r.status === 'processing' && Date.now() < deadline) {
+    await pause(Math.min(250, Math.max(1, deadline - Date.now())));
+    r = await uploadRow(id);
+  }
+  const sv = await dataSource.getRepository(ScoreVersion).findOne({ where: { id: r.scoreVersionId } });
+  const views = sv ? predictorViews(sv, r.mapping ?? r.suggestedMapping) : [];
+  return {
+    id: r.id, status: r.status, cohortId: r.cohortId, cohortName: r.cohortName, scoreVersionId: r.scoreVersionId, label: r.label,
+    periodStart: r.periodStart, periodEnd: r.periodEnd, sourceFilename: r.sourceFilename, sha256: r.sha256, bytes: Number(r.bytes),
+    delimiter: r.delimiter, headers: r.headers, warnings: r.warnings, suggestedMapping: r.suggestedMapping, mapping: r.mapping,
+    progress: r.progress, rowsRead: r.rowsRead, rowsAccepted: r.rowsAccepted, rowsRejected: r.rowsRejected, events: r.events,
+    rejectionCounts: r.rejectionCounts, columnSummary: r.columnSummary, cohortVersionId: r.cohortVersionId, error: r.error,
+    createdAt: new Date(r.createdAt).toISOString(), requiredPredictors: views,
+    codingIssues: r.status === 'checked' ? codingIssues(views, r.mapping, r.columnSummary) : [],
+  };
+}
+
+/** Uploads are private to their uploader (the admin's role reaches no upload route: COHORT_WRITERS in http/routes/table.ts); others get 404, not a hint. */
+export async function assertOwner(actor: AuthUser, id: string): Promise<void> {
+  const r = await uploadRow(id);
+  if (r.createdBy !== actor.id) throw notFound('upload');
+}
+
+// ---- Step 2: mapping and the full pass over the file ----------------------------------------------------------
+
+/** Checks under way in this process (a discard waits for its own; the sweep leaves them alone). */
+const running = new Map<string, Promise<void>>();
+
+/**
+ * For tests and the seed: resolves when the upload is no longer being checked. A process without job workers checks
+ * the waiting uploads itself (drainJobs); one with workers waits for them.
+ */
+export async function whenProcessed(id: string): Promise<void> {
+  for (;;) {
+    const local = running.get(id);
+    if (local) await local.catch(() => undefined);
+    const row = await uploads().findOne({ where: { id }, select: { id: true, status: true } });
+    if (!row || row.status !== 'processing') return;
+    if (jobWorkersRunning()) await pause(100);
+    else if ((await drainJobs(JOB.uploadCheck, uploadCheckJob)) === 0) await pause(100);
+  }
+}
+
+export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnMappingSpec, ip: string, saveAs?: string): Promise<UploadView> {
+  const r = await uploadRow(id);
+  if (!['pending', 'checked', 'failed'].includes(r.status) || !r.tempPath) throw conflict(`this upload is ${r.status}; mapping is possible only before it is stored`);
+  const sv = await loadScoreVersion(r.scoreVersionId);
+  const problems: string[] = [];
+  const has = (c: string) => r.headers.includes(c);
+  for (const p of requiredPredictors(sv)) {
+    const col = mapping.predictors[p.column];
+    if (!col) problems.push(`predictor "${p.column}" is not mapped to a file column`);
+    else if (!has(col)) problems.push(`predictor "${p.column}": the file has no column "${col}"`);
+  }
+  for (const k of Object.keys(mapping.predictors)) if (!requiredPredictors(sv).some((p) => p.column === k)) problems.push(`"${k}" is not a predictor of this score version`);
+  // Label readings only for indicator columns, and only into the formula's levels (or '' for "none of them").
+  for (const [k, readings] of Object.entries(mapping.labels ?? {})) {
+    const levels = predictorViews(sv, mapping).find((p) => p.column === k)?.levels ?? [];
+    if (!levels.length) { problems.push(`"${k}" is not an indicator predictor of this score version, so its labels cannot be mapped`); continue; }
+    for (const [label, level] of Object.entries(readings)) if (level !== '' && !levels.includes(level)) problems.push(`${k}: "${label}" can only be read as ${levels.map((l) => `"${l}"`).join(', ')} or as none of them`);
+  }
+  if (!has(mapping.outcome.column)) problems.push(`outcome: the file has no column "${mapping.outcome.column}"`);
+  const pos = mapping.outcome.positive.map((s) => s.toLowerCase());
+  if (mapping.outcome.negative.some((n) => pos.includes(n.toLowerCase()))) problems.push('outcome: a label cannot be both positive and negative');
+  if (mapping.date && !has(mapping.date.column)) problems.push(`date: the file has no column "${mapping.date.column}"`);
+  for (const [name, col] of Object.entries(mapping.subgroups)) if (!has(col)) problems.push(`subgroup "${name}": the file has no column "${col}"`);
+  if (problems.length) throw invalid(`the mapping does not fit this file: ${problems.join('; ')}`, { problems });
+
+  const plannedVersionId = randomUUID();
+  await dataSource.transaction(async (m) => {
+    const [, changed] = await m.query(
+      `UPDATE cohort_uploads SET status = 'processing', mapping = $2, planned_version_id = $3, progress = 0, rows_read = 0, rows_accepted = 0, rows_rejected = 0, events = 0,
+         rejection_counts = '[]', column_summary = '{}', event_period = NULL, error = NULL, updated_at = now()
+       WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`,
+      [id, JSON.stringify(mapping), plannedVersionId],
+    );
+    if (changed !== 1) throw conflict('this upload changed meanwhile (checked again or stored from another window); reload it');
+    // A second mapping replaces the first pass: its staged rows and rejections go.
+    await deleteStagedRows(r.plannedVersionId, m);
+    await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
+    if (saveAs) await m.query('INSERT INTO column_mappings (name, cohort_id, mapping, created_by) VALUES ($1, $2, $3, $4)', [saveAs, r.cohortId, JSON.stringify(mapping), actor.id]);
+    await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.mapped', targetType: 'cohort_upload', targetId: id, sourceIp: ip, details: { mapping, savedAs: saveAs ?? null } }, m);
+    await enqueue(m, JOB.uploadCheck, { uploadId: id, plannedVersionId });
+  });
+  return getUpload(id);
+}
+
+/** The advisory-lock key of an upload check's lease (as a run's: dropped by PostgreSQL when its process dies). */
+const UPLOAD_LEASE_SQL = `hashtextextended('plumbline upload ' || $1::text, 0)`;
+
+/**
+ * The 'upload-check' job. Its lease makes a retry wait while a live process still checks the file; a retry of a
+ * check whose process died finds the upload still 'processing' (PostgreSQL rolled the dead check's transaction back,
+ * so nothing of it is stored) and checks it again. A job of an older mapping, or of an upload already checked, does nothing.
+ */
+export const uploadCheckJob: JobHandler<{ uploadId: string; plannedVersionId: string }> = async (job) => {
+  const { uploadId: id, plannedVersionId } = job.data;
+  const lease = dataSource.createQueryRunner();
+  await lease.connect();
+  try {
+    await lease.query(`SELECT pg_advisory_lock(${UPLOAD_LEASE_SQL})`, [id]);
+    const r = await uploadRow(id);
+    if (r.status !== 'processing' || r.plannedVersionId !== plannedVersionId || !r.mapping) return;
+    if (job.retryCount > 0) {
+      logger.warn({ uploadId: id, attempt: job.retryCount + 1 }, 'checking an upload again after its process stopped');
+      await deleteStagedRows(plannedVersionId);
+    }
+    const sv = await loadScoreVersion(r.scoreVersionId);
+    const pass = timeJob('upload_check', () => processUpload(id, sv, r.mapping!, plannedVersionId));
+    running.set(id, pass);
+    try {
+      await pass;
+    } finally {
+      running.delete(id);
+    }
+  } finally {
+    await lease.query('SELECT pg_advisory_unlock_all()').catch(() => undefined);
+    await lease.release();
+  }
+};
+
+/** The dead-letter job of a check cut off twice: the upload is marked failed; the steward maps it again. */
+export const uploadCheckAbandonedJob: JobHandler<{ uploadId: string; plannedVersionId: string }> = async (job) => {
+  const { uploadId: id, plannedVersionId } = job.data;
+  await dataSource.transaction(async (m) => {
+    const [, changed] = await m.query(
+      `UPDATE cohort_uploads SET status = 'failed', error = 'the server stopped while this file was being checked; nothing was stored — apply the mapping again to check it', updated_at = now()
+       WHERE id = $1 AND status = 'processing' AND planned_version_id = $2 AND pg_try_advisory_xact_lock(hashtextextended('plumbline upload ' || id::text, 0))`,
+      [id, plannedVersionId],
+    );
+    if (changed === 1) await deleteStagedRows(plannedVersionId, m);
+  });
+  logger.warn({ uploadId: id }, 'an upload check was cut off twice; marked failed');
+};
+
+/** The 'upload-sweep' job (a pg-boss schedule): uploads nobody finished are discarded after the keep period. */
+export const uploadSweepJob: JobHandler = async () => {
+  const n = await discardStaleUploads();
+  if (n) logger.info({ discarded: n }, 'discarded stale uploads');
+};
+
+/** What a discarded or expired upload forgets besides its rows and rejections: everything summarised from the file's cells. */
+const FORGET_DERIVED = `column_summary = '{}', event_period = NULL, rejection_counts = '[]', suggested_mapping = NULL, progress = 0`;
+
+/** Staged rows of an upload that never became a cohort version (re-mapped, discarded, failed). */
+async function deleteStagedRows(plannedVersionId: string | null, m: { query: (q: string, p: unknown[]) => Promise<unknown> } = dataSource) {
+  if (!plannedVersionId) return;
+  await m.query('DELETE FROM cohort_row_blocks WHERE cohort_version_id = $1 AND NOT EXISTS (SELECT 1 FROM cohort_versions WHERE id = $1)', [plannedVersionId]);
+}
+
+/** The full pass runs in a worker thread (server/src/jobs/threads/uploadWorker.ts); this side records progress and endings. */
+async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappingSpec, plannedVersionId: string): Promise<void> {
+  const r = await uploadRow(id);
+  const data: UploadWorkerData = {
+    uploadId: id, db: { ...config.db }, path: r.tempPath!, delimiter: r.delimiter, headers: r.headers, mapping,
+    predictors: requiredPredictors(sv), supplied: sv.mode === 'supplied', plannedVersionId, totalBytes: Number(r.bytes),
+  };
+  let lastWrite = 0;
+  let progressWrite: Promise<unknown> = Promise.resolve();
+  const ending = await checkInThread(data, (m) => {
+    if (Date.now() - lastWrite < 400) return;
+    lastWrite = Date.now();
+    // Only while still processing: the worker's own final update wins over a late progress write.
+    progressWrite = dataSource.query(`UPDATE cohort_uploads SET progress = $2, rows_read = $3, rows_rejected = $4, updated_at = now() WHERE id = $1 AND status = 'processing'`,
+      [id, m.fraction, m.rowsRead, m.rowsRejected]).catch(() => undefined);
+  });
+  await progressWrite;
+  if (ending.type === 'checked') return;
+  if (ending.type === 'refused') {
+    const refusal = ending.refusal;
+    await removeQuietly(r.tempPath);
+    await dataSource.transaction(async (m) => {
+      await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
+      const error = refusal.column === '(file)' ? `the file was refused: ${refusal.reason}; nothing was stored`
+        : `refused by the de-identification screen: column "${refusal.column}" ${refusal.reason}; nothing was stored`;
+      await m.query(`UPDATE cohort_uploads SET status = 'refused', temp_path = NULL, warnings = $2, error = $3, column_summary = '{}', event_period = NULL, updated_at = now() WHERE id = $1`,
+        [id, JSON.stringify([refusal]), error]);
+      await appendAudit({ action: 'cohort.upload.refused', actorId: r.createdBy, targetType: 'cohort_upload', targetId: id, details: { columns: [{ column: refusal.column, category: refusal.category }] } }, m);
+    });
+    return;
+  }
+  const message = ending.type === 'error' ? ending.message : 'unknown ending';
+  logger.error({ uploadId: id, reason: message }, 'checking an upload failed');
+  // The database's own message (table and constraint names) stays in the server log.
+  const shown = ending.type === 'error' && ending.database ? 'the database refused the rows or went away (details are in the server log); try again' : message;
+  // The check may have failed because PostgreSQL went away: then this write fails too, and is tried again until the
+  // database is back, so the upload never stays "processing" (a crash meanwhile is covered by the job's retry).
+  await untilStored(`marking upload ${id} failed`, async () => {
+    await deleteStagedRows(plannedVersionId);
+    await dataSource.query(`UPDATE cohort_uploads SET status = 'failed', error = $2, updated_at = now() WHERE id = $1 AND status = 'processing'`,
+      [id, `the file could not be processed: ${shown}; nothing was stored`]);
+  });
+}
+
+/** Runs a write until it succeeds, waiting 1 s, 2 s, 4 s … (at most 30 s) between tries; stops when the server stops. */
+async function untilStored(what: string, write: () => Promise<void>): Promise<void> {
+  for (let attempt = 0; ; attempt++) {
+    try {
+      await write();
+      if (attempt > 0) logger.info({ tries: attempt + 1 }, `${what}: done`);
+      return;
+    } catch (err) {
+      if (stopping) return;
+      if (attempt === 0) logger.warn({ err }, `${what} failed; trying again until the database answers`);
+      await new Promise((r) => setTimeout(r, Math.min(30_000, 1000 * 2 ** attempt)).unref());
+    }
+  }
+}
+let stopping = false;
+
+/**
+ * Uploads nobody finished (not stored, not discarded) are discarded after PLUMBLINE_UPLOAD_KEEP_DAYS without a change
+ * (default 14): their temp file and staged rows go, and the audit trail says so. Returns how many were discarded.
+ */
+export async function discardStaleUploads(keepDays = config.uploadKeepDays): Promise<number> {
+  const stale = await uploads()
+    .createQueryBuilder('u')
+    .select(['u.id', 'u.tempPath', 'u.plannedVersionId', 'u.createdBy'])
+    .where(`u.status IN ('pending', 'checked', 'failed') AND u.updated_at < now() - make_interval(days => :keepDays)`, { keepDays })
+    .getMany();
+  for (const u of stale) {
+    if (running.has(u.id)) continue;
+    await dataSource.transaction(async (m) => {
+      const [, changed] = await m.query(
+        `UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, ${FORGET_DERIVED}, updated_at = now() WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`, [u.id]);
+      if (changed !== 1) return;
+      await deleteStagedRows(u.plannedVersionId, m);
+      await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [u.id]);
+      await appendAudit({ action: 'cohort.upload.expired', actorId: null, targetType: 'cohort_upload', targetId: u.id, details: { keepDays, uploadedBy: u.createdBy } }, m);
+    });
+    await removeQuietly(u.tempPath);
+  }
+  return stale.length;
+}
+
+// A received file is named <uuid>.csv; nothing else in the folder is ever removed.
+const TEMP_NAME = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}\.csv$/;
+// Unreferenced files younger than this may be another API process's upload still being received or screened.
+const ORPHAN_AGE_MS = 10 * 60 * 1000;
+
+/**
+ * Removes temp files no upload refers to (left by a crash or a kill mid-upload): at start and every ten minutes.
+ * Only our own file names, and only files untouched for ten minutes. Returns the names removed.
+ */
+export async function sweepUploadDir(now = Date.now()): Promise<string[]> {
+  let names: string[];
+  try {
+    names = (await readdir(uploadDir)).filter((n) => TEMP_NAME.test(n));
+  } catch {
+    return [];
+  }
+  if (!names.length) return [];
+  const rows = await uploads().find({ where: { tempPath: Not(IsNull()) }, select: { id: true, tempPath: true } });
+  const referenced = new Set(rows.map((r) => path.resolve(r.tempPath!)));
+  const removed: string[] = [];
+  for (const name of names) {
+    const file = path.resolve(uploadDir, name);
+    if (referenced.has(file)) continue;
+    const info = await stat(file).catch(() => null);
+    if (!info || now - info.mtimeMs < ORPHAN_AGE_MS) continue;
+    await removeQuietly(file);
+    removed.push(name);
+  }
+  if (removed.length) logger.info({ removed: removed.length }, 'removed temp files no upload refers to');
+  return removed;
+}
+
+/** In every process that receives uploads: a checking thread started ahead, and the temp-folder sweep at start and
+ * every ten minutes (local files). */
+export async function startUploadUpkeep(): Promise<() => void> {
+  stopping = false;
+  warmUploadThreads();
+  const sweepFiles = () => void sweepUploadDir().catch((err: Error) => logger.error({ err }, 'sweeping the upload folder failed'));
+  sweepFiles();
+  const fileTimer = setInterval(sweepFiles, ORPHAN_AGE_MS);
+  fileTimer.unref();
+  return () => {
+    stopping = true;
+    clearInterval(fileTimer);
+  };
+}
+
+// ---- Rejections ----------------------------------------------------------------------------------------------
+
+export async function listRejections(id: string, page: number, pageSize: number) {
+  const rows = await dataSource.query(
+    `SELECT line_no AS line, column_name AS column, value, reason FROM cohort_upload_rejections WHERE upload_id = $1 ORDER BY line_no, column_name LIMIT $2 OFFSET $3`,
+    [id, pageSize, (page - 1) * pageSize],
+  );
+  const [{ n }] = await dataSource.query('SELECT count(*)::int AS n FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
+  return { rejections: rows as { line: number; column: string; value: string; reason: string }[], total: n as number, page, pageSize };
+}
+
+/** The rejected rows as CSV with their mapped values (domain/cohorts/rejectedRows.ts), formula-looking cells neutralised. */
+export async function* rejectionsCsv(id: string): AsyncGenerator<string> {
+  const r = await uploadRow(id);
+  yield* rejectedRowsCsv({ uploadId: id, tempPath: r.tempPath, delimiter: r.delimiter, headers: r.headers, mapping: r.mapping });
+}
+
+// ---- Step 3: store or discard ---------------------------------------------------------------------------------
+
+export async function commitUpload(actor: AuthUser, id: string, excludeRejected: boolean, ip: string, excludeLines?: number[]) {
+  const r = await uploadRow(id);
+  if (r.status !== 'checked' || !r.plannedVersionId) throw conflict(`this upload is ${r.status}; only a checked upload can be stored`);
+  let excludedLines: number[] | null = null;
+  if (r.rowsRejected > 0 && excludeLines && !excludeRejected) {
+    // Rows excluded one by one: every rejected row must be chosen; the rest are fixed in the file first.
+    const rejected = await rejectedLineNumbers(id);
+    const chosen = new Set(excludeLines);
+    const unknown = excludeLines.filter((l) => !rejected.includes(l));
+    if (unknown.length) throw invalid(`line(s) ${unknown.slice(0, 10).join(', ')} were not rejected; only rejected rows can be excluded`);
+    const open = rejected.filter((l) => !chosen.has(l));
+    if (open.length || rejected.length < r.rowsRejected) {
+      throw conflict(`${open.length || r.rowsRejected - rejected.length} rejected row(s) are neither excluded nor fixed (line ${open.slice(0, 10).join(', ')}${open.length > 10 ? ', …' : ''}): exclude them too, or download the rejected rows, fix them in the file and upload it again`, { openLines: open.slice(0, 1000) });
+    }
+    excludedLines = rejected;
+  } else if (r.rowsRejected > 0 && !excludeRejected) {
+    throw conflict(`${r.rowsRejected} row(s) were rejected: store with excludeRejected: true (the exclusions are recorded), or fix the file and upload it again`);
+  }
+  if (r.rowsAccepted === 0) throw refused('no row passed the checks; nothing to store');
+  const sv = await loadScoreVersion(r.scoreVersionId);
+  // A coding mismatch (Y/N against the level "yes") stores nothing: the steward maps the labels or goes back.
+  const mismatches = codingIssues(predictorViews(sv, r.mapping), r.mapping, r.columnSummary);
+  if (mismatches.length) throw conflict(`the coding does not match the score: ${mismatches.map((m) => m.message).join(' ')}`, { codingIssues: mismatches });
+  const qr = dataSource.createQueryRunner();
+  await qr.connect();
+  await qr.startTransaction();
+  let versionId: string;
+  let cohortId: string;
+  let version: number;
+  try {
+    // Two windows storing the same upload: the second waits here, then finds it stored.
+    const locked = await qr.manager.getRepository(CohortUpload).findOneOrFail({ where: { id }, select: { id: true, status: true }, lock: { mode: 'pessimistic_write' } });
+    if (locked.status !== 'checked') throw conflict(`this upload is ${locked.status}; only a checked upload can be stored`);
+    if (r.cohortId) {
+      cohortId = r.cohortId;
+      await qr.query('SELECT id FROM cohorts WHERE id = $1 FOR UPDATE', [cohortId]);
+    } else {
+      const existing = await qr.query('SELECT id FROM cohorts WHERE lower(name) = lower($1)', [r.cohortName]);
+      if (existing.length) throw conflict(`a cohort named "${r.cohortName}" was created meanwhile; upload again as a new version of it`);
+      const [c] = await qr.query('INSERT INTO cohorts (name, score_id, created_by) VALUES ($1, $2, $3) RETURNING id', [r.cohortName, sv.scoreId, actor.id]);
+      cohortId = c.id;
+    }
+    const [{ next }] = await qr.query('SELECT coalesce(max(version), 0) + 1 AS next FROM cohort_versions WHERE cohort_id = $1', [cohortId]);
+    version = next;
+    const period = r.eventPeriod;
+    // The version ends on the last day of its latest period (2026-Q2 ends 2026-06-30); an upload checked before the
+    // end was recorded falls back to the end of the latest start's month.
+    const endOfMonth = (d: string) => {
+      const [y, m] = d.split('-').map(Number);
+      return new Date(Date.UTC(y, m, 0)).toISOString().slice(0, 10);
+    };
+    const exclusions = r.rejectionCounts;
+    // periodKind: how the rows' periods were labelled, so they are shown as uploaded (2026-Q2, not 2026-04-01).
+    const mapping = { ...r.mapping, scoreVersionId: r.scoreVersionId, delimiter: r.delimiter, periodKind: period?.kind ?? null };
+    const [v] = await qr.query(
+      `INSERT INTO cohort_versions (id, cohort_id, version, label, period_start, period_end, source_filename, source_sha256, source_bytes,
+         row_count, events, excluded_count, exclusions, mapping, column_summary, uploaded_by)
+       VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16) RETURNING id`,
+      [r.plannedVersionId, cohortId, version, r.label || `version ${version}`, r.periodStart ?? period?.min ?? null, r.periodEnd ?? (period ? (period.end ?? endOfMonth(period.max)) : null),
+        r.sourceFilename, r.sha256, r.bytes, r.rowsAccepted, r.events, r.rowsRejected, JSON.stringify(exclusions), JSON.stringify(mapping), JSON.stringify(r.columnSummary), actor.id],
+    );
+    versionId = v.id;
+    // The rows were streamed in by the check, in the same transaction that recorded rows_accepted (the worker compares
+    // COPY's count); only a new mapping or a discard removes them, and both change the status locked above. This
+    // version row is what makes them a cohort version.
+    await qr.query(`UPDATE cohort_uploads SET status = 'committed', cohort_id = $2, cohort_version_id = $3, temp_path = NULL, updated_at = now() WHERE id = $1 AND status = 'checked'`, [id, cohortId, versionId]);
+    await qr.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
+    await appendAudit({
+      actorId: actor.id, actorEmail: actor.email, action: 'cohort.version.stored', targetType: 'cohort_version', targetId: versionId, sourceIp: ip,
+      details: { cohortId, version, rows: r.rowsAccepted, events: r.events, excluded: r.rowsRejected, sha256: r.sha256, uploadId: id, ...(excludedLines ? { excludedLines: excludedLines.slice(0, 1000) } : {}) },
+    }, qr.manager);
+    await qr.commitTransaction();
+  } catch (err) {
+    await qr.rollbackTransaction().catch(() => undefined);
+    if (err instanceof DomainError) throw err;
+    logger.error({ err, uploadId: id }, 'storing an upload failed, rolled back');
+    throw new DomainError('failed', 'storing the cohort failed and was rolled back: nothing was stored; try again or upload the file again');
+  } finally {
+    await qr.release();
+  }
+  await removeQuietly(r.tempPath);
+  return { cohortId, cohortVersionId: versionId, version, rowCount: r.rowsAccepted, events: r.events, excludedCount: r.rowsRejected, sha256: r.sha256 };
+}
+
+export async function discardUpload(actor: AuthUser, id: string, ip: string) {
+  const r = await uploadRow(id);
+  if (r.status === 'committed') throw conflict('this upload is stored as a cohort version; stored versions are immutable');
+  // A check under way (in any process) is waited for a while; one still running then is refused below.
+  if (r.status === 'processing') await getUpload(id, 30);
+  // The upload's row is locked before anything is removed, as commitUpload locks it before storing: of a commit and a
+  // discard sent at once, the second waits, then finds the other's status and is refused.
+  const tempPath = await dataSource.transaction(async (m) => {
+    const locked = await m.getRepository(CohortUpload).findOneOrFail({
+      where: { id },
+      select: { id: true, status: true, tempPath: true, plannedVersionId: true },
+      lock: { mode: 'pessimistic_write' },
+    });
+    if (locked.status === 'discarded') return null;
+    if (locked.status === 'committed') throw conflict('this upload was stored as a cohort version meanwhile; stored versions are immutable');
+    if (locked.status === 'processing') throw conflict('this upload is being checked again; discard it when the check ends');
+    await deleteStagedRows(locked.plannedVersionId, m);
+    await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
+    await m.query(`UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, ${FORGET_DERIVED}, updated_at = now() WHERE id = $1`, [id]);
+    await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.discarded', targetType: 'cohort_upload', targetId: id, sourceIp: ip }, m);
+    return locked.tempPath;
+  });
+  await removeQuietly(tempPath);
+  return getUpload(id);
+}
+
+export async function listMyUploads(actor: AuthUser) {
+  const rows = await uploads().find({
+    where: { createdBy: actor.id, status: In(['pending', 'processing', 'checked', 'failed'] as UploadStatus[]) },
+    select: { id: true },
+    order: { createdAt: 'DESC' },
+    take: 50,
+  });
+  return Promise.all(rows.map((r) => getUpload(r.id)));
+}
+
+/** Score versions a cohort can be uploaded against (for the upload form's select). */
+export async function scoreVersionChoices() {
+  const rows: { id: string; scoreId: string; scoreName: string; version: number; mode: string; probability_column: string | null; model: ScoreModel | null }[] = await dataSource.query(
+    `SELECT sv.id, s.id AS "scoreId", s.name AS "scoreName", sv.version, sv.mode, sv.probability_column, sv.model FROM score_versions sv JOIN scores s ON s.id = sv.score_id ORDER BY s.name, sv.version DESC`,
+  );
+  return rows.map((r) => ({ id: r.id, scoreId: r.scoreId, scoreName: r.scoreName, version: r.version, mode: r.mode, requiredPredictors: requiredPredictors({ mode: r.mode as 'formula', model: r.model, probabilityColumn: r.probability_column }) }));
+}
