@@ -7,9 +7,9 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { CohortAdequacy } from '@shared/adequacy';
 import type { RunDetail } from '@shared/runs';
 import { stopBackgroundServices } from '../../server/src/jobs/background';
-import { forgetKeptPrecision, keptPrecision, widthsComputedHere } from '../../server/src/domain/runs/adequacyPrecision';
-import { warmRunWidths } from '../../server/src/domain/runs/adequacyWidths';
-import { processNextRun } from '../../server/src/domain/runs/runs';
+import { forgetCachedPrecision, cachedPrecision, ciWidthsComputedHere } from '../../server/src/domain/runs/adequacyPrecision';
+import { warmRunCiWidths } from '../../server/src/domain/runs/adequacyWidths';
+import { processNextRun } from '../../server/src/domain/runs/runQueue';
 import { precisionFor } from '../../server/src/stats/sampleSize';
 import { app, bearer, dataSource, DEMO_PASSWORD, tokenFor, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, kestrelRows, type CohortFixture, type ScoreFixture } from '../helpers/fixtures';
@@ -96,7 +96,7 @@ describe('adequacy on a run', () => {
     // The widths were worked out in the run's own thread, before anyone opened the page (not on the API thread).
     const [stored] = await dataSource.query(`SELECT (results->'overall'->>'n')::int AS n, (results->'overall'->>'events')::int AS events,
       (results->'overall'->'auc'->>'estimate')::float8 AS auc FROM validation_runs WHERE id = $1`, [res.body.run.id]);
-    keptBeforeOpening = keptPrecision(stored.n, stored.events, stored.auc) !== undefined;
+    keptBeforeOpening = cachedPrecision(stored.n, stored.events, stored.auc) !== undefined;
     const got = await request(app).get(`/api/runs/${res.body.run.id}`).set(bearer(await tokenFor('statistician')));
     expect(got.status).toBe(200);
     run = got.body.run as RunDetail;
@@ -123,22 +123,22 @@ describe('adequacy on a run', () => {
 
   it('with no widths kept (as after a restart) the run page gets them from the widths thread, not the API thread', async () => {
     const o = run.results!.overall;
-    forgetKeptPrecision();
-    const before = widthsComputedHere();
+    forgetCachedPrecision();
+    const before = ciWidthsComputedHere();
     const got = await request(app).get(`/api/runs/${run.id}`).set(bearer(await tokenFor('statistician')));
     expect(got.status).toBe(200);
     expect((got.body.run as RunDetail).adequacy!.precision).toEqual(run.adequacy!.precision);
-    expect(widthsComputedHere(), 'widths worked out on the API thread').toBe(before);
-    expect(keptPrecision(o.n, o.events, o.auc.estimate)).toEqual(run.adequacy!.precision);
+    expect(ciWidthsComputedHere(), 'widths worked out on the API thread').toBe(before);
+    expect(cachedPrecision(o.n, o.events, o.auc.estimate)).toEqual(run.adequacy!.precision);
   });
 
   it('at start the widths of the newest completed runs are worked out in that thread, before any page asks', async () => {
     const o = run.results!.overall;
-    forgetKeptPrecision();
-    const before = widthsComputedHere();
-    await warmRunWidths(5); // this file just completed the run: it is among the newest
-    expect(keptPrecision(o.n, o.events, o.auc.estimate)).toEqual(run.adequacy!.precision);
-    expect(widthsComputedHere()).toBe(before);
+    forgetCachedPrecision();
+    const before = ciWidthsComputedHere();
+    await warmRunCiWidths(5); // this file just completed the run: it is among the newest
+    expect(cachedPrecision(o.n, o.events, o.auc.estimate)).toEqual(run.adequacy!.precision);
+    expect(ciWidthsComputedHere()).toBe(before);
   });
 
   it('the expected AUC width is of the size the run’s own DeLong CI has', () => {

@@ -12,7 +12,7 @@ import { runSettingsSchema } from '@shared/runs';
 import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
 import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
 import { loadCohortData } from '../../server/src/domain/cohorts/cohortData';
-import { recordRunNow } from '../../server/src/domain/runs/runs';
+import { recordRunNow } from '../../server/src/domain/runs/runQueue';
 import { whenProcessed } from '../../server/src/domain/cohorts/uploads';
 import { app, bearer, dataSource, tokenFor, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, kestrelRows, type ScoreFixture } from '../helpers/fixtures';

@@ -11,7 +11,8 @@ import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
 import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
 import { uploadDir } from '../../server/src/http/routes/cohorts';
 import { loadCohortData } from '../../server/src/domain/cohorts/cohortData';
-import { discardStaleUploads, whenProcessed } from '../../server/src/domain/cohorts/uploads';
+import { whenProcessed } from '../../server/src/domain/cohorts/uploads';
+import { discardStaleUploads } from '../../server/src/domain/cohorts/uploadSweep';
 import { FIXTURE_MODEL } from '../helpers/fixtures';
 import { app, bearer, countRows, dataSource, ownerQuery, tokenFor, useDatabase } from '../helpers/api';
 

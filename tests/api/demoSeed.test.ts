@@ -4,7 +4,7 @@ import request from 'supertest';
 import { describe, expect, it } from 'vitest';
 import { runSettingsSchema } from '@shared/runs';
 import { seedDemo } from '../../server/src/demo/seed';
-import { recordRunNow } from '../../server/src/domain/runs/runs';
+import { recordRunNow } from '../../server/src/domain/runs/runQueue';
 import { app, bearer, dataSource, DEMO_PASSWORD, loginAs, ownerDataSource, useDatabase } from '../helpers/api';
 
 useDatabase();

@@ -8,9 +8,9 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import type { AlertView, Derivation, DriftResponse } from '@shared/drift';
 import type { ScoreModel } from '@shared/model';
 import { runSettingsSchema } from '@shared/runs';
-import { evaluateAlertsForRun, evaluateAlertsForVersion } from '../../server/src/domain/drift/drift';
+import { evaluateAlertsForRun, evaluateAlertsForVersion } from '../../server/src/domain/drift/alerts';
 import { fitsMadeHere } from '../../server/src/domain/drift/recalibrationFit';
-import { processNextRun, recordRunNow } from '../../server/src/domain/runs/runs';
+import { processNextRun, recordRunNow } from '../../server/src/domain/runs/runQueue';
 import { app, bearer, dataSource, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, FIXTURE_MODEL, kestrelRows, type ScoreFixture } from '../helpers/fixtures';
 

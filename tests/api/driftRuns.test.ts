@@ -5,7 +5,7 @@ import request from 'supertest';
 import { beforeAll, describe, expect, it } from 'vitest';
 import type { DriftResponse } from '@shared/drift';
 import { runSettingsSchema } from '@shared/runs';
-import { recordRunNow } from '../../server/src/domain/runs/runs';
+import { recordRunNow } from '../../server/src/domain/runs/runQueue';
 import { app, bearer, dataSource, tokenFor, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, kestrelRows, type ScoreFixture } from '../helpers/fixtures';
 

@@ -7,7 +7,8 @@ import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
 import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
-import { discardStaleUploads, whenProcessed } from '../../server/src/domain/cohorts/uploads';
+import { whenProcessed } from '../../server/src/domain/cohorts/uploads';
+import { discardStaleUploads } from '../../server/src/domain/cohorts/uploadSweep';
 import { createScoreFixture, FIXTURE_MODEL } from '../helpers/fixtures';
 import { app, bearer, countRows, dataSource, tokenFor, useDatabase } from '../helpers/api';
 

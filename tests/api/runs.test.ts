@@ -8,7 +8,7 @@ import type { RunDetail, RunResults } from '@shared/runs';
 import { startBackgroundServices, stopBackgroundServices } from '../../server/src/jobs/background';
 import { asStored, engineSettings, ENGINE_VERSION } from '../../server/src/domain/runs/runCompute';
 import type { JobHandler } from '../../server/src/jobs/queue';
-import { processNextRun, runAbandonedJob, runJob } from '../../server/src/domain/runs/runs';
+import { processNextRun, runAbandonedJob, runJob } from '../../server/src/domain/runs/runQueue';
 import { applyModel, validate } from '../../server/src/stats/index';
 import { app, bearer, dataSource, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, FIXTURE_MODEL, kestrelRows, type CohortFixture, type ScoreFixture } from '../helpers/fixtures';

@@ -21,7 +21,7 @@ const dir = await vi.hoisted(async () => {
 
 import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
 import { uploadDir } from '../../server/src/http/routes/cohorts';
-import { sweepUploadDir } from '../../server/src/domain/cohorts/uploads';
+import { sweepUploadDir } from '../../server/src/domain/cohorts/uploadSweep';
 import { app, bearer, dataSource, tokenFor, useDatabase } from '../helpers/api';
 import { createScoreFixture, FIXTURE_MODEL } from '../helpers/fixtures';
 

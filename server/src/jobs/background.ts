@@ -4,9 +4,10 @@
 import { config } from '../platform/config';
 import { startJobs, JOB, type JobHandler, type JobName } from './queue';
 import { mailJob } from '../domain/notifications/mail';
-import { startWidthsWarmUp } from '../domain/runs/adequacyWidths';
-import { driftRulesJob, interruptRuns, runAbandonedJob, runJob } from '../domain/runs/runs';
-import { startUploadUpkeep, uploadCheckAbandonedJob, uploadCheckJob, uploadSweepJob } from '../domain/cohorts/uploads';
+import { startCiWidthsWarmUp } from '../domain/runs/adequacyWidths';
+import { driftRulesJob, interruptRuns, runAbandonedJob, runJob } from '../domain/runs/runQueue';
+import { uploadCheckAbandonedJob, uploadCheckJob } from '../domain/cohorts/uploads';
+import { startUploadUpkeep, uploadSweepJob } from '../domain/cohorts/uploadSweep';
 
 type Stopper = () => Promise<void> | void;
 export type Starter = () => Promise<Stopper | void> | Stopper | void;
@@ -37,7 +38,7 @@ export function backgroundServices(roles: { http: boolean; jobs: boolean } = { h
   const list: Starter[] = [];
   if (roles.jobs) list.push(startJobWorkers);
   // Files a crash left in this host's upload folder; the widths warm-up fills this process's page cache.
-  if (roles.http) list.push(startUploadUpkeep, startWidthsWarmUp);
+  if (roles.http) list.push(startUploadUpkeep, startCiWidthsWarmUp);
   return list;
 }
 

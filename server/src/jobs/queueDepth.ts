@@ -22,8 +22,8 @@ export async function queueDepth(): Promise<QueueCount[]> {
     { queue: 'runs', state: 'running', count: 0 },
   ];
   for (const r of rows) {
-    const kept = out.find((o) => o.queue === r.queue && o.state === r.state);
-    if (kept) kept.count = Number(r.n);
+    const existing = out.find((o) => o.queue === r.queue && o.state === r.state);
+    if (existing) existing.count = Number(r.n);
     else out.push({ queue: r.queue, state: r.state, count: Number(r.n) });
   }
   for (const j of await jobCounts()) {

@@ -1,7 +1,8 @@
 // Demo drift rules (invented scenario): the default alert rules for the fictional Kestrel score, then an evaluation of
 // its seeded versions so the demo's rising baseline risk shows as an alert (and its e-mail in email_outbox). Idempotent.
 import { dataSource } from '../../platform/database/dataSource';
-import { createAlertRule, evaluateAlertsForVersion } from '../../domain/drift/drift';
+import { createAlertRule } from '../../domain/drift/alertRules';
+import { evaluateAlertsForVersion } from '../../domain/drift/alerts';
 import { KESTREL_SCORE_NAME } from './cohorts';
 import { logger } from '../../platform/observability/log';
 

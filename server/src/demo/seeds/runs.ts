@@ -2,7 +2,7 @@
 // synchronously by the same function the run queue uses, stored completed with their hashes. Idempotent.
 import { runSettingsSchema } from '@shared/runs';
 import { dataSource } from '../../platform/database/dataSource';
-import { recordRunNow } from '../../domain/runs/runs';
+import { recordRunNow } from '../../domain/runs/runQueue';
 import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from './cohorts';
 import { logger } from '../../platform/observability/log';
 

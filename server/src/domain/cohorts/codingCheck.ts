@@ -5,7 +5,7 @@ import type { CodingIssue, ColumnMappingSpec, ColumnSummary, RequiredPredictorVi
 import type { ScoreModel } from '@shared/model';
 import type { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
 import { isAgeHeader } from './deidentify';
-import { requiredPredictors } from './uploads';
+import { requiredPredictors } from './uploadMapping';
 
 /** The plausible range the row checks apply to a predictor (uploadCheck.ts uses the same defaults). */
 export function plausibleRange(column: string, fileColumn: string | undefined, mapping: ColumnMappingSpec | null, supplied: boolean) {

@@ -1,31 +1,29 @@
-// Cohort uploads: screen → map and check rows → store (one transaction, COPY) or discard.
-import type { PeriodKind } from '@shared/periods';
+// Cohort uploads, their lifecycle: screen a received file → map its columns and check every row (a job) → store the
+// checked rows as a cohort version (one transaction) or discard. What a score needs and the mapping guess are in
+// uploadMapping.ts, the rejected rows in uploadRejections.ts, the clean-up of stale uploads and files in uploadSweep.ts.
 import { codingIssues, predictorViews } from './codingCheck';
 import { randomUUID } from 'node:crypto';
-import { readdir, stat, unlink } from 'node:fs/promises';
+import { unlink } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
-import type { ColumnMappingSpec, ScreenFinding, UploadFields, UploadStatus, UploadView } from '@shared/cohorts';
-import { columnMapping } from '@shared/cohorts';
-import type { ScoreModel } from '@shared/model';
+import type { ColumnMappingSpec, UploadFields, UploadStatus, UploadView } from '@shared/cohorts';
 import { config } from '../../platform/config';
 import { dataSource } from '../../platform/database/dataSource';
-import { In, IsNull, Not } from 'typeorm';
+import { In } from 'typeorm';
 import { CohortUpload } from '../../platform/database/entities/CohortUpload';
 import { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
 import { conflict, DomainError, invalid, notFound, refused } from '../errors';
 import type { AuthUser } from '../accounts/actor';
 import type { UploadWorkerData } from '../../jobs/threads/uploadWorker';
 import { appendAudit } from '../accounts/audit';
-import type { Delimiter } from './csvFile';
-import { toCsv } from '@shared/csv';
 import { maskPreview } from './deidentify';
 import { drainJobs, enqueue, JOB, jobWorkersRunning, type JobHandler } from '../../jobs/queue';
-import { checkInThread, screenInThread, warmUploadThreads } from '../../jobs/threads/pool';
-import { rejectedLineNumbers, rejectedRowsCsv } from './rejectedRows';
+import { checkInThread, screenInThread } from '../../jobs/threads/pool';
+import { rejectedLineNumbers } from './rejectedRows';
 import type { RequiredPredictor } from './uploadCheck';
 import { logger } from '../../platform/observability/log';
 import { timeJob } from '../../platform/observability/metrics';
+import { requiredPredictors, suggestMapping } from './uploadMapping';
 
 export { periodStart } from './uploadCheck';
 
@@ -41,66 +39,13 @@ export interface ReceivedFile {
 }
 
 
-/** The columns a score version reads from a cohort, one entry per distinct column. */
-export function requiredPredictors(sv: Pick<ScoreVersion, 'mode' | 'model' | 'probabilityColumn'>): RequiredPredictor[] {
-  if (sv.mode === 'supplied') return [{ column: sv.probabilityColumn!, kind: 'numeric', positiveOnly: false }];
-  const out = new Map<string, RequiredPredictor>();
-  for (const p of (sv.model as ScoreModel).predictors) {
-    const prev = out.get(p.column) ?? { column: p.column, kind: 'text' as const, positiveOnly: false };
-    if (p.transform !== 'indicator') prev.kind = 'numeric';
-    if (p.transform === 'log') prev.positiveOnly = true;
-    out.set(p.column, prev);
-  }
-  return [...out.values()];
-}
-
-/** The header of a cohort file for a score version: its predictor columns, the outcome and the period (as suggestMapping reads them). */
-export function cohortTemplateCsv(sv: Pick<ScoreVersion, 'mode' | 'model' | 'probabilityColumn'>): string {
-  return toCsv([...requiredPredictors(sv).map((p) => p.column), 'outcome', 'period'], []);
-}
-
 async function loadScoreVersion(id: string): Promise<ScoreVersion> {
   const sv = await dataSource.getRepository(ScoreVersion).findOne({ where: { id } });
   if (!sv) throw notFound('score version');
   return sv;
 }
 
-const normName = (s: string) => s.toLowerCase().replace(/[^a-z0-9]/g, '');
-
-/** A first guess the steward corrects: same names, usual outcome and period columns, usual subgroup names. */
-export function suggestMapping(headers: string[], sample: string[][], required: RequiredPredictor[]): ColumnMappingSpec {
-  const byNorm = new Map(headers.map((h) => [normName(h), h]));
-  const find = (...names: string[]) => {
-    for (const n of names) if (byNorm.has(normName(n))) return byNorm.get(normName(n))!;
-    return headers.find((h) => names.some((n) => normName(h).includes(normName(n))));
-  };
-  const predictors: Record<string, string> = {};
-  for (const r of required) {
-    const h = byNorm.get(normName(r.column)) ?? headers.find((x) => normName(x).includes(normName(r.column)));
-    if (h) predictors[r.column] = h;
-  }
-  const outcomeCol = find('outcome', 'readmitted_30d', 'readmitted', 'readmission', 'event', 'died', 'death', 'y') ?? headers[0];
-  const idx = headers.indexOf(outcomeCol);
-  const levels = new Set(sample.map((r) => (r[idx] ?? '').trim().toLowerCase()).filter(Boolean));
-  let positive = ['1'];
-  let negative = ['0'];
-  if ([...levels].some((l) => l === 'yes' || l === 'no')) [positive, negative] = [['yes'], ['no']];
-  else if ([...levels].some((l) => l === 'true' || l === 'false')) [positive, negative] = [['true'], ['false']];
-  const dateCol = headers.find((h) => /date|month|quarter|period/i.test(h));
-  const subgroups: Record<string, string> = {};
-  for (const [name, aliases] of [
-    ['sex', ['sex', 'gender']],
-    ['age_band', ['age_band', 'ageband', 'age_group']],
-    ['unit', ['unit', 'ward']],
-    ['site', ['site', 'campus']],
-  ] as const) {
-    const h = find(...aliases);
-    if (h && !Object.values(predictors).includes(h)) subgroups[name] = h;
-  }
-  return columnMapping.parse({ predictors, outcome: { column: outcomeCol, positive, negative }, date: dateCol ? { column: dateCol } : null, subgroups });
-}
-
-async function removeQuietly(path: string | null | undefined) {
+export async function removeQuietly(path: string | null | undefined) {
   if (path) await unlink(path).catch(() => undefined);
 }
 
@@ -155,9 +100,9 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
   }
 }
 
-const uploads = () => dataSource.getRepository(CohortUpload);
+export const uploads = () => dataSource.getRepository(CohortUpload);
 
-async function uploadRow(id: string): Promise<CohortUpload> {
+export async function uploadRow(id: string): Promise<CohortUpload> {
   const row = await uploads().findOneBy({ id });
   if (!row) throw notFound('upload');
   return row;
@@ -196,7 +141,7 @@ export async function assertOwner(actor: AuthUser, id: string): Promise<void> {
 // ---- Step 2: mapping and the full pass over the file ----------------------------------------------------------
 
 /** Checks under way in this process (a discard waits for its own; the sweep leaves them alone). */
-const running = new Map<string, Promise<void>>();
+export const running = new Map<string, Promise<void>>();
 
 /**
  * For tests and the seed: resolves when the upload is no longer being checked. A process without job workers checks
@@ -305,17 +250,11 @@ export const uploadCheckAbandonedJob: JobHandler<{ uploadId: string; plannedVers
   logger.warn({ uploadId: id }, 'an upload check was cut off twice; marked failed');
 };
 
-/** The 'upload-sweep' job (a pg-boss schedule): uploads nobody finished are discarded after the keep period. */
-export const uploadSweepJob: JobHandler = async () => {
-  const n = await discardStaleUploads();
-  if (n) logger.info({ discarded: n }, 'discarded stale uploads');
-};
-
 /** What a discarded or expired upload forgets besides its rows and rejections: everything summarised from the file's cells. */
-const FORGET_DERIVED = `column_summary = '{}', event_period = NULL, rejection_counts = '[]', suggested_mapping = NULL, progress = 0`;
+export const FORGET_DERIVED = `column_summary = '{}', event_period = NULL, rejection_counts = '[]', suggested_mapping = NULL, progress = 0`;
 
 /** Staged rows of an upload that never became a cohort version (re-mapped, discarded, failed). */
-async function deleteStagedRows(plannedVersionId: string | null, m: { query: (q: string, p: unknown[]) => Promise<unknown> } = dataSource) {
+export async function deleteStagedRows(plannedVersionId: string | null, m: { query: (q: string, p: unknown[]) => Promise<unknown> } = dataSource) {
   if (!plannedVersionId) return;
   await m.query('DELETE FROM cohort_row_blocks WHERE cohort_version_id = $1 AND NOT EXISTS (SELECT 1 FROM cohort_versions WHERE id = $1)', [plannedVersionId]);
 }
@@ -379,96 +318,10 @@ async function untilStored(what: string, write: () => Promise<void>): Promise<vo
   }
 }
 let stopping = false;
-
-/**
- * Uploads nobody finished (not stored, not discarded) are discarded after PLUMBLINE_UPLOAD_KEEP_DAYS without a change
- * (default 14): their temp file and staged rows go, and the audit trail says so. Returns how many were discarded.
- */
-export async function discardStaleUploads(keepDays = config.uploadKeepDays): Promise<number> {
-  const stale = await uploads()
-    .createQueryBuilder('u')
-    .select(['u.id', 'u.tempPath', 'u.plannedVersionId', 'u.createdBy'])
-    .where(`u.status IN ('pending', 'checked', 'failed') AND u.updated_at < now() - make_interval(days => :keepDays)`, { keepDays })
-    .getMany();
-  for (const u of stale) {
-    if (running.has(u.id)) continue;
-    await dataSource.transaction(async (m) => {
-      const [, changed] = await m.query(
-        `UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, ${FORGET_DERIVED}, updated_at = now() WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`, [u.id]);
-      if (changed !== 1) return;
-      await deleteStagedRows(u.plannedVersionId, m);
-      await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [u.id]);
-      await appendAudit({ action: 'cohort.upload.expired', actorId: null, targetType: 'cohort_upload', targetId: u.id, details: { keepDays, uploadedBy: u.createdBy } }, m);
-    });
-    await removeQuietly(u.tempPath);
-  }
-  return stale.length;
+/** The upkeep (uploadSweep.ts) says when this process stops: writes that wait for the database then give up. */
+export function setUploadsStopping(value: boolean): void {
+  stopping = value;
 }
-
-// A received file is named <uuid>.csv; nothing else in the folder is ever removed.
-const TEMP_NAME = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}\.csv$/;
-// Unreferenced files younger than this may be another API process's upload still being received or screened.
-const ORPHAN_AGE_MS = 10 * 60 * 1000;
-
-/**
- * Removes temp files no upload refers to (left by a crash or a kill mid-upload): at start and every ten minutes.
- * Only our own file names, and only files untouched for ten minutes. Returns the names removed.
- */
-export async function sweepUploadDir(now = Date.now()): Promise<string[]> {
-  let names: string[];
-  try {
-    names = (await readdir(uploadDir)).filter((n) => TEMP_NAME.test(n));
-  } catch {
-    return [];
-  }
-  if (!names.length) return [];
-  const rows = await uploads().find({ where: { tempPath: Not(IsNull()) }, select: { id: true, tempPath: true } });
-  const referenced = new Set(rows.map((r) => path.resolve(r.tempPath!)));
-  const removed: string[] = [];
-  for (const name of names) {
-    const file = path.resolve(uploadDir, name);
-    if (referenced.has(file)) continue;
-    const info = await stat(file).catch(() => null);
-    if (!info || now - info.mtimeMs < ORPHAN_AGE_MS) continue;
-    await removeQuietly(file);
-    removed.push(name);
-  }
-  if (removed.length) logger.info({ removed: removed.length }, 'removed temp files no upload refers to');
-  return removed;
-}
-
-/** In every process that receives uploads: a checking thread started ahead, and the temp-folder sweep at start and
- * every ten minutes (local files). */
-export async function startUploadUpkeep(): Promise<() => void> {
-  stopping = false;
-  warmUploadThreads();
-  const sweepFiles = () => void sweepUploadDir().catch((err: Error) => logger.error({ err }, 'sweeping the upload folder failed'));
-  sweepFiles();
-  const fileTimer = setInterval(sweepFiles, ORPHAN_AGE_MS);
-  fileTimer.unref();
-  return () => {
-    stopping = true;
-    clearInterval(fileTimer);
-  };
-}
-
-// ---- Rejections ----------------------------------------------------------------------------------------------
-
-export async function listRejections(id: string, page: number, pageSize: number) {
-  const rows = await dataSource.query(
-    `SELECT line_no AS line, column_name AS column, value, reason FROM cohort_upload_rejections WHERE upload_id = $1 ORDER BY line_no, column_name LIMIT $2 OFFSET $3`,
-    [id, pageSize, (page - 1) * pageSize],
-  );
-  const [{ n }] = await dataSource.query('SELECT count(*)::int AS n FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
-  return { rejections: rows as { line: number; column: string; value: string; reason: string }[], total: n as number, page, pageSize };
-}
-
-/** The rejected rows as CSV with their mapped values (domain/cohorts/rejectedRows.ts), formula-looking cells neutralised. */
-export async function* rejectionsCsv(id: string): AsyncGenerator<string> {
-  const r = await uploadRow(id);
-  yield* rejectedRowsCsv({ uploadId: id, tempPath: r.tempPath, delimiter: r.delimiter, headers: r.headers, mapping: r.mapping });
-}
-
 // ---- Step 3: store or discard ---------------------------------------------------------------------------------
 
 export async function commitUpload(actor: AuthUser, id: string, excludeRejected: boolean, ip: string, excludeLines?: number[]) {
@@ -589,12 +442,4 @@ export async function listMyUploads(actor: AuthUser) {
     take: 50,
   });
   return Promise.all(rows.map((r) => getUpload(r.id)));
-}
-
-/** Score versions a cohort can be uploaded against (for the upload form's select). */
-export async function scoreVersionChoices() {
-  const rows: { id: string; scoreId: string; scoreName: string; version: number; mode: string; probability_column: string | null; model: ScoreModel | null }[] = await dataSource.query(
-    `SELECT sv.id, s.id AS "scoreId", s.name AS "scoreName", sv.version, sv.mode, sv.probability_column, sv.model FROM score_versions sv JOIN scores s ON s.id = sv.score_id ORDER BY s.name, sv.version DESC`,
-  );
-  return rows.map((r) => ({ id: r.id, scoreId: r.scoreId, scoreName: r.scoreName, version: r.version, mode: r.mode, requiredPredictors: requiredPredictors({ mode: r.mode as 'formula', model: r.model, probabilityColumn: r.probability_column }) }));
 }

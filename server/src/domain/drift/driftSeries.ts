@@ -1,7 +1,7 @@
 // The drift series of one (score version, cohort version): each patient's predicted risk and outcome in event-date
 // order, with the date groups, and Σp(1−p) for the funnel limits. Worked out in a worker thread (the run's own, when
 // the run completes; or the run thread on demand for a pair that has none yet) and stored in drift_series, so the API
-// thread only merges stored arrays (domain/drift/drift.ts) and never loads or sorts a cohort.
+// thread only merges stored arrays (domain/drift/timeline.ts) and never loads or sorts a cohort.
 import type { CohortData, Query } from '../cohorts/cohortData';
 import { predictedRisk, type RunScoreInput } from '../runs/runCompute';
 

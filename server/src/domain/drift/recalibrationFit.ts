@@ -1,6 +1,6 @@
 // The recalibration fit of a run's cohort (intercept update, logistic recalibration or the closed test) and the
 // before/after calibration it shows. Pure: it runs in a pool thread (jobs/threads/recalibrationWorker.ts), never on the API
-// thread, for the preview and for the proposal alike (domain/drift/drift.ts).
+// thread, for the preview and for the proposal alike (domain/drift/recalibration.ts).
 import type { CalibrationPoint, CalibrationSummary, Derivation, RecalibrationMethod } from '@shared/drift';
 import type { Estimate, FitResult } from '@shared/validation';
 import { calibrationIntercept } from '../../stats/calibrationIntercept';
@@ -18,13 +18,13 @@ export class RecalibrationRefused extends Error {}
 let madeHere = 0;
 export const fitsMadeHere = () => madeHere;
 
-export const fitted = (f: FitResult<Estimate> | null): Estimate | null =>
+export const convergedEstimate = (f: FitResult<Estimate> | null): Estimate | null =>
   f && f.converged && Number.isFinite(f.estimate) ? { estimate: f.estimate, lower: f.lower, upper: f.upper } : null;
-export const plain = (e: Estimate | null | undefined): Estimate | null =>
+export const finiteEstimate = (e: Estimate | null | undefined): Estimate | null =>
   e && Number.isFinite(e.estimate) ? { estimate: e.estimate, lower: e.lower, upper: e.upper } : null;
 
 function summary(lp: Float64Array, p: Float64Array, y: Uint8Array): CalibrationSummary {
-  return { citl: fitted(calibrationIntercept(lp, y)), slope: fitted(calibrationSlope(lp, y)), oe: plain(observedExpected(p, y)) };
+  return { citl: convergedEstimate(calibrationIntercept(lp, y)), slope: convergedEstimate(calibrationSlope(lp, y)), oe: finiteEstimate(observedExpected(p, y)) };
 }
 
 function curve(p: Float64Array, y: Uint8Array): CalibrationPoint[] {

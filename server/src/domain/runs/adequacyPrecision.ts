@@ -1,14 +1,14 @@
-// The expected CI widths of the adequacy block (domain/runs/adequacy.ts), kept per (n, events, AUC). precisionFor solves
-// the anticipated LP distribution by bisection (about 0.2 s of CPU): a run's widths are worked out in its own thread
-// when it completes (jobs/threads/runWorker.ts) and kept here, so opening the run page does not pay them on the API thread.
-// Any other widths are worked out in the requests pool (domain/runs/adequacyWidths.ts). No database access here: the
+// The expected CI widths of the adequacy block (domain/runs/adequacy.ts), cached per (n, events, AUC). precisionFor solves
+// the anticipated LP distribution by bisection (about 0.2 s of CPU): a run's expected CI widths are worked out in its own thread
+// when it completes (jobs/threads/runWorker.ts) and cached here, so opening the run page does not pay them on the API thread.
+// Any other expected CI widths are worked out in the requests pool (domain/runs/adequacyWidths.ts). No database access here: the
 // worker threads import this module.
 import type { AdequacyPrecision } from '@shared/adequacy';
 import { precisionFor } from '../../stats/sampleSize';
 
 const MEMO_SIZE = 500;
 const memo = new Map<string, AdequacyPrecision>();
-/** How many widths this thread has worked out itself (not kept, not received): the API thread's should stay at 0. */
+/** How many expected CI widths this thread has worked out itself (not cached, not received): the API thread's should stay at 0. */
 let computedHere = 0;
 const keyOf = (n: number, events: number, auc: number | null) => `${n}|${events}|${auc}`;
 const fin = (v: number | null) => (v !== null && Number.isFinite(v) ? v : null);
@@ -18,7 +18,7 @@ function keep(key: string, value: AdequacyPrecision) {
   memo.set(key, value);
 }
 
-/** The widths for n patients with `events` events and this AUC (null: not available), computed once per key. */
+/** The expected CI widths for n patients with `events` events and this AUC (null: not available), computed once per key. */
 export function precision(n: number, events: number, auc: number | null): AdequacyPrecision {
   if (events === 0 || events === n) return { oe: null, auc: null, slope: null, note: 'no precision can be given without both events and non-events' };
   const key = keyOf(n, events, auc);
@@ -28,7 +28,7 @@ export function precision(n: number, events: number, auc: number | null): Adequa
   const eventRate = events / n;
   let out: AdequacyPrecision;
   if (auc === null || !(auc > 0 && auc < 1)) {
-    const p = precisionFor(n, eventRate, 0.75); // O/E's width does not depend on the AUC
+    const p = precisionFor(n, eventRate, 0.75); // O/E's expected CI width does not depend on the AUC
     out = { oe: fin(p.oe), auc: null, slope: null, note: 'the AUC is not available, so only the O/E width is given' };
   } else {
     const p = precisionFor(n, eventRate, auc);
@@ -38,8 +38,8 @@ export function precision(n: number, events: number, auc: number | null): Adequa
   return out;
 }
 
-/** Keeps widths computed elsewhere (the run thread) for the same inputs. */
-export function keepPrecision(n: number, events: number, auc: number | null, value: AdequacyPrecision): void {
+/** Caches expected CI widths computed elsewhere (the run thread) for the same inputs. */
+export function cachePrecision(n: number, events: number, auc: number | null, value: AdequacyPrecision): void {
   keep(keyOf(n, events, auc), value);
 }
 
@@ -51,16 +51,16 @@ export function runPrecisionInputs(results: { overall?: { n?: unknown; events?: 
   return { n: o.n as number, events: o.events as number, auc };
 }
 
-/** The widths kept for these inputs, if any (without computing them). */
-export function keptPrecision(n: number, events: number, auc: number | null): AdequacyPrecision | undefined {
+/** The expected CI widths cached for these inputs, if any (without computing them). */
+export function cachedPrecision(n: number, events: number, auc: number | null): AdequacyPrecision | undefined {
   return memo.get(keyOf(n, events, auc));
 }
 
-export function widthsComputedHere(): number {
+export function ciWidthsComputedHere(): number {
   return computedHere;
 }
 
-/** For tests: forgets every kept width (as a restart does). */
-export function forgetKeptPrecision(): void {
+/** For tests: forgets every cached expected CI width (as a restart does). */
+export function forgetCachedPrecision(): void {
   memo.clear();
 }

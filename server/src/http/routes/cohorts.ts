@@ -11,6 +11,8 @@ import { currentUser, sourceIp } from '../middleware/auth';
 import { badRequest, HttpError, zodMessage } from '../middleware/errors';
 import * as cohorts from '../../domain/cohorts/cohorts';
 import * as uploads from '../../domain/cohorts/uploads';
+import * as rejections from '../../domain/cohorts/uploadRejections';
+import { scoreVersionChoices as uploadScoreVersions } from '../../domain/cohorts/uploadMapping';
 import { uploadDir } from '../../domain/cohorts/uploads';
 
 export { uploadDir } from '../../domain/cohorts/uploads';
@@ -118,13 +120,13 @@ export async function postMapping(req: Request, res: Response) {
 export async function listRejections(req: Request, res: Response) {
   const id = await ownUpload(req);
   const q = req.query as unknown as { page: number; pageSize: number };
-  res.json(await uploads.listRejections(id, q.page, q.pageSize));
+  res.json(await rejections.listRejections(id, q.page, q.pageSize));
 }
 export async function rejectionsCsv(req: Request, res: Response) {
   const id = await ownUpload(req);
   res.setHeader('Content-Type', 'text/csv; charset=utf-8');
   res.setHeader('Content-Disposition', `attachment; filename="rejected-rows-${id.slice(0, 8)}.csv"`);
-  for await (const chunk of uploads.rejectionsCsv(id)) res.write(chunk);
+  for await (const chunk of rejections.rejectionsCsv(id)) res.write(chunk);
   res.end();
 }
 export async function commit(req: Request, res: Response) {
@@ -142,5 +144,5 @@ export async function saveMapping(req: Request, res: Response) {
   res.status(201).json({ mapping: await cohorts.saveMapping(currentUser(req), req.body, sourceIp(req)) });
 }
 export async function scoreVersionChoices(_req: Request, res: Response) {
-  res.json({ scoreVersions: await uploads.scoreVersionChoices() });
+  res.json({ scoreVersions: await uploadScoreVersions() });
 }

@@ -1,9 +1,11 @@
 import type { Request, Response } from 'express';
 import type { AlertAckBody, AlertBulkAckBody, AlertRuleBody, DriftRunChoice, RecalibrationBody, SampleSizeQuery } from '@shared/drift';
-import { acknowledgeAlerts } from '../../domain/drift/alerts';
+import * as alerts from '../../domain/drift/alerts';
+import * as alertRules from '../../domain/drift/alertRules';
+import * as recalibration from '../../domain/drift/recalibration';
 import { scoreVersionParams } from '@shared/scores';
 import { currentUser, sourceIp } from '../middleware/auth';
-import * as drift from '../../domain/drift/drift';
+import { driftForVersion } from '../../domain/drift/timeline';
 import { chooseDriftRun } from '../../domain/drift/driftRunChoice';
 import { planSampleSize } from '../../stats/sampleSize';
 
@@ -15,38 +17,38 @@ export async function sampleSize(req: Request, res: Response) {
 /** Per-period figures with funnel limits, per-patient CUSUM and O − E, and the alerts of one score version. */
 export async function timeline(req: Request, res: Response) {
   const { id, version } = scoreVersionParams.parse(req.params);
-  res.json(await drift.driftForVersion(id, version));
+  res.json(await driftForVersion(id, version));
 }
 
 export async function listAlerts(req: Request, res: Response) {
   const q = req.query as { score?: string };
-  res.json({ alerts: await drift.listAlerts({ scoreId: q.score }) });
+  res.json({ alerts: await alerts.listAlerts({ scoreId: q.score }) });
 }
 
 export async function acknowledgeMany(req: Request, res: Response) {
   const body = req.body as AlertBulkAckBody;
-  res.json({ alerts: await acknowledgeAlerts(currentUser(req), body.ids, body.note, sourceIp(req)) });
+  res.json({ alerts: await alerts.acknowledgeAlerts(currentUser(req), body.ids, body.note, sourceIp(req)) });
 }
 
 export async function acknowledge(req: Request, res: Response) {
   const body = req.body as AlertAckBody;
-  res.json({ alert: await drift.acknowledgeAlert(currentUser(req), String(req.params.id), body.note, sourceIp(req)) });
+  res.json({ alert: await alerts.acknowledgeAlert(currentUser(req), String(req.params.id), body.note, sourceIp(req)) });
 }
 
 export async function listRules(req: Request, res: Response) {
-  res.json({ rules: await drift.listAlertRules(String(req.params.id)) });
+  res.json({ rules: await alertRules.listAlertRules(String(req.params.id)) });
 }
 
 export async function createRule(req: Request, res: Response) {
-  res.status(201).json({ rule: await drift.createAlertRule(currentUser(req), String(req.params.id), req.body as AlertRuleBody, sourceIp(req)) });
+  res.status(201).json({ rule: await alertRules.createAlertRule(currentUser(req), String(req.params.id), req.body as AlertRuleBody, sourceIp(req)) });
 }
 
 export async function recalibrationPreview(req: Request, res: Response) {
-  res.json({ derivation: await drift.recalibrationPreview(String(req.params.id), (req.body as RecalibrationBody).method) });
+  res.json({ derivation: await recalibration.recalibrationPreview(String(req.params.id), (req.body as RecalibrationBody).method) });
 }
 
 export async function recalibrate(req: Request, res: Response) {
-  res.status(201).json(await drift.recalibrate(currentUser(req), String(req.params.id), (req.body as RecalibrationBody).method, sourceIp(req)));
+  res.status(201).json(await recalibration.recalibrate(currentUser(req), String(req.params.id), (req.body as RecalibrationBody).method, sourceIp(req)));
 }
 
 /** The statistician chooses which run of a cohort version the timeline takes (null: the newest completed). */

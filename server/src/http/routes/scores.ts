@@ -2,7 +2,7 @@ import type { Request, Response } from 'express';
 import { modelFileName, scoreVersionParams } from '@shared/scores';
 import { currentUser, sourceIp } from '../middleware/auth';
 import * as scores from '../../domain/scores/scores';
-import { cohortTemplateCsv } from '../../domain/cohorts/uploads';
+import { cohortTemplateCsv } from '../../domain/cohorts/uploadMapping';
 
 // The table validates params; parse again here for their types (":version" arrives as text).
 const versionParams = (req: Request) => scoreVersionParams.parse(req.params);

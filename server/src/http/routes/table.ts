@@ -106,7 +106,7 @@ export const routes: RouteDef[] = [
   { method: 'get', path: '/api/scores/:id/versions/:version/export', access: SCORE_READERS, summary: 'download the formula as a --model JSON file', params: scoreVersionParams, handler: scores.exportVersion },
 
   { method: 'get', path: '/api/sample-size', access: RUN_TEAM, summary: 'sample-size planner for external validation (Riley et al. 2021)', query: sampleSizeQuery, handler: drift.sampleSize },
-  // Drift monitoring and model updating (domain/drift/drift.ts).
+  // Drift monitoring and model updating (domain/drift/: timeline.ts, alerts.ts, alertRules.ts, recalibration.ts).
   { method: 'get', path: '/api/scores/:id/versions/:version/drift', access: ['statistician', 'chair', 'admin', 'steward'], summary: 'drift timeline of a score version: per-period figures, funnel limits, CUSUM, O − E, alerts', params: scoreVersionParams, handler: drift.timeline },
   { method: 'put', path: '/api/scores/:id/versions/:version/drift/runs', access: ['statistician'], summary: 'choose which run of a cohort version the drift timeline takes (runId null: the newest completed)', params: scoreVersionParams, body: driftRunChoice, handler: drift.chooseRun },
   { method: 'get', path: '/api/alerts', access: ['statistician', 'chair', 'admin'], summary: 'drift alerts, open ones first (filter by score)', query: alertListQuery, handler: drift.listAlerts },

@@ -21,7 +21,7 @@ import type { ValidationResult, ValidationSettings } from '@shared/validation';
 import { compiled, config } from '../../platform/config';
 import { DomainError } from '../../domain/errors';
 import { logger } from '../../platform/observability/log';
-import { keepPrecision } from '../../domain/runs/adequacyPrecision';
+import { cachePrecision } from '../../domain/runs/adequacyPrecision';
 import type { DriftSeriesPart } from '../../domain/drift/driftSeries';
 import { RunInputError, type ProgressFn } from '../../domain/runs/runCompute';
 import { percentileIntervals, scalarMetrics } from '../../stats/bootstrap';
@@ -122,7 +122,7 @@ export function computeInThread(job: JobWithoutDb, onProgress: ProgressFn = () =
   const running = task('background', 'run', { ...job, db: { ...config.db }, progress: progress.port } as RunTask, { transferList: [progress.port], signal: stop.signal });
   const result = running.finally(progress.done).then((msg) => {
     if (msg.type === 'error') throw msg.inputError ? new RunInputError(msg.message) : new Error(msg.message);
-    if (msg.precision) keepPrecision(msg.precision.n, msg.precision.events, msg.precision.auc, msg.precision.value);
+    if (msg.precision) cachePrecision(msg.precision.n, msg.precision.events, msg.precision.auc, msg.precision.value);
     return { results: msg.results as RunResults, inputsSha256: msg.inputsSha256, drift: msg.drift };
   });
   return {

@@ -1,4 +1,4 @@
-// Pool task for a recalibration (domain/drift/drift.ts): loads the run's cohort through this thread's own connection,
+// Pool task for a recalibration (domain/drift/recalibration.ts): loads the run's cohort through this thread's own connection,
 // computes each patient's linear predictor and makes the fit (domain/drift/recalibrationFit.ts) off the API thread.
 import type { Derivation, RecalibrationMethod } from '@shared/drift';
 import pg from 'pg';
