@@ -8,7 +8,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { kestrelQuarterCsv } from '../../server/src/db/seeds/kestrelData';
 import { KESTREL_MAPPING } from '../../server/src/db/seeds/cohorts';
 import { discardStaleUploads, whenProcessed } from '../../server/src/services/uploads';
-import { createScoreFixture, FIXTURE_MODEL } from '../helpers/fixtures';
+import { createScoreFixture } from '../helpers/fixtures';
 import { app, bearer, countRows, dataSource, tokenFor, useDatabase } from '../helpers/api';
 
 useDatabase();

@@ -2,7 +2,7 @@
 // risk-adjusted CUSUM and cumulative O − E), the alert rules that watch it, and recalibration into a draft version.
 // Predicted risk per patient comes from runCompute.predictedRisk, the same path the runs use.
 import type { EntityManager } from 'typeorm';
-import type { AlertRuleBody, AlertRuleKind, AlertRuleView, AlertView, CalibrationPoint, CalibrationSummary, Derivation, DriftPeriod, DriftPoint, DriftResponse, RecalibrationMethod } from '@shared/drift';
+import type { AlertRuleBody, AlertRuleKind, AlertRuleView, AlertView, Derivation, DriftPeriod, DriftPoint, DriftResponse, RecalibrationMethod } from '@shared/drift';
 import { RECALIBRATION_BANNER } from '@shared/drift';
 import { formatPeriodRange, periodCovering, wholeMonths } from '@shared/periods';
 import type { Estimate, FitResult } from '@shared/validation';
@@ -21,7 +21,6 @@ import { queueEmail, recipientsForRole } from './mail';
 import type { RunScoreInput } from './runCompute';
 import { fitted, plain } from './recalibrationFit';
 import { createScoreVersion, getScoreVersionByNumber, scoreVersionDto } from './scores';
-import { logger } from '../observability/log';
 
 export const DEFAULT_CUSUM = { oddsRatio: 2, h: 4.5 };
 export const DEFAULT_IMPROVEMENT_OR = 0.5;

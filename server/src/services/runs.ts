@@ -19,7 +19,7 @@ export { loadRunInput };
 import { evaluateAlertsForRun } from './drift';
 import { drainJobs, enqueue, JOB, type JobHandler } from './jobs';
 import { queueEmail, recipientsForRole } from './mail';
-import { asStored, computeRunResults, ENGINE_VERSION, inputsSha256, resultsSha256, RunInputError, type RunComputeInput, type RunScoreInput } from './runCompute';
+import { asStored, computeRunResults, ENGINE_VERSION, resultsSha256, RunInputError } from './runCompute';
 import { completedRunRecord } from './runRecordCache';
 import { computeInThread, type RunningThread } from '../workers/pool';
 import { formatCount, formatFigure } from '@shared/format';
