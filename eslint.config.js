@@ -1,5 +1,6 @@
 // ESLint flat config. Correctness rules only: layout belongs to Prettier (eslint-config-prettier, last, turns
 // ESLint's layout rules off). DEVELOPERS.md ("Lint and format") says why each choice was made.
+import comments from '@eslint-community/eslint-plugin-eslint-comments/configs';
 import js from '@eslint/js';
 import { defineConfig, globalIgnores } from 'eslint/config';
 import prettier from 'eslint-config-prettier';
@@ -10,6 +11,9 @@ import tseslint from 'typescript-eslint';
 export default defineConfig([
   // Build output, installed packages, test artefacts and databases are not ours to lint.
   globalIgnores(['node_modules/', 'dist/', 'coverage/', 'tests/artifacts/', '.data/', 'fonts/']),
+
+  // A directive that no longer silences anything is an error, so stale exceptions do not pile up.
+  { linterOptions: { reportUnusedDisableDirectives: 'error' } },
 
   js.configs.recommended,
   // The syntax-only preset: the type-checked presets need a full TypeScript program per run (DEVELOPERS.md).
@@ -28,15 +32,16 @@ export default defineConfig([
   { files: ['client/**'], languageOptions: { globals: globals.browser } },
   { files: ['server/**', 'tests/**', 'shared/**', '*.js', '*.ts'], languageOptions: { globals: globals.node } },
 
+  // Every eslint-disable comment names its rule and says why after `--`; none switches everything off for a file.
+  comments.recommended,
+  { rules: { '@eslint-community/eslint-comments/require-description': ['error', { ignore: ['eslint-enable'] }] } },
+
   {
     rules: {
       // `==` only where it means what everyone expects (`x == null`); the tree already keeps to that.
       eqeqeq: ['error', 'smart'],
-      // `_name` marks a parameter or binding kept on purpose (an Express handler's unused `req`, a skipped tuple item).
-      '@typescript-eslint/no-unused-vars': [
-        'error',
-        { argsIgnorePattern: '^_', varsIgnorePattern: '^_', caughtErrors: 'none', ignoreRestSiblings: true },
-      ],
+      // `_next` keeps Express's four-argument error-handler signature; `{ a: _a, ...rest }` drops a field from a copy.
+      '@typescript-eslint/no-unused-vars': ['error', { argsIgnorePattern: '^_', ignoreRestSiblings: true }],
     },
   },
 
