@@ -6,6 +6,9 @@ mkdir -p tests/artifacts
 status=0
 step() { printf '\n\033[1;34m[plumbline test]\033[0m %s\n' "$*"; }
 
+step "lint: ESLint, then Prettier's check (npm run lint); a finding stops the run"
+npm run -s lint || { echo "lint failed: fix the findings above (npm run format rewrites layout), then run the tests again" >&2; exit 1; }
+
 step "type-check server, shared and tests"
 npx tsc -p tsconfig.json || status=1
 step "type-check the client; build client and server (npm run build: dist/client, dist/server)"

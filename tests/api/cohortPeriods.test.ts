@@ -30,7 +30,7 @@ function rowsLabelled(year: number, quarter: 1 | 2 | 3 | 4, n: number, label: st
   });
 }
 
-async function storeFile(name: string, lines: string[]): Promise<{ cohortId: string; version: number; cohortVersionId: string; upload: Record<string, any> }> {
+async function storeFile(name: string, lines: string[]): Promise<{ cohortId: string; version: number; cohortVersionId: string; upload: Record<string, unknown> }> {
   const header = [...kestrelQuarterCsv({ year: 2026, quarter: 1, index: 0, n: 0, seed: 1 })][0];
   const file = path.join(tmp, name);
   writeFileSync(file, `${[header, ...lines].join('\n')}\n`);

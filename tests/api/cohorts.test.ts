@@ -1,6 +1,6 @@
 // Cohort uploads end to end against the real PostgreSQL: roles, the bad-file corpus, the screen, row checks, storage.
 import { createHash } from 'node:crypto';
-import { appendFileSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync, createWriteStream } from 'node:fs';
+import { mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync, createWriteStream } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import request from 'supertest';

@@ -91,11 +91,6 @@ async function token(email: string) {
   return { Authorization: `Bearer ${r.token}` };
 }
 
-async function restart() {
-  await server.kill('SIGKILL');
-  await server.start();
-}
-
 describe(`SIGKILL in the middle of work (${ROWS.toLocaleString('en')} rows)`, () => {
   let uploadId = '';
   let cohortVersionId = '';

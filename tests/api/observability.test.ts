@@ -21,7 +21,8 @@ const sink = new Writable({
   },
 });
 const logged = createApp({ serveClient: false, log: createLogger(sink, 'info') });
-const entries = () => lines.map((l) => JSON.parse(l) as Record<string, any>);
+type LogLine = { req?: { id?: string; url?: string; headers: Record<string, string> } } & Record<string, unknown>;
+const entries = () => lines.map((l) => JSON.parse(l) as LogLine);
 
 beforeAll(() => startProcessMetrics());
 
@@ -54,9 +55,9 @@ describe('request logs', () => {
     expect(lines.length).toBeGreaterThanOrEqual(3);
     for (const secret of [token, token.split('.')[2], password, 'cookie-secret-123', 'cHJveHk6c2VjcmV0', 'Secret']) expect(text).not.toContain(secret);
     const readLine = entries().find((e) => e.req?.id === read.headers['x-request-id']);
-    expect(readLine?.req.headers.authorization).toBe('[redacted]');
-    expect(readLine?.req.url).toBe('/api/cohorts');
-    expect(entries().find((e) => e.req?.id === login.headers['x-request-id'])?.req.headers.cookie).toBe('[redacted]');
+    expect(readLine?.req?.headers.authorization).toBe('[redacted]');
+    expect(readLine?.req?.url).toBe('/api/cohorts');
+    expect(entries().find((e) => e.req?.id === login.headers['x-request-id'])?.req?.headers.cookie).toBe('[redacted]');
   });
 });
 

@@ -71,12 +71,16 @@ async function stop(child: ChildProcess): Promise<void> {
   await exited;
 }
 
+/** The API's JSON, read as loosely as supertest's `res.body` in the other API tests. */
+// eslint-disable-next-line @typescript-eslint/no-explicit-any -- the test walks deep into runs and uploads; a wrong shape fails its expect
+type Json = Record<string, any>;
+
 const api = async (p: string, init: RequestInit & { token?: string } = {}) => {
   const headers: Record<string, string> = { ...(init.headers as Record<string, string>) };
   if (init.token) headers.Authorization = `Bearer ${init.token}`;
   if (typeof init.body === 'string') headers['Content-Type'] = 'application/json';
   const res = await fetch(`http://127.0.0.1:${port}${p}`, { ...init, headers });
-  return { status: res.status, body: (await res.json().catch(() => ({}))) as Record<string, any> };
+  return { status: res.status, body: (await res.json().catch(() => ({}))) as Json };
 };
 
 beforeAll(async () => {
@@ -172,7 +176,7 @@ describe('the production start (node dist/server/index.js)', () => {
       expect(up.status, JSON.stringify(upBody)).toBe(201);
       const mapped = await api(`/api/uploads/${upBody.upload.id}/mapping`, { method: 'POST', token, body: JSON.stringify({ mapping: KESTREL_MAPPING }) });
       expect(mapped.status, JSON.stringify(mapped.body)).toBe(202);
-      let upload: Record<string, any> = {};
+      let upload: Json = {};
       for (const until = Date.now() + 90_000; Date.now() < until; await new Promise((res) => setTimeout(res, 300))) {
         upload = (await api(`/api/uploads/${upBody.upload.id}`, { token })).body.upload;
         if (upload.status !== 'processing') break;
@@ -188,7 +192,7 @@ describe('the production start (node dist/server/index.js)', () => {
       expect(rows.body.total).toBe(upload.rowsAccepted);
       const queued = await api('/api/runs', { method: 'POST', token, body: JSON.stringify({ scoreVersionId: versionId, cohortVersionId: commit.body.cohortVersionId }) });
       expect(queued.status, JSON.stringify(queued.body)).toBe(201);
-      let run: Record<string, any> = {};
+      let run: Json = {};
       for (const until = Date.now() + 120_000; Date.now() < until; await new Promise((res) => setTimeout(res, 300))) {
         run = (await api(`/api/runs/${queued.body.run.id}`, { token })).body.run;
         if (run.status !== 'queued' && run.status !== 'running') break;

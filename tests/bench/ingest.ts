@@ -41,7 +41,10 @@ async function generate(file: string, rows: number): Promise<void> {
   await new Promise<void>((r) => out.end(() => r()));
 }
 
-function call(base: string, method: string, url: string, token: string | null, body?: unknown): Promise<{ status: number; body: any }> {
+/** The fields of the API's answers that the benchmark reads. */
+type Reply = { token?: string; rowCount?: number; upload: { id: string; status: string } };
+
+function call(base: string, method: string, url: string, token: string | null, body?: unknown): Promise<{ status: number; body: Reply }> {
   return new Promise((resolve, reject) => {
     const data = body === undefined ? undefined : Buffer.from(JSON.stringify(body));
     // agent: false — a kept-alive socket closed by the server's 5 s idle timeout during the \copy would reset the next request.
@@ -56,7 +59,7 @@ function call(base: string, method: string, url: string, token: string | null, b
 }
 
 /** Streams the file as multipart/form-data (never read whole into memory). */
-function uploadMultipart(base: string, token: string, file: string, fields: Record<string, string>): Promise<{ status: number; body: any }> {
+function uploadMultipart(base: string, token: string, file: string, fields: Record<string, string>): Promise<{ status: number; body: Reply }> {
   const boundary = `----plumbline${Date.now()}`;
   let head = '';
   for (const [k, v] of Object.entries(fields)) head += `--${boundary}\r\nContent-Disposition: form-data; name="${k}"\r\n\r\n${v}\r\n`;

@@ -70,7 +70,7 @@ export class ServerProcess {
       throw err;
     });
     const text = await res.text();
-    let body: Record<string, unknown> = {};
+    let body: Record<string, unknown>;
     try {
       body = JSON.parse(text);
     } catch {

@@ -37,11 +37,15 @@ export function writeCsv(columns: Record<string, ArrayLike<number>>): string {
   return file;
 }
 
-export function runPython(script: string, ...args: string[]): any {
+/** The JSON a reference script prints: each test reads the keys its own script wrote. */
+// eslint-disable-next-line @typescript-eslint/no-explicit-any -- the shape is set by the R or Python text beside each test
+type ScriptOutput = any;
+
+export function runPython(script: string, ...args: string[]): ScriptOutput {
   return JSON.parse(execFileSync(PYTHON, ['-c', script, ...args], { encoding: 'utf8', maxBuffer: 1 << 28 }));
 }
 
-export function runR(script: string, ...args: string[]): any {
+export function runR(script: string, ...args: string[]): ScriptOutput {
   const out = execFileSync(RSCRIPT, ['-e', script, ...args], { encoding: 'utf8', maxBuffer: 1 << 28, stdio: ['ignore', 'pipe', 'ignore'] });
   return JSON.parse(out.trim().split('\n').pop()!);
 }

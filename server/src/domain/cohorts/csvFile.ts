@@ -19,6 +19,7 @@ export class CsvBytesError extends DomainError {
   }
 }
 
+// eslint-disable-next-line no-control-regex -- binary control characters are exactly what this check looks for
 const CONTROL = /[\u0000-\u0008\u000e-\u001f]/;
 
 function countNewlines(text: string, end = text.length): number {
