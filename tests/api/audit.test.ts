@@ -1,7 +1,7 @@
 import request from 'supertest';
 import { describe, expect, it } from 'vitest';
 import { verifyAuditChain } from '../../server/src/domain/accounts/audit';
-import { app, bearer, dataSource, loginAs, ownerDataSource, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
+import { app, bearer, loginAs, ownerDataSource, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
 
 useDatabase();
 

@@ -9,7 +9,7 @@ import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
 import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
 import { whenProcessed } from '../../server/src/domain/cohorts/uploads';
 import { discardStaleUploads } from '../../server/src/domain/cohorts/uploadSweep';
-import { createScoreFixture, FIXTURE_MODEL } from '../helpers/fixtures';
+import { createScoreFixture } from '../helpers/fixtures';
 import { app, bearer, countRows, dataSource, tokenFor, useDatabase } from '../helpers/api';
 
 useDatabase();

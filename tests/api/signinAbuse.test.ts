@@ -5,7 +5,7 @@ import request from 'supertest';
 import { afterAll, describe, expect, it } from 'vitest';
 import { createApp } from '../../server/src/http/app';
 import { config } from '../../server/src/platform/config';
-import { app, bearer, dataSource, DEMO_PASSWORD, loginAs, tokenFor, uniqueEmail, useDatabase } from '../helpers/api';
+import { app, bearer, dataSource, loginAs, tokenFor, uniqueEmail, useDatabase } from '../helpers/api';
 
 useDatabase();
 
