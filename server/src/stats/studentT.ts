@@ -60,13 +60,25 @@ export function incompleteBeta(x: number, a: number, b: number): number {
   return x < (a + 1) / (a + b + 2) ? (front * betaFraction(a, b, x)) / a : 1 - (front * betaFraction(b, a, 1 - x)) / b;
 }
 
-/** P(T > t) for t ≥ 0. */
+/** ln Γ(a + ½) − ln Γ(a); for large a from Stirling's series, so the two large log-gammas do not cancel. */
+function logGammaRatioHalf(a: number): number {
+  if (a < 50) return logGamma(a + 0.5) - logGamma(a);
+  const s = (x: number) => 1 / (12 * x) - 1 / (360 * x ** 3) + 1 / (1260 * x ** 5) - 1 / (1680 * x ** 7);
+  return 0.5 * Math.log(a) + a * Math.log1p(1 / (2 * a)) - 0.5 + s(a + 0.5) - s(a);
+}
+
+/** P(T > t) for t ≥ 0, with ln x and ln(1 − x) taken without rounding x = ν/(ν + t²) first. */
 function tUpper(t: number, df: number): number {
-  return 0.5 * incompleteBeta(df / (df + t * t), df / 2, 0.5);
+  const a = df / 2;
+  const t2 = t * t;
+  const x = df / (df + t2);
+  const y = t2 / (df + t2);
+  const front = Math.exp(logGammaRatioHalf(a) - 0.5723649429247001 - a * Math.log1p(t2 / df) + 0.5 * Math.log(y)); // ln Γ(½) = ln √π
+  return 0.5 * (x < (a + 1) / (a + 1.5) ? (front * betaFraction(a, 0.5, x)) / a : 1 - (front * betaFraction(0.5, a, y)) / 0.5);
 }
 
 function tDensity(t: number, df: number): number {
-  return Math.exp(logGamma((df + 1) / 2) - logGamma(df / 2) - 0.5 * Math.log(df * Math.PI) - ((df + 1) / 2) * Math.log1p((t * t) / df));
+  return Math.exp(logGammaRatioHalf(df / 2) - 0.5 * Math.log(df * Math.PI) - ((df + 1) / 2) * Math.log1p((t * t) / df));
 }
 
 export function tQuantile(p: number, df: number): number {

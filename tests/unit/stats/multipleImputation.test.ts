@@ -35,7 +35,7 @@ function cohortWithGaps(n: number, seed: number) {
   return { input, full: { x1, x2, x3 }, y };
 }
 
-const mean = (a: ArrayLike<number>) => Array.prototype.reduce.call(a, (s: number, v: number) => s + v, 0) as number / a.length;
+const mean = (a: ArrayLike<number>) => Array.from(a).reduce((s, v) => s + v, 0) / a.length;
 
 describe('chained imputation: seeds', () => {
   const { input } = cohortWithGaps(600, 7);
