@@ -82,12 +82,13 @@ export function imputeOnce(input: ImputationInput, settings: ImputationSettings,
   const outcome = Float64Array.from(input.outcome);
   const encoded = all.map((c, j) => encode(c, current[j]));
   const withGaps = input.columns.map((_, j) => j).filter((j) => observed[j].some((o) => o === 0));
+  const warm = all.map(() => ({}) as { start?: number[] });
   for (let it = 0; it < settings.iterations; it++) {
     for (const j of withGaps) {
       const design = [outcome, ...encoded.filter((_, k) => k !== j).flat()];
       const c = all[j];
       if (c.kind === 'numeric') pmmImpute(current[j], observed[j], design, rand, settings.donors);
-      else categoricalImpute(current[j], observed[j], design, levelsOf(c), rand);
+      else categoricalImpute(current[j], observed[j], design, levelsOf(c), rand, warm[j]);
       encoded[j] = encode(c, current[j]);
     }
   }
