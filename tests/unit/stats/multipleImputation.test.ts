@@ -88,7 +88,7 @@ describe('predictive mean matching: the published donor rule (Morris, White & Ro
     expect(donors.length).toBe(gaps.length);
     gaps.forEach((i, k) => {
       expect(observed[donors[k]]).toBe(1);
-      expect(target[i]).toBe(target[donors[k]]);
+      expect(target[i]).toBe(target[donors[k]]); // PMM imputes the donor's observed value, Little 1988
       expect(observedValues.has(target[i])).toBe(true);
     });
   });
@@ -107,7 +107,7 @@ describe('predictive mean matching: the published donor rule (Morris, White & Ro
       expect(target[40]).toBe(donor * 10);
     }
     // nearest five predicted means to 0.3 are rows 1 … 5 (0.1 … 0.5); rows 1 and 5 tie at 0.2, both within d = 5
-    expect([...counts.keys()].sort((a, b) => a - b)).toEqual([1, 2, 3, 4, 5]);
+    expect([...counts.keys()].sort((a, b) => a - b)).toEqual([1, 2, 3, 4, 5]); // the d = 5 nearest, Morris et al. 2014 (type-1 matching)
     for (const c of counts.values()) expect(Math.abs(c - 1000)).toBeLessThan(4 * Math.sqrt(5000 * 0.2 * 0.8)); // 1/d each
   });
 
@@ -116,7 +116,7 @@ describe('predictive mean matching: the published donor rule (Morris, White & Ro
     const observed = Uint8Array.from({ length: 21 }, (_, i) => (i === 20 ? 0 : 1));
     const target = Float64Array.from(x);
     const [donor] = pmmMatch(target, observed, [x], [0, 1], [7.2, 0], mulberry32(1), 1);
-    expect(donor).toBe(7);
+    expect(donor).toBe(7); // nearest predicted mean to 7.2 (Little 1988; Morris et al. 2014)
   });
 });
 
@@ -169,18 +169,18 @@ describe('multiple imputation recovers what complete cases miss (MAR on the outc
 describe("Rubin's rules by hand", () => {
   it('identical estimates: no between variance, total = within, λ at 0', () => {
     const p = poolScalar([2, 2, 2], [0.04, 0.04, 0.04]);
-    expect(p.between).toBe(0);
-    expect(p.total).toBeCloseTo(0.04, 15);
-    expect(p.lambda).toBe(0);
-    expect(p.qbar).toBe(2);
+    expect(p.between).toBe(0); // B = var(Q) = 0, Rubin 1987 §3.1
+    expect(p.total).toBeCloseTo(0.04, 15); // T = Ū + (1 + 1/m)·0, ibid.
+    expect(p.lambda).toBe(0); // λ = (1 + 1/m)B/T, ibid.
+    expect(p.qbar).toBe(2); // Q̄ = mean Q, ibid.
   });
   it('Q = (1, 2, 3), U = (1, 1, 1): B = 1, T = 1 + 4/3, r = 4/3, λ = 4/7 (Rubin 1987, §3.1 formulas)', () => {
     const p = poolScalar([1, 2, 3], [1, 1, 1]);
-    expect(p.qbar).toBe(2);
-    expect(p.between).toBeCloseTo(1, 15);
-    expect(p.total).toBeCloseTo(7 / 3, 14);
-    expect(p.riv).toBeCloseTo(4 / 3, 14);
-    expect(p.lambda).toBeCloseTo(4 / 7, 14);
+    expect(p.qbar).toBe(2); // Q̄, Rubin 1987 §3.1
+    expect(p.between).toBeCloseTo(1, 15); // B = Σ(Q − Q̄)²/(m − 1) = 2/2, ibid.
+    expect(p.total).toBeCloseTo(7 / 3, 14); // T = 1 + (4/3)·1, ibid.
+    expect(p.riv).toBeCloseTo(4 / 3, 14); // r = (1 + 1/m)B/Ū, ibid.
+    expect(p.lambda).toBeCloseTo(4 / 7, 14); // λ = (4/3)/(7/3), ibid.
     expect(p.df).toBeCloseTo(2 / (4 / 7) ** 2, 12); // ν_old = (m − 1)/λ², Rubin 1987
   });
   it('logit-scale AUC pooling transforms back inside (0, 1) and keeps the estimate between the inputs', () => {
