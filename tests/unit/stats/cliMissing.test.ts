@@ -76,6 +76,22 @@ describe('plumbline validate --missing mi', () => {
   });
 });
 
+describe('plumbline validate --missing mi --imputation-columns', () => {
+  it('a complete extra column informs the imputation models; an extra column with a gap is refused with its line', () => {
+    const withSite = file('site.csv', rows.map((line, i) => `${line},${i === 0 ? 'site' : `s${i % 3}`}`).join('\n') + '\n');
+    const out = cli(['validate', '--csv', withSite, '--outcome', 'died', '--model', model, '--missing', 'mi', '--imputations', '3', '--seed', '2', '--imputation-columns', 'site']);
+    expect(out.status, out.stderr).toBe(0);
+    const j = JSON.parse(out.stdout);
+    expect(j.missingData.imputation.extraColumns).toEqual(['site']);
+    const without = JSON.parse(cli(['validate', '--csv', withSite, '--outcome', 'died', '--model', model, '--missing', 'mi', '--imputations', '3', '--seed', '2']).stdout);
+    expect(j.missingData.pooling.auc.pooledOnScale).not.toBe(without.missingData.pooling.auc.pooledOnScale); // another model, other draws
+    const gap = file('site-gap.csv', rows.map((line, i) => `${line},${i === 0 ? 'site' : i === 5 ? '' : 's1'}`).join('\n') + '\n');
+    const bad = cli(['validate', '--csv', gap, '--outcome', 'died', '--model', model, '--missing', 'mi', '--imputation-columns', 'site']);
+    expect(bad.status).toBe(1);
+    expect(bad.stderr).toContain(`${gap} line 6, column site: an imputation column must have a value in every row`);
+  });
+});
+
 describe('plumbline validate --missing complete-case, and gaps without --missing', () => {
   it('complete cases: the rows without a gap, with the count left out', () => {
     const out = cli([...base, '--missing', 'complete-case']);

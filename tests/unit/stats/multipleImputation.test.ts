@@ -6,6 +6,7 @@ import { categoricalImpute } from '../../../server/src/stats/categoricalImputati
 import { imputeOnce, multipleImputation, type ImputationInput } from '../../../server/src/stats/chainedImputation';
 import { pmmImpute, pmmMatch } from '../../../server/src/stats/predictiveMeanMatching';
 import { normalDraw } from '../../../server/src/stats/randomDraws';
+import { validateWithGaps } from '../../../server/src/stats/pooledValidation';
 import { poolMetric, poolScalar } from '../../../server/src/stats/rubinsRules';
 
 /** x1 ~ N(50, 10), x2 correlated with x1, x3 a 3-level category; y from all three; gaps MAR on y and x1. */
@@ -189,5 +190,65 @@ describe("Rubin's rules by hand", () => {
     expect(p.estimate).toBeLessThan(0.74);
     expect(p.estimateLower).toBeGreaterThan(0);
     expect(p.estimateUpper).toBeLessThan(1);
+  });
+});
+
+describe('validation with gaps: complete cases beside multiple imputation (simulation, seeds stated)', () => {
+  // the score is the true model, so on the full data O/E ≈ 1; x1 has gaps, either on the outcome (MAR) or at random (MCAR)
+  const model = { intercept: -1.5 - 0.1 * 50, predictors: [{ column: 'x1', coefficient: 0.1, transform: 'linear' as const }, { column: 'x2', coefficient: 0.5, transform: 'linear' as const }] };
+  function run(mechanism: 'MAR' | 'MCAR', seed: number) {
+    const r = mulberry32(seed);
+    const n = 3000;
+    const x1 = new Float64Array(n), x2 = new Float64Array(n), y = new Uint8Array(n);
+    for (let i = 0; i < n; i++) {
+      x1[i] = 50 + 10 * normalDraw(r);
+      x2[i] = 0.05 * (x1[i] - 50) + normalDraw(r);
+      y[i] = r() < 1 / (1 + Math.exp(-(-1.5 + 0.1 * (x1[i] - 50) + 0.5 * x2[i]))) ? 1 : 0;
+    }
+    const g1 = Float64Array.from(x1, (v, i) => (r() < (mechanism === 'MAR' ? (y[i] ? 0.6 : 0.05) : 0.2) ? NaN : v));
+    const full = validateWithGaps(model, y, [{ name: 'x1', kind: 'numeric', values: x1 }, { name: 'x2', kind: 'numeric', values: x2 }], { imputations: 2, iterations: 1, seed: 1, donors: 5 }).completeCase.result!;
+    const gaps = validateWithGaps(model, y, [{ name: 'x1', kind: 'numeric', values: g1 }, { name: 'x2', kind: 'numeric', values: x2 }], { imputations: 10, iterations: 5, seed: seed + 1, donors: 5 });
+    return { full, gaps };
+  }
+
+  it('MAR on the outcome (seed 41): complete cases understate O/E beyond their interval; the pooled O/E and AUC intervals hold the full-data values', () => {
+    const { full, gaps } = run('MAR', 41);
+    const cc = gaps.completeCase.result!;
+    const p = gaps.imputed.pooled;
+    expect(cc.oe.upper).toBeLessThan(full.oe.estimate); // events are left out more often (the design of this simulation)
+    expect(full.oe.estimate).toBeGreaterThan(p.oe.estimateLower);
+    expect(full.oe.estimate).toBeLessThan(p.oe.estimateUpper);
+    expect(full.auc.estimate).toBeGreaterThan(p.auc.estimateLower);
+    expect(full.auc.estimate).toBeLessThan(p.auc.estimateUpper);
+    expect(p.oe.fmi).toBeGreaterThan(0);
+  });
+
+  it('MCAR (seed 42): complete cases and the pooled analysis both hold the full-data O/E and AUC', () => {
+    const { full, gaps } = run('MCAR', 42);
+    const cc = gaps.completeCase.result!;
+    const p = gaps.imputed.pooled;
+    expect(gaps.completeCase.leftOut).toBeGreaterThan(500);
+    for (const [lo, hi] of [[cc.oe.lower, cc.oe.upper], [p.oe.estimateLower, p.oe.estimateUpper]]) {
+      expect(full.oe.estimate).toBeGreaterThan(lo);
+      expect(full.oe.estimate).toBeLessThan(hi);
+    }
+    for (const [lo, hi] of [[cc.auc.lower, cc.auc.upper], [p.auc.estimateLower, p.auc.estimateUpper]]) {
+      expect(full.auc.estimate).toBeGreaterThan(lo);
+      expect(full.auc.estimate).toBeLessThan(hi);
+    }
+  });
+
+  it('without gaps every completed set is the data itself: pooled = complete-case values, B = 0, nothing left out', () => {
+    const r = mulberry32(43);
+    const x1 = Float64Array.from({ length: 500 }, () => 50 + 10 * normalDraw(r));
+    const x2 = Float64Array.from({ length: 500 }, () => normalDraw(r));
+    const y = Uint8Array.from(x1, (v, i) => (r() < 1 / (1 + Math.exp(-(-6.5 + 0.1 * v + 0.5 * x2[i]))) ? 1 : 0));
+    const a = validateWithGaps(model, y, [{ name: 'x1', kind: 'numeric', values: x1 }, { name: 'x2', kind: 'numeric', values: x2 }], { imputations: 3, iterations: 2, seed: 1, donors: 5 });
+    const cc = a.completeCase.result!;
+    expect(a.completeCase.leftOut).toBe(0);
+    expect(a.imputed.pooled.auc.between).toBe(0); // identical sets: B = 0 (Rubin 1987 §3.1)
+    expect(a.imputed.pooled.auc.estimate).toBeCloseTo(cc.auc.estimate, 12);
+    expect(a.imputed.pooled.calibrationSlope!.estimate).toBeCloseTo((cc.calibrationSlope as { estimate: number }).estimate, 12);
+    expect(a.imputed.pooled.calibrationSlope!.total).toBeCloseTo((cc.calibrationSlope as { se: number }).se ** 2, 12); // T = Ū when B = 0
   });
 });
