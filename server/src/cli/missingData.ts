@@ -166,7 +166,8 @@ export function analyseGaps(
   thresholds: number[] | undefined,
   toJson: (r: ValidationResult) => unknown,
 ): GapsAnalysis {
-  const indicator = new Set(model.predictors.filter((q) => q.transform === 'indicator').map((q) => q.column));
+  // categorical only where every use of the column is an indicator: a column also used as a number stays numeric
+  const indicator = new Set(modelColumns(model).filter((c) => model.predictors.every((q) => q.column !== c || q.transform === 'indicator')));
   const columns = modelColumns(model).map((c) => typedColumn(c, kept.columns[c], kept.lines, file, indicator.has(c), true));
   const extra = options.extraColumns.map((c) => typedColumn(c, kept.columns[c], kept.lines, file, false, false));
   const settings = thresholds ? { thresholds } : {};
