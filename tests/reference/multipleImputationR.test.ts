@@ -131,9 +131,9 @@ toJ(list(auc = pl(1)$qbar, aucB = pl(1)$b, oe = pl(3)$qbar, oeB = pl(3)$b, slope
     expect(within(pooled.qbar, pooled.between, ref.x1, ref.x1B), `${pooled.qbar} vs ${ref.x1}`).toBe(true); // mice pmm pooled mean [ref]
     const truth = mean(d.x1);
     const cc = Array.from(d.g1).filter((v) => !Number.isNaN(v));
-    expect(truth).toBeGreaterThan(pooled.lower);
-    expect(truth).toBeLessThan(pooled.upper);
-    expect(mean(cc)).toBeLessThan(truth - 4 * Math.sqrt(varOfMean(cc))); // events (higher x1) are missing more often
+    expect(truth).toBeGreaterThan(pooled.lower); // full-data mean of the simulated x1 (seed 2031)
+    expect(truth).toBeLessThan(pooled.upper); // ibid.
+    expect(mean(cc)).toBeLessThan(truth - 4 * Math.sqrt(varOfMean(cc))); // events (higher x1) are missing more often, by design of the simulation
     expect(ref.x1).toBeGreaterThan(mean(cc) + 4 * Math.sqrt(varOfMean(cc))); // mice moves the same way [ref]
   });
 
@@ -142,9 +142,9 @@ toJ(list(auc = pl(1)$qbar, aucB = pl(1)$b, oe = pl(3)$qbar, oeB = pl(3)$b, slope
     const fullOe = mean(d.y) / mean(fullP);
     const cc = ours.completeCase.result!;
     expect(ours.completeCase.leftOut).toBeGreaterThan(300);
-    expect(cc.oe.upper).toBeLessThan(fullOe);
-    expect(fullOe).toBeGreaterThan(ours.imputed.pooled.oe.estimateLower);
-    expect(fullOe).toBeLessThan(ours.imputed.pooled.oe.estimateUpper);
+    expect(cc.oe.upper).toBeLessThan(fullOe); // full-data O/E of the simulated cohort (seed 2031)
+    expect(fullOe).toBeGreaterThan(ours.imputed.pooled.oe.estimateLower); // ibid.
+    expect(fullOe).toBeLessThan(ours.imputed.pooled.oe.estimateUpper); // ibid.
     expect(Math.exp(ref.oe)).toBeGreaterThan(cc.oe.upper); // mice's pooled O/E is above the complete-case interval too [ref]
   });
 });

@@ -158,8 +158,8 @@ describe('multiple imputation recovers what complete cases miss (MAR on the outc
     const cc = Array.from(input.columns[0].values).filter((v) => !Number.isNaN(v));
     const ccMean = mean(cc);
     const ccSe = Math.sqrt(cc.reduce((a, v) => a + (v - ccMean) ** 2, 0) / (cc.length - 1) / cc.length);
-    expect(truth).toBeGreaterThan(pooled.lower);
-    expect(truth).toBeLessThan(pooled.upper);
+    expect(truth).toBeGreaterThan(pooled.lower); // full-data mean of the simulated x1 (seed 7)
+    expect(truth).toBeLessThan(pooled.upper); // ibid.
     // events have higher x1 and are missing more often, so complete cases understate the mean
     expect(ccMean).toBeLessThan(truth - 3 * ccSe);
     expect(pooled.fmi).toBeGreaterThan(0);
@@ -216,10 +216,10 @@ describe('validation with gaps: complete cases beside multiple imputation (simul
     const cc = gaps.completeCase.result!;
     const p = gaps.imputed.pooled;
     expect(cc.oe.upper).toBeLessThan(full.oe.estimate); // events are left out more often (the design of this simulation)
-    expect(full.oe.estimate).toBeGreaterThan(p.oe.estimateLower);
-    expect(full.oe.estimate).toBeLessThan(p.oe.estimateUpper);
-    expect(full.auc.estimate).toBeGreaterThan(p.auc.estimateLower);
-    expect(full.auc.estimate).toBeLessThan(p.auc.estimateUpper);
+    expect(full.oe.estimate).toBeGreaterThan(p.oe.estimateLower); // O/E on the simulated data before the gaps (seed 41)
+    expect(full.oe.estimate).toBeLessThan(p.oe.estimateUpper); // ibid.
+    expect(full.auc.estimate).toBeGreaterThan(p.auc.estimateLower); // AUC on the data before the gaps (seed 41)
+    expect(full.auc.estimate).toBeLessThan(p.auc.estimateUpper); // ibid.
     expect(p.oe.fmi).toBeGreaterThan(0);
   });
 
