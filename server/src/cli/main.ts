@@ -5,9 +5,10 @@ import { scoreModelSchema, type ScoreModel } from '@shared/model';
 import type { Estimate, FitResult, ValidationResult } from '@shared/validation';
 import { ADEQUACY_SOURCES, adequacyVerdict, MINIMUM_EACH } from '@shared/adequacy';
 import { EngineInputError, validate } from '../stats/index';
+import { analyseGaps, MISSING_OPTIONS, missingOptions, modelColumns } from './missingData';
 import { CsvInputError, readCohortCsv } from './readCohortCsv';
 
-const USAGE = 'usage: plumbline validate --csv FILE --outcome COL (--prediction COL | --model MODEL.json) [--thresholds 0.05,0.1,0.2,0.3,0.5] [--format json|table]';
+const USAGE = 'usage: plumbline validate --csv FILE --outcome COL (--prediction COL | --model MODEL.json) [--thresholds 0.05,0.1,0.2,0.3,0.5] [--format json|table] [--missing complete-case|mi [--imputations 20] [--iterations 5] [--seed N] [--imputation-columns A,B]]';
 
 class UsageError extends Error {}
 
@@ -126,7 +127,7 @@ async function run(argv: string[]): Promise<void> {
   const [command, ...rest] = argv;
   if (command !== 'validate') throw new UsageError(command ? `unknown command ${command}` : 'no command');
   const args = parseArgs(rest);
-  for (const k of Object.keys(args)) if (!['csv', 'outcome', 'prediction', 'model', 'thresholds', 'format'].includes(k)) throw new UsageError(`unknown option --${k}`);
+  for (const k of Object.keys(args)) if (!['csv', 'outcome', 'prediction', 'model', 'thresholds', 'format', ...MISSING_OPTIONS].includes(k)) throw new UsageError(`unknown option --${k}`);
   if (!args.csv || !args.outcome) throw new UsageError('--csv and --outcome are required');
   if (!!args.prediction === !!args.model) throw new UsageError('give exactly one of --prediction and --model');
   const format = args.format ?? 'json';
@@ -145,9 +146,17 @@ async function run(argv: string[]): Promise<void> {
     if (!parsed.success) throw new CsvInputError(args.model, null, null, `not a valid model: ${parsed.error.issues.map((i) => `${i.path.join('.') || '(root)'} ${i.message}`).join('; ')}`);
     model = parsed.data;
   }
-  const { p, y } = await readCohortCsv(args.csv, { outcome: args.outcome, prediction: args.prediction, model });
+  const missing = missingOptions(args, (message) => {
+    throw new UsageError(message);
+  });
+  const { p, y, kept } = await readCohortCsv(args.csv, { outcome: args.outcome, prediction: args.prediction, model, keep: missing ? [...new Set([...modelColumns(model!), ...missing.extraColumns])] : undefined });
   let result: ValidationResult;
   try {
+    if (missing) {
+      const gaps = analyseGaps(args.csv, model!, y, kept!, missing, thresholds, toCliJson);
+      process.stdout.write(format === 'json' ? `${JSON.stringify({ ...toCliJson(gaps.main), missingData: gaps.details }, null, 2)}\n` : `${toTable(gaps.main)}\n\n${gaps.table.join('\n')}\n`);
+      return;
+    }
     result = validate(p, y, thresholds ? { thresholds } : {});
   } catch (e) {
     if (e instanceof EngineInputError) {

@@ -38,6 +38,8 @@ export interface CohortSource {
   outcome: string;
   prediction?: string;
   model?: ScoreModel;
+  /** keep these columns' text (gaps allowed) instead of computing a risk per row: the missing-data path, cli/missingData.ts */
+  keep?: string[];
 }
 
 /** A missing file, a folder or a file without read permission, said in one line before any reading starts. */
@@ -63,7 +65,7 @@ const cell = (record: string[], i: number) => {
   return v === undefined ? undefined : v.length && (v.charCodeAt(0) === 32 || v.charCodeAt(v.length - 1) === 32) ? v.trim() : v;
 };
 
-export async function readCohortCsv(file: string, source: CohortSource): Promise<{ p: Float64Array; y: Uint8Array }> {
+export async function readCohortCsv(file: string, source: CohortSource): Promise<{ p: Float64Array; y: Uint8Array; kept?: { columns: Record<string, string[]>; lines: number[] } }> {
   await checkReadable(file);
   const p = new Growing(new Float64Array(1 << 16));
   const y = new Growing(new Uint8Array(1 << 16));
@@ -71,6 +73,7 @@ export async function readCohortCsv(file: string, source: CohortSource): Promise
   let yi = -1, pi = -1;
   let index: Record<string, number> = {};
   const lines = new LineNumbers();
+  const kept = source.keep ? { columns: Object.fromEntries(source.keep.map((c) => [c, [] as string[]])), lines: [] as number[] } : undefined;
   try {
     for await (const batch of csvBatches(file)) {
       for (const record of batch) {
@@ -81,7 +84,7 @@ export async function readCohortCsv(file: string, source: CohortSource): Promise
           const dup = header.find((h, i) => header!.indexOf(h) !== i);
           if (dup !== undefined) throw new CsvInputError(file, line, dup, 'this column name appears more than once in the header; rename one of them');
           index = Object.fromEntries(header.map((h, i) => [h, i]));
-          const needed = [source.outcome, ...(source.prediction ? [source.prediction] : []), ...(source.model?.predictors.map((q) => q.column) ?? [])];
+          const needed = [source.outcome, ...(source.prediction ? [source.prediction] : []), ...(source.model?.predictors.map((q) => q.column) ?? []), ...(source.keep ?? [])];
           for (const c of needed) if (!(c in index)) throw new CsvInputError(file, line, c, `no such column in the header (columns: ${header.join(', ')})`);
           yi = index[source.outcome];
           pi = source.prediction ? index[source.prediction] : -1;
@@ -90,7 +93,11 @@ export async function readCohortCsv(file: string, source: CohortSource): Promise
         const yText = cell(record, yi);
         if (yText !== '0' && yText !== '1') throw new CsvInputError(file, line, source.outcome, `outcome must be 0 or 1, got ${JSON.stringify(yText ?? '')}`);
         let risk: number;
-        if (pi >= 0) {
+        if (kept) {
+          for (const c of source.keep!) kept.columns[c].push(cell(record, index[c]) ?? '');
+          kept.lines.push(line);
+          risk = NaN;
+        } else if (pi >= 0) {
           const text = record[pi];
           risk = parseDecimal(text);
           if (!Number.isFinite(risk)) {
@@ -117,5 +124,5 @@ export async function readCohortCsv(file: string, source: CohortSource): Promise
   }
   if (!header) throw new CsvInputError(file, null, null, 'the file is empty');
   if (p.length === 0) throw new CsvInputError(file, null, null, 'no data rows below the header');
-  return { p: p.done(), y: y.done() };
+  return { p: p.done(), y: y.done(), kept };
 }

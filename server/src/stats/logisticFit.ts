@@ -13,6 +13,8 @@ import type { FitResult } from '@shared/validation';
 export interface LogisticFit {
   coefficients: number[];
   se: number[];
+  /** inverse observed information at the optimum (the parameter draw of multiple imputation needs all of it) */
+  covariance: number[][];
   logLik: number;
   iterations: number;
 }
@@ -148,7 +150,7 @@ export function logisticFit(
     if (small) {
       const inv = invert(cur.h);
       if (!inv) return { converged: false, reason: 'degenerate', detail: 'the information matrix is singular at the optimum' };
-      return { converged: true, coefficients: [...beta], se: inv.map((row, j) => Math.sqrt(row[j])), logLik: cur.ll, iterations: it };
+      return { converged: true, coefficients: [...beta], se: inv.map((row, j) => Math.sqrt(row[j])), covariance: inv, logLik: cur.ll, iterations: it };
     }
   }
   return { converged: false, reason: 'non-convergence', detail: `Newton–Raphson did not converge in ${maxIt} iterations` };
