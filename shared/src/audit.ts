@@ -25,3 +25,13 @@ export interface AuditRow {
   actorName?: string | null;
   targetName?: string | null;
 }
+
+/** What the check of the audit hash chain found (GET /api/audit/verify). */
+export interface ChainReport {
+  ok: boolean;
+  entries: number;
+  firstBrokenSeq: string | null;
+  reason: string | null;
+  /** The newest entry when the chain is whole, so an operator can note it outside the database and compare later. */
+  head: { seq: string; hash: string } | null;
+}

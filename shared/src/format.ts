@@ -54,10 +54,11 @@ export function formatFigure(figure: Figure, x: Maybe): string {
   return formatNumber(x, FIGURE_DECIMALS[figure]);
 }
 
+/** An estimate with its 95% CI; a missing or non-finite part shows as '—'. */
 export interface Interval {
-  estimate: number;
-  lower: number;
-  upper: number;
+  estimate: number | null;
+  lower: number | null;
+  upper: number | null;
 }
 
 /** "0.812 (95% CI 0.790 to 0.834)": the words avoid a dash that reads as a minus next to negative bounds. */

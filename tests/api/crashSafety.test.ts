@@ -18,9 +18,8 @@ import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
 import { BLOCK_ROWS } from '../../server/src/domain/cohorts/cohortBlocks';
 import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
-import { runTsx, ServerProcess } from '../helpers/childServer';
-import { FIXTURE_MODEL } from '../helpers/fixtures';
-import { createThrowawayCluster, freePort, type ThrowawayCluster } from '../helpers/throwawayPg';
+import { ServerProcess } from '../helpers/childServer';
+import { createPreparedCluster, freePort, insertFixtureScore, type ThrowawayCluster } from '../helpers/throwawayPg';
 import { until as waitUntil } from '../helpers/until';
 
 const ROWS = Number(process.env.PLUMBLINE_CRASH_ROWS ?? 1_000_000);
@@ -62,12 +61,8 @@ const stored = () => ({ cohorts: num('SELECT count(*) FROM cohorts'), versions: 
 const staged = (id: string) => num(`SELECT coalesce(sum(b.row_count), 0) FROM cohort_row_blocks b JOIN cohort_uploads u ON u.planned_version_id = b.cohort_version_id WHERE u.id = '${id}'`);
 
 beforeAll(async () => {
-  cluster = await createThrowawayCluster();
-  cluster.createDatabase('plumbline');
-  runTsx('tests/helpers/bin/prepareDatabase.ts', cluster.env());
-  const scoreId = sql(`INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
-    VALUES ('Crash test score', 'readmission (invented)', '30 days', 'adults (invented)', 'invented for tests', 'not medical advice') RETURNING id`);
-  scoreVersionId = sql(`INSERT INTO score_versions (score_id, version, mode, model) VALUES ('${scoreId}', 1, 'formula', '${JSON.stringify(FIXTURE_MODEL)}') RETURNING id`);
+  cluster = await createPreparedCluster();
+  scoreVersionId = insertFixtureScore(cluster, 'Crash test score');
   server = new ServerProcess(await freePort(3800, 100), {
     ...cluster.env(),
     PLUMBLINE_BCRYPT_COST: '4',
@@ -85,11 +80,7 @@ afterAll(async () => {
   rmSync(tmp, { recursive: true, force: true });
 });
 
-async function token(email: string) {
-  const r = await server.login(email, DEMO_PASSWORD);
-  if (r.status !== 200) throw new Error(`login ${email}: ${r.status} ${JSON.stringify(r.body)}`);
-  return { Authorization: `Bearer ${r.token}` };
-}
+const token = (email: string) => server.bearer(email, DEMO_PASSWORD);
 
 describe(`SIGKILL in the middle of work (${ROWS.toLocaleString('en')} rows)`, () => {
   let uploadId = '';

@@ -2,16 +2,14 @@
 // is down, and the server recovers by itself when PostgreSQL is back. Uses its own throwaway cluster and a real child server.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { DEMO_PASSWORD } from '../../server/src/platform/config';
-import { runTsx, ServerProcess } from '../helpers/childServer';
-import { createThrowawayCluster, freePort, type ThrowawayCluster } from '../helpers/throwawayPg';
+import { ServerProcess } from '../helpers/childServer';
+import { createPreparedCluster, freePort, type ThrowawayCluster } from '../helpers/throwawayPg';
 
 let cluster: ThrowawayCluster;
 let server: ServerProcess;
 
 beforeAll(async () => {
-  cluster = await createThrowawayCluster();
-  cluster.createDatabase('plumbline');
-  runTsx('tests/helpers/bin/prepareDatabase.ts', cluster.env());
+  cluster = await createPreparedCluster();
   server = new ServerProcess(await freePort(3800, 100), { ...cluster.env(), PLUMBLINE_BCRYPT_COST: '4' });
   await server.start();
 }, 180_000);

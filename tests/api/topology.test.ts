@@ -10,9 +10,8 @@ import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
 import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
-import { runTsx, ServerProcess } from '../helpers/childServer';
-import { FIXTURE_MODEL } from '../helpers/fixtures';
-import { createThrowawayCluster, freePort, type ThrowawayCluster } from '../helpers/throwawayPg';
+import { ServerProcess } from '../helpers/childServer';
+import { createPreparedCluster, freePort, insertFixtureScore, type ThrowawayCluster } from '../helpers/throwawayPg';
 import { until as waitUntil } from '../helpers/until';
 
 // Three servers and a bootstrap run on a shared 2-core machine: minutes, not the suite's default two.
@@ -32,20 +31,12 @@ let workerEnv: Record<string, string>;
 const until = <T>(what: string, get: () => Promise<T> | T, ok: (v: T) => boolean, timeoutMs: number, stepMs = 200) =>
   waitUntil(what, get, ok, timeoutMs, stepMs, () => `worker:\n${worker?.output.slice(-2000)}`);
 
-async function token(server: ServerProcess, email: string, password = DEMO_PASSWORD) {
-  const r = await server.login(email, password);
-  if (r.status !== 200) throw new Error(`login ${email}: ${r.status} ${JSON.stringify(r.body)}`);
-  return { Authorization: `Bearer ${r.token}` };
-}
+const token = (server: ServerProcess, email: string, password = DEMO_PASSWORD) => server.bearer(email, password);
 const json = (h: Record<string, string>, body: unknown): RequestInit => ({ method: 'POST', headers: { ...h, 'Content-Type': 'application/json' }, body: JSON.stringify(body) });
 
 beforeAll(async () => {
-  cluster = await createThrowawayCluster();
-  cluster.createDatabase('plumbline');
-  runTsx('tests/helpers/bin/prepareDatabase.ts', cluster.env());
-  const scoreId = sql(`INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
-    VALUES ('Topology score', 'readmission (invented)', '30 days', 'adults (invented)', 'invented for tests', 'not medical advice') RETURNING id`);
-  scoreVersionId = sql(`INSERT INTO score_versions (score_id, version, mode, model) VALUES ('${scoreId}', 1, 'formula', '${JSON.stringify(FIXTURE_MODEL)}') RETURNING id`);
+  cluster = await createPreparedCluster();
+  scoreVersionId = insertFixtureScore(cluster, 'Topology score');
   const common = {
     ...cluster.env(),
     PLUMBLINE_BCRYPT_COST: '4',

@@ -9,9 +9,8 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
 import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
-import { runTsx, ServerProcess } from '../helpers/childServer';
-import { FIXTURE_MODEL } from '../helpers/fixtures';
-import { createThrowawayCluster, freePort, type ThrowawayCluster } from '../helpers/throwawayPg';
+import { ServerProcess } from '../helpers/childServer';
+import { createPreparedCluster, freePort, insertFixtureScore, type ThrowawayCluster } from '../helpers/throwawayPg';
 
 let cluster: ThrowawayCluster;
 let server: ServerProcess;
@@ -21,16 +20,8 @@ const orphan = `${randomUUID()}.csv`;
 const foreign = 'operator-notes.txt';
 
 beforeAll(async () => {
-  cluster = await createThrowawayCluster();
-  cluster.createDatabase('plumbline');
-  runTsx('tests/helpers/bin/prepareDatabase.ts', cluster.env());
-  const scoreId = cluster.psql(
-    `INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
-     VALUES ('Outage test score', 'readmission', '30 days', 'adults', 'invented for tests', 'not medical advice') RETURNING id`,
-  );
-  scoreVersionId = cluster.psql(
-    `INSERT INTO score_versions (score_id, version, mode, model) VALUES ('${scoreId}', 1, 'formula', '${JSON.stringify(FIXTURE_MODEL).replace(/'/g, "''")}'::jsonb) RETURNING id`,
-  );
+  cluster = await createPreparedCluster();
+  scoreVersionId = insertFixtureScore(cluster, 'Outage test score');
   // Left by a crash an hour ago: a received file no upload refers to, and a file that is not ours.
   const hourAgo = new Date(Date.now() - 60 * 60 * 1000);
   for (const f of [orphan, foreign]) {

@@ -7,6 +7,7 @@ import { readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import type { Page } from 'playwright-core';
 import { describe, expect, it } from 'vitest';
+import { pageRoles } from '../../shared/src/access';
 import type { Role } from '../../shared/src/roles';
 import { navigationFor } from '../../client/src/navigation';
 import { dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
@@ -38,17 +39,17 @@ const browser = useAppAndBrowser(async () => {
   ids = { runId: runs[0].id, otherRunId: runs[1].id, scoreId: runs[0].score_id, cohortId: cohorts[0].id };
 });
 
-/** Pages reached from a record rather than the menu, with the roles their routes allow (client/src/router/index.ts). */
-const detailPages = (i: Ids): { path: string; roles: Role[] }[] => [
-  { path: `/runs/${i.runId}`, roles: ['steward', 'statistician', 'chair', 'admin'] },
-  { path: `/runs/${i.runId}/report`, roles: ['statistician', 'chair', 'admin'] },
-  { path: `/runs/compare?a=${i.runId}&b=${i.otherRunId}`, roles: ['statistician', 'chair', 'admin'] },
-  { path: '/runs/new', roles: ['steward', 'statistician'] },
-  { path: `/scores/${i.scoreId}`, roles: ['statistician', 'admin', 'steward', 'chair'] },
-  { path: `/scores/${i.scoreId}/versions/2/drift`, roles: ['statistician', 'chair', 'admin', 'steward'] },
-  { path: `/scores/${i.scoreId}/versions/new`, roles: ['statistician', 'admin'] },
-  { path: `/cohorts/${i.cohortId}`, roles: ['steward', 'statistician', 'chair', 'admin'] },
-  { path: '/api-reference', roles: ['admin'] },
+/** Pages reached from a record rather than the menu, with the roles that open them (shared/src/access.ts). */
+const detailPages = (i: Ids): { path: string; roles: readonly Role[] }[] => [
+  { path: `/runs/${i.runId}`, roles: pageRoles('run') },
+  { path: `/runs/${i.runId}/report`, roles: pageRoles('run-report') },
+  { path: `/runs/compare?a=${i.runId}&b=${i.otherRunId}`, roles: pageRoles('run-compare') },
+  { path: '/runs/new', roles: pageRoles('run-start') },
+  { path: `/scores/${i.scoreId}`, roles: pageRoles('score-detail') },
+  { path: `/scores/${i.scoreId}/versions/2/drift`, roles: pageRoles('score-drift') },
+  { path: `/scores/${i.scoreId}/versions/new`, roles: pageRoles('score-version-new') },
+  { path: `/cohorts/${i.cohortId}`, roles: pageRoles('cohort') },
+  { path: '/api-reference', roles: ['admin'] }, // public: one role's visit is enough
 ];
 
 interface Finding {

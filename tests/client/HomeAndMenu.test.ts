@@ -4,6 +4,7 @@ import { createPinia, setActivePinia } from 'pinia';
 import { describe, expect, it, vi } from 'vitest';
 import { createRouter, createMemoryHistory } from 'vue-router';
 import { createVuetify } from 'vuetify';
+import { pageRoles } from '@shared/access';
 import { ROLES, type Role } from '@shared/roles';
 import { navigationFor } from '../../client/src/navigation';
 import HomeView from '@/views/HomeView.vue';
@@ -26,7 +27,7 @@ describe('the overview', () => {
     const w = await overviewAs(role);
     const cards = w.findAll('[data-testid^="task-"]');
     expect(cards.length).toBeGreaterThan(1);
-    const reachable = new Set(navigationFor(role).map((n) => n.to).concat(role === 'steward' || role === 'statistician' ? ['/runs/new'] : []));
+    const reachable = new Set(navigationFor(role).map((n) => n.to).concat(pageRoles('run-start').includes(role) ? ['/runs/new'] : []));
     for (const card of cards) {
       const link = card.find('a[href]');
       expect(link.exists(), `${card.attributes('data-testid')} has a link`).toBe(true);

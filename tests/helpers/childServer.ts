@@ -84,6 +84,13 @@ export class ServerProcess {
     return { status: r.status, token: r.body.token as string | undefined, body: r.body };
   }
 
+  /** Signs in and returns the Authorization header for the next requests; throws with the answer when refused. */
+  async bearer(email: string, password: string): Promise<{ Authorization: string }> {
+    const r = await this.login(email, password);
+    if (r.status !== 200) throw new Error(`login ${email}: ${r.status} ${JSON.stringify(r.body)}`);
+    return { Authorization: `Bearer ${r.token}` };
+  }
+
   /** Sends a signal and waits for the exit. */
   async kill(signal: NodeJS.Signals = 'SIGKILL'): Promise<void> {
     const c = this.child;

@@ -5,6 +5,8 @@ import { chownSync, mkdirSync, mkdtempSync, rmSync } from 'node:fs';
 import net from 'node:net';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
+import { runTsx } from './childServer';
+import { FIXTURE_MODEL } from './fixtures';
 
 const PG_BIN = process.env.PLUMBLINE_PG_BIN ?? '/usr/lib/postgresql/15/bin';
 const isRoot = process.getuid?.() === 0;
@@ -80,4 +82,20 @@ export async function createThrowawayCluster(): Promise<ThrowawayCluster> {
   };
   cluster.start();
   return cluster;
+}
+
+/** A started throwaway cluster whose `plumbline` database is migrated and holds the demo accounts. */
+export async function createPreparedCluster(): Promise<ThrowawayCluster> {
+  const cluster = await createThrowawayCluster();
+  cluster.createDatabase('plumbline');
+  runTsx('tests/helpers/bin/prepareDatabase.ts', cluster.env());
+  return cluster;
+}
+
+/** Registers an invented score with one formula version (FIXTURE_MODEL) straight in the database; returns the version id. */
+export function insertFixtureScore(cluster: ThrowawayCluster, name: string): string {
+  const scoreId = cluster.psql(`INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
+    VALUES ('${name.replace(/'/g, "''")}', 'readmission (invented)', '30 days', 'adults (invented)', 'invented for tests', 'not medical advice') RETURNING id`);
+  return cluster.psql(`INSERT INTO score_versions (score_id, version, mode, model)
+    VALUES ('${scoreId}', 1, 'formula', '${JSON.stringify(FIXTURE_MODEL).replace(/'/g, "''")}'::jsonb) RETURNING id`);
 }

@@ -1,4 +1,4 @@
-import type { AuditRow } from '@shared/audit';
+import type { AuditRow, ChainReport } from '@shared/audit';
 import { downloadFile, http } from './http';
 
 export interface AuditFilter {
@@ -16,14 +16,7 @@ export interface AuditPage {
   entries: AuditRow[];
 }
 
-export interface ChainReport {
-  ok: boolean;
-  entries: number;
-  firstBrokenSeq: string | null;
-  reason: string | null;
-  /** The newest entry when the chain is whole. */
-  head: { seq: string; hash: string } | null;
-}
+export type { ChainReport };
 
 export const listAudit = (filter: AuditFilter, signal?: AbortSignal) =>
   http.get<AuditPage>('/api/audit', { ...filter }, signal);

@@ -1,7 +1,7 @@
 // What every calibration plot shares: square axes from 0 to a little above the largest value, the dashed ideal line,
 // the legend underneath. Used by CalibrationCurveChart and RecalibrateDialogCalibrationChart.
 import type { ChartData, ChartOptions } from 'chart.js';
-import { CHART_COLOURS } from '@/plugins/charts';
+import { CHART_BASE, CHART_COLOURS } from '@/plugins/charts';
 
 /** Ends the axes a little above the largest predicted or observed value (in steps of 0.05), so low risks are not squashed. */
 export function calibrationAxisMax(values: number[]): number {
@@ -16,9 +16,7 @@ export function idealLine(): ChartData<'scatter'>['datasets'][number] {
 
 export function calibrationOptions(axisMax: number, xTitle = 'Predicted risk'): ChartOptions<'scatter'> {
   return {
-    responsive: true,
-    maintainAspectRatio: false,
-    animation: false,
+    ...CHART_BASE,
     scales: {
       x: { min: 0, max: axisMax, title: { display: true, text: xTitle } },
       y: { min: 0, max: axisMax, title: { display: true, text: 'Observed proportion' } },

@@ -48,6 +48,9 @@ export function chartImage(component: unknown): string | undefined {
   return chart?.toBase64Image('image/png');
 }
 
+/** What every chart shares: it fills its panel and is drawn at once (no animation to wait for on screen, in print or in tests). */
+export const CHART_BASE = { responsive: true, maintainAspectRatio: false, animation: false } as const;
+
 export const CHART_COLOURS = {
   model: '#1f5f8b',
   loess: '#b5542d',

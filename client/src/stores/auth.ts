@@ -1,6 +1,7 @@
 // Who is signed in: token and account in sessionStorage (gone when the tab closes), expiry, sign-out.
 import { defineStore } from 'pinia';
 import type { Router } from 'vue-router';
+import { pageAccess } from '@shared/access';
 import type { PublicUser } from '@shared/auth';
 import type { Role } from '@shared/roles';
 import * as authApi from '@/api/auth';
@@ -91,7 +92,7 @@ export function installSessionHandling(router: Router): void {
     if (!auth.token) return;
     auth.logout(message);
     const here = router.currentRoute.value;
-    if (here.meta.public) return;
+    if (pageAccess(here.name) === 'public') return;
     void router.replace({ name: 'sign-in', query: { redirect: here.fullPath } });
   };
   configureHttp({ token: () => auth.token, unauthorized: (message) => sessionEnded?.(message) });

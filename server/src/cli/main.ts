@@ -4,6 +4,7 @@ import { readFileSync } from 'node:fs';
 import { scoreModelSchema, type ScoreModel } from '@shared/model';
 import type { Estimate, FitResult, ValidationResult } from '@shared/validation';
 import { ADEQUACY_SOURCES, adequacyVerdict, MINIMUM_EACH } from '@shared/adequacy';
+import { formatCount, formatEstimateShort, formatFigure, formatPercent, formatPValue, type Figure, type Interval } from '@shared/format';
 import { EngineInputError, validate } from '../stats/index';
 import { analyseGaps, MISSING_OPTIONS, missingOptions, modelColumns } from './missingData';
 import { CsvInputError, readCohortCsv } from './readCohortCsv';
@@ -75,19 +76,17 @@ export function toCliJson(r: ValidationResult) {
   };
 }
 
-function f(v: number | null | undefined, digits = 4): string {
-  return v === null || v === undefined || !Number.isFinite(v) ? '—' : v.toFixed(digits);
-}
-const ci = (e: { estimate: number | null; lower: number | null; upper: number | null } | null, d = 4) => (e ? `${f(e.estimate, d)}  (${f(e.lower, d)} to ${f(e.upper, d)})` : 'not estimable');
+// Figures as on every page and in the report (shared/src/format.ts); --format json keeps full precision.
+const ci = (figure: Figure, e: Interval | null) => (e ? formatEstimateShort(figure, e) : 'not estimable');
 
 /** An AUC interval inside [0, 1]: DeLong's normal approximation can reach past the ends on small or extreme cohorts. */
 function aucInterval(auc: { estimate: number | null; lower: number | null; upper: number | null }): { text: string; note: string | null } {
   const outside = (auc.lower !== null && auc.lower < 0) || (auc.upper !== null && auc.upper > 1);
-  if (!outside) return { text: ci(auc), note: null };
+  if (!outside) return { text: ci('auc', auc), note: null };
   const clamp = (v: number | null) => (v === null ? null : Math.min(1, Math.max(0, v)));
   return {
-    text: `${ci({ ...auc, lower: clamp(auc.lower), upper: clamp(auc.upper) })} †`,
-    note: `† DeLong's interval is a normal approximation and reached ${f(auc.lower)} to ${f(auc.upper)}, beyond the possible 0 to 1; it is shown truncated to [0, 1] (--format json gives it untruncated).`,
+    text: `${ci('auc', { ...auc, lower: clamp(auc.lower), upper: clamp(auc.upper) })} †`,
+    note: `† DeLong's interval is a normal approximation and reached ${formatFigure('auc', auc.lower)} to ${formatFigure('auc', auc.upper)}, beyond the possible 0 to 1; it is shown truncated to [0, 1] (--format json gives it untruncated).`,
   };
 }
 
@@ -95,17 +94,17 @@ export function toTable(r: ValidationResult): string {
   const j = toCliJson(r);
   const auc = aucInterval(j.auc);
   const rows: [string, string][] = [
-    ['Rows', String(j.n)],
-    ['Events', `${j.events} (${(100 * r.eventRate).toFixed(1)}%)`],
+    ['Rows', formatCount(j.n)],
+    ['Events', `${formatCount(j.events)} (${formatPercent(r.eventRate)})`],
     ['AUC (95% CI, DeLong)', auc.text],
-    ['Log loss (mean / total)', `${f(j.logLoss)} / ${f(j.logLossTotal, 2)}`],
-    ['Brier / scaled Brier', `${f(j.brier)} / ${f(j.scaledBrier)}`],
-    ['Calibration intercept', ci(j.calibrationIntercept)],
-    ['Calibration slope', ci(j.calibrationSlope)],
-    ['O/E', ci(j.oe)],
-    ['Hosmer–Lemeshow', `${f(j.hosmerLemeshow.statistic, 3)} on ${j.hosmerLemeshow.df} df, p = ${f(j.hosmerLemeshow.pValue)}`],
-    ['Spiegelhalter z', `${f(j.spiegelhalter.z, 3)}, p = ${f(j.spiegelhalter.pValue)}`],
-    ['ICI / E50 / E90 / Emax', [j.ici, j.e50, j.e90, j.emax].map((v) => f(v)).join(' / ')],
+    ['Log loss (mean / total)', `${formatFigure('logLoss', j.logLoss)} / ${formatFigure('logLossTotal', j.logLossTotal)}`],
+    ['Brier / scaled Brier', `${formatFigure('brier', j.brier)} / ${formatFigure('scaledBrier', j.scaledBrier)}`],
+    ['Calibration intercept', ci('calibrationIntercept', j.calibrationIntercept)],
+    ['Calibration slope', ci('calibrationSlope', j.calibrationSlope)],
+    ['O/E', ci('oe', j.oe)],
+    ['Hosmer–Lemeshow', `${formatFigure('chiSquare', j.hosmerLemeshow.statistic)} on ${j.hosmerLemeshow.df} df, ${formatPValue(j.hosmerLemeshow.pValue)}`],
+    ['Spiegelhalter z', `${formatFigure('z', j.spiegelhalter.z)}, ${formatPValue(j.spiegelhalter.pValue)}`],
+    ['ICI / E50 / E90 / Emax', [j.ici, j.e50, j.e90, j.emax].map((v) => formatFigure('ici', v)).join(' / ')],
   ];
   const w = Math.max(...rows.map(([k]) => k.length));
   const caution = smallSampleCaution(r.events, r.n);
@@ -115,8 +114,8 @@ export function toTable(r: ValidationResult): string {
   j.thresholds.forEach((t, i) => {
     const nb = j.netBenefit[i];
     lines.push(
-      [t.threshold.toFixed(3).padEnd(9), f(t.sensitivity.estimate, 3).padStart(5), f(t.specificity.estimate, 3).padStart(7), f(t.ppv.estimate, 3).padStart(7), f(t.npv.estimate, 3).padStart(7),
-        String(t.tp).padStart(8), String(t.fp).padStart(7), String(t.tn).padStart(7), String(t.fn).padStart(7), f(nb.model).padStart(9), f(nb.treatAll).padStart(7)].join(' '),
+      [formatFigure('risk', t.threshold).padEnd(9), formatFigure('risk', t.sensitivity.estimate).padStart(5), formatFigure('risk', t.specificity.estimate).padStart(7), formatFigure('risk', t.ppv.estimate).padStart(7), formatFigure('risk', t.npv.estimate).padStart(7),
+        String(t.tp).padStart(8), String(t.fp).padStart(7), String(t.tn).padStart(7), String(t.fn).padStart(7), formatFigure('netBenefit', nb.model).padStart(9), formatFigure('netBenefit', nb.treatAll).padStart(7)].join(' '),
     );
   });
   if (r.warnings.length) lines.push('', 'Warnings:', ...r.warnings.map((x) => `- ${x}`));

@@ -1,6 +1,7 @@
 // Demo governance record on the demo runs (seeded by the runs team before this): an older run reviewed and
 // approved by the chair, so clinicians see a score card, and the newest quarter's run reviewed and waiting for
 // sign-off — with the e-mail notifications those acts produce. Invented scenario; idempotent.
+import { formatCount, formatEstimateShort, formatFigure } from '@shared/format';
 import type { RunResults } from '@shared/runs';
 import { DEMO_PASSWORD } from '../../platform/config';
 import type { AuthUser } from '../../domain/accounts/actor';
@@ -21,16 +22,14 @@ interface DemoRun {
   decided: number;
 }
 
-const two = (x: number) => x.toFixed(2);
-
 /** An invented but consistent reasoning text, written from the run's own figures. */
 function reasoning(r: RunResults, label: string, fit: boolean): string {
   const o = r.overall;
-  const slope = o.calibrationSlope.converged ? `calibration slope ${two(o.calibrationSlope.estimate)} (${two(o.calibrationSlope.lower)}–${two(o.calibrationSlope.upper)})` : 'calibration slope not estimable';
-  const citl = o.calibrationIntercept.converged ? `calibration-in-the-large ${two(o.calibrationIntercept.estimate)}` : 'calibration-in-the-large not estimable';
+  const slope = o.calibrationSlope.converged ? `calibration slope ${formatEstimateShort('calibrationSlope', o.calibrationSlope)}` : 'calibration slope not estimable';
+  const citl = o.calibrationIntercept.converged ? `calibration-in-the-large ${formatFigure('calibrationIntercept', o.calibrationIntercept.estimate)}` : 'calibration-in-the-large not estimable';
   return [
-    `${label}: ${o.n} discharges, ${o.events} readmissions.`,
-    `AUC ${two(o.auc.estimate)} (${two(o.auc.lower)}–${two(o.auc.upper)}); ${citl}; ${slope}; O/E ${two(o.oe.estimate)} (${two(o.oe.lower)}–${two(o.oe.upper)}).`,
+    `${label}: ${formatCount(o.n)} discharges, ${formatCount(o.events)} readmissions.`,
+    `AUC ${formatEstimateShort('auc', o.auc)}; ${citl}; ${slope}; O/E ${formatEstimateShort('oe', o.oe)}.`,
     fit
       ? 'Discrimination is in line with the published figure and calibration is acceptable for ward-level risk flags. No subgroup flagged as too small departs visibly from the overall picture.'
       : 'Discrimination holds, but O/E has crept upwards over the year, consistent with the gently rising baseline risk we see on the drift chart; the committee should weigh this before renewing approval.',

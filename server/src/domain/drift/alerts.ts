@@ -1,5 +1,6 @@
 // Drift alerts: raised when a rule fires on a score version's timeline (after each completed run), listed, and
 // acknowledged one at a time or several together (one note, all or none, one audit entry per alert).
+import { formatCount, formatEstimate, formatFigure } from '@shared/format';
 import type { EntityManager } from 'typeorm';
 import type { AlertRuleKind, AlertView, DriftPeriod } from '@shared/drift';
 import type { Estimate } from '@shared/validation';
@@ -76,7 +77,6 @@ interface Firing {
   detail: Record<string, unknown>;
 }
 
-const fmt = (x: number, d = 2) => (Number.isFinite(x) ? x.toFixed(d) : String(x));
 const excludesZero = (e: Estimate | null) => !!e && (e.lower > 0 || e.upper < 0);
 
 function fire(rule: { kind: AlertRuleKind; params: Record<string, unknown> }, core: DriftCore): Firing[] {
@@ -90,7 +90,7 @@ function fire(rule: { kind: AlertRuleKind; params: Record<string, unknown> }, co
       const c = periods[i].calibrationIntercept!;
       out.push({
         period: periods[i].label,
-        message: `Calibration-in-the-large differs from 0 for ${k} consecutive periods up to ${periods[i].label} (CITL ${fmt(c.estimate)}, 95% CI ${fmt(c.lower)} to ${fmt(c.upper)}).`,
+        message: `Calibration-in-the-large differs from 0 for ${k} consecutive periods up to ${periods[i].label} (CITL ${formatEstimate('calibrationIntercept', c)}).`,
         detail: { periods: run.map((q) => ({ label: q.label, runId: q.runId, calibrationIntercept: q.calibrationIntercept })), consecutive: k },
       });
     }
@@ -120,7 +120,7 @@ function fire(rule: { kind: AlertRuleKind; params: Record<string, unknown> }, co
       if (q.funnel.status === 'outside')
         out.push({
           period: q.label,
-          message: `Observed − expected events in ${q.label} is ${fmt(q.funnel.oMinusE, 1)} (O ${q.observed}, E ${fmt(q.expected, 1)}), outside the 99.8% limits ±${fmt(q.funnel.upper998, 1)}.`,
+          message: `Observed − expected events in ${q.label} is ${formatFigure('expected', q.funnel.oMinusE)} (O ${formatCount(q.observed)}, E ${formatFigure('expected', q.expected)}), outside the 99.8% limits ±${formatFigure('expected', q.funnel.upper998)}.`,
           detail: { runId: q.runId, observed: q.observed, expected: q.expected, funnel: q.funnel },
         });
   } else if (rule.kind === 'auc-below') {
@@ -129,7 +129,7 @@ function fire(rule: { kind: AlertRuleKind; params: Record<string, unknown> }, co
       if (q.auc && q.auc.upper < threshold)
         out.push({
           period: q.label,
-          message: `AUC in ${q.label} is ${fmt(q.auc.estimate, 3)} (95% CI ${fmt(q.auc.lower, 3)} to ${fmt(q.auc.upper, 3)}), wholly below ${threshold}.`,
+          message: `AUC in ${q.label} is ${formatEstimate('auc', q.auc)}, wholly below ${threshold}.`,
           detail: { runId: q.runId, auc: q.auc, threshold },
         });
   }

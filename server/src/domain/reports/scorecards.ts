@@ -1,14 +1,13 @@
 // Score cards: what clinicians see, and only for versions the committee approved. Summary numbers only —
 // never cohort rows, never patient-level data.
 import type { ScoreCardView, IntervalView } from '@shared/governance';
+import { formatCount, formatEstimate } from '@shared/format';
 import type { ScoreModel } from '@shared/model';
 import type { ValidationResult } from '@shared/validation';
 import { dataSource } from '../../platform/database/dataSource';
 import { notFound } from '../errors';
 import { COHORT_LABEL_SQL } from '../runs/runJoin';
 
-const f2 = (x: number) => x.toFixed(2);
-const ci = (e: IntervalView) => `${f2(e.estimate)} (95% CI ${f2(e.lower)} to ${f2(e.upper)})`;
 const interval = (e: { estimate: number; lower: number; upper: number } | null | undefined): IntervalView | null =>
   e && Number.isFinite(e.estimate) ? { estimate: e.estimate, lower: e.lower, upper: e.upper } : null;
 
@@ -39,28 +38,28 @@ export type CardFigures = Pick<ValidationResult, 'n' | 'events' | 'auc' | 'oe' |
 export function plainWords(o: CardFigures, cohort: { patients: number; events: number; periodStart: string | null; periodEnd: string | null }): string[] {
   const out: string[] = [];
   const when = cohort.periodStart && cohort.periodEnd ? ` discharged between ${cohort.periodStart} and ${cohort.periodEnd}` : '';
-  out.push(`Checked on ${cohort.patients.toLocaleString('en-GB')} local patients${when}, of whom ${cohort.events.toLocaleString('en-GB')} had the outcome.`);
+  out.push(`Checked on ${formatCount(cohort.patients)} local patients${when}, of whom ${formatCount(cohort.events)} had the outcome.`);
   const auc = interval(o.auc);
   if (auc) {
     out.push(
-      `Ranking (AUC ${ci(auc)}): in a random pair of one patient with the outcome and one without, the score gave the higher risk to the patient with the outcome about ${Math.round(auc.estimate * 100)} times in 100 (0.5 is a coin toss, 1 is perfect).`,
+      `Ranking (AUC ${formatEstimate('auc', auc)}): in a random pair of one patient with the outcome and one without, the score gave the higher risk to the patient with the outcome about ${Math.round(auc.estimate * 100)} times in 100 (0.5 is a coin toss, 1 is perfect).`,
     );
   }
   const oe = interval(o.oe);
   if (oe) {
     const dir = oe.lower > 1 ? 'more outcomes happened than the score predicted' : oe.upper < 1 ? 'fewer outcomes happened than the score predicted' : 'observed and predicted numbers of outcomes were compatible';
-    out.push(`Overall level (observed/expected ${ci(oe)}): ${dir}.`);
+    out.push(`Overall level (observed/expected ${formatEstimate('oe', oe)}): ${dir}.`);
   }
   const citl = o.calibrationIntercept.converged ? interval(o.calibrationIntercept) : null;
   if (citl) {
     const dir = citl.lower > 0 ? 'the score tended to under-estimate risk' : citl.upper < 0 ? 'the score tended to over-estimate risk' : 'no clear over- or under-estimation on average';
-    out.push(`Calibration-in-the-large ${ci(citl)} (0 is ideal): ${dir}.`);
+    out.push(`Calibration-in-the-large ${formatEstimate('calibrationIntercept', citl)} (0 is ideal): ${dir}.`);
   } else out.push('Calibration-in-the-large could not be estimated on this cohort.');
   const slope = o.calibrationSlope.converged ? interval(o.calibrationSlope) : null;
   if (slope) {
     const dir =
       slope.upper < 1 ? 'predicted risks were too extreme (high risks too high, low risks too low)' : slope.lower > 1 ? 'predicted risks were too modest (spread too narrow)' : 'the spread of predicted risks looked about right';
-    out.push(`Calibration slope ${ci(slope)} (1 is ideal): ${dir}.`);
+    out.push(`Calibration slope ${formatEstimate('calibrationSlope', slope)} (1 is ideal): ${dir}.`);
   } else out.push('The calibration slope could not be estimated on this cohort.');
   return out;
 }

@@ -2,6 +2,7 @@
 // reproduce all call this one function, so a stored run and its re-computation go through the same code.
 import { createHash } from 'node:crypto';
 import type { ScoreModel } from '@shared/model';
+import { formatCount, formatPercent } from '@shared/format';
 import { MIN_SUBGROUP_EVENTS, type PeriodResult, type RunResults, type RunSettings, type SubgroupMetrics, type SubgroupResult, type TimeGrouping } from '@shared/runs';
 import type { Estimate, FitResult, ValidationResult, ValidationSettings } from '@shared/validation';
 import { applyModel, ENGINE_VERSION, validate } from '../../stats/index';
@@ -166,15 +167,14 @@ export function indicatorLevelWarnings(score: RunScoreInput, data: CohortData): 
     const share = data.n ? hits / data.n : 0;
     if (hits === 0) out.push(`No patient has ${t.column} = "${t.level}", the level the formula expects: that term never counts, so predicted risks may be wrong. Check how the column is coded.`);
     else if (hits < RARE_LEVEL_COUNT || share < RARE_LEVEL_SHARE)
-      out.push(`Only ${hits} patient${hits === 1 ? '' : 's'} (${(100 * share).toFixed(1)}%) have ${t.column} = "${t.level}", the level the formula expects: check how the column is coded.`);
+      out.push(`Only ${formatCount(hits)} patient${hits === 1 ? '' : 's'} (${formatPercent(share)}) have ${t.column} = "${t.level}", the level the formula expects: check how the column is coded.`);
   }
   return out;
 }
 
 /** "Computing bootstrap replicate 420 of 2,000": what the run page says while the bootstrap runs. */
 export function bootstrapProgressText(done: number, total: number): string {
-  const n = (x: number) => x.toLocaleString('en-US');
-  return `Computing bootstrap replicate ${n(done)} of ${n(total)}`;
+  return `Computing bootstrap replicate ${formatCount(done)} of ${formatCount(total)}`;
 }
 
 /** The whole run: overall figures, then each subgroup level, then each period. Throws RunInputError on bad input. */

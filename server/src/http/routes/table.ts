@@ -22,15 +22,8 @@ import * as runs from './runs';
 import * as scores from './scores';
 import * as users from './users';
 
-const ADMIN = ['admin'] as const;
-// The score registry: statisticians and admins write; stewards and the chair read; clinicians read score cards elsewhere.
-const SCORE_WRITERS = ['statistician', 'admin'] as const;
-const SCORE_READERS = ['statistician', 'admin', 'steward', 'chair'] as const;
-const COHORT_WRITERS = ['steward', 'statistician'] as const;
-const COHORT_READERS = ['steward', 'statistician', 'chair', 'admin'] as const;
-// Everyone but clinicians works on runs; clinicians read score cards only.
-const RUN_TEAM = ['admin', 'steward', 'statistician', 'chair'] as const;
-const CARD_READERS = ['clinician', 'statistician', 'chair', 'admin'] as const;
+// The named role sets live in shared/src/access.ts, where the client's pages and menu take theirs from.
+import { ADMIN, CARD_READERS, COHORT_READERS, COHORT_WRITERS, RUN_TEAM, SCORE_READERS, SCORE_WRITERS } from '@shared/access';
 
 // Per-IP limit on failed sign-ins; the per-account lock-out lives in domain/accounts/users.ts.
 const loginLimiter = rateLimit({
