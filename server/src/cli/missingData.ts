@@ -3,6 +3,7 @@
 // sets (stats/chainedImputation.ts) pooled by Rubin's rules (stats/rubinsRules.ts), computed in this process.
 import type { ScoreModel } from '@shared/model';
 import { parseDecimal } from '@shared/decimal';
+import { formatNumber } from '@shared/format';
 import type { ValidationResult } from '@shared/validation';
 import { defaultImputationSettings, IMPUTATION_METHOD, type ImputationSettings } from '../stats/chainedImputation';
 import { computeFullSet, resolveSettings } from '../stats/fullSet';
@@ -209,7 +210,7 @@ export function analyseGaps(
     },
     completeCase: { n: cc.n, leftOut: cc.leftOut, result: cc.result ? toJson(cc.result) : null, refused: cc.refused },
   };
-  const f = (v: number, d = 4) => (Number.isFinite(v) ? v.toFixed(d) : '—');
+  const f = (v: number, d = 4) => formatNumber(v, d);
   const row = (name: string, m: PooledMetric | null, c: { estimate: number; lower: number; upper: number } | null) =>
     `${name.padEnd(22)} ${m ? `${f(m.estimate)} (${f(m.estimateLower)} to ${f(m.estimateUpper)})` : 'not estimable'.padEnd(26)}  ${m ? `${f(m.within, 6)}  ${f(m.between, 6)}  ${f(m.fmi, 3)}` : ''}   ${c ? `${f(c.estimate)} (${f(c.lower)} to ${f(c.upper)})` : 'not estimable'}`;
   const ccr = cc.result;
