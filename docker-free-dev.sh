@@ -19,12 +19,14 @@ log() { printf '\033[1;34m[plumbline]\033[0m %s\n' "$*"; }
 as_root() { if [ "$(id -u)" = 0 ]; then "$@"; else sudo "$@"; fi; }
 
 apt_install() {
+  local extra=()
+  if [ "$1" = --no-install-recommends ]; then extra=(--no-install-recommends); shift; fi
   local missing=()
   for pkg in "$@"; do dpkg -s "$pkg" >/dev/null 2>&1 || missing+=("$pkg"); done
   [ ${#missing[@]} -eq 0 ] && return 0
   log "installing Debian packages: ${missing[*]}"
   as_root apt-get update -qq
-  DEBIAN_FRONTEND=noninteractive as_root apt-get install -y -qq "${missing[@]}" >/dev/null
+  DEBIAN_FRONTEND=noninteractive as_root apt-get install -y -qq "${extra[@]}" "${missing[@]}" >/dev/null
 }
 
 install_dependencies() {
@@ -32,6 +34,8 @@ install_dependencies() {
   if [ "$MODE" = test ]; then
     # Browser tests use Debian's Chromium (and poppler-utils to read the printed report); reference checks use Debian's R and Python statistics packages.
     apt_install chromium poppler-utils python3-sklearn python3-statsmodels python3-pandas r-base-core r-cran-proc r-cran-mass
+    # metafor for the meta-analysis checks; without recommends (they pull in hundreds of MB)
+    apt_install --no-install-recommends r-cran-metafor
   fi
   local stamp=node_modules/.plumbline-lock
   if [ ! -f "$stamp" ] || ! cmp -s package-lock.json "$stamp"; then
