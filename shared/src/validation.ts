@@ -26,6 +26,8 @@ export interface NetBenefitRow {
   model: number;
   treatAll: number;
   treatNone: number;
+  /** Net benefit / prevalence (Kerr et al. 2016); absent on results stored before it was added. */
+  standardized?: number;
 }
 
 export interface CalibrationGroup {
