@@ -13,8 +13,10 @@
  * Per-site scales follow Debray TPA et al. (2017) BMJ 356:i6460: AUC on the logit scale (SE by the delta method from
  * DeLong's SE: SE(logit A) = SE(A)/(A(1 − A))), calibration-in-the-large and slope as estimated, O/E on the log scale.
  */
-import { jStat } from 'jstat';
+import jstat from 'jstat';
 import { chiSquareUpper, normalTwoSided, Z975 } from './distributions';
+
+const { jStat } = jstat; // CommonJS package: named imports do not resolve under Node's ESM loader
 
 export interface RandomEffectsResult {
   k: number;
