@@ -68,7 +68,7 @@ export function randomEffectsReml(y: number[], se: number[], opts: { tolerance?:
   const k = y.length;
   const v = se.map((s) => s * s);
   const fe = fixedEffect(y, v);
-  // start from the DerSimonian–Laird value, as any non-negative start reaches the same REML maximum
+  // start from the DerSimonian–Laird value (DerSimonian R, Laird N 1986, Control Clin Trials 7:177–188)
   let tau2 = Math.max(0, (fe.q - (k - 1)) / (fe.sw - fe.sw2 / fe.sw));
   let iterations = 0;
   for (; iterations < maxIterations; iterations++) {
