@@ -54,6 +54,18 @@ export interface ValidationSettings {
   loessGridSize?: number;
 }
 
+/** Pointwise 95% bootstrap band of the loess calibration curve at fixed grid points (server/src/stats/bootstrap.ts). */
+export interface CalibrationBand {
+  /** The fixed grid: the point curve's plotting points (quantiles of p in the cohort itself). */
+  p: number[];
+  observed: number[];
+  lower: number[];
+  upper: number[];
+  replicates: number;
+  seed: number;
+  method: string;
+}
+
 export interface ValidationResult {
   engineVersion: string;
   n: number;

@@ -4,7 +4,9 @@ import { createHash } from 'node:crypto';
 import type { ScoreModel } from '@shared/model';
 import { MIN_SUBGROUP_EVENTS, type PeriodResult, type RunResults, type RunSettings, type SubgroupMetrics, type SubgroupResult, type TimeGrouping } from '@shared/runs';
 import type { Estimate, FitResult, ValidationResult, ValidationSettings } from '@shared/validation';
-import { applyModel, ENGINE_VERSION, validate } from '../stats/index';
+import { applyModel, ENGINE_VERSION, resolveSettings, validate } from '../stats/index';
+import { calibrationBand } from '../stats/bootstrap';
+import { siteAnalysis, subgroupAnalysis } from '../stats/groupPerformance';
 import { canonical } from './audit';
 import type { CohortData } from './cohortData';
 
@@ -223,6 +225,24 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
     }
   });
 
+  // The full subgroup (fairness) and site analyses: pure engine functions over the column's labels.
+  const labelsOf = (column: string, what: string): string[] => {
+    const values = data.subgroups[column] ?? data.columns[column];
+    if (!values) throw new RunInputError(`the cohort has no ${what} column "${column}"`);
+    return Array.from({ length: data.n }, (_, i) => {
+      const v = values[i];
+      return v === null || v === undefined || String(v).trim() === '' ? MISSING_LEVEL : String(v);
+    });
+  };
+  const levelSettings = resolveSettings(engineSettings(settings));
+  const subgroupAnalyses = settings.subgroupColumns.map((column) => ({ column, ...subgroupAnalysis(p, y, labelsOf(column, 'subgroup'), levelSettings) }));
+  let sites: RunResults['sites'];
+  if (settings.siteColumn) {
+    onProgress(0.8, `Computing sites by ${settings.siteColumn}`);
+    sites = { column: settings.siteColumn, ...siteAnalysis(p, y, labelsOf(settings.siteColumn, 'site'), levelSettings) };
+  }
+  const band = settings.bootstrapReplicates > 0 ? calibrationBand(p, y, overall.calibrationCurve.smoothed, levelSettings) : undefined;
+
   const periods: PeriodResult[] = [];
   let undatedRows: number | undefined;
   if (settings.timeGrouping !== 'none') {
@@ -262,5 +282,14 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
     }
   }
   onProgress(1, 'Done');
-  return { overall, subgroups, periods, ...(undatedRows !== undefined ? { undatedRows } : {}), minSubgroupEvents: MIN_SUBGROUP_EVENTS };
+  return {
+    overall,
+    subgroups,
+    periods,
+    ...(undatedRows !== undefined ? { undatedRows } : {}),
+    minSubgroupEvents: MIN_SUBGROUP_EVENTS,
+    ...(subgroupAnalyses.length ? { subgroupAnalyses } : {}),
+    ...(sites ? { sites } : {}),
+    ...(band ? { calibrationBand: band } : {}),
+  };
 }

@@ -10,7 +10,7 @@
  * resample evaluated at the point curve's fixed grid, percentiles per grid point) and the paired comparison of two
  * scores (compareScores.ts: one resample of rows feeds both scores).
  */
-import type { Estimate, ValidationResult, ValidationSettings } from '@shared/validation';
+import type { CalibrationBand, Estimate, ValidationResult, ValidationSettings } from '@shared/validation';
 import { computeFullSet } from './fullSet';
 import { loessAt } from './loess';
 import { quantileType7, sortCohort } from './sortedCohort';
@@ -117,16 +117,7 @@ export function bootstrap(p: Float64Array, y: Uint8Array, settings: ValidationSe
   return percentileIntervals(scalarMetrics(point), runReplicates(p, y, settings, 0, settings.bootstrapReplicates, onReplicate), settings.bootstrapSeed);
 }
 
-export interface CalibrationBand {
-  /** The fixed grid: the point curve's plotting points (quantiles of p in the cohort itself). */
-  p: number[];
-  observed: number[];
-  lower: number[];
-  upper: number[];
-  replicates: number;
-  seed: number;
-  method: string;
-}
+export type { CalibrationBand } from '@shared/validation';
 
 /**
  * Pointwise 95% band of the loess calibration curve: each replicate's loess (same span) evaluated at the fixed grid

@@ -12,36 +12,20 @@
  * the reason and left out of the pooled analyses; a level enters a pooled analysis of a metric when that metric and a
  * positive SE are estimable there.
  */
-import type { Estimate, ValidationResult, ValidationSettings } from '@shared/validation';
-import { adequacyVerdict, type AdequacyLevel } from '@shared/adequacy';
+import type { ValidationResult, ValidationSettings } from '@shared/validation';
+import { adequacyVerdict } from '@shared/adequacy';
+import type { LevelPerformance, PooledAnalysis, PooledMetric, SiteAnalysis, SubgroupAnalysis } from '@shared/subgroups';
 import { bootstrap } from './bootstrap';
 import { EngineInputError } from './checkInputs';
 import { computeFullSet, resolveSettings } from './fullSet';
-import { heterogeneityTest, randomEffectsReml, type HeterogeneityTest, type RandomEffectsResult } from './metaAnalysis';
+import { heterogeneityTest, randomEffectsReml } from './metaAnalysis';
 import { oeFromCounts } from './observedExpected';
+
+export type { LevelPerformance, PooledAnalysis, PooledMetric, SiteAnalysis, SubgroupAnalysis } from '@shared/subgroups';
 
 export const BLANK_LEVEL = '(blank)';
 
-export interface LevelPerformance {
-  level: string;
-  n: number;
-  events: number;
-  nonEvents: number;
-  adequacy: AdequacyLevel;
-  /** Fewer events or non-events than the published minimum: shown, with this flag. */
-  belowMinimum: boolean;
-  /** Why the engine could not compute this level, when it could not. */
-  error: string | null;
-  auc: (Estimate & { se: number }) | null;
-  calibrationIntercept: (Estimate & { se: number }) | null;
-  calibrationSlope: (Estimate & { se: number }) | null;
-  oe: (Estimate & { seLog: number }) | null;
-  /** Point value and seeded percentile bootstrap CI (NaN bounds when no replicates were asked for). */
-  ici: Estimate | null;
-}
 
-/** The effect on the pooling scale for one level and metric; null when not estimable. */
-export type PooledMetric = 'logitAuc' | 'calibrationIntercept' | 'calibrationSlope' | 'logOe';
 
 export function levelEffect(l: LevelPerformance, metric: PooledMetric): { estimate: number; se: number } | null {
   let e: { estimate: number; se: number } | null = null;
@@ -115,13 +99,6 @@ export function performanceByLevel(p: Float64Array, y: Uint8Array, groups: Array
   return out;
 }
 
-export interface PooledAnalysis<T> {
-  /** Levels that entered, in order. */
-  levels: string[];
-  /** Levels left out, with why. */
-  excluded: { level: string; reason: string }[];
-  result: T | null;
-}
 
 function pooled<T>(levels: LevelPerformance[], metric: PooledMetric, minLevels: number, analyse: (y: number[], se: number[]) => T): PooledAnalysis<T> {
   const used: string[] = [];
@@ -141,10 +118,6 @@ function pooled<T>(levels: LevelPerformance[], metric: PooledMetric, minLevels: 
   return { levels: used, excluded, result: y.length >= minLevels ? analyse(y, se) : null };
 }
 
-export interface SubgroupAnalysis {
-  levels: LevelPerformance[];
-  heterogeneity: { calibrationIntercept: PooledAnalysis<HeterogeneityTest>; logOe: PooledAnalysis<HeterogeneityTest> };
-}
 
 /** Subgroups (fairness): per-level figures and Cochran's Q across levels for calibration-in-the-large and log O/E. */
 export function subgroupAnalysis(p: Float64Array, y: Uint8Array, groups: ArrayLike<string>, settings: Partial<ValidationSettings> = {}): SubgroupAnalysis {
@@ -158,11 +131,6 @@ export function subgroupAnalysis(p: Float64Array, y: Uint8Array, groups: ArrayLi
   };
 }
 
-export interface SiteAnalysis {
-  levels: LevelPerformance[];
-  /** REML random effects per metric on its pooling scale; `natural` back-transforms logit AUC (expit) and log O/E (exp). */
-  pooled: Record<PooledMetric, PooledAnalysis<RandomEffectsResult & { natural: { estimate: number; lower: number; upper: number; predictionLower: number; predictionUpper: number } }>>;
-}
 
 const expit = (x: number) => 1 / (1 + Math.exp(-x));
 const back: Record<PooledMetric, (x: number) => number> = { logitAuc: expit, calibrationIntercept: (x) => x, calibrationSlope: (x) => x, logOe: Math.exp };

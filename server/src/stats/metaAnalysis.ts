@@ -14,30 +14,13 @@
  * DeLong's SE: SE(logit A) = SE(A)/(A(1 − A))), calibration-in-the-large and slope as estimated, O/E on the log scale.
  */
 import jstat from 'jstat';
+import type { HeterogeneityTest, RandomEffectsResult } from '@shared/subgroups';
 import { chiSquareUpper, normalTwoSided, Z975 } from './distributions';
+
+export type { HeterogeneityTest, RandomEffectsResult } from '@shared/subgroups';
 
 const { jStat } = jstat; // CommonJS package: named imports do not resolve under Node's ESM loader
 
-export interface RandomEffectsResult {
-  k: number;
-  tau2: number;
-  estimate: number;
-  se: number;
-  lower: number;
-  upper: number;
-  z: number;
-  pValue: number;
-  q: number;
-  qDf: number;
-  qPValue: number;
-  /** I² in percent (0–100), as metafor prints it. */
-  i2: number;
-  /** Riley, Higgins & Deeks 2011: t on k − 2 df; NaN when k < 3. */
-  predictionInterval: { lower: number; upper: number; df: number };
-  /** metafor's predict() default: normal quantile. */
-  predictionIntervalNormal: { lower: number; upper: number };
-  iterations: number;
-}
 
 function fixedEffect(y: number[], v: number[]) {
   let sw = 0, swy = 0, sw2 = 0;
@@ -120,15 +103,6 @@ export function randomEffectsReml(y: number[], se: number[], opts: { tolerance?:
   };
 }
 
-export interface HeterogeneityTest {
-  /** Fixed-effect (inverse-variance) pooled value across the levels. */
-  pooled: number;
-  pooledSe: number;
-  q: number;
-  df: number;
-  pValue: number;
-  method: string;
-}
 
 export const HETEROGENEITY_METHOD = "Cochran's Q under a fixed-effect model, χ² on levels − 1 df (Cochran 1954, Biometrics 10:101–129)";
 
