@@ -5,7 +5,8 @@
 import { describe, expect, it } from 'vitest';
 import { siteAnalysis, subgroupAnalysis, type PooledMetric } from '../../server/src/stats/groupPerformance';
 import { heterogeneityTest, randomEffectsReml } from '../../server/src/stats/metaAnalysis';
-import { cohort, runR, skipMetafor, writeCsv } from './tools';
+import jstat from 'jstat';
+import { cohort, runR, skipMetafor, skipR, writeCsv } from './tools';
 
 const json = 'toJ <- function(x) cat(paste0("{", paste0("\\"", names(x), "\\":", sapply(x, function(v) if (length(v) == 1) format(v, digits = 17) else paste0("[", paste(format(v, digits = 17), collapse = ","), "]")), collapse = ","), "}\\n"))';
 const CTRL = 'control = list(threshold = 1e-12, maxiter = 10000)';
@@ -115,5 +116,12 @@ describe.skipIf(skipMetafor)("Cochran's Q across subgroup levels against metafor
       expect(Math.abs(h.pooledSe - ref.se)).toBeLessThan(1e-12); // metafor rma(method = "FE") se [ref]
       expect(heterogeneityTest(inputs.map((i) => i.y), inputs.map((i) => i.se)).q).toBe(h.q);
     }
+  });
+});
+
+describe.skipIf(skipR)('the t quantile behind the prediction interval', () => {
+  it('jstat studentt.inv(0.975, df) is within 1e-7 relative of R qt for df 1 to 60', () => {
+    const ref = runR(`${json}; toJ(list(q = qt(0.975, 1:60)))`).q as number[];
+    ref.forEach((q, i) => expect(Math.abs(jstat.jStat.studentt.inv(0.975, i + 1) - q) / q, `df ${i + 1}`).toBeLessThan(1e-7)); // R stats::qt [ref]
   });
 });
