@@ -12,7 +12,8 @@
  */
 import type { CalibrationBand, Estimate, ValidationResult, ValidationSettings } from '@shared/validation';
 import { computeFullSet } from './fullSet';
-import { loessAt } from './loess';
+import { ici } from './ici';
+import { loessAt, loessCurve } from './loess';
 import { quantileType7, sortCohort } from './sortedCohort';
 
 function splitmix32(a: number): number {
@@ -115,6 +116,35 @@ export function percentileIntervals(point: Record<string, number>, rows: Record<
 /** In-process bootstrap (single thread); see bootstrapInWorkers (workers/pool.ts) for the same across worker threads. */
 export function bootstrap(p: Float64Array, y: Uint8Array, settings: ValidationSettings, point: ValidationResult, onReplicate?: (done: number) => void): NonNullable<ValidationResult['bootstrap']> {
   return percentileIntervals(scalarMetrics(point), runReplicates(p, y, settings, 0, settings.bootstrapReplicates, onReplicate), settings.bootstrapSeed);
+}
+
+/**
+ * The ICI interval alone, for per-level figures: the same replicate streams, loess and ICI as the full bootstrap
+ * (so the interval equals `bootstrap(...).intervals.ici`), without the other metrics — loess is most of the time, the
+ * rest of the full set most of what is left. A resample without events or without non-events fails, as there.
+ */
+export function iciInterval(p: Float64Array, y: Uint8Array, settings: ValidationSettings, point: number): Estimate & { failed: number } {
+  const n = p.length;
+  const bp = new Float64Array(n);
+  const by = new Uint8Array(n);
+  const idx = new Uint32Array(n);
+  const values: number[] = [];
+  for (let r = 0; r < settings.bootstrapReplicates; r++) {
+    resampleIndices(n, settings.bootstrapSeed, r, idx);
+    let events = 0;
+    for (let i = 0; i < n; i++) {
+      bp[i] = p[idx[i]];
+      by[i] = y[idx[i]];
+      events += by[i];
+    }
+    if (events === 0 || events === n) continue;
+    const s = sortCohort(bp, by);
+    const v = ici(s, loessCurve(s, { span: settings.loessSpan, exactMaxN: settings.loessExactMaxN, gridSize: settings.loessGridSize }).atGroups).ici;
+    if (Number.isFinite(v)) values.push(v);
+  }
+  const sorted = Float64Array.from(values).sort();
+  const failed = settings.bootstrapReplicates - values.length;
+  return sorted.length ? { estimate: point, lower: quantileType7(sorted, 0.025), upper: quantileType7(sorted, 0.975), failed } : { estimate: point, lower: NaN, upper: NaN, failed };
 }
 
 export type { CalibrationBand } from '@shared/validation';

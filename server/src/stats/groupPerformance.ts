@@ -3,7 +3,7 @@
  * heterogeneity across the levels (subgroups) or a random-effects meta-analysis (sites).
  * Every per-level figure is the engine's own single-cohort result on that level's rows (fullSet.ts), so a level's
  * AUC, calibration-in-the-large, slope and O/E equal `validate` on the subset exactly; ICI's 95% CI is the seeded
- * percentile bootstrap of bootstrap.ts on the subset.
+ * percentile bootstrap of bootstrap.ts on the subset (iciInterval: the full bootstrap's ICI interval, computed alone).
  * Levels below the published minimum events (shared/src/adequacy.ts: Vergouwe et al. 2005) are flagged, not dropped.
  * Heterogeneity across subgroup levels: Cochran's Q under a fixed effect (metaAnalysis.ts) for calibration-in-the-large
  * and log O/E. Sites: REML random effects for logit AUC, calibration-in-the-large, calibration slope and log O/E with
@@ -15,7 +15,7 @@
 import type { ValidationResult, ValidationSettings } from '@shared/validation';
 import { adequacyVerdict } from '@shared/adequacy';
 import type { LevelPerformance, PooledAnalysis, PooledMetric, SiteAnalysis, SubgroupAnalysis } from '@shared/subgroups';
-import { bootstrap } from './bootstrap';
+import { iciInterval } from './bootstrap';
 import { EngineInputError } from './checkInputs';
 import { computeFullSet, resolveSettings } from './fullSet';
 import { heterogeneityTest, randomEffectsReml } from './metaAnalysis';
@@ -93,8 +93,12 @@ export function performanceByLevel(p: Float64Array, y: Uint8Array, groups: Array
       out.push({ level, n: ly.length, events, nonEvents: ly.length - events, adequacy: verdict.level, belowMinimum: !verdict.meetsMinimum, error: e.message, auc: null, calibrationIntercept: null, calibrationSlope: null, oe: null, ici: null });
       continue;
     }
-    if (s.bootstrapReplicates > 0) r.bootstrap = bootstrap(lp, ly, s, r);
-    out.push(levelFromResult(level, r));
+    const row = levelFromResult(level, r);
+    if (s.bootstrapReplicates > 0) {
+      const iv = iciInterval(lp, ly, s, r.ici);
+      row.ici = { estimate: r.ici, lower: iv.lower, upper: iv.upper };
+    }
+    out.push(row);
   }
   return out;
 }
