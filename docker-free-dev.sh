@@ -33,8 +33,9 @@ install_dependencies() {
   if [ "$MODE" = test ]; then
     # Browser tests use Debian's Chromium (and poppler-utils to read the printed report); reference checks use Debian's R and Python statistics packages.
     apt_install chromium poppler-utils python3-sklearn python3-statsmodels python3-pandas r-base-core r-cran-proc r-cran-mass
-    # mice for the multiple-imputation checks; its recommends pull in hundreds of MB (brms, rstanarm, lme4…)
-    apt_install --no-install-recommends r-cran-mice
+    # metafor and mice for the meta-analysis and multiple-imputation checks; without recommends (they pull in
+    # hundreds of MB: brms, rstanarm, lme4…)
+    apt_install --no-install-recommends r-cran-metafor r-cran-mice
   fi
   local stamp=node_modules/.plumbline-lock
   if [ ! -f "$stamp" ] || ! cmp -s package-lock.json "$stamp"; then

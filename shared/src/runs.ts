@@ -1,6 +1,7 @@
 // Validation runs: the settings a run is started with, the results it stores, and the API shapes around them.
 import { z } from 'zod';
-import type { Estimate, ValidationResult } from './validation';
+import type { CalibrationBand, Estimate, ValidationResult } from './validation';
+import type { SiteAnalysis, SubgroupAnalysis } from './subgroups';
 import type { CohortAdequacy } from './adequacy';
 
 export const RUN_STATUSES = ['queued', 'running', 'completed', 'failed'] as const;
@@ -29,6 +30,8 @@ export const runSettingsSchema = z
     bootstrapReplicates: z.number().int().min(0).max(2000).default(0),
     bootstrapSeed: z.number().int().min(0).max(2 ** 31 - 1).default(20_260_101),
     subgroupColumns: z.array(z.string().trim().min(1).max(80)).max(20).default([]),
+    /** A site (centre) column: per-site figures and a random-effects meta-analysis across sites. */
+    siteColumn: z.string().trim().min(1).max(80).nullable().default(null),
     timeGrouping: z.enum(TIME_GROUPINGS).default('none'),
   })
   .strict()
@@ -117,6 +120,16 @@ export interface RunResults {
   /** rows without an event date when periods were asked for. */
   undatedRows?: number;
   minSubgroupEvents: number;
+  /**
+   * Per subgroup column (fairness): every level's AUC, calibration intercept and slope, O/E and ICI with 95% CIs (ICI's
+   * by the run's bootstrap when it has replicates), levels below the published minimum flagged, and Cochran's Q across
+   * levels for calibration-in-the-large and log O/E. Runs by engine 1.1.0 on.
+   */
+  subgroupAnalyses?: ({ column: string } & SubgroupAnalysis)[];
+  /** With a site column: per-site figures and the REML random-effects pooling of each metric. */
+  sites?: { column: string } & SiteAnalysis;
+  /** With bootstrap replicates: the pointwise 95% band of the whole cohort's calibration curve. */
+  calibrationBand?: CalibrationBand;
 }
 
 export interface RunSummary {

@@ -26,6 +26,8 @@ export interface NetBenefitRow {
   model: number;
   treatAll: number;
   treatNone: number;
+  /** Net benefit / prevalence (Kerr et al. 2016); absent on results stored before it was added. */
+  standardized?: number;
 }
 
 export interface CalibrationGroup {
@@ -50,6 +52,18 @@ export interface ValidationSettings {
   loessExactMaxN?: number;
   /** Grid points for the loess curve on large cohorts and for plotting (default 100). */
   loessGridSize?: number;
+}
+
+/** Pointwise 95% bootstrap band of the loess calibration curve at fixed grid points (server/src/stats/bootstrap.ts). */
+export interface CalibrationBand {
+  /** The fixed grid: the point curve's plotting points (quantiles of p in the cohort itself). */
+  p: number[];
+  observed: number[];
+  lower: number[];
+  upper: number[];
+  replicates: number;
+  seed: number;
+  method: string;
 }
 
 export interface ValidationResult {

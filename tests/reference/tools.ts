@@ -1,5 +1,5 @@
 // Runs the outside reference tools (Debian's /usr/bin/python3 with scikit-learn/statsmodels, /usr/bin/Rscript with
-// pROC and MASS) on data passed through temp CSV files. A missing tool skips locally but FAILS when CI=true.
+// pROC, MASS and metafor) on data passed through temp CSV files. A missing tool skips locally but FAILS when CI=true.
 import { execFileSync } from 'node:child_process';
 import { mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -23,6 +23,8 @@ export const hasR = works(RSCRIPT, ['-e', 'library(pROC); library(MASS)']);
 /** Skip only off CI: on CI a missing reference tool must fail the run. */
 export const skipPython = !hasPython && process.env.CI !== 'true';
 export const skipR = !hasR && process.env.CI !== 'true';
+export const hasMetafor = works(RSCRIPT, ['-e', 'library(metafor)']);
+export const skipMetafor = !hasMetafor && process.env.CI !== 'true';
 
 const dir = mkdtempSync(join(tmpdir(), 'plumbline-ref-'));
 let fileNo = 0;

@@ -22,7 +22,8 @@ export interface MissingOptions {
 /** Reads the missing-data options; `fail` throws the CLI's usage error. */
 export function missingOptions(args: Record<string, string>, fail: (message: string) => never): MissingOptions | null {
   if (args.missing === undefined) {
-    const stray = MISSING_OPTIONS.filter((k) => k !== 'missing' && args[k] !== undefined);
+    // --seed also seeds --bootstrap: main.ts checks it has one of the two
+    const stray = MISSING_OPTIONS.filter((k) => k !== 'missing' && k !== 'seed' && args[k] !== undefined);
     if (stray.length) fail(`--${stray[0]} needs --missing mi`);
     return null;
   }

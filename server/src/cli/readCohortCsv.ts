@@ -40,6 +40,8 @@ export interface CohortSource {
   model?: ScoreModel;
   /** keep these columns' text (gaps allowed) instead of computing a risk per row: the missing-data path, cli/missingData.ts */
   keep?: string[];
+  /** Columns read as text labels (subgroup or site columns), one value per row. */
+  labels?: string[];
 }
 
 /** A missing file, a folder or a file without read permission, said in one line before any reading starts. */
@@ -65,12 +67,18 @@ const cell = (record: string[], i: number) => {
   return v === undefined ? undefined : v.length && (v.charCodeAt(0) === 32 || v.charCodeAt(v.length - 1) === 32) ? v.trim() : v;
 };
 
-export async function readCohortCsv(file: string, source: CohortSource): Promise<{ p: Float64Array; y: Uint8Array; kept?: { columns: Record<string, string[]>; lines: number[] } }> {
+export async function readCohortCsv(
+  file: string,
+  source: CohortSource,
+): Promise<{ p: Float64Array; y: Uint8Array; labels: Record<string, string[]>; kept?: { columns: Record<string, string[]>; lines: number[] } }> {
   await checkReadable(file);
   const p = new Growing(new Float64Array(1 << 16));
   const y = new Growing(new Uint8Array(1 << 16));
   let header: string[] | null = null;
   let yi = -1, pi = -1;
+  const labelNames = source.labels ?? [];
+  const labels: Record<string, string[]> = Object.fromEntries(labelNames.map((c) => [c, []]));
+  let labelIndex: number[] = [];
   let index: Record<string, number> = {};
   const lines = new LineNumbers();
   const kept = source.keep ? { columns: Object.fromEntries(source.keep.map((c) => [c, [] as string[]])), lines: [] as number[] } : undefined;
@@ -84,10 +92,11 @@ export async function readCohortCsv(file: string, source: CohortSource): Promise
           const dup = header.find((h, i) => header!.indexOf(h) !== i);
           if (dup !== undefined) throw new CsvInputError(file, line, dup, 'this column name appears more than once in the header; rename one of them');
           index = Object.fromEntries(header.map((h, i) => [h, i]));
-          const needed = [source.outcome, ...(source.prediction ? [source.prediction] : []), ...(source.model?.predictors.map((q) => q.column) ?? []), ...(source.keep ?? [])];
+          const needed = [source.outcome, ...(source.prediction ? [source.prediction] : []), ...(source.model?.predictors.map((q) => q.column) ?? []), ...(source.keep ?? []), ...labelNames];
           for (const c of needed) if (!(c in index)) throw new CsvInputError(file, line, c, `no such column in the header (columns: ${header.join(', ')})`);
           yi = index[source.outcome];
           pi = source.prediction ? index[source.prediction] : -1;
+          labelIndex = labelNames.map((c) => index[c]);
           continue;
         }
         const yText = cell(record, yi);
@@ -112,6 +121,7 @@ export async function readCohortCsv(file: string, source: CohortSource): Promise
         }
         p.push(risk);
         y.push(yText === '1' ? 1 : 0);
+        labelNames.forEach((c, k) => labels[c].push((record[labelIndex[k]] ?? '').trim()));
       }
     }
   } catch (e) {
@@ -124,5 +134,5 @@ export async function readCohortCsv(file: string, source: CohortSource): Promise
   }
   if (!header) throw new CsvInputError(file, null, null, 'the file is empty');
   if (p.length === 0) throw new CsvInputError(file, null, null, 'no data rows below the header');
-  return { p: p.done(), y: y.done(), kept };
+  return { p: p.done(), y: y.done(), labels, kept };
 }

@@ -4,7 +4,7 @@
  * et al. (2007) Numerical Recipes, 3rd ed., §6.4), solved for t by Newton's method from the normal quantile; for
  * ν > 10⁴ the Cornish–Fisher series of Abramowitz M, Stegun IA (1964) Handbook of Mathematical Functions, 26.7.5
  * (four terms, error far below 1e-15 there). The normal quantile is simple-statistics' probit refined by Newton steps on
- * Φ from distributions.ts. Checked against R's qt in tests/reference/rubinsRulesR.test.ts.
+ * Φ from distributions.ts. Checked against R's qt in tests/reference/multipleImputationR.test.ts and metaAnalysisR.test.ts.
  */
 import { probit } from 'simple-statistics';
 import { logGamma, normalTwoSided } from './distributions';

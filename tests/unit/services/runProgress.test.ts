@@ -27,11 +27,12 @@ describe('run progress', () => {
 
   it('counts the bootstrap up to its last replicate while the bar moves forward, and names each step', () => {
     const told: [number, string][] = [];
-    const settings = { ...defaultRunSettings(), bootstrapReplicates: 40, subgroupColumns: ['unit'], timeGrouping: 'quarter' as const };
+    const settings = { ...defaultRunSettings(), bootstrapReplicates: 40, subgroupColumns: ['unit'], siteColumn: 'unit', timeGrouping: 'quarter' as const };
     computeRunResults({ score: { mode: 'supplied', model: null, probabilityColumn: 'risk' }, data: cohort(400), settings }, (f, m) => told.push([f, m]));
     const messages = told.map(([, m]) => m);
     expect(messages).toContain('Computing bootstrap replicate 40 of 40');
     expect(messages).toContain('Computing subgroups by unit');
+    expect(messages).toContain('Computing sites by unit');
     expect(messages).toContain('Computing periods by quarter');
     expect(messages.at(-1)).toBe('Done');
     // Never "computing — computing": no message names its step twice.

@@ -5,7 +5,9 @@ import type { ScoreModel } from '@shared/model';
 import { formatCount, formatPercent } from '@shared/format';
 import { MIN_SUBGROUP_EVENTS, type PeriodResult, type RunResults, type RunSettings, type SubgroupMetrics, type SubgroupResult, type TimeGrouping } from '@shared/runs';
 import type { Estimate, FitResult, ValidationResult, ValidationSettings } from '@shared/validation';
-import { applyModel, ENGINE_VERSION, validate } from '../../stats/index';
+import { applyModel, ENGINE_VERSION, resolveSettings, validate } from '../../stats/index';
+import { calibrationBand } from '../../stats/bootstrap';
+import { siteAnalysis, subgroupAnalysis } from '../../stats/groupPerformance';
 import { canonical } from '../accounts/audit';
 import type { CohortData } from '../cohorts/cohortData';
 
@@ -202,7 +204,18 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
   }
   overall.warnings.push(...indicatorLevelWarnings(input.score, data));
 
+  // The full subgroup (fairness) and site analyses: pure engine functions over the column's labels.
+  const labelsOf = (column: string, what: string): string[] => {
+    const values = data.subgroups[column] ?? data.columns[column];
+    if (!values) throw new RunInputError(`the cohort has no ${what} column "${column}"`);
+    return Array.from({ length: data.n }, (_, i) => {
+      const v = values[i];
+      return v === null || v === undefined || String(v).trim() === '' ? MISSING_LEVEL : String(v);
+    });
+  };
+  const levelSettings = resolveSettings(engineSettings(settings));
   const subgroups: SubgroupResult[] = [];
+  const subgroupAnalyses: NonNullable<RunResults['subgroupAnalyses']> = [];
   const nCols = settings.subgroupColumns.length;
   settings.subgroupColumns.forEach((column, c) => {
     onProgress(0.5 + (0.35 * c) / Math.max(1, nCols), `Computing subgroups by ${column}`);
@@ -221,7 +234,15 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
       const tooSmall = part.events < MIN_SUBGROUP_EVENTS || n - part.events < MIN_SUBGROUP_EVENTS;
       subgroups.push({ column, level, n, events: part.events, tooSmall, ...(tooSmall ? {} : { result: partMetrics(part.p, part.y, settings) }) });
     }
+    subgroupAnalyses.push({ column, ...subgroupAnalysis(p, y, labelsOf(column, 'subgroup'), levelSettings) });
   });
+
+  let sites: RunResults['sites'];
+  if (settings.siteColumn) {
+    onProgress(0.85, `Computing sites by ${settings.siteColumn}`);
+    sites = { column: settings.siteColumn, ...siteAnalysis(p, y, labelsOf(settings.siteColumn, 'site'), levelSettings) };
+  }
+  const band = settings.bootstrapReplicates > 0 ? calibrationBand(p, y, overall.calibrationCurve.smoothed, levelSettings) : undefined;
 
   const periods: PeriodResult[] = [];
   let undatedRows: number | undefined;
@@ -262,5 +283,14 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
     }
   }
   onProgress(1, 'Done');
-  return { overall, subgroups, periods, ...(undatedRows !== undefined ? { undatedRows } : {}), minSubgroupEvents: MIN_SUBGROUP_EVENTS };
+  return {
+    overall,
+    subgroups,
+    periods,
+    ...(undatedRows !== undefined ? { undatedRows } : {}),
+    minSubgroupEvents: MIN_SUBGROUP_EVENTS,
+    ...(subgroupAnalyses.length ? { subgroupAnalyses } : {}),
+    ...(sites ? { sites } : {}),
+    ...(band ? { calibrationBand: band } : {}),
+  };
 }

@@ -43,6 +43,7 @@ export async function createRun(actor: AuthUser, input: CreateRunInput, ip: stri
     const cols = await cohortColumns(m, cv.id);
     const missing = settings.subgroupColumns.filter((c) => !cols.subgroups.has(c));
     if (missing.length) throw invalid(`the cohort version has no column ${missing.map((c) => `"${c}"`).join(', ')} to group by`);
+    if (settings.siteColumn && !cols.subgroups.has(settings.siteColumn)) throw invalid(`the cohort version has no site column "${settings.siteColumn}"`);
     if (settings.timeGrouping !== 'none' && !cols.hasDates) throw invalid('time grouping needs event dates, and this cohort version has none');
 
     // The formula is frozen from the moment a run uses it (score_versions trigger keeps it so).
