@@ -62,6 +62,14 @@ describe('uploaded periods', () => {
     const rows = await request(app).get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}/rows`).set(steward).query({ page: 1, pageSize: 5, sortBy: 'line_no', sortDir: 'asc' });
     expect(rows.status).toBe(200);
     expect(rows.body.rows[0]).toMatchObject({ lineNo: 2, period: '2026-Q2', eventDate: '2026-04-01' });
+
+    // The rows search finds a period by the label the rows show, as well as by its first day.
+    const search = (text: string) =>
+      request(app).get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}/rows`).set(steward).query({ page: 1, pageSize: 100, search: text });
+    const q1 = await search('2026-q1');
+    expect(q1.body.total).toBe(40);
+    expect(new Set(q1.body.rows.map((r: { period: string }) => r.period))).toEqual(new Set(['2026-Q1']));
+    expect((await search('2026-04-01')).body.total).toBe(60);
   });
 
   it('months across a year end and a leap February: the version ends on the last day of the last month', async () => {

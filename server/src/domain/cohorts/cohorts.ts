@@ -70,9 +70,9 @@ export async function listCohortRows(cohortId: string, version: number, q: { pag
     throw invalid(`cannot sort by "${q.sortBy}"; use line_no, outcome, event_date, a predictor or a subgroup`);
   }
   // Loading, sorting and searching happen in the row browser's thread, once per version and order; here only a page.
-  const browsed = await browseRows({ cohortVersionId: v.id, rowCount: Number(v.rowCount), sortBy: q.sortBy, sortDir: q.sortDir, search: q.search, page: q.page, pageSize: q.pageSize });
   // Rows store a period's first day; they show the label the file had (2026-Q2) when the version's periods share one kind.
   const periodKind = (v.mapping as { periodKind?: PeriodKind | null }).periodKind ?? null;
+  const browsed = await browseRows({ cohortVersionId: v.id, rowCount: Number(v.rowCount), sortBy: q.sortBy, sortDir: q.sortDir, search: q.search, periodKind, page: q.page, pageSize: q.pageSize });
   const rows = browsed.rows.map((r) => ({ ...r, period: periodLabel(r.eventDate, periodKind) }));
   return { rows, total: browsed.total, page: q.page, pageSize: q.pageSize, predictorKeys, subgroupKeys };
 }

@@ -6,6 +6,7 @@
 import pg from 'pg';
 import { config } from '../../platform/config';
 import { loadCohortData, type CohortData, type Query } from '../../domain/cohorts/cohortData';
+import { periodLabel, type PeriodKind } from '@shared/periods';
 
 export interface RowsRequest {
   cohortVersionId: string;
@@ -13,6 +14,8 @@ export interface RowsRequest {
   sortBy: string;
   sortDir: 'asc' | 'desc';
   search?: string;
+  /** The kind of period every row's start date begins, so a search for 2026-Q2 finds that quarter's rows. */
+  periodKind?: PeriodKind | null;
   page: number;
   pageSize: number;
 }
@@ -91,11 +94,20 @@ function sortedOrder(data: CohortData, sortBy: string, dir: 'asc' | 'desc', subs
   return Int32Array.from(idx);
 }
 
-function matching(data: CohortData, needle: string): Int32Array {
+function matching(data: CohortData, needle: string, periodKind: PeriodKind | null): Int32Array {
   const cols = [...Object.values(data.columns), ...Object.values(data.subgroups)];
   const out: number[] = [];
+  // A period is searched as the rows show it (2026-Q2) and as its stored first day.
+  const periods = new Map<string, string>();
+  const periodText = (start: string) => periods.get(start) ?? periods.set(start, `${periodLabel(start, periodKind)} ${start}`.toLowerCase()).get(start)!;
   for (let i = 0; i < data.n; i++) {
-    if (String(data.lineNo[i]) === needle || cols.some((c) => c[i] !== null && c[i] !== undefined && String(c[i]).toLowerCase().includes(needle))) out.push(i);
+    const start = data.eventDate[i];
+    if (
+      String(data.lineNo[i]) === needle ||
+      (start !== null && periodText(start).includes(needle)) ||
+      cols.some((c) => c[i] !== null && c[i] !== undefined && String(c[i]).toLowerCase().includes(needle))
+    )
+      out.push(i);
   }
   return Int32Array.from(out);
 }
@@ -104,10 +116,10 @@ async function answer(r: RowsRequest): Promise<RowsAnswer> {
   const h = version(r.cohortVersionId, r.rowCount);
   const data = await h.data;
   const needle = r.search?.trim().toLowerCase() || '';
-  const key = `${needle}|${r.sortBy}|${r.sortDir}`;
+  const key = `${needle}|${r.periodKind ?? ''}|${r.sortBy}|${r.sortDir}`;
   let order = h.orders.get(key);
   if (!order) {
-    order = Promise.resolve().then(() => sortedOrder(data, r.sortBy, r.sortDir, needle ? matching(data, needle) : undefined));
+    order = Promise.resolve().then(() => sortedOrder(data, r.sortBy, r.sortDir, needle ? matching(data, needle, r.periodKind ?? null) : undefined));
     h.orders.set(key, order);
     if (h.orders.size > MAX_ORDERS_PER_VERSION) h.orders.delete(h.orders.keys().next().value!);
   }
