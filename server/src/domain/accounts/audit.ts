@@ -1,3 +1,4 @@
+import type { ChainReport } from '@shared/audit';
 import { createHash } from 'node:crypto';
 import type { EntityManager } from 'typeorm';
 import { dataSource } from '../../platform/database/dataSource';
@@ -68,14 +69,7 @@ export async function appendAudit(event: AuditEvent, manager?: EntityManager): P
   else await dataSource.transaction(write);
 }
 
-export interface ChainReport {
-  ok: boolean;
-  entries: number;
-  firstBrokenSeq: string | null;
-  reason: string | null;
-  /** The newest entry, so an operator can note it outside the database and compare later. */
-  head: { seq: string; hash: string } | null;
-}
+export type { ChainReport };
 
 /**
  * Re-computes every hash in order (an edited or removed entry breaks the chain after it), then compares the head

@@ -1,5 +1,5 @@
 // What a run's computation reads — the score version, the cohort version's rows and the settings — and the hash over
-// it. Called through the run worker thread's own connection (workers/runWorker.ts), or dataSource in the seed.
+// it. Called through the run worker thread's own connection (jobs/threads/runWorker.ts), or dataSource in the seed.
 import { runSettingsSchema } from '@shared/runs';
 import { notFound } from '../errors';
 import { loadCohortData, mainQuery, type Query } from '../cohorts/cohortData';

@@ -23,7 +23,7 @@ import * as scores from './scores';
 import * as users from './users';
 
 // The named role sets live in shared/src/access.ts, where the client's pages and menu take theirs from.
-import { ADMIN, CARD_READERS, COHORT_READERS, COHORT_WRITERS, RUN_TEAM, SCORE_READERS, SCORE_WRITERS } from '@shared/access';
+import { ADMIN, ALERT_ACKNOWLEDGERS, CARD_READERS, COHORT_READERS, COHORT_WRITERS, DRIFT_READERS, REPRODUCERS, RESULT_READERS, RUN_STARTERS, RUN_TEAM, SCORE_READERS, SCORE_WRITERS, SIGNERS, SIGNOFF_QUEUE_READERS, STATISTICIAN } from '@shared/access';
 
 // Per-IP limit on failed sign-ins; the per-account lock-out lives in domain/accounts/users.ts.
 const loginLimiter = rateLimit({
@@ -54,22 +54,22 @@ export const routes: RouteDef[] = [
   { method: 'get', path: '/api/audit.csv', access: ADMIN, summary: 'download the filtered audit trail as CSV', query: auditQuery, handler: audit.csv },
 
   // Validation runs. /options and /compare before /:id so the literal paths are not taken for an id.
-  { method: 'post', path: '/api/runs', access: ['steward', 'statistician'], summary: 'queue a validation run', body: createRunRequest, handler: runs.create },
-  { method: 'get', path: '/api/runs', access: ['steward', 'statistician', 'chair', 'admin'], summary: 'list validation runs with review and sign-off status (filter by score, status, stage; search; paged)', query: runListQuery, handler: runs.list },
-  { method: 'get', path: '/api/runs/options', access: ['steward', 'statistician'], summary: 'score and cohort versions a run may use', handler: runs.options },
-  { method: 'get', path: '/api/runs/compare', access: ['statistician', 'chair', 'admin'], summary: 'compare the headline figures of two runs', query: runCompareQuery, handler: runs.compare },
-  { method: 'get', path: '/api/runs/:id', access: ['steward', 'statistician', 'chair', 'admin'], summary: 'one validation run with its results', params: idParam, handler: runs.get },
-  { method: 'post', path: '/api/runs/:id/reproduce', access: ['statistician', 'admin'], summary: 're-compute a completed run and compare its hash', params: idParam, handler: runs.reproduce },
+  { method: 'post', path: '/api/runs', access: RUN_STARTERS, summary: 'queue a validation run', body: createRunRequest, handler: runs.create },
+  { method: 'get', path: '/api/runs', access: RUN_TEAM, summary: 'list validation runs with review and sign-off status (filter by score, status, stage; search; paged)', query: runListQuery, handler: runs.list },
+  { method: 'get', path: '/api/runs/options', access: RUN_STARTERS, summary: 'score and cohort versions a run may use', handler: runs.options },
+  { method: 'get', path: '/api/runs/compare', access: RESULT_READERS, summary: 'compare the headline figures of two runs', query: runCompareQuery, handler: runs.compare },
+  { method: 'get', path: '/api/runs/:id', access: RUN_TEAM, summary: 'one validation run with its results', params: idParam, handler: runs.get },
+  { method: 'post', path: '/api/runs/:id/reproduce', access: REPRODUCERS, summary: 're-compute a completed run and compare its hash', params: idParam, handler: runs.reproduce },
   { method: 'get', path: '/api/runs/:id/review', access: RUN_TEAM, summary: 'reviews, signature manifest and next allowed acts on a run', params: idParam, handler: governance.getReview },
-  { method: 'post', path: '/api/runs/:id/review', access: ['statistician'], summary: 'record or revise the review of a completed run', params: idParam, body: reviewRequest, handler: governance.postReview },
-  { method: 'post', path: '/api/runs/:id/signoff', access: ['chair'], summary: 'sign: approve for clinical use or return (password re-entered)', params: idParam, body: signoffRequest, handler: governance.signoff },
-  { method: 'post', path: '/api/score-versions/:id/revoke', access: ['chair'], summary: 'sign: revoke a clinical-use approval (password re-entered)', params: idParam, body: revokeRequest, handler: governance.revoke },
+  { method: 'post', path: '/api/runs/:id/review', access: STATISTICIAN, summary: 'record or revise the review of a completed run', params: idParam, body: reviewRequest, handler: governance.postReview },
+  { method: 'post', path: '/api/runs/:id/signoff', access: SIGNERS, summary: 'sign: approve for clinical use or return (password re-entered)', params: idParam, body: signoffRequest, handler: governance.signoff },
+  { method: 'post', path: '/api/score-versions/:id/revoke', access: SIGNERS, summary: 'sign: revoke a clinical-use approval (password re-entered)', params: idParam, body: revokeRequest, handler: governance.revoke },
   { method: 'get', path: '/api/runs/:id/comments', access: RUN_TEAM, summary: 'the discussion thread of a run', params: idParam, handler: governance.listComments },
   { method: 'post', path: '/api/runs/:id/comments', access: RUN_TEAM, summary: 'add a comment to a run', params: idParam, body: commentRequest, handler: governance.addComment },
-  { method: 'get', path: '/api/signoff-queue', access: ['chair', 'admin'], summary: 'reviewed runs awaiting the committee decision', handler: governance.queue },
+  { method: 'get', path: '/api/signoff-queue', access: SIGNOFF_QUEUE_READERS, summary: 'reviewed runs awaiting the committee decision', handler: governance.queue },
   { method: 'get', path: '/api/scorecards', access: CARD_READERS, summary: 'score cards of approved score versions', handler: governance.scorecards },
   { method: 'get', path: '/api/scorecards/:versionId', access: CARD_READERS, summary: 'the score card of one approved version', params: versionIdParam, handler: governance.scorecard },
-  { method: 'get', path: '/api/runs/:id/report', access: ['statistician', 'chair', 'admin'], summary: 'the validation report bundle of a run', params: idParam, handler: governance.report },
+  { method: 'get', path: '/api/runs/:id/report', access: RESULT_READERS, summary: 'the validation report bundle of a run', params: idParam, handler: governance.report },
   { method: 'get', path: '/api/dev/outbox', access: ADMIN, summary: 'development only: e-mails received by the local fake SMTP server', handler: governance.devOutbox },
   // Cohorts: uploads are screened, mapped, checked, then stored in one transaction (domain/cohorts/uploads.ts).
   { method: 'post', path: '/api/cohorts', access: COHORT_WRITERS, summary: 'upload a CSV (multipart, field "file"); screened for identifiers before anything is kept', multipartFile: 'file', before: [cohorts.receiveFile], handler: cohorts.createUpload },
@@ -100,13 +100,13 @@ export const routes: RouteDef[] = [
 
   { method: 'get', path: '/api/sample-size', access: RUN_TEAM, summary: 'sample-size planner for external validation (Riley et al. 2021)', query: sampleSizeQuery, handler: drift.sampleSize },
   // Drift monitoring and model updating (domain/drift/: timeline.ts, alerts.ts, alertRules.ts, recalibration.ts).
-  { method: 'get', path: '/api/scores/:id/versions/:version/drift', access: ['statistician', 'chair', 'admin', 'steward'], summary: 'drift timeline of a score version: per-period figures, funnel limits, CUSUM, O − E, alerts', params: scoreVersionParams, handler: drift.timeline },
-  { method: 'put', path: '/api/scores/:id/versions/:version/drift/runs', access: ['statistician'], summary: 'choose which run of a cohort version the drift timeline takes (runId null: the newest completed)', params: scoreVersionParams, body: driftRunChoice, handler: drift.chooseRun },
-  { method: 'get', path: '/api/alerts', access: ['statistician', 'chair', 'admin'], summary: 'drift alerts, open ones first (filter by score)', query: alertListQuery, handler: drift.listAlerts },
-  { method: 'post', path: '/api/alerts/acknowledge', access: ['statistician', 'chair'], summary: 'acknowledge several open drift alerts with one note (all or none)', body: alertBulkAckBody, handler: drift.acknowledgeMany },
-  { method: 'post', path: '/api/alerts/:id/acknowledge', access: ['statistician', 'chair'], summary: 'acknowledge a drift alert with a note (once)', params: idParam, body: alertAckBody, handler: drift.acknowledge },
-  { method: 'get', path: '/api/scores/:id/alert-rules', access: ['statistician', 'chair', 'admin'], summary: 'drift alert rules of a score', params: scoreIdParam, handler: drift.listRules },
-  { method: 'post', path: '/api/scores/:id/alert-rules', access: ['statistician'], summary: 'add a drift alert rule to a score', params: scoreIdParam, body: alertRuleBody, handler: drift.createRule },
-  { method: 'post', path: '/api/runs/:id/recalibration-preview', access: ['statistician'], summary: 'fit an intercept update or logistic recalibration on a run (nothing stored)', params: idParam, body: recalibrationBody, handler: drift.recalibrationPreview },
-  { method: 'post', path: '/api/runs/:id/recalibrate', access: ['statistician'], summary: 'propose a recalibrated draft score version from a completed run', params: idParam, body: recalibrationBody, handler: drift.recalibrate },
+  { method: 'get', path: '/api/scores/:id/versions/:version/drift', access: DRIFT_READERS, summary: 'drift timeline of a score version: per-period figures, funnel limits, CUSUM, O − E, alerts', params: scoreVersionParams, handler: drift.timeline },
+  { method: 'put', path: '/api/scores/:id/versions/:version/drift/runs', access: STATISTICIAN, summary: 'choose which run of a cohort version the drift timeline takes (runId null: the newest completed)', params: scoreVersionParams, body: driftRunChoice, handler: drift.chooseRun },
+  { method: 'get', path: '/api/alerts', access: RESULT_READERS, summary: 'drift alerts, open ones first (filter by score)', query: alertListQuery, handler: drift.listAlerts },
+  { method: 'post', path: '/api/alerts/acknowledge', access: ALERT_ACKNOWLEDGERS, summary: 'acknowledge several open drift alerts with one note (all or none)', body: alertBulkAckBody, handler: drift.acknowledgeMany },
+  { method: 'post', path: '/api/alerts/:id/acknowledge', access: ALERT_ACKNOWLEDGERS, summary: 'acknowledge a drift alert with a note (once)', params: idParam, body: alertAckBody, handler: drift.acknowledge },
+  { method: 'get', path: '/api/scores/:id/alert-rules', access: RESULT_READERS, summary: 'drift alert rules of a score', params: scoreIdParam, handler: drift.listRules },
+  { method: 'post', path: '/api/scores/:id/alert-rules', access: STATISTICIAN, summary: 'add a drift alert rule to a score', params: scoreIdParam, body: alertRuleBody, handler: drift.createRule },
+  { method: 'post', path: '/api/runs/:id/recalibration-preview', access: STATISTICIAN, summary: 'fit an intercept update or logistic recalibration on a run (nothing stored)', params: idParam, body: recalibrationBody, handler: drift.recalibrationPreview },
+  { method: 'post', path: '/api/runs/:id/recalibrate', access: STATISTICIAN, summary: 'propose a recalibrated draft score version from a completed run', params: idParam, body: recalibrationBody, handler: drift.recalibrate },
 ];
