@@ -21,7 +21,7 @@ export interface AuditRow {
   sourceIp: string | null;
   details: Record<string, unknown>;
   hash: string;
-  /** The actor's name and a name for the target, in words (services/auditNames.ts). */
+  /** The actor's name and a name for the target, in words (server/src/domain/accounts/auditNames.ts). */
   actorName?: string | null;
   targetName?: string | null;
 }

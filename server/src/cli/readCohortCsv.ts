@@ -1,4 +1,4 @@
-// Streams a cohort CSV (the one reader, services/csvFile.ts) into growing typed arrays: p (a prediction column or a
+// Streams a cohort CSV (the one reader, domain/cohorts/csvFile.ts) into growing typed arrays: p (a prediction column or a
 // score applied row by row) and y. Every failure is one line naming the file, and the line and column when known.
 import { constants } from 'node:fs';
 import { access, stat } from 'node:fs/promises';

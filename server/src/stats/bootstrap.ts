@@ -113,7 +113,7 @@ export function percentileIntervals(point: Record<string, number>, rows: Record<
   return { replicates: rows.length, seed, intervals, failed, method: 'percentile (2.5th, 97.5th; type 7), resampling rows with replacement' };
 }
 
-/** In-process bootstrap (single thread); see bootstrapInWorkers (workers/pool.ts) for the same across worker threads. */
+/** In-process bootstrap (single thread); see bootstrapInWorkers (jobs/threads/pool.ts) for the same across worker threads. */
 export function bootstrap(p: Float64Array, y: Uint8Array, settings: ValidationSettings, point: ValidationResult, onReplicate?: (done: number) => void): NonNullable<ValidationResult['bootstrap']> {
   return percentileIntervals(scalarMetrics(point), runReplicates(p, y, settings, 0, settings.bootstrapReplicates, onReplicate), settings.bootstrapSeed);
 }
