@@ -12,7 +12,13 @@ export interface NavigationItem {
   roles: readonly Role[];
 }
 
-const item = (page: PageName, to: string, title: string, icon: string): NavigationItem => ({ title, icon, to, page, roles: pageRoles(page) });
+const item = (page: PageName, to: string, title: string, icon: string): NavigationItem => ({
+  title,
+  icon,
+  to,
+  page,
+  roles: pageRoles(page),
+});
 
 export const navigation: NavigationItem[] = [
   item('home', '/', 'Overview', 'mdi-home-outline'),

@@ -16,7 +16,10 @@ async function main() {
   const out = path.resolve(argValue('out') ?? `backups/plumbline-${config.db.database}-${stamp}.dump`);
   mkdirSync(path.dirname(out), { recursive: true });
   // pg_dump takes one snapshot (repeatable read), so the counts below may differ only by writes made meanwhile.
-  const res = spawnSync(pgBinary('pg_dump'), ['-Fc', '--no-owner', '--no-privileges', '-f', out, config.db.database], { env: pgEnv(), encoding: 'utf8' });
+  const res = spawnSync(pgBinary('pg_dump'), ['-Fc', '--no-owner', '--no-privileges', '-f', out, config.db.database], {
+    env: pgEnv(),
+    encoding: 'utf8',
+  });
   if (res.status !== 0) throw new Error(`pg_dump failed (${res.status ?? res.error?.message}): ${res.stderr}`);
 
   await dataSource.initialize();
@@ -24,7 +27,13 @@ async function main() {
   const chain = await verifyAuditChain();
   await closeDatabase();
   const sha256 = createHash('sha256').update(readFileSync(out)).digest('hex');
-  console.log(JSON.stringify({ file: out, bytes: statSync(out).size, sha256, database: config.db.database, counts, auditChain: chain }, null, 2));
+  console.log(
+    JSON.stringify(
+      { file: out, bytes: statSync(out).size, sha256, database: config.db.database, counts, auditChain: chain },
+      null,
+      2,
+    ),
+  );
   console.log(`backup written: ${out}`);
 }
 

@@ -40,9 +40,14 @@ export function argValue(name: string): string | undefined {
 export const hasFlag = (name: string) => process.argv.slice(2).includes(`--${name}`);
 
 /** Row count of every table in the public schema, via a query runner. */
-export async function tableCounts(query: (sql: string) => Promise<{ t: string; n: string }[]>): Promise<Record<string, number>> {
-  const tables = await query(`SELECT tablename AS t, '' AS n FROM pg_tables WHERE schemaname = 'public' ORDER BY tablename`);
+export async function tableCounts(
+  query: (sql: string) => Promise<{ t: string; n: string }[]>,
+): Promise<Record<string, number>> {
+  const tables = await query(
+    `SELECT tablename AS t, '' AS n FROM pg_tables WHERE schemaname = 'public' ORDER BY tablename`,
+  );
   const out: Record<string, number> = {};
-  for (const { t } of tables) out[t] = Number((await query(`SELECT '' AS t, count(*)::text AS n FROM "${t.replace(/"/g, '""')}"`))[0].n);
+  for (const { t } of tables)
+    out[t] = Number((await query(`SELECT '' AS t, count(*)::text AS n FROM "${t.replace(/"/g, '""')}"`))[0].n);
   return out;
 }

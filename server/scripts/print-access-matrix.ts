@@ -9,7 +9,8 @@ import { ROLE_SETS } from '@shared/access';
 import type { Access } from '../src/http/routes/define';
 import { routes } from '../src/http/routes/table';
 
-const sameRoles = (a: readonly string[], b: readonly string[]) => a.length === b.length && a.every((r) => b.includes(r));
+const sameRoles = (a: readonly string[], b: readonly string[]) =>
+  a.length === b.length && a.every((r) => b.includes(r));
 
 /** The named set of shared/src/access.ts the route grants: the very object if the table names it, else the first with the same roles. */
 function setName(a: Exclude<Access, string>): string {
@@ -20,7 +21,10 @@ function setName(a: Exclude<Access, string>): string {
 }
 
 export function renderAccessMatrix(): string {
-  const lines = routes.map((r) => `  '${r.method.toUpperCase()} ${r.path}': ${typeof r.access === 'string' ? `'${r.access}'` : setName(r.access)},`);
+  const lines = routes.map(
+    (r) =>
+      `  '${r.method.toUpperCase()} ${r.path}': ${typeof r.access === 'string' ? `'${r.access}'` : setName(r.access)},`,
+  );
   const names = [...new Set(routes.flatMap((r) => (typeof r.access === 'string' ? [] : [setName(r.access)])))].sort();
   return `// Who may call each API route: 'public' (no token), 'signed-in' (any active account) or one of the named role sets
 // of shared/src/access.ts (the sets the route table and the client's pages take theirs from).

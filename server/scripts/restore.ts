@@ -13,7 +13,10 @@ import { argValue, hasFlag, pgBinary, pgEnv, tableCounts } from './pgTools';
 const quoteIdent = (name: string) => `"${name.replace(/"/g, '""')}"`;
 
 function psql(database: string, sql: string): string {
-  const res = spawnSync(pgBinary('psql'), ['-tAq', '-v', 'ON_ERROR_STOP=1', '-c', sql, database], { env: pgEnv(database), encoding: 'utf8' });
+  const res = spawnSync(pgBinary('psql'), ['-tAq', '-v', 'ON_ERROR_STOP=1', '-c', sql, database], {
+    env: pgEnv(database),
+    encoding: 'utf8',
+  });
   if (res.status !== 0) throw new Error(`psql failed: ${res.stderr}`);
   return res.stdout.trim();
 }
@@ -27,15 +30,20 @@ async function main() {
 
   const exists = psql('postgres', `SELECT 1 FROM pg_database WHERE datname = '${database}'`) === '1';
   const tables = exists ? Number(psql(database, `SELECT count(*) FROM pg_tables WHERE schemaname = 'public'`)) : 0;
-  if (tables > 0 && !hasFlag('replace')) throw new Error(`database ${database} already holds ${tables} tables; restore into a new name or pass --replace`);
+  if (tables > 0 && !hasFlag('replace'))
+    throw new Error(`database ${database} already holds ${tables} tables; restore into a new name or pass --replace`);
   if (tables > 0) psql('postgres', `DROP DATABASE ${quoteIdent(database)} WITH (FORCE)`);
   // An existing empty database is used as it is; otherwise a new one.
   if (!exists || tables > 0) psql('postgres', `CREATE DATABASE ${quoteIdent(database)}`);
 
-  const res = spawnSync(pgBinary('pg_restore'), ['--no-owner', '--no-privileges', '--exit-on-error', '--single-transaction', '-d', database, file], {
-    env: pgEnv(database),
-    encoding: 'utf8',
-  });
+  const res = spawnSync(
+    pgBinary('pg_restore'),
+    ['--no-owner', '--no-privileges', '--exit-on-error', '--single-transaction', '-d', database, file],
+    {
+      env: pgEnv(database),
+      encoding: 'utf8',
+    },
+  );
   if (res.status !== 0) throw new Error(`pg_restore failed (${res.status ?? res.error?.message}): ${res.stderr}`);
 
   const restored = new DataSource({
@@ -52,7 +60,8 @@ async function main() {
     const counts = await tableCounts((sql) => restored.query(sql));
     const chain = await verifyAuditChain(restored.manager);
     console.log(JSON.stringify({ file, database, counts, auditChain: chain }, null, 2));
-    if (!chain.ok) throw new Error(`restored, but the audit chain does not verify: ${chain.reason} at seq ${chain.firstBrokenSeq}`);
+    if (!chain.ok)
+      throw new Error(`restored, but the audit chain does not verify: ${chain.reason} at seq ${chain.firstBrokenSeq}`);
     console.log(`restored into ${database}; audit chain verified (${chain.entries} entries)`);
   } finally {
     await restored.destroy();

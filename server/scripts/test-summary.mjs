@@ -11,7 +11,9 @@ for (const file of process.argv.slice(2)) {
   passed += r.numPassedTests ?? 0;
   failed += r.numFailedTests ?? 0;
   skipped += (r.numPendingTests ?? 0) + (r.numTodoTests ?? 0);
-  failedFiles += (r.testResults ?? []).filter((t) => t.status === 'failed' && (t.assertionResults ?? []).length === 0).length;
+  failedFiles += (r.testResults ?? []).filter(
+    (t) => t.status === 'failed' && (t.assertionResults ?? []).length === 0,
+  ).length;
 }
 failed += failedFiles; // a file that failed to load counts as a failure
 console.log(`\ntests: ${passed} passed, ${failed} failed, ${skipped} skipped`);

@@ -11,7 +11,10 @@ runMain('Plumbline', async () => {
   await prepareProcess();
   const app = createApp();
   const server = app.listen(config.port, '127.0.0.1', () => {
-    logger.info({ port: config.port, nodeEnv: config.nodeEnv, jobs: config.jobs }, `Plumbline is serving on http://localhost:${config.port} (${config.nodeEnv}${config.jobs ? '' : ', API only: jobs run in `npm run worker`'})`);
+    logger.info(
+      { port: config.port, nodeEnv: config.nodeEnv, jobs: config.jobs },
+      `Plumbline is serving on http://localhost:${config.port} (${config.nodeEnv}${config.jobs ? '' : ', API only: jobs run in `npm run worker`'})`,
+    );
   });
   // Background work starts here, explicitly: the job workers unless PLUMBLINE_JOBS=off. Development: a loopback mail
   // server for the outbox page (docker-free-dev.sh sets PLUMBLINE_FAKE_SMTP=1).

@@ -73,25 +73,54 @@ export const PAGES = {
   account: { access: 'signed-in', api: ['POST /api/auth/password'] },
   forbidden: { access: 'signed-in', api: [] },
   'not-found': { access: 'signed-in', api: [] },
-  'admin-accounts': { access: ADMIN, api: ['GET /api/users', 'POST /api/users', 'PATCH /api/users/:id', 'POST /api/users/:id/password'] },
+  'admin-accounts': {
+    access: ADMIN,
+    api: ['GET /api/users', 'POST /api/users', 'PATCH /api/users/:id', 'POST /api/users/:id/password'],
+  },
   'admin-audit': { access: ADMIN, api: ['GET /api/audit', 'GET /api/audit/verify', 'GET /api/audit.csv'] },
   runs: { access: RUN_TEAM, api: ['GET /api/runs', 'GET /api/scores'] },
   'run-start': { access: RUN_STARTERS, api: ['GET /api/runs/options', 'POST /api/runs'] },
   'run-compare': { access: RESULT_READERS, api: ['GET /api/runs/compare'] },
-  run: { access: RUN_TEAM, api: ['GET /api/runs/:id', 'GET /api/runs/:id/review', 'GET /api/runs/:id/comments', 'POST /api/runs/:id/comments'] },
+  run: {
+    access: RUN_TEAM,
+    api: ['GET /api/runs/:id', 'GET /api/runs/:id/review', 'GET /api/runs/:id/comments', 'POST /api/runs/:id/comments'],
+  },
   'run-report': { access: RESULT_READERS, api: ['GET /api/runs/:id/report'] },
   'signoff-queue': { access: SIGNOFF_QUEUE_READERS, api: ['GET /api/signoff-queue'] },
   scorecards: { access: CARD_READERS, api: ['GET /api/scorecards'] },
   'dev-outbox': { access: ADMIN, api: ['GET /api/dev/outbox'] },
   scores: { access: SCORE_READERS, api: ['GET /api/scores'] },
-  'score-detail': { access: SCORE_READERS, api: ['GET /api/scores/:id', 'GET /api/scores/:id/versions/:version/template.csv', 'GET /api/scores/:id/versions/:version/export'] },
+  'score-detail': {
+    access: SCORE_READERS,
+    api: [
+      'GET /api/scores/:id',
+      'GET /api/scores/:id/versions/:version/template.csv',
+      'GET /api/scores/:id/versions/:version/export',
+    ],
+  },
   'score-drift': { access: DRIFT_READERS, api: ['GET /api/scores/:id/versions/:version/drift'] },
   alerts: { access: RESULT_READERS, api: ['GET /api/alerts'] },
   'sample-size': { access: RUN_TEAM, api: ['GET /api/sample-size'] },
   'score-version-new': { access: SCORE_WRITERS, api: ['POST /api/scores/:id/versions', 'GET /api/scores/:id'] },
   cohorts: { access: COHORT_READERS, api: ['GET /api/cohorts'] },
-  'cohort-upload': { access: COHORT_WRITERS, api: ['GET /api/upload-score-versions', 'POST /api/cohorts', 'GET /api/uploads/:id', 'POST /api/uploads/:id/mapping', 'POST /api/uploads/:id/commit'] },
-  cohort: { access: COHORT_READERS, api: ['GET /api/cohorts/:id', 'GET /api/cohorts/:id/versions/:version', 'GET /api/cohorts/:id/versions/:version/rows'] },
+  'cohort-upload': {
+    access: COHORT_WRITERS,
+    api: [
+      'GET /api/upload-score-versions',
+      'POST /api/cohorts',
+      'GET /api/uploads/:id',
+      'POST /api/uploads/:id/mapping',
+      'POST /api/uploads/:id/commit',
+    ],
+  },
+  cohort: {
+    access: COHORT_READERS,
+    api: [
+      'GET /api/cohorts/:id',
+      'GET /api/cohorts/:id/versions/:version',
+      'GET /api/cohorts/:id/versions/:version/rows',
+    ],
+  },
 } as const satisfies Record<string, PageRule>;
 
 export type PageName = keyof typeof PAGES;

@@ -45,11 +45,17 @@ export function adequacyVerdict(events: number, nonEvents: number): AdequacyVerd
   const meetsPreferred = events >= PREFERRED_EACH && nonEvents >= PREFERRED_EACH;
   const level: AdequacyLevel = meetsPreferred ? 'preferred' : meetsMinimum ? 'minimum' : 'short';
   const lacking = (m: { events: number; nonEvents: number }) =>
-    [m.events ? `${formatCount(m.events)} more event${m.events === 1 ? '' : 's'}` : '', m.nonEvents ? `${formatCount(m.nonEvents)} more non-event${m.nonEvents === 1 ? '' : 's'}` : '']
+    [
+      m.events ? `${formatCount(m.events)} more event${m.events === 1 ? '' : 's'}` : '',
+      m.nonEvents ? `${formatCount(m.nonEvents)} more non-event${m.nonEvents === 1 ? '' : 's'}` : '',
+    ]
       .filter(Boolean)
       .join(' and ');
   const missingForMinimum = { events: missing(events, MINIMUM_EACH), nonEvents: missing(nonEvents, MINIMUM_EACH) };
-  const missingForPreferred = { events: missing(events, PREFERRED_EACH), nonEvents: missing(nonEvents, PREFERRED_EACH) };
+  const missingForPreferred = {
+    events: missing(events, PREFERRED_EACH),
+    nonEvents: missing(nonEvents, PREFERRED_EACH),
+  };
   const message =
     level === 'preferred'
       ? `Meets the preferred size of ${PREFERRED_EACH} events and ${PREFERRED_EACH} non-events.`

@@ -16,8 +16,12 @@ export const uploadFields = z
     periodStart: z.preprocess((v) => (v === '' ? undefined : v), isoDate.optional()),
     periodEnd: z.preprocess((v) => (v === '' ? undefined : v), isoDate.optional()),
   })
-  .refine((f) => !!f.cohortId !== !!f.cohortName, { message: 'give either cohortId (a new version of a cohort) or cohortName (a new cohort)' })
-  .refine((f) => !f.periodStart || !f.periodEnd || f.periodStart <= f.periodEnd, { message: 'periodStart must not be after periodEnd' });
+  .refine((f) => !!f.cohortId !== !!f.cohortName, {
+    message: 'give either cohortId (a new version of a cohort) or cohortName (a new cohort)',
+  })
+  .refine((f) => !f.periodStart || !f.periodEnd || f.periodStart <= f.periodEnd, {
+    message: 'periodStart must not be after periodEnd',
+  });
 export type UploadFields = z.infer<typeof uploadFields>;
 
 const label = z.string().trim().min(1).max(40);
@@ -30,10 +34,25 @@ export const columnMapping = z.object({
     positive: z.array(label).min(1).max(10).default(['1']),
     negative: z.array(label).min(1).max(10).default(['0']),
   }),
-  date: z.object({ column: z.string().min(1).max(200) }).nullable().optional(),
-  subgroups: z.record(z.string().trim().min(1).max(60).regex(/^[A-Za-z][A-Za-z0-9_ ]*$/, 'subgroup names are letters, digits, _ and spaces'), z.string().min(1).max(200)).default({}),
+  date: z
+    .object({ column: z.string().min(1).max(200) })
+    .nullable()
+    .optional(),
+  subgroups: z
+    .record(
+      z
+        .string()
+        .trim()
+        .min(1)
+        .max(60)
+        .regex(/^[A-Za-z][A-Za-z0-9_ ]*$/, 'subgroup names are letters, digits, _ and spaces'),
+      z.string().min(1).max(200),
+    )
+    .default({}),
   /** Optional plausible range per predictor; age gets 0–120 and a supplied probability [0, 1] by default. */
-  ranges: z.record(z.string(), z.object({ min: z.number().finite().optional(), max: z.number().finite().optional() })).default({}),
+  ranges: z
+    .record(z.string(), z.object({ min: z.number().finite().optional(), max: z.number().finite().optional() }))
+    .default({}),
   /**
    * Per text predictor, the steward's confirmed reading of the file's labels: file label → the formula's level it means,
    * or '' for "none of the formula's levels". Applied to the rows as they are stored (Y → yes).
@@ -73,7 +92,12 @@ export const cohortListQuery = pageQuery.extend({
 
 export const cohortRowsQuery = pageQuery.extend({
   search: z.string().trim().max(160).optional(),
-  sortBy: z.string().trim().max(80).regex(/^[A-Za-z0-9_ .:-]+$/).default('line_no'),
+  sortBy: z
+    .string()
+    .trim()
+    .max(80)
+    .regex(/^[A-Za-z0-9_ .:-]+$/)
+    .default('line_no'),
   sortDir: z.enum(['asc', 'desc']).default('asc'),
 });
 

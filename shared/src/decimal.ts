@@ -22,6 +22,7 @@ function isDecimal(v: string): boolean {
  */
 export function parseDecimal(text: string | undefined): number {
   if (text === undefined) return NaN;
-  const v = text.length > 0 && (text.charCodeAt(0) === 32 || text.charCodeAt(text.length - 1) === 32) ? text.trim() : text;
+  const v =
+    text.length > 0 && (text.charCodeAt(0) === 32 || text.charCodeAt(text.length - 1) === 32) ? text.trim() : text;
   return isDecimal(v) ? Number(v) : NaN;
 }

@@ -146,7 +146,10 @@ export interface AlertRuleCreateResponse {
 export const alertAckBody = z.object({ note: z.string().trim().min(1).max(2000) });
 export type AlertAckBody = z.infer<typeof alertAckBody>;
 /** Several open alerts acknowledged at once with one note (one audit entry each). */
-export const alertBulkAckBody = z.object({ ids: z.array(z.uuid()).min(1).max(500), note: z.string().trim().min(1).max(2000) });
+export const alertBulkAckBody = z.object({
+  ids: z.array(z.uuid()).min(1).max(500),
+  note: z.string().trim().min(1).max(2000),
+});
 export type AlertBulkAckBody = z.infer<typeof alertBulkAckBody>;
 export const alertListQuery = z.object({ score: z.uuid().optional() });
 

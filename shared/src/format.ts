@@ -29,7 +29,11 @@ function numberFormat(decimals: number): Intl.NumberFormat {
   let nf = formatters.get(decimals);
   if (!nf) {
     // en-GB: comma thousands separator, point decimal, whatever the reader's locale (one way on every page).
-    nf = new Intl.NumberFormat('en-GB', { minimumFractionDigits: decimals, maximumFractionDigits: decimals, useGrouping: true });
+    nf = new Intl.NumberFormat('en-GB', {
+      minimumFractionDigits: decimals,
+      maximumFractionDigits: decimals,
+      useGrouping: true,
+    });
     formatters.set(decimals, nf);
   }
   return nf;
@@ -121,7 +125,8 @@ export function formatThresholdList(values: readonly number[]): string {
   if (values.length >= 4) {
     const step = values[1] - values[0];
     const even = values.every((v, i) => i === 0 || Math.abs(v - values[i - 1] - step) < 1e-9);
-    if (even) return `${pct(values[0])} to ${pct(values[values.length - 1])} in steps of ${pct(step)} (${formatCount(values.length)} thresholds)`;
+    if (even)
+      return `${pct(values[0])} to ${pct(values[values.length - 1])} in steps of ${pct(step)} (${formatCount(values.length)} thresholds)`;
   }
   return values.map(pct).join(', ');
 }

@@ -17,7 +17,8 @@ export const MEANING_OF_DECISION: Record<Decision, SignatureMeaning> = {
 
 /** Verdicts against which an approval needs the chair's written reason (stored with the signature, in the manifest). */
 export const NEGATIVE_VERDICTS: readonly Verdict[] = ['not fit for use', 'recalibrate first'];
-export const approvalNeedsReason = (verdict: Verdict | null | undefined) => !!verdict && NEGATIVE_VERDICTS.includes(verdict);
+export const approvalNeedsReason = (verdict: Verdict | null | undefined) =>
+  !!verdict && NEGATIVE_VERDICTS.includes(verdict);
 
 export const reviewRequest = z.object({
   verdict: z.enum(VERDICTS),

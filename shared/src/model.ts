@@ -18,11 +18,15 @@ export const predictorSchema = z
     term: z.number().int().min(1).max(8).optional(),
   })
   .superRefine((p, ctx) => {
-    if (p.transform === 'indicator' && p.level === undefined) ctx.addIssue({ code: 'custom', message: `${p.column}: an indicator needs a level` });
+    if (p.transform === 'indicator' && p.level === undefined)
+      ctx.addIssue({ code: 'custom', message: `${p.column}: an indicator needs a level` });
     if (p.transform === 'rcs') {
-      if (!p.knots || p.term === undefined) ctx.addIssue({ code: 'custom', message: `${p.column}: a spline term needs knots and term` });
-      else if (p.term > p.knots.length - 2) ctx.addIssue({ code: 'custom', message: `${p.column}: term must be at most knots − 2` });
-      else if (p.knots.some((k, i) => i > 0 && k <= p.knots![i - 1])) ctx.addIssue({ code: 'custom', message: `${p.column}: knots must ascend` });
+      if (!p.knots || p.term === undefined)
+        ctx.addIssue({ code: 'custom', message: `${p.column}: a spline term needs knots and term` });
+      else if (p.term > p.knots.length - 2)
+        ctx.addIssue({ code: 'custom', message: `${p.column}: term must be at most knots − 2` });
+      else if (p.knots.some((k, i) => i > 0 && k <= p.knots![i - 1]))
+        ctx.addIssue({ code: 'custom', message: `${p.column}: knots must ascend` });
     }
   });
 export type Predictor = z.infer<typeof predictorSchema>;

@@ -9,7 +9,10 @@ export function periodGroupingOf(values: readonly string[]): PeriodGrouping | nu
   let quarterly = true;
   for (const raw of values) {
     const v = raw.trim();
-    if (/^\d{4}-?Q[1-4]$/i.test(v)) { seen++; continue; }
+    if (/^\d{4}-?Q[1-4]$/i.test(v)) {
+      seen++;
+      continue;
+    }
     const m = /^(\d{4})-(\d{2})(-\d{2})?$/.exec(v);
     if (!m) continue;
     seen++;

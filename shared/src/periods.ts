@@ -27,7 +27,13 @@ export function daysInMonth(year: number, month: number): number {
 function build(kind: PeriodKind, year: number, firstMonth: number): Period {
   const lastMonth = firstMonth + MONTHS[kind] - 1;
   const label =
-    kind === 'month' ? `${year}-${pad(firstMonth)}` : kind === 'quarter' ? `${year}-Q${(firstMonth + 2) / 3}` : kind === 'half' ? `${year}-H${firstMonth === 1 ? 1 : 2}` : String(year);
+    kind === 'month'
+      ? `${year}-${pad(firstMonth)}`
+      : kind === 'quarter'
+        ? `${year}-Q${(firstMonth + 2) / 3}`
+        : kind === 'half'
+          ? `${year}-H${firstMonth === 1 ? 1 : 2}`
+          : String(year);
   return { kind, start: iso(year, firstMonth, 1), end: iso(year, lastMonth, daysInMonth(year, lastMonth)), label };
 }
 
@@ -90,7 +96,8 @@ export function formatPeriodRange(start: string | null, end: string | null): str
 export function comparePeriodLabels(a: string, b: string): number {
   const pa = parsePeriod(a);
   const pb = parsePeriod(b);
-  if (pa && pb) return pa.start < pb.start ? -1 : pa.start > pb.start ? 1 : pa.end < pb.end ? -1 : pa.end > pb.end ? 1 : 0;
+  if (pa && pb)
+    return pa.start < pb.start ? -1 : pa.start > pb.start ? 1 : pa.end < pb.end ? -1 : pa.end > pb.end ? 1 : 0;
   if (pa) return -1;
   if (pb) return 1;
   return a < b ? -1 : a > b ? 1 : 0;

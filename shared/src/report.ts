@@ -65,46 +65,233 @@ export const CHECKLIST_SOURCE =
  */
 export function reportChecklist(r: ReportBundle): ChecklistItem[] {
   const has = reportContents(r);
-  const item = (code: string, topic: string, text: string, parts: ReportPart[], where: string, whereAbsent = 'not in this report'): ChecklistItem => {
+  const item = (
+    code: string,
+    topic: string,
+    text: string,
+    parts: ReportPart[],
+    where: string,
+    whereAbsent = 'not in this report',
+  ): ChecklistItem => {
     const present = parts.length > 0 && parts.every((p) => has[p]);
     return { code, topic, item: text, present, where: present ? where : whereAbsent, parts };
   };
   const notRecorded = 'not recorded by Plumbline';
   return [
-    item('1', 'Title', 'Say that this is a validation of a prediction model, for whom, and for which outcome.', ['title'], 'report heading'),
-    item('2', 'Abstract', 'Give a short summary of aims, data, methods, results and conclusions.', ['summary'], 'summary', 'the run has no results'),
-    item('3a', 'Background', 'Explain the clinical context and cite the model being validated.', ['citation'], 'score (published source)', 'no published source recorded'),
-    item('3b', 'Objectives', 'State that the aim is to check an existing model on new data.', ['title'], 'report heading'),
-    item('4a', 'Source of data', 'Describe where the data come from (design, registry, file).', ['cohortSource'], 'cohort (source file and SHA-256)'),
-    item('4b', 'Source of data', 'Give the start and end dates of the period covered.', ['period'], 'cohort (period)', 'no period recorded for this cohort'),
-    item('5a', 'Participants', 'Describe the setting and locations where patients were treated.', ['cohortDescription'], 'cohort description', 'no cohort description recorded'),
-    item('5b', 'Participants', 'Give the eligibility criteria of the patients included.', ['cohortDescription'], 'cohort description and intended population', 'no cohort description recorded'),
+    item(
+      '1',
+      'Title',
+      'Say that this is a validation of a prediction model, for whom, and for which outcome.',
+      ['title'],
+      'report heading',
+    ),
+    item(
+      '2',
+      'Abstract',
+      'Give a short summary of aims, data, methods, results and conclusions.',
+      ['summary'],
+      'summary',
+      'the run has no results',
+    ),
+    item(
+      '3a',
+      'Background',
+      'Explain the clinical context and cite the model being validated.',
+      ['citation'],
+      'score (published source)',
+      'no published source recorded',
+    ),
+    item(
+      '3b',
+      'Objectives',
+      'State that the aim is to check an existing model on new data.',
+      ['title'],
+      'report heading',
+    ),
+    item(
+      '4a',
+      'Source of data',
+      'Describe where the data come from (design, registry, file).',
+      ['cohortSource'],
+      'cohort (source file and SHA-256)',
+    ),
+    item(
+      '4b',
+      'Source of data',
+      'Give the start and end dates of the period covered.',
+      ['period'],
+      'cohort (period)',
+      'no period recorded for this cohort',
+    ),
+    item(
+      '5a',
+      'Participants',
+      'Describe the setting and locations where patients were treated.',
+      ['cohortDescription'],
+      'cohort description',
+      'no cohort description recorded',
+    ),
+    item(
+      '5b',
+      'Participants',
+      'Give the eligibility criteria of the patients included.',
+      ['cohortDescription'],
+      'cohort description and intended population',
+      'no cohort description recorded',
+    ),
     item('5c', 'Participants', 'Describe any treatment the patients received, where relevant.', [], '', notRecorded),
-    item('6a', 'Outcome', 'Define the outcome, how and when it was assessed.', ['outcome'], 'score (outcome and time horizon)', 'no outcome definition recorded'),
+    item(
+      '6a',
+      'Outcome',
+      'Define the outcome, how and when it was assessed.',
+      ['outcome'],
+      'score (outcome and time horizon)',
+      'no outcome definition recorded',
+    ),
     item('6b', 'Outcome', 'Say whether outcome assessment was blind to the predictors.', [], '', notRecorded),
-    item('7a', 'Predictors', 'Define every predictor and how it was measured.', ['inputs'], 'score (inputs)', 'no inputs recorded'),
+    item(
+      '7a',
+      'Predictors',
+      'Define every predictor and how it was measured.',
+      ['inputs'],
+      'score (inputs)',
+      'no inputs recorded',
+    ),
     item('7b', 'Predictors', 'Say whether predictor assessment was blind to the outcome.', [], '', notRecorded),
-    item('8', 'Sample size', 'Explain how the sample size was reached and whether it suffices.', ['results'], 'results (events, non-events, adequacy warnings)', 'the run has no results'),
-    item('9', 'Missing data', 'Describe how missing or invalid values were handled.', ['excluded'], 'cohort (rows excluded at upload)'),
-    item('10c', 'Analysis', 'Describe how predictions were computed for the validation data.', ['inputs', 'methods'], 'score (form and inputs) and methods'),
-    item('10d', 'Analysis', 'Name every measure used to judge performance.', ['methods', 'settings'], 'methods and run settings'),
-    item('10e', 'Analysis', 'Describe any updating of the model that followed the validation.', ['derivation'], 'score (derivation of this version)', 'this version is not an update'),
-    item('11', 'Risk groups', 'Give details of any risk thresholds or groups used.', ['thresholds'], 'threshold table', 'no threshold table in this run'),
-    item('12', 'Development vs validation', 'Compare setting, eligibility, outcome and predictors with the development study.', [], '', notRecorded),
-    item('13a', 'Participants', 'Give the flow of patients: numbers included, excluded, with and without the outcome.', ['excluded', 'results'], 'cohort and results', 'the run has no results'),
-    item('13b', 'Participants', 'Describe the patients’ characteristics.', ['subgroups'], 'subgroup table', 'no subgroup columns in this run'),
-    item('13c', 'Participants', 'Compare the distribution of predictors with the development data.', [], '', notRecorded),
-    item('16', 'Model performance', 'Report performance measures with confidence intervals.', ['results'], 'results', 'the run has no results'),
-    item('17', 'Model updating', 'Report the results of any model updating.', ['derivation'], 'score (derivation of this version)', 'this version is not an update'),
-    item('18', 'Limitations', 'Discuss limitations (e.g. small numbers, missing data).', ['review'], 'review reasoning and warnings', 'no review yet'),
-    item('19a', 'Interpretation', 'Interpret the results against the published performance.', ['review'], 'review reasoning', 'no review yet'),
-    item('20', 'Implications', 'Discuss possible clinical use and further research.', ['review', 'signatures'], 'review verdict and signature manifest', 'no review yet'),
-    item('21', 'Supplementary', 'Say where more information (data, code, settings) can be found.', ['settings', 'results'], 'run settings, engine version and results SHA-256', 'the run has no results'),
+    item(
+      '8',
+      'Sample size',
+      'Explain how the sample size was reached and whether it suffices.',
+      ['results'],
+      'results (events, non-events, adequacy warnings)',
+      'the run has no results',
+    ),
+    item(
+      '9',
+      'Missing data',
+      'Describe how missing or invalid values were handled.',
+      ['excluded'],
+      'cohort (rows excluded at upload)',
+    ),
+    item(
+      '10c',
+      'Analysis',
+      'Describe how predictions were computed for the validation data.',
+      ['inputs', 'methods'],
+      'score (form and inputs) and methods',
+    ),
+    item(
+      '10d',
+      'Analysis',
+      'Name every measure used to judge performance.',
+      ['methods', 'settings'],
+      'methods and run settings',
+    ),
+    item(
+      '10e',
+      'Analysis',
+      'Describe any updating of the model that followed the validation.',
+      ['derivation'],
+      'score (derivation of this version)',
+      'this version is not an update',
+    ),
+    item(
+      '11',
+      'Risk groups',
+      'Give details of any risk thresholds or groups used.',
+      ['thresholds'],
+      'threshold table',
+      'no threshold table in this run',
+    ),
+    item(
+      '12',
+      'Development vs validation',
+      'Compare setting, eligibility, outcome and predictors with the development study.',
+      [],
+      '',
+      notRecorded,
+    ),
+    item(
+      '13a',
+      'Participants',
+      'Give the flow of patients: numbers included, excluded, with and without the outcome.',
+      ['excluded', 'results'],
+      'cohort and results',
+      'the run has no results',
+    ),
+    item(
+      '13b',
+      'Participants',
+      'Describe the patients’ characteristics.',
+      ['subgroups'],
+      'subgroup table',
+      'no subgroup columns in this run',
+    ),
+    item(
+      '13c',
+      'Participants',
+      'Compare the distribution of predictors with the development data.',
+      [],
+      '',
+      notRecorded,
+    ),
+    item(
+      '16',
+      'Model performance',
+      'Report performance measures with confidence intervals.',
+      ['results'],
+      'results',
+      'the run has no results',
+    ),
+    item(
+      '17',
+      'Model updating',
+      'Report the results of any model updating.',
+      ['derivation'],
+      'score (derivation of this version)',
+      'this version is not an update',
+    ),
+    item(
+      '18',
+      'Limitations',
+      'Discuss limitations (e.g. small numbers, missing data).',
+      ['review'],
+      'review reasoning and warnings',
+      'no review yet',
+    ),
+    item(
+      '19a',
+      'Interpretation',
+      'Interpret the results against the published performance.',
+      ['review'],
+      'review reasoning',
+      'no review yet',
+    ),
+    item(
+      '20',
+      'Implications',
+      'Discuss possible clinical use and further research.',
+      ['review', 'signatures'],
+      'review verdict and signature manifest',
+      'no review yet',
+    ),
+    item(
+      '21',
+      'Supplementary',
+      'Say where more information (data, code, settings) can be found.',
+      ['settings', 'results'],
+      'run settings, engine version and results SHA-256',
+      'the run has no results',
+    ),
     item('22', 'Funding', 'Give the source of funding and the funders’ role.', [], '', notRecorded),
   ];
 }
 
-const TIME_GROUPING_WORDS: Record<string, string> = { none: 'not grouped by time', month: 'by calendar month', quarter: 'by calendar quarter' };
+const TIME_GROUPING_WORDS: Record<string, string> = {
+  none: 'not grouped by time',
+  month: 'by calendar month',
+  quarter: 'by calendar quarter',
+};
 
 /** The run settings as named settings in words, in a fixed order (for the report and the run page). */
 export function describeRunSettings(s: Partial<RunSettings> | null | undefined): { name: string; value: string }[] {
@@ -115,11 +302,20 @@ export function describeRunSettings(s: Partial<RunSettings> | null | undefined):
   };
   add('Risk thresholds (sensitivity, specificity, PPV, NPV)', s.thresholds && formatThresholdList(s.thresholds));
   add('Decision-curve thresholds (net benefit)', s.netBenefitThresholds && formatThresholdList(s.netBenefitThresholds));
-  add('Calibration curve', s.calibrationGroups !== undefined ? `${s.calibrationGroups} risk groups; loess span ${s.loessSpan ?? '—'}` : undefined);
+  add(
+    'Calibration curve',
+    s.calibrationGroups !== undefined
+      ? `${s.calibrationGroups} risk groups; loess span ${s.loessSpan ?? '—'}`
+      : undefined,
+  );
   add('Hosmer–Lemeshow test', s.hosmerLemeshowGroups !== undefined ? `${s.hosmerLemeshowGroups} groups` : undefined);
   add(
     'Bootstrap',
-    s.bootstrapReplicates === undefined ? undefined : s.bootstrapReplicates > 0 ? `${formatCount(s.bootstrapReplicates)} replicates, seed ${s.bootstrapSeed}` : 'off',
+    s.bootstrapReplicates === undefined
+      ? undefined
+      : s.bootstrapReplicates > 0
+        ? `${formatCount(s.bootstrapReplicates)} replicates, seed ${s.bootstrapSeed}`
+        : 'off',
   );
   add('Subgroup columns', s.subgroupColumns && (s.subgroupColumns.length ? s.subgroupColumns.join(', ') : 'none'));
   add('Periods', s.timeGrouping && (TIME_GROUPING_WORDS[s.timeGrouping] ?? s.timeGrouping));

@@ -28,7 +28,12 @@ export const runSettingsSchema = z
     calibrationGroups: z.number().int().min(2).max(50).default(10),
     /** 0 turns the bootstrap off. */
     bootstrapReplicates: z.number().int().min(0).max(2000).default(0),
-    bootstrapSeed: z.number().int().min(0).max(2 ** 31 - 1).default(20_260_101),
+    bootstrapSeed: z
+      .number()
+      .int()
+      .min(0)
+      .max(2 ** 31 - 1)
+      .default(20_260_101),
     subgroupColumns: z.array(z.string().trim().min(1).max(80)).max(20).default([]),
     /** A site (centre) column: per-site figures and a random-effects meta-analysis across sites. */
     siteColumn: z.string().trim().min(1).max(80).nullable().default(null),
@@ -36,9 +41,14 @@ export const runSettingsSchema = z
   })
   .strict()
   .superRefine((s, ctx) => {
-    if (!ascendingUnique(s.thresholds)) ctx.addIssue({ code: 'custom', path: ['thresholds'], message: 'thresholds must ascend without repeats' });
+    if (!ascendingUnique(s.thresholds))
+      ctx.addIssue({ code: 'custom', path: ['thresholds'], message: 'thresholds must ascend without repeats' });
     if (!ascendingUnique(s.netBenefitThresholds))
-      ctx.addIssue({ code: 'custom', path: ['netBenefitThresholds'], message: 'net-benefit thresholds must ascend without repeats' });
+      ctx.addIssue({
+        code: 'custom',
+        path: ['netBenefitThresholds'],
+        message: 'net-benefit thresholds must ascend without repeats',
+      });
     if (new Set(s.subgroupColumns).size !== s.subgroupColumns.length)
       ctx.addIssue({ code: 'custom', path: ['subgroupColumns'], message: 'a subgroup column is listed twice' });
   });
@@ -203,6 +213,26 @@ export interface RunComparison {
 
 /** What the start form offers: score versions and cohort versions with the columns a run can group by. */
 export interface RunOptions {
-  scoreVersions: { id: string; scoreId: string; scoreName: string; version: number; mode: 'formula' | 'supplied'; clinicalStatus: string; columns: string[] }[];
-  cohortVersions: { id: string; cohortId: string; cohortName: string; version: number; label: string; rowCount: number; events: number; groupColumns: string[]; hasDates: boolean; periods: 'month' | 'quarter' | null; createdAt: string }[];
+  scoreVersions: {
+    id: string;
+    scoreId: string;
+    scoreName: string;
+    version: number;
+    mode: 'formula' | 'supplied';
+    clinicalStatus: string;
+    columns: string[];
+  }[];
+  cohortVersions: {
+    id: string;
+    cohortId: string;
+    cohortName: string;
+    version: number;
+    label: string;
+    rowCount: number;
+    events: number;
+    groupColumns: string[];
+    hasDates: boolean;
+    periods: 'month' | 'quarter' | null;
+    createdAt: string;
+  }[];
 }

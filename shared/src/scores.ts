@@ -16,7 +16,11 @@ export const scoreFields = {
   doi: z
     .preprocess(
       (v) => (typeof v === 'string' ? v.trim().replace(/^https?:\/\/(dx\.)?doi\.org\//i, '') || null : v),
-      z.string().max(200).regex(/^10\.\d{4,9}\/\S+$/, 'doi must look like 10.1234/abc').nullable(),
+      z
+        .string()
+        .max(200)
+        .regex(/^10\.\d{4,9}\/\S+$/, 'doi must look like 10.1234/abc')
+        .nullable(),
     )
     .optional(),
   cautionText: text(4000),
@@ -37,17 +41,30 @@ function checkModel(model: ScoreModel, ctx: z.RefinementCtx, path: (string | num
   const knotsByColumn = new Map<string, string>();
   model.predictors.forEach((p, i) => {
     const key = `${p.column}|${p.transform}|${p.transform === 'indicator' ? p.level : ''}|${p.transform === 'rcs' ? p.term : ''}`;
-    if (seen.has(key)) ctx.addIssue({ code: 'custom', path: [...path, 'predictors', i], message: `${p.column}: the same term appears twice` });
+    if (seen.has(key))
+      ctx.addIssue({
+        code: 'custom',
+        path: [...path, 'predictors', i],
+        message: `${p.column}: the same term appears twice`,
+      });
     seen.add(key);
     // A blank level would count missing cells as the category; say which level is meant.
     if (p.transform === 'indicator' && p.level !== undefined && p.level.trim() === '')
-      ctx.addIssue({ code: 'custom', path: [...path, 'predictors', i, 'level'], message: `${p.column}: an indicator needs a level that is not blank` });
+      ctx.addIssue({
+        code: 'custom',
+        path: [...path, 'predictors', i, 'level'],
+        message: `${p.column}: an indicator needs a level that is not blank`,
+      });
     if (p.transform === 'rcs' && p.knots) {
       // Every basis term of one spline is built from the same knots; different knots would be a different spline.
       const k = JSON.stringify(p.knots);
       const first = knotsByColumn.get(p.column);
       if (first !== undefined && first !== k)
-        ctx.addIssue({ code: 'custom', path: [...path, 'predictors', i, 'knots'], message: `${p.column}: all spline terms of a column must use the same knots` });
+        ctx.addIssue({
+          code: 'custom',
+          path: [...path, 'predictors', i, 'knots'],
+          message: `${p.column}: all spline terms of a column must use the same knots`,
+        });
       if (first === undefined) knotsByColumn.set(p.column, k);
     }
   });
@@ -68,18 +85,28 @@ const suppliedVersion = z.object({ mode: z.literal('supplied'), probabilityColum
  * Body of POST /api/scores/:id/versions: a version ({mode:'formula', model} or {mode:'supplied', probabilityColumn}),
  * or an imported --model file ({intercept, predictors}, optionally with changeNote) which is read as mode 'formula'.
  */
-export const createScoreVersionRequest = z.preprocess((raw) => {
-  if (raw && typeof raw === 'object' && !Array.isArray(raw) && !('mode' in raw) && ('intercept' in raw || 'predictors' in raw)) {
-    const { changeNote: note, ...model } = raw as Record<string, unknown>;
-    return { mode: 'formula', model, changeNote: note };
-  }
-  return raw;
-}, z.discriminatedUnion('mode', [formulaVersion, suppliedVersion]));
+export const createScoreVersionRequest = z.preprocess(
+  (raw) => {
+    if (
+      raw &&
+      typeof raw === 'object' &&
+      !Array.isArray(raw) &&
+      !('mode' in raw) &&
+      ('intercept' in raw || 'predictors' in raw)
+    ) {
+      const { changeNote: note, ...model } = raw as Record<string, unknown>;
+      return { mode: 'formula', model, changeNote: note };
+    }
+    return raw;
+  },
+  z.discriminatedUnion('mode', [formulaVersion, suppliedVersion]),
+);
 export type CreateScoreVersionRequest = z.infer<typeof createScoreVersionRequest>;
 
 /** Version 1 is the published formula; every later version must say what changed. */
 export function changeNoteProblem(version: number, note: string | undefined | null): string | null {
-  if (version >= 2 && !note?.trim()) return `a change note is required for version ${version}: say what changed from the previous version`;
+  if (version >= 2 && !note?.trim())
+    return `a change note is required for version ${version}: say what changed from the previous version`;
   return null;
 }
 
@@ -146,6 +173,11 @@ export interface ScoreSummaryDto extends ScoreDto {
 
 /** File name for an exported formula, e.g. "kestrel-30-day-readmission-score-v2.model.json". */
 export function modelFileName(scoreName: string, version: number): string {
-  const slug = scoreName.toLowerCase().replace(/[^a-z0-9]+/g, '-').replace(/^-+|-+$/g, '').slice(0, 80) || 'score';
+  const slug =
+    scoreName
+      .toLowerCase()
+      .replace(/[^a-z0-9]+/g, '-')
+      .replace(/^-+|-+$/g, '')
+      .slice(0, 80) || 'score';
   return `${slug}-v${version}.model.json`;
 }

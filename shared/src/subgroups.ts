@@ -71,5 +71,12 @@ export interface SubgroupAnalysis {
 export interface SiteAnalysis {
   levels: LevelPerformance[];
   /** REML random effects per metric on its pooling scale; `natural` back-transforms logit AUC (expit) and log O/E (exp). */
-  pooled: Record<PooledMetric, PooledAnalysis<RandomEffectsResult & { natural: { estimate: number; lower: number; upper: number; predictionLower: number; predictionUpper: number } }>>;
+  pooled: Record<
+    PooledMetric,
+    PooledAnalysis<
+      RandomEffectsResult & {
+        natural: { estimate: number; lower: number; upper: number; predictionLower: number; predictionUpper: number };
+      }
+    >
+  >;
 }

@@ -7,7 +7,9 @@ export interface Estimate {
 }
 
 /** A logistic fit that may fail: failure is a value, never a NaN in a report. */
-export type FitResult<T> = ({ converged: true } & T) | { converged: false; reason: 'separation' | 'non-convergence' | 'too few events' | 'degenerate'; detail: string };
+export type FitResult<T> =
+  | ({ converged: true } & T)
+  | { converged: false; reason: 'separation' | 'non-convergence' | 'too few events' | 'degenerate'; detail: string };
 
 export interface ThresholdRow {
   threshold: number;

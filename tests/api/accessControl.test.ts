@@ -21,7 +21,10 @@ describe('the access matrix', () => {
     const keys = routes.map(routeKey);
     expect(new Set(keys).size, 'duplicate METHOD path in http/routes/table.ts').toBe(keys.length);
     const missing = keys.filter((k) => !(k in accessMatrix));
-    expect(missing, 'routes without an entry in tests/helpers/accessMatrix.ts (npx tsx server/scripts/print-access-matrix.ts --write)').toEqual([]);
+    expect(
+      missing,
+      'routes without an entry in tests/helpers/accessMatrix.ts (npx tsx server/scripts/print-access-matrix.ts --write)',
+    ).toEqual([]);
     const stale = Object.keys(accessMatrix).filter((k) => !keys.includes(k));
     expect(stale, 'matrix entries for routes that no longer exist').toEqual([]);
     const differ = routes.filter((r) => norm(r.access) !== norm(accessMatrix[routeKey(r)])).map(routeKey);
@@ -54,7 +57,10 @@ describe('every route × role against the running app', () => {
   });
 
   it('answers exactly 403 to each forbidden pair and never 401/403/5xx to an allowed pair', async () => {
-    const tokens = Object.fromEntries(await Promise.all(ROLES.map(async (r) => [r, await tokenFor(r)]))) as Record<Role, string>;
+    const tokens = Object.fromEntries(await Promise.all(ROLES.map(async (r) => [r, await tokenFor(r)]))) as Record<
+      Role,
+      string
+    >;
     const wrong: string[] = [];
     let pairs = 0;
     for (const r of routes) {
@@ -63,7 +69,10 @@ describe('every route × role against the running app', () => {
         pairs++;
         const res = await send(r.method, concretePath(r.path)).set(bearer(tokens[role]));
         const ok = expected.has(role) ? ![401, 403].includes(res.status) && res.status < 500 : res.status === 403;
-        if (!ok) wrong.push(`${routeKey(r)} as ${role} (${expected.has(role) ? 'allowed' : 'forbidden'}) → ${res.status} ${JSON.stringify(res.body).slice(0, 120)}`);
+        if (!ok)
+          wrong.push(
+            `${routeKey(r)} as ${role} (${expected.has(role) ? 'allowed' : 'forbidden'}) → ${res.status} ${JSON.stringify(res.body).slice(0, 120)}`,
+          );
         if (!expected.has(role)) expect(res.body.error, routeKey(r)).toMatch(/role/);
       }
     }

@@ -7,12 +7,22 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { CohortAdequacy } from '@shared/adequacy';
 import type { RunDetail } from '@shared/runs';
 import { stopBackgroundServices } from '../../server/src/jobs/background';
-import { forgetCachedPrecision, cachedPrecision, ciWidthsComputedHere } from '../../server/src/domain/runs/adequacyPrecision';
+import {
+  forgetCachedPrecision,
+  cachedPrecision,
+  ciWidthsComputedHere,
+} from '../../server/src/domain/runs/adequacyPrecision';
 import { warmRunCiWidths } from '../../server/src/domain/runs/adequacyWidths';
 import { processNextRun } from '../../server/src/domain/runs/runQueue';
 import { precisionFor } from '../../server/src/stats/sampleSize';
 import { app, bearer, dataSource, DEMO_PASSWORD, tokenFor, useDatabase } from '../helpers/api';
-import { createCohortFixture, createScoreFixture, kestrelRows, type CohortFixture, type ScoreFixture } from '../helpers/fixtures';
+import {
+  createCohortFixture,
+  createScoreFixture,
+  kestrelRows,
+  type CohortFixture,
+  type ScoreFixture,
+} from '../helpers/fixtures';
 
 useDatabase();
 
@@ -23,10 +33,10 @@ let sibling: CohortFixture; // a cohort of the fixture score with no run of its 
 
 /** A cohort version with counts only (adequacy reads no rows), tied to a score. */
 async function countsOnlyCohort(scoreId: string, rowCount: number, events: number): Promise<CohortFixture> {
-  const [c]: { id: string }[] = await dataSource.query(`INSERT INTO cohorts (name, description, score_id) VALUES ($1, 'fixture', $2) RETURNING id`, [
-    `Adequacy sibling ${Math.random().toString(36).slice(2, 10)}`,
-    scoreId,
-  ]);
+  const [c]: { id: string }[] = await dataSource.query(
+    `INSERT INTO cohorts (name, description, score_id) VALUES ($1, 'fixture', $2) RETURNING id`,
+    [`Adequacy sibling ${Math.random().toString(36).slice(2, 10)}`, scoreId],
+  );
   const [v]: { id: string }[] = await dataSource.query(
     `INSERT INTO cohort_versions (cohort_id, version, label, source_filename, source_sha256, source_bytes, row_count, events, mapping)
      VALUES ($1, 1, 'counts only', 'fixture.csv', repeat('0', 64), 0, $2, $3, '{}'::jsonb) RETURNING id`,
@@ -36,7 +46,9 @@ async function countsOnlyCohort(scoreId: string, rowCount: number, events: numbe
 }
 
 async function cohortVersion(c: CohortFixture, role: 'statistician' | 'steward' = 'statistician') {
-  const res = await request(app).get(`/api/cohorts/${c.cohortId}/versions/1`).set(bearer(await tokenFor(role)));
+  const res = await request(app)
+    .get(`/api/cohorts/${c.cohortId}/versions/1`)
+    .set(bearer(await tokenFor(role)));
   expect(res.status).toBe(200);
   return res.body.version as { rowCount: number; events: number; adequacy: CohortAdequacy };
 }
@@ -94,10 +106,15 @@ describe('adequacy on a run', () => {
     expect(res.body.run.adequacy ?? null, 'a queued run has no adequacy yet').toBeNull();
     while (await processNextRun());
     // The widths were worked out in the run's own thread, before anyone opened the page (not on the API thread).
-    const [stored] = await dataSource.query(`SELECT (results->'overall'->>'n')::int AS n, (results->'overall'->>'events')::int AS events,
-      (results->'overall'->'auc'->>'estimate')::float8 AS auc FROM validation_runs WHERE id = $1`, [res.body.run.id]);
+    const [stored] = await dataSource.query(
+      `SELECT (results->'overall'->>'n')::int AS n, (results->'overall'->>'events')::int AS events,
+      (results->'overall'->'auc'->>'estimate')::float8 AS auc FROM validation_runs WHERE id = $1`,
+      [res.body.run.id],
+    );
     keptBeforeOpening = cachedPrecision(stored.n, stored.events, stored.auc) !== undefined;
-    const got = await request(app).get(`/api/runs/${res.body.run.id}`).set(bearer(await tokenFor('statistician')));
+    const got = await request(app)
+      .get(`/api/runs/${res.body.run.id}`)
+      .set(bearer(await tokenFor('statistician')));
     expect(got.status).toBe(200);
     run = got.body.run as RunDetail;
     expect(run.status).toBe('completed');
@@ -114,7 +131,9 @@ describe('adequacy on a run', () => {
     expect(a.precision.oe).toBeCloseTo(p.oe, 12);
     expect(a.precision.auc).toBeCloseTo(p.auc, 12);
     expect(a.precision.slope).toBeCloseTo(p.slope!, 12);
-    expect(a.verdict.level).toBe(o.events >= 200 && o.nonEvents >= 200 ? 'preferred' : o.events >= 100 && o.nonEvents >= 100 ? 'minimum' : 'short');
+    expect(a.verdict.level).toBe(
+      o.events >= 200 && o.nonEvents >= 200 ? 'preferred' : o.events >= 100 && o.nonEvents >= 100 ? 'minimum' : 'short',
+    );
   });
 
   it('has its widths from the run thread, kept before the run page was first opened', () => {
@@ -125,7 +144,9 @@ describe('adequacy on a run', () => {
     const o = run.results!.overall;
     forgetCachedPrecision();
     const before = ciWidthsComputedHere();
-    const got = await request(app).get(`/api/runs/${run.id}`).set(bearer(await tokenFor('statistician')));
+    const got = await request(app)
+      .get(`/api/runs/${run.id}`)
+      .set(bearer(await tokenFor('statistician')));
     expect(got.status).toBe(200);
     expect((got.body.run as RunDetail).adequacy!.precision).toEqual(run.adequacy!.precision);
     expect(ciWidthsComputedHere(), 'widths worked out on the API thread').toBe(before);
@@ -160,7 +181,11 @@ describe('adequacy on a run', () => {
     const before = (await cohortVersion(sibling)).adequacy;
     expect(before.verdict.level).toBe('minimum'); // 199 events: one short of the preferred 200
     expect(before.verdict.missingForPreferred).toEqual({ events: 1, nonEvents: 0 });
-    expect(before.auc).toEqual({ value: run.results!.overall.auc.estimate, source: 'latest run of the score', runId: run.id });
+    expect(before.auc).toEqual({
+      value: run.results!.overall.auc.estimate,
+      source: 'latest run of the score',
+      runId: run.id,
+    });
     const p = precisionFor(800, 199 / 800, run.results!.overall.auc.estimate);
     expect(before.precision.slope).toBeCloseTo(p.slope!, 12);
 
@@ -176,12 +201,19 @@ describe('adequacy on a run', () => {
       .send({ decision: 'approve', password: DEMO_PASSWORD });
     expect(sign.status).toBe(201);
     const after = (await cohortVersion(sibling)).adequacy;
-    expect(after.auc).toEqual({ value: run.results!.overall.auc.estimate, source: 'approved run of the score', runId: run.id });
+    expect(after.auc).toEqual({
+      value: run.results!.overall.auc.estimate,
+      source: 'approved run of the score',
+      runId: run.id,
+    });
   });
 
   it('is not part of the sealed results, and the comparison leaves it out', async () => {
     expect((run.results as unknown as Record<string, unknown>).adequacy).toBeUndefined();
-    const cmp = await request(app).get('/api/runs/compare').query({ a: run.id, b: run.id }).set(bearer(await tokenFor('statistician')));
+    const cmp = await request(app)
+      .get('/api/runs/compare')
+      .query({ a: run.id, b: run.id })
+      .set(bearer(await tokenFor('statistician')));
     expect(cmp.status).toBe(200);
     expect(cmp.body.a.adequacy).toBeUndefined();
   });

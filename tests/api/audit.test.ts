@@ -8,26 +8,46 @@ useDatabase();
 describe('audit trail', () => {
   it('is readable and filterable by the admin only', async () => {
     await loginAs('chair@demo.test');
-    const res = await request(app).get('/api/audit?action=auth.login&actor=chair&limit=5').set(bearer(await tokenFor('admin')));
+    const res = await request(app)
+      .get('/api/audit?action=auth.login&actor=chair&limit=5')
+      .set(bearer(await tokenFor('admin')));
     expect(res.status).toBe(200);
     expect(res.body.entries.length).toBeGreaterThan(0);
     for (const e of res.body.entries) {
       expect(e.action.startsWith('auth.login')).toBe(true);
       expect(e.actorEmail).toMatch(/chair/);
     }
-    expect((await request(app).get('/api/audit').set(bearer(await tokenFor('statistician')))).status).toBe(403);
-    expect((await request(app).get('/api/audit?limit=100000').set(bearer(await tokenFor('admin')))).status).toBe(400);
+    expect(
+      (
+        await request(app)
+          .get('/api/audit')
+          .set(bearer(await tokenFor('statistician')))
+      ).status,
+    ).toBe(403);
+    expect(
+      (
+        await request(app)
+          .get('/api/audit?limit=100000')
+          .set(bearer(await tokenFor('admin')))
+      ).status,
+    ).toBe(400);
   });
 
   it('verifies an intact chain through the API', async () => {
-    const res = await request(app).get('/api/audit/verify').set(bearer(await tokenFor('admin')));
+    const res = await request(app)
+      .get('/api/audit/verify')
+      .set(bearer(await tokenFor('admin')));
     expect(res.status).toBe(200);
     expect(res.body.ok).toBe(true);
     expect(res.body.entries).toBeGreaterThan(0);
   });
 
   it('refuses UPDATE and DELETE of an entry even by direct SQL (no grant to the API, the trigger for the owner)', async () => {
-    await refusedTwice(`UPDATE audit_log SET action = 'x' WHERE seq = (SELECT min(seq) FROM audit_log)`, [], /append-only/);
+    await refusedTwice(
+      `UPDATE audit_log SET action = 'x' WHERE seq = (SELECT min(seq) FROM audit_log)`,
+      [],
+      /append-only/,
+    );
     await refusedTwice(`DELETE FROM audit_log WHERE seq = (SELECT min(seq) FROM audit_log)`, [], /append-only/);
   });
 
@@ -60,7 +80,9 @@ describe('audit trail', () => {
     const removed: Record<string, unknown>[] = await owner.transaction(async (m) => {
       await m.query('ALTER TABLE audit_log DISABLE TRIGGER audit_log_append_only');
       // TypeORM answers a DELETE … RETURNING with [rows, count].
-      const [rows] = await m.query('DELETE FROM audit_log WHERE seq IN (SELECT seq FROM audit_log ORDER BY seq DESC LIMIT 3) RETURNING *');
+      const [rows] = await m.query(
+        'DELETE FROM audit_log WHERE seq IN (SELECT seq FROM audit_log ORDER BY seq DESC LIMIT 3) RETURNING *',
+      );
       await m.query('ALTER TABLE audit_log ENABLE TRIGGER audit_log_append_only');
       return rows;
     });
@@ -93,7 +115,19 @@ describe('audit trail', () => {
           await m.query(
             `INSERT INTO audit_log (seq, at, actor_id, actor_email, action, target_type, target_id, source_ip, details, prev_hash, hash)
              VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11)`,
-            [r.seq, r.at, r.actor_id, r.actor_email, r.action, r.target_type, r.target_id, r.source_ip, JSON.stringify(r.details), r.prev_hash, r.hash],
+            [
+              r.seq,
+              r.at,
+              r.actor_id,
+              r.actor_email,
+              r.action,
+              r.target_type,
+              r.target_id,
+              r.source_ip,
+              JSON.stringify(r.details),
+              r.prev_hash,
+              r.hash,
+            ],
           );
         }
         await m.query('ALTER TABLE audit_log ENABLE TRIGGER audit_log_append_only');

@@ -27,7 +27,12 @@ afterAll(async () => {
 });
 
 // Backup and restore are the owner's tools (server/scripts/pgTools.ts).
-const env = () => ({ PGHOST: config.dbOwner.host, PGPORT: String(config.dbOwner.port), PGUSER: config.dbOwner.user, PGDATABASE: config.dbOwner.database });
+const env = () => ({
+  PGHOST: config.dbOwner.host,
+  PGPORT: String(config.dbOwner.port),
+  PGUSER: config.dbOwner.user,
+  PGDATABASE: config.dbOwner.database,
+});
 
 describe('backup and restore', () => {
   it('restores into a fresh database with the same row counts and a verifying audit chain', async () => {
@@ -43,7 +48,15 @@ describe('backup and restore', () => {
     const restoreOut = runTsx('server/scripts/restore.ts', env(), ['--file', file, '--database', target]);
     expect(restoreOut).toMatch(/audit chain verified/);
 
-    restored = new DataSource({ type: 'postgres', host: config.dbOwner.host, port: config.dbOwner.port, username: config.dbOwner.user, password: config.dbOwner.password, database: target, entities });
+    restored = new DataSource({
+      type: 'postgres',
+      host: config.dbOwner.host,
+      port: config.dbOwner.port,
+      username: config.dbOwner.user,
+      password: config.dbOwner.password,
+      database: target,
+      entities,
+    });
     await restored.initialize();
     const after = await tableCounts((sql) => restored!.query(sql));
     expect(after).toEqual(before);
@@ -52,19 +65,25 @@ describe('backup and restore', () => {
     const marker = await restored.query(`SELECT count(*)::int AS n FROM audit_log WHERE action = 'test.backup_marker'`);
     expect(marker[0].n).toBeGreaterThan(0);
     // The migrations' immutability triggers came along too: a stored audit row cannot be edited in the copy.
-    await expect(restored.query(`UPDATE audit_log SET action = 'x' WHERE seq = (SELECT max(seq) FROM audit_log)`)).rejects.toThrow();
+    await expect(
+      restored.query(`UPDATE audit_log SET action = 'x' WHERE seq = (SELECT max(seq) FROM audit_log)`),
+    ).rejects.toThrow();
     const migrations = await restored.query('SELECT count(*)::int AS n FROM migrations');
     expect(migrations[0].n).toBe(before.migrations);
   });
 
   it('refuses to restore over a database that already holds tables', () => {
-    expect(() => runTsx('server/scripts/restore.ts', env(), ['--file', path.join(dir, 'plumbline.dump'), '--database', target])).toThrow(/already holds/);
+    expect(() =>
+      runTsx('server/scripts/restore.ts', env(), ['--file', path.join(dir, 'plumbline.dump'), '--database', target]),
+    ).toThrow(/already holds/);
   });
 
   it('the chain check fails on a tampered copy (the verification can fail)', async () => {
     // Tampering needs the trigger out of the way, as an attacker with database rights would do.
     await restored!.query(`ALTER TABLE audit_log DISABLE TRIGGER USER`);
-    await restored!.query(`UPDATE audit_log SET details = '{"tampered": true}' WHERE seq = (SELECT min(seq) FROM audit_log)`);
+    await restored!.query(
+      `UPDATE audit_log SET details = '{"tampered": true}' WHERE seq = (SELECT min(seq) FROM audit_log)`,
+    );
     const chain = await verifyAuditChain(restored!.manager);
     expect(chain.ok).toBe(false);
     expect(chain.reason).toMatch(/does not match/);

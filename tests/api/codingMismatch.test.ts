@@ -44,25 +44,51 @@ function fileWith(name: string, code: (v: string, i: number) => string): { file:
 const steward = async () => bearer(await tokenFor('steward'));
 
 async function uploadAndCheck(file: string, mapping: object = KESTREL_MAPPING): Promise<UploadView> {
-  const res = await request(app).post('/api/cohorts').set(await steward()).field('scoreVersionId', score.scoreVersionId).field('cohortName', `Coding ${Date.now()} ${Math.random()}`).attach('file', file);
+  const res = await request(app)
+    .post('/api/cohorts')
+    .set(await steward())
+    .field('scoreVersionId', score.scoreVersionId)
+    .field('cohortName', `Coding ${Date.now()} ${Math.random()}`)
+    .attach('file', file);
   expect(res.status, JSON.stringify(res.body)).toBe(201);
   return mapAndCheck(res.body.upload.id, mapping);
 }
 async function mapAndCheck(id: string, mapping: object): Promise<UploadView> {
-  const mapped = await request(app).post(`/api/uploads/${id}/mapping`).set(await steward()).send({ mapping });
+  const mapped = await request(app)
+    .post(`/api/uploads/${id}/mapping`)
+    .set(await steward())
+    .send({ mapping });
   expect(mapped.status, JSON.stringify(mapped.body)).toBe(202);
   await whenProcessed(id);
-  return (await request(app).get(`/api/uploads/${id}`).set(await steward())).body.upload as UploadView;
+  return (
+    await request(app)
+      .get(`/api/uploads/${id}`)
+      .set(await steward())
+  ).body.upload as UploadView;
 }
 const versionsOf = async () => Number((await dataSource.query('SELECT count(*)::int AS n FROM cohort_versions'))[0].n);
 
 describe('coding mismatch of an indicator predictor', () => {
   it('the mapping step states what the formula expects of each column', async () => {
     const { file } = fileWith('plain.csv', (v) => v);
-    const res = await request(app).post('/api/cohorts').set(await steward()).field('scoreVersionId', score.scoreVersionId).field('cohortName', `Coding plain ${Date.now()}`).attach('file', file);
+    const res = await request(app)
+      .post('/api/cohorts')
+      .set(await steward())
+      .field('scoreVersionId', score.scoreVersionId)
+      .field('cohortName', `Coding plain ${Date.now()}`)
+      .attach('file', file);
     const req = (res.body.upload as UploadView).requiredPredictors;
-    expect(req.find((p) => p.column === 'emergency_admission')).toMatchObject({ kind: 'text', transforms: ['indicator'], levels: ['yes'] });
-    expect(req.find((p) => p.column === 'length_of_stay')).toMatchObject({ kind: 'numeric', transforms: ['log'], levels: [], positiveOnly: true });
+    expect(req.find((p) => p.column === 'emergency_admission')).toMatchObject({
+      kind: 'text',
+      transforms: ['indicator'],
+      levels: ['yes'],
+    });
+    expect(req.find((p) => p.column === 'length_of_stay')).toMatchObject({
+      kind: 'numeric',
+      transforms: ['log'],
+      levels: [],
+      positiveOnly: true,
+    });
     expect(req.find((p) => p.column === 'age')).toMatchObject({ transforms: ['linear'], range: { min: 0, max: 120 } });
   });
 
@@ -77,7 +103,10 @@ describe('coding mismatch of an indicator predictor', () => {
     expect(issue.unnamed.map((x) => x.value).sort()).toEqual(['N', 'Y']);
     expect(issue.message).toMatch(/"yes" never occurs/);
     const before = await versionsOf();
-    const commit = await request(app).post(`/api/uploads/${u.id}/commit`).set(await steward()).send({ excludeRejected: true });
+    const commit = await request(app)
+      .post(`/api/uploads/${u.id}/commit`)
+      .set(await steward())
+      .send({ excludeRejected: true });
     expect(commit.status).toBe(409);
     expect(commit.body.error).toMatch(/coding does not match.*emergency_admission/);
     expect(await versionsOf()).toBe(before);
@@ -97,18 +126,29 @@ describe('coding mismatch of an indicator predictor', () => {
     const { file, yes } = fileWith('yn2.csv', (v) => (v === 'yes' ? 'Y' : 'N'));
     const first = await uploadAndCheck(file);
     // Only indicator columns, and only into the formula's level (or none).
-    const bad1 = await request(app).post(`/api/uploads/${first.id}/mapping`).set(await steward()).send({ mapping: { ...KESTREL_MAPPING, labels: { age: { '90+': 'yes' } } } });
+    const bad1 = await request(app)
+      .post(`/api/uploads/${first.id}/mapping`)
+      .set(await steward())
+      .send({ mapping: { ...KESTREL_MAPPING, labels: { age: { '90+': 'yes' } } } });
     expect(bad1.status).toBe(400);
-    const bad2 = await request(app).post(`/api/uploads/${first.id}/mapping`).set(await steward()).send({ mapping: { ...KESTREL_MAPPING, labels: { emergency_admission: { Y: 'true' } } } });
+    const bad2 = await request(app)
+      .post(`/api/uploads/${first.id}/mapping`)
+      .set(await steward())
+      .send({ mapping: { ...KESTREL_MAPPING, labels: { emergency_admission: { Y: 'true' } } } });
     expect(bad2.status).toBe(400);
     expect(bad2.body.error).toMatch(/can only be read as "yes"/);
 
     const labels = { emergency_admission: { Y: 'yes', N: '' } };
     const u = await mapAndCheck(first.id, { ...KESTREL_MAPPING, labels });
     expect(u.codingIssues).toEqual([]);
-    const commit = await request(app).post(`/api/uploads/${u.id}/commit`).set(await steward()).send({ excludeRejected: true });
+    const commit = await request(app)
+      .post(`/api/uploads/${u.id}/commit`)
+      .set(await steward())
+      .send({ excludeRejected: true });
     expect(commit.status, JSON.stringify(commit.body)).toBe(201);
-    const [v] = await dataSource.query('SELECT mapping FROM cohort_versions WHERE id = $1', [commit.body.cohortVersionId]);
+    const [v] = await dataSource.query('SELECT mapping FROM cohort_versions WHERE id = $1', [
+      commit.body.cohortVersionId,
+    ]);
     expect(v.mapping.labels).toEqual(labels);
     const data = await loadCohortData(commit.body.cohortVersionId);
     const stored = data.columns.emergency_admission;
@@ -119,7 +159,10 @@ describe('coding mismatch of an indicator predictor', () => {
 
 describe('the run warns when an indicator level is absent or rare', () => {
   const runWarnings = async (emergency: (i: number) => string) => {
-    const rows = kestrelRows(400, 5).map((r, i) => ({ ...r, predictors: { ...r.predictors, emergency_admission: emergency(i) } }));
+    const rows = kestrelRows(400, 5).map((r, i) => ({
+      ...r,
+      predictors: { ...r.predictors, emergency_admission: emergency(i) },
+    }));
     const cohort = await createCohortFixture(rows);
     const runId = await recordRunNow(null, score.scoreVersionId, cohort.cohortVersionId, runSettingsSchema.parse({}));
     const [r] = await dataSource.query('SELECT results FROM validation_runs WHERE id = $1', [runId]);
@@ -127,8 +170,12 @@ describe('the run warns when an indicator level is absent or rare', () => {
   };
 
   it('absent, rare, and common levels', async () => {
-    expect(await runWarnings(() => 'N')).toEqual(expect.arrayContaining([expect.stringMatching(/No patient has emergency_admission = "yes"/)]));
-    expect(await runWarnings((i) => (i < 3 ? 'yes' : 'no'))).toEqual(expect.arrayContaining([expect.stringMatching(/Only 3 patients \(0\.8%\) have emergency_admission = "yes"/)]));
+    expect(await runWarnings(() => 'N')).toEqual(
+      expect.arrayContaining([expect.stringMatching(/No patient has emergency_admission = "yes"/)]),
+    );
+    expect(await runWarnings((i) => (i < 3 ? 'yes' : 'no'))).toEqual(
+      expect.arrayContaining([expect.stringMatching(/Only 3 patients \(0\.8%\) have emergency_admission = "yes"/)]),
+    );
     expect((await runWarnings((i) => (i % 2 ? 'yes' : 'no'))).some((w) => /emergency_admission/.test(w))).toBe(false);
   });
 });

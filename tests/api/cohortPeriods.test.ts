@@ -30,12 +30,20 @@ function rowsLabelled(year: number, quarter: 1 | 2 | 3 | 4, n: number, label: st
   });
 }
 
-async function storeFile(name: string, lines: string[]): Promise<{ cohortId: string; version: number; cohortVersionId: string; upload: Record<string, unknown> }> {
+async function storeFile(
+  name: string,
+  lines: string[],
+): Promise<{ cohortId: string; version: number; cohortVersionId: string; upload: Record<string, unknown> }> {
   const header = [...kestrelQuarterCsv({ year: 2026, quarter: 1, index: 0, n: 0, seed: 1 })][0];
   const file = path.join(tmp, name);
   writeFileSync(file, `${[header, ...lines].join('\n')}\n`);
   const steward = bearer(await tokenFor('steward'));
-  const res = await request(app).post('/api/cohorts').set(steward).field('scoreVersionId', score.scoreVersionId).field('cohortName', `Periods ${name} ${Date.now()}`).attach('file', file);
+  const res = await request(app)
+    .post('/api/cohorts')
+    .set(steward)
+    .field('scoreVersionId', score.scoreVersionId)
+    .field('cohortName', `Periods ${name} ${Date.now()}`)
+    .attach('file', file);
   expect(res.status, JSON.stringify(res.body)).toBe(201);
   const id = res.body.upload.id;
   const mapped = await request(app).post(`/api/uploads/${id}/mapping`).set(steward).send({ mapping: KESTREL_MAPPING });
@@ -51,21 +59,37 @@ async function storeFile(name: string, lines: string[]): Promise<{ cohortId: str
 describe('uploaded periods', () => {
   it('2026-Q1 and 2026-Q2: the version ends on 2026-06-30, rows and summary show the quarters, forwards', async () => {
     // Q2 first in the file and more of it: neither file order nor counts may decide the order shown.
-    const stored = await storeFile('quarters.csv', [...rowsLabelled(2026, 2, 60, '2026-Q2'), ...rowsLabelled(2026, 1, 40, '2026-Q1')]);
+    const stored = await storeFile('quarters.csv', [
+      ...rowsLabelled(2026, 2, 60, '2026-Q2'),
+      ...rowsLabelled(2026, 1, 40, '2026-Q1'),
+    ]);
     const steward = bearer(await tokenFor('steward'));
-    const v = { body: (await request(app).get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}`).set(steward)).body.version, status: 200 };
+    const v = {
+      body: (await request(app).get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}`).set(steward)).body
+        .version,
+      status: 200,
+    };
     expect(v.status).toBe(200);
     expect({ start: v.body.periodStart, end: v.body.periodEnd }).toEqual({ start: '2026-01-01', end: '2026-06-30' });
     const summary = v.body.columnSummary['period (discharge_date)'];
-    expect(summary.levels).toEqual([{ value: '2026-Q1', count: 40 }, { value: '2026-Q2', count: 60 }]);
+    expect(summary.levels).toEqual([
+      { value: '2026-Q1', count: 40 },
+      { value: '2026-Q2', count: 60 },
+    ]);
 
-    const rows = await request(app).get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}/rows`).set(steward).query({ page: 1, pageSize: 5, sortBy: 'line_no', sortDir: 'asc' });
+    const rows = await request(app)
+      .get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}/rows`)
+      .set(steward)
+      .query({ page: 1, pageSize: 5, sortBy: 'line_no', sortDir: 'asc' });
     expect(rows.status).toBe(200);
     expect(rows.body.rows[0]).toMatchObject({ lineNo: 2, period: '2026-Q2', eventDate: '2026-04-01' });
 
     // The rows search finds a period by the label the rows show, as well as by its first day.
     const search = (text: string) =>
-      request(app).get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}/rows`).set(steward).query({ page: 1, pageSize: 100, search: text });
+      request(app)
+        .get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}/rows`)
+        .set(steward)
+        .query({ page: 1, pageSize: 100, search: text });
     const q1 = await search('2026-q1');
     expect(q1.body.total).toBe(40);
     expect(new Set(q1.body.rows.map((r: { period: string }) => r.period))).toEqual(new Set(['2026-Q1']));
@@ -73,19 +97,36 @@ describe('uploaded periods', () => {
   });
 
   it('months across a year end and a leap February: the version ends on the last day of the last month', async () => {
-    const stored = await storeFile('months.csv', [...rowsLabelled(2023, 4, 20, '2023-12'), ...rowsLabelled(2024, 1, 20, '2024-02')]);
+    const stored = await storeFile('months.csv', [
+      ...rowsLabelled(2023, 4, 20, '2023-12'),
+      ...rowsLabelled(2024, 1, 20, '2024-02'),
+    ]);
     const steward = bearer(await tokenFor('steward'));
-    const v = { body: (await request(app).get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}`).set(steward)).body.version, status: 200 };
+    const v = {
+      body: (await request(app).get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}`).set(steward)).body
+        .version,
+      status: 200,
+    };
     expect({ start: v.body.periodStart, end: v.body.periodEnd }).toEqual({ start: '2023-12-01', end: '2024-02-29' });
-    expect(v.body.columnSummary['period (discharge_date)'].levels.map((l: { value: string }) => l.value)).toEqual(['2023-12', '2024-02']);
+    expect(v.body.columnSummary['period (discharge_date)'].levels.map((l: { value: string }) => l.value)).toEqual([
+      '2023-12',
+      '2024-02',
+    ]);
   });
 
   it('half-years are read, and a half-year file ends on 30 June', async () => {
     const stored = await storeFile('half.csv', rowsLabelled(2026, 1, 30, '2026-H1'));
     const steward = bearer(await tokenFor('steward'));
-    const v = { body: (await request(app).get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}`).set(steward)).body.version, status: 200 };
+    const v = {
+      body: (await request(app).get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}`).set(steward)).body
+        .version,
+      status: 200,
+    };
     expect({ start: v.body.periodStart, end: v.body.periodEnd }).toEqual({ start: '2026-01-01', end: '2026-06-30' });
-    const rows = await request(app).get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}/rows`).set(steward).query({ page: 1, pageSize: 1 });
+    const rows = await request(app)
+      .get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}/rows`)
+      .set(steward)
+      .query({ page: 1, pageSize: 1 });
     expect(rows.body.rows[0].period).toBe('2026-H1');
   });
 });

@@ -31,8 +31,14 @@ beforeAll(async () => {
      VALUES ($1, 'readmission', '30 days', 'adults', 'invented for tests', 'not medical advice') RETURNING id`,
     [`Upload test score ${run}`],
   );
-  const [v1] = await dataSource.query(`INSERT INTO score_versions (score_id, version, mode, model) VALUES ($1, 1, 'formula', $2) RETURNING id`, [s.id, JSON.stringify(model)]);
-  const [v2] = await dataSource.query(`INSERT INTO score_versions (score_id, version, mode, probability_column) VALUES ($1, 2, 'supplied', 'vendor_probability') RETURNING id`, [s.id]);
+  const [v1] = await dataSource.query(
+    `INSERT INTO score_versions (score_id, version, mode, model) VALUES ($1, 1, 'formula', $2) RETURNING id`,
+    [s.id, JSON.stringify(model)],
+  );
+  const [v2] = await dataSource.query(
+    `INSERT INTO score_versions (score_id, version, mode, probability_column) VALUES ($1, 2, 'supplied', 'vendor_probability') RETURNING id`,
+    [s.id],
+  );
   formulaVersionId = v1.id;
   suppliedVersionId = v2.id;
 });
@@ -45,16 +51,22 @@ function writeCsv(name: string, text: string | Buffer): string {
   return file;
 }
 
-const goodCsv = (n = 200, seed = 7) => `${[...kestrelQuarterCsv({ year: 2025, quarter: 2, index: 5, n, seed })].join('\n')}\n`;
+const goodCsv = (n = 200, seed = 7) =>
+  `${[...kestrelQuarterCsv({ year: 2025, quarter: 2, index: 5, n, seed })].join('\n')}\n`;
 
 /** What is stored: cohorts, versions and the rows of stored versions (a checked upload's staged rows are not a cohort). */
 async function snapshot() {
-  const [{ n }] = await dataSource.query('SELECT coalesce(sum(row_count), 0)::int AS n FROM cohort_row_blocks b WHERE EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = b.cohort_version_id)');
+  const [{ n }] = await dataSource.query(
+    'SELECT coalesce(sum(row_count), 0)::int AS n FROM cohort_row_blocks b WHERE EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = b.cohort_version_id)',
+  );
   return { versions: await countRows('cohort_versions'), rows: n as number, cohorts: await countRows('cohorts') };
 }
 
 const stagedRows = async (uploadId: string) => {
-  const [{ n }] = await dataSource.query('SELECT coalesce(sum(row_count), 0)::int AS n FROM cohort_row_blocks b JOIN cohort_uploads u ON u.planned_version_id = b.cohort_version_id WHERE u.id = $1', [uploadId]);
+  const [{ n }] = await dataSource.query(
+    'SELECT coalesce(sum(row_count), 0)::int AS n FROM cohort_row_blocks b JOIN cohort_uploads u ON u.planned_version_id = b.cohort_version_id WHERE u.id = $1',
+    [uploadId],
+  );
   return n as number;
 };
 
@@ -67,17 +79,28 @@ const tempFiles = (): string[] => {
 };
 
 async function upload(file: string, fields: Record<string, string> = {}, role: Role = 'steward') {
-  let req = request(app).post('/api/cohorts').set(bearer(await tokenFor(role)));
-  const all = { scoreVersionId: formulaVersionId, cohortName: `Test cohort ${run} ${Math.random().toString(36).slice(2, 8)}`, ...fields };
+  let req = request(app)
+    .post('/api/cohorts')
+    .set(bearer(await tokenFor(role)));
+  const all = {
+    scoreVersionId: formulaVersionId,
+    cohortName: `Test cohort ${run} ${Math.random().toString(36).slice(2, 8)}`,
+    ...fields,
+  };
   for (const [k, v] of Object.entries(all)) req = req.field(k, v);
   return req.attach('file', file);
 }
 
 async function mapAndWait(id: string, mapping: object = KESTREL_MAPPING, role: Role = 'steward') {
-  const res = await request(app).post(`/api/uploads/${id}/mapping`).set(bearer(await tokenFor(role))).send({ mapping });
+  const res = await request(app)
+    .post(`/api/uploads/${id}/mapping`)
+    .set(bearer(await tokenFor(role)))
+    .send({ mapping });
   expect(res.status, JSON.stringify(res.body)).toBe(202);
   await whenProcessed(id);
-  const got = await request(app).get(`/api/uploads/${id}`).set(bearer(await tokenFor(role)));
+  const got = await request(app)
+    .get(`/api/uploads/${id}`)
+    .set(bearer(await tokenFor(role)));
   return got.body.upload;
 }
 
@@ -114,17 +137,36 @@ describe('good upload end to end', () => {
     expect(checked.status).toBe('checked');
     expect(checked.rowsRead).toBe(300);
     expect(checked.rowsRejected).toBe(0);
-    const yes = text.split('\n').slice(1).filter((l) => l.split(',')[5] === 'yes').length;
+    const yes = text
+      .split('\n')
+      .slice(1)
+      .filter((l) => l.split(',')[5] === 'yes').length;
     expect(checked.events).toBe(yes);
     expect(checked.columnSummary.age.kind).toBe('numeric');
 
-    const commit = await request(app).post(`/api/uploads/${u.id}/commit`).set(bearer(await tokenFor('steward'))).send({ excludeRejected: false });
+    const commit = await request(app)
+      .post(`/api/uploads/${u.id}/commit`)
+      .set(bearer(await tokenFor('steward')))
+      .send({ excludeRejected: false });
     expect(commit.status, JSON.stringify(commit.body)).toBe(201);
     expect(commit.body).toMatchObject({ rowCount: 300, events: yes, excludedCount: 0, version: 1, sha256: u.sha256 });
-    expect(await snapshot()).toEqual({ versions: before.versions + 1, rows: before.rows + 300, cohorts: before.cohorts + 1 });
+    expect(await snapshot()).toEqual({
+      versions: before.versions + 1,
+      rows: before.rows + 300,
+      cohorts: before.cohorts + 1,
+    });
 
-    const [v] = await dataSource.query('SELECT source_sha256, row_count, events, period_start::text AS ps, period_end::text AS pe FROM cohort_versions WHERE id = $1', [commit.body.cohortVersionId]);
-    expect(v).toMatchObject({ source_sha256: u.sha256, row_count: 300, events: yes, ps: '2025-04-01', pe: '2025-06-30' });
+    const [v] = await dataSource.query(
+      'SELECT source_sha256, row_count, events, period_start::text AS ps, period_end::text AS pe FROM cohort_versions WHERE id = $1',
+      [commit.body.cohortVersionId],
+    );
+    expect(v).toMatchObject({
+      source_sha256: u.sha256,
+      row_count: 300,
+      events: yes,
+      ps: '2025-04-01',
+      pe: '2025-06-30',
+    });
     const data = await loadCohortData(commit.body.cohortVersionId);
     expect(data.n).toBe(300);
     expect(data.outcome.reduce((a, b) => a + b, 0)).toBe(yes);
@@ -136,9 +178,24 @@ describe('good upload end to end', () => {
     expect(data.eventDate[0]).toBe(`${firstRow[6]}-01`);
 
     // Stored versions are immutable, the upload cannot be stored twice, and the temp files are gone.
-    await expect(dataSource.query('DELETE FROM cohort_row_blocks WHERE cohort_version_id = $1', [commit.body.cohortVersionId])).rejects.toThrow();
-    expect((await request(app).post(`/api/uploads/${u.id}/commit`).set(bearer(await tokenFor('steward'))).send({ excludeRejected: true })).status).toBe(409);
-    expect((await request(app).post(`/api/uploads/${u.id}/discard`).set(bearer(await tokenFor('steward')))).status).toBe(409);
+    await expect(
+      dataSource.query('DELETE FROM cohort_row_blocks WHERE cohort_version_id = $1', [commit.body.cohortVersionId]),
+    ).rejects.toThrow();
+    expect(
+      (
+        await request(app)
+          .post(`/api/uploads/${u.id}/commit`)
+          .set(bearer(await tokenFor('steward')))
+          .send({ excludeRejected: true })
+      ).status,
+    ).toBe(409);
+    expect(
+      (
+        await request(app)
+          .post(`/api/uploads/${u.id}/discard`)
+          .set(bearer(await tokenFor('steward')))
+      ).status,
+    ).toBe(409);
 
     // Reading: list, detail, version detail, rows paged/sorted/searched.
     const token = await tokenFor('chair');
@@ -149,27 +206,52 @@ describe('good upload end to end', () => {
     expect(detail.body.versions[0]).toMatchObject({ version: 1, rowCount: 300, sourceSha256: u.sha256 });
     const ver = await request(app).get(`/api/cohorts/${commit.body.cohortId}/versions/1`).set(bearer(token));
     expect(ver.body.version.columnSummary.unit.kind).toBe('categorical');
-    const rows = await request(app).get(`/api/cohorts/${commit.body.cohortId}/versions/1/rows`).query({ page: 2, pageSize: 10, sortBy: 'age', sortDir: 'desc' }).set(bearer(token));
+    const rows = await request(app)
+      .get(`/api/cohorts/${commit.body.cohortId}/versions/1/rows`)
+      .query({ page: 2, pageSize: 10, sortBy: 'age', sortDir: 'desc' })
+      .set(bearer(token));
     expect(rows.status, JSON.stringify(rows.body)).toBe(200);
     expect(rows.body.total).toBe(300);
     expect(rows.body.rows).toHaveLength(10);
     const ages = rows.body.rows.map((r: { predictors: { age: number } }) => r.predictors.age);
     expect([...ages].sort((a, b) => b - a)).toEqual(ages);
-    const search = await request(app).get(`/api/cohorts/${commit.body.cohortId}/versions/1/rows`).query({ search: 'Rowan' }).set(bearer(token));
+    const search = await request(app)
+      .get(`/api/cohorts/${commit.body.cohortId}/versions/1/rows`)
+      .query({ search: 'Rowan' })
+      .set(bearer(token));
     expect(search.body.total).toBe(data.subgroups.unit.filter((x) => x === 'Rowan').length);
-    expect((await request(app).get(`/api/cohorts/${commit.body.cohortId}/versions/1/rows`).query({ sortBy: 'nonsense' }).set(bearer(token))).status).toBe(400);
-    expect((await request(app).get(`/api/cohorts/${commit.body.cohortId}/versions/9`).set(bearer(token))).status).toBe(404);
+    expect(
+      (
+        await request(app)
+          .get(`/api/cohorts/${commit.body.cohortId}/versions/1/rows`)
+          .query({ sortBy: 'nonsense' })
+          .set(bearer(token))
+      ).status,
+    ).toBe(400);
+    expect((await request(app).get(`/api/cohorts/${commit.body.cohortId}/versions/9`).set(bearer(token))).status).toBe(
+      404,
+    );
 
     // A corrected file for the same cohort becomes version 2.
-    const again = await upload(writeCsv('good2.csv', goodCsv(50, 8)), { cohortName: '', cohortId: commit.body.cohortId });
+    const again = await upload(writeCsv('good2.csv', goodCsv(50, 8)), {
+      cohortName: '',
+      cohortId: commit.body.cohortId,
+    });
     expect(again.status, JSON.stringify(again.body)).toBe(201);
     await mapAndWait(again.body.upload.id);
-    const c2 = await request(app).post(`/api/uploads/${again.body.upload.id}/commit`).set(bearer(await tokenFor('steward'))).send({});
+    const c2 = await request(app)
+      .post(`/api/uploads/${again.body.upload.id}/commit`)
+      .set(bearer(await tokenFor('steward')))
+      .send({});
     expect(c2.body).toMatchObject({ version: 2, rowCount: 50 });
   });
 
   it('reads semicolon-separated UTF-8 with a BOM and quoted fields', async () => {
-    const text = '\uFEFF' + goodCsv(40).replace(/,/g, ';').replace(/Main campus/g, '"Main; campus"');
+    const text =
+      '\uFEFF' +
+      goodCsv(40)
+        .replace(/,/g, ';')
+        .replace(/Main campus/g, '"Main; campus"');
     const res = await upload(writeCsv('semi.csv', text));
     expect(res.status, JSON.stringify(res.body)).toBe(201);
     expect(res.body.upload.delimiter).toBe(';');
@@ -177,7 +259,10 @@ describe('good upload end to end', () => {
     const checked = await mapAndWait(res.body.upload.id);
     expect(checked.rowsAccepted).toBe(40);
     expect(checked.columnSummary.site.levels.map((l: { value: string }) => l.value)).toContain('Main; campus');
-    await request(app).post(`/api/uploads/${res.body.upload.id}/discard`).set(bearer(await tokenFor('steward'))).expect(200);
+    await request(app)
+      .post(`/api/uploads/${res.body.upload.id}/discard`)
+      .set(bearer(await tokenFor('steward')))
+      .expect(200);
   });
 });
 
@@ -192,8 +277,19 @@ describe('quotes late in the file', () => {
     const ua = await mapAndWait(a.body.upload.id);
     const ub = await mapAndWait(b.body.upload.id);
     expect(ub.status).toBe('checked');
-    expect({ read: ub.rowsRead, accepted: ub.rowsAccepted, rejected: ub.rowsRejected, events: ub.events, summary: ub.columnSummary })
-      .toEqual({ read: ua.rowsRead, accepted: ua.rowsAccepted, rejected: ua.rowsRejected, events: ua.events, summary: ua.columnSummary });
+    expect({
+      read: ub.rowsRead,
+      accepted: ub.rowsAccepted,
+      rejected: ub.rowsRejected,
+      events: ub.events,
+      summary: ub.columnSummary,
+    }).toEqual({
+      read: ua.rowsRead,
+      accepted: ua.rowsAccepted,
+      rejected: ua.rowsRejected,
+      events: ua.events,
+      summary: ua.columnSummary,
+    });
   });
 });
 
@@ -202,17 +298,26 @@ describe('waiting for the row checks', () => {
     const res = await upload(writeCsv('wait.csv', goodCsv(30_000, 13)));
     expect(res.status).toBe(201);
     const id = res.body.upload.id;
-    const mapped = await request(app).post(`/api/uploads/${id}/mapping`).set(bearer(await tokenFor('steward'))).send({ mapping: KESTREL_MAPPING });
+    const mapped = await request(app)
+      .post(`/api/uploads/${id}/mapping`)
+      .set(bearer(await tokenFor('steward')))
+      .send({ mapping: KESTREL_MAPPING });
     expect(mapped.status).toBe(202);
     expect(mapped.body.upload.status).toBe('processing');
     // No job worker runs in this test process: whenProcessed takes the check's job here, while the GET waits for it.
     const checking = whenProcessed(id);
-    const got = await request(app).get(`/api/uploads/${id}`).query({ waitSeconds: 30 }).set(bearer(await tokenFor('steward')));
+    const got = await request(app)
+      .get(`/api/uploads/${id}`)
+      .query({ waitSeconds: 30 })
+      .set(bearer(await tokenFor('steward')));
     await checking;
     expect(got.status).toBe(200);
     expect(got.body.upload.status).toBe('checked');
     expect(got.body.upload.rowsRead).toBe(30_000);
-    const bad = await request(app).get(`/api/uploads/${id}`).query({ waitSeconds: 99 }).set(bearer(await tokenFor('steward')));
+    const bad = await request(app)
+      .get(`/api/uploads/${id}`)
+      .query({ waitSeconds: 99 })
+      .set(bearer(await tokenFor('steward')));
     expect(bad.status).toBe(400);
     expect(bad.body.error).toMatch(/waitSeconds/);
   });
@@ -229,29 +334,56 @@ describe('the demo fixture with bad rows', () => {
     expect(checked.rowsRejected).toBe(5);
     expect(checked.rowsAccepted).toBe(495);
     const token = await tokenFor('steward');
-    const page1 = await request(app).get(`/api/uploads/${id}/rejections`).query({ page: 1, pageSize: 3 }).set(bearer(token));
+    const page1 = await request(app)
+      .get(`/api/uploads/${id}/rejections`)
+      .query({ page: 1, pageSize: 3 })
+      .set(bearer(token));
     expect(page1.body.total).toBe(5);
     expect(page1.body.rejections).toHaveLength(3);
     expect(page1.body.rejections[0]).toMatchObject({ line: 13, column: 'readmitted_30d', value: 'maybe' });
-    const page2 = await request(app).get(`/api/uploads/${id}/rejections`).query({ page: 2, pageSize: 3 }).set(bearer(token));
+    const page2 = await request(app)
+      .get(`/api/uploads/${id}/rejections`)
+      .query({ page: 2, pageSize: 3 })
+      .set(bearer(token));
     expect(page2.body.rejections).toHaveLength(2);
     const all = [...page1.body.rejections, ...page2.body.rejections];
-    expect(all.find((r) => r.line === 41)).toMatchObject({ column: 'age', value: '130', reason: expect.stringMatching(/between 0 and 120/) });
-    expect(all.find((r) => r.line === 78)).toMatchObject({ column: 'length_of_stay', reason: expect.stringMatching(/missing/) });
+    expect(all.find((r) => r.line === 41)).toMatchObject({
+      column: 'age',
+      value: '130',
+      reason: expect.stringMatching(/between 0 and 120/),
+    });
+    expect(all.find((r) => r.line === 78)).toMatchObject({
+      column: 'length_of_stay',
+      reason: expect.stringMatching(/missing/),
+    });
     const csv = await request(app).get(`/api/uploads/${id}/rejections.csv`).set(bearer(token));
     expect(csv.headers['content-type']).toMatch(/text\/csv/);
     expect(csv.text.trim().split('\n')).toHaveLength(6);
 
     const before = await snapshot();
-    const refused = await request(app).post(`/api/uploads/${id}/commit`).set(bearer(token)).send({ excludeRejected: false });
+    const refused = await request(app)
+      .post(`/api/uploads/${id}/commit`)
+      .set(bearer(token))
+      .send({ excludeRejected: false });
     expect(refused.status).toBe(409);
     expect(refused.body.error).toMatch(/5 row\(s\) were rejected/);
     expect(await snapshot()).toEqual(before);
-    const stored = await request(app).post(`/api/uploads/${id}/commit`).set(bearer(token)).send({ excludeRejected: true });
+    const stored = await request(app)
+      .post(`/api/uploads/${id}/commit`)
+      .set(bearer(token))
+      .send({ excludeRejected: true });
     expect(stored.status).toBe(201);
     expect(stored.body).toMatchObject({ rowCount: 495, excludedCount: 5 });
-    const [v] = await dataSource.query('SELECT exclusions FROM cohort_versions WHERE id = $1', [stored.body.cohortVersionId]);
-    expect(v.exclusions).toEqual(expect.arrayContaining([{ reason: 'outcome not a known label', count: 2 }, { reason: 'age out of range', count: 1 }, { reason: 'missing length_of_stay', count: 2 }]));
+    const [v] = await dataSource.query('SELECT exclusions FROM cohort_versions WHERE id = $1', [
+      stored.body.cohortVersionId,
+    ]);
+    expect(v.exclusions).toEqual(
+      expect.arrayContaining([
+        { reason: 'outcome not a known label', count: 2 },
+        { reason: 'age out of range', count: 1 },
+        { reason: 'missing length_of_stay', count: 2 },
+      ]),
+    );
   });
 });
 
@@ -278,14 +410,25 @@ describe('bad files: a clear 4xx, nothing stored', () => {
   });
   it('no file, missing fields, unknown score version, unknown cohort, name taken', async () => {
     const token = await tokenFor('steward');
-    expect((await request(app).post('/api/cohorts').set(bearer(token)).send({ scoreVersionId: formulaVersionId })).status).toBe(400);
-    const noFile = await request(app).post('/api/cohorts').set(bearer(token)).field('scoreVersionId', formulaVersionId).field('cohortName', 'x');
+    expect(
+      (await request(app).post('/api/cohorts').set(bearer(token)).send({ scoreVersionId: formulaVersionId })).status,
+    ).toBe(400);
+    const noFile = await request(app)
+      .post('/api/cohorts')
+      .set(bearer(token))
+      .field('scoreVersionId', formulaVersionId)
+      .field('cohortName', 'x');
     expect(noFile.status).toBe(400);
     const file = writeCsv('ok.csv', goodCsv(5));
     await expectRefused(file, 400, /scoreVersionId/, { scoreVersionId: 'nope' });
     await expectRefused(file, 400, /either cohortId/, { cohortName: '' });
-    await expectRefused(file, 404, /score version not found/, { scoreVersionId: '00000000-0000-4000-8000-000000000000' });
-    await expectRefused(file, 404, /cohort not found/, { cohortName: '', cohortId: '00000000-0000-4000-8000-000000000000' });
+    await expectRefused(file, 404, /score version not found/, {
+      scoreVersionId: '00000000-0000-4000-8000-000000000000',
+    });
+    await expectRefused(file, 404, /cohort not found/, {
+      cohortName: '',
+      cohortId: '00000000-0000-4000-8000-000000000000',
+    });
     const [c] = await dataSource.query('SELECT name FROM cohorts LIMIT 1');
     if (c) await expectRefused(file, 409, /exists/, { cohortName: c.name });
   });
@@ -318,7 +461,10 @@ describe('row checks: listed rejections', () => {
     expect(res.status, JSON.stringify(res.body)).toBe(201);
     const before = await snapshot();
     const u = await mapAndWait(res.body.upload.id, mapping);
-    const rej = await request(app).get(`/api/uploads/${u.id}/rejections`).query({ pageSize: 100 }).set(bearer(await tokenFor('steward')));
+    const rej = await request(app)
+      .get(`/api/uploads/${u.id}/rejections`)
+      .query({ pageSize: 100 })
+      .set(bearer(await tokenFor('steward')));
     expect(await snapshot()).toEqual(before);
     return { u, rejections: rej.body.rejections as { line: number; column: string; value: string; reason: string }[] };
   }
@@ -334,13 +480,20 @@ describe('row checks: listed rejections', () => {
   });
   it('outcomes of 2 and "maybe"', async () => {
     const { rejections } = await checkedUpload('outcome.csv', withCell(withCell(lines(), 3, 5, '2'), 6, 5, 'maybe'));
-    expect(rejections.map((r) => [r.line, r.value])).toEqual([[3, '2'], [6, 'maybe']]);
+    expect(rejections.map((r) => [r.line, r.value])).toEqual([
+      [3, '2'],
+      [6, 'maybe'],
+    ]);
     expect(rejections[0].reason).toMatch(/must be one of yes, no/);
   });
   it('non-numeric predictors, non-positive log predictors, missing values', async () => {
     const rows = withCell(withCell(withCell(lines(), 2, 2, 'three'), 4, 1, '0'), 9, 4, '');
     const { rejections } = await checkedUpload('nonnumeric.csv', rows);
-    expect(rejections.map((r) => [r.line, r.column])).toEqual([[2, 'prior_admissions'], [4, 'length_of_stay'], [9, 'charlson_index']]);
+    expect(rejections.map((r) => [r.line, r.column])).toEqual([
+      [2, 'prior_admissions'],
+      [4, 'length_of_stay'],
+      [9, 'charlson_index'],
+    ]);
     expect(rejections[0].reason).toMatch(/must be a decimal number/);
     expect(rejections[1].reason).toMatch(/logarithm/);
     expect(rejections[2].reason).toMatch(/missing/);
@@ -351,7 +504,9 @@ describe('row checks: listed rejections', () => {
     expect(res.body.upload.warnings.some((w: { category: string }) => w.category === 'formula cells')).toBe(true);
     const u = await mapAndWait(res.body.upload.id);
     expect(u.rowsRejected).toBe(2);
-    const csv = await request(app).get(`/api/uploads/${u.id}/rejections.csv`).set(bearer(await tokenFor('steward')));
+    const csv = await request(app)
+      .get(`/api/uploads/${u.id}/rejections.csv`)
+      .set(bearer(await tokenFor('steward')));
     expect(csv.text).toContain(`"'=HYPERLINK(""http://x.invalid""`);
     expect(csv.text).toContain("'@SUM(A1)");
     expect(csv.text.split('\n').some((l) => /,[=@+-]/.test(l))).toBe(false);
@@ -361,20 +516,43 @@ describe('row checks: listed rejections', () => {
     const res = await upload(writeCsv('prob.csv', text), { scoreVersionId: suppliedVersionId });
     expect(res.status, JSON.stringify(res.body)).toBe(201);
     expect(res.body.upload.requiredPredictors).toEqual([
-      { column: 'vendor_probability', kind: 'numeric', positiveOnly: false, transforms: ['supplied probability'], levels: [], unit: null, range: { min: 0, max: 1 } },
+      {
+        column: 'vendor_probability',
+        kind: 'numeric',
+        positiveOnly: false,
+        transforms: ['supplied probability'],
+        levels: [],
+        unit: null,
+        range: { min: 0, max: 1 },
+      },
     ]);
-    const u = await mapAndWait(res.body.upload.id, { predictors: { vendor_probability: 'vendor_probability' }, outcome: { column: 'outcome' }, subgroups: { unit: 'unit' } });
+    const u = await mapAndWait(res.body.upload.id, {
+      predictors: { vendor_probability: 'vendor_probability' },
+      outcome: { column: 'outcome' },
+      subgroups: { unit: 'unit' },
+    });
     expect(u.rowsAccepted).toBe(2);
     expect(u.rowsRejected).toBe(2);
   });
   it('a mapping that does not fit the file is a 400 naming the problem', async () => {
     const res = await upload(writeCsv('m.csv', goodCsv(5)));
-    const bad = await request(app).post(`/api/uploads/${res.body.upload.id}/mapping`).set(bearer(await tokenFor('steward')))
-      .send({ mapping: { ...KESTREL_MAPPING, predictors: { ...KESTREL_MAPPING.predictors, age: 'no_such_column' }, outcome: { column: 'readmitted_30d', positive: ['yes'], negative: ['yes'] } } });
+    const bad = await request(app)
+      .post(`/api/uploads/${res.body.upload.id}/mapping`)
+      .set(bearer(await tokenFor('steward')))
+      .send({
+        mapping: {
+          ...KESTREL_MAPPING,
+          predictors: { ...KESTREL_MAPPING.predictors, age: 'no_such_column' },
+          outcome: { column: 'readmitted_30d', positive: ['yes'], negative: ['yes'] },
+        },
+      });
     expect(bad.status).toBe(400);
     expect(bad.body.error).toMatch(/no column "no_such_column"/);
     expect(bad.body.error).toMatch(/both positive and negative/);
-    const missing = await request(app).post(`/api/uploads/${res.body.upload.id}/mapping`).set(bearer(await tokenFor('steward'))).send({ mapping: { outcome: { column: 'x' } } });
+    const missing = await request(app)
+      .post(`/api/uploads/${res.body.upload.id}/mapping`)
+      .set(bearer(await tokenFor('steward')))
+      .send({ mapping: { outcome: { column: 'x' } } });
     expect(missing.status).toBe(400);
   });
   it('an identifier beyond the screened sample refuses the whole upload during the full pass', async () => {
@@ -386,8 +564,21 @@ describe('row checks: listed rejections', () => {
     expect(u.status).toBe('refused');
     expect(u.error).toMatch(/e-mail/);
     expect(u.warnings[0]).toMatchObject({ column: 'unit', category: 'e-mail addresses' });
-    expect((await request(app).get(`/api/uploads/${u.id}/rejections`).set(bearer(await tokenFor('steward')))).body.total).toBe(0);
-    expect((await request(app).post(`/api/uploads/${u.id}/commit`).set(bearer(await tokenFor('steward'))).send({ excludeRejected: true })).status).toBe(409);
+    expect(
+      (
+        await request(app)
+          .get(`/api/uploads/${u.id}/rejections`)
+          .set(bearer(await tokenFor('steward')))
+      ).body.total,
+    ).toBe(0);
+    expect(
+      (
+        await request(app)
+          .post(`/api/uploads/${u.id}/commit`)
+          .set(bearer(await tokenFor('steward')))
+          .send({ excludeRejected: true })
+      ).status,
+    ).toBe(409);
   });
 });
 
@@ -397,7 +588,14 @@ describe('the de-identification screen refuses each identifier category', () => 
     base.map((l, i) => (i === 0 ? `${l},${header}` : `${l},${values(i)}`)).join('\n') + '\n';
   const cases: [string, string, (i: number) => string, string][] = [
     ['names (header)', 'patient_name', () => 'x', 'names'],
-    ['names (content)', 'contact', (i) => ['Mara Quill', 'Oskar Brandt', 'Lena Moss', 'Ivo Pereira', 'Ruth Ashdown'][i % 5] + (i > 5 ? ` ${String.fromCharCode(65 + (i % 26))}ale` : ''), 'names'],
+    [
+      'names (content)',
+      'contact',
+      (i) =>
+        ['Mara Quill', 'Oskar Brandt', 'Lena Moss', 'Ivo Pereira', 'Ruth Ashdown'][i % 5] +
+        (i > 5 ? ` ${String.fromCharCode(65 + (i % 26))}ale` : ''),
+      'names',
+    ],
     ['geographic (street address)', 'home', (i) => `${10 + i} Juniper Road`, 'geographic subdivision'],
     ['geographic (5-digit ZIP)', 'zip', (i) => String(10000 + i * 37), 'geographic subdivision'],
     ['dates (birth)', 'dob', () => '1950-03-14', 'dates'],
@@ -416,18 +614,31 @@ describe('the de-identification screen refuses each identifier category', () => 
     ['IP addresses', 'client', (i) => `10.0.3.${i}`, 'IP addresses'],
     ['biometric identifiers', 'fingerprint', () => 'x', 'biometric identifiers'],
     ['full-face photographs', 'photo', () => 'x', 'full-face photographs'],
-    ['other unique identifying numbers', 'code', (i) => `KX${String(4000000 + i * 7919)}`, 'unique identifying numbers'],
+    [
+      'other unique identifying numbers',
+      'code',
+      (i) => `KX${String(4000000 + i * 7919)}`,
+      'unique identifying numbers',
+    ],
   ];
   it.each(cases)('%s', async (_label, header, values, category) => {
-    const body = await expectRefused(writeCsv(`id-${header}.csv`, addColumn(header, values)), 422, /de-identification screen/);
-    expect(body.details.columns).toEqual(expect.arrayContaining([expect.objectContaining({ column: header, category })]));
+    const body = await expectRefused(
+      writeCsv(`id-${header}.csv`, addColumn(header, values)),
+      422,
+      /de-identification screen/,
+    );
+    expect(body.details.columns).toEqual(
+      expect.arrayContaining([expect.objectContaining({ column: header, category })]),
+    );
     expect(body.details.columns.find((c: { column: string }) => c.column === header).reason.length).toBeGreaterThan(10);
   });
   it('ages over 89 unless grouped as 90+', async () => {
     const rows = base.map((l, i) => (i === 3 ? l.replace(/^[^,]+/, '93') : l));
     const body = await expectRefused(writeCsv('age93.csv', rows.join('\n') + '\n'), 422, /de-identification/);
     expect(body.details.columns[0]).toMatchObject({ column: 'age', category: 'ages over 89' });
-    const grouped = await upload(writeCsv('age90plus.csv', base.map((l, i) => (i === 3 ? l.replace(/^[^,]+/, '90+') : l)).join('\n') + '\n'));
+    const grouped = await upload(
+      writeCsv('age90plus.csv', base.map((l, i) => (i === 3 ? l.replace(/^[^,]+/, '90+') : l)).join('\n') + '\n'),
+    );
     expect(grouped.status).toBe(201);
     const u = await mapAndWait(grouped.body.upload.id);
     expect(u.rowsRejected).toBe(0);
@@ -438,17 +649,36 @@ describe('the de-identification screen refuses each identifier category', () => 
 describe('saved mappings', () => {
   it('saves, lists and reuses a mapping; validates its shape', async () => {
     const token = await tokenFor('statistician');
-    const saved = await request(app).post('/api/mappings').set(bearer(token)).send({ name: `Kestrel quarterly ${run}`, mapping: KESTREL_MAPPING });
+    const saved = await request(app)
+      .post('/api/mappings')
+      .set(bearer(token))
+      .send({ name: `Kestrel quarterly ${run}`, mapping: KESTREL_MAPPING });
     expect(saved.status, JSON.stringify(saved.body)).toBe(201);
     const list = await request(app).get('/api/mappings').set(bearer(token));
-    expect(list.body.mappings.find((m: { id: string }) => m.id === saved.body.mapping.id).mapping.outcome.positive).toEqual(['yes']);
-    expect((await request(app).post('/api/mappings').set(bearer(token)).send({ name: 'x', mapping: { predictors: {} } })).status).toBe(400);
+    expect(
+      list.body.mappings.find((m: { id: string }) => m.id === saved.body.mapping.id).mapping.outcome.positive,
+    ).toEqual(['yes']);
+    expect(
+      (
+        await request(app)
+          .post('/api/mappings')
+          .set(bearer(token))
+          .send({ name: 'x', mapping: { predictors: {} } })
+      ).status,
+    ).toBe(400);
     // Saving during the mapping step.
     const res = await upload(writeCsv('save.csv', goodCsv(5)), {}, 'statistician');
-    const m = await request(app).post(`/api/uploads/${res.body.upload.id}/mapping`).set(bearer(token)).send({ mapping: KESTREL_MAPPING, saveAs: `while mapping ${run}` });
+    const m = await request(app)
+      .post(`/api/uploads/${res.body.upload.id}/mapping`)
+      .set(bearer(token))
+      .send({ mapping: KESTREL_MAPPING, saveAs: `while mapping ${run}` });
     expect(m.status).toBe(202);
     await whenProcessed(res.body.upload.id);
-    expect((await request(app).get('/api/mappings').set(bearer(token))).body.mappings.some((x: { name: string }) => x.name === `while mapping ${run}`)).toBe(true);
+    expect(
+      (await request(app).get('/api/mappings').set(bearer(token))).body.mappings.some(
+        (x: { name: string }) => x.name === `while mapping ${run}`,
+      ),
+    ).toBe(true);
   });
 });
 
@@ -475,7 +705,13 @@ describe('storage is all or nothing', () => {
       expect(u.error).not.toMatch(/plumbline_test_fault|cohort_row_blocks|constraint/);
     });
     expect(await stagedRows(res.body.upload.id)).toBe(0);
-    expect((await dataSource.query('SELECT count(*)::int AS n FROM cohort_upload_rejections WHERE upload_id = $1', [res.body.upload.id]))[0].n).toBe(0);
+    expect(
+      (
+        await dataSource.query('SELECT count(*)::int AS n FROM cohort_upload_rejections WHERE upload_id = $1', [
+          res.body.upload.id,
+        ])
+      )[0].n,
+    ).toBe(0);
     expect(await snapshot()).toEqual(before);
     // Mapping again after the fault is gone checks and stores it whole.
     const again = await mapAndWait(res.body.upload.id);
@@ -490,17 +726,31 @@ describe('storage is all or nothing', () => {
     const before = await snapshot();
     const token = await tokenFor('steward');
     await fault('cohort_versions', "label <> 'fault injection'", async () => {
-      const commit = await request(app).post(`/api/uploads/${u.id}/commit`).set(bearer(token)).send({ excludeRejected: true });
+      const commit = await request(app)
+        .post(`/api/uploads/${u.id}/commit`)
+        .set(bearer(token))
+        .send({ excludeRejected: true });
       expect(commit.status).toBe(500);
       expect(commit.body.error).toMatch(/rolled back: nothing was stored/);
       expect(JSON.stringify(commit.body)).not.toMatch(/plumbline_test_fault|constraint|SELECT|INSERT/i);
     });
     expect(await snapshot()).toEqual(before);
     expect((await request(app).get(`/api/uploads/${u.id}`).set(bearer(token))).body.upload.status).toBe('checked');
-    const stored = await request(app).post(`/api/uploads/${u.id}/commit`).set(bearer(token)).send({ excludeRejected: true });
+    const stored = await request(app)
+      .post(`/api/uploads/${u.id}/commit`)
+      .set(bearer(token))
+      .send({ excludeRejected: true });
     expect(stored.status, JSON.stringify(stored.body)).toBe(201);
-    expect(await snapshot()).toEqual({ ...before, cohorts: before.cohorts + 1, versions: before.versions + 1, rows: before.rows + u.rowsAccepted });
-    expect((await request(app).post(`/api/uploads/${u.id}/commit`).set(bearer(token)).send({ excludeRejected: true })).status).toBe(409);
+    expect(await snapshot()).toEqual({
+      ...before,
+      cohorts: before.cohorts + 1,
+      versions: before.versions + 1,
+      rows: before.rows + u.rowsAccepted,
+    });
+    expect(
+      (await request(app).post(`/api/uploads/${u.id}/commit`).set(bearer(token)).send({ excludeRejected: true }))
+        .status,
+    ).toBe(409);
   });
 
   it('an upload left unfinished past the keep period is discarded with its staged rows, on the record', async () => {
@@ -514,7 +764,14 @@ describe('storage is all or nothing', () => {
     const [after] = await dataSource.query('SELECT status, temp_path FROM cohort_uploads WHERE id = $1', [u.id]);
     expect(after).toEqual({ status: 'discarded', temp_path: null });
     expect(await stagedRows(u.id)).toBe(0);
-    expect((await dataSource.query(`SELECT count(*)::int AS n FROM audit_log WHERE action = 'cohort.upload.expired' AND target_id = $1`, [u.id]))[0].n).toBe(1);
+    expect(
+      (
+        await dataSource.query(
+          `SELECT count(*)::int AS n FROM audit_log WHERE action = 'cohort.upload.expired' AND target_id = $1`,
+          [u.id],
+        )
+      )[0].n,
+    ).toBe(1);
     const [kept] = await dataSource.query('SELECT status FROM cohort_uploads WHERE id = $1', [fresh.body.upload.id]);
     expect(kept.status).toBe('pending');
   });
@@ -523,7 +780,10 @@ describe('storage is all or nothing', () => {
     const res = await upload(writeCsv('discard.csv', goodCsv(50)));
     const u = await mapAndWait(res.body.upload.id);
     expect(await stagedRows(u.id)).toBe(u.rowsAccepted);
-    const d = await request(app).post(`/api/uploads/${u.id}/discard`).set(bearer(await tokenFor('steward'))).send({});
+    const d = await request(app)
+      .post(`/api/uploads/${u.id}/discard`)
+      .set(bearer(await tokenFor('steward')))
+      .send({});
     expect(d.status, JSON.stringify(d.body)).toBeLessThan(300);
     expect(await stagedRows(u.id)).toBe(0);
   });
@@ -540,14 +800,15 @@ describe('access by role', () => {
     const res = await upload(writeCsv('roles.csv', goodCsv(5)));
     uploadId = res.body.upload.id;
   });
-  const routes = () => [
-    { method: 'get', url: '/api/cohorts', allowed: readers },
-    { method: 'get', url: `/api/cohorts/${cohortId}`, allowed: readers },
-    { method: 'get', url: `/api/cohorts/${cohortId}/versions/1`, allowed: readers },
-    { method: 'get', url: `/api/cohorts/${cohortId}/versions/1/rows`, allowed: readers },
-    { method: 'get', url: '/api/mappings', allowed: writers },
-    { method: 'get', url: '/api/uploads', allowed: writers },
-  ] as const;
+  const routes = () =>
+    [
+      { method: 'get', url: '/api/cohorts', allowed: readers },
+      { method: 'get', url: `/api/cohorts/${cohortId}`, allowed: readers },
+      { method: 'get', url: `/api/cohorts/${cohortId}/versions/1`, allowed: readers },
+      { method: 'get', url: `/api/cohorts/${cohortId}/versions/1/rows`, allowed: readers },
+      { method: 'get', url: '/api/mappings', allowed: writers },
+      { method: 'get', url: '/api/uploads', allowed: writers },
+    ] as const;
   it.each(ROLES)('%s: reads what the role may and gets 403 elsewhere', async (role) => {
     const token = await tokenFor(role);
     for (const r of routes()) {
@@ -555,7 +816,12 @@ describe('access by role', () => {
       expect(res.status, `${role} ${r.url}`).toBe((r.allowed as readonly Role[]).includes(role) ? 200 : 403);
     }
     const writes = [
-      request(app).post('/api/cohorts').set(bearer(token)).field('scoreVersionId', formulaVersionId).field('cohortName', 'r').attach('file', writeCsv(`r-${role}.csv`, goodCsv(3))),
+      request(app)
+        .post('/api/cohorts')
+        .set(bearer(token))
+        .field('scoreVersionId', formulaVersionId)
+        .field('cohortName', 'r')
+        .attach('file', writeCsv(`r-${role}.csv`, goodCsv(3))),
       request(app).post(`/api/uploads/${uploadId}/mapping`).set(bearer(token)).send({ mapping: KESTREL_MAPPING }),
       request(app).get(`/api/uploads/${uploadId}`).set(bearer(token)),
       request(app).get(`/api/uploads/${uploadId}/rejections`).set(bearer(token)),
@@ -572,8 +838,20 @@ describe('access by role', () => {
   });
   it('uploads are private to their uploader (another writer gets 404)', async () => {
     const res = await upload(writeCsv('private.csv', goodCsv(3)));
-    expect((await request(app).get(`/api/uploads/${res.body.upload.id}`).set(bearer(await tokenFor('statistician')))).status).toBe(404);
-    expect((await request(app).get(`/api/uploads/${res.body.upload.id}`).set(bearer(await tokenFor('steward')))).status).toBe(200);
+    expect(
+      (
+        await request(app)
+          .get(`/api/uploads/${res.body.upload.id}`)
+          .set(bearer(await tokenFor('statistician')))
+      ).status,
+    ).toBe(404);
+    expect(
+      (
+        await request(app)
+          .get(`/api/uploads/${res.body.upload.id}`)
+          .set(bearer(await tokenFor('steward')))
+      ).status,
+    ).toBe(200);
   });
   it('without a token every cohort route answers 401', async () => {
     for (const url of ['/api/cohorts', `/api/cohorts/${cohortId}`, `/api/uploads/${uploadId}`, '/api/mappings']) {

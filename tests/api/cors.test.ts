@@ -14,11 +14,14 @@ useDatabase();
 const FOREIGN = 'https://elsewhere.example';
 const SAME = 'http://127.0.0.1:3000';
 
-const corsHeaders = (headers: Record<string, string | undefined>) => Object.keys(headers).filter((h) => h.toLowerCase().startsWith('access-control-'));
+const corsHeaders = (headers: Record<string, string | undefined>) =>
+  Object.keys(headers).filter((h) => h.toLowerCase().startsWith('access-control-'));
 
 /** A concrete path for a route pattern (ids as UUIDs, version numbers as 1). */
 const concrete = (pattern: string) =>
-  pattern.replace(/:(\w+)/g, (_m, name: string) => (/^version$/i.test(name) ? '1' : '8c0e4c7e-5d6b-4f0a-9a53-2f1d3c1b9e77'));
+  pattern.replace(/:(\w+)/g, (_m, name: string) =>
+    /^version$/i.test(name) ? '1' : '8c0e4c7e-5d6b-4f0a-9a53-2f1d3c1b9e77',
+  );
 
 describe('CORS: no cross-origin reads or writes', () => {
   it('grants no preflight from a foreign origin, for any route in the table', async () => {
@@ -49,7 +52,11 @@ describe('CORS: no cross-origin reads or writes', () => {
     // The API reads JSON only, so such a post is refused and no token is issued.
     const body = JSON.stringify({ email: 'admin@demo.test', password: DEMO_PASSWORD });
     for (const type of ['text/plain', 'application/x-www-form-urlencoded']) {
-      const res = await request(app).post('/api/auth/login').set('Origin', FOREIGN).set('Content-Type', type).send(body);
+      const res = await request(app)
+        .post('/api/auth/login')
+        .set('Origin', FOREIGN)
+        .set('Content-Type', type)
+        .send(body);
       expect(res.status, type).toBe(400);
       expect(res.body.token, type).toBeUndefined();
       expect(corsHeaders(res.headers)).toEqual([]);
@@ -57,7 +64,10 @@ describe('CORS: no cross-origin reads or writes', () => {
   });
 
   it('works from its own origin', async () => {
-    const login = await request(app).post('/api/auth/login').set('Origin', SAME).send({ email: 'steward@demo.test', password: DEMO_PASSWORD });
+    const login = await request(app)
+      .post('/api/auth/login')
+      .set('Origin', SAME)
+      .send({ email: 'steward@demo.test', password: DEMO_PASSWORD });
     expect(login.status).toBe(200);
     expect(typeof login.body.token).toBe('string');
     const me = await request(app).get('/api/auth/me').set('Origin', SAME).set(bearer(login.body.token));

@@ -45,20 +45,41 @@ async function writeBigCsv(file: string, n: number) {
 function integrity() {
   return {
     // Every stored version holds exactly the rows it says it holds.
-    versionsWithWrongCount: num(`SELECT count(*) FROM cohort_versions v WHERE v.row_count <> (SELECT coalesce(sum(b.row_count), 0) FROM cohort_row_blocks b WHERE b.cohort_version_id = v.id)`),
+    versionsWithWrongCount: num(
+      `SELECT count(*) FROM cohort_versions v WHERE v.row_count <> (SELECT coalesce(sum(b.row_count), 0) FROM cohort_row_blocks b WHERE b.cohort_version_id = v.id)`,
+    ),
     // No staged row outside a checked upload (a killed check's COPY must leave none).
-    strayStagedRows: num(`SELECT count(*) FROM cohort_row_blocks b WHERE NOT EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = b.cohort_version_id)
+    strayStagedRows:
+      num(`SELECT count(*) FROM cohort_row_blocks b WHERE NOT EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = b.cohort_version_id)
       AND NOT EXISTS (SELECT 1 FROM cohort_uploads u WHERE u.planned_version_id = b.cohort_version_id AND u.status = 'checked')`),
     // No cohort without a version that a half-done commit could have left.
-    cohortsWithoutVersion: num(`SELECT count(*) FROM cohorts c WHERE NOT EXISTS (SELECT 1 FROM cohort_versions v WHERE v.cohort_id = c.id)`),
-    committedUploadsWithoutVersion: num(`SELECT count(*) FROM cohort_uploads u WHERE u.status = 'committed' AND NOT EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = u.cohort_version_id)`),
+    cohortsWithoutVersion: num(
+      `SELECT count(*) FROM cohorts c WHERE NOT EXISTS (SELECT 1 FROM cohort_versions v WHERE v.cohort_id = c.id)`,
+    ),
+    committedUploadsWithoutVersion: num(
+      `SELECT count(*) FROM cohort_uploads u WHERE u.status = 'committed' AND NOT EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = u.cohort_version_id)`,
+    ),
   };
 }
 
-const CLEAN = { versionsWithWrongCount: 0, strayStagedRows: 0, cohortsWithoutVersion: 0, committedUploadsWithoutVersion: 0 };
-const stored = () => ({ cohorts: num('SELECT count(*) FROM cohorts'), versions: num('SELECT count(*) FROM cohort_versions'), rows: num('SELECT coalesce(sum(b.row_count), 0) FROM cohort_row_blocks b WHERE EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = b.cohort_version_id)') });
+const CLEAN = {
+  versionsWithWrongCount: 0,
+  strayStagedRows: 0,
+  cohortsWithoutVersion: 0,
+  committedUploadsWithoutVersion: 0,
+};
+const stored = () => ({
+  cohorts: num('SELECT count(*) FROM cohorts'),
+  versions: num('SELECT count(*) FROM cohort_versions'),
+  rows: num(
+    'SELECT coalesce(sum(b.row_count), 0) FROM cohort_row_blocks b WHERE EXISTS (SELECT 1 FROM cohort_versions v WHERE v.id = b.cohort_version_id)',
+  ),
+});
 /** A checked upload's rows, staged under the id its cohort version will get. */
-const staged = (id: string) => num(`SELECT coalesce(sum(b.row_count), 0) FROM cohort_row_blocks b JOIN cohort_uploads u ON u.planned_version_id = b.cohort_version_id WHERE u.id = '${id}'`);
+const staged = (id: string) =>
+  num(
+    `SELECT coalesce(sum(b.row_count), 0) FROM cohort_row_blocks b JOIN cohort_uploads u ON u.planned_version_id = b.cohort_version_id WHERE u.id = '${id}'`,
+  );
 
 beforeAll(async () => {
   cluster = await createPreparedCluster();
@@ -100,22 +121,39 @@ describe(`SIGKILL in the middle of work (${ROWS.toLocaleString('en')} rows)`, ()
     const before = stored();
     const map = async () => {
       const mapped = await server.fetchJson(`/api/uploads/${uploadId}/mapping`, {
-        method: 'POST', headers: { ...steward, 'Content-Type': 'application/json' }, body: JSON.stringify({ mapping: KESTREL_MAPPING }),
+        method: 'POST',
+        headers: { ...steward, 'Content-Type': 'application/json' },
+        body: JSON.stringify({ mapping: KESTREL_MAPPING }),
       });
       expect(mapped.status, JSON.stringify(mapped.body)).toBeLessThan(300);
     };
     await map();
     const auditBefore = num('SELECT count(*) FROM audit_log');
     // Kill once the check thread's COPY has streamed part of the rows, not before and not after.
-    const progress = await until('COPY into cohort_row_blocks to be under way',
-      () => num(`SELECT coalesce(max(tuples_processed), 0) FROM pg_stat_progress_copy WHERE relid = 'cohort_row_blocks'::regclass`),
-      (n) => n > 0, 300_000, 20);
+    const progress = await until(
+      'COPY into cohort_row_blocks to be under way',
+      () =>
+        num(
+          `SELECT coalesce(max(tuples_processed), 0) FROM pg_stat_progress_copy WHERE relid = 'cohort_row_blocks'::regclass`,
+        ),
+      (n) => n > 0,
+      300_000,
+      20,
+    );
     await server.kill('SIGKILL');
-    console.log(`killed while COPY had streamed ${progress.toLocaleString('en')} of ${Math.ceil(ROWS / BLOCK_ROWS)} blocks (${BLOCK_ROWS.toLocaleString('en')} rows each)`);
+    console.log(
+      `killed while COPY had streamed ${progress.toLocaleString('en')} of ${Math.ceil(ROWS / BLOCK_ROWS)} blocks (${BLOCK_ROWS.toLocaleString('en')} rows each)`,
+    );
     expect(progress).toBeLessThan(Math.ceil(ROWS / BLOCK_ROWS));
 
     // PostgreSQL aborts the killed thread's transaction when its socket closes.
-    await until('the killed COPY to end', () => num(`SELECT count(*) FROM pg_stat_activity WHERE query LIKE 'COPY cohort_row_blocks%' AND state <> 'idle'`), (n) => n === 0, 60_000, 100);
+    await until(
+      'the killed COPY to end',
+      () => num(`SELECT count(*) FROM pg_stat_activity WHERE query LIKE 'COPY cohort_row_blocks%' AND state <> 'idle'`),
+      (n) => n === 0,
+      60_000,
+      100,
+    );
     expect(stored()).toEqual(before);
     expect(staged(uploadId)).toBe(0);
     expect(integrity()).toEqual(CLEAN);
@@ -125,8 +163,18 @@ describe(`SIGKILL in the middle of work (${ROWS.toLocaleString('en')} rows)`, ()
     // No start-up recovery takes it: the check's job is retried once its claim expires, and checks the file afresh.
     await server.start();
     steward = await token('steward@demo.test');
-    const checked = await until('the retried check', async () => (await server.fetchJson(`/api/uploads/${uploadId}`, { headers: steward })).body.upload as { status: string; rowsAccepted: number; rowsRejected: number },
-      (u) => u?.status !== 'processing', 900_000, 500);
+    const checked = await until(
+      'the retried check',
+      async () =>
+        (await server.fetchJson(`/api/uploads/${uploadId}`, { headers: steward })).body.upload as {
+          status: string;
+          rowsAccepted: number;
+          rowsRejected: number;
+        },
+      (u) => u?.status !== 'processing',
+      900_000,
+      500,
+    );
     expect(checked.status).toBe('checked');
     expect(checked.rowsAccepted + checked.rowsRejected).toBe(ROWS);
     expect(staged(uploadId)).toBe(checked.rowsAccepted);
@@ -136,17 +184,27 @@ describe(`SIGKILL in the middle of work (${ROWS.toLocaleString('en')} rows)`, ()
     await server.kill('SIGKILL');
     await server.start();
     steward = await token('steward@demo.test');
-    expect(((await server.fetchJson(`/api/uploads/${uploadId}`, { headers: steward })).body.upload as { status: string }).status).toBe('checked');
+    expect(
+      ((await server.fetchJson(`/api/uploads/${uploadId}`, { headers: steward })).body.upload as { status: string })
+        .status,
+    ).toBe('checked');
     expect(stored()).toEqual(before);
     expect(staged(uploadId)).toBe(checked.rowsAccepted);
-    const commit = () => server.fetchJson(`/api/uploads/${uploadId}/commit`, {
-      method: 'POST', headers: { ...steward, 'Content-Type': 'application/json' }, body: JSON.stringify({ excludeRejected: true }),
-    });
+    const commit = () =>
+      server.fetchJson(`/api/uploads/${uploadId}/commit`, {
+        method: 'POST',
+        headers: { ...steward, 'Content-Type': 'application/json' },
+        body: JSON.stringify({ excludeRejected: true }),
+      });
     const [a, b] = await Promise.all([commit(), commit()]);
     expect([a.status, b.status].sort()).toEqual([201, 409]);
     const again = a.status === 201 ? a : b;
     cohortVersionId = String(again.body.cohortVersionId ?? '');
-    expect(stored()).toEqual({ cohorts: before.cohorts + 1, versions: before.versions + 1, rows: before.rows + checked.rowsAccepted });
+    expect(stored()).toEqual({
+      cohorts: before.cohorts + 1,
+      versions: before.versions + 1,
+      rows: before.rows + checked.rowsAccepted,
+    });
     expect(integrity()).toEqual(CLEAN);
   });
 
@@ -154,25 +212,57 @@ describe(`SIGKILL in the middle of work (${ROWS.toLocaleString('en')} rows)`, ()
     expect(cohortVersionId).toMatch(/^[0-9a-f-]{36}$/);
     const stat = await token('statistician@demo.test');
     const created = await server.fetchJson('/api/runs', {
-      method: 'POST', headers: { ...stat, 'Content-Type': 'application/json' }, body: JSON.stringify({ scoreVersionId, cohortVersionId }),
+      method: 'POST',
+      headers: { ...stat, 'Content-Type': 'application/json' },
+      body: JSON.stringify({ scoreVersionId, cohortVersionId }),
     });
     expect(created.status, JSON.stringify(created.body)).toBeLessThan(300);
     const runId = String((created.body.run as { id?: string } | undefined)?.id ?? created.body.id);
-    await until('the run to start', () => sql(`SELECT status FROM validation_runs WHERE id = '${runId}'`), (s) => s === 'running' || s === 'completed', 120_000, 20);
+    await until(
+      'the run to start',
+      () => sql(`SELECT status FROM validation_runs WHERE id = '${runId}'`),
+      (s) => s === 'running' || s === 'completed',
+      120_000,
+      20,
+    );
     // Prefer a kill after the first progress write (the computation under way), but do not wait past a few seconds.
-    await until('progress', () => num(`SELECT CASE WHEN status = 'running' THEN progress ELSE 1 END FROM validation_runs WHERE id = '${runId}'`), (p) => p > 0, 8_000, 20).catch(() => undefined);
-    const statusAtKill = sql(`SELECT status || ' ' || round(progress::numeric, 2) || ' ' || coalesce(progress_message, '') FROM validation_runs WHERE id = '${runId}'`);
+    await until(
+      'progress',
+      () =>
+        num(`SELECT CASE WHEN status = 'running' THEN progress ELSE 1 END FROM validation_runs WHERE id = '${runId}'`),
+      (p) => p > 0,
+      8_000,
+      20,
+    ).catch(() => undefined);
+    const statusAtKill = sql(
+      `SELECT status || ' ' || round(progress::numeric, 2) || ' ' || coalesce(progress_message, '') FROM validation_runs WHERE id = '${runId}'`,
+    );
     await server.kill('SIGKILL');
     console.log(`run at kill: ${statusAtKill}`);
-    expect(statusAtKill.startsWith('running'), `the run finished before the kill (${statusAtKill}); raise PLUMBLINE_CRASH_ROWS`).toBe(true);
+    expect(
+      statusAtKill.startsWith('running'),
+      `the run finished before the kill (${statusAtKill}); raise PLUMBLINE_CRASH_ROWS`,
+    ).toBe(true);
     expect(sql(`SELECT status FROM validation_runs WHERE id = '${runId}'`)).toBe('running');
 
     await server.start();
     // The retry comes once the dead process's claim expires (attempt 2), and it is the only one.
-    const recovered = await until('the retry', () => sql(`SELECT status || ' ' || attempt FROM validation_runs WHERE id = '${runId}'`), (s) => !s.startsWith('running 1'), 600_000, 200);
+    const recovered = await until(
+      'the retry',
+      () => sql(`SELECT status || ' ' || attempt FROM validation_runs WHERE id = '${runId}'`),
+      (s) => !s.startsWith('running 1'),
+      600_000,
+      200,
+    );
     expect(recovered).toMatch(/^(running|completed) 2$/);
     expect(num(`SELECT count(*) FROM audit_log WHERE target_id = '${runId}' AND action = 'run.requeued'`)).toBe(1);
-    const final = await until('the resumed run to finish', () => sql(`SELECT status FROM validation_runs WHERE id = '${runId}'`), (s) => s === 'completed' || s === 'failed', 600_000, 500);
+    const final = await until(
+      'the resumed run to finish',
+      () => sql(`SELECT status FROM validation_runs WHERE id = '${runId}'`),
+      (s) => s === 'completed' || s === 'failed',
+      600_000,
+      500,
+    );
     console.log(`run after restart: ${recovered} → ${final}`);
     expect(final).toBe('completed');
     expect(num(`SELECT count(*) FROM audit_log WHERE target_id = '${runId}' AND action = 'run.completed'`)).toBe(1);
@@ -186,7 +276,8 @@ describe(`SIGKILL in the middle of work (${ROWS.toLocaleString('en')} rows)`, ()
     expect(chain.body.ok).toBe(true);
     // PostgreSQL's own check of the b-tree indexes of the cohort tables (amcheck, shipped with Debian's server package).
     sql('CREATE EXTENSION IF NOT EXISTS amcheck');
-    const indexes = sql(`SELECT string_agg(bt_index_check(c.oid)::text, ',') FROM pg_index i JOIN pg_class c ON c.oid = i.indexrelid JOIN pg_am a ON a.oid = c.relam
+    const indexes =
+      sql(`SELECT string_agg(bt_index_check(c.oid)::text, ',') FROM pg_index i JOIN pg_class c ON c.oid = i.indexrelid JOIN pg_am a ON a.oid = c.relam
       WHERE a.amname = 'btree' AND i.indrelid IN ('cohort_row_blocks'::regclass, 'cohort_versions'::regclass, 'validation_runs'::regclass, 'audit_log'::regclass)`);
     expect(indexes).toBeDefined();
   });

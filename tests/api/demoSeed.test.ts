@@ -21,14 +21,23 @@ describe('the demo seed', () => {
   it('was made once, with its governance acts on the record as seeded', async () => {
     const [marker] = await dataSource.query(`SELECT count(*)::int AS n FROM audit_log WHERE action = 'demo.seeded'`);
     expect(marker.n).toBe(1);
-    const acts: { action: string }[] = await dataSource.query(`SELECT action FROM audit_log WHERE source_ip = 'seed' AND action IN ('review.create', 'signature.approve') ORDER BY seq`);
+    const acts: { action: string }[] = await dataSource.query(
+      `SELECT action FROM audit_log WHERE source_ip = 'seed' AND action IN ('review.create', 'signature.approve') ORDER BY seq`,
+    );
     expect(acts.map((a) => a.action)).toEqual(['review.create', 'signature.approve', 'review.create']);
   });
 
   it('a second seed changes nothing, even with a newer unreviewed demo run and a changed chair password', async () => {
     const chairToken = await loginAs('chair@demo.test');
     const changed = `changed-by-the-chair-${Date.now()}`;
-    expect((await request(app).post('/api/auth/password').set(bearer(chairToken)).send({ currentPassword: DEMO_PASSWORD, newPassword: changed })).status).toBe(200);
+    expect(
+      (
+        await request(app)
+          .post('/api/auth/password')
+          .set(bearer(chairToken))
+          .send({ currentPassword: DEMO_PASSWORD, newPassword: changed })
+      ).status,
+    ).toBe(200);
     const [{ head }] = await dataSource.query('SELECT max(seq)::text AS head FROM audit_log');
     let extraRun = '';
     try {
@@ -38,21 +47,38 @@ describe('the demo seed', () => {
          JOIN scores s ON s.id = sv.score_id JOIN cohort_versions cv ON cv.id = r.cohort_version_id
          WHERE r.status = 'completed' AND s.name ILIKE 'Kestrel%' ORDER BY cv.period_end DESC NULLS LAST, r.created_at DESC LIMIT 1`,
       );
-      extraRun = await recordRunNow(null, newest.score_version_id, newest.cohort_version_id, runSettingsSchema.parse({ timeGrouping: 'month' }), { test: 'demo seed once' });
+      extraRun = await recordRunNow(
+        null,
+        newest.score_version_id,
+        newest.cohort_version_id,
+        runSettingsSchema.parse({ timeGrouping: 'month' }),
+        { test: 'demo seed once' },
+      );
       const before = await governanceCounts();
       await expect(seedDemo()).resolves.toBe('already has data');
       expect(await governanceCounts()).toEqual(before);
     } finally {
       // As the owner, take the extra run and its two audit entries (the newest) away again, so later files see the demo as seeded.
-      await (await ownerDataSource()).transaction(async (m) => {
+      await (
+        await ownerDataSource()
+      ).transaction(async (m) => {
         await m.query('SET LOCAL session_replication_role = replica');
         await m.query('DELETE FROM audit_checkpoints WHERE seq > $1', [head]);
         await m.query('DELETE FROM audit_log WHERE seq > $1', [head]);
         if (extraRun) await m.query('DELETE FROM validation_runs WHERE id = $1', [extraRun]);
       });
       const token = await loginAs('chair@demo.test', changed);
-      await request(app).post('/api/auth/password').set(bearer(token)).send({ currentPassword: changed, newPassword: DEMO_PASSWORD });
+      await request(app)
+        .post('/api/auth/password')
+        .set(bearer(token))
+        .send({ currentPassword: changed, newPassword: DEMO_PASSWORD });
     }
-    expect((await request(app).get('/api/audit/verify').set(bearer(await loginAs('admin@demo.test')))).body.ok).toBe(true);
+    expect(
+      (
+        await request(app)
+          .get('/api/audit/verify')
+          .set(bearer(await loginAs('admin@demo.test')))
+      ).body.ok,
+    ).toBe(true);
   });
 });

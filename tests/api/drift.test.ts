@@ -12,13 +12,21 @@ import { evaluateAlertsForRun, evaluateAlertsForVersion } from '../../server/src
 import { fitsMadeHere } from '../../server/src/domain/drift/recalibrationFit';
 import { processNextRun, recordRunNow } from '../../server/src/domain/runs/runQueue';
 import { app, bearer, dataSource, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
-import { createCohortFixture, createScoreFixture, FIXTURE_MODEL, kestrelRows, type ScoreFixture } from '../helpers/fixtures';
+import {
+  createCohortFixture,
+  createScoreFixture,
+  FIXTURE_MODEL,
+  kestrelRows,
+  type ScoreFixture,
+} from '../helpers/fixtures';
 
 useDatabase();
 
 describe('GET /api/sample-size', () => {
   it('returns n per criterion and the largest for a statistician', async () => {
-    const res = await request(app).get('/api/sample-size?eventRate=0.018&auc=0.8&ciWidthAuc=0.1&ciWidthOE=1').set(bearer(await tokenFor('statistician')));
+    const res = await request(app)
+      .get('/api/sample-size?eventRate=0.018&auc=0.8&ciWidthAuc=0.1&ciWidthOE=1')
+      .set(bearer(await tokenFor('statistician')));
     expect(res.status).toBe(200);
     const auc = res.body.criteria.find((c: { criterion: string }) => c.criterion === 'auc');
     expect(auc.n).toBe(4252); // docs/references.md [ref], Riley et al. 2021: φ = 0.018, C = 0.8, width 0.1
@@ -26,10 +34,28 @@ describe('GET /api/sample-size', () => {
   });
 
   it('refuses clinicians and anonymous callers, and bad input', async () => {
-    expect((await request(app).get('/api/sample-size?eventRate=0.018&auc=0.8&ciWidthAuc=0.1').set(bearer(await tokenFor('clinician')))).status).toBe(403);
+    expect(
+      (
+        await request(app)
+          .get('/api/sample-size?eventRate=0.018&auc=0.8&ciWidthAuc=0.1')
+          .set(bearer(await tokenFor('clinician')))
+      ).status,
+    ).toBe(403);
     expect((await request(app).get('/api/sample-size?eventRate=0.018&auc=0.8&ciWidthAuc=0.1')).status).toBe(401);
-    expect((await request(app).get('/api/sample-size?eventRate=0.018&auc=0.8').set(bearer(await tokenFor('steward')))).status).toBe(400);
-    expect((await request(app).get('/api/sample-size?eventRate=1.5&auc=0.8&ciWidthAuc=0.1').set(bearer(await tokenFor('chair')))).status).toBe(400);
+    expect(
+      (
+        await request(app)
+          .get('/api/sample-size?eventRate=0.018&auc=0.8')
+          .set(bearer(await tokenFor('steward')))
+      ).status,
+    ).toBe(400);
+    expect(
+      (
+        await request(app)
+          .get('/api/sample-size?eventRate=1.5&auc=0.8&ciWidthAuc=0.1')
+          .set(bearer(await tokenFor('chair')))
+      ).status,
+    ).toBe(400);
   });
 });
 
@@ -91,11 +117,32 @@ describe('drift timeline, alert rules and recalibration', () => {
       expect(res.status).toBe(201);
       expect(res.body.rule).toMatchObject({ kind: body.kind, enabled: true });
     }
-    expect((await request(app).post(`/api/scores/${score.scoreId}/alert-rules`).set(bearer(await tokenFor('chair'))).send({ kind: 'cusum', params: {} })).status).toBe(403);
-    expect((await request(app).post(`/api/scores/${score.scoreId}/alert-rules`).set(stat).send({ kind: 'sometimes', params: {} })).status).toBe(400);
-    const list = await request(app).get(`/api/scores/${score.scoreId}/alert-rules`).set(bearer(await tokenFor('chair')));
+    expect(
+      (
+        await request(app)
+          .post(`/api/scores/${score.scoreId}/alert-rules`)
+          .set(bearer(await tokenFor('chair')))
+          .send({ kind: 'cusum', params: {} })
+      ).status,
+    ).toBe(403);
+    expect(
+      (
+        await request(app)
+          .post(`/api/scores/${score.scoreId}/alert-rules`)
+          .set(stat)
+          .send({ kind: 'sometimes', params: {} })
+      ).status,
+    ).toBe(400);
+    const list = await request(app)
+      .get(`/api/scores/${score.scoreId}/alert-rules`)
+      .set(bearer(await tokenFor('chair')));
     expect(list.status).toBe(200);
-    expect(list.body.rules.map((r: { kind: string }) => r.kind).sort()).toEqual(['auc-below', 'citl-consecutive', 'cusum', 'oe-limit']);
+    expect(list.body.rules.map((r: { kind: string }) => r.kind).sort()).toEqual([
+      'auc-below',
+      'citl-consecutive',
+      'cusum',
+      'oe-limit',
+    ]);
   });
 
   it('raises alerts on the miscalibrated periods once, and e-mails the statisticians', async () => {
@@ -117,12 +164,17 @@ describe('drift timeline, alert rules and recalibration', () => {
     expect(mails).toHaveLength(1);
     expect(mails[0].recipients).toContain('statistician@demo.test');
     expect(mails[0].text).toContain('oe-limit');
-    const audit: unknown[] = await dataSource.query(`SELECT 1 FROM audit_log WHERE action = 'drift_alert.raised' AND target_id = $1`, [raised[0].id]);
+    const audit: unknown[] = await dataSource.query(
+      `SELECT 1 FROM audit_log WHERE action = 'drift_alert.raised' AND target_id = $1`,
+      [raised[0].id],
+    );
     expect(audit.length).toBeGreaterThan(0);
   });
 
   it('returns the drift timeline with funnel limits, CUSUM and O − E checked by hand', async () => {
-    const res = await request(app).get(`/api/scores/${score.scoreId}/versions/1/drift`).set(bearer(await tokenFor('steward')));
+    const res = await request(app)
+      .get(`/api/scores/${score.scoreId}/versions/1/drift`)
+      .set(bearer(await tokenFor('steward')));
     expect(res.status).toBe(200);
     const body = res.body as DriftResponse;
     expect(body.versionId).toBe(score.scoreVersionId);
@@ -169,8 +221,20 @@ describe('drift timeline, alert rules and recalibration', () => {
     expect(body.alerts.length).toBeGreaterThanOrEqual(3);
     expect(body.alerts[0]).toMatchObject({ scoreId: score.scoreId, version: 1, acknowledgedAt: null });
 
-    expect((await request(app).get(`/api/scores/${score.scoreId}/versions/1/drift`).set(bearer(await tokenFor('clinician')))).status).toBe(403);
-    expect((await request(app).get(`/api/scores/${score.scoreId}/versions/9/drift`).set(bearer(await tokenFor('statistician')))).status).toBe(404);
+    expect(
+      (
+        await request(app)
+          .get(`/api/scores/${score.scoreId}/versions/1/drift`)
+          .set(bearer(await tokenFor('clinician')))
+      ).status,
+    ).toBe(403);
+    expect(
+      (
+        await request(app)
+          .get(`/api/scores/${score.scoreId}/versions/9/drift`)
+          .set(bearer(await tokenFor('statistician')))
+      ).status,
+    ).toBe(404);
   });
 
   it('reads per-patient series stored with each run (immutable), and works one out in the run thread where none is stored', async () => {
@@ -178,9 +242,15 @@ describe('drift timeline, alert rules and recalibration', () => {
       'SELECT cohort_version_id, run_id, n FROM drift_series WHERE score_version_id = $1 ORDER BY n, cohort_version_id',
       [score.scoreVersionId],
     );
-    expect(stored.map((r) => [r.cohort_version_id, r.run_id, r.n]).sort()).toEqual(cohortVersionIds.map((id, k) => [id, runIds[k], 1500]).sort());
+    expect(stored.map((r) => [r.cohort_version_id, r.run_id, r.n]).sort()).toEqual(
+      cohortVersionIds.map((id, k) => [id, runIds[k], 1500]).sort(),
+    );
     // The runtime role has no grant to change them, and the owner meets the trigger.
-    await refusedTwice('UPDATE drift_series SET variance = 0 WHERE score_version_id = $1', [score.scoreVersionId], /not allowed/);
+    await refusedTwice(
+      'UPDATE drift_series SET variance = 0 WHERE score_version_id = $1',
+      [score.scoreVersionId],
+      /not allowed/,
+    );
     await refusedTwice('DELETE FROM drift_series WHERE score_version_id = $1', [score.scoreVersionId], /not allowed/);
 
     // The same formula as another score, with a completed run inserted straight into the table (as a run stored before
@@ -192,45 +262,107 @@ describe('drift timeline, alert rules and recalibration', () => {
        FROM validation_runs WHERE id = $2`,
       [other.scoreVersionId, runIds[0]],
     );
-    expect(await dataSource.query('SELECT 1 FROM drift_series WHERE score_version_id = $1', [other.scoreVersionId])).toHaveLength(0);
-    const res = await request(app).get(`/api/scores/${other.scoreId}/versions/1/drift`).set(bearer(await tokenFor('statistician')));
+    expect(
+      await dataSource.query('SELECT 1 FROM drift_series WHERE score_version_id = $1', [other.scoreVersionId]),
+    ).toHaveLength(0);
+    const res = await request(app)
+      .get(`/api/scores/${other.scoreId}/versions/1/drift`)
+      .set(bearer(await tokenFor('statistician')));
     expect(res.status).toBe(200);
-    const mine = (await request(app).get(`/api/scores/${score.scoreId}/versions/1/drift`).set(bearer(await tokenFor('statistician')))).body as DriftResponse;
+    const mine = (
+      await request(app)
+        .get(`/api/scores/${score.scoreId}/versions/1/drift`)
+        .set(bearer(await tokenFor('statistician')))
+    ).body as DriftResponse;
     expect((res.body as DriftResponse).periods[0].funnel).toEqual(mine.periods[0].funnel);
-    const made: { run_id: string | null; n: number }[] = await dataSource.query('SELECT run_id, n FROM drift_series WHERE score_version_id = $1', [other.scoreVersionId]);
+    const made: { run_id: string | null; n: number }[] = await dataSource.query(
+      'SELECT run_id, n FROM drift_series WHERE score_version_id = $1',
+      [other.scoreVersionId],
+    );
     expect(made).toEqual([{ run_id: null, n: 1500 }]);
   });
 
   it('lists alerts for statistician, chair and admin only, and acknowledges each once', async () => {
-    for (const role of ['steward', 'clinician'] as const) expect((await request(app).get('/api/alerts').set(bearer(await tokenFor(role)))).status).toBe(403);
-    const list = await request(app).get('/api/alerts').set(bearer(await tokenFor('admin')));
+    for (const role of ['steward', 'clinician'] as const)
+      expect(
+        (
+          await request(app)
+            .get('/api/alerts')
+            .set(bearer(await tokenFor(role)))
+        ).status,
+      ).toBe(403);
+    const list = await request(app)
+      .get('/api/alerts')
+      .set(bearer(await tokenFor('admin')));
     expect(list.status).toBe(200);
     const mine = (list.body.alerts as AlertView[]).filter((a) => a.scoreId === score.scoreId);
     expect(mine.length).toBeGreaterThanOrEqual(3);
     const target = mine.find((a) => a.ruleKind === 'oe-limit')!;
     expect(target.message).toMatch(/outside the 99\.8% limits/);
 
-    expect((await request(app).post(`/api/alerts/${target.id}/acknowledge`).set(bearer(await tokenFor('steward'))).send({ note: 'seen' })).status).toBe(403);
-    expect((await request(app).post(`/api/alerts/${target.id}/acknowledge`).set(bearer(await tokenFor('chair'))).send({ note: '' })).status).toBe(400);
-    const ack = await request(app).post(`/api/alerts/${target.id}/acknowledge`).set(bearer(await tokenFor('chair'))).send({ note: 'Case-mix change on Cedar unit; recalibration proposed.' });
+    expect(
+      (
+        await request(app)
+          .post(`/api/alerts/${target.id}/acknowledge`)
+          .set(bearer(await tokenFor('steward')))
+          .send({ note: 'seen' })
+      ).status,
+    ).toBe(403);
+    expect(
+      (
+        await request(app)
+          .post(`/api/alerts/${target.id}/acknowledge`)
+          .set(bearer(await tokenFor('chair')))
+          .send({ note: '' })
+      ).status,
+    ).toBe(400);
+    const ack = await request(app)
+      .post(`/api/alerts/${target.id}/acknowledge`)
+      .set(bearer(await tokenFor('chair')))
+      .send({ note: 'Case-mix change on Cedar unit; recalibration proposed.' });
     expect(ack.status).toBe(200);
-    expect(ack.body.alert).toMatchObject({ id: target.id, ackNote: 'Case-mix change on Cedar unit; recalibration proposed.' });
+    expect(ack.body.alert).toMatchObject({
+      id: target.id,
+      ackNote: 'Case-mix change on Cedar unit; recalibration proposed.',
+    });
     expect(ack.body.alert.acknowledgedAt).toBeTruthy();
     expect(ack.body.alert.acknowledgedBy).toBeTruthy();
-    const again = await request(app).post(`/api/alerts/${target.id}/acknowledge`).set(bearer(await tokenFor('statistician'))).send({ note: 'again' });
+    const again = await request(app)
+      .post(`/api/alerts/${target.id}/acknowledge`)
+      .set(bearer(await tokenFor('statistician')))
+      .send({ note: 'again' });
     expect(again.status).toBe(409);
-    expect((await request(app).post('/api/alerts/00000000-0000-4000-8000-000000000000/acknowledge').set(bearer(await tokenFor('chair'))).send({ note: 'x' })).status).toBe(404);
+    expect(
+      (
+        await request(app)
+          .post('/api/alerts/00000000-0000-4000-8000-000000000000/acknowledge')
+          .set(bearer(await tokenFor('chair')))
+          .send({ note: 'x' })
+      ).status,
+    ).toBe(404);
   });
 
   it('recalibrates a completed run into a draft version whose formula reproduces the recalibrated predictions', async () => {
     const runId = runIds[2];
     for (const role of ['steward', 'chair', 'admin', 'clinician'] as const)
-      expect((await request(app).post(`/api/runs/${runId}/recalibrate`).set(bearer(await tokenFor(role))).send({ method: 'logistic' })).status).toBe(403);
+      expect(
+        (
+          await request(app)
+            .post(`/api/runs/${runId}/recalibrate`)
+            .set(bearer(await tokenFor(role)))
+            .send({ method: 'logistic' })
+        ).status,
+      ).toBe(403);
     const stat = bearer(await tokenFor('statistician'));
-    expect((await request(app).post(`/api/runs/${runId}/recalibrate`).set(stat).send({ method: 'cubic' })).status).toBe(400);
+    expect((await request(app).post(`/api/runs/${runId}/recalibrate`).set(stat).send({ method: 'cubic' })).status).toBe(
+      400,
+    );
 
     const fitsBefore = fitsMadeHere();
-    const preview = await request(app).post(`/api/runs/${runId}/recalibration-preview`).set(stat).send({ method: 'closed-test' });
+    const preview = await request(app)
+      .post(`/api/runs/${runId}/recalibration-preview`)
+      .set(stat)
+      .send({ method: 'closed-test' });
     expect(preview.status).toBe(200);
     expect(fitsMadeHere(), 'the preview was fitted on the API thread, not in the pool').toBe(fitsBefore);
     // A pure shift of +0.9 on the logit scale: closed testing rejects "original" and keeps the intercept update
@@ -238,11 +370,15 @@ describe('drift timeline, alert rules and recalibration', () => {
     expect(preview.body.derivation.chosen).not.toBe('original');
     expect(preview.body.derivation.lrTests[0].pValue).toBeLessThan(0.001);
 
-    const before = Number((await dataSource.query('SELECT count(*) AS n FROM score_versions WHERE score_id = $1', [score.scoreId]))[0].n);
+    const before = Number(
+      (await dataSource.query('SELECT count(*) AS n FROM score_versions WHERE score_id = $1', [score.scoreId]))[0].n,
+    );
     const res = await request(app).post(`/api/runs/${runId}/recalibrate`).set(stat).send({ method: 'logistic' });
     expect(res.status).toBe(201);
     expect(fitsMadeHere(), 'the proposal was fitted on the API thread, not in the pool').toBe(fitsBefore);
-    expect(res.body.banner).toBe('Draft: this recalibrated version must be validated on different data (a later period) and signed off before clinical use.');
+    expect(res.body.banner).toBe(
+      'Draft: this recalibrated version must be validated on different data (a later period) and signed off before clinical use.',
+    );
     const v = res.body.version;
     expect(v).toMatchObject({ scoreId: score.scoreId, version: before + 1, derivedFromRunId: runId });
     const d = res.body.derivation as Derivation;
@@ -253,7 +389,9 @@ describe('drift timeline, alert rules and recalibration', () => {
     expect(d.slope!.lower).toBeLessThan(1);
     expect(d.slope!.upper).toBeGreaterThan(1);
     // The intercept update alone (lp as offset) recovers the shift of 0.9 within its CI too.
-    const shift = (await request(app).post(`/api/runs/${runId}/recalibration-preview`).set(stat).send({ method: 'intercept' })).body.derivation as Derivation;
+    const shift = (
+      await request(app).post(`/api/runs/${runId}/recalibration-preview`).set(stat).send({ method: 'intercept' })
+    ).body.derivation as Derivation;
     expect(shift.slope).toBeNull();
     expect(shift.intercept.lower).toBeLessThan(0.9);
     expect(shift.intercept.upper).toBeGreaterThan(0.9);
@@ -270,17 +408,21 @@ describe('drift timeline, alert rules and recalibration', () => {
     const csv = join(dir, 'lp.csv');
     writeFileSync(csv, periods[2].map((r) => `${lpOf(FIXTURE_MODEL, r)},${r.outcome}`).join('\n'));
     const py = `import numpy as np, statsmodels.api as sm\nd=np.loadtxt('${csv}',delimiter=',')\nm=sm.Logit(d[:,1],sm.add_constant(d[:,0])).fit(disp=0,tol=1e-12)\nprint(m.params[0],m.params[1],m.bse[0],m.bse[1])`;
-    const [sa, sb, sea, seb] = execFileSync('/usr/bin/python3', ['-c', py], { encoding: 'utf8' }).trim().split(/\s+/).map(Number);
+    const [sa, sb, sea, seb] = execFileSync('/usr/bin/python3', ['-c', py], { encoding: 'utf8' })
+      .trim()
+      .split(/\s+/)
+      .map(Number);
     rmSync(dir, { recursive: true, force: true });
     expect(a).toBeCloseTo(sa, 6);
     expect(b).toBeCloseTo(sb, 6);
     expect((d.intercept.upper - d.intercept.lower) / (2 * 1.959963984540054)).toBeCloseTo(sea, 5);
     expect((d.slope!.upper - d.slope!.lower) / (2 * 1.959963984540054)).toBeCloseTo(seb, 5);
 
-    const stored: { derived_from_run_id: string; derivation: { method: string } | null; clinical_status: string }[] = await dataSource.query(
-      'SELECT derived_from_run_id, derivation, clinical_status FROM score_versions WHERE id = $1',
-      [v.id],
-    );
+    const stored: { derived_from_run_id: string; derivation: { method: string } | null; clinical_status: string }[] =
+      await dataSource.query(
+        'SELECT derived_from_run_id, derivation, clinical_status FROM score_versions WHERE id = $1',
+        [v.id],
+      );
     expect(stored[0]).toMatchObject({ derived_from_run_id: runId, clinical_status: 'not approved' });
     expect(stored[0].derivation?.method).toBe('logistic');
   });
@@ -288,11 +430,16 @@ describe('drift timeline, alert rules and recalibration', () => {
   it('evaluates the rules when the run worker completes a new run of the version', async () => {
     const rows = shiftMonths(kestrelRows(1500, 104, { logitShift: 1.0, months: 3 }), 9);
     const cohort = await createCohortFixture(rows, { label: 'P4' });
-    const res = await request(app).post('/api/runs').set(bearer(await tokenFor('statistician'))).send({ scoreVersionId: score.scoreVersionId, cohortVersionId: cohort.cohortVersionId });
+    const res = await request(app)
+      .post('/api/runs')
+      .set(bearer(await tokenFor('statistician')))
+      .send({ scoreVersionId: score.scoreVersionId, cohortVersionId: cohort.cohortVersionId });
     expect(res.status).toBe(201);
     const runId: string = res.body.run.id;
     for (let k = 0; k < 20; k++) {
-      const done: { status: string }[] = await dataSource.query('SELECT status FROM validation_runs WHERE id = $1', [runId]);
+      const done: { status: string }[] = await dataSource.query('SELECT status FROM validation_runs WHERE id = $1', [
+        runId,
+      ]);
       if (done[0].status === 'completed') break;
       await processNextRun();
     }
@@ -305,12 +452,30 @@ describe('drift timeline, alert rules and recalibration', () => {
 
   it('refuses recalibration of a supplied-probability version clearly (409)', async () => {
     const supplied = await createScoreFixture({ mode: 'supplied', probabilityColumn: 'risk' });
-    const rows = kestrelRows(400, 7).map((r) => ({ ...r, predictors: { risk: Math.round(expit(lpOf(FIXTURE_MODEL, r)) * 1000) / 1000 } }));
+    const rows = kestrelRows(400, 7).map((r) => ({
+      ...r,
+      predictors: { risk: Math.round(expit(lpOf(FIXTURE_MODEL, r)) * 1000) / 1000 },
+    }));
     const cohort = await createCohortFixture(rows);
-    const runId = await recordRunNow(null, supplied.scoreVersionId, cohort.cohortVersionId, runSettingsSchema.parse({}));
-    const res = await request(app).post(`/api/runs/${runId}/recalibrate`).set(bearer(await tokenFor('statistician'))).send({ method: 'intercept' });
+    const runId = await recordRunNow(
+      null,
+      supplied.scoreVersionId,
+      cohort.cohortVersionId,
+      runSettingsSchema.parse({}),
+    );
+    const res = await request(app)
+      .post(`/api/runs/${runId}/recalibrate`)
+      .set(bearer(await tokenFor('statistician')))
+      .send({ method: 'intercept' });
     expect(res.status).toBe(409);
     expect(res.body.error).toMatch(/supplied probabilities/);
-    expect((await request(app).post('/api/runs/00000000-0000-4000-8000-000000000000/recalibrate').set(bearer(await tokenFor('statistician'))).send({ method: 'intercept' })).status).toBe(404);
+    expect(
+      (
+        await request(app)
+          .post('/api/runs/00000000-0000-4000-8000-000000000000/recalibrate')
+          .set(bearer(await tokenFor('statistician')))
+          .send({ method: 'intercept' })
+      ).status,
+    ).toBe(404);
   });
 });

@@ -25,20 +25,46 @@ const runs: Record<'q1first' | 'q1again' | 'q2' | 'h2', string> = { q1first: '',
 const sizes = { q1: 300, q2: 250, h2: 400 };
 
 const timeline = async (): Promise<DriftResponse> => {
-  const res = await request(app).get(`/api/scores/${score.scoreId}/versions/1/drift`).set(bearer(await tokenFor('statistician')));
+  const res = await request(app)
+    .get(`/api/scores/${score.scoreId}/versions/1/drift`)
+    .set(bearer(await tokenFor('statistician')));
   expect(res.status).toBe(200);
   return res.body as DriftResponse;
 };
-const choose = async (body: { cohortVersionId: string; runId: string | null }, role: 'statistician' | 'chair' | 'steward' = 'statistician') =>
-  request(app).put(`/api/scores/${score.scoreId}/versions/1/drift/runs`).set(bearer(await tokenFor(role))).send(body);
+const choose = async (
+  body: { cohortVersionId: string; runId: string | null },
+  role: 'statistician' | 'chair' | 'steward' = 'statistician',
+) =>
+  request(app)
+    .put(`/api/scores/${score.scoreId}/versions/1/drift/runs`)
+    .set(bearer(await tokenFor(role)))
+    .send(body);
 
 beforeAll(async () => {
   score = await createScoreFixture({ name: `Drift runs fixture ${Date.now()}` });
   const settings = runSettingsSchema.parse({});
   // Stored out of period order on purpose: the half-year first, then Q2, then Q1.
-  cv.h2 = (await createCohortFixture(datedFrom(kestrelRows(sizes.h2, 31, { months: 6 }), 6), { label: 'second half', periodStart: '2024-07-01', periodEnd: '2024-12-31' })).cohortVersionId;
-  cv.q2 = (await createCohortFixture(datedFrom(kestrelRows(sizes.q2, 32, { months: 3 }), 3), { label: 'spring', periodStart: '2024-04-01', periodEnd: '2024-06-30' })).cohortVersionId;
-  cv.q1 = (await createCohortFixture(kestrelRows(sizes.q1, 33, { months: 3 }), { label: 'winter', periodStart: '2024-01-01', periodEnd: '2024-03-31' })).cohortVersionId;
+  cv.h2 = (
+    await createCohortFixture(datedFrom(kestrelRows(sizes.h2, 31, { months: 6 }), 6), {
+      label: 'second half',
+      periodStart: '2024-07-01',
+      periodEnd: '2024-12-31',
+    })
+  ).cohortVersionId;
+  cv.q2 = (
+    await createCohortFixture(datedFrom(kestrelRows(sizes.q2, 32, { months: 3 }), 3), {
+      label: 'spring',
+      periodStart: '2024-04-01',
+      periodEnd: '2024-06-30',
+    })
+  ).cohortVersionId;
+  cv.q1 = (
+    await createCohortFixture(kestrelRows(sizes.q1, 33, { months: 3 }), {
+      label: 'winter',
+      periodStart: '2024-01-01',
+      periodEnd: '2024-03-31',
+    })
+  ).cohortVersionId;
   runs.q1first = await recordRunNow(null, score.scoreVersionId, cv.q1, settings);
   runs.h2 = await recordRunNow(null, score.scoreVersionId, cv.h2, settings);
   runs.q2 = await recordRunNow(null, score.scoreVersionId, cv.q2, settings);
@@ -51,8 +77,11 @@ describe('drift timeline: one run per cohort version', () => {
     const body = await timeline();
     expect(body.periods.map((p) => p.cohortVersionId)).toEqual([cv.q1, cv.q2, cv.h2]);
     expect(body.periods.map((p) => p.runId)).toEqual([runs.q1again, runs.q2, runs.h2]);
-    expect(body.periods[0]).toMatchObject({ runChoice: "newest", otherRuns: 1, runNumber: 4 });
-    expect(body.periods[0].runsOfCohortVersion.map((r) => [r.runId, r.runNumber])).toEqual([[runs.q1first, 1], [runs.q1again, 4]]);
+    expect(body.periods[0]).toMatchObject({ runChoice: 'newest', otherRuns: 1, runNumber: 4 });
+    expect(body.periods[0].runsOfCohortVersion.map((r) => [r.runId, r.runNumber])).toEqual([
+      [runs.q1first, 1],
+      [runs.q1again, 4],
+    ]);
     expect(body.periods[1]).toMatchObject({ runChoice: 'newest', otherRuns: 0, runNumber: 3 });
     expect(body.periods.map((p) => p.period)).toEqual([
       { label: '2024-Q1', kind: 'quarter', months: 3 },
@@ -86,7 +115,10 @@ describe('drift timeline: one run per cohort version', () => {
     let body = await timeline();
     expect(body.periods.map((p) => p.runId)).toEqual([runs.q1first, runs.q2, runs.h2]);
     expect(body.periods[0]).toMatchObject({ runChoice: 'chosen', otherRuns: 1, runNumber: 1 });
-    const [stored] = await dataSource.query('SELECT run_id FROM drift_run_choices WHERE score_version_id = $1 AND cohort_version_id = $2', [score.scoreVersionId, cv.q1]);
+    const [stored] = await dataSource.query(
+      'SELECT run_id FROM drift_run_choices WHERE score_version_id = $1 AND cohort_version_id = $2',
+      [score.scoreVersionId, cv.q1],
+    );
     expect(stored.run_id).toBe(runs.q1first);
     const audit: { details: Record<string, unknown> }[] = await dataSource.query(
       `SELECT details FROM audit_log WHERE action = 'drift.run.chosen' AND target_id = $1 ORDER BY seq`,

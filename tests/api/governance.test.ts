@@ -10,7 +10,17 @@ import { verifyAuditChain } from '../../server/src/domain/accounts/audit';
 import { clearReceived, receivedMessages, startFakeSmtp } from '../../server/src/platform/mail/fakeSmtp';
 import type { JobHandler } from '../../server/src/jobs/queue';
 import { mailJob, queueEmail, sendPendingOnce } from '../../server/src/domain/notifications/mail';
-import { app, bearer, dataSource, DEMO_PASSWORD, loginAs, refusedTwice, tokenFor, uniqueEmail, useDatabase } from '../helpers/api';
+import {
+  app,
+  bearer,
+  dataSource,
+  DEMO_PASSWORD,
+  loginAs,
+  refusedTwice,
+  tokenFor,
+  uniqueEmail,
+  useDatabase,
+} from '../helpers/api';
 import { createCohortFixture, createScoreFixture, kestrelRows, type ScoreFixture } from '../helpers/fixtures';
 
 useDatabase();
@@ -39,7 +49,11 @@ function fakeResults(n: number, events: number) {
   };
 }
 
-async function insertRun(scoreVersionId: string, cohortVersionId: string, status: 'completed' | 'queued' = 'completed'): Promise<string> {
+async function insertRun(
+  scoreVersionId: string,
+  cohortVersionId: string,
+  status: 'completed' | 'queued' = 'completed',
+): Promise<string> {
   const results = status === 'completed' ? fakeResults(400, 60) : null;
   const sha = (s: string) => createHash('sha256').update(s).digest('hex');
   const rows: { id: string }[] = await dataSource.query(
@@ -74,19 +88,30 @@ const as = async (role: Parameters<typeof tokenFor>[0]) => bearer(await tokenFor
 
 async function createAccount(role: string, name: string): Promise<{ id: string; email: string }> {
   const email = uniqueEmail(role);
-  const res = await request(app).post('/api/users').set(await as('admin')).send({ email, name, role, password: DEMO_PASSWORD });
+  const res = await request(app)
+    .post('/api/users')
+    .set(await as('admin'))
+    .send({ email, name, role, password: DEMO_PASSWORD });
   expect(res.status).toBe(201);
   return { id: res.body.id ?? res.body.user?.id, email };
 }
 
-const governanceOf = async (runId: string, role: Parameters<typeof tokenFor>[0] = 'statistician'): Promise<RunGovernanceView> => {
-  const res = await request(app).get(`/api/runs/${runId}/review`).set(await as(role));
+const governanceOf = async (
+  runId: string,
+  role: Parameters<typeof tokenFor>[0] = 'statistician',
+): Promise<RunGovernanceView> => {
+  const res = await request(app)
+    .get(`/api/runs/${runId}/review`)
+    .set(await as(role));
   expect(res.status).toBe(200);
   return res.body as RunGovernanceView;
 };
 
 const outboxFor = async (kind: string, runTitlePart: string) =>
-  (await dataSource.query(`SELECT recipients, subject FROM email_outbox WHERE kind = $1 AND subject LIKE $2`, [kind, `%${runTitlePart}%`])) as {
+  (await dataSource.query(`SELECT recipients, subject FROM email_outbox WHERE kind = $1 AND subject LIKE $2`, [
+    kind,
+    `%${runTitlePart}%`,
+  ])) as {
     recipients: string[];
     subject: string;
   }[];
@@ -109,25 +134,38 @@ beforeAll(async () => {
 afterAll(async () => {
   if (stopSmtp) await stopSmtp();
   // Leave no queued fixture run for the next file's queue worker.
-  await dataSource.query(`DELETE FROM validation_runs WHERE id = $1 AND status = 'queued'`, [runQueued]).catch(() => undefined);
+  await dataSource
+    .query(`DELETE FROM validation_runs WHERE id = $1 AND status = 'queued'`, [runQueued])
+    .catch(() => undefined);
 });
 
 describe('statistician review', () => {
   it('is refused to every role but the statistician', async () => {
     for (const role of ['steward', 'chair', 'clinician', 'admin'] as const) {
-      const res = await request(app).post(`/api/runs/${runA}/review`).set(await as(role)).send({ verdict: 'fit for use', reasoning: 'looks fine' });
+      const res = await request(app)
+        .post(`/api/runs/${runA}/review`)
+        .set(await as(role))
+        .send({ verdict: 'fit for use', reasoning: 'looks fine' });
       expect(res.status, role).toBe(403);
     }
   });
 
   it('needs a verdict from the list and a reasoning', async () => {
     const h = await as('statistician');
-    expect((await request(app).post(`/api/runs/${runA}/review`).set(h).send({ verdict: 'fit for use', reasoning: '   ' })).status).toBe(400);
-    expect((await request(app).post(`/api/runs/${runA}/review`).set(h).send({ verdict: 'great', reasoning: 'x' })).status).toBe(400);
+    expect(
+      (await request(app).post(`/api/runs/${runA}/review`).set(h).send({ verdict: 'fit for use', reasoning: '   ' }))
+        .status,
+    ).toBe(400);
+    expect(
+      (await request(app).post(`/api/runs/${runA}/review`).set(h).send({ verdict: 'great', reasoning: 'x' })).status,
+    ).toBe(400);
   });
 
   it('is refused on a run that has not completed', async () => {
-    const res = await request(app).post(`/api/runs/${runQueued}/review`).set(await as('statistician')).send({ verdict: 'fit for use', reasoning: 'too early' });
+    const res = await request(app)
+      .post(`/api/runs/${runQueued}/review`)
+      .set(await as('statistician'))
+      .send({ verdict: 'fit for use', reasoning: 'too early' });
     expect(res.status).toBe(409);
     expect(res.body.error).toMatch(/completed/);
   });
@@ -144,10 +182,18 @@ describe('statistician review', () => {
     expect(g.can.review).toBe(true);
     const mails = await outboxFor('review.awaiting_signoff', '');
     expect(mails.some((m) => m.recipients.includes('chair@demo.test'))).toBe(true);
-    const queue = await request(app).get('/api/signoff-queue').set(await as('chair'));
+    const queue = await request(app)
+      .get('/api/signoff-queue')
+      .set(await as('chair'));
     expect(queue.status).toBe(200);
     expect(queue.body.some((q: { runId: string }) => q.runId === runA)).toBe(true);
-    expect((await request(app).get('/api/signoff-queue').set(await as('statistician'))).status).toBe(403);
+    expect(
+      (
+        await request(app)
+          .get('/api/signoff-queue')
+          .set(await as('statistician'))
+      ).status,
+    ).toBe(403);
   });
 
   it('is superseded by a revision while the old review stays visible', async () => {
@@ -164,10 +210,14 @@ describe('statistician review', () => {
   });
 
   it('cannot be edited or deleted by direct SQL, nor its superseded link moved', async () => {
-    const [old] = await dataSource.query(`SELECT id FROM run_reviews WHERE run_id = $1 AND superseded_by IS NOT NULL`, [runA]);
+    const [old] = await dataSource.query(`SELECT id FROM run_reviews WHERE run_id = $1 AND superseded_by IS NOT NULL`, [
+      runA,
+    ]);
     await refusedTwice(`UPDATE run_reviews SET reasoning = 'changed' WHERE run_id = $1`, [runA], /immutable/);
     // The API may set the superseded link (its one column grant), so only the trigger stands in the way of moving it.
-    await expect(dataSource.query(`UPDATE run_reviews SET superseded_by = NULL WHERE id = $1`, [old.id])).rejects.toThrow(/immutable/);
+    await expect(
+      dataSource.query(`UPDATE run_reviews SET superseded_by = NULL WHERE id = $1`, [old.id]),
+    ).rejects.toThrow(/immutable/);
     await refusedTwice(`DELETE FROM run_reviews WHERE run_id = $1`, [runA], /append-only/);
   });
 });
@@ -175,36 +225,58 @@ describe('statistician review', () => {
 describe('chair sign-off', () => {
   it('is refused to every role but the chair', async () => {
     for (const role of ['steward', 'statistician', 'clinician', 'admin'] as const) {
-      const res = await request(app).post(`/api/runs/${runA}/signoff`).set(await as(role)).send({ decision: 'approve', password: DEMO_PASSWORD });
+      const res = await request(app)
+        .post(`/api/runs/${runA}/signoff`)
+        .set(await as(role))
+        .send({ decision: 'approve', password: DEMO_PASSWORD });
       expect(res.status, role).toBe(403);
     }
   });
 
   it('needs the password re-entered, and a wrong one records nothing', async () => {
     const h = await as('chair');
-    expect((await request(app).post(`/api/runs/${runA}/signoff`).set(h).send({ decision: 'approve' })).status).toBe(400);
-    const wrong = await request(app).post(`/api/runs/${runA}/signoff`).set(h).send({ decision: 'approve', password: 'not-the-password' });
+    expect((await request(app).post(`/api/runs/${runA}/signoff`).set(h).send({ decision: 'approve' })).status).toBe(
+      400,
+    );
+    const wrong = await request(app)
+      .post(`/api/runs/${runA}/signoff`)
+      .set(h)
+      .send({ decision: 'approve', password: 'not-the-password' });
     expect(wrong.status).toBe(403);
     expect(wrong.body.error).toMatch(/password/);
     const [{ n }] = await dataSource.query(`SELECT count(*)::int AS n FROM signatures WHERE run_id = $1`, [runA]);
     expect(n).toBe(0);
-    const [failed] = await dataSource.query(`SELECT count(*)::int AS n FROM audit_log WHERE action = 'signature.password_failed' AND target_id = $1`, [runA]);
+    const [failed] = await dataSource.query(
+      `SELECT count(*)::int AS n FROM audit_log WHERE action = 'signature.password_failed' AND target_id = $1`,
+      [runA],
+    );
     expect(failed.n).toBeGreaterThan(0);
   });
 
   it('is refused on a run without a review', async () => {
-    const res = await request(app).post(`/api/runs/${runOther}/signoff`).set(await as('chair')).send({ decision: 'approve', password: DEMO_PASSWORD });
+    const res = await request(app)
+      .post(`/api/runs/${runOther}/signoff`)
+      .set(await as('chair'))
+      .send({ decision: 'approve', password: DEMO_PASSWORD });
     expect(res.status).toBe(409);
     expect(res.body.error).toMatch(/no review/);
   });
 
   it('a return needs a reason, then sends the run back to the statistician', async () => {
     const h = await as('chair');
-    expect((await request(app).post(`/api/runs/${runA}/signoff`).set(h).send({ decision: 'return', password: DEMO_PASSWORD })).status).toBe(400);
-    const res = await request(app)
-      .post(`/api/runs/${runA}/signoff`)
-      .set(h)
-      .send({ decision: 'return', password: DEMO_PASSWORD, reason: 'Please add the subgroup results for the North annex.' });
+    expect(
+      (
+        await request(app)
+          .post(`/api/runs/${runA}/signoff`)
+          .set(h)
+          .send({ decision: 'return', password: DEMO_PASSWORD })
+      ).status,
+    ).toBe(400);
+    const res = await request(app).post(`/api/runs/${runA}/signoff`).set(h).send({
+      decision: 'return',
+      password: DEMO_PASSWORD,
+      reason: 'Please add the subgroup results for the North annex.',
+    });
     expect(res.status).toBe(201);
     const sig = res.body as SignatureView;
     expect(sig.meaning).toBe('return to statistician');
@@ -212,27 +284,47 @@ describe('chair sign-off', () => {
     expect(sig.role).toBe('chair');
     expect(sig.linkVerified).toBe(true);
     // The same review cannot be decided twice.
-    const again = await request(app).post(`/api/runs/${runA}/signoff`).set(h).send({ decision: 'approve', password: DEMO_PASSWORD });
+    const again = await request(app)
+      .post(`/api/runs/${runA}/signoff`)
+      .set(h)
+      .send({ decision: 'approve', password: DEMO_PASSWORD });
     expect(again.status).toBe(409);
     const queue = await request(app).get('/api/signoff-queue').set(h);
     expect(queue.body.some((q: { runId: string }) => q.runId === runA)).toBe(false);
     const mails = await outboxFor('decision.returned', '');
-    expect(mails.some((m) => m.recipients.includes('steward@demo.test') && m.recipients.includes('statistician@demo.test'))).toBe(true);
-    const [{ status }] = await dataSource.query(`SELECT clinical_status AS status FROM score_versions WHERE id = $1`, [score.scoreVersionId]);
+    expect(
+      mails.some((m) => m.recipients.includes('steward@demo.test') && m.recipients.includes('statistician@demo.test')),
+    ).toBe(true);
+    const [{ status }] = await dataSource.query(`SELECT clinical_status AS status FROM score_versions WHERE id = $1`, [
+      score.scoreVersionId,
+    ]);
     expect(status).toBe('not approved');
   });
 
   it('is refused to a chair who reviewed the run', async () => {
     const account = await createAccount('statistician', 'Promoted Reviewer');
     const statToken = await loginAs(account.email);
-    const review = await request(app).post(`/api/runs/${runB}/review`).set(bearer(statToken)).send({ verdict: 'fit for use', reasoning: 'fine' });
+    const review = await request(app)
+      .post(`/api/runs/${runB}/review`)
+      .set(bearer(statToken))
+      .send({ verdict: 'fit for use', reasoning: 'fine' });
     expect(review.status).toBe(201);
-    expect((await request(app).patch(`/api/users/${account.id}`).set(await as('admin')).send({ role: 'chair' })).status).toBe(200);
+    expect(
+      (
+        await request(app)
+          .patch(`/api/users/${account.id}`)
+          .set(await as('admin'))
+          .send({ role: 'chair' })
+      ).status,
+    ).toBe(200);
     promotedToken = await loginAs(account.email);
     const g = (await request(app).get(`/api/runs/${runB}/review`).set(bearer(promotedToken))).body as RunGovernanceView;
     expect(g.can.sign).toBe(false);
     expect(g.reasonCannotSign).toMatch(/you reviewed/);
-    const res = await request(app).post(`/api/runs/${runB}/signoff`).set(bearer(promotedToken)).send({ decision: 'approve', password: DEMO_PASSWORD });
+    const res = await request(app)
+      .post(`/api/runs/${runB}/signoff`)
+      .set(bearer(promotedToken))
+      .send({ decision: 'approve', password: DEMO_PASSWORD });
     expect(res.status).toBe(403);
     expect(res.body.error).toMatch(/reviewed this run/);
     const queue = await request(app).get('/api/signoff-queue').set(bearer(promotedToken));
@@ -247,27 +339,46 @@ describe('chair sign-off', () => {
     expect(revised.status).toBe(201);
     const body = { decision: 'approve', password: DEMO_PASSWORD };
     const [one, two] = await Promise.all([
-      request(app).post(`/api/runs/${runA}/signoff`).set(await as('chair')).send(body),
+      request(app)
+        .post(`/api/runs/${runA}/signoff`)
+        .set(await as('chair'))
+        .send(body),
       request(app).post(`/api/runs/${runA}/signoff`).set(bearer(chair2Token)).send(body),
     ]);
     expect([one.status, two.status].sort()).toEqual([201, 409]);
-    const approvals = await dataSource.query(`SELECT * FROM signatures WHERE run_id = $1 AND meaning = 'approve for clinical use'`, [runA]);
+    const approvals = await dataSource.query(
+      `SELECT * FROM signatures WHERE run_id = $1 AND meaning = 'approve for clinical use'`,
+      [runA],
+    );
     expect(approvals).toHaveLength(1);
-    const [v] = await dataSource.query(`SELECT clinical_status, approved_run_id FROM score_versions WHERE id = $1`, [score.scoreVersionId]);
+    const [v] = await dataSource.query(`SELECT clinical_status, approved_run_id FROM score_versions WHERE id = $1`, [
+      score.scoreVersionId,
+    ]);
     expect(v).toEqual({ clinical_status: 'approved', approved_run_id: runA });
     const g = await governanceOf(runA, 'chair');
     expect(g.signatures.map((s) => s.meaning)).toEqual(['return to statistician', 'approve for clinical use']);
     expect(g.signatures.every((s) => s.linkVerified)).toBe(true);
     expect(g.can.review).toBe(false);
     // Once approved the record is closed to further reviews.
-    const late = await request(app).post(`/api/runs/${runA}/review`).set(await as('statistician')).send({ verdict: 'not fit for use', reasoning: 'late' });
+    const late = await request(app)
+      .post(`/api/runs/${runA}/review`)
+      .set(await as('statistician'))
+      .send({ verdict: 'not fit for use', reasoning: 'late' });
     expect(late.status).toBe(409);
   });
 
   it("every run's panel names the approved run: its number within the score version, its cohort and the signing date", async () => {
-    const [signed] = await dataSource.query(`SELECT signed_at FROM signatures WHERE run_id = $1 AND meaning = 'approve for clinical use'`, [runA]);
+    const [signed] = await dataSource.query(
+      `SELECT signed_at FROM signatures WHERE run_id = $1 AND meaning = 'approve for clinical use'`,
+      [runA],
+    );
     const [cv] = await dataSource.query(`SELECT label FROM cohort_versions WHERE id = $1`, [cohortVersionId]);
-    const expected = { runId: runA, runNumber: 1, cohortLabel: cv.label, signedAt: new Date(signed.signed_at).toISOString() };
+    const expected = {
+      runId: runA,
+      runNumber: 1,
+      cohortLabel: cv.label,
+      signedAt: new Date(signed.signed_at).toISOString(),
+    };
     expect((await governanceOf(runA)).approval).toEqual(expected);
     // Another run of the same score version says which run carries the approval, not a bare "approved".
     const other = await governanceOf(runB, 'chair');
@@ -288,12 +399,26 @@ describe('chair sign-off', () => {
     await qr.connect();
     await qr.startTransaction();
     try {
-      const [sig] = await qr.query(`SELECT * FROM signatures WHERE run_id = $1 AND meaning = 'approve for clinical use'`, [runA]);
+      const [sig] = await qr.query(
+        `SELECT * FROM signatures WHERE run_id = $1 AND meaning = 'approve for clinical use'`,
+        [runA],
+      );
       const [rv] = await qr.query(`SELECT id FROM run_reviews WHERE run_id = $1`, [runB]);
       await qr.query(
         `INSERT INTO signatures (run_id, score_version_id, review_id, signer_id, printed_name, role, meaning, reason, signed_at, record_sha256)
          VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10)`,
-        [runB, sig.score_version_id, rv.id, sig.signer_id, sig.printed_name, sig.role, sig.meaning, sig.reason, sig.signed_at, sig.record_sha256],
+        [
+          runB,
+          sig.score_version_id,
+          rv.id,
+          sig.signer_id,
+          sig.printed_name,
+          sig.role,
+          sig.meaning,
+          sig.reason,
+          sig.signed_at,
+          sig.record_sha256,
+        ],
       );
       const { listSignatures } = await import('../../server/src/domain/governance/governance');
       const copied = await listSignatures(runB, qr.manager);
@@ -308,7 +433,9 @@ describe('chair sign-off', () => {
 
 describe('score cards', () => {
   it('show approved versions only, with the local figures and who signed', async () => {
-    const res = await request(app).get('/api/scorecards').set(await as('clinician'));
+    const res = await request(app)
+      .get('/api/scorecards')
+      .set(await as('clinician'));
     expect(res.status).toBe(200);
     const cards = res.body as ScoreCardView[];
     const card = cards.find((c) => c.scoreVersionId === score.scoreVersionId);
@@ -323,14 +450,39 @@ describe('score cards', () => {
     expect(card!.inputs.map((i) => i.name)).toContain('length of stay');
     // Summary numbers only: nothing patient-level travels with a card.
     expect(JSON.stringify(res.body)).not.toMatch(/cohort_rows|lineNo|predictors"/);
-    expect((await request(app).get(`/api/scorecards/${score.scoreVersionId}`).set(await as('clinician'))).status).toBe(200);
-    expect((await request(app).get(`/api/scorecards/${otherScore.scoreVersionId}`).set(await as('clinician'))).status).toBe(404);
-    expect((await request(app).get('/api/scorecards').set(await as('steward'))).status).toBe(403);
+    expect(
+      (
+        await request(app)
+          .get(`/api/scorecards/${score.scoreVersionId}`)
+          .set(await as('clinician'))
+      ).status,
+    ).toBe(200);
+    expect(
+      (
+        await request(app)
+          .get(`/api/scorecards/${otherScore.scoreVersionId}`)
+          .set(await as('clinician'))
+      ).status,
+    ).toBe(404);
+    expect(
+      (
+        await request(app)
+          .get('/api/scorecards')
+          .set(await as('steward'))
+      ).status,
+    ).toBe(403);
   });
 
   it('a clinician cannot read runs, their record, the report, or comments', async () => {
     const h = await as('clinician');
-    for (const path of [`/api/runs/${runA}`, `/api/runs/${runA}/review`, `/api/runs/${runA}/report`, `/api/runs/${runA}/comments`, '/api/runs', '/api/cohorts']) {
+    for (const path of [
+      `/api/runs/${runA}`,
+      `/api/runs/${runA}/review`,
+      `/api/runs/${runA}/report`,
+      `/api/runs/${runA}/comments`,
+      '/api/runs',
+      '/api/cohorts',
+    ]) {
       expect((await request(app).get(path).set(h)).status, path).toBe(403);
     }
     expect((await request(app).post(`/api/runs/${runA}/comments`).set(h).send({ body: 'hello' })).status).toBe(403);
@@ -340,48 +492,119 @@ describe('score cards', () => {
 describe('revocation', () => {
   it('is a signed act: chair only, password and reason required', async () => {
     const url = `/api/score-versions/${score.scoreVersionId}/revoke`;
-    expect((await request(app).post(url).set(await as('steward')).send({ password: DEMO_PASSWORD, reason: 'x' })).status).toBe(403);
-    expect((await request(app).post(url).set(await as('chair')).send({ password: DEMO_PASSWORD })).status).toBe(400);
-    expect((await request(app).post(url).set(await as('chair')).send({ password: 'wrong-password', reason: 'x' })).status).toBe(403);
-    const res = await request(app).post(url).set(bearer(chair2Token)).send({ password: DEMO_PASSWORD, reason: 'Drift: O/E rose above 1.3 in the last two quarters.' });
+    expect(
+      (
+        await request(app)
+          .post(url)
+          .set(await as('steward'))
+          .send({ password: DEMO_PASSWORD, reason: 'x' })
+      ).status,
+    ).toBe(403);
+    expect(
+      (
+        await request(app)
+          .post(url)
+          .set(await as('chair'))
+          .send({ password: DEMO_PASSWORD })
+      ).status,
+    ).toBe(400);
+    expect(
+      (
+        await request(app)
+          .post(url)
+          .set(await as('chair'))
+          .send({ password: 'wrong-password', reason: 'x' })
+      ).status,
+    ).toBe(403);
+    const res = await request(app)
+      .post(url)
+      .set(bearer(chair2Token))
+      .send({ password: DEMO_PASSWORD, reason: 'Drift: O/E rose above 1.3 in the last two quarters.' });
     expect(res.status).toBe(201);
     expect(res.body.meaning).toBe('revoke approval');
     expect(res.body.revokesSignatureId).toBeTruthy();
     expect(res.body.linkVerified).toBe(true);
-    const [v] = await dataSource.query(`SELECT clinical_status FROM score_versions WHERE id = $1`, [score.scoreVersionId]);
+    const [v] = await dataSource.query(`SELECT clinical_status FROM score_versions WHERE id = $1`, [
+      score.scoreVersionId,
+    ]);
     expect(v.clinical_status).toBe('revoked');
-    expect((await request(app).get(`/api/scorecards/${score.scoreVersionId}`).set(await as('clinician'))).status).toBe(404);
-    expect((await request(app).post(url).set(await as('chair')).send({ password: DEMO_PASSWORD, reason: 'again' })).status).toBe(409);
+    expect(
+      (
+        await request(app)
+          .get(`/api/scorecards/${score.scoreVersionId}`)
+          .set(await as('clinician'))
+      ).status,
+    ).toBe(404);
+    expect(
+      (
+        await request(app)
+          .post(url)
+          .set(await as('chair'))
+          .send({ password: DEMO_PASSWORD, reason: 'again' })
+      ).status,
+    ).toBe(409);
     expect((await outboxFor('decision.revoked', '')).length).toBeGreaterThan(0);
   });
 });
 
 describe('comments', () => {
   it('are open to the quality team, append-only, and audited', async () => {
-    const post = await request(app).post(`/api/runs/${runA}/comments`).set(await as('steward')).send({ body: 'The North annex extract was late this quarter.' });
+    const post = await request(app)
+      .post(`/api/runs/${runA}/comments`)
+      .set(await as('steward'))
+      .send({ body: 'The North annex extract was late this quarter.' });
     expect(post.status).toBe(201);
     expect(post.body.authorRole).toBe('steward');
-    expect((await request(app).post(`/api/runs/${runA}/comments`).set(await as('chair')).send({ body: '' })).status).toBe(400);
-    const list = await request(app).get(`/api/runs/${runA}/comments`).set(await as('statistician'));
+    expect(
+      (
+        await request(app)
+          .post(`/api/runs/${runA}/comments`)
+          .set(await as('chair'))
+          .send({ body: '' })
+      ).status,
+    ).toBe(400);
+    const list = await request(app)
+      .get(`/api/runs/${runA}/comments`)
+      .set(await as('statistician'));
     expect(list.body.map((c: { body: string }) => c.body)).toContain('The North annex extract was late this quarter.');
     await refusedTwice(`UPDATE run_comments SET body = 'x' WHERE run_id = $1`, [runA], /append-only/);
-    expect((await request(app).get(`/api/runs/${randomUUID()}/comments`).set(await as('steward'))).status).toBe(404);
+    expect(
+      (
+        await request(app)
+          .get(`/api/runs/${randomUUID()}/comments`)
+          .set(await as('steward'))
+      ).status,
+    ).toBe(404);
   });
 });
 
 describe('validation report', () => {
   it('bundles score, cohort, methods, review, signature manifest and the TRIPOD checklist', async () => {
-    const res = await request(app).get(`/api/runs/${runA}/report`).set(await as('statistician'));
+    const res = await request(app)
+      .get(`/api/runs/${runA}/report`)
+      .set(await as('statistician'));
     expect(res.status).toBe(200);
     expect(res.body.score.citation).toMatch(/fixture/i);
     expect(res.body.cohort.patients).toBe(50);
-    expect(res.body.methods.find((m: { name: string }) => m.name.startsWith('Discrimination')).source).toMatch(/DeLong/);
-    expect(res.body.signatures.map((s: SignatureView) => s.meaning)).toEqual(['return to statistician', 'approve for clinical use', 'revoke approval']);
+    expect(res.body.methods.find((m: { name: string }) => m.name.startsWith('Discrimination')).source).toMatch(
+      /DeLong/,
+    );
+    expect(res.body.signatures.map((s: SignatureView) => s.meaning)).toEqual([
+      'return to statistician',
+      'approve for clinical use',
+      'revoke approval',
+    ]);
     const items = res.body.checklist as { code: string; present: boolean }[];
     expect(items.find((i) => i.code === '16')!.present).toBe(true);
     expect(items.find((i) => i.code === '22')!.present).toBe(false);
     expect(res.body.checklistSource).toMatch(/Collins GS.*2015.*BMJ 350:g7594/);
-    expect((await request(app).get(`/api/runs/${runA}/report`).set(await as('steward'))).status).toBe(403);
+    expect(
+      (
+        await request(app)
+          .get(`/api/runs/${runA}/report`)
+          .set(await as('steward'))
+      ).status,
+    ).toBe(403);
   });
 });
 
@@ -392,7 +615,15 @@ describe('the audit trail', () => {
       [[runA, runB, score.scoreVersionId]],
     );
     const names = actions.map((a) => a.action);
-    for (const a of ['review.create', 'review.revise', 'signature.return', 'signature.approve', 'signature.revoke', 'comment.create', 'signature.password_failed']) {
+    for (const a of [
+      'review.create',
+      'review.revise',
+      'signature.return',
+      'signature.approve',
+      'signature.revoke',
+      'comment.create',
+      'signature.password_failed',
+    ]) {
       expect(names, a).toContain(a);
     }
     expect((await verifyAuditChain()).ok).toBe(true);
@@ -405,13 +636,17 @@ describe('e-mail', () => {
     clearReceived();
     await sendPendingOnce(500);
     const mails = receivedMessages();
-    const awaiting = mails.find((m) => m.subject.startsWith('Review awaiting sign-off') && m.to.includes('chair@demo.test'));
+    const awaiting = mails.find(
+      (m) => m.subject.startsWith('Review awaiting sign-off') && m.to.includes('chair@demo.test'),
+    );
     expect(awaiting).toBeDefined();
     expect(awaiting!.text).toMatch(/Verdict: /);
     const approved = mails.find((m) => m.subject.startsWith('Approved for clinical use'));
     expect(approved!.to).toEqual(expect.arrayContaining(['steward@demo.test', 'statistician@demo.test']));
     expect(approved!.text).toMatch(/Meaning of the signature: approve for clinical use/);
-    const [{ n }] = await dataSource.query(`SELECT count(*)::int AS n FROM email_outbox WHERE status = 'pending' AND next_attempt_at <= now()`);
+    const [{ n }] = await dataSource.query(
+      `SELECT count(*)::int AS n FROM email_outbox WHERE status = 'pending' AND next_attempt_at <= now()`,
+    );
     expect(n).toBe(0);
   });
 
@@ -419,10 +654,18 @@ describe('e-mail', () => {
     await stopSmtp!();
     stopSmtp = null;
     const subject = `Outage check ${randomUUID()}`;
-    await queueEmail({ to: ['statistician@demo.test'], subject, text: 'kept while the server is down', kind: 'test.outage' });
+    await queueEmail({
+      to: ['statistician@demo.test'],
+      subject,
+      text: 'kept while the server is down',
+      kind: 'test.outage',
+    });
     const first = await sendPendingOnce(500);
     expect(first.retried).toBeGreaterThan(0);
-    const [row] = await dataSource.query(`SELECT id, status, attempts, last_error FROM email_outbox WHERE subject = $1`, [subject]);
+    const [row] = await dataSource.query(
+      `SELECT id, status, attempts, last_error FROM email_outbox WHERE subject = $1`,
+      [subject],
+    );
     expect(row.status).toBe('pending');
     expect(row.attempts).toBe(1);
     expect(row.last_error).toBeTruthy();
@@ -431,24 +674,44 @@ describe('e-mail', () => {
     await sendPendingOnce(500);
     const [after] = await dataSource.query(`SELECT status, attempts FROM email_outbox WHERE id = $1`, [row.id]);
     expect(after).toEqual({ status: 'sent', attempts: 2 });
-    expect(receivedMessages().some((m) => m.subject === subject && m.text.includes('kept while the server is down'))).toBe(true);
+    expect(
+      receivedMessages().some((m) => m.subject === subject && m.text.includes('kept while the server is down')),
+    ).toBe(true);
   });
 
   it('the dev outbox page lists what arrived, for the admin only', async () => {
-    const res = await request(app).get('/api/dev/outbox').set(await as('admin'));
+    const res = await request(app)
+      .get('/api/dev/outbox')
+      .set(await as('admin'));
     expect(res.status).toBe(200);
     expect(res.body.received.length).toBeGreaterThan(0);
     expect(res.body.outbox[0]).toHaveProperty('status');
-    expect((await request(app).get('/api/dev/outbox').set(await as('chair'))).status).toBe(403);
+    expect(
+      (
+        await request(app)
+          .get('/api/dev/outbox')
+          .set(await as('chair'))
+      ).status,
+    ).toBe(403);
   });
 
   it('each message has its mail job from the same transaction; the job sends it once, retries on failure, and gives up on its last try', async () => {
     const subject = `Mail job ${randomUUID()}`;
     await queueEmail({ to: ['statistician@demo.test'], subject, text: 'sent by its job', kind: 'test.job' });
     const [row] = await dataSource.query(`SELECT id FROM email_outbox WHERE subject = $1`, [subject]);
-    const jobs = await dataSource.query(`SELECT count(*)::int AS n FROM pgboss.job WHERE name = 'mail' AND data->>'outboxId' = $1`, [row.id]);
+    const jobs = await dataSource.query(
+      `SELECT count(*)::int AS n FROM pgboss.job WHERE name = 'mail' AND data->>'outboxId' = $1`,
+      [row.id],
+    );
     expect(jobs[0].n).toBe(1);
-    const job = (retryCount: number) => ({ id: `test-${row.id}`, name: 'mail', data: { outboxId: row.id }, retryCount, retryLimit: 7 }) as unknown as Parameters<JobHandler<{ outboxId: string }>>[0];
+    const job = (retryCount: number) =>
+      ({
+        id: `test-${row.id}`,
+        name: 'mail',
+        data: { outboxId: row.id },
+        retryCount,
+        retryLimit: 7,
+      }) as unknown as Parameters<JobHandler<{ outboxId: string }>>[0];
     clearReceived();
     await mailJob(job(0));
     expect(receivedMessages().filter((m) => m.subject === subject)).toHaveLength(1);
@@ -460,10 +723,21 @@ describe('e-mail', () => {
     const failing = `Mail job outage ${randomUUID()}`;
     await queueEmail({ to: ['statistician@demo.test'], subject: failing, text: 'not sent', kind: 'test.job' });
     const [f] = await dataSource.query(`SELECT id FROM email_outbox WHERE subject = $1`, [failing]);
-    const jobF = (retryCount: number) => ({ id: `test-${f.id}`, name: 'mail', data: { outboxId: f.id }, retryCount, retryLimit: 7 }) as unknown as Parameters<JobHandler<{ outboxId: string }>>[0];
+    const jobF = (retryCount: number) =>
+      ({
+        id: `test-${f.id}`,
+        name: 'mail',
+        data: { outboxId: f.id },
+        retryCount,
+        retryLimit: 7,
+      }) as unknown as Parameters<JobHandler<{ outboxId: string }>>[0];
     await expect(mailJob(jobF(0))).rejects.toThrow(/tries again/);
-    expect(await dataSource.query(`SELECT status, attempts FROM email_outbox WHERE id = $1`, [f.id])).toEqual([{ status: 'pending', attempts: 1 }]);
+    expect(await dataSource.query(`SELECT status, attempts FROM email_outbox WHERE id = $1`, [f.id])).toEqual([
+      { status: 'pending', attempts: 1 },
+    ]);
     await mailJob(jobF(7)); // the last try: marked failed instead of thrown
-    expect(await dataSource.query(`SELECT status, attempts FROM email_outbox WHERE id = $1`, [f.id])).toEqual([{ status: 'failed', attempts: 2 }]);
+    expect(await dataSource.query(`SELECT status, attempts FROM email_outbox WHERE id = $1`, [f.id])).toEqual([
+      { status: 'failed', attempts: 2 },
+    ]);
   });
 });

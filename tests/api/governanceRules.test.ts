@@ -24,7 +24,11 @@ async function insertRun(scoreVersionId: string, cohortVersionId: string): Promi
   const est = (estimate: number, lower: number, upper: number) => ({ estimate, lower, upper });
   const results = {
     overall: {
-      engineVersion: 'test-fixture', n: 400, events: 60, nonEvents: 340, eventRate: 0.15,
+      engineVersion: 'test-fixture',
+      n: 400,
+      events: 60,
+      nonEvents: 340,
+      eventRate: 0.15,
       auc: { ...est(0.71, 0.66, 0.76), se: 0.025 },
       calibrationIntercept: { converged: true, ...est(0.21, 0.05, 0.37), se: 0.08 },
       calibrationSlope: { converged: true, ...est(0.93, 0.78, 1.08), se: 0.08, intercept: 0.1 },
@@ -45,38 +49,66 @@ async function insertRun(scoreVersionId: string, cohortVersionId: string): Promi
 }
 
 const review = async (runId: string, verdict: string) => {
-  const res = await request(app).post(`/api/runs/${runId}/review`).set(await as('statistician')).send({ verdict, reasoning: `Reviewed as ${verdict}.` });
+  const res = await request(app)
+    .post(`/api/runs/${runId}/review`)
+    .set(await as('statistician'))
+    .send({ verdict, reasoning: `Reviewed as ${verdict}.` });
   expect(res.status, JSON.stringify(res.body)).toBe(201);
   return res.body.id as string;
 };
-const sign = async (runId: string, body: Record<string, unknown>) => request(app).post(`/api/runs/${runId}/signoff`).set(await as('chair')).send({ password: DEMO_PASSWORD, ...body });
-const governanceOf = async (runId: string): Promise<RunGovernanceView> => (await request(app).get(`/api/runs/${runId}/review`).set(await as('chair'))).body;
+const sign = async (runId: string, body: Record<string, unknown>) =>
+  request(app)
+    .post(`/api/runs/${runId}/signoff`)
+    .set(await as('chair'))
+    .send({ password: DEMO_PASSWORD, ...body });
+const governanceOf = async (runId: string): Promise<RunGovernanceView> =>
+  (
+    await request(app)
+      .get(`/api/runs/${runId}/review`)
+      .set(await as('chair'))
+  ).body;
 
 let cohortVersionId: string;
 beforeAll(async () => {
-  cohortVersionId = (await createCohortFixture(kestrelRows(40, 5), { label: `Rules cohort ${randomUUID().slice(0, 6)}` })).cohortVersionId;
+  cohortVersionId = (
+    await createCohortFixture(kestrelRows(40, 5), { label: `Rules cohort ${randomUUID().slice(0, 6)}` })
+  ).cohortVersionId;
 });
 
 describe('approving against a negative review', () => {
-  it.each(['not fit for use', 'recalibrate first'])('"%s": needs the chair\'s written reason, kept in the manifest and the report', async (verdict) => {
-    const score = await createScoreFixture({ model: FIXTURE_MODEL });
-    const runId = await insertRun(score.scoreVersionId, cohortVersionId);
-    await review(runId, verdict);
-    const bare = await sign(runId, { decision: 'approve' });
-    expect(bare.status).toBe(400);
-    expect(bare.body.error).toMatch(/needs your written reason/);
-    expect((await sign(runId, { decision: 'approve', reason: '   ' })).status).toBe(400);
-    expect((await dataSource.query('SELECT count(*)::int AS n FROM signatures WHERE run_id = $1', [runId]))[0].n).toBe(0);
+  it.each(['not fit for use', 'recalibrate first'])(
+    '"%s": needs the chair\'s written reason, kept in the manifest and the report',
+    async (verdict) => {
+      const score = await createScoreFixture({ model: FIXTURE_MODEL });
+      const runId = await insertRun(score.scoreVersionId, cohortVersionId);
+      await review(runId, verdict);
+      const bare = await sign(runId, { decision: 'approve' });
+      expect(bare.status).toBe(400);
+      expect(bare.body.error).toMatch(/needs your written reason/);
+      expect((await sign(runId, { decision: 'approve', reason: '   ' })).status).toBe(400);
+      expect(
+        (await dataSource.query('SELECT count(*)::int AS n FROM signatures WHERE run_id = $1', [runId]))[0].n,
+      ).toBe(0);
 
-    const reason = 'The committee accepts the risk for a three-month pilot on one ward, with monthly drift checks.';
-    const signed = await sign(runId, { decision: 'approve', reason });
-    expect(signed.status, JSON.stringify(signed.body)).toBe(201);
-    const manifest = (await governanceOf(runId)).signatures;
-    expect(manifest).toHaveLength(1);
-    expect(manifest[0]).toMatchObject({ meaning: 'approve for clinical use', reason, reviewVerdict: verdict, linkVerified: true });
-    const report = await request(app).get(`/api/runs/${runId}/report`).set(await as('chair'));
-    expect(report.body.signatures.map((s: SignatureView) => [s.reason, s.reviewVerdict])).toEqual([[reason, verdict]]);
-  });
+      const reason = 'The committee accepts the risk for a three-month pilot on one ward, with monthly drift checks.';
+      const signed = await sign(runId, { decision: 'approve', reason });
+      expect(signed.status, JSON.stringify(signed.body)).toBe(201);
+      const manifest = (await governanceOf(runId)).signatures;
+      expect(manifest).toHaveLength(1);
+      expect(manifest[0]).toMatchObject({
+        meaning: 'approve for clinical use',
+        reason,
+        reviewVerdict: verdict,
+        linkVerified: true,
+      });
+      const report = await request(app)
+        .get(`/api/runs/${runId}/report`)
+        .set(await as('chair'));
+      expect(report.body.signatures.map((s: SignatureView) => [s.reason, s.reviewVerdict])).toEqual([
+        [reason, verdict],
+      ]);
+    },
+  );
 
   it('"fit for use": an approval needs no reason', async () => {
     const score = await createScoreFixture({ model: FIXTURE_MODEL });
@@ -106,16 +138,25 @@ describe('a revocation', () => {
     expect(again.status).toBe(409);
     expect(again.body.error).toMatch(/revoked after this review/);
     expect((await sign(pendingRun, { decision: 'return', reason: 'no' })).status).toBe(409);
-    const [version] = await dataSource.query('SELECT clinical_status FROM score_versions WHERE id = $1', [score.scoreVersionId]);
+    const [version] = await dataSource.query('SELECT clinical_status FROM score_versions WHERE id = $1', [
+      score.scoreVersionId,
+    ]);
     expect(version.clinical_status).toBe('revoked');
 
     const g = await governanceOf(pendingRun);
     expect(g.can.sign).toBe(false);
     expect(g.reasonCannotSign).toMatch(/revoked after this review/);
     expect(g.reviews.find((r) => r.id === pendingReview)?.closedBy?.signatureId).toBe(revoked.body.id);
-    const queue: SignoffQueueItem[] = (await request(app).get('/api/signoff-queue').set(await as('chair'))).body;
+    const queue: SignoffQueueItem[] = (
+      await request(app)
+        .get('/api/signoff-queue')
+        .set(await as('chair'))
+    ).body;
     expect(queue.some((q) => q.runId === pendingRun)).toBe(false);
-    const [audit] = await dataSource.query(`SELECT details FROM audit_log WHERE action = 'signature.revoke' AND target_id = $1`, [score.scoreVersionId]);
+    const [audit] = await dataSource.query(
+      `SELECT details FROM audit_log WHERE action = 'signature.revoke' AND target_id = $1`,
+      [score.scoreVersionId],
+    );
     expect(audit.details.closesReviews).toEqual([pendingReview]);
 
     // A review written after the revocation may be signed again: the committee decides on fresh evidence.
@@ -135,7 +176,10 @@ describe('commit and discard of one upload', () => {
 
   async function checkedUpload(): Promise<{ id: string; rowsAccepted: number; plannedVersionId: string }> {
     const file = path.join(tmp, `${randomUUID()}.csv`);
-    writeFileSync(file, `${[...kestrelQuarterCsv({ year: 2025, quarter: 3, index: 6, n: 60, seed: 11 })].join('\n')}\n`);
+    writeFileSync(
+      file,
+      `${[...kestrelQuarterCsv({ year: 2025, quarter: 3, index: 6, n: 60, seed: 11 })].join('\n')}\n`,
+    );
     const up = await request(app)
       .post('/api/cohorts')
       .set(await as('steward'))
@@ -144,24 +188,53 @@ describe('commit and discard of one upload', () => {
       .attach('file', file);
     expect(up.status, JSON.stringify(up.body)).toBe(201);
     const id = up.body.upload.id as string;
-    expect((await request(app).post(`/api/uploads/${id}/mapping`).set(await as('steward')).send({ mapping: KESTREL_MAPPING })).status).toBe(202);
+    expect(
+      (
+        await request(app)
+          .post(`/api/uploads/${id}/mapping`)
+          .set(await as('steward'))
+          .send({ mapping: KESTREL_MAPPING })
+      ).status,
+    ).toBe(202);
     await whenProcessed(id);
-    const [row] = await dataSource.query('SELECT status, rows_accepted, rows_rejected, planned_version_id FROM cohort_uploads WHERE id = $1', [id]);
+    const [row] = await dataSource.query(
+      'SELECT status, rows_accepted, rows_rejected, planned_version_id FROM cohort_uploads WHERE id = $1',
+      [id],
+    );
     expect(row.status).toBe('checked');
     return { id, rowsAccepted: row.rows_accepted, plannedVersionId: row.planned_version_id };
   }
 
-  const commit = async (id: string) => request(app).post(`/api/uploads/${id}/commit`).set(await as('steward')).send({ excludeRejected: true });
-  const discard = async (id: string) => request(app).post(`/api/uploads/${id}/discard`).set(await as('steward')).send({});
+  const commit = async (id: string) =>
+    request(app)
+      .post(`/api/uploads/${id}/commit`)
+      .set(await as('steward'))
+      .send({ excludeRejected: true });
+  const discard = async (id: string) =>
+    request(app)
+      .post(`/api/uploads/${id}/discard`)
+      .set(await as('steward'))
+      .send({});
   const storedRows = async (versionId: string) =>
-    (await dataSource.query('SELECT coalesce(sum(row_count), 0)::int AS n FROM cohort_row_blocks WHERE cohort_version_id = $1', [versionId]))[0].n as number;
+    (
+      await dataSource.query(
+        'SELECT coalesce(sum(row_count), 0)::int AS n FROM cohort_row_blocks WHERE cohort_version_id = $1',
+        [versionId],
+      )
+    )[0].n as number;
 
   /** Either the commit won (a complete cohort version) or the discard did (no version, no rows): never both. */
-  async function expectOneWinner(u: { id: string; rowsAccepted: number; plannedVersionId: string }, c: { status: number }, d: { status: number }) {
+  async function expectOneWinner(
+    u: { id: string; rowsAccepted: number; plannedVersionId: string },
+    c: { status: number },
+    d: { status: number },
+  ) {
     const ok = [c.status < 300, d.status < 300];
     expect(ok.filter(Boolean), `commit ${c.status}, discard ${d.status}`).toHaveLength(1);
     const [row] = await dataSource.query('SELECT status, cohort_version_id FROM cohort_uploads WHERE id = $1', [u.id]);
-    const versions = (await dataSource.query('SELECT count(*)::int AS n FROM cohort_versions WHERE id = $1', [u.plannedVersionId]))[0].n;
+    const versions = (
+      await dataSource.query('SELECT count(*)::int AS n FROM cohort_versions WHERE id = $1', [u.plannedVersionId])
+    )[0].n;
     if (ok[0]) {
       expect(d.status).toBe(409);
       expect(row.status).toBe('committed');
@@ -177,14 +250,20 @@ describe('commit and discard of one upload', () => {
   }
 
   /** Holds the upload's row so both requests queue behind it in a known order, then lets them go. */
-  async function queued(u: { id: string }, first: (id: string) => Promise<{ status: number }>, second: (id: string) => Promise<{ status: number }>) {
+  async function queued(
+    u: { id: string },
+    first: (id: string) => Promise<{ status: number }>,
+    second: (id: string) => Promise<{ status: number }>,
+  ) {
     const holder = dataSource.createQueryRunner();
     await holder.connect();
     await holder.startTransaction();
     await holder.query('SELECT 1 FROM cohort_uploads WHERE id = $1 FOR UPDATE', [u.id]);
     const waiting = async (n: number) => {
       for (;;) {
-        const [{ w }] = await dataSource.query(`SELECT count(*)::int AS w FROM pg_stat_activity WHERE datname = current_database() AND wait_event_type = 'Lock'`);
+        const [{ w }] = await dataSource.query(
+          `SELECT count(*)::int AS w FROM pg_stat_activity WHERE datname = current_database() AND wait_event_type = 'Lock'`,
+        );
         if (w >= n) return;
         await new Promise((r) => setTimeout(r, 20));
       }

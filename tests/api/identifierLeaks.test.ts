@@ -37,14 +37,25 @@ function writeCsv(name: string, text: string | Buffer): string {
   return file;
 }
 async function upload(file: string) {
-  return request(app).post('/api/cohorts').set(bearer(await tokenFor('steward')))
-    .field('scoreVersionId', versionId).field('cohortName', `Leak cohort ${run} ${Math.random().toString(36).slice(2, 8)}`).attach('file', file);
+  return request(app)
+    .post('/api/cohorts')
+    .set(bearer(await tokenFor('steward')))
+    .field('scoreVersionId', versionId)
+    .field('cohortName', `Leak cohort ${run} ${Math.random().toString(36).slice(2, 8)}`)
+    .attach('file', file);
 }
 async function mapAndWait(id: string, mapping: object = KESTREL_MAPPING) {
-  const res = await request(app).post(`/api/uploads/${id}/mapping`).set(bearer(await tokenFor('steward'))).send({ mapping });
+  const res = await request(app)
+    .post(`/api/uploads/${id}/mapping`)
+    .set(bearer(await tokenFor('steward')))
+    .send({ mapping });
   expect(res.status, JSON.stringify(res.body)).toBe(202);
   await whenProcessed(id);
-  return (await request(app).get(`/api/uploads/${id}`).set(bearer(await tokenFor('steward')))).body.upload;
+  return (
+    await request(app)
+      .get(`/api/uploads/${id}`)
+      .set(bearer(await tokenFor('steward')))
+  ).body.upload;
 }
 /** Everything the upload routes serve about an upload, as one text. */
 async function served(id: string): Promise<string> {
@@ -59,9 +70,14 @@ async function served(id: string): Promise<string> {
 /** Everything stored about an upload (its row, its rejections, its staged rows' text levels). */
 async function stored(id: string): Promise<string> {
   const [u] = await dataSource.query('SELECT to_jsonb(u) AS j FROM cohort_uploads u WHERE id = $1', [id]);
-  const rej = await dataSource.query('SELECT column_name, value, reason FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
+  const rej = await dataSource.query(
+    'SELECT column_name, value, reason FROM cohort_upload_rejections WHERE upload_id = $1',
+    [id],
+  );
   const blocks = await dataSource.query(
-    `SELECT b.text_levels FROM cohort_row_blocks b JOIN cohort_uploads u ON u.planned_version_id = b.cohort_version_id WHERE u.id = $1`, [id]);
+    `SELECT b.text_levels FROM cohort_row_blocks b JOIN cohort_uploads u ON u.planned_version_id = b.cohort_version_id WHERE u.id = $1`,
+    [id],
+  );
   return JSON.stringify([u.j, rej, blocks]);
 }
 
@@ -75,11 +91,17 @@ describe('(a) a ragged row keeps only its line number and reason', () => {
     const u = await mapAndWait(res.body.upload.id);
     expect(u.status).toBe('checked');
     expect(u.rowsRejected).toBe(2);
-    const rej = await request(app).get(`/api/uploads/${u.id}/rejections`).set(bearer(await tokenFor('steward')));
-    expect(rej.body.rejections.map((r: { line: number; value: string }) => [r.line, r.value])).toEqual([[7, ''], [10, '']]);
+    const rej = await request(app)
+      .get(`/api/uploads/${u.id}/rejections`)
+      .set(bearer(await tokenFor('steward')));
+    expect(rej.body.rejections.map((r: { line: number; value: string }) => [r.line, r.value])).toEqual([
+      [7, ''],
+      [10, ''],
+    ]);
     expect(rej.body.rejections[0].reason).toMatch(/14 fields; the header has 11/);
     const everything = (await served(u.id)) + (await stored(u.id));
-    for (const needle of ['Tamsin Okoro', '078-05-1120', 'tamsin.okoro@example.org', 'Oskar Brandt']) expect(everything).not.toContain(needle);
+    for (const needle of ['Tamsin Okoro', '078-05-1120', 'tamsin.okoro@example.org', 'Oskar Brandt'])
+      expect(everything).not.toContain(needle);
   });
 });
 
@@ -108,8 +130,17 @@ describe('(b) every cell of every mapped column goes through the full rule set',
 
 describe('(c) full dates in the written forms a registry extract uses', () => {
   const PERIOD = 6;
-  const forms: [string, number][] = [['14-Mar-2025', UNIT], ['20250314', UNIT], ['14/Mar/2025', UNIT], ['Mar-14-2025', UNIT], ['14th March 2025', UNIT],
-    ['2025-073', UNIT], ['2025-W11-5', UNIT], ['1741950000', PERIOD], ['14-Mar-2025', PERIOD]];
+  const forms: [string, number][] = [
+    ['14-Mar-2025', UNIT],
+    ['20250314', UNIT],
+    ['14/Mar/2025', UNIT],
+    ['Mar-14-2025', UNIT],
+    ['14th March 2025', UNIT],
+    ['2025-073', UNIT],
+    ['2025-W11-5', UNIT],
+    ['1741950000', PERIOD],
+    ['14-Mar-2025', PERIOD],
+  ];
   it.each(forms)('%s in mapped column %i after row 5,000 refuses the upload', async (value, col) => {
     const rows = withCell(lines(5100), 5050, col, value);
     const u = await mapAndWait((await upload(writeCsv('date.csv', rows.join('\n') + '\n'))).body.upload.id);
@@ -125,21 +156,34 @@ describe('(d) a discarded or expired upload keeps nothing derived from the file'
     const u = await mapAndWait((await upload(writeCsv('d.csv', rows.join('\n') + '\n'))).body.upload.id);
     expect(u.columnSummary.unit.levels.length).toBeGreaterThan(0);
     expect(u.rowsRejected).toBe(1);
-    const d = await request(app).post(`/api/uploads/${u.id}/discard`).set(bearer(await tokenFor('steward'))).send({});
+    const d = await request(app)
+      .post(`/api/uploads/${u.id}/discard`)
+      .set(bearer(await tokenFor('steward')))
+      .send({});
     expect(d.status, JSON.stringify(d.body)).toBeLessThan(300);
     expect(d.body.upload.columnSummary).toEqual({});
-    const got = await request(app).get(`/api/uploads/${u.id}`).set(bearer(await tokenFor('steward')));
+    const got = await request(app)
+      .get(`/api/uploads/${u.id}`)
+      .set(bearer(await tokenFor('steward')));
     expect(got.body.upload.columnSummary).toEqual({});
-    const [row] = await dataSource.query('SELECT column_summary, event_period FROM cohort_uploads WHERE id = $1', [u.id]);
+    const [row] = await dataSource.query('SELECT column_summary, event_period FROM cohort_uploads WHERE id = $1', [
+      u.id,
+    ]);
     expect(row).toEqual({ column_summary: {}, event_period: null });
-    expect((await dataSource.query('SELECT count(*)::int AS n FROM cohort_upload_rejections WHERE upload_id = $1', [u.id]))[0].n).toBe(0);
+    expect(
+      (
+        await dataSource.query('SELECT count(*)::int AS n FROM cohort_upload_rejections WHERE upload_id = $1', [u.id])
+      )[0].n,
+    ).toBe(0);
     expect(await stored(u.id)).not.toContain('Alder');
   });
   it('expiry: the same', async () => {
     const u = await mapAndWait((await upload(writeCsv('e.csv', lines(60).join('\n') + '\n'))).body.upload.id);
     await dataSource.query(`UPDATE cohort_uploads SET updated_at = now() - interval '30 days' WHERE id = $1`, [u.id]);
     expect(await discardStaleUploads(14)).toBeGreaterThanOrEqual(1);
-    const got = await request(app).get(`/api/uploads/${u.id}`).set(bearer(await tokenFor('steward')));
+    const got = await request(app)
+      .get(`/api/uploads/${u.id}`)
+      .set(bearer(await tokenFor('steward')));
     expect(got.body.upload.status).toBe('discarded');
     expect(got.body.upload.columnSummary).toEqual({});
     expect(await stored(u.id)).not.toContain('Alder');
@@ -151,7 +195,9 @@ describe('(e) formula neutralisation looks at the cell as stored', () => {
     const rows = withCell(lines(30), 4, UNIT, ' =1+2');
     const u = await mapAndWait((await upload(writeCsv('f.csv', rows.join('\n') + '\n'))).body.upload.id);
     expect(u.rowsRejected).toBe(1);
-    const csv = await request(app).get(`/api/uploads/${u.id}/rejections.csv`).set(bearer(await tokenFor('steward')));
+    const csv = await request(app)
+      .get(`/api/uploads/${u.id}/rejections.csv`)
+      .set(bearer(await tokenFor('steward')));
     expect(csv.text).toContain("'=1+2");
     expect(csv.text.split(/\r?\n/).some((l) => /(^|,)\s*[=@+-]/.test(l))).toBe(false);
   });
@@ -160,8 +206,19 @@ describe('(e) formula neutralisation looks at the cell as stored', () => {
 describe('(f) bad bytes anywhere refuse the file with a clear message', () => {
   const big = () => lines(3000).join('\n') + '\n'; // about 130 kB: the bad byte lands past the first 64 kB
   it.each([
-    ['invalid UTF-8 late in the file', (t: string) => Buffer.concat([Buffer.from(t), Buffer.from('45,3,1,yes,2,no,2025-04,F,45-64,Bir\xffch,Main campus\n', 'latin1')])],
-    ['a NUL byte late in the file', (t: string) => Buffer.concat([Buffer.from(t), Buffer.from('45,3,1,yes,2,no,2025-04,F,45-64,Bir\0ch,Main campus\n')])],
+    [
+      'invalid UTF-8 late in the file',
+      (t: string) =>
+        Buffer.concat([
+          Buffer.from(t),
+          Buffer.from('45,3,1,yes,2,no,2025-04,F,45-64,Bir\xffch,Main campus\n', 'latin1'),
+        ]),
+    ],
+    [
+      'a NUL byte late in the file',
+      (t: string) =>
+        Buffer.concat([Buffer.from(t), Buffer.from('45,3,1,yes,2,no,2025-04,F,45-64,Bir\0ch,Main campus\n')]),
+    ],
   ])('%s', async (_label, make) => {
     const before = await countRows('cohort_uploads');
     const res = await upload(writeCsv('bytes.csv', make(big())));

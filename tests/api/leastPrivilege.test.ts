@@ -28,7 +28,15 @@ describe('the runtime database role', () => {
   });
 
   it('cannot TRUNCATE any table', async () => {
-    for (const t of ['audit_log', 'signatures', 'run_reviews', 'cohort_row_blocks', 'users', 'validation_runs', 'email_outbox']) {
+    for (const t of [
+      'audit_log',
+      'signatures',
+      'run_reviews',
+      'cohort_row_blocks',
+      'users',
+      'validation_runs',
+      'email_outbox',
+    ]) {
       await expect(dataSource.query(`TRUNCATE ${t} CASCADE`), t).rejects.toThrow(denied);
     }
   });
@@ -38,18 +46,26 @@ describe('the runtime database role', () => {
     await expect(dataSource.query('DROP TABLE pgboss.archive')).rejects.toThrow(denied);
     await expect(dataSource.query('TRUNCATE pgboss.job')).rejects.toThrow(denied);
     // Creating a queue creates its partition table: only the owner's migration does that.
-    await expect(dataSource.query(`SELECT pgboss.create_queue('plumbline-probe', '{"policy":"standard"}'::json)`)).rejects.toThrow(denied);
+    await expect(
+      dataSource.query(`SELECT pgboss.create_queue('plumbline-probe', '{"policy":"standard"}'::json)`),
+    ).rejects.toThrow(denied);
     const rows: { table_name: string; privilege_type: string }[] = await dataSource.query(
       `SELECT table_name, privilege_type FROM information_schema.role_table_grants WHERE grantee = current_user AND table_schema = 'pgboss'`,
     );
-    const held = (t: string) => rows.filter((r) => r.table_name === t).map((r) => r.privilege_type).sort();
+    const held = (t: string) =>
+      rows
+        .filter((r) => r.table_name === t)
+        .map((r) => r.privilege_type)
+        .sort();
     expect(held('job')).toEqual(['DELETE', 'INSERT', 'SELECT', 'UPDATE']);
     expect(held('queue')).toEqual(['SELECT']);
     expect(held('version')).toEqual(['SELECT', 'UPDATE']);
   });
 
   it('cannot disable a trigger, drop a table or create one', async () => {
-    await expect(dataSource.query('ALTER TABLE signatures DISABLE TRIGGER signatures_immutable')).rejects.toThrow(denied);
+    await expect(dataSource.query('ALTER TABLE signatures DISABLE TRIGGER signatures_immutable')).rejects.toThrow(
+      denied,
+    );
     await expect(dataSource.query('DROP TABLE run_comments')).rejects.toThrow(denied);
     await expect(dataSource.query('CREATE TABLE plumbline_probe (x int)')).rejects.toThrow(denied);
   });
@@ -57,22 +73,35 @@ describe('the runtime database role', () => {
   it('cannot change or delete a signed record, a review or an audit entry (no grant, before any trigger)', async () => {
     const [sig] = await dataSource.query(`SELECT id FROM signatures ORDER BY signed_at LIMIT 1`);
     expect(sig, 'the demo seed signs a run').toBeTruthy();
-    await expect(dataSource.query(`UPDATE signatures SET reason = 'changed' WHERE id = $1`, [sig.id])).rejects.toThrow(/permission denied/);
-    await expect(dataSource.query(`DELETE FROM signatures WHERE id = $1`, [sig.id])).rejects.toThrow(/permission denied/);
-    await expect(dataSource.query(`UPDATE run_reviews SET verdict = 'fit for use'`)).rejects.toThrow(/permission denied/);
+    await expect(dataSource.query(`UPDATE signatures SET reason = 'changed' WHERE id = $1`, [sig.id])).rejects.toThrow(
+      /permission denied/,
+    );
+    await expect(dataSource.query(`DELETE FROM signatures WHERE id = $1`, [sig.id])).rejects.toThrow(
+      /permission denied/,
+    );
+    await expect(dataSource.query(`UPDATE run_reviews SET verdict = 'fit for use'`)).rejects.toThrow(
+      /permission denied/,
+    );
     await expect(dataSource.query(`DELETE FROM run_reviews`)).rejects.toThrow(/permission denied/);
     await expect(dataSource.query(`DELETE FROM audit_log`)).rejects.toThrow(/permission denied/);
     await expect(dataSource.query(`DELETE FROM audit_checkpoints`)).rejects.toThrow(/permission denied/);
     await expect(dataSource.query(`UPDATE cohort_versions SET label = 'x'`)).rejects.toThrow(/permission denied/);
-    await expect(dataSource.query(`INSERT INTO migrations (timestamp, name) VALUES (1, 'x')`)).rejects.toThrow(/permission denied/);
+    await expect(dataSource.query(`INSERT INTO migrations (timestamp, name) VALUES (1, 'x')`)).rejects.toThrow(
+      /permission denied/,
+    );
   });
 
   it('has exactly the listed grants on the append-only tables', async () => {
     const rows: { table_name: string; privilege_type: string }[] = await dataSource.query(
       `SELECT table_name, privilege_type FROM information_schema.role_table_grants WHERE grantee = current_user AND table_schema = 'public'`,
     );
-    const held = (t: string) => rows.filter((r) => r.table_name === t).map((r) => r.privilege_type).sort();
-    for (const t of ['audit_log', 'audit_checkpoints', 'signatures', 'run_comments', 'cohort_versions']) expect(held(t), t).toEqual(['INSERT', 'SELECT']);
+    const held = (t: string) =>
+      rows
+        .filter((r) => r.table_name === t)
+        .map((r) => r.privilege_type)
+        .sort();
+    for (const t of ['audit_log', 'audit_checkpoints', 'signatures', 'run_comments', 'cohort_versions'])
+      expect(held(t), t).toEqual(['INSERT', 'SELECT']);
     expect(RUNTIME_GRANTS.run_reviews).toContain('UPDATE (superseded_by)');
     expect(rows.some((r) => ['TRUNCATE', 'TRIGGER', 'REFERENCES'].includes(r.privilege_type))).toBe(false);
   });
@@ -83,7 +112,9 @@ describe('the runtime database role', () => {
     await qr.startTransaction();
     try {
       await qr.query('SET LOCAL session_replication_role = replica');
-      await qr.query(`UPDATE signatures SET reason = 'changed by the owner' WHERE id = (SELECT id FROM signatures LIMIT 1)`);
+      await qr.query(
+        `UPDATE signatures SET reason = 'changed by the owner' WHERE id = (SELECT id FROM signatures LIMIT 1)`,
+      );
     } finally {
       await qr.rollbackTransaction();
       await qr.release();

@@ -10,7 +10,9 @@ describe('per-address sign-in limit', () => {
   it('answers 429 after too many failed sign-ins from one address, whatever the account', async () => {
     let last = 0;
     for (let i = 0; i <= config.loginRateLimit.maxPerIp; i++) {
-      const res = await request(app).post('/api/auth/login').send({ email: `guess-${i}@demo.test`, password: 'guess-password' });
+      const res = await request(app)
+        .post('/api/auth/login')
+        .send({ email: `guess-${i}@demo.test`, password: 'guess-password' });
       last = res.status;
       if (i < config.loginRateLimit.maxPerIp) expect(res.status).toBe(401);
     }

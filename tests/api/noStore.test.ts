@@ -11,7 +11,9 @@ const noStore = (res: request.Response, what: string) => expect(res.headers['cac
 
 describe('Cache-Control: no-store', () => {
   it('on the sign-in token, the account and the account list', async () => {
-    const login = await request(app).post('/api/auth/login').send({ email: 'admin@demo.test', password: DEMO_PASSWORD });
+    const login = await request(app)
+      .post('/api/auth/login')
+      .send({ email: 'admin@demo.test', password: DEMO_PASSWORD });
     expect(login.status).toBe(200);
     noStore(login, 'sign-in');
     noStore(await request(app).get('/api/auth/me').set(bearer(login.body.token)), 'me');
@@ -19,7 +21,9 @@ describe('Cache-Control: no-store', () => {
   });
 
   it('on cohort rows, run results and score cards, also when the same read is answered again', async () => {
-    const [version] = await dataSource.query('SELECT cohort_id, version FROM cohort_versions ORDER BY created_at LIMIT 1');
+    const [version] = await dataSource.query(
+      'SELECT cohort_id, version FROM cohort_versions ORDER BY created_at LIMIT 1',
+    );
     const [run] = await dataSource.query(`SELECT id FROM validation_runs WHERE status = 'completed' LIMIT 1`);
     expect(version && run, 'the seeded demo has a cohort version and a completed run').toBeTruthy();
     const admin = bearer(await tokenFor('admin'));
@@ -48,6 +52,9 @@ describe('Cache-Control: no-store', () => {
       noStore(res, `${r.method} ${r.path} → ${res.status}`);
     }
     noStore(await request(app).get('/api/no-such-route'), 'unknown route');
-    noStore(await request(app).post('/api/auth/login').set('Content-Type', 'application/json').send('{"email":'), 'broken JSON');
+    noStore(
+      await request(app).post('/api/auth/login').set('Content-Type', 'application/json').send('{"email":'),
+      'broken JSON',
+    );
   });
 });

@@ -31,7 +31,12 @@ describe('request logs', () => {
     const res = await request(logged).get('/api/health');
     expect(res.headers['x-request-id']).toMatch(/^[0-9a-f-]{36}$/);
     const line = entries().find((e) => e.req?.id === res.headers['x-request-id']);
-    expect(line).toMatchObject({ level: 30, service: 'plumbline', req: { method: 'GET', url: '/api/health' }, res: { statusCode: 200 } });
+    expect(line).toMatchObject({
+      level: 30,
+      service: 'plumbline',
+      req: { method: 'GET', url: '/api/health' },
+      res: { statusCode: 200 },
+    });
     expect(typeof line!.responseTime).toBe('number');
   });
 
@@ -45,15 +50,25 @@ describe('request logs', () => {
   it('never writes a token, a cookie, a password or a query string', async () => {
     lines.length = 0;
     const password = DEMO_PASSWORD;
-    const login = await request(logged).post('/api/auth/login').set('Cookie', 'session=cookie-secret-123').send({ email: demoEmail('admin'), password });
+    const login = await request(logged)
+      .post('/api/auth/login')
+      .set('Cookie', 'session=cookie-secret-123')
+      .send({ email: demoEmail('admin'), password });
     expect(login.status).toBe(200);
     const token = login.body.token as string;
-    const read = await request(logged).get('/api/cohorts?search=Secret%20Ward').set(bearer(token)).set('Proxy-Authorization', 'Basic cHJveHk6c2VjcmV0');
+    const read = await request(logged)
+      .get('/api/cohorts?search=Secret%20Ward')
+      .set(bearer(token))
+      .set('Proxy-Authorization', 'Basic cHJveHk6c2VjcmV0');
     expect(read.status).toBe(200);
-    createLogger(sink, 'info').info({ body: { password, newPassword: password }, user: { form: { currentPassword: password } } }, 'a handler logged a body');
+    createLogger(sink, 'info').info(
+      { body: { password, newPassword: password }, user: { form: { currentPassword: password } } },
+      'a handler logged a body',
+    );
     const text = lines.join('\n');
     expect(lines.length).toBeGreaterThanOrEqual(3);
-    for (const secret of [token, token.split('.')[2], password, 'cookie-secret-123', 'cHJveHk6c2VjcmV0', 'Secret']) expect(text).not.toContain(secret);
+    for (const secret of [token, token.split('.')[2], password, 'cookie-secret-123', 'cHJveHk6c2VjcmV0', 'Secret'])
+      expect(text).not.toContain(secret);
     const readLine = entries().find((e) => e.req?.id === read.headers['x-request-id']);
     expect(readLine?.req?.headers.authorization).toBe('[redacted]');
     expect(readLine?.req?.url).toBe('/api/cohorts');
@@ -64,11 +79,19 @@ describe('request logs', () => {
 describe('GET /api/metrics', () => {
   it('reports request durations by route pattern, queue depth and event-loop delay', async () => {
     const score = await createScoreFixture({ name: `Metrics score ${Date.now()}` });
-    expect((await request(logged).get(`/api/scores/${score.scoreId}`).set(bearer(await tokenFor('statistician')))).status).toBe(200);
+    expect(
+      (
+        await request(logged)
+          .get(`/api/scores/${score.scoreId}`)
+          .set(bearer(await tokenFor('statistician')))
+      ).status,
+    ).toBe(200);
     const res = await request(logged).get('/api/metrics');
     expect(res.status).toBe(200);
     expect(res.headers['content-type']).toMatch(/^text\/plain/);
-    expect(res.text).toMatch(/plumbline_http_request_duration_seconds_count\{method="GET",route="\/api\/scores\/:id",status="200"\} [1-9]/);
+    expect(res.text).toMatch(
+      /plumbline_http_request_duration_seconds_count\{method="GET",route="\/api\/scores\/:id",status="200"\} [1-9]/,
+    );
     expect(res.text).not.toContain(score.scoreId);
     expect(res.text).toMatch(/plumbline_queue_depth\{queue="runs",state="queued"\} \d+/);
     expect(res.text).toMatch(/nodejs_eventloop_lag_p99_seconds \d/);
@@ -91,12 +114,24 @@ describe('GET /api/metrics', () => {
 describe('GET /api/health', () => {
   let queuedId: string | undefined;
   afterAll(async () => {
-    if (queuedId) await dataSource.query(`UPDATE validation_runs SET status = 'failed', error = 'test fixture', finished_at = now() WHERE id = $1`, [queuedId]);
+    if (queuedId)
+      await dataSource.query(
+        `UPDATE validation_runs SET status = 'failed', error = 'test fixture', finished_at = now() WHERE id = $1`,
+        [queuedId],
+      );
   });
 
   it('reports the shared run queue as the database holds it', async () => {
     const before = (await request(logged).get('/api/health')).body;
-    expect(before).toMatchObject({ status: 'ok', database: 'up', queue: { runs: { queued: expect.any(Number), running: expect.any(Number) }, uploadChecks: { running: expect.any(Number) }, mail: { pending: expect.any(Number) } } });
+    expect(before).toMatchObject({
+      status: 'ok',
+      database: 'up',
+      queue: {
+        runs: { queued: expect.any(Number), running: expect.any(Number) },
+        uploadChecks: { running: expect.any(Number) },
+        mail: { pending: expect.any(Number) },
+      },
+    });
     const score = await createScoreFixture({ name: `Health score ${Date.now()}` });
     const { cohortVersionId } = await createCohortFixture(kestrelRows(20, 5), { label: 'health queue' });
     const rows: { id: string }[] = await dataSource.query(

@@ -40,7 +40,10 @@ describe('the OpenAPI document', () => {
   it('has every route of the access matrix, with its roles, and nothing else', async () => {
     const document = await fetchDocument();
     const described = Object.entries(document.paths).flatMap(([path, ops]) =>
-      Object.entries(ops).map(([method, op]) => ({ key: `${method.toUpperCase()} ${path.replace(/\{(\w+)\}/g, ':$1')}`, op })),
+      Object.entries(ops).map(([method, op]) => ({
+        key: `${method.toUpperCase()} ${path.replace(/\{(\w+)\}/g, ':$1')}`,
+        op,
+      })),
     );
     expect(described.map((d) => d.key).sort()).toEqual(Object.keys(accessMatrix).sort());
     for (const { key, op } of described) {
@@ -65,10 +68,14 @@ describe('the OpenAPI document', () => {
       }
     }
     // Spot checks against the schemas in shared/src (what the server refuses with 400 when absent or wrong).
-    const login = paths['/api/auth/login'].post.requestBody?.content['application/json'] as { schema: { required: string[] } };
+    const login = paths['/api/auth/login'].post.requestBody?.content['application/json'] as {
+      schema: { required: string[] };
+    };
     expect(login.schema.required.sort()).toEqual(['email', 'password']);
     const rows = paths['/api/cohorts/{id}/versions/{version}/rows'].get.parameters.map((p) => `${p.in}:${p.name}`);
-    expect(rows).toEqual(expect.arrayContaining(['path:id', 'path:version', 'query:search', 'query:sortBy', 'query:sortDir']));
+    expect(rows).toEqual(
+      expect.arrayContaining(['path:id', 'path:version', 'query:search', 'query:sortBy', 'query:sortDir']),
+    );
     expect(Object.keys(paths['/api/cohorts'].post.requestBody?.content ?? {})).toEqual(['multipart/form-data']);
   });
 

@@ -12,7 +12,14 @@ import { calibrationBand } from '../../server/src/stats/bootstrap';
 import { siteAnalysis, subgroupAnalysis } from '../../server/src/stats/groupPerformance';
 import { applyModel, resolveSettings, validate } from '../../server/src/stats/index';
 import { app, bearer, tokenFor, useDatabase } from '../helpers/api';
-import { createCohortFixture, createScoreFixture, FIXTURE_MODEL, kestrelRows, type CohortFixture, type ScoreFixture } from '../helpers/fixtures';
+import {
+  createCohortFixture,
+  createScoreFixture,
+  FIXTURE_MODEL,
+  kestrelRows,
+  type CohortFixture,
+  type ScoreFixture,
+} from '../helpers/fixtures';
 
 useDatabase();
 
@@ -21,10 +28,15 @@ let cohort: CohortFixture;
 const SITES = ['Harbour', 'Hillside', 'Riverside'];
 
 async function startRun(settings: Record<string, unknown>) {
-  const res = await request(app).post('/api/runs').set(bearer(await tokenFor('statistician'))).send({ scoreVersionId: score.scoreVersionId, cohortVersionId: cohort.cohortVersionId, settings });
+  const res = await request(app)
+    .post('/api/runs')
+    .set(bearer(await tokenFor('statistician')))
+    .send({ scoreVersionId: score.scoreVersionId, cohortVersionId: cohort.cohortVersionId, settings });
   expect(res.status, JSON.stringify(res.body)).toBe(201);
   while (await processNextRun());
-  const got = await request(app).get(`/api/runs/${res.body.run.id}`).set(bearer(await tokenFor('statistician')));
+  const got = await request(app)
+    .get(`/api/runs/${res.body.run.id}`)
+    .set(bearer(await tokenFor('statistician')));
   expect(got.status).toBe(200);
   return got.body.run as RunDetail;
 }
@@ -32,7 +44,9 @@ async function startRun(settings: Record<string, unknown>) {
 beforeAll(async () => {
   while (await processNextRun());
   score = await createScoreFixture();
-  cohort = await createCohortFixture(kestrelRows(1800, 31).map((r, i) => ({ ...r, subgroups: { ...r.subgroups, site: SITES[i % 3] } })));
+  cohort = await createCohortFixture(
+    kestrelRows(1800, 31).map((r, i) => ({ ...r, subgroups: { ...r.subgroups, site: SITES[i % 3] } })),
+  );
 });
 
 afterAll(async () => {
@@ -48,7 +62,8 @@ describe('a run with subgroups, a site column and bootstrap replicates', () => {
     run = await startRun({ subgroupColumns: ['sex'], siteColumn: 'site', bootstrapReplicates: 30, bootstrapSeed: 17 });
     const rows = cohort.rows;
     const columns: Record<string, string[]> = {};
-    for (const pred of FIXTURE_MODEL.predictors) columns[pred.column] = rows.map((x) => String(x.predictors[pred.column]));
+    for (const pred of FIXTURE_MODEL.predictors)
+      columns[pred.column] = rows.map((x) => String(x.predictors[pred.column]));
     const applied = applyModel(FIXTURE_MODEL, columns, rows.length);
     if (!applied.ok) throw new Error(applied.message);
     p = applied.p;
@@ -64,7 +79,12 @@ describe('a run with subgroups, a site column and bootstrap replicates', () => {
   it('stores the subgroup analysis the engine computes on the same rows', () => {
     const r = run.results as RunResults;
     const s = resolveSettings(engineSettings(run.settings));
-    const direct = subgroupAnalysis(p, y, cohort.rows.map((x) => x.subgroups!.sex), s);
+    const direct = subgroupAnalysis(
+      p,
+      y,
+      cohort.rows.map((x) => x.subgroups!.sex),
+      s,
+    );
     expect(r.subgroupAnalyses).toHaveLength(1);
     expect(r.subgroupAnalyses![0]).toEqual(asStored({ column: 'sex', ...direct }));
     expect(r.subgroupAnalyses![0].levels.map((l) => l.level)).toEqual(['female', 'male']);
@@ -76,7 +96,12 @@ describe('a run with subgroups, a site column and bootstrap replicates', () => {
   it('stores the per-site figures and the random-effects pooling', () => {
     const r = run.results as RunResults;
     const s = resolveSettings(engineSettings(run.settings));
-    const direct = siteAnalysis(p, y, cohort.rows.map((x) => x.subgroups!.site), s);
+    const direct = siteAnalysis(
+      p,
+      y,
+      cohort.rows.map((x) => x.subgroups!.site),
+      s,
+    );
     expect(r.sites).toEqual(asStored({ column: 'site', ...direct }));
     expect(r.sites!.levels.map((l) => l.level)).toEqual(SITES);
     const auc = r.sites!.pooled.logitAuc.result!;
@@ -87,12 +112,18 @@ describe('a run with subgroups, a site column and bootstrap replicates', () => {
   it('stores the calibration band and the standardised net benefit intervals', () => {
     const r = run.results as RunResults;
     const s = resolveSettings(engineSettings(run.settings));
-    expect(r.calibrationBand).toEqual(asStored(calibrationBand(p, y, validate(p, y, engineSettings(run.settings, false)).calibrationCurve.smoothed, s)));
-    expect(r.overall.bootstrap!.intervals['standardizedNetBenefit@0.1'].lower).toBeLessThan(r.overall.bootstrap!.intervals['standardizedNetBenefit@0.1'].upper);
+    expect(r.calibrationBand).toEqual(
+      asStored(calibrationBand(p, y, validate(p, y, engineSettings(run.settings, false)).calibrationCurve.smoothed, s)),
+    );
+    expect(r.overall.bootstrap!.intervals['standardizedNetBenefit@0.1'].lower).toBeLessThan(
+      r.overall.bootstrap!.intervals['standardizedNetBenefit@0.1'].upper,
+    );
   });
 
   it('reproduces to the same results hash', async () => {
-    const res = await request(app).post(`/api/runs/${run.id}/reproduce`).set(bearer(await tokenFor('statistician')));
+    const res = await request(app)
+      .post(`/api/runs/${run.id}/reproduce`)
+      .set(bearer(await tokenFor('statistician')));
     expect(res.status, JSON.stringify(res.body)).toBe(200);
     expect(res.body.match).toBe(true);
   });
@@ -100,14 +131,28 @@ describe('a run with subgroups, a site column and bootstrap replicates', () => {
 
 describe('site column problems', () => {
   it('a run naming a site column the cohort lacks is refused with a message that names it', async () => {
-    const res = await request(app).post('/api/runs').set(bearer(await tokenFor('statistician'))).send({ scoreVersionId: score.scoreVersionId, cohortVersionId: cohort.cohortVersionId, settings: { siteColumn: 'centre' } });
+    const res = await request(app)
+      .post('/api/runs')
+      .set(bearer(await tokenFor('statistician')))
+      .send({
+        scoreVersionId: score.scoreVersionId,
+        cohortVersionId: cohort.cohortVersionId,
+        settings: { siteColumn: 'centre' },
+      });
     expect(res.status).toBe(400);
     expect(JSON.stringify(res.body)).toContain('no site column');
     expect(JSON.stringify(res.body)).toContain('centre');
   });
 
   it('settings refuse an empty site column name', async () => {
-    const res = await request(app).post('/api/runs').set(bearer(await tokenFor('statistician'))).send({ scoreVersionId: score.scoreVersionId, cohortVersionId: cohort.cohortVersionId, settings: { siteColumn: '' } });
+    const res = await request(app)
+      .post('/api/runs')
+      .set(bearer(await tokenFor('statistician')))
+      .send({
+        scoreVersionId: score.scoreVersionId,
+        cohortVersionId: cohort.cohortVersionId,
+        settings: { siteColumn: '' },
+      });
     expect(res.status).toBe(400);
   });
 });

@@ -11,7 +11,14 @@ import type { JobHandler } from '../../server/src/jobs/queue';
 import { processNextRun, runAbandonedJob, runJob } from '../../server/src/domain/runs/runQueue';
 import { applyModel, validate } from '../../server/src/stats/index';
 import { app, bearer, dataSource, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
-import { createCohortFixture, createScoreFixture, FIXTURE_MODEL, kestrelRows, type CohortFixture, type ScoreFixture } from '../helpers/fixtures';
+import {
+  createCohortFixture,
+  createScoreFixture,
+  FIXTURE_MODEL,
+  kestrelRows,
+  type CohortFixture,
+  type ScoreFixture,
+} from '../helpers/fixtures';
 
 useDatabase();
 
@@ -23,11 +30,16 @@ let lacking: CohortFixture;
 const SETTINGS = { subgroupColumns: ['sex', 'unit'], timeGrouping: 'month' as const };
 
 async function createRun(role: 'statistician' | 'steward', body: Record<string, unknown>) {
-  return request(app).post('/api/runs').set(bearer(await tokenFor(role))).send(body);
+  return request(app)
+    .post('/api/runs')
+    .set(bearer(await tokenFor(role)))
+    .send(body);
 }
 
 async function getRun(id: string): Promise<RunDetail> {
-  const res = await request(app).get(`/api/runs/${id}`).set(bearer(await tokenFor('statistician')));
+  const res = await request(app)
+    .get(`/api/runs/${id}`)
+    .set(bearer(await tokenFor('statistician')));
   expect(res.status).toBe(200);
   return res.body.run as RunDetail;
 }
@@ -59,7 +71,11 @@ describe('a validation run through the background queue', () => {
   let run: RunDetail;
 
   it('is queued with the default settings filled in and locks the score version', async () => {
-    const res = await createRun('statistician', { scoreVersionId: score.scoreVersionId, cohortVersionId: cohort.cohortVersionId, settings: SETTINGS });
+    const res = await createRun('statistician', {
+      scoreVersionId: score.scoreVersionId,
+      cohortVersionId: cohort.cohortVersionId,
+      settings: SETTINGS,
+    });
     expect(res.status).toBe(201);
     run = res.body.run;
     expect(run.status).toBe('queued');
@@ -70,7 +86,9 @@ describe('a validation run through the background queue', () => {
     expect(run.settings.netBenefitThresholds[49]).toBe(0.5);
     expect(run.settings.loessSpan).toBe(0.75);
     expect(run.settings.bootstrapReplicates).toBe(0);
-    const sv: { locked: boolean }[] = await dataSource.query('SELECT locked FROM score_versions WHERE id = $1', [score.scoreVersionId]);
+    const sv: { locked: boolean }[] = await dataSource.query('SELECT locked FROM score_versions WHERE id = $1', [
+      score.scoreVersionId,
+    ]);
     expect(sv[0].locked).toBe(true);
   });
 
@@ -97,14 +115,20 @@ describe('a validation run through the background queue', () => {
     expect(r.overall.n).toBe(1500);
     expect(r.overall.auc.lower).toBeLessThan(r.overall.auc.estimate);
     expect(r.overall.auc.upper).toBeGreaterThan(r.overall.auc.estimate);
-    expect(run.headline).toEqual({ n: 1500, events: r.overall.events, auc: r.overall.auc.estimate, oe: r.overall.oe.estimate });
+    expect(run.headline).toEqual({
+      n: 1500,
+      events: r.overall.events,
+      auc: r.overall.auc.estimate,
+      oe: r.overall.oe.estimate,
+    });
   });
 
   it('stores exactly what the engine computes directly on the same rows', async () => {
     const r = run.results as RunResults;
     const rows = cohort.rows;
     const columns: Record<string, string[]> = {};
-    for (const pred of FIXTURE_MODEL.predictors) columns[pred.column] = rows.map((x) => String(x.predictors[pred.column]));
+    for (const pred of FIXTURE_MODEL.predictors)
+      columns[pred.column] = rows.map((x) => String(x.predictors[pred.column]));
     const applied = applyModel(FIXTURE_MODEL, columns, rows.length);
     if (!applied.ok) throw new Error(applied.message);
     const y = Uint8Array.from(rows.map((x) => x.outcome));
@@ -124,11 +148,21 @@ describe('a validation run through the background queue', () => {
     expect(small.result).toBeUndefined();
     const female = r.subgroups.find((g) => g.column === 'sex' && g.level === 'female')!;
     const femaleIdx = rows.map((x, i) => (x.subgroups!.sex === 'female' ? i : -1)).filter((i) => i >= 0);
-    const femaleDirect = validate(Float64Array.from(femaleIdx.map((i) => applied.p[i])), Uint8Array.from(femaleIdx.map((i) => y[i])), engineSettings(run.settings, false));
+    const femaleDirect = validate(
+      Float64Array.from(femaleIdx.map((i) => applied.p[i])),
+      Uint8Array.from(femaleIdx.map((i) => y[i])),
+      engineSettings(run.settings, false),
+    );
     expect(female.tooSmall).toBe(false);
     expect(female.n).toBe(femaleIdx.length);
     expect(female.result!.auc!.estimate).toBe(femaleDirect.auc.estimate);
-    expect(r.subgroups.filter((g) => g.column === 'unit').map((g) => g.level)).toEqual(['Alder', 'Birch', 'Cedar', 'Rowan', 'Small']);
+    expect(r.subgroups.filter((g) => g.column === 'unit').map((g) => g.level)).toEqual([
+      'Alder',
+      'Birch',
+      'Cedar',
+      'Rowan',
+      'Small',
+    ]);
 
     // Periods by month of the event date: observed rate and mean predicted risk recomputed here by hand.
     expect(r.periods.map((p) => p.period)).toEqual(['2024-01', '2024-02', '2024-03', '2024-04', '2024-05', '2024-06']);
@@ -142,28 +176,43 @@ describe('a validation run through the background queue', () => {
   });
 
   it('audits creation and completion and queues an e-mail for the statistician', async () => {
-    const audit: { action: string }[] = await dataSource.query(`SELECT action FROM audit_log WHERE target_id = $1 ORDER BY seq`, [run.id]);
+    const audit: { action: string }[] = await dataSource.query(
+      `SELECT action FROM audit_log WHERE target_id = $1 ORDER BY seq`,
+      [run.id],
+    );
     expect(audit.map((a) => a.action)).toEqual(['run.created', 'run.completed']);
-    const mail: { recipients: string[]; kind: string }[] = await dataSource.query(`SELECT recipients, kind FROM email_outbox WHERE text LIKE $1`, [`%/runs/${run.id}%`]);
+    const mail: { recipients: string[]; kind: string }[] = await dataSource.query(
+      `SELECT recipients, kind FROM email_outbox WHERE text LIKE $1`,
+      [`%/runs/${run.id}%`],
+    );
     expect(mail).toHaveLength(1);
     expect(mail[0].kind).toBe('run.completed');
     expect(mail[0].recipients).toContain('statistician@demo.test');
   });
 
   it('reproduces bit for bit', async () => {
-    const res = await request(app).post(`/api/runs/${run.id}/reproduce`).set(bearer(await tokenFor('statistician')));
+    const res = await request(app)
+      .post(`/api/runs/${run.id}/reproduce`)
+      .set(bearer(await tokenFor('statistician')));
     expect(res.status).toBe(200);
     expect(res.body.match).toBe(true);
     expect(res.body.storedSha256).toBe(run.resultsSha256);
     expect(res.body.recomputedSha256).toBe(run.resultsSha256);
     expect(res.body.differences).toBeUndefined();
-    const audit: { n: string }[] = await dataSource.query(`SELECT count(*)::text AS n FROM audit_log WHERE target_id = $1 AND action = 'run.reproduced'`, [run.id]);
+    const audit: { n: string }[] = await dataSource.query(
+      `SELECT count(*)::text AS n FROM audit_log WHERE target_id = $1 AND action = 'run.reproduced'`,
+      [run.id],
+    );
     expect(Number(audit[0].n)).toBe(1);
   });
 
   it('the database refuses an UPDATE or DELETE of the completed run, even by direct SQL', async () => {
-    await expect(dataSource.query(`UPDATE validation_runs SET results = '{}'::jsonb WHERE id = $1`, [run.id])).rejects.toThrow(/immutable/);
-    await expect(dataSource.query(`UPDATE validation_runs SET progress_message = 'x' WHERE id = $1`, [run.id])).rejects.toThrow(/immutable/);
+    await expect(
+      dataSource.query(`UPDATE validation_runs SET results = '{}'::jsonb WHERE id = $1`, [run.id]),
+    ).rejects.toThrow(/immutable/);
+    await expect(
+      dataSource.query(`UPDATE validation_runs SET progress_message = 'x' WHERE id = $1`, [run.id]),
+    ).rejects.toThrow(/immutable/);
     await refusedTwice(`DELETE FROM validation_runs WHERE id = $1`, [run.id], /cannot be deleted/);
     const after = await getRun(run.id);
     expect(after.resultsSha256).toBe(run.resultsSha256);
@@ -183,12 +232,18 @@ describe('a validation run through the background queue', () => {
 
   it('compares two runs of the same score: deltas are b − a', async () => {
     const other = await createCohortFixture(kestrelRows(1200, 11, { logitShift: 0.6 }));
-    const res = await createRun('steward', { scoreVersionId: score.scoreVersionId, cohortVersionId: other.cohortVersionId, settings: {} });
+    const res = await createRun('steward', {
+      scoreVersionId: score.scoreVersionId,
+      cohortVersionId: other.cohortVersionId,
+      settings: {},
+    });
     expect(res.status).toBe(201);
     await drainQueue();
     const b = await getRun(res.body.run.id);
     expect(b.status).toBe('completed');
-    const cmp = await request(app).get(`/api/runs/compare?a=${run.id}&b=${b.id}`).set(bearer(await tokenFor('chair')));
+    const cmp = await request(app)
+      .get(`/api/runs/compare?a=${run.id}&b=${b.id}`)
+      .set(bearer(await tokenFor('chair')));
     expect(cmp.status).toBe(200);
     expect(cmp.body.sameScore).toBe(true);
     expect(cmp.body.settingsDiffer).toEqual(expect.arrayContaining(['subgroupColumns', 'timeGrouping']));
@@ -205,7 +260,11 @@ describe('a validation run through the background queue', () => {
 describe('the queue keeps the API responsive', () => {
   it('computes in a worker thread: the event loop is never blocked for long', async () => {
     const big = await createCohortFixture(kestrelRows(4000, 21));
-    const res = await createRun('statistician', { scoreVersionId: score.scoreVersionId, cohortVersionId: big.cohortVersionId, settings: { bootstrapReplicates: 200 } });
+    const res = await createRun('statistician', {
+      scoreVersionId: score.scoreVersionId,
+      cohortVersionId: big.cohortVersionId,
+      settings: { bootstrapReplicates: 200 },
+    });
     expect(res.status).toBe(201);
     let maxGap = 0;
     let last = Date.now();
@@ -228,20 +287,33 @@ describe('the queue keeps the API responsive', () => {
 
 describe('a run that cannot be computed', () => {
   it('fails with the reason when the cohort lacks a predictor', async () => {
-    const res = await createRun('steward', { scoreVersionId: score.scoreVersionId, cohortVersionId: lacking.cohortVersionId, settings: {} });
+    const res = await createRun('steward', {
+      scoreVersionId: score.scoreVersionId,
+      cohortVersionId: lacking.cohortVersionId,
+      settings: {},
+    });
     expect(res.status).toBe(201);
     await drainQueue();
     const run = await getRun(res.body.run.id);
     expect(run.status).toBe('failed');
     expect(run.error).toMatch(/charlson_index/);
     expect(run.results).toBeNull();
-    const audit: { action: string; details: { reason: string } }[] = await dataSource.query(`SELECT action, details FROM audit_log WHERE target_id = $1 ORDER BY seq`, [run.id]);
+    const audit: { action: string; details: { reason: string } }[] = await dataSource.query(
+      `SELECT action, details FROM audit_log WHERE target_id = $1 ORDER BY seq`,
+      [run.id],
+    );
     expect(audit.map((a) => a.action)).toEqual(['run.created', 'run.failed']);
-    const mail: { kind: string }[] = await dataSource.query(`SELECT kind FROM email_outbox WHERE text LIKE $1`, [`%/runs/${run.id}%`]);
+    const mail: { kind: string }[] = await dataSource.query(`SELECT kind FROM email_outbox WHERE text LIKE $1`, [
+      `%/runs/${run.id}%`,
+    ]);
     expect(mail.map((m) => m.kind)).toEqual(['run.failed']);
     // A failed run is a final record too; reproduce is refused.
-    await expect(dataSource.query(`UPDATE validation_runs SET status = 'queued' WHERE id = $1`, [run.id])).rejects.toThrow(/immutable/);
-    const rep = await request(app).post(`/api/runs/${run.id}/reproduce`).set(bearer(await tokenFor('statistician')));
+    await expect(
+      dataSource.query(`UPDATE validation_runs SET status = 'queued' WHERE id = $1`, [run.id]),
+    ).rejects.toThrow(/immutable/);
+    const rep = await request(app)
+      .post(`/api/runs/${run.id}/reproduce`)
+      .set(bearer(await tokenFor('statistician')));
     expect(rep.status).toBe(409);
   });
 });
@@ -257,9 +329,17 @@ describe('crash recovery', () => {
   }
 
   /** The job pg-boss hands a worker for a run; retryCount 1 is the retry after a process died. */
-  const jobOf = (runId: string, retryCount: number) => ({ id: `test-${runId}`, name: 'run', data: { runId }, retryCount, retryLimit: 1 }) as unknown as Parameters<JobHandler<{ runId: string }>>[0];
+  const jobOf = (runId: string, retryCount: number) =>
+    ({ id: `test-${runId}`, name: 'run', data: { runId }, retryCount, retryLimit: 1 }) as unknown as Parameters<
+      JobHandler<{ runId: string }>
+    >[0];
   const auditCount = async (id: string, action: string) =>
-    ((await dataSource.query(`SELECT count(*)::int AS n FROM audit_log WHERE target_id = $1 AND action = $2`, [id, action])) as { n: number }[])[0].n;
+    (
+      (await dataSource.query(`SELECT count(*)::int AS n FROM audit_log WHERE target_id = $1 AND action = $2`, [
+        id,
+        action,
+      ])) as { n: number }[]
+    )[0].n;
 
   it('the retry of a run whose process died computes it again, once; a later attempt stores nothing more', async () => {
     const interrupted = await insertRunning(1);
@@ -295,16 +375,21 @@ describe('crash recovery', () => {
       retried = runJob(jobOf(id, 1));
       // The retry is blocked on the lease (a waiting advisory lock request), and the run is untouched.
       const waiting = async () =>
-        ((await dataSource.query(
-          `SELECT count(*)::int AS n FROM pg_locks WHERE locktype = 'advisory' AND NOT granted AND ((classid::bigint << 32) | objid::bigint) = hashtextextended('plumbline run ' || $1::text, 0)`,
-          [id],
-        )) as { n: number }[])[0].n;
+        (
+          (await dataSource.query(
+            `SELECT count(*)::int AS n FROM pg_locks WHERE locktype = 'advisory' AND NOT granted AND ((classid::bigint << 32) | objid::bigint) = hashtextextended('plumbline run ' || $1::text, 0)`,
+            [id],
+          )) as { n: number }[]
+        )[0].n;
       const deadline = Date.now() + 60_000;
       while ((await waiting()) === 0 && Date.now() < deadline) await new Promise((r) => setTimeout(r, 50));
       expect(await waiting()).toBe(1);
       expect((await getRun(id)).attempt).toBe(1);
       // The "other process" finishes the run itself before it lets go.
-      await other.query(`UPDATE validation_runs SET status = 'failed', error = 'finished by the other process', finished_at = now() WHERE id = $1`, [id]);
+      await other.query(
+        `UPDATE validation_runs SET status = 'failed', error = 'finished by the other process', finished_at = now() WHERE id = $1`,
+        [id],
+      );
     } finally {
       await other.end(); // PostgreSQL drops its lock with its session
     }
@@ -316,15 +401,20 @@ describe('crash recovery', () => {
   });
 
   it('holds the lease while it computes, and drops it when the run ends', async () => {
-    const res = await createRun('statistician', { scoreVersionId: score.scoreVersionId, cohortVersionId: cohort.cohortVersionId });
+    const res = await createRun('statistician', {
+      scoreVersionId: score.scoreVersionId,
+      cohortVersionId: cohort.cohortVersionId,
+    });
     expect(res.status).toBe(201);
     const id = res.body.run.id as string;
     const leaseHeld = async () =>
-      ((await dataSource.query(
-        `SELECT count(*)::int AS n FROM pg_locks WHERE locktype = 'advisory' AND granted
+      (
+        (await dataSource.query(
+          `SELECT count(*)::int AS n FROM pg_locks WHERE locktype = 'advisory' AND granted
            AND objsubid = 1 AND ((classid::bigint << 32) | objid::bigint) = hashtextextended('plumbline run ' || $1::text, 0)`,
-        [id],
-      )) as { n: number }[])[0].n > 0;
+          [id],
+        )) as { n: number }[]
+      )[0].n > 0;
     const processing = processNextRun();
     let sawLease = false;
     while (!sawLease) {
@@ -341,7 +431,9 @@ describe('crash recovery', () => {
 
   it('an UPDATE of a queued or running run is allowed (progress)', async () => {
     const id = await insertRunning(1);
-    await dataSource.query(`UPDATE validation_runs SET progress = 0.5, progress_message = 'half way' WHERE id = $1`, [id]);
+    await dataSource.query(`UPDATE validation_runs SET progress = 0.5, progress_message = 'half way' WHERE id = $1`, [
+      id,
+    ]);
     expect((await getRun(id)).progress).toBe(0.5);
     await runJob(jobOf(id, 1));
     expect((await getRun(id)).status).toBe('completed');
@@ -351,7 +443,9 @@ describe('crash recovery', () => {
 describe('who may do what', () => {
   let completedId: string;
   beforeAll(async () => {
-    const rows: { id: string }[] = await dataSource.query(`SELECT id FROM validation_runs WHERE status = 'completed' LIMIT 1`);
+    const rows: { id: string }[] = await dataSource.query(
+      `SELECT id FROM validation_runs WHERE status = 'completed' LIMIT 1`,
+    );
     completedId = rows[0].id;
   });
 
@@ -373,7 +467,9 @@ describe('who may do what', () => {
     expect((await request(app).get(`/api/runs/${completedId}`).set(chair)).status).toBe(200);
     const steward = bearer(await tokenFor('steward'));
     expect((await request(app).post(`/api/runs/${completedId}/reproduce`).set(steward)).status).toBe(403);
-    expect((await request(app).get(`/api/runs/compare?a=${completedId}&b=${completedId}`).set(steward)).status).toBe(403);
+    expect((await request(app).get(`/api/runs/compare?a=${completedId}&b=${completedId}`).set(steward)).status).toBe(
+      403,
+    );
     expect((await request(app).get('/api/runs').set(steward)).status).toBe(200);
     const admin = bearer(await tokenFor('admin'));
     expect((await request(app).post('/api/runs').set(admin).send(body)).status).toBe(403);
@@ -406,17 +502,33 @@ describe('settings validation', () => {
     const a = await createRun('statistician', { ...base(), settings: { subgroupColumns: ['ward'] } });
     expect(a.status).toBe(400);
     expect(a.body.error).toMatch(/ward/);
-    const b = await createRun('statistician', { scoreVersionId: score.scoreVersionId, cohortVersionId: undated.cohortVersionId, settings: { timeGrouping: 'quarter' } });
+    const b = await createRun('statistician', {
+      scoreVersionId: score.scoreVersionId,
+      cohortVersionId: undated.cohortVersionId,
+      settings: { timeGrouping: 'quarter' },
+    });
     expect(b.status).toBe(400);
     expect(b.body.error).toMatch(/event dates/);
   });
 
   it('404 for an unknown score or cohort version; 400 for a malformed id', async () => {
     const missing = '00000000-0000-4000-8000-000000000000';
-    expect((await createRun('statistician', { scoreVersionId: missing, cohortVersionId: cohort.cohortVersionId })).status).toBe(404);
-    expect((await createRun('statistician', { scoreVersionId: score.scoreVersionId, cohortVersionId: missing })).status).toBe(404);
-    expect((await createRun('statistician', { scoreVersionId: 'nope', cohortVersionId: cohort.cohortVersionId })).status).toBe(400);
-    expect((await request(app).get(`/api/runs/${missing}`).set(bearer(await tokenFor('chair')))).status).toBe(404);
+    expect(
+      (await createRun('statistician', { scoreVersionId: missing, cohortVersionId: cohort.cohortVersionId })).status,
+    ).toBe(404);
+    expect(
+      (await createRun('statistician', { scoreVersionId: score.scoreVersionId, cohortVersionId: missing })).status,
+    ).toBe(404);
+    expect(
+      (await createRun('statistician', { scoreVersionId: 'nope', cohortVersionId: cohort.cohortVersionId })).status,
+    ).toBe(400);
+    expect(
+      (
+        await request(app)
+          .get(`/api/runs/${missing}`)
+          .set(bearer(await tokenFor('chair')))
+      ).status,
+    ).toBe(404);
   });
 });
 
@@ -424,7 +536,10 @@ describe('the worker thread under plain tsx (as the server runs)', () => {
   it('starts, loads the cohort itself, computes, and gives the same hashes as an inline computation', async () => {
     const { execFile } = await import('node:child_process');
     const { promisify } = await import('node:util');
-    const { stdout } = await promisify(execFile)('node_modules/.bin/tsx', ['tests/helpers/runPoolProbe.ts'], { cwd: process.cwd(), timeout: 60_000 });
+    const { stdout } = await promisify(execFile)('node_modules/.bin/tsx', ['tests/helpers/runPoolProbe.ts'], {
+      cwd: process.cwd(),
+      timeout: 60_000,
+    });
     const out = JSON.parse(stdout.trim().split('\n').pop()!);
     expect(out.threaded).toMatch(/^[0-9a-f]{64}$/);
     expect(out.threaded).toBe(out.inline);

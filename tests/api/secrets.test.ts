@@ -16,7 +16,21 @@ beforeEach(() => {
   for (const m of ['log', 'info', 'warn', 'error', 'debug', 'trace'] as const) {
     originals[m] = console[m];
     console[m] = (...args: unknown[]) => {
-      captured.push(args.map((a) => (typeof a === 'string' ? a : (() => { try { return JSON.stringify(a) ?? String(a); } catch { return String(a); } })())).join(' '));
+      captured.push(
+        args
+          .map((a) =>
+            typeof a === 'string'
+              ? a
+              : (() => {
+                  try {
+                    return JSON.stringify(a) ?? String(a);
+                  } catch {
+                    return String(a);
+                  }
+                })(),
+          )
+          .join(' '),
+      );
     };
   }
   for (const s of ['stdout', 'stderr'] as const) {
@@ -39,17 +53,45 @@ describe('password policy', () => {
     expect(PASSWORD_MIN_LENGTH).toBe(12);
     const admin = bearer(await tokenFor('admin'));
     const short = 'a'.repeat(PASSWORD_MIN_LENGTH - 1);
-    const tooShort = await request(app).post('/api/users').set(admin).send({ email: uniqueEmail('short'), name: 'Short', role: 'clinician', password: short });
+    const tooShort = await request(app)
+      .post('/api/users')
+      .set(admin)
+      .send({ email: uniqueEmail('short'), name: 'Short', role: 'clinician', password: short });
     expect(tooShort.status).toBe(400);
     expect(tooShort.body.error).toMatch(/at least 12 characters/);
-    const ok = await request(app).post('/api/users').set(admin).send({ email: uniqueEmail('exact'), name: 'Exact', role: 'clinician', password: 'b'.repeat(PASSWORD_MIN_LENGTH) });
+    const ok = await request(app)
+      .post('/api/users')
+      .set(admin)
+      .send({
+        email: uniqueEmail('exact'),
+        name: 'Exact',
+        role: 'clinician',
+        password: 'b'.repeat(PASSWORD_MIN_LENGTH),
+      });
     expect(ok.status).toBe(201);
-    const reset = await request(app).post(`/api/users/${ok.body.user.id}/password`).set(admin).send({ newPassword: short });
+    const reset = await request(app)
+      .post(`/api/users/${ok.body.user.id}/password`)
+      .set(admin)
+      .send({ newPassword: short });
     expect(reset.status).toBe(400);
-    const token = (await request(app).post('/api/auth/login').send({ email: ok.body.user.email, password: 'b'.repeat(12) })).body.token;
-    const change = await request(app).post('/api/auth/password').set(bearer(token)).send({ currentPassword: 'b'.repeat(12), newPassword: short });
+    const token = (
+      await request(app)
+        .post('/api/auth/login')
+        .send({ email: ok.body.user.email, password: 'b'.repeat(12) })
+    ).body.token;
+    const change = await request(app)
+      .post('/api/auth/password')
+      .set(bearer(token))
+      .send({ currentPassword: 'b'.repeat(12), newPassword: short });
     expect(change.status).toBe(400);
-    expect((await request(app).post('/api/users').set(admin).send({ email: uniqueEmail('long'), name: 'Long', role: 'clinician', password: 'c'.repeat(201) })).status).toBe(400);
+    expect(
+      (
+        await request(app)
+          .post('/api/users')
+          .set(admin)
+          .send({ email: uniqueEmail('long'), name: 'Long', role: 'clinician', password: 'c'.repeat(201) })
+      ).status,
+    ).toBe(400);
   });
 
   it('stores bcrypt hashes (cost ≥ 10), never the password', async () => {
@@ -76,7 +118,12 @@ describe('no password or hash leaves the server', () => {
       responses.push(res);
       return res;
     };
-    const created = await r(request(app).post('/api/users').set(admin).send({ email, name: 'Secret Keeper', role: 'statistician', password: first }));
+    const created = await r(
+      request(app)
+        .post('/api/users')
+        .set(admin)
+        .send({ email, name: 'Secret Keeper', role: 'statistician', password: first }),
+    );
     expect(created.status).toBe(201);
     const id = created.body.user.id as string;
     await r(request(app).post('/api/auth/login').send({ email, password: 'wrong-password-here' }));
@@ -84,17 +131,30 @@ describe('no password or hash leaves the server', () => {
     expect(login.status).toBe(200);
     const own = bearer(login.body.token);
     await r(request(app).get('/api/auth/me').set(own));
-    const changed = await r(request(app).post('/api/auth/password').set(own).send({ currentPassword: first, newPassword: second }));
+    const changed = await r(
+      request(app).post('/api/auth/password').set(own).send({ currentPassword: first, newPassword: second }),
+    );
     expect(changed.status).toBe(200);
-    await r(request(app).post('/api/auth/password').set(bearer(changed.body.token)).send({ currentPassword: 'not-the-current-one', newPassword: third }));
-    expect((await r(request(app).post(`/api/users/${id}/password`).set(admin).send({ newPassword: third }))).status).toBe(204);
+    await r(
+      request(app)
+        .post('/api/auth/password')
+        .set(bearer(changed.body.token))
+        .send({ currentPassword: 'not-the-current-one', newPassword: third }),
+    );
+    expect(
+      (await r(request(app).post(`/api/users/${id}/password`).set(admin).send({ newPassword: third }))).status,
+    ).toBe(204);
     await r(request(app).patch(`/api/users/${id}`).set(admin).send({ role: 'steward' }));
     await r(request(app).get('/api/users').set(admin));
     await r(request(app).get('/api/audit').set(admin).query({ limit: 500 }));
     await r(request(app).get('/api/audit.csv').set(admin));
     // A malformed sign-in with the password in it: the validation message must not echo it.
     await r(request(app).post('/api/auth/login').send({ email: 'not an email', password: third }));
-    await r(request(app).post('/api/auth/login').send({ email, password: { secret: third } }));
+    await r(
+      request(app)
+        .post('/api/auth/login')
+        .send({ email, password: { secret: third } }),
+    );
 
     const hashes: { password_hash: string }[] = await dataSource.query('SELECT password_hash FROM users');
     const secrets = [first, second, third, 'plumbline-demo-2026', ...hashes.map((h) => h.password_hash)];

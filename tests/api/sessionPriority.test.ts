@@ -9,9 +9,17 @@ import { lowerDatabaseSessionPriority, WORKER_NICE } from '../../server/src/jobs
 const linux = process.platform === 'linux' && existsSync('/proc/self/stat');
 const niceOf = (pid: number) => Number(readFileSync(`/proc/${pid}/stat`, 'utf8').split(') ')[1].split(' ')[16]);
 const connect = async () => {
-  const c = new pg.Client({ host: process.env.PGHOST ?? '127.0.0.1', port: Number(process.env.PGPORT ?? 54329), user: process.env.PGUSER ?? 'postgres', password: process.env.PGPASSWORD, database: process.env.PGDATABASE });
+  const c = new pg.Client({
+    host: process.env.PGHOST ?? '127.0.0.1',
+    port: Number(process.env.PGPORT ?? 54329),
+    user: process.env.PGUSER ?? 'postgres',
+    password: process.env.PGPASSWORD,
+    database: process.env.PGDATABASE,
+  });
   await c.connect();
-  const { rows: [{ pid }] } = await c.query('SELECT pg_backend_pid() AS pid');
+  const {
+    rows: [{ pid }],
+  } = await c.query('SELECT pg_backend_pid() AS pid');
   return { c, pid: pid as number };
 };
 
@@ -25,7 +33,9 @@ describe.skipIf(!linux)('database session priority', () => {
       expect(niceOf(a.pid)).toBe(before);
       const lowered = await lowerDatabaseSessionPriority(a.c, process.env.PGHOST ?? '127.0.0.1');
       // Allowed as root or as the user PostgreSQL runs as; refused (and harmless) otherwise.
-      const mayRenice = process.getuid?.() === 0 || readFileSync(`/proc/${a.pid}/status`, 'utf8').includes(`Uid:\t${process.getuid?.()}\t`);
+      const mayRenice =
+        process.getuid?.() === 0 ||
+        readFileSync(`/proc/${a.pid}/status`, 'utf8').includes(`Uid:\t${process.getuid?.()}\t`);
       if (mayRenice && before < WORKER_NICE) {
         expect(lowered).toBe(true);
         expect(niceOf(a.pid)).toBe(WORKER_NICE);

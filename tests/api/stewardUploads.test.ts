@@ -22,22 +22,32 @@ beforeAll(async () => {
   score = await createScoreFixture({ name: `Steward flow score ${run}` });
 });
 
-const goodCsv = (n: number, seed: number) => `${[...kestrelQuarterCsv({ year: 2025, quarter: 3, index: 6, n, seed })].join('\n')}\n`;
+const goodCsv = (n: number, seed: number) =>
+  `${[...kestrelQuarterCsv({ year: 2025, quarter: 3, index: 6, n, seed })].join('\n')}\n`;
 function writeCsv(name: string, text: string): string {
   const file = path.join(tmp, name);
   writeFileSync(file, text);
   return file;
 }
 async function upload(file: string, fields: Record<string, string>, token?: string) {
-  let req = request(app).post('/api/cohorts').set(bearer(token ?? (await tokenFor('steward'))));
+  let req = request(app)
+    .post('/api/cohorts')
+    .set(bearer(token ?? (await tokenFor('steward'))));
   for (const [k, v] of Object.entries({ scoreVersionId: score.scoreVersionId, ...fields })) req = req.field(k, v);
   return req.attach('file', file);
 }
 async function mapAndWait(id: string, mapping: object = KESTREL_MAPPING) {
-  const res = await request(app).post(`/api/uploads/${id}/mapping`).set(bearer(await tokenFor('steward'))).send({ mapping });
+  const res = await request(app)
+    .post(`/api/uploads/${id}/mapping`)
+    .set(bearer(await tokenFor('steward')))
+    .send({ mapping });
   expect(res.status, JSON.stringify(res.body)).toBe(202);
   await whenProcessed(id);
-  return (await request(app).get(`/api/uploads/${id}`).set(bearer(await tokenFor('steward')))).body.upload;
+  return (
+    await request(app)
+      .get(`/api/uploads/${id}`)
+      .set(bearer(await tokenFor('steward')))
+  ).body.upload;
 }
 
 /** 40 good rows with three bad ones: a length of stay that is not a number (line 5), an unknown outcome label (line 9), a ragged row (line 12). */
@@ -59,20 +69,30 @@ describe('a cohort name that exists', () => {
     const first = await upload(writeCsv('v1.csv', goodCsv(30, 1)), { cohortName: name });
     expect(first.status, JSON.stringify(first.body)).toBe(201);
     await mapAndWait(first.body.upload.id);
-    const stored = await request(app).post(`/api/uploads/${first.body.upload.id}/commit`).set(bearer(await tokenFor('steward'))).send({});
+    const stored = await request(app)
+      .post(`/api/uploads/${first.body.upload.id}/commit`)
+      .set(bearer(await tokenFor('steward')))
+      .send({});
     expect(stored.status).toBe(201);
 
     const again = await upload(writeCsv('v2.csv', goodCsv(30, 2)), { cohortName: name.toUpperCase() });
     expect(again.status).toBe(409);
-    expect(again.body.error).toMatch(new RegExp(`a cohort named "${name}" already exists: add this file as a new version of "${name}"`));
+    expect(again.body.error).toMatch(
+      new RegExp(`a cohort named "${name}" already exists: add this file as a new version of "${name}"`),
+    );
     expect(again.body.error).not.toContain(stored.body.cohortId);
     expect(again.body.details).toEqual({ existingCohort: { id: stored.body.cohortId, name } });
 
-    const asVersion = await upload(writeCsv('v2.csv', goodCsv(30, 2)), { cohortId: again.body.details.existingCohort.id });
+    const asVersion = await upload(writeCsv('v2.csv', goodCsv(30, 2)), {
+      cohortId: again.body.details.existingCohort.id,
+    });
     expect(asVersion.status, JSON.stringify(asVersion.body)).toBe(201);
     expect(asVersion.body.upload.cohortId).toBe(stored.body.cohortId);
     await mapAndWait(asVersion.body.upload.id);
-    const v2 = await request(app).post(`/api/uploads/${asVersion.body.upload.id}/commit`).set(bearer(await tokenFor('steward'))).send({});
+    const v2 = await request(app)
+      .post(`/api/uploads/${asVersion.body.upload.id}/commit`)
+      .set(bearer(await tokenFor('steward')))
+      .send({});
     expect(v2.body).toMatchObject({ cohortId: stored.body.cohortId, version: 2 });
   });
 });
@@ -81,26 +101,43 @@ describe('unfinished uploads', () => {
   it('are listed for the steward who started them, not for another steward, and leave the list when stored', async () => {
     const own = await upload(writeCsv('open.csv', goodCsv(20, 3)), { cohortName: `Unfinished ${run}` });
     expect(own.status).toBe(201);
-    const mine = await request(app).get('/api/uploads').set(bearer(await tokenFor('steward')));
+    const mine = await request(app)
+      .get('/api/uploads')
+      .set(bearer(await tokenFor('steward')));
     expect(mine.body.uploads.map((u: { id: string }) => u.id)).toContain(own.body.upload.id);
-    const other = await request(app).get('/api/uploads').set(bearer(await tokenFor('statistician')));
+    const other = await request(app)
+      .get('/api/uploads')
+      .set(bearer(await tokenFor('statistician')));
     expect(other.body.uploads.map((u: { id: string }) => u.id)).not.toContain(own.body.upload.id);
-    expect((await request(app).get(`/api/uploads/${own.body.upload.id}`).set(bearer(await tokenFor('statistician')))).status).toBe(404);
-    await request(app).post(`/api/uploads/${own.body.upload.id}/discard`).set(bearer(await tokenFor('steward'))).expect(200);
-    const after = await request(app).get('/api/uploads').set(bearer(await tokenFor('steward')));
+    expect(
+      (
+        await request(app)
+          .get(`/api/uploads/${own.body.upload.id}`)
+          .set(bearer(await tokenFor('statistician')))
+      ).status,
+    ).toBe(404);
+    await request(app)
+      .post(`/api/uploads/${own.body.upload.id}/discard`)
+      .set(bearer(await tokenFor('steward')))
+      .expect(200);
+    const after = await request(app)
+      .get('/api/uploads')
+      .set(bearer(await tokenFor('steward')));
     expect(after.body.uploads.map((u: { id: string }) => u.id)).not.toContain(own.body.upload.id);
   });
 });
 
 describe('rejected rows', () => {
-  it('the CSV carries each rejected row once with its reasons and mapped values, never unmapped columns or a ragged row\'s text', async () => {
+  it("the CSV carries each rejected row once with its reasons and mapped values, never unmapped columns or a ragged row's text", async () => {
     const text = fileWithBadRows();
     const res = await upload(writeCsv('bad.csv', text), { cohortName: `Rejections ${run}` });
     // Map all but the site column: site must then never appear in the download.
     const { site: _site, ...subgroups } = KESTREL_MAPPING.subgroups;
     const checked = await mapAndWait(res.body.upload.id, { ...KESTREL_MAPPING, subgroups });
     expect(checked.rowsRejected).toBe(3);
-    const csv = await request(app).get(`/api/uploads/${checked.id}/rejections.csv`).set(bearer(await tokenFor('steward')));
+    const csv = await request(app)
+      .get(`/api/uploads/${checked.id}/rejections.csv`)
+      .set(bearer(await tokenFor('steward')));
     expect(csv.status).toBe(200);
     const parsed = Papa.parse<string[]>(csv.text.trim(), { skipEmptyLines: true }).data;
     const header = parsed[0];
@@ -115,12 +152,18 @@ describe('rejected rows', () => {
     const fileHeader = source[0].split(',');
     // Each mapped value is the file's cell in that column.
     for (const line of [5, 9]) {
-      for (const [k, col] of header.slice(2).entries()) expect(byLine.get(line)![k + 2]).toBe(sourceCells(line)[fileHeader.indexOf(col)]);
+      for (const [k, col] of header.slice(2).entries())
+        expect(byLine.get(line)![k + 2]).toBe(sourceCells(line)[fileHeader.indexOf(col)]);
     }
     expect(byLine.get(5)![1]).toMatch(/length_of_stay: length_of_stay must be a decimal number/);
     expect(byLine.get(9)![1]).toMatch(/readmitted_30d: the outcome must be one of/);
     expect(byLine.get(12)![1]).toMatch(/12 fields; the header has 11/);
-    expect(byLine.get(12)!.slice(2).every((c) => c === '')).toBe(true);
+    expect(
+      byLine
+        .get(12)!
+        .slice(2)
+        .every((c) => c === ''),
+    ).toBe(true);
     expect(csv.text).not.toContain('Extra Text Never Sent');
     expect(csv.text).not.toContain('Main campus');
 
@@ -134,8 +177,14 @@ describe('rejected rows', () => {
     const again = await upload(writeCsv('fixed.csv', `${onlyFixed}\n`), { cohortName: `Fixed rows ${run}` });
     expect(again.status, JSON.stringify(again.body)).toBe(201);
     const rechecked = await mapAndWait(again.body.upload.id, { ...KESTREL_MAPPING, subgroups });
-    expect({ accepted: rechecked.rowsAccepted, rejected: rechecked.rowsRejected }).toEqual({ accepted: 2, rejected: 0 });
-    await request(app).post(`/api/uploads/${again.body.upload.id}/discard`).set(bearer(await tokenFor('steward'))).expect(200);
+    expect({ accepted: rechecked.rowsAccepted, rejected: rechecked.rowsRejected }).toEqual({
+      accepted: 2,
+      rejected: 0,
+    });
+    await request(app)
+      .post(`/api/uploads/${again.body.upload.id}/discard`)
+      .set(bearer(await tokenFor('steward')))
+      .expect(200);
   });
 
   it('chosen rows are excluded one by one: every rejected row must be chosen, and the audit names the lines', async () => {
@@ -143,38 +192,77 @@ describe('rejected rows', () => {
     const checked = await mapAndWait(res.body.upload.id);
     expect(checked.rowsRejected).toBe(3);
     const token = await tokenFor('steward');
-    const partial = await request(app).post(`/api/uploads/${checked.id}/commit`).set(bearer(token)).send({ excludeLines: [5, 12] });
+    const partial = await request(app)
+      .post(`/api/uploads/${checked.id}/commit`)
+      .set(bearer(token))
+      .send({ excludeLines: [5, 12] });
     expect(partial.status).toBe(409);
     expect(partial.body.error).toMatch(/1 rejected row\(s\) are neither excluded nor fixed \(line 9\)/);
     expect(partial.body.details).toEqual({ openLines: [9] });
-    const wrong = await request(app).post(`/api/uploads/${checked.id}/commit`).set(bearer(token)).send({ excludeLines: [5, 9, 12, 13] });
+    const wrong = await request(app)
+      .post(`/api/uploads/${checked.id}/commit`)
+      .set(bearer(token))
+      .send({ excludeLines: [5, 9, 12, 13] });
     expect(wrong.status).toBe(400);
     expect(wrong.body.error).toMatch(/line\(s\) 13 were not rejected/);
     const [{ n: before }] = await dataSource.query('SELECT count(*)::int AS n FROM cohort_versions');
     expect(before).toBeGreaterThan(0);
-    const stored = await request(app).post(`/api/uploads/${checked.id}/commit`).set(bearer(token)).send({ excludeLines: [12, 9, 5] });
+    const stored = await request(app)
+      .post(`/api/uploads/${checked.id}/commit`)
+      .set(bearer(token))
+      .send({ excludeLines: [12, 9, 5] });
     expect(stored.status, JSON.stringify(stored.body)).toBe(201);
     expect(stored.body).toMatchObject({ rowCount: 37, excludedCount: 3 });
-    const [entry] = await dataSource.query(`SELECT details FROM audit_log WHERE action = 'cohort.version.stored' AND target_id = $1`, [stored.body.cohortVersionId]);
+    const [entry] = await dataSource.query(
+      `SELECT details FROM audit_log WHERE action = 'cohort.version.stored' AND target_id = $1`,
+      [stored.body.cohortVersionId],
+    );
     expect(entry.details.excludedLines).toEqual([5, 9, 12]);
   });
 });
 
 describe('the cohort template of a score version', () => {
   it('is a CSV header of the predictor columns, the outcome and the period, for the roles that read scores', async () => {
-    const res = await request(app).get(`/api/scores/${score.scoreId}/versions/1/template.csv`).set(bearer(await tokenFor('steward')));
+    const res = await request(app)
+      .get(`/api/scores/${score.scoreId}/versions/1/template.csv`)
+      .set(bearer(await tokenFor('steward')));
     expect(res.status).toBe(200);
     expect(res.headers['content-type']).toMatch(/text\/csv/);
     expect(res.headers['content-disposition']).toMatch(/cohort-template\.csv/);
     const predictors = [...new Set(score.model!.predictors.map((p) => p.column))];
     expect(res.text).toBe(`${[...predictors, 'outcome', 'period'].join(',')}\r\n`);
-    expect((await request(app).get(`/api/scores/${score.scoreId}/versions/9/template.csv`).set(bearer(await tokenFor('steward')))).status).toBe(404);
-    expect((await request(app).get(`/api/scores/${score.scoreId}/versions/1/template.csv`).set(bearer(await tokenFor('clinician')))).status).toBe(403);
+    expect(
+      (
+        await request(app)
+          .get(`/api/scores/${score.scoreId}/versions/9/template.csv`)
+          .set(bearer(await tokenFor('steward')))
+      ).status,
+    ).toBe(404);
+    expect(
+      (
+        await request(app)
+          .get(`/api/scores/${score.scoreId}/versions/1/template.csv`)
+          .set(bearer(await tokenFor('clinician')))
+      ).status,
+    ).toBe(403);
   });
   it('uploaded as it comes (with rows added), it is mapped without changes', async () => {
-    const res = await request(app).get(`/api/scores/${score.scoreId}/versions/1/template.csv`).set(bearer(await tokenFor('steward')));
+    const res = await request(app)
+      .get(`/api/scores/${score.scoreId}/versions/1/template.csv`)
+      .set(bearer(await tokenFor('steward')));
     const header = res.text.trim().split(',');
-    const row = header.map((h) => ({ age: '70', length_of_stay: '4', prior_admissions: '1', emergency_admission: 'yes', charlson_index: '2', outcome: '1', period: '2026-01' })[h] ?? '1');
+    const row = header.map(
+      (h) =>
+        ({
+          age: '70',
+          length_of_stay: '4',
+          prior_admissions: '1',
+          emergency_admission: 'yes',
+          charlson_index: '2',
+          outcome: '1',
+          period: '2026-01',
+        })[h] ?? '1',
+    );
     const file = writeCsv('template.csv', `${res.text}${row.join(',')}\r\n${row.join(',')}\r\n`);
     const up = await upload(file, { cohortName: `From template ${run}` });
     expect(up.status, JSON.stringify(up.body)).toBe(201);
@@ -182,7 +270,10 @@ describe('the cohort template of a score version', () => {
     expect(suggested.outcome.column).toBe('outcome');
     expect(suggested.date).toEqual({ column: 'period' });
     for (const p of score.model!.predictors) expect(suggested.predictors[p.column]).toBe(p.column);
-    await request(app).post(`/api/uploads/${up.body.upload.id}/discard`).set(bearer(await tokenFor('steward'))).expect(200);
+    await request(app)
+      .post(`/api/uploads/${up.body.upload.id}/discard`)
+      .set(bearer(await tokenFor('steward')))
+      .expect(200);
     expect(readFileSync(file, 'utf8')).toContain('period');
   });
 });

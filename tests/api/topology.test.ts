@@ -32,7 +32,11 @@ const until = <T>(what: string, get: () => Promise<T> | T, ok: (v: T) => boolean
   waitUntil(what, get, ok, timeoutMs, stepMs, () => `worker:\n${worker?.output.slice(-2000)}`);
 
 const token = (server: ServerProcess, email: string, password = DEMO_PASSWORD) => server.bearer(email, password);
-const json = (h: Record<string, string>, body: unknown): RequestInit => ({ method: 'POST', headers: { ...h, 'Content-Type': 'application/json' }, body: JSON.stringify(body) });
+const json = (h: Record<string, string>, body: unknown): RequestInit => ({
+  method: 'POST',
+  headers: { ...h, 'Content-Type': 'application/json' },
+  body: JSON.stringify(body),
+});
 
 beforeAll(async () => {
   cluster = await createPreparedCluster();
@@ -74,14 +78,29 @@ describe('two API processes (jobs off) and one worker on one database', () => {
     const created = await apiA.fetchJson('/api/cohorts', { method: 'POST', headers: stewardA, body: form }, 120_000);
     expect(created.status, JSON.stringify(created.body)).toBe(201);
     const uploadId = (created.body.upload as { id: string }).id;
-    const mapped = await apiB.fetchJson(`/api/uploads/${uploadId}/mapping`, json(stewardB, { mapping: KESTREL_MAPPING }));
+    const mapped = await apiB.fetchJson(
+      `/api/uploads/${uploadId}/mapping`,
+      json(stewardB, { mapping: KESTREL_MAPPING }),
+    );
     expect(mapped.status, JSON.stringify(mapped.body)).toBeLessThan(300);
     // Neither API process runs jobs: the check is the worker's.
-    const checked = await until('the worker to check the upload', async () => (await apiA.fetchJson(`/api/uploads/${uploadId}`, { headers: stewardA })).body.upload as { status: string; rowsAccepted: number },
-      (u) => u?.status !== 'processing', 300_000);
+    const checked = await until(
+      'the worker to check the upload',
+      async () =>
+        (await apiA.fetchJson(`/api/uploads/${uploadId}`, { headers: stewardA })).body.upload as {
+          status: string;
+          rowsAccepted: number;
+        },
+      (u) => u?.status !== 'processing',
+      300_000,
+    );
     expect(checked.status).toBe('checked');
     expect(checked.rowsAccepted).toBeGreaterThan(3000);
-    expect(num(`SELECT count(*) FROM pgboss.job WHERE name = 'upload-check' AND state = 'completed' AND data->>'uploadId' = '${uploadId}'`)).toBe(1);
+    expect(
+      num(
+        `SELECT count(*) FROM pgboss.job WHERE name = 'upload-check' AND state = 'completed' AND data->>'uploadId' = '${uploadId}'`,
+      ),
+    ).toBe(1);
 
     const listedBefore = await apiA.fetchJson('/api/cohorts', { headers: stewardA });
     expect(JSON.stringify(listedBefore.body)).not.toContain('Topology cohort');
@@ -100,14 +119,29 @@ describe('two API processes (jobs off) and one worker on one database', () => {
     const created = await apiA.fetchJson('/api/runs', json(statA, { scoreVersionId, cohortVersionId }));
     expect(created.status, JSON.stringify(created.body)).toBe(201);
     runId = (created.body.run as { id: string }).id;
-    const done = await until('the worker to complete the run', async () => (await apiB.fetchJson(`/api/runs/${runId}`, { headers: statB })).body.run as { status: string },
-      (r) => r?.status === 'completed' || r?.status === 'failed', 300_000);
+    const done = await until(
+      'the worker to complete the run',
+      async () => (await apiB.fetchJson(`/api/runs/${runId}`, { headers: statB })).body.run as { status: string },
+      (r) => r?.status === 'completed' || r?.status === 'failed',
+      300_000,
+    );
     expect(done.status).toBe('completed');
-    const viaA = (await apiA.fetchJson(`/api/runs/${runId}`, { headers: statA })).body.run as { status: string; resultsSha256: string };
+    const viaA = (await apiA.fetchJson(`/api/runs/${runId}`, { headers: statA })).body.run as {
+      status: string;
+      resultsSha256: string;
+    };
     expect(viaA.status).toBe('completed');
     expect(viaA.resultsSha256).toMatch(/^[0-9a-f]{64}$/);
     // The drift rules of the score were evaluated as a job of their own, enqueued with the completed run.
-    await until('the drift-rule job', () => num(`SELECT count(*) FROM pgboss.job WHERE name = 'drift-rules' AND state = 'completed' AND data->>'runId' = '${runId}'`), (n) => n === 1, 120_000);
+    await until(
+      'the drift-rule job',
+      () =>
+        num(
+          `SELECT count(*) FROM pgboss.job WHERE name = 'drift-rules' AND state = 'completed' AND data->>'runId' = '${runId}'`,
+        ),
+      (n) => n === 1,
+      120_000,
+    );
   });
 
   it('score cards: an approval through A shows through B, and a revocation through B is gone from A at once', async () => {
@@ -117,12 +151,26 @@ describe('two API processes (jobs off) and one worker on one database', () => {
     const chairB = await token(apiB, 'chair@demo.test');
     const clinA = await token(apiA, 'clinician@demo.test');
     const clinB = await token(apiB, 'clinician@demo.test');
-    expect((await apiA.fetchJson(`/api/runs/${runId}/review`, json(statA, { verdict: 'fit for use', reasoning: 'Invented data; the figures look fine.' }))).status).toBeLessThan(300);
-    const signed = await apiA.fetchJson(`/api/runs/${runId}/signoff`, json(chairA, { decision: 'approve', password: DEMO_PASSWORD }));
+    expect(
+      (
+        await apiA.fetchJson(
+          `/api/runs/${runId}/review`,
+          json(statA, { verdict: 'fit for use', reasoning: 'Invented data; the figures look fine.' }),
+        )
+      ).status,
+    ).toBeLessThan(300);
+    const signed = await apiA.fetchJson(
+      `/api/runs/${runId}/signoff`,
+      json(chairA, { decision: 'approve', password: DEMO_PASSWORD }),
+    );
     expect(signed.status, JSON.stringify(signed.body)).toBeLessThan(300);
-    const cards = async (server: ServerProcess, h: Record<string, string>) => JSON.stringify((await server.fetchJson('/api/scorecards', { headers: h })).body);
+    const cards = async (server: ServerProcess, h: Record<string, string>) =>
+      JSON.stringify((await server.fetchJson('/api/scorecards', { headers: h })).body);
     expect(await cards(apiB, clinB)).toContain(scoreVersionId);
-    const revoked = await apiB.fetchJson(`/api/score-versions/${scoreVersionId}/revoke`, json(chairB, { password: DEMO_PASSWORD, reason: 'Checking several processes (invented).' }));
+    const revoked = await apiB.fetchJson(
+      `/api/score-versions/${scoreVersionId}/revoke`,
+      json(chairB, { password: DEMO_PASSWORD, reason: 'Checking several processes (invented).' }),
+    );
     expect(revoked.status, JSON.stringify(revoked.body)).toBeLessThan(300);
     expect(await cards(apiA, clinA)).not.toContain(scoreVersionId);
   });
@@ -130,12 +178,19 @@ describe('two API processes (jobs off) and one worker on one database', () => {
   it('an account deactivated through A is refused by B on its next request', async () => {
     const adminA = await token(apiA, 'admin@demo.test');
     const email = `topology-${Date.now()}@hospital.example`;
-    const created = await apiA.fetchJson('/api/users', json(adminA, { email, name: 'Topology Steward', role: 'steward', password: 'a-long-password-1' }));
+    const created = await apiA.fetchJson(
+      '/api/users',
+      json(adminA, { email, name: 'Topology Steward', role: 'steward', password: 'a-long-password-1' }),
+    );
     expect(created.status, JSON.stringify(created.body)).toBe(201);
     const id = (created.body.user as { id: string }).id;
     const userB = await token(apiB, email, 'a-long-password-1');
     expect((await apiB.fetchJson('/api/auth/me', { headers: userB })).status).toBe(200);
-    const patched = await apiA.fetchJson(`/api/users/${id}`, { method: 'PATCH', headers: { ...adminA, 'Content-Type': 'application/json' }, body: JSON.stringify({ active: false }) });
+    const patched = await apiA.fetchJson(`/api/users/${id}`, {
+      method: 'PATCH',
+      headers: { ...adminA, 'Content-Type': 'application/json' },
+      body: JSON.stringify({ active: false }),
+    });
     expect(patched.status).toBe(200);
     expect((await apiB.fetchJson('/api/auth/me', { headers: userB })).status).toBe(401);
   });
@@ -143,11 +198,22 @@ describe('two API processes (jobs off) and one worker on one database', () => {
   it('a worker killed with SIGKILL in the middle of a run is replaced, and the run completes exactly once', async () => {
     const statA = await token(apiA, 'statistician@demo.test');
     // A bootstrap of 2,000 replicates keeps the run busy long enough to be cut off in the middle.
-    const created = await apiA.fetchJson('/api/runs', json(statA, { scoreVersionId, cohortVersionId, settings: { bootstrapReplicates: 2000 } }));
+    const created = await apiA.fetchJson(
+      '/api/runs',
+      json(statA, { scoreVersionId, cohortVersionId, settings: { bootstrapReplicates: 2000 } }),
+    );
     expect(created.status, JSON.stringify(created.body)).toBe(201);
     const id = (created.body.run as { id: string }).id;
-    await until('the run to be under way in the worker', () => sql(`SELECT status || ' ' || (progress > 0) FROM validation_runs WHERE id = '${id}'`), (s) => s === 'running true' || s.startsWith('completed'), 300_000, 50);
-    const atKill = sql(`SELECT status || ' ' || round(progress::numeric, 2) || ' ' || coalesce(progress_message, '') FROM validation_runs WHERE id = '${id}'`);
+    await until(
+      'the run to be under way in the worker',
+      () => sql(`SELECT status || ' ' || (progress > 0) FROM validation_runs WHERE id = '${id}'`),
+      (s) => s === 'running true' || s.startsWith('completed'),
+      300_000,
+      50,
+    );
+    const atKill = sql(
+      `SELECT status || ' ' || round(progress::numeric, 2) || ' ' || coalesce(progress_message, '') FROM validation_runs WHERE id = '${id}'`,
+    );
     await worker.kill('SIGKILL');
     console.log(`run at kill: ${atKill}`);
     expect(atKill.startsWith('running'), `the run finished before the kill (${atKill})`).toBe(true);
@@ -156,14 +222,22 @@ describe('two API processes (jobs off) and one worker on one database', () => {
     // The API processes never take the run over; a new worker gets the job once its claim has expired.
     worker = new ServerProcess(await freePort(3990, 10), workerEnv, 'server/src/worker.ts'); // the port is only a setting: a worker serves no HTTP
     await worker.start(120_000);
-    const final = await until('the replaced worker to finish the run', () => sql(`SELECT status FROM validation_runs WHERE id = '${id}'`), (s) => s === 'completed' || s === 'failed', 600_000, 500);
+    const final = await until(
+      'the replaced worker to finish the run',
+      () => sql(`SELECT status FROM validation_runs WHERE id = '${id}'`),
+      (s) => s === 'completed' || s === 'failed',
+      600_000,
+      500,
+    );
     expect(final).toBe('completed');
     expect(num(`SELECT attempt FROM validation_runs WHERE id = '${id}'`)).toBe(2);
     expect(num(`SELECT count(*) FROM audit_log WHERE target_id = '${id}' AND action = 'run.completed'`)).toBe(1);
     expect(num(`SELECT count(*) FROM audit_log WHERE target_id = '${id}' AND action = 'run.requeued'`)).toBe(1);
     expect(num(`SELECT count(*) FROM validation_runs WHERE id = '${id}' AND results_sha256 IS NOT NULL`)).toBe(1);
     // One job, retried once: pg-boss's record of it.
-    expect(sql(`SELECT count(*) || ' ' || max(retry_count) FROM pgboss.job WHERE name = 'run' AND data->>'runId' = '${id}'`)).toBe('1 1');
+    expect(
+      sql(`SELECT count(*) || ' ' || max(retry_count) FROM pgboss.job WHERE name = 'run' AND data->>'runId' = '${id}'`),
+    ).toBe('1 1');
     const chain = await apiB.fetchJson('/api/audit/verify', { headers: await token(apiB, 'admin@demo.test') });
     expect(chain.body.ok).toBe(true);
   });

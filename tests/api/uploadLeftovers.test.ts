@@ -103,11 +103,19 @@ describe('a cut-off upload', () => {
   it('a complete upload keeps its file for the next steps (the control)', async () => {
     const source = path.join(scratch, 'whole.csv');
     writeFileSync(source, csv(50));
-    const res = await request(app).post('/api/cohorts').set(bearer(await tokenFor('steward'))).field('scoreVersionId', scoreVersionId).field('cohortName', `Whole ${randomUUID().slice(0, 8)}`).attach('file', source);
+    const res = await request(app)
+      .post('/api/cohorts')
+      .set(bearer(await tokenFor('steward')))
+      .field('scoreVersionId', scoreVersionId)
+      .field('cohortName', `Whole ${randomUUID().slice(0, 8)}`)
+      .attach('file', source);
     expect(res.status, JSON.stringify(res.body)).toBe(201);
     const [row] = await dataSource.query('SELECT temp_path FROM cohort_uploads WHERE id = $1', [res.body.upload.id]);
     expect(files()).toEqual([path.basename(row.temp_path)]);
-    await request(app).post(`/api/uploads/${res.body.upload.id}/discard`).set(bearer(await tokenFor('steward'))).expect(200);
+    await request(app)
+      .post(`/api/uploads/${res.body.upload.id}/discard`)
+      .set(bearer(await tokenFor('steward')))
+      .expect(200);
     expect(files()).toEqual([]);
   });
 });
@@ -116,7 +124,12 @@ describe('the sweep of the upload folder (at start and every ten minutes)', () =
   it('removes old files no upload refers to, and nothing else', async () => {
     const source = path.join(scratch, 'kept.csv');
     writeFileSync(source, csv(50));
-    const res = await request(app).post('/api/cohorts').set(bearer(await tokenFor('steward'))).field('scoreVersionId', scoreVersionId).field('cohortName', `Kept ${randomUUID().slice(0, 8)}`).attach('file', source);
+    const res = await request(app)
+      .post('/api/cohorts')
+      .set(bearer(await tokenFor('steward')))
+      .field('scoreVersionId', scoreVersionId)
+      .field('cohortName', `Kept ${randomUUID().slice(0, 8)}`)
+      .attach('file', source);
     expect(res.status).toBe(201);
     const [row] = await dataSource.query('SELECT temp_path FROM cohort_uploads WHERE id = $1', [res.body.upload.id]);
     const referenced = path.basename(row.temp_path);

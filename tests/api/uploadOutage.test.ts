@@ -28,7 +28,11 @@ beforeAll(async () => {
     writeFileSync(path.join(uploadDir, f), 'outcome,risk\n1,0.5\n');
     utimesSync(path.join(uploadDir, f), hourAgo, hourAgo);
   }
-  server = new ServerProcess(await freePort(3800, 100), { ...cluster.env(), PLUMBLINE_BCRYPT_COST: '4', PLUMBLINE_UPLOAD_DIR: uploadDir });
+  server = new ServerProcess(await freePort(3800, 100), {
+    ...cluster.env(),
+    PLUMBLINE_BCRYPT_COST: '4',
+    PLUMBLINE_UPLOAD_DIR: uploadDir,
+  });
   await server.start();
 }, 180_000);
 
@@ -41,7 +45,12 @@ afterAll(async () => {
 const waitFor = async (what: string, ok: () => Promise<boolean> | boolean, timeoutMs: number) => {
   const deadline = Date.now() + timeoutMs;
   while (Date.now() < deadline) {
-    if (await Promise.resolve().then(ok).catch(() => false)) return;
+    if (
+      await Promise.resolve()
+        .then(ok)
+        .catch(() => false)
+    )
+      return;
     await new Promise((r) => setTimeout(r, 200));
   }
   throw new Error(`timed out waiting for ${what}:\n${server.output.slice(-3000)}`);
@@ -61,7 +70,11 @@ describe('an upload check cut off by a database outage', () => {
     const form = new FormData();
     form.set('scoreVersionId', scoreVersionId);
     form.set('cohortName', 'Outage cohort');
-    form.set('file', new Blob([`${[...kestrelQuarterCsv({ year: 2025, quarter: 4, index: 7, n: 500_000, seed: 5 })].join('\n')}\n`]), 'big.csv');
+    form.set(
+      'file',
+      new Blob([`${[...kestrelQuarterCsv({ year: 2025, quarter: 4, index: 7, n: 500_000, seed: 5 })].join('\n')}\n`]),
+      'big.csv',
+    );
     const login = await server.login('steward@demo.test', DEMO_PASSWORD);
     expect(login.status).toBe(200);
     const auth = { Authorization: `Bearer ${login.token}` };
@@ -75,12 +88,26 @@ describe('an upload check cut off by a database outage', () => {
     });
     expect(mapped.status, JSON.stringify(mapped.body)).toBe(202);
     // The check is a job: stop the database once the server's worker has claimed it, not before.
-    await waitFor('the check job to be claimed', () => cluster.psql(`SELECT state FROM pgboss.job WHERE name = 'upload-check' AND data->>'uploadId' = '${id}'`) === 'active', 60_000);
+    await waitFor(
+      'the check job to be claimed',
+      () =>
+        cluster.psql(`SELECT state FROM pgboss.job WHERE name = 'upload-check' AND data->>'uploadId' = '${id}'`) ===
+        'active',
+      60_000,
+    );
 
     cluster.stop('immediate');
     // The check fails with the database, and so does the first try to record that.
-    await waitFor('the check to fail on the outage', () => server.output.split('\n').some((line) => line.includes('checking an upload failed') && line.includes(id)), 60_000);
-    await waitFor('the failure record to wait for the database', () => server.output.includes('trying again until the database answers'), 30_000);
+    await waitFor(
+      'the check to fail on the outage',
+      () => server.output.split('\n').some((line) => line.includes('checking an upload failed') && line.includes(id)),
+      60_000,
+    );
+    await waitFor(
+      'the failure record to wait for the database',
+      () => server.output.includes('trying again until the database answers'),
+      30_000,
+    );
 
     cluster.start();
     let status = '';
@@ -96,7 +123,11 @@ describe('an upload check cut off by a database outage', () => {
       90_000,
     );
     expect(error).toMatch(/could not be processed.*nothing was stored/);
-    expect(cluster.psql(`SELECT count(*) FROM cohort_row_blocks b JOIN cohort_uploads u ON u.planned_version_id = b.cohort_version_id WHERE u.id = '${id}'`)).toBe('0');
+    expect(
+      cluster.psql(
+        `SELECT count(*) FROM cohort_row_blocks b JOIN cohort_uploads u ON u.planned_version_id = b.cohort_version_id WHERE u.id = '${id}'`,
+      ),
+    ).toBe('0');
     expect(server.alive).toBe(true);
   });
 });

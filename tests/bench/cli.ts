@@ -50,7 +50,11 @@ function ensurePeer(): void {
   if (ok()) return;
   console.log('installing Debian python3-pandas python3-sklearn python3-statsmodels …');
   const root = process.getuid?.() === 0;
-  const apt = (args: string[]) => execFileSync(root ? 'apt-get' : 'sudo', root ? args : ['apt-get', ...args], { stdio: 'inherit', env: { ...process.env, DEBIAN_FRONTEND: 'noninteractive' } });
+  const apt = (args: string[]) =>
+    execFileSync(root ? 'apt-get' : 'sudo', root ? args : ['apt-get', ...args], {
+      stdio: 'inherit',
+      env: { ...process.env, DEBIAN_FRONTEND: 'noninteractive' },
+    });
   apt(['update', '-qq']);
   apt(['install', '-y', '-qq', 'python3-pandas', 'python3-sklearn', 'python3-statsmodels']);
   if (!ok()) throw new Error(`${PYTHON} still cannot import pandas, sklearn and statsmodels`);
@@ -77,7 +81,8 @@ try {
 
   const cli: number[] = [];
   const peer: number[] = [];
-  let cliOut = '', peerOut = '';
+  let cliOut = '',
+    peerOut = '';
   for (let i = 0; i < RUNS; i++) {
     const a = timed(process.execPath, cliArgs);
     cli.push(a.seconds);
@@ -108,7 +113,9 @@ try {
   const tsx = timed(process.execPath, ['--import', 'tsx', 'server/src/cli/main.ts', ...cliArgs.slice(1)]);
   console.log(`for information, under tsx without the build: ${s(tsx.seconds)}`);
   console.log(`cli (node dist/cli/plumbline.mjs, whole process): median ${s(median(cli))} of ${cli.map(s).join(', ')}`);
-  console.log(`peer (pandas + scikit-learn + statsmodels, whole process): median ${s(median(peer))} of ${peer.map(s).join(', ')}`);
+  console.log(
+    `peer (pandas + scikit-learn + statsmodels, whole process): median ${s(median(peer))} of ${peer.map(s).join(', ')}`,
+  );
   console.log(`ratio ${(median(cli) / median(peer)).toFixed(3)}`);
 } finally {
   rmSync(dir, { recursive: true, force: true });

@@ -84,7 +84,9 @@ t = performance.now();
 const py = JSON.parse(execFileSync('/usr/bin/python3', ['-c', PY, file], { encoding: 'utf8' }));
 const pyWall = performance.now() - t;
 const refMs = py.seconds * 1000;
-console.log(`reference (scikit-learn roc_auc_score/log_loss/brier_score_loss + statsmodels GLM ×2), computation only: best of 2 ${ms(refMs)}; wall incl. start-up and CSV read: ${ms(pyWall)}`);
+console.log(
+  `reference (scikit-learn roc_auc_score/log_loss/brier_score_loss + statsmodels GLM ×2), computation only: best of 2 ${ms(refMs)}; wall incl. start-up and CSV read: ${ms(pyWall)}`,
+);
 console.log('  (the reference AUC has no DeLong SE; the engine subset includes it)');
 
 const B = 100_000;
@@ -94,10 +96,14 @@ const settings = resolveSettings({ bootstrapReplicates: 200, bootstrapSeed: 7 })
 const point = validate(bp, by);
 t = performance.now();
 const boot = await bootstrapInWorkers(bp, by, settings, point, availableParallelism());
-console.log(`bootstrap: 200 replicates of the full set on ${B.toLocaleString('en')} rows, ${boot.workers} worker threads (${availableParallelism()} cores): ${ms(performance.now() - t)}; AUC ${point.auc.estimate.toFixed(4)} (${boot.intervals.auc.lower.toFixed(4)}–${boot.intervals.auc.upper.toFixed(4)})`);
+console.log(
+  `bootstrap: 200 replicates of the full set on ${B.toLocaleString('en')} rows, ${boot.workers} worker threads (${availableParallelism()} cores): ${ms(performance.now() - t)}; AUC ${point.auc.estimate.toFixed(4)} (${boot.intervals.auc.lower.toFixed(4)}–${boot.intervals.auc.upper.toFixed(4)})`,
+);
 
 const mem = process.memoryUsage();
-console.log(`peak memory (main thread process): maxRSS ${(process.resourceUsage().maxRSS / 1024).toFixed(0)} MB; now rss ${(mem.rss / 2 ** 20).toFixed(0)} MB, heap ${(mem.heapUsed / 2 ** 20).toFixed(0)} MB, array buffers ${(mem.arrayBuffers / 2 ** 20).toFixed(0)} MB`);
+console.log(
+  `peak memory (main thread process): maxRSS ${(process.resourceUsage().maxRSS / 1024).toFixed(0)} MB; now rss ${(mem.rss / 2 ** 20).toFixed(0)} MB, heap ${(mem.heapUsed / 2 ** 20).toFixed(0)} MB, array buffers ${(mem.arrayBuffers / 2 ** 20).toFixed(0)} MB`,
+);
 rmSync(dir, { recursive: true, force: true });
 console.log(`full set target < 2000 ms: ${Math.min(...full) < 2000 ? 'met' : 'missed'}`);
 console.log(`ratio ${(engineSub / refMs).toFixed(3)}`);

@@ -17,7 +17,14 @@ if (isMainThread && typeof process.send === 'function') {
       process.send({ kind: 'event-loop', reset: true });
     } else if (msg === 'event-loop:read') {
       const busy = performance.eventLoopUtilization(elu).utilization;
-      process.send({ kind: 'event-loop', mean: ms(h.mean), p50: ms(h.percentile(50)), p99: ms(h.percentile(99)), max: ms(h.max), busy: Math.round(busy * 100) });
+      process.send({
+        kind: 'event-loop',
+        mean: ms(h.mean),
+        p50: ms(h.percentile(50)),
+        p99: ms(h.percentile(99)),
+        max: ms(h.max),
+        busy: Math.round(busy * 100),
+      });
     }
   });
 }

@@ -21,7 +21,20 @@ import { KESTREL_V1_MODEL } from '../../server/src/demo/seeds/scenario';
 const ROWS = Number(process.env.BENCH_ROWS ?? 1_000_000);
 const WARM_UP_ROWS = 20_000;
 const ROUNDS = Math.max(1, Number(process.env.BENCH_ROUNDS ?? 3));
-const HEADER = ['age', 'length_of_stay', 'prior_admissions', 'emergency_admission', 'charlson_index', 'readmitted_30d', 'discharge_date', 'sex', 'age_band', 'unit', 'site', 'ward_moves'];
+const HEADER = [
+  'age',
+  'length_of_stay',
+  'prior_admissions',
+  'emergency_admission',
+  'charlson_index',
+  'readmitted_30d',
+  'discharge_date',
+  'sex',
+  'age_band',
+  'unit',
+  'site',
+  'ward_moves',
+];
 
 async function generate(file: string, rows: number): Promise<void> {
   const rand = seededRandom(424242);
@@ -44,34 +57,73 @@ async function generate(file: string, rows: number): Promise<void> {
 /** The fields of the API's answers that the benchmark reads. */
 type Reply = { token?: string; rowCount?: number; upload: { id: string; status: string } };
 
-function call(base: string, method: string, url: string, token: string | null, body?: unknown): Promise<{ status: number; body: Reply }> {
+function call(
+  base: string,
+  method: string,
+  url: string,
+  token: string | null,
+  body?: unknown,
+): Promise<{ status: number; body: Reply }> {
   return new Promise((resolve, reject) => {
     const data = body === undefined ? undefined : Buffer.from(JSON.stringify(body));
     // agent: false — a kept-alive socket closed by the server's 5 s idle timeout during the \copy would reset the next request.
-    const req = http.request(`${base}${url}`, { method, agent: false, headers: { ...(token ? { Authorization: `Bearer ${token}` } : {}), ...(data ? { 'Content-Type': 'application/json', 'Content-Length': data.length } : {}) } }, (res) => {
-      const chunks: Buffer[] = [];
-      res.on('data', (c) => chunks.push(c));
-      res.on('end', () => resolve({ status: res.statusCode ?? 0, body: JSON.parse(Buffer.concat(chunks).toString() || '{}') }));
-    });
+    const req = http.request(
+      `${base}${url}`,
+      {
+        method,
+        agent: false,
+        headers: {
+          ...(token ? { Authorization: `Bearer ${token}` } : {}),
+          ...(data ? { 'Content-Type': 'application/json', 'Content-Length': data.length } : {}),
+        },
+      },
+      (res) => {
+        const chunks: Buffer[] = [];
+        res.on('data', (c) => chunks.push(c));
+        res.on('end', () =>
+          resolve({ status: res.statusCode ?? 0, body: JSON.parse(Buffer.concat(chunks).toString() || '{}') }),
+        );
+      },
+    );
     req.on('error', reject);
     req.end(data);
   });
 }
 
 /** Streams the file as multipart/form-data (never read whole into memory). */
-function uploadMultipart(base: string, token: string, file: string, fields: Record<string, string>): Promise<{ status: number; body: Reply }> {
+function uploadMultipart(
+  base: string,
+  token: string,
+  file: string,
+  fields: Record<string, string>,
+): Promise<{ status: number; body: Reply }> {
   const boundary = `----plumbline${Date.now()}`;
   let head = '';
-  for (const [k, v] of Object.entries(fields)) head += `--${boundary}\r\nContent-Disposition: form-data; name="${k}"\r\n\r\n${v}\r\n`;
+  for (const [k, v] of Object.entries(fields))
+    head += `--${boundary}\r\nContent-Disposition: form-data; name="${k}"\r\n\r\n${v}\r\n`;
   head += `--${boundary}\r\nContent-Disposition: form-data; name="file"; filename="bench.csv"\r\nContent-Type: text/csv\r\n\r\n`;
   const tail = `\r\n--${boundary}--\r\n`;
   const length = Buffer.byteLength(head) + statSync(file).size + Buffer.byteLength(tail);
   return new Promise((resolve, reject) => {
-    const req = http.request(`${base}/api/cohorts`, { method: 'POST', agent: false, headers: { Authorization: `Bearer ${token}`, 'Content-Type': `multipart/form-data; boundary=${boundary}`, 'Content-Length': length } }, (res) => {
-      const chunks: Buffer[] = [];
-      res.on('data', (c) => chunks.push(c));
-      res.on('end', () => resolve({ status: res.statusCode ?? 0, body: JSON.parse(Buffer.concat(chunks).toString() || '{}') }));
-    });
+    const req = http.request(
+      `${base}/api/cohorts`,
+      {
+        method: 'POST',
+        agent: false,
+        headers: {
+          Authorization: `Bearer ${token}`,
+          'Content-Type': `multipart/form-data; boundary=${boundary}`,
+          'Content-Length': length,
+        },
+      },
+      (res) => {
+        const chunks: Buffer[] = [];
+        res.on('data', (c) => chunks.push(c));
+        res.on('end', () =>
+          resolve({ status: res.statusCode ?? 0, body: JSON.parse(Buffer.concat(chunks).toString() || '{}') }),
+        );
+      },
+    );
     req.on('error', reject);
     req.write(head);
     const rs = createReadStream(file, { highWaterMark: 1 << 20 });
@@ -89,27 +141,46 @@ async function main() {
     const warmFile = path.join(dir, 'warm-up.csv');
     await generate(warmFile, WARM_UP_ROWS);
     const bytes = statSync(file).size;
-    console.log(`generated ${ROWS.toLocaleString('en')} rows × ${HEADER.length} columns, ${(bytes / 1048576).toFixed(1)} MB, in ${((performance.now() - t) / 1000).toFixed(1)} s`);
+    console.log(
+      `generated ${ROWS.toLocaleString('en')} rows × ${HEADER.length} columns, ${(bytes / 1048576).toFixed(1)} MB, in ${((performance.now() - t) / 1000).toFixed(1)} s`,
+    );
 
     await initDatabase(true);
     await seedAccounts();
     const model = KESTREL_V1_MODEL;
     const name = 'Ingest benchmark score (invented)';
     let [score] = await dataSource.query('SELECT id FROM scores WHERE name = $1', [name]);
-    if (!score) [score] = await dataSource.query(`INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text) VALUES ($1, 'invented', '30 days', 'invented', 'invented for the benchmark', 'not medical advice') RETURNING id`, [name]);
+    if (!score)
+      [score] = await dataSource.query(
+        `INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text) VALUES ($1, 'invented', '30 days', 'invented', 'invented for the benchmark', 'not medical advice') RETURNING id`,
+        [name],
+      );
     let [sv] = await dataSource.query('SELECT id FROM score_versions WHERE score_id = $1 AND version = 1', [score.id]);
-    if (!sv) [sv] = await dataSource.query(`INSERT INTO score_versions (score_id, version, mode, model) VALUES ($1, 1, 'formula', $2) RETURNING id`, [score.id, JSON.stringify(model)]);
+    if (!sv)
+      [sv] = await dataSource.query(
+        `INSERT INTO score_versions (score_id, version, mode, model) VALUES ($1, 1, 'formula', $2) RETURNING id`,
+        [score.id, JSON.stringify(model)],
+      );
 
     // As the server runs it: background services started (crash recovery, the warm upload-check thread).
     await startBackgroundServices();
     const server = createApp({ serveClient: false }).listen(0, '127.0.0.1');
     await new Promise<void>((r) => server.once('listening', () => r()));
     const base = `http://127.0.0.1:${(server.address() as AddressInfo).port}`;
-    const login = await call(base, 'POST', '/api/auth/login', null, { email: 'steward@demo.test', password: DEMO_PASSWORD });
+    const login = await call(base, 'POST', '/api/auth/login', null, {
+      email: 'steward@demo.test',
+      password: DEMO_PASSWORD,
+    });
     const token = login.body.token as string;
 
     const mapping = {
-      predictors: { age: 'age', length_of_stay: 'length_of_stay', prior_admissions: 'prior_admissions', emergency_admission: 'emergency_admission', charlson_index: 'charlson_index' },
+      predictors: {
+        age: 'age',
+        length_of_stay: 'length_of_stay',
+        prior_admissions: 'prior_admissions',
+        emergency_admission: 'emergency_admission',
+        charlson_index: 'charlson_index',
+      },
       outcome: { column: 'readmitted_30d', positive: ['yes'], negative: ['no'] },
       date: { column: 'discharge_date' },
       subgroups: { sex: 'sex', age_band: 'age_band', unit: 'unit', site: 'site' },
@@ -126,7 +197,8 @@ async function main() {
       // Asks to be answered when the check ends (waitSeconds) rather than polling: a poll every few ms would cost the
       // server's main thread more than the check itself needs from it.
       let status = 'processing';
-      while (status === 'processing') status = (await call(base, 'GET', `/api/uploads/${id}?waitSeconds=30`, token)).body.upload.status;
+      while (status === 'processing')
+        status = (await call(base, 'GET', `/api/uploads/${id}?waitSeconds=30`, token)).body.upload.status;
       if (status !== 'checked') throw new Error(`processing ended ${status}`);
       const checked = performance.now() - t0;
       const c = await call(base, 'POST', `/api/uploads/${id}/commit`, token, { excludeRejected: true });
@@ -138,14 +210,36 @@ async function main() {
     const stamp = new Date().toISOString();
     await ingest(warmFile, `Benchmark warm-up ${stamp}`);
 
-    const pg = ['-h', process.env.PGHOST ?? '127.0.0.1', '-p', process.env.PGPORT ?? '54329', '-U', process.env.PGUSER ?? 'postgres', '-d', process.env.PGDATABASE ?? 'plumbline', '-v', 'ON_ERROR_STOP=1', '-q'];
+    const pg = [
+      '-h',
+      process.env.PGHOST ?? '127.0.0.1',
+      '-p',
+      process.env.PGPORT ?? '54329',
+      '-U',
+      process.env.PGUSER ?? 'postgres',
+      '-d',
+      process.env.PGDATABASE ?? 'plumbline',
+      '-v',
+      'ON_ERROR_STOP=1',
+      '-q',
+    ];
     const table = `bench_ingest_${process.pid}`;
     /** psql's \copy of the same file into a fresh plain table with the file's 12 columns. */
     const rawCopy = () => {
-      const ddl = spawnSync('psql', [...pg, '-c', `CREATE TABLE ${table} (age integer, length_of_stay double precision, prior_admissions integer, emergency_admission text, charlson_index integer, readmitted_30d text, discharge_date text, sex text, age_band text, unit text, site text, ward_moves integer)`], { encoding: 'utf8' });
+      const ddl = spawnSync(
+        'psql',
+        [
+          ...pg,
+          '-c',
+          `CREATE TABLE ${table} (age integer, length_of_stay double precision, prior_admissions integer, emergency_admission text, charlson_index integer, readmitted_30d text, discharge_date text, sex text, age_band text, unit text, site text, ward_moves integer)`,
+        ],
+        { encoding: 'utf8' },
+      );
       if (ddl.status !== 0) throw new Error(`psql failed: ${ddl.stderr}`);
       const t0 = performance.now();
-      const copy = spawnSync('psql', [...pg, '-c', `\\copy ${table} FROM '${file}' WITH (FORMAT csv, HEADER true)`], { encoding: 'utf8' });
+      const copy = spawnSync('psql', [...pg, '-c', `\\copy ${table} FROM '${file}' WITH (FORMAT csv, HEADER true)`], {
+        encoding: 'utf8',
+      });
       const seconds = (performance.now() - t0) / 1000;
       spawnSync('psql', [...pg, '-c', `DROP TABLE ${table}`]);
       if (copy.status !== 0) throw new Error(`\\copy failed: ${copy.stderr}`);
@@ -163,13 +257,17 @@ async function main() {
       const apiSeconds = run.stored / 1000;
       const copySeconds = rawCopy();
       ratios.push(apiSeconds / copySeconds);
-      console.log(`round ${round}: API upload → mapping → commit ${apiSeconds.toFixed(2)} s (upload+screen ${(run.received / 1000).toFixed(2)} s, row checks with COPY of the accepted rows ${((run.checked - run.received) / 1000).toFixed(2)} s, store ${((run.stored - run.checked) / 1000).toFixed(2)} s), ${Math.round(run.rowCount / apiSeconds).toLocaleString('en')} rows/s, ${run.rowCount.toLocaleString('en')} rows stored; psql \\copy into a plain 12-column table ${copySeconds.toFixed(2)} s, ${Math.round(ROWS / copySeconds).toLocaleString('en')} rows/s; ratio ${(apiSeconds / copySeconds).toFixed(3)}`);
+      console.log(
+        `round ${round}: API upload → mapping → commit ${apiSeconds.toFixed(2)} s (upload+screen ${(run.received / 1000).toFixed(2)} s, row checks with COPY of the accepted rows ${((run.checked - run.received) / 1000).toFixed(2)} s, store ${((run.stored - run.checked) / 1000).toFixed(2)} s), ${Math.round(run.rowCount / apiSeconds).toLocaleString('en')} rows/s, ${run.rowCount.toLocaleString('en')} rows stored; psql \\copy into a plain 12-column table ${copySeconds.toFixed(2)} s, ${Math.round(ROWS / copySeconds).toLocaleString('en')} rows/s; ratio ${(apiSeconds / copySeconds).toFixed(3)}`,
+      );
     }
     clearInterval(sampler);
     server.close();
     await stopBackgroundServices();
     const ratio = [...ratios].sort((a, b) => a - b)[Math.floor((ratios.length - 1) / 2)];
-    console.log(`server peak RSS ${(peakRss / 1048576).toFixed(0)} MB (at start ${(baseRss / 1048576).toFixed(0)} MB; file ${(bytes / 1048576).toFixed(0)} MB) — target: bounded, not proportional to the file`);
+    console.log(
+      `server peak RSS ${(peakRss / 1048576).toFixed(0)} MB (at start ${(baseRss / 1048576).toFixed(0)} MB; file ${(bytes / 1048576).toFixed(0)} MB) — target: bounded, not proportional to the file`,
+    );
     console.log(`ratios ${ratios.map((r) => r.toFixed(3)).join(', ')}; median of ${ratios.length}`);
     console.log(`target ratio ≤ 2.0: ${ratio <= 2 ? 'met' : 'not met'}`);
     console.log(`ratio ${ratio.toFixed(3)}`);

@@ -39,7 +39,10 @@ async function freePort(after = 0): Promise<number> {
   // 3900–3949: clear of 3800–3899, where the crash-safety and outage tests pick their child servers' ports.
   for (let p = 3900 + after; p < 3950; p++) {
     const busy = await new Promise<boolean>((resolve) => {
-      const s = net.connect({ host: '127.0.0.1', port: p }, () => { s.destroy(); resolve(true); });
+      const s = net.connect({ host: '127.0.0.1', port: p }, () => {
+        s.destroy();
+        resolve(true);
+      });
       s.on('error', () => resolve(false));
     });
     if (!busy) return p;
@@ -55,22 +58,40 @@ function percentile(sorted: number[], q: number): number {
 const log = (msg: string) => console.log(`[bench] ${msg}`);
 
 async function main() {
-  const watchdog = setTimeout(() => { console.error('[bench] hard time limit reached, stopping'); process.exit(2); }, HARD_LIMIT_MS);
+  const watchdog = setTimeout(() => {
+    console.error('[bench] hard time limit reached, stopping');
+    process.exit(2);
+  }, HARD_LIMIT_MS);
   watchdog.unref();
 
   log(`demo seed into ${process.env.PGDATABASE ?? 'plumbline'} (only into an empty database)`);
-  const seed = spawnSync(process.execPath, ['--import', 'tsx', 'server/src/demo/seed.ts'], { cwd: root, stdio: 'inherit', env: process.env });
+  const seed = spawnSync(process.execPath, ['--import', 'tsx', 'server/src/demo/seed.ts'], {
+    cwd: root,
+    stdio: 'inherit',
+    env: process.env,
+  });
   if (seed.status !== 0) throw new Error('seeding failed');
 
   // Two API processes (jobs off) with the event-loop probe, and one job worker.
-  interface Proc { child: ChildProcess; out: string; base: string | null }
+  interface Proc {
+    child: ChildProcess;
+    out: string;
+    base: string | null;
+  }
   const procs: Proc[] = [];
   const startProc = (entry: string, port: number | null, env: Record<string, string>): Proc => {
     // NODE_ENV=test, not production: a production start refuses the demo accounts this benchmark signs in with.
     const args = ['--import', 'tsx', ...(port ? ['--import', './tests/bench/eventLoopProbe.mjs'] : []), entry];
     const child = spawn(process.execPath, args, {
       cwd: root,
-      env: { ...process.env, ...env, ...(port ? { PORT: String(port) } : {}), NODE_ENV: 'test', PLUMBLINE_CLIENT_DIR: path.join(root, 'dist/client'), PLUMBLINE_LOGIN_MAX_PER_IP: '100000' },
+      env: {
+        ...process.env,
+        ...env,
+        ...(port ? { PORT: String(port) } : {}),
+        NODE_ENV: 'test',
+        PLUMBLINE_CLIENT_DIR: path.join(root, 'dist/client'),
+        PLUMBLINE_LOGIN_MAX_PER_IP: '100000',
+      },
       stdio: ['ignore', 'pipe', 'pipe', 'ipc'],
     });
     const proc: Proc = { child, out: '', base: port ? `http://127.0.0.1:${port}` : null };
@@ -81,18 +102,26 @@ async function main() {
     return proc;
   };
   const stopServer = async () => {
-    await Promise.all(procs.map(async ({ child }) => {
-      if (child.exitCode === null) {
-        child.kill('SIGTERM');
-        await Promise.race([once(child, 'exit'), new Promise((r) => setTimeout(r, 15_000))]);
-        if (child.exitCode === null) child.kill('SIGKILL');
-      }
-    }));
+    await Promise.all(
+      procs.map(async ({ child }) => {
+        if (child.exitCode === null) {
+          child.kill('SIGTERM');
+          await Promise.race([once(child, 'exit'), new Promise((r) => setTimeout(r, 15_000))]);
+          if (child.exitCode === null) child.kill('SIGKILL');
+        }
+      }),
+    );
   };
   const waitHealthy = async (p: Proc) => {
     for (let i = 0; ; i++) {
       if (p.child.exitCode !== null || i > 600) throw new Error(`server did not start:\n${p.out.slice(-3000)}`);
-      if (await fetch(`${p.base}/api/health`).then((r) => r.ok, () => false)) return;
+      if (
+        await fetch(`${p.base}/api/health`).then(
+          (r) => r.ok,
+          () => false,
+        )
+      )
+        return;
       await new Promise((r) => setTimeout(r, 200));
     }
   };
@@ -104,7 +133,8 @@ async function main() {
     await waitHealthy(apiB);
     const worker = startProc('server/src/worker.ts', null, { PLUMBLINE_LOG_LEVEL: 'info' });
     for (let i = 0; !worker.out.includes('job worker started'); i++) {
-      if (worker.child.exitCode !== null || i > 600) throw new Error(`worker did not start:\n${worker.out.slice(-3000)}`);
+      if (worker.child.exitCode !== null || i > 600)
+        throw new Error(`worker did not start:\n${worker.out.slice(-3000)}`);
       await new Promise((r) => setTimeout(r, 200));
     }
     const apis = [apiA, apiB];
@@ -120,7 +150,11 @@ async function main() {
       });
 
     const login = async (role: string) => {
-      const r = await fetch(`${base}/api/auth/login`, { method: 'POST', headers: { 'Content-Type': 'application/json' }, body: JSON.stringify({ email: `${role}@demo.test`, password: DEMO_PASSWORD }) });
+      const r = await fetch(`${base}/api/auth/login`, {
+        method: 'POST',
+        headers: { 'Content-Type': 'application/json' },
+        body: JSON.stringify({ email: `${role}@demo.test`, password: DEMO_PASSWORD }),
+      });
       if (!r.ok) throw new Error(`login ${role}: ${r.status}`);
       return { Authorization: `Bearer ${((await r.json()) as { token: string }).token}` };
     };
@@ -134,20 +168,28 @@ async function main() {
 
     // What the reads hit: a completed run, the score cards, the cohort list.
     const runs = await getJson('/api/runs?status=completed', admin);
-    const runList = ((runs.body.runs ?? runs.body.items ?? []) as { id: string }[]);
+    const runList = (runs.body.runs ?? runs.body.items ?? []) as { id: string }[];
     const reads: { method: 'GET'; path: string; headers: Record<string, string> }[] = [];
     if (runList[0]) reads.push({ method: 'GET', path: `/api/runs/${runList[0].id}`, headers: admin });
-    if ((await getJson('/api/scorecards', admin)).status === 200) reads.push({ method: 'GET', path: '/api/scorecards', headers: admin });
-    if ((await getJson('/api/cohorts', admin)).status === 200) reads.push({ method: 'GET', path: '/api/cohorts', headers: admin });
+    if ((await getJson('/api/scorecards', admin)).status === 200)
+      reads.push({ method: 'GET', path: '/api/scorecards', headers: admin });
+    if ((await getJson('/api/cohorts', admin)).status === 200)
+      reads.push({ method: 'GET', path: '/api/cohorts', headers: admin });
     if (!reads.length) throw new Error('none of the read routes answer; is the demo seeded?');
     log(`reads: ${reads.map((r) => r.path).join(', ')}`);
 
     // Background work: options for runs (score and cohort versions), and the upload file text.
     const options = await getJson('/api/runs/options', steward);
     // The demo's Kestrel formula (latest version) for uploads and runs; runs on the largest demo cohort versions.
-    const svs = (options.body.scoreVersions as { id: string; mode: string; scoreName: string; version: number }[] | undefined) ?? [];
-    const sv = svs.filter((v) => v.mode === 'formula' && v.scoreName === 'Kestrel 30-day Readmission Score').sort((a, b) => b.version - a.version)[0];
-    const cv = ((options.body.cohortVersions as { id: string; rowCount: number; cohortName: string }[] | undefined) ?? [])
+    const svs =
+      (options.body.scoreVersions as { id: string; mode: string; scoreName: string; version: number }[] | undefined) ??
+      [];
+    const sv = svs
+      .filter((v) => v.mode === 'formula' && v.scoreName === 'Kestrel 30-day Readmission Score')
+      .sort((a, b) => b.version - a.version)[0];
+    const cv = (
+      (options.body.cohortVersions as { id: string; rowCount: number; cohortName: string }[] | undefined) ?? []
+    )
       .filter((v) => !v.cohortName.startsWith('Bench cohort'))
       .sort((a, b) => b.rowCount - a.rowCount);
     const csvText = `${[...kestrelQuarterCsv({ year: 2025, quarter: 4, index: 7, n: UPLOAD_ROWS, seed: 777 })].join('\n')}\n`;
@@ -164,25 +206,40 @@ async function main() {
       const cj = (await created.json()) as { upload?: { id: string }; error?: string };
       if (!cj.upload) return `upload ${i}: ${created.status} ${cj.error}`;
       const id = cj.upload.id;
-      const mapped = await fetch(`${next()}/api/uploads/${id}/mapping`, { method: 'POST', headers: { ...steward, 'Content-Type': 'application/json' }, body: JSON.stringify({ mapping: KESTREL_MAPPING }) });
+      const mapped = await fetch(`${next()}/api/uploads/${id}/mapping`, {
+        method: 'POST',
+        headers: { ...steward, 'Content-Type': 'application/json' },
+        body: JSON.stringify({ mapping: KESTREL_MAPPING }),
+      });
       if (!mapped.ok) return `upload ${i}: mapping ${mapped.status}`;
       for (let t = 0; t < 1200; t++) {
         const u = (await getJson(`/api/uploads/${id}`, steward)).body.upload as { status: string } | undefined;
         if (u?.status !== 'processing') break;
         await new Promise((r) => setTimeout(r, 250));
       }
-      const commit = await fetch(`${next()}/api/uploads/${id}/commit`, { method: 'POST', headers: { ...steward, 'Content-Type': 'application/json' }, body: JSON.stringify({ excludeRejected: true }) });
+      const commit = await fetch(`${next()}/api/uploads/${id}/commit`, {
+        method: 'POST',
+        headers: { ...steward, 'Content-Type': 'application/json' },
+        body: JSON.stringify({ excludeRejected: true }),
+      });
       return `upload ${i}: ${UPLOAD_ROWS.toLocaleString('en')} rows stored=${commit.status} in ${Date.now() - t0} ms`;
     };
     const runOne = async (i: number) => {
       const t0 = Date.now();
       if (!sv || !cv.length) return `run ${i}: no score/cohort version to run`;
-      const created = await fetch(`${next()}/api/runs`, { method: 'POST', headers: { ...statistician, 'Content-Type': 'application/json' }, body: JSON.stringify({ scoreVersionId: sv.id, cohortVersionId: cv[i % cv.length].id }) });
+      const created = await fetch(`${next()}/api/runs`, {
+        method: 'POST',
+        headers: { ...statistician, 'Content-Type': 'application/json' },
+        body: JSON.stringify({ scoreVersionId: sv.id, cohortVersionId: cv[i % cv.length].id }),
+      });
       const body = (await created.json()) as { run?: { id: string }; id?: string; error?: string };
       const id = body.run?.id ?? body.id;
       if (!id) return `run ${i}: ${created.status} ${body.error}`;
       for (let t = 0; t < 2400; t++) {
-        const r = (await getJson(`/api/runs/${id}`, statistician)).body as { run?: { status: string }; status?: string };
+        const r = (await getJson(`/api/runs/${id}`, statistician)).body as {
+          run?: { status: string };
+          status?: string;
+        };
         const status = r.run?.status ?? r.status;
         if (status === 'completed' || status === 'failed') return `run ${i}: ${status} in ${Date.now() - t0} ms`;
         await new Promise((r2) => setTimeout(r2, 250));
@@ -197,10 +254,18 @@ async function main() {
       const latencies: number[] = [];
       const share = (i: number) => Math.floor(CONNECTIONS / bases.length) + (i < CONNECTIONS % bases.length ? 1 : 0);
       // The callback form returns the instance (an event emitter) so every response time can be kept for p95.
-      const results = await Promise.all(bases.map((url, i) => new Promise<autocannon.Result>((resolve, reject) => {
-        const instance = autocannon({ url, connections: share(i), duration: seconds, requests: reads, timeout: 10 }, (err, res) => (err ? reject(err) : resolve(res)));
-        instance.on('response', (_c: unknown, _status: number, _bytes: number, ms: number) => latencies.push(ms));
-      })));
+      const results = await Promise.all(
+        bases.map(
+          (url, i) =>
+            new Promise<autocannon.Result>((resolve, reject) => {
+              const instance = autocannon(
+                { url, connections: share(i), duration: seconds, requests: reads, timeout: 10 },
+                (err, res) => (err ? reject(err) : resolve(res)),
+              );
+              instance.on('response', (_c: unknown, _status: number, _bytes: number, ms: number) => latencies.push(ms));
+            }),
+        ),
+      );
       const loops = await Promise.all(apis.map((p) => loopStats(p, 'event-loop:read')));
       latencies.sort((a, b) => a - b);
       const round = (x: number) => Math.round(x * 10) / 10;
@@ -225,9 +290,14 @@ async function main() {
       console.log(`${title} (${CONNECTIONS} connections, ${ph.seconds} s)`);
       console.log(`  requests:         ${ph.requests} (${ph.perSecond} req/s average, both API processes)`);
       console.log(`  latency (ms):     p50 ${ph.p50}  p95 ${ph.p95}  p99 ${ph.p99}  max ${ph.max}`);
-      console.log(`  errors:           ${ph.errors} (connection errors ${ph.connErrors}, timeouts ${ph.timeouts}, non-2xx ${ph.non2xx})`);
+      console.log(
+        `  errors:           ${ph.errors} (connection errors ${ph.connErrors}, timeouts ${ph.timeouts}, non-2xx ${ph.non2xx})`,
+      );
       ph.loops.forEach((loop, i) =>
-        console.log(`  event-loop delay: API ${'AB'[i]}: mean ${loop.mean} ms, p50 ${loop.p50} ms, p99 ${loop.p99} ms, max ${loop.max} ms; main thread busy ${loop.busy}% (during the reads)`));
+        console.log(
+          `  event-loop delay: API ${'AB'[i]}: mean ${loop.mean} ms, p50 ${loop.p50} ms, p99 ${loop.p99} ms, max ${loop.max} ms; main thread busy ${loop.busy}% (during the reads)`,
+        ),
+      );
     };
 
     let readsOnly: Phase | null = null;
@@ -241,33 +311,48 @@ async function main() {
     // Each upload slot and each run slot starts its next one as soon as the last has ended, until the reads stop: the
     // reads are measured with 5 uploads and 2 runs under way the whole time, not only in the phase's first seconds.
     let readsGoing = true;
-    const slot = (name: string, one: (k: number) => Promise<string>) => (async () => {
-      for (let k = 0; readsGoing; k++) {
-        try {
-          background.push(await one(k));
-        } catch (e) {
-          background.push(`${name} ${k}: ${e}`);
+    const slot = (name: string, one: (k: number) => Promise<string>) =>
+      (async () => {
+        for (let k = 0; readsGoing; k++) {
+          try {
+            background.push(await one(k));
+          } catch (e) {
+            background.push(`${name} ${k}: ${e}`);
+          }
         }
-      }
-    })();
+      })();
     const work = [
       ...Array.from({ length: UPLOADS }, (_, i) => slot(`upload ${i}`, (k) => uploadOne(`${i}.${k}`))),
-      ...Array.from({ length: RUNS }, (_, i) => slot(`run ${i}`, (k) => runOne(i + RUNS * k).then((s) => s.replace(/^run \d+/, `run ${i}.${k}`)))),
+      ...Array.from({ length: RUNS }, (_, i) =>
+        slot(`run ${i}`, (k) => runOne(i + RUNS * k).then((s) => s.replace(/^run \d+/, `run ${i}.${k}`))),
+      ),
     ];
     const mixed = await measureReads(SECONDS);
     readsGoing = false;
     log(`reads done after ${Date.now() - started} ms; waiting for background work`);
-    const backgroundDone = await Promise.race([Promise.all(work).then(() => true), new Promise<boolean>((r) => setTimeout(() => r(false), 300_000))]);
+    const backgroundDone = await Promise.race([
+      Promise.all(work).then(() => true),
+      new Promise<boolean>((r) => setTimeout(() => r(false), 300_000)),
+    ]);
 
     const met = (ph: Phase) => (ph.errors === 0 && ph.p95 <= 100 ? 'met' : 'NOT met');
     const ratio = readsOnly && readsOnly.p95 > 0 ? Math.round((mixed.p95 / readsOnly.p95) * 1000) / 1000 : NaN;
     console.log('');
-    console.log(`Plumbline load benchmark — loopback, two API processes (${bases.join(', ')}, PLUMBLINE_JOBS=off) and one job worker`);
+    console.log(
+      `Plumbline load benchmark — loopback, two API processes (${bases.join(', ')}, PLUMBLINE_JOBS=off) and one job worker`,
+    );
     console.log(`reads:            ${reads.map((r) => r.path.replace(/[0-9a-f-]{36}/, ':id')).join(', ')}`);
     if (readsOnly) printPhase('reads only', readsOnly);
-    printPhase(`mixed: the same reads while ${UPLOADS} uploads of ${UPLOAD_ROWS.toLocaleString('en')} rows and ${RUNS} runs proceed`, mixed);
-    console.log(`  background:       ${background.sort().join('; ') || 'none'}${backgroundDone ? '' : ' (not all finished within 300 s after the reads)'}`);
-    console.log(`target (mixed):      0 errors and p95 ≤ 100 ms → ${met(mixed)}; mixed p95 ≤ 3 × reads-only p95 → ${ratio <= 3 ? 'met' : 'NOT met'}`);
+    printPhase(
+      `mixed: the same reads while ${UPLOADS} uploads of ${UPLOAD_ROWS.toLocaleString('en')} rows and ${RUNS} runs proceed`,
+      mixed,
+    );
+    console.log(
+      `  background:       ${background.sort().join('; ') || 'none'}${backgroundDone ? '' : ' (not all finished within 300 s after the reads)'}`,
+    );
+    console.log(
+      `target (mixed):      0 errors and p95 ≤ 100 ms → ${met(mixed)}; mixed p95 ≤ 3 × reads-only p95 → ${ratio <= 3 ? 'met' : 'NOT met'}`,
+    );
     console.log(`ratio ${ratio}`);
     console.log(`p95_ms ${mixed.p95} errors ${mixed.errors}`);
   } finally {

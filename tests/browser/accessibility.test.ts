@@ -33,7 +33,9 @@ const browser = useAppAndBrowser(async () => {
      WHERE s.name = $1 AND r.status = 'completed' ORDER BY r.created_at LIMIT 2`,
     [KESTREL_SCORE_NAME],
   );
-  const cohorts: { id: string }[] = await dataSource.query(`SELECT id FROM cohorts WHERE name = $1`, [DEMO_COHORT_NAME]);
+  const cohorts: { id: string }[] = await dataSource.query(`SELECT id FROM cohorts WHERE name = $1`, [
+    DEMO_COHORT_NAME,
+  ]);
   expect(runs.length, 'the demo seed has completed runs').toBe(2);
   expect(cohorts.length, 'the demo seed has its cohort').toBe(1);
   ids = { runId: runs[0].id, otherRunId: runs[1].id, scoreId: runs[0].score_id, cohortId: cohorts[0].id };
@@ -65,14 +67,31 @@ async function scan(page: Page, path: string): Promise<Finding[]> {
   await page.getByRole('heading', { level: 1 }).first().waitFor();
   await page.waitForLoadState('networkidle');
   // Loading bars gone (pages and tables), as a person waits for the page to settle before reading it.
-  await expect.poll(() => page.locator('.v-progress-linear--active, .v-data-table-progress').count(), { timeout: 60_000 }).toBe(0);
+  await expect
+    .poll(() => page.locator('.v-progress-linear--active, .v-data-table-progress').count(), { timeout: 60_000 })
+    .toBe(0);
   await page.evaluate(axeSource);
   const violations = await page.evaluate(async () => {
-    const axe = (window as unknown as { axe: { run: (ctx: Document, opts: object) => Promise<{ violations: { id: string; impact: string; nodes: { target: string[] }[] }[] }> } }).axe;
+    const axe = (
+      window as unknown as {
+        axe: {
+          run: (
+            ctx: Document,
+            opts: object,
+          ) => Promise<{ violations: { id: string; impact: string; nodes: { target: string[] }[] }[] }>;
+        };
+      }
+    ).axe;
     const result = await axe.run(document, { resultTypes: ['violations'] });
-    return result.violations.map((v) => ({ id: v.id, impact: v.impact, targets: v.nodes.slice(0, 5).map((n) => n.target.join(' ')) }));
+    return result.violations.map((v) => ({
+      id: v.id,
+      impact: v.impact,
+      targets: v.nodes.slice(0, 5).map((n) => n.target.join(' ')),
+    }));
   });
-  return violations.filter((v) => v.impact === 'critical' || v.impact === 'serious').map((v) => ({ page: path, rule: v.id, impact: v.impact, targets: v.targets }));
+  return violations
+    .filter((v) => v.impact === 'critical' || v.impact === 'serious')
+    .map((v) => ({ page: path, rule: v.id, impact: v.impact, targets: v.targets }));
 }
 
 const ROLES: Role[] = ['steward', 'statistician', 'chair', 'clinician', 'admin'];
@@ -80,20 +99,28 @@ const ROLES: Role[] = ['steward', 'statistician', 'chair', 'clinician', 'admin']
 describe('accessibility of every page, for every role (axe-core)', () => {
   for (const role of ROLES) {
     // Up to 13 pages a role, each scanned whole: on a busy 2-core machine a role takes 1–3 minutes, hence the long limit.
-    it(`${role}: no critical or serious violation on any page the role can reach`, () =>
-      inTab(
-        browser(),
-        `axe-${role}`,
-        async (page) => {
-          const paths = [...navigationFor(role).map((n) => n.to), ...detailPages(ids).filter((d) => d.roles.includes(role)).map((d) => d.path)];
-          const findings: Finding[] = [];
-          for (const path of paths) findings.push(...(await scan(page, path)));
-          expect(paths.length).toBeGreaterThanOrEqual(3);
-          expect(findings, JSON.stringify(findings, null, 2)).toEqual([]);
-        },
-        `${role}@demo.test`,
-      ),
-    600_000);
+    it(
+      `${role}: no critical or serious violation on any page the role can reach`,
+      () =>
+        inTab(
+          browser(),
+          `axe-${role}`,
+          async (page) => {
+            const paths = [
+              ...navigationFor(role).map((n) => n.to),
+              ...detailPages(ids)
+                .filter((d) => d.roles.includes(role))
+                .map((d) => d.path),
+            ];
+            const findings: Finding[] = [];
+            for (const path of paths) findings.push(...(await scan(page, path)));
+            expect(paths.length).toBeGreaterThanOrEqual(3);
+            expect(findings, JSON.stringify(findings, null, 2)).toEqual([]);
+          },
+          `${role}@demo.test`,
+        ),
+      600_000,
+    );
   }
 });
 
@@ -133,7 +160,10 @@ describe('a phone-sized screen', () => {
         await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor();
         await page.getByRole('img', { name: 'ROC curve' }).waitFor();
         await page.waitForLoadState('networkidle');
-        const widths = await page.evaluate(() => ({ scroll: document.documentElement.scrollWidth, client: document.documentElement.clientWidth }));
+        const widths = await page.evaluate(() => ({
+          scroll: document.documentElement.scrollWidth,
+          client: document.documentElement.clientWidth,
+        }));
         expect(widths.client).toBeLessThanOrEqual(390);
         expect(widths.scroll, 'the page scrolls sideways').toBeLessThanOrEqual(widths.client);
         await screenshot(page, 'run-page-390');

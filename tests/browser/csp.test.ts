@@ -35,13 +35,21 @@ declare global {
 const RECORD_VIOLATIONS = () => {
   window.__cspViolations = [];
   document.addEventListener('securitypolicyviolation', (e) => {
-    window.__cspViolations!.push({ directive: e.violatedDirective, blocked: e.blockedURI, sample: e.sample, source: e.sourceFile, line: e.lineNumber });
+    window.__cspViolations!.push({
+      directive: e.violatedDirective,
+      blocked: e.blockedURI,
+      sample: e.sample,
+      source: e.sourceFile,
+      line: e.lineNumber,
+    });
   });
 };
 
 const browser = useAppAndBrowser(async () => {
   await initDatabase(false);
-  const scores: { id: string }[] = await dataSource.query(`SELECT id FROM scores WHERE name = $1`, [KESTREL_SCORE_NAME]);
+  const scores: { id: string }[] = await dataSource.query(`SELECT id FROM scores WHERE name = $1`, [
+    KESTREL_SCORE_NAME,
+  ]);
   expect(scores.length, 'the demo seed has the Kestrel score').toBe(1);
   scoreId = scores[0].id;
   const runs: { id: string }[] = await dataSource.query(
@@ -73,7 +81,8 @@ function watchConsole(page: Page): string[] {
   const messages: string[] = [];
   page.on('console', (msg) => {
     const text = msg.text();
-    if (/content security policy|refused to (load|execute|apply|evaluate|connect|frame)/i.test(text)) messages.push(text);
+    if (/content security policy|refused to (load|execute|apply|evaluate|connect|frame)/i.test(text))
+      messages.push(text);
   });
   return messages;
 }
@@ -85,8 +94,17 @@ async function violationsOn(page: Page): Promise<Violation[]> {
 }
 
 const pages = () => [
-  { name: 'a run page', path: `/runs/${runId}`, ready: (p: Page) => p.getByRole('heading', { level: 1, name: new RegExp(`^${KESTREL_SCORE_NAME} v\\d+ on`) }).waitFor() },
-  { name: 'the score cards', path: '/scorecards', ready: (p: Page) => p.getByRole('heading', { level: 1, name: 'Score cards' }).waitFor() },
+  {
+    name: 'a run page',
+    path: `/runs/${runId}`,
+    ready: (p: Page) =>
+      p.getByRole('heading', { level: 1, name: new RegExp(`^${KESTREL_SCORE_NAME} v\\d+ on`) }).waitFor(),
+  },
+  {
+    name: 'the score cards',
+    path: '/scorecards',
+    ready: (p: Page) => p.getByRole('heading', { level: 1, name: 'Score cards' }).waitFor(),
+  },
   {
     name: 'a drift timeline',
     path: `/scores/${scoreId}/versions/2/drift`,
@@ -103,7 +121,11 @@ const pages = () => [
       await p.getByRole('heading', { level: 2, name: '/api/runs' }).waitFor();
     },
   },
-  { name: 'the upload page', path: '/cohorts/upload', ready: (p: Page) => p.getByRole('heading', { level: 1, name: 'Upload a cohort' }).waitFor() },
+  {
+    name: 'the upload page',
+    path: '/cohorts/upload',
+    ready: (p: Page) => p.getByRole('heading', { level: 1, name: 'Upload a cohort' }).waitFor(),
+  },
 ];
 
 describe('content-security policy in Chromium', () => {
@@ -116,7 +138,8 @@ describe('content-security policy in Chromium', () => {
       const scriptSrc = policy.get('script-src') ?? policy.get('default-src');
       expect(policy.has('script-src'), 'script-src is set explicitly').toBe(true);
       expect(scriptSrc).toEqual(["'self'"]);
-      for (const bad of ["'unsafe-inline'", "'unsafe-eval'", "'unsafe-hashes'", '*', 'data:', 'http:', 'https:']) expect(scriptSrc).not.toContain(bad);
+      for (const bad of ["'unsafe-inline'", "'unsafe-eval'", "'unsafe-hashes'", '*', 'data:', 'http:', 'https:'])
+        expect(scriptSrc).not.toContain(bad);
       expect(policy.get('script-src-attr')).toEqual(["'none'"]);
       expect(policy.get('object-src')).toEqual(["'none'"]);
       expect(policy.get('frame-ancestors')).toEqual(["'none'"]);
@@ -136,7 +159,9 @@ describe('content-security policy in Chromium', () => {
         s.textContent = 'window.__inlineRan = true;';
         document.head.append(s);
       });
-      await page.waitForFunction(() => (window.__cspViolations ?? []).some((v) => v.directive.startsWith('script-src')));
+      await page.waitForFunction(() =>
+        (window.__cspViolations ?? []).some((v) => v.directive.startsWith('script-src')),
+      );
       expect(await page.evaluate(() => window.__inlineRan === true)).toBe(false);
       await expect.poll(() => consoleCsp.length).toBeGreaterThan(0);
     }));
@@ -160,8 +185,19 @@ describe('content-security policy in Chromium', () => {
         found.push({ page: target.name, violations: await violationsOn(page) });
       }
       await screenshot(page, 'csp-last-page');
-      expect(found.filter((f) => f.violations.length > 0), 'CSP violations by page').toEqual([]);
+      expect(
+        found.filter((f) => f.violations.length > 0),
+        'CSP violations by page',
+      ).toEqual([]);
       expect(consoleCsp, 'CSP messages on the console').toEqual([]);
-      expect(found.map((f) => f.page)).toEqual(['sign-in', 'after sign-in', 'a run page', 'the score cards', 'a drift timeline', 'the API reference', 'the upload page']);
+      expect(found.map((f) => f.page)).toEqual([
+        'sign-in',
+        'after sign-in',
+        'a run page',
+        'the score cards',
+        'a drift timeline',
+        'the API reference',
+        'the upload page',
+      ]);
     }));
 });

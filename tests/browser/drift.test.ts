@@ -36,13 +36,20 @@ describe('drift timeline in the browser', () => {
         expect(await periodRows.last().getByTestId('drift-period-span').innerText()).toBe('2025-Q4');
 
         // Every chart panel draws a canvas: CITL, O/E, AUC, slope, O − E limits, cumulative O − E, CUSUM.
-        for (const name of ['Calibration-in-the-large by period', 'O/E ratio by period', 'AUC (c-statistic) by period', 'Calibration slope by period']) {
+        for (const name of [
+          'Calibration-in-the-large by period',
+          'O/E ratio by period',
+          'AUC (c-statistic) by period',
+          'Calibration slope by period',
+        ]) {
           const canvas = page.getByRole('img', { name });
           await canvas.waitFor();
           const box = await canvas.boundingBox();
           expect(box && box.width > 100 && box.height > 100, `${name} is drawn`).toBe(true);
         }
-        await page.getByRole('img', { name: 'Observed minus expected events per period with control limits' }).waitFor();
+        await page
+          .getByRole('img', { name: 'Observed minus expected events per period with control limits' })
+          .waitFor();
         await page.getByRole('img', { name: 'Cumulative observed minus expected events' }).waitFor();
         await page.getByRole('img', { name: 'Risk-adjusted CUSUM chart' }).waitFor();
         await expect.poll(() => page.locator('canvas').count()).toBeGreaterThanOrEqual(7);
@@ -57,7 +64,8 @@ describe('drift timeline in the browser', () => {
         await citlPanel.getByRole('button', { name: 'Show the numbers as a table' }).click();
         await expect.poll(() => citlPanel.locator('tbody tr').count()).toBe(8);
         // The seeded drift (+0.08 logit a quarter, seeds/kestrelData.ts) puts the last quarter's CITL above the first's.
-        const citlOf = async (row: number) => Number(await citlPanel.locator('tbody tr').nth(row).locator('td').nth(1).innerText());
+        const citlOf = async (row: number) =>
+          Number(await citlPanel.locator('tbody tr').nth(row).locator('td').nth(1).innerText());
         expect(await citlOf(7)).toBeGreaterThan(await citlOf(0));
         await citlPanel.getByRole('button', { name: 'Show the chart' }).click();
 

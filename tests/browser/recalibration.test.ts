@@ -32,7 +32,9 @@ async function choose(page: Page, label: string, option: RegExp): Promise<void> 
 
 const browser = useAppAndBrowser(async () => {
   await initDatabase(false);
-  const scores: { id: string }[] = await dataSource.query('SELECT id FROM scores WHERE name = $1', [KESTREL_SCORE_NAME]);
+  const scores: { id: string }[] = await dataSource.query('SELECT id FROM scores WHERE name = $1', [
+    KESTREL_SCORE_NAME,
+  ]);
   expect(scores.length, 'the demo seed has the Kestrel score').toBe(1);
   scoreId = scores[0].id;
   const quarters: { cohort_id: string; version: number; label: string }[] = await dataSource.query(
@@ -63,7 +65,9 @@ describe('propose a recalibrated version, validate it on a later quarter, sign i
         const adequacy = page.locator('[data-test="adequacy-panel"]');
         await adequacy.waitFor();
         expect(await adequacy.locator('[data-test="adequacy-auc"]').innerText()).toMatch(/the AUC of this run/);
-        expect(await adequacy.locator('[data-test="adequacy-verdict"]').innerText()).toMatch(/Preferred size met|Minimum met|Below the minimum/);
+        expect(await adequacy.locator('[data-test="adequacy-verdict"]').innerText()).toMatch(
+          /Preferred size met|Minimum met|Below the minimum/,
+        );
 
         await page.getByRole('button', { name: 'Propose recalibrated version' }).click();
         const dialog = page.getByRole('dialog');
@@ -78,7 +82,9 @@ describe('propose a recalibrated version, validate it on a later quarter, sign i
         const created = dialog.getByTestId('recalibrated-version');
         await created.waitFor();
         const text = await created.innerText();
-        expect(text).toMatch(/must be validated on different data \(a later period\) and signed off before clinical use/);
+        expect(text).toMatch(
+          /must be validated on different data \(a later period\) and signed off before clinical use/,
+        );
         newVersion = Number(/Draft version (\d+) created/.exec(text)?.[1]);
         expect(newVersion).toBeGreaterThan(2);
         await page.screenshot({ path: `${artifactsDir}/recalibration-draft-created.png` });
@@ -86,7 +92,10 @@ describe('propose a recalibrated version, validate it on a later quarter, sign i
         // The version history lists the draft, linked to the run it came from, not approved and not yet used.
         await created.getByRole('link', { name: 'Open the score’s version history' }).click();
         await page.waitForURL(`**/scores/${scoreId}`);
-        const row = page.getByRole('row').filter({ hasText: `v${newVersion}` }).first();
+        const row = page
+          .getByRole('row')
+          .filter({ hasText: `v${newVersion}` })
+          .first();
         await row.waitFor();
         const rowText = await row.innerText();
         expect(rowText).toMatch(/recalibrated from/);
@@ -115,7 +124,9 @@ describe('propose a recalibrated version, validate it on a later quarter, sign i
         await page.getByRole('button', { name: 'Queue the run' }).click();
         await page.waitForURL(/\/runs\/[0-9a-f-]{36}$/);
         newRunId = page.url().split('/').pop()!;
-        await page.getByRole('heading', { name: new RegExp(`${KESTREL_SCORE_NAME} v${newVersion} on .* · ${LATER_QUARTER}`) }).waitFor();
+        await page
+          .getByRole('heading', { name: new RegExp(`${KESTREL_SCORE_NAME} v${newVersion} on .* · ${LATER_QUARTER}`) })
+          .waitFor();
         // The page polls while the run waits and computes; the headline figures appear when it has completed.
         await page.getByText('AUC (c-statistic)', { exact: true }).first().waitFor({ timeout: 180_000 });
         await page.locator('[data-test="adequacy-panel"]').waitFor();
@@ -124,13 +135,20 @@ describe('propose a recalibrated version, validate it on a later quarter, sign i
 
         await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor();
         await choose(page, 'Verdict', /^fit for use$/);
-        await page.getByLabel('Reasoning').fill(`Recalibrated v${newVersion} checked on ${LATER_QUARTER}, a later quarter than the one it was fitted on.`);
+        await page
+          .getByLabel('Reasoning')
+          .fill(
+            `Recalibrated v${newVersion} checked on ${LATER_QUARTER}, a later quarter than the one it was fitted on.`,
+          );
         await page.getByRole('button', { name: 'Save review' }).click();
         await page.getByText('awaiting the chair’s decision').waitFor();
       },
       'statistician@demo.test',
     );
-    const [run]: { status: string; score_version_id: string }[] = await dataSource.query('SELECT status, score_version_id FROM validation_runs WHERE id = $1', [newRunId]);
+    const [run]: { status: string; score_version_id: string }[] = await dataSource.query(
+      'SELECT status, score_version_id FROM validation_runs WHERE id = $1',
+      [newRunId],
+    );
     expect(run).toEqual({ status: 'completed', score_version_id: newVersionId });
   });
 
@@ -142,8 +160,12 @@ describe('propose a recalibrated version, validate it on a later quarter, sign i
         await page.goto(`${appUrl}/cohorts/${cohortId}?version=${laterCohortVersion}`);
         const panel = page.locator('[data-test="adequacy-panel"]');
         await panel.waitFor();
-        expect(await panel.locator('[data-test="adequacy-auc"]').innerText()).toMatch(/latest completed run on this cohort version/);
-        expect(await panel.getByRole('table', { name: 'Expected precision from this cohort' }).innerText()).toMatch(/Calibration slope/);
+        expect(await panel.locator('[data-test="adequacy-auc"]').innerText()).toMatch(
+          /latest completed run on this cohort version/,
+        );
+        expect(await panel.getByRole('table', { name: 'Expected precision from this cohort' }).innerText()).toMatch(
+          /Calibration slope/,
+        );
         await panel.scrollIntoViewIfNeeded();
         await page.screenshot({ path: `${artifactsDir}/recalibration-cohort-adequacy.png` });
         // The link carries the cohort's event rate and AUC into the planner, which computes at once.
@@ -161,7 +183,10 @@ describe('propose a recalibrated version, validate it on a later quarter, sign i
       'recalibration-sign',
       async (page) => {
         await page.goto(`${appUrl}/signoff-queue`);
-        const row = page.getByRole('row').filter({ hasText: `v${newVersion}` }).filter({ hasText: LATER_QUARTER });
+        const row = page
+          .getByRole('row')
+          .filter({ hasText: `v${newVersion}` })
+          .filter({ hasText: LATER_QUARTER });
         await row.getByRole('link', { name: 'Open' }).click();
         await page.waitForURL(`**/runs/${newRunId}`);
         await page.getByRole('button', { name: 'Approve for clinical use' }).click();
@@ -176,7 +201,10 @@ describe('propose a recalibrated version, validate it on a later quarter, sign i
       },
       'chair@demo.test',
     );
-    const [v]: { clinical_status: string; approved_run_id: string }[] = await dataSource.query('SELECT clinical_status, approved_run_id FROM score_versions WHERE id = $1', [newVersionId]);
+    const [v]: { clinical_status: string; approved_run_id: string }[] = await dataSource.query(
+      'SELECT clinical_status, approved_run_id FROM score_versions WHERE id = $1',
+      [newVersionId],
+    );
     expect(v).toEqual({ clinical_status: 'approved', approved_run_id: newRunId });
   });
 

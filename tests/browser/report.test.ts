@@ -35,12 +35,28 @@ const browser = useAppAndBrowser(async () => {
 
 // A4 at 96 CSS px per inch, less the report's 15 mm margins (@page in RunReportView.vue): 180 mm of content.
 const A4_CONTENT_PX = Math.floor((180 / 25.4) * 96);
-const SECTION_HEADINGS = ['Summary', 'Score', 'Cohort', 'Methods', 'Run settings', 'Results', 'Threshold table', 'Subgroups', 'Periods', 'Review', 'Signature manifest', 'Reporting checklist'];
+const SECTION_HEADINGS = [
+  'Summary',
+  'Score',
+  'Cohort',
+  'Methods',
+  'Run settings',
+  'Results',
+  'Threshold table',
+  'Subgroups',
+  'Periods',
+  'Review',
+  'Signature manifest',
+  'Reporting checklist',
+];
 
 /** Width and height of a binary PGM (P5) picture, and its grey values. */
 function readPgm(file: string): { width: number; height: number; pixels: Buffer } {
   const buf = readFileSync(file);
-  const header = buf.subarray(0, 64).toString('latin1').match(/^P5\s+(\d+)\s+(\d+)\s+(\d+)\s/);
+  const header = buf
+    .subarray(0, 64)
+    .toString('latin1')
+    .match(/^P5\s+(\d+)\s+(\d+)\s+(\d+)\s/);
   if (!header) throw new Error(`${file} is not a binary PGM`);
   return { width: Number(header[1]), height: Number(header[2]), pixels: buf.subarray(header[0].length) };
 }
@@ -66,29 +82,43 @@ describe('the validation report, printed', () => {
               const el = document.querySelector<HTMLElement>(`[data-report-part="${p}"]`);
               return !!el && el.innerText.trim().length > 0;
             });
-            return { code: row.dataset.checklistItem, claimed: row.dataset.present === 'true', shown: parts.length > 0 && rendered.every(Boolean), parts };
+            return {
+              code: row.dataset.checklistItem,
+              claimed: row.dataset.present === 'true',
+              shown: parts.length > 0 && rendered.every(Boolean),
+              parts,
+            };
           }),
         );
         expect(checklist.length).toBeGreaterThan(20);
-        for (const c of checklist) expect(c.claimed, `checklist item ${c.code} (${c.parts.join(', ') || 'not recorded'})`).toBe(c.shown);
+        for (const c of checklist)
+          expect(c.claimed, `checklist item ${c.code} (${c.parts.join(', ') || 'not recorded'})`).toBe(c.shown);
         // This run has thresholds, subgroups, monthly periods and a review: those items must be present (seeds/runs.ts settings).
-        for (const code of ['11', '13b', '16', '18']) expect(checklist.find((c) => c.code === code)?.claimed, `item ${code}`).toBe(true);
+        for (const code of ['11', '13b', '16', '18'])
+          expect(checklist.find((c) => c.code === code)?.claimed, `item ${code}`).toBe(true);
 
         // "Predicted risk by outcome" once; the settings as named settings in words, not JSON.
         await expect.poll(() => page.getByText('Predicted risk by outcome', { exact: true }).count()).toBe(1);
         const settings = await page.locator('[data-report-part="settings"]').innerText();
-        expect(settings).toMatch(/Decision-curve thresholds \(net benefit\)\s+1% to 50% in steps of 1% \(50 thresholds\)/);
+        expect(settings).toMatch(
+          /Decision-curve thresholds \(net benefit\)\s+1% to 50% in steps of 1% \(50 thresholds\)/,
+        );
         expect(settings).not.toMatch(/[{}"]/);
 
         // Charts draw at twice the screen's pixels, so the printed bitmap is sharp.
-        const ratios = await page.evaluate(() => [...document.querySelectorAll('canvas')].map((c) => c.width / c.getBoundingClientRect().width));
+        const ratios = await page.evaluate(() =>
+          [...document.querySelectorAll('canvas')].map((c) => c.width / c.getBoundingClientRect().width),
+        );
         expect(ratios.length).toBeGreaterThanOrEqual(3);
         for (const r of ratios) expect(r).toBeGreaterThanOrEqual(1.99);
 
         // Under print media at the width of an A4 page's content, nothing is wider than the page.
         await page.emulateMedia({ media: 'print' });
         await page.setViewportSize({ width: A4_CONTENT_PX, height: 1000 });
-        const widths = await page.evaluate(() => ({ scroll: document.documentElement.scrollWidth, client: document.documentElement.clientWidth }));
+        const widths = await page.evaluate(() => ({
+          scroll: document.documentElement.scrollWidth,
+          client: document.documentElement.clientWidth,
+        }));
         expect(widths.scroll, 'content wider than an A4 page').toBeLessThanOrEqual(widths.client);
         expect(await page.locator('header.v-app-bar').isVisible(), 'the app bar prints').toBe(false);
         expect(await page.locator('nav.v-navigation-drawer').isVisible(), 'the navigation prints').toBe(false);
@@ -99,7 +129,8 @@ describe('the validation report, printed', () => {
           await page.pdf({ path: pdf, preferCSSPageSize: true, printBackground: true });
 
           // Page pictures for people (tests/artifacts/report-page-NN.png) at 72 dpi: an A4 page is 595 px wide.
-          for (const f of readdirSync(artifactsDir).filter((f) => f.startsWith('report-page-'))) rmSync(path.join(artifactsDir, f));
+          for (const f of readdirSync(artifactsDir).filter((f) => f.startsWith('report-page-')))
+            rmSync(path.join(artifactsDir, f));
           execFileSync('pdftoppm', ['-r', '72', '-png', pdf, path.join(artifactsDir, 'report-page')]);
           const pngs = readdirSync(artifactsDir).filter((f) => /^report-page-\d+\.png$/.test(f));
           expect(pngs.length).toBeGreaterThanOrEqual(5);
@@ -113,14 +144,16 @@ describe('the validation report, printed', () => {
             const { width, height, pixels } = readPgm(path.join(dir, f));
             const band = Math.floor((10 / 25.4) * 50);
             let darkest = 255;
-            for (let y = 0; y < height; y++) for (let x = width - band; x < width; x++) darkest = Math.min(darkest, pixels[y * width + x]);
+            for (let y = 0; y < height; y++)
+              for (let x = width - band; x < width; x++) darkest = Math.min(darkest, pixels[y * width + x]);
             expect(darkest, `${f}: something printed in the right margin`).toBeGreaterThan(245);
           }
 
           const text = execFileSync('pdftotext', ['-layout', pdf, '-'], { encoding: 'utf8' });
           for (const h of SECTION_HEADINGS) expect(text, `section "${h}"`).toMatch(new RegExp(`^\\s*${h}`, 'm'));
           expect(text.match(/Predicted risk by outcome/g)?.length, '"Predicted risk by outcome" once').toBe(1);
-          for (const menu of ['Score cards', 'Upload cohort', 'My account', 'Print / Save as PDF']) expect(text, `"${menu}" printed`).not.toContain(menu);
+          for (const menu of ['Score cards', 'Upload cohort', 'My account', 'Print / Save as PDF'])
+            expect(text, `"${menu}" printed`).not.toContain(menu);
 
           // The cover: score, cohort, run hashes, review and signature manifest on page 1.
           const cover = execFileSync('pdftotext', ['-f', '1', '-l', '1', pdf, '-'], { encoding: 'utf8' });

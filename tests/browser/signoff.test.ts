@@ -63,7 +63,9 @@ describe('review, sign-off and score card in the browser', () => {
         await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor();
         await page.getByRole('combobox', { name: 'Verdict' }).click({ force: true }); // Vuetify lays its field over the input
         await page.getByRole('option', { name: 'fit for use', exact: true }).click();
-        await page.getByLabel('Reasoning').fill('AUC and calibration match the published figures; no subgroup concerns.');
+        await page
+          .getByLabel('Reasoning')
+          .fill('AUC and calibration match the published figures; no subgroup concerns.');
         await page.getByRole('button', { name: 'Save review' }).click();
         await page.getByText('awaiting the chair’s decision').waitFor();
       },

@@ -25,112 +25,142 @@ const browser = useAppAndBrowser(async () => {
 
 describe('steward → statistician → chair → clinician on a new version of an existing cohort', () => {
   it('is uploaded from the cohort page, resumed after leaving, mapped with subgroups, and stored with ticked exclusions', () =>
-    inTab(browser(), 'steward-new-version', async (page) => {
-      await page.goto(`${appUrl}/cohorts/${cohortId}`);
-      await page.locator('[data-test="upload-new-version"]').click();
-      await page.locator('[data-test="bound-cohort"]').waitFor();
-      expect(await page.locator('[data-test="bound-cohort"]').innerText()).toContain(cohortName);
-      await page.locator('[data-test="file-input"] input[type="file"]').setInputFiles(fixture);
-      await page.locator('[data-test="score-select"]').click();
-      await page.getByRole('option', { name: new RegExp(scoreName) }).click();
-      await page.locator('[data-test="download-template"]').waitFor();
-      await page.locator('[data-test="cohort-label"] input').fill('2026-Q1');
-      await page.locator('[data-test="send"]').click();
-      await page.getByText('Screened: no direct identifiers').waitFor();
+    inTab(
+      browser(),
+      'steward-new-version',
+      async (page) => {
+        await page.goto(`${appUrl}/cohorts/${cohortId}`);
+        await page.locator('[data-test="upload-new-version"]').click();
+        await page.locator('[data-test="bound-cohort"]').waitFor();
+        expect(await page.locator('[data-test="bound-cohort"]').innerText()).toContain(cohortName);
+        await page.locator('[data-test="file-input"] input[type="file"]').setInputFiles(fixture);
+        await page.locator('[data-test="score-select"]').click();
+        await page.getByRole('option', { name: new RegExp(scoreName) }).click();
+        await page.locator('[data-test="download-template"]').waitFor();
+        await page.locator('[data-test="cohort-label"] input').fill('2026-Q1');
+        await page.locator('[data-test="send"]').click();
+        await page.getByText('Screened: no direct identifiers').waitFor();
 
-      // Leave the page, come back: the unfinished upload is listed and resumes at the mapping.
-      await page.goto(`${appUrl}/cohorts`);
-      await page.goto(`${appUrl}/cohorts/upload`);
-      const listed = page.locator('[data-test="unfinished-uploads"]');
-      await listed.waitFor();
-      await screenshot(page, 'steward-unfinished-uploads');
-      await listed.getByRole('button', { name: 'Resume' }).first().click();
-      await page.getByText('Screened: no direct identifiers').waitFor();
+        // Leave the page, come back: the unfinished upload is listed and resumes at the mapping.
+        await page.goto(`${appUrl}/cohorts`);
+        await page.goto(`${appUrl}/cohorts/upload`);
+        const listed = page.locator('[data-test="unfinished-uploads"]');
+        await listed.waitFor();
+        await screenshot(page, 'steward-unfinished-uploads');
+        await listed.getByRole('button', { name: 'Resume' }).first().click();
+        await page.getByText('Screened: no direct identifiers').waitFor();
 
-      // Subgroups are chosen here: the suggested four, less "site".
-      const picker = page.locator('[data-test="subgroup-columns"]');
-      const chips = () => picker.locator('.v-chip').allInnerTexts();
-      await expect.poll(async () => (await chips()).map((t) => t.trim()).sort()).toEqual(['age_band', 'sex', 'site', 'unit']);
-      await picker.locator('.v-chip', { hasText: 'site' }).locator('button').click();
-      await expect.poll(async () => (await chips()).map((t) => t.trim()).sort()).toEqual(['age_band', 'sex', 'unit']);
-      await screenshot(page, 'steward-mapping-subgroups');
-      await page.locator('[data-test="check-rows"]').click();
-      await expect.poll(() => page.locator('[data-test="check-summary"]').innerText(), { timeout: 120_000 }).toMatch(/495 rows pass the checks; 5 rows were rejected/);
+        // Subgroups are chosen here: the suggested four, less "site".
+        const picker = page.locator('[data-test="subgroup-columns"]');
+        const chips = () => picker.locator('.v-chip').allInnerTexts();
+        await expect
+          .poll(async () => (await chips()).map((t) => t.trim()).sort())
+          .toEqual(['age_band', 'sex', 'site', 'unit']);
+        await picker.locator('.v-chip', { hasText: 'site' }).locator('button').click();
+        await expect.poll(async () => (await chips()).map((t) => t.trim()).sort()).toEqual(['age_band', 'sex', 'unit']);
+        await screenshot(page, 'steward-mapping-subgroups');
+        await page.locator('[data-test="check-rows"]').click();
+        await expect
+          .poll(() => page.locator('[data-test="check-summary"]').innerText(), { timeout: 120_000 })
+          .toMatch(/495 rows pass the checks; 5 rows were rejected/);
 
-      // One ticked row is not enough: the server says which rows are left.
-      await expect.poll(() => page.locator('[data-test="rejections"] tbody tr').count()).toBe(5);
-      await page.locator('[data-test="rejections"] tbody tr').first().locator('input[type="checkbox"]').check();
-      await page.locator('[data-test="store-chosen"]').click();
-      await expect.poll(() => page.locator('[data-test="upload-error"]').innerText()).toMatch(/are neither excluded nor fixed/);
-      // All five ticked (the header box ticks the page): stored as version 2 of the same cohort.
-      await page.locator('[data-test="rejections"] thead input[type="checkbox"]').check();
-      await expect.poll(() => page.locator('[data-test="store-chosen"]').innerText()).toMatch(/Exclude the 5 ticked row/);
-      await screenshot(page, 'steward-rejections-ticked');
-      await page.locator('[data-test="store-chosen"]').click();
-      await page.locator('[data-test="version-detail"]').waitFor({ timeout: 60_000 });
-      expect(page.url()).toContain(`/cohorts/${cohortId}`);
-      await expect.poll(() => page.locator('[data-test="version-detail"]').innerText()).toMatch(/Version 2/);
-      expect(await page.locator('[data-test="row-count"]').innerText()).toBe('495');
-      await screenshot(page, 'steward-version-2');
+        // One ticked row is not enough: the server says which rows are left.
+        await expect.poll(() => page.locator('[data-test="rejections"] tbody tr').count()).toBe(5);
+        await page.locator('[data-test="rejections"] tbody tr').first().locator('input[type="checkbox"]').check();
+        await page.locator('[data-test="store-chosen"]').click();
+        await expect
+          .poll(() => page.locator('[data-test="upload-error"]').innerText())
+          .toMatch(/are neither excluded nor fixed/);
+        // All five ticked (the header box ticks the page): stored as version 2 of the same cohort.
+        await page.locator('[data-test="rejections"] thead input[type="checkbox"]').check();
+        await expect
+          .poll(() => page.locator('[data-test="store-chosen"]').innerText())
+          .toMatch(/Exclude the 5 ticked row/);
+        await screenshot(page, 'steward-rejections-ticked');
+        await page.locator('[data-test="store-chosen"]').click();
+        await page.locator('[data-test="version-detail"]').waitFor({ timeout: 60_000 });
+        expect(page.url()).toContain(`/cohorts/${cohortId}`);
+        await expect.poll(() => page.locator('[data-test="version-detail"]').innerText()).toMatch(/Version 2/);
+        expect(await page.locator('[data-test="row-count"]').innerText()).toBe('495');
+        await screenshot(page, 'steward-version-2');
 
-      // The run form follows the cohort: monthly periods, its subgroup columns (site was not chosen).
-      await page.goto(`${appUrl}/runs/new`);
-      await page.locator('.v-select', { hasText: 'Cohort version' }).locator('.v-field').click();
-      await page.getByRole('option', { name: new RegExp(`${cohortName} — version 2`) }).click();
-      await expect.poll(() => page.locator('.v-select', { hasText: 'Time grouping' }).innerText()).toMatch(/month/);
-      const subgroups = page.locator('.v-select', { hasText: 'Subgroups' });
-      await expect.poll(() => subgroups.innerText()).toMatch(/age_band[\s\S]*sex[\s\S]*unit/);
-      expect(await subgroups.innerText()).not.toMatch(/\bsite\b/);
-      await page.locator('.v-select', { hasText: 'Score version' }).locator('.v-field').click();
-      await page.getByRole('option', { name: new RegExp(scoreName) }).click();
-      await screenshot(page, 'steward-run-defaults');
-      await page.getByRole('button', { name: 'Queue the run' }).click();
-      await page.waitForURL(/\/runs\/[0-9a-f-]{36}$/);
-      runId = page.url().split('/').pop()!;
-      // The run computes in the server's run thread; its page says what it is doing, then shows the figures.
-      await page.getByText('AUC (c-statistic)').first().waitFor({ timeout: 180_000 });
-      await expect.poll(() => page.locator('body').innerText()).toMatch(/age_band/);
-      await screenshot(page, 'steward-run-completed');
-    }, 'steward@demo.test'));
+        // The run form follows the cohort: monthly periods, its subgroup columns (site was not chosen).
+        await page.goto(`${appUrl}/runs/new`);
+        await page.locator('.v-select', { hasText: 'Cohort version' }).locator('.v-field').click();
+        await page.getByRole('option', { name: new RegExp(`${cohortName} — version 2`) }).click();
+        await expect.poll(() => page.locator('.v-select', { hasText: 'Time grouping' }).innerText()).toMatch(/month/);
+        const subgroups = page.locator('.v-select', { hasText: 'Subgroups' });
+        await expect.poll(() => subgroups.innerText()).toMatch(/age_band[\s\S]*sex[\s\S]*unit/);
+        expect(await subgroups.innerText()).not.toMatch(/\bsite\b/);
+        await page.locator('.v-select', { hasText: 'Score version' }).locator('.v-field').click();
+        await page.getByRole('option', { name: new RegExp(scoreName) }).click();
+        await screenshot(page, 'steward-run-defaults');
+        await page.getByRole('button', { name: 'Queue the run' }).click();
+        await page.waitForURL(/\/runs\/[0-9a-f-]{36}$/);
+        runId = page.url().split('/').pop()!;
+        // The run computes in the server's run thread; its page says what it is doing, then shows the figures.
+        await page.getByText('AUC (c-statistic)').first().waitFor({ timeout: 180_000 });
+        await expect.poll(() => page.locator('body').innerText()).toMatch(/age_band/);
+        await screenshot(page, 'steward-run-completed');
+      },
+      'steward@demo.test',
+    ));
 
   it('the statistician reviews the run', () =>
-    inTab(browser(), 'steward-flow-statistician', async (page) => {
-      await page.goto(`${appUrl}/runs/${runId}`);
-      await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor();
-      await page.getByRole('combobox', { name: 'Verdict' }).click({ force: true }); // Vuetify lays its field over the input
-      await page.getByRole('option', { name: 'fit for use', exact: true }).click();
-      await page.getByLabel('Reasoning').fill('Discrimination and calibration hold on the new quarter; subgroups by unit show no concern.');
-      await page.getByRole('button', { name: 'Save review' }).click();
-      await page.getByText('awaiting the chair’s decision').waitFor();
-      await screenshot(page, 'steward-flow-review');
-    }, 'statistician@demo.test'));
+    inTab(
+      browser(),
+      'steward-flow-statistician',
+      async (page) => {
+        await page.goto(`${appUrl}/runs/${runId}`);
+        await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor();
+        await page.getByRole('combobox', { name: 'Verdict' }).click({ force: true }); // Vuetify lays its field over the input
+        await page.getByRole('option', { name: 'fit for use', exact: true }).click();
+        await page
+          .getByLabel('Reasoning')
+          .fill('Discrimination and calibration hold on the new quarter; subgroups by unit show no concern.');
+        await page.getByRole('button', { name: 'Save review' }).click();
+        await page.getByText('awaiting the chair’s decision').waitFor();
+        await screenshot(page, 'steward-flow-review');
+      },
+      'statistician@demo.test',
+    ));
 
   it('the chair finds the run in the runs list by its status and signs it', () =>
-    inTab(browser(), 'steward-flow-chair', async (page) => {
-      await page.goto(`${appUrl}/runs`);
-      await page.locator('[data-test="runs-search"] input').fill(cohortName);
-      await page.locator('[data-test="runs-stage"]').locator('.v-field').click();
-      await page.getByRole('option', { name: 'awaiting sign-off' }).click();
-      const row = page.getByRole('row').filter({ hasText: cohortName });
-      await expect.poll(() => row.count()).toBe(1);
-      expect(await row.innerText()).toMatch(/fit for use[\s\S]*awaiting sign-off/);
-      await screenshot(page, 'steward-flow-runs-list');
-      await row.click();
-      await page.getByRole('button', { name: 'Approve for clinical use' }).click();
-      const dialog = page.locator('[data-test="signature-dialog"]');
-      await dialog.getByLabel('Re-enter your password to sign').fill(DEMO_PASSWORD);
-      await dialog.getByRole('button', { name: 'Sign' }).click();
-      await page.locator('tr[data-meaning="approve for clinical use"]').waitFor();
-      await screenshot(page, 'steward-flow-signed');
-    }, 'chair@demo.test'));
+    inTab(
+      browser(),
+      'steward-flow-chair',
+      async (page) => {
+        await page.goto(`${appUrl}/runs`);
+        await page.locator('[data-test="runs-search"] input').fill(cohortName);
+        await page.locator('[data-test="runs-stage"]').locator('.v-field').click();
+        await page.getByRole('option', { name: 'awaiting sign-off' }).click();
+        const row = page.getByRole('row').filter({ hasText: cohortName });
+        await expect.poll(() => row.count()).toBe(1);
+        expect(await row.innerText()).toMatch(/fit for use[\s\S]*awaiting sign-off/);
+        await screenshot(page, 'steward-flow-runs-list');
+        await row.click();
+        await page.getByRole('button', { name: 'Approve for clinical use' }).click();
+        const dialog = page.locator('[data-test="signature-dialog"]');
+        await dialog.getByLabel('Re-enter your password to sign').fill(DEMO_PASSWORD);
+        await dialog.getByRole('button', { name: 'Sign' }).click();
+        await page.locator('tr[data-meaning="approve for clinical use"]').waitFor();
+        await screenshot(page, 'steward-flow-signed');
+      },
+      'chair@demo.test',
+    ));
 
   it('the clinician reads the score card', () =>
-    inTab(browser(), 'steward-flow-clinician', async (page) => {
-      await page.goto(`${appUrl}/scorecards`);
-      const card = page.locator(`.score-card[data-version="${scoreVersionId}"]`);
-      await card.waitFor();
-      await card.getByRole('note', { name: 'Clinical-use caution' }).waitFor();
-      expect(await card.innerText()).toMatch(/AUC/);
-      await screenshot(page, 'steward-flow-card');
-    }, 'clinician@demo.test'));
+    inTab(
+      browser(),
+      'steward-flow-clinician',
+      async (page) => {
+        await page.goto(`${appUrl}/scorecards`);
+        const card = page.locator(`.score-card[data-version="${scoreVersionId}"]`);
+        await card.waitFor();
+        await card.getByRole('note', { name: 'Clinical-use caution' }).waitFor();
+        expect(await card.innerText()).toMatch(/AUC/);
+        await screenshot(page, 'steward-flow-card');
+      },
+      'clinician@demo.test',
+    ));
 });

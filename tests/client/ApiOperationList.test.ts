@@ -11,9 +11,21 @@ const document = {
   paths: {
     '/api/health': { get: { summary: 'service status', 'x-plumbline-access': 'public', 'x-plumbline-roles': [] } },
     '/api/runs/{id}': {
-      get: { summary: 'one run', 'x-plumbline-access': 'roles', 'x-plumbline-roles': ['statistician', 'chair'], parameters: [{ name: 'id', in: 'path', required: true, schema: { type: 'string' } }] },
+      get: {
+        summary: 'one run',
+        'x-plumbline-access': 'roles',
+        'x-plumbline-roles': ['statistician', 'chair'],
+        parameters: [{ name: 'id', in: 'path', required: true, schema: { type: 'string' } }],
+      },
     },
-    '/api/runs': { post: { summary: 'queue a run', 'x-plumbline-access': 'roles', 'x-plumbline-roles': ['steward'], requestBody: { content: { 'application/json': { schema: { type: 'object', required: ['cohortVersionId'] } } } } } },
+    '/api/runs': {
+      post: {
+        summary: 'queue a run',
+        'x-plumbline-access': 'roles',
+        'x-plumbline-roles': ['steward'],
+        requestBody: { content: { 'application/json': { schema: { type: 'object', required: ['cohortVersionId'] } } } },
+      },
+    },
   },
 };
 
@@ -21,7 +33,11 @@ describe('ApiOperationList', () => {
   it('groups operations by their first path segment and says who may call each', async () => {
     const w = mount(ApiOperationList, { props: { document }, global: { plugins: [vuetify] } });
     expect(w.findAll('h2').map((h) => h.text())).toEqual(['/api/health', '/api/runs']);
-    expect(w.findAll('[data-operation]').map((e) => e.attributes('data-operation'))).toEqual(['get /api/health', 'get /api/runs/{id}', 'post /api/runs']);
+    expect(w.findAll('[data-operation]').map((e) => e.attributes('data-operation'))).toEqual([
+      'get /api/health',
+      'get /api/runs/{id}',
+      'post /api/runs',
+    ]);
     await w.find('[data-operation="get /api/runs/{id}"] button').trigger('click');
     await nextTick();
     expect(w.find('[data-operation="get /api/runs/{id}"]').text()).toContain('Who may call it: statistician, chair');

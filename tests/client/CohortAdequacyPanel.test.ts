@@ -26,7 +26,13 @@ function adequacy(events: number, nonEvents: number, over: Partial<CohortAdequac
 }
 
 async function mountPanel(a: CohortAdequacy, subject: 'run' | 'cohort') {
-  const router = createRouter({ history: createMemoryHistory(), routes: [{ path: '/', component: { template: '<div />' } }, { path: '/sample-size', name: 'sample-size', component: { template: '<div />' } }] });
+  const router = createRouter({
+    history: createMemoryHistory(),
+    routes: [
+      { path: '/', component: { template: '<div />' } },
+      { path: '/sample-size', name: 'sample-size', component: { template: '<div />' } },
+    ],
+  });
   await router.push('/');
   return mount(CohortAdequacyPanel, { props: { adequacy: a, subject }, global: { plugins: [vuetify, router] } });
 }
@@ -51,12 +57,19 @@ describe('CohortAdequacyPanel', () => {
   it('a cohort version with an assumed AUC says that it is assumed', async () => {
     const w = await mountPanel(adequacy(250, 2000, { auc: { value: 0.75, source: 'assumed', runId: null } }), 'cohort');
     expect(w.find('[data-test="adequacy-verdict"]').text()).toBe('Preferred size met');
-    expect(w.find('[data-test="adequacy-auc"]').text()).toMatch(/an assumed AUC: no completed run of this score gives one yet/);
+    expect(w.find('[data-test="adequacy-auc"]').text()).toMatch(
+      /an assumed AUC: no completed run of this score gives one yet/,
+    );
     expect(w.text()).toContain('In this cohort version');
   });
 
   it('missing widths show a dash and the reason', async () => {
-    const w = await mountPanel(adequacy(150, 150, { precision: { oe: 0.4, auc: 0.1, slope: null, note: 'the calibration slope width needs an AUC above 0.5' } }), 'run');
+    const w = await mountPanel(
+      adequacy(150, 150, {
+        precision: { oe: 0.4, auc: 0.1, slope: null, note: 'the calibration slope width needs an AUC above 0.5' },
+      }),
+      'run',
+    );
     expect(w.find('[data-test="adequacy-verdict"]').text()).toBe('Minimum met');
     expect(w.findAll('tbody')[1].findAll('tr')[1].text()).toMatch(/Calibration slope\s*—/);
     expect(w.find('[data-test="adequacy-auc"]').text()).toMatch(/needs an AUC above 0\.5/);

@@ -22,7 +22,10 @@ afterEach(() => {
 
 describe('CohortUploadCodingIssues', () => {
   it('states the mismatch, offers the level or none for each label, and sends the reading', async () => {
-    wrapper = mount(CohortUploadCodingIssues, { props: { issues: [issue(['Y', 'N'])] }, global: { plugins: [createVuetify()] } });
+    wrapper = mount(CohortUploadCodingIssues, {
+      props: { issues: [issue(['Y', 'N'])] },
+      global: { plugins: [createVuetify()] },
+    });
     expect(wrapper.text()).toContain('"yes" never occurs');
     expect(wrapper.text()).toContain('No label is read as "yes" yet');
     const vm = wrapper.findComponent({ name: 'VSelect' });
@@ -38,7 +41,10 @@ describe('CohortUploadCodingIssues', () => {
   });
 
   it('offers a label that differs only by case as the level itself', async () => {
-    wrapper = mount(CohortUploadCodingIssues, { props: { issues: [{ ...issue(['Yes', 'no', 'unknown']), absent: [] }] }, global: { plugins: [createVuetify()] } });
+    wrapper = mount(CohortUploadCodingIssues, {
+      props: { issues: [{ ...issue(['Yes', 'no', 'unknown']), absent: [] }] },
+      global: { plugins: [createVuetify()] },
+    });
     await wrapper.find('[data-test="apply-labels"]').trigger('click');
     expect(wrapper.emitted('apply')![0]).toEqual([{ emergency_admission: { Yes: 'yes', no: '', unknown: '' } }]);
   });

@@ -11,7 +11,11 @@ const vuetify = createVuetify();
 describe('CohortUploadSubgroupPicker', () => {
   it('names new subgroups after their column, keeps existing names, and offers only free columns', async () => {
     const w = mount(CohortUploadSubgroupPicker, {
-      props: { modelValue: { sex: 'gender' }, headers: ['age', 'gender', 'ward', '2nd site (main)', 'outcome'], taken: ['age', 'outcome'] },
+      props: {
+        modelValue: { sex: 'gender' },
+        headers: ['age', 'gender', 'ward', '2nd site (main)', 'outcome'],
+        taken: ['age', 'outcome'],
+      },
       global: { plugins: [vuetify] },
     });
     const picker = w.findComponent({ name: 'VAutocomplete' });

@@ -13,10 +13,20 @@ vi.mock('@/api/drift', () => ({ listAlerts: async () => [] }));
 
 async function overviewAs(role: Role) {
   // A signed-in session as the auth store keeps it (client/src/stores/auth.ts reads it when created).
-  sessionStorage.setItem('plumbline.session', JSON.stringify({ token: 't', expiresAt: Date.now() + 600_000, user: { id: 'u1', email: `${role}@example.test`, name: 'Test Person', role, active: true } }));
+  sessionStorage.setItem(
+    'plumbline.session',
+    JSON.stringify({
+      token: 't',
+      expiresAt: Date.now() + 600_000,
+      user: { id: 'u1', email: `${role}@example.test`, name: 'Test Person', role, active: true },
+    }),
+  );
   const pinia = createPinia();
   setActivePinia(pinia);
-  const router = createRouter({ history: createMemoryHistory(), routes: [{ path: '/:any(.*)*', component: { template: '<div />' } }] });
+  const router = createRouter({
+    history: createMemoryHistory(),
+    routes: [{ path: '/:any(.*)*', component: { template: '<div />' } }],
+  });
   const w = mount(HomeView, { global: { plugins: [createVuetify(), pinia, router] } });
   await flushPromises();
   return w;
@@ -27,11 +37,18 @@ describe('the overview', () => {
     const w = await overviewAs(role);
     const cards = w.findAll('[data-testid^="task-"]');
     expect(cards.length).toBeGreaterThan(1);
-    const reachable = new Set(navigationFor(role).map((n) => n.to).concat(pageRoles('run-start').includes(role) ? ['/runs/new'] : []));
+    const reachable = new Set(
+      navigationFor(role)
+        .map((n) => n.to)
+        .concat(pageRoles('run-start').includes(role) ? ['/runs/new'] : []),
+    );
     for (const card of cards) {
       const link = card.find('a[href]');
       expect(link.exists(), `${card.attributes('data-testid')} has a link`).toBe(true);
-      expect(reachable.has(link.attributes('href')!), `${card.attributes('data-testid')} → ${link.attributes('href')}`).toBe(true);
+      expect(
+        reachable.has(link.attributes('href')!),
+        `${card.attributes('data-testid')} → ${link.attributes('href')}`,
+      ).toBe(true);
     }
     w.unmount();
   });
@@ -40,7 +57,8 @@ describe('the overview', () => {
 describe('the menu', () => {
   it('starts with "Upload cohort" for the steward, and with the overview for the others', () => {
     expect(navigationFor('steward')[0].title).toBe('Upload cohort');
-    for (const role of ROLES.filter((r) => r !== 'steward')) expect(navigationFor(role)[0].title, role).toBe('Overview');
+    for (const role of ROLES.filter((r) => r !== 'steward'))
+      expect(navigationFor(role)[0].title, role).toBe('Overview');
   });
   it('offers the sign-off queue to exactly the roles its route admits (chair and admin)', () => {
     expect(ROLES.filter((r) => navigationFor(r).some((n) => n.to === '/signoff-queue'))).toEqual(['admin', 'chair']);

@@ -7,7 +7,10 @@ import type { RunGovernanceView, Verdict } from '@shared/governance';
 import RunGovernanceSignoffPanel from '@/components/RunGovernanceSignoffPanel.vue';
 
 const signoffRun = vi.fn(async () => ({}));
-vi.mock('@/api/governance', () => ({ signoffRun: (...args: unknown[]) => signoffRun(...(args as [])), revokeApproval: vi.fn() }));
+vi.mock('@/api/governance', () => ({
+  signoffRun: (...args: unknown[]) => signoffRun(...(args as [])),
+  revokeApproval: vi.fn(),
+}));
 
 globalThis.ResizeObserver ??= class {
   observe() {}
@@ -23,7 +26,19 @@ const governance = (verdict: Verdict): RunGovernanceView => ({
   approvedRunId: null,
   approval: null,
   reviews: [
-    { id: 'rv-1', runId: 'run-1', verdict, reasoning: 'r', reviewerId: 'u-2', reviewerName: 'A Statistician', createdAt: '2026-01-01T00:00:00Z', supersededBy: null, current: true, decision: null, closedBy: null },
+    {
+      id: 'rv-1',
+      runId: 'run-1',
+      verdict,
+      reasoning: 'r',
+      reviewerId: 'u-2',
+      reviewerName: 'A Statistician',
+      createdAt: '2026-01-01T00:00:00Z',
+      supersededBy: null,
+      current: true,
+      decision: null,
+      closedBy: null,
+    },
   ],
   signatures: [],
   can: { review: false, sign: true, revoke: false, comment: true },
@@ -32,7 +47,8 @@ const governance = (verdict: Verdict): RunGovernanceView => ({
 
 let wrapper: ReturnType<typeof mount> | null = null;
 const body = () => document.body;
-const button = (text: string) => [...body().querySelectorAll('button')].find((b) => b.textContent?.trim() === text) as HTMLButtonElement | undefined;
+const button = (text: string) =>
+  [...body().querySelectorAll('button')].find((b) => b.textContent?.trim() === text) as HTMLButtonElement | undefined;
 
 async function openApprove(verdict: Verdict) {
   // Signed in as a chair, the way the auth store finds a session (client/src/stores/auth.ts).
@@ -41,7 +57,11 @@ async function openApprove(verdict: Verdict) {
   setActivePinia(createPinia());
   // The dialog drawn in place (Vuetify's overlay needs a visual viewport that happy-dom lacks); its content is the same.
   const VDialog = { props: ['modelValue'], template: '<div v-if="modelValue"><slot /></div>' };
-  wrapper = mount(RunGovernanceSignoffPanel, { props: { governance: governance(verdict) }, global: { plugins: [createVuetify()], stubs: { VDialog } }, attachTo: document.body });
+  wrapper = mount(RunGovernanceSignoffPanel, {
+    props: { governance: governance(verdict) },
+    global: { plugins: [createVuetify()], stubs: { VDialog } },
+    attachTo: document.body,
+  });
   button('Approve for clinical use')!.click();
   await flushPromises();
 }
@@ -61,18 +81,27 @@ afterEach(() => {
 });
 
 describe('RunGovernanceSignoffPanel', () => {
-  it.each(['not fit for use', 'recalibrate first'] as const)('review "%s": warns and needs the reason before signing', async (verdict) => {
-    await openApprove(verdict);
-    expect(body().querySelector('[data-test="against-review-warning"]')?.textContent).toContain(`review says "${verdict}"`);
-    expect(body().querySelector('[data-test="signature-reason"] textarea')).not.toBeNull();
-    await type('input[type="password"]', 'the-password');
-    expect(button('Sign')!.disabled).toBe(true);
-    await type('[data-test="signature-reason"] textarea', 'A pilot on one ward with monthly checks.');
-    expect(button('Sign')!.disabled).toBe(false);
-    button('Sign')!.click();
-    await flushPromises();
-    expect(signoffRun).toHaveBeenCalledWith('run-1', { decision: 'approve', password: 'the-password', reason: 'A pilot on one ward with monthly checks.' });
-  });
+  it.each(['not fit for use', 'recalibrate first'] as const)(
+    'review "%s": warns and needs the reason before signing',
+    async (verdict) => {
+      await openApprove(verdict);
+      expect(body().querySelector('[data-test="against-review-warning"]')?.textContent).toContain(
+        `review says "${verdict}"`,
+      );
+      expect(body().querySelector('[data-test="signature-reason"] textarea')).not.toBeNull();
+      await type('input[type="password"]', 'the-password');
+      expect(button('Sign')!.disabled).toBe(true);
+      await type('[data-test="signature-reason"] textarea', 'A pilot on one ward with monthly checks.');
+      expect(button('Sign')!.disabled).toBe(false);
+      button('Sign')!.click();
+      await flushPromises();
+      expect(signoffRun).toHaveBeenCalledWith('run-1', {
+        decision: 'approve',
+        password: 'the-password',
+        reason: 'A pilot on one ward with monthly checks.',
+      });
+    },
+  );
 
   it('names the approved run of the score version instead of a bare "approved"', async () => {
     setActivePinia(createPinia());
@@ -83,12 +112,18 @@ describe('RunGovernanceSignoffPanel', () => {
       approval: { runId: 'run-7', runNumber: 3, cohortLabel: '2026-Q1', signedAt: '2026-04-20T09:30:00.000Z' },
     };
     const RouterLink = { props: ['to'], template: '<a :data-to="JSON.stringify(to)"><slot /></a>' };
-    wrapper = mount(RunGovernanceSignoffPanel, { props: { governance: approved }, global: { plugins: [createVuetify()], stubs: { RouterLink } }, attachTo: document.body });
+    wrapper = mount(RunGovernanceSignoffPanel, {
+      props: { governance: approved },
+      global: { plugins: [createVuetify()], stubs: { RouterLink } },
+      attachTo: document.body,
+    });
     const status = body().querySelector('.run-signoff-panel p')!.textContent!.replace(/\s+/g, ' ');
     expect(status).toContain('Score version status: approved — run #3 on 2026-Q1, signed 2026-04-20 (not this run)');
     expect(body().querySelector('[data-test="approved-run"]')!.getAttribute('data-to')).toContain('run-7');
     await wrapper.setProps({ governance: { ...approved, runId: 'run-7' } });
-    expect(body().querySelector('.run-signoff-panel p')!.textContent!.replace(/\s+/g, ' ')).toContain('approved — run #3 on 2026-Q1, signed 2026-04-20 (this run)');
+    expect(body().querySelector('.run-signoff-panel p')!.textContent!.replace(/\s+/g, ' ')).toContain(
+      'approved — run #3 on 2026-Q1, signed 2026-04-20 (this run)',
+    );
   });
 
   it('review "fit for use": no warning and no reason asked', async () => {

@@ -16,7 +16,23 @@ describe('RunSubgroupTable', () => {
         minEvents: 10,
         periods: [],
         subgroups: [
-          { column: 'unit', level: 'Birch', n: 400, events: 60, tooSmall: false, result: { eventRate: 0.15, auc: est(0.7), calibrationIntercept: est(0.1), calibrationSlope: est(0.95), oe: est(1.1), brier: 0.12, ici: 0.01, warnings: [] } },
+          {
+            column: 'unit',
+            level: 'Birch',
+            n: 400,
+            events: 60,
+            tooSmall: false,
+            result: {
+              eventRate: 0.15,
+              auc: est(0.7),
+              calibrationIntercept: est(0.1),
+              calibrationSlope: est(0.95),
+              oe: est(1.1),
+              brier: 0.12,
+              ici: 0.01,
+              warnings: [],
+            },
+          },
           { column: 'unit', level: 'Small', n: 9, events: 2, tooSmall: true },
         ],
       },
@@ -37,7 +53,23 @@ describe('RunSubgroupTable', () => {
         minEvents: 10,
         periods: [],
         subgroups: [
-          { column: 'site', level: 'North', n: 12000, events: 1500, tooSmall: false, result: { eventRate: 0.125, auc: est(0.7), calibrationIntercept: est(-0.02), calibrationSlope: est(0.95), oe: est(1.1), brier: 0.12, ici: 0.01, warnings: [] } },
+          {
+            column: 'site',
+            level: 'North',
+            n: 12000,
+            events: 1500,
+            tooSmall: false,
+            result: {
+              eventRate: 0.125,
+              auc: est(0.7),
+              calibrationIntercept: est(-0.02),
+              calibrationSlope: est(0.95),
+              oe: est(1.1),
+              brier: 0.12,
+              ici: 0.01,
+              warnings: [],
+            },
+          },
         ],
       },
       global: { plugins: [vuetify] },
@@ -52,10 +84,27 @@ describe('RunSubgroupTable', () => {
 
 describe('toCsv (the CSV download of every chart and table)', () => {
   it('quotes cells with commas or quotes, doubles quotes, leaves missing values empty (RFC 4180)', () => {
-    expect(toCsv(['level', 'n'], [['Birch, main', 4], ['say "hi"', null], ['Cedar', 0.125]])).toBe('level,n\r\n"Birch, main",4\r\n"say ""hi""",\r\nCedar,0.125\r\n');
+    expect(
+      toCsv(
+        ['level', 'n'],
+        [
+          ['Birch, main', 4],
+          ['say "hi"', null],
+          ['Cedar', 0.125],
+        ],
+      ),
+    ).toBe('level,n\r\n"Birch, main",4\r\n"say ""hi""",\r\nCedar,0.125\r\n');
   });
   it('neutralises formula-looking text (a subgroup level or a label from a file) but keeps negative numbers', () => {
-    expect(toCsv(['level', 'n'], [['=HYPERLINK("http://x.invalid")', -2], [' @SUM(A1)', 1], ['-1+2', '-0.5']]))
-      .toBe(`level,n\r\n"'=HYPERLINK(""http://x.invalid"")",-2\r\n' @SUM(A1),1\r\n'-1+2,-0.5\r\n`);
+    expect(
+      toCsv(
+        ['level', 'n'],
+        [
+          ['=HYPERLINK("http://x.invalid")', -2],
+          [' @SUM(A1)', 1],
+          ['-1+2', '-0.5'],
+        ],
+      ),
+    ).toBe(`level,n\r\n"'=HYPERLINK(""http://x.invalid"")",-2\r\n' @SUM(A1),1\r\n'-1+2,-0.5\r\n`);
   });
 });

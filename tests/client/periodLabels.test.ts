@@ -19,11 +19,13 @@ describe('periodLabels', () => {
     expect(periodLabels(periods)[2]).toBe('First half · 2026-H1 (half-year)');
   });
   it('gives a range without a whole kind its months', () => {
-    expect(periodsCovered([q('2026-Q1'), q('Odd', '2026-01-15 to 2026-03-20', null, null), q('Five', '2026-01 to 2026-05', null, 5)])).toEqual([
-      '2026-Q1',
-      '2026-01-15 to 2026-03-20',
-      '2026-01 to 2026-05 (5 months)',
-    ]);
+    expect(
+      periodsCovered([
+        q('2026-Q1'),
+        q('Odd', '2026-01-15 to 2026-03-20', null, null),
+        q('Five', '2026-01 to 2026-05', null, 5),
+      ]),
+    ).toEqual(['2026-Q1', '2026-01-15 to 2026-03-20', '2026-01 to 2026-05 (5 months)']);
   });
   it('splits a two-part name over two tick lines and leaves a one-part name alone', () => {
     const names = ['2026-Q1', 'Spring intake · 2026-Q2'];

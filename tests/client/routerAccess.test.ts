@@ -15,7 +15,15 @@ router.beforeEach((to) => {
 });
 
 function signInAs(role: Role | null) {
-  if (role) sessionStorage.setItem('plumbline.session', JSON.stringify({ token: 't', expiresAt: Date.now() + 600_000, user: { id: 'u1', email: `${role}@example.test`, name: 'Test Person', role, active: true } }));
+  if (role)
+    sessionStorage.setItem(
+      'plumbline.session',
+      JSON.stringify({
+        token: 't',
+        expiresAt: Date.now() + 600_000,
+        user: { id: 'u1', email: `${role}@example.test`, name: 'Test Person', role, active: true },
+      }),
+    );
   else sessionStorage.clear();
   setActivePinia(createPinia());
 }
@@ -33,7 +41,10 @@ async function landingOf(path: string): Promise<string> {
 
 describe('the router against shared/src/access.ts', () => {
   it('has a rule for every route, and a route for every rule', () => {
-    const names = router.getRoutes().map((r) => String(r.name)).sort();
+    const names = router
+      .getRoutes()
+      .map((r) => String(r.name))
+      .sort();
     expect(names).toEqual(Object.keys(PAGES).sort());
   });
 

@@ -6,7 +6,23 @@
 // Regenerate after adding routes: npx tsx server/scripts/print-access-matrix.ts --write  (then review the diff: where
 // several sets hold the same roles it names the first; name the set that states the route's rule).
 import type { Role } from '@shared/roles';
-import { ADMIN, ALERT_ACKNOWLEDGERS, CARD_READERS, COHORT_READERS, COHORT_WRITERS, DRIFT_READERS, REPRODUCERS, RESULT_READERS, RUN_STARTERS, RUN_TEAM, SCORE_READERS, SCORE_WRITERS, SIGNERS, SIGNOFF_QUEUE_READERS, STATISTICIAN } from '@shared/access';
+import {
+  ADMIN,
+  ALERT_ACKNOWLEDGERS,
+  CARD_READERS,
+  COHORT_READERS,
+  COHORT_WRITERS,
+  DRIFT_READERS,
+  REPRODUCERS,
+  RESULT_READERS,
+  RUN_STARTERS,
+  RUN_TEAM,
+  SCORE_READERS,
+  SCORE_WRITERS,
+  SIGNERS,
+  SIGNOFF_QUEUE_READERS,
+  STATISTICIAN,
+} from '@shared/access';
 
 export type MatrixAccess = 'public' | 'signed-in' | readonly Role[];
 

@@ -6,7 +6,12 @@ import type { Role } from '@shared/roles';
 import { createApp } from '../../server/src/http/app';
 import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import type { DataSource } from 'typeorm';
-import { closeDatabase, createOwnerDataSource, dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
+import {
+  closeDatabase,
+  createOwnerDataSource,
+  dataSource,
+  initDatabase,
+} from '../../server/src/platform/database/dataSource';
 
 export const app = createApp({ serveClient: false });
 export { dataSource, DEMO_PASSWORD };
@@ -68,4 +73,5 @@ export async function countRows(table: string): Promise<number> {
   return Number(rows[0].n);
 }
 
-export const uniqueEmail = (prefix: string) => `${prefix}-${Date.now()}-${Math.floor(Math.random() * 1e6)}@example.test`;
+export const uniqueEmail = (prefix: string) =>
+  `${prefix}-${Date.now()}-${Math.floor(Math.random() * 1e6)}@example.test`;

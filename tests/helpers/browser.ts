@@ -106,7 +106,9 @@ export async function inTab(
     if (signInAs) await signIn(page, signInAs);
     await body(page);
   } catch (err) {
-    await page.screenshot({ path: path.join(artifactsDir, `${name}-failure.png`), fullPage: true }).catch(() => undefined);
+    await page
+      .screenshot({ path: path.join(artifactsDir, `${name}-failure.png`), fullPage: true })
+      .catch(() => undefined);
     throw err;
   } finally {
     await page.close();

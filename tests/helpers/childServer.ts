@@ -8,7 +8,12 @@ const tsxCli = path.join(repoRoot, 'node_modules/tsx/dist/cli.mjs');
 
 /** Runs a TypeScript file with tsx to completion (e.g. migrations + demo accounts against another database). */
 export function runTsx(file: string, env: Record<string, string>, args: string[] = []): string {
-  const res = spawnSync(process.execPath, [tsxCli, file, ...args], { cwd: repoRoot, env: { ...process.env, ...env }, encoding: 'utf8', timeout: 300_000 });
+  const res = spawnSync(process.execPath, [tsxCli, file, ...args], {
+    cwd: repoRoot,
+    env: { ...process.env, ...env },
+    encoding: 'utf8',
+    timeout: 300_000,
+  });
   if (res.status !== 0) throw new Error(`tsx ${file} failed (${res.status}):\n${res.stderr}\n${res.stdout}`);
   return res.stdout;
 }
@@ -32,7 +37,13 @@ export class ServerProcess {
     // One process (tsx as an import hook, not the tsx CLI that runs the server in a grandchild), so SIGKILL hits the server itself.
     this.child = spawn(process.execPath, ['--import', 'tsx', this.entry], {
       cwd: repoRoot,
-      env: { ...process.env, ...this.env, PORT: String(this.port), NODE_ENV: 'test', PLUMBLINE_CLIENT_DIR: '/nonexistent' },
+      env: {
+        ...process.env,
+        ...this.env,
+        PORT: String(this.port),
+        NODE_ENV: 'test',
+        PLUMBLINE_CLIENT_DIR: '/nonexistent',
+      },
       stdio: ['ignore', 'pipe', 'pipe'],
     });
     this.child.stdout?.on('data', (d) => (this.output += d));
@@ -61,7 +72,11 @@ export class ServerProcess {
     return { status: res.status, body: (await res.json()) as Record<string, unknown> };
   }
 
-  async fetchJson(p: string, init: RequestInit = {}, timeoutMs = 15_000): Promise<{ status: number; body: Record<string, unknown> & { error?: string } }> {
+  async fetchJson(
+    p: string,
+    init: RequestInit = {},
+    timeoutMs = 15_000,
+  ): Promise<{ status: number; body: Record<string, unknown> & { error?: string } }> {
     const send = () => fetch(`${this.url}${p}`, { ...init, signal: AbortSignal.timeout(timeoutMs) });
     // A kept-alive socket the server closed at its keep-alive timeout just as it was reused: the request never reached
     // the server (it closes only idle sockets), so it is sent once more on a new connection.
@@ -79,8 +94,15 @@ export class ServerProcess {
     return { status: res.status, body };
   }
 
-  async login(email: string, password: string): Promise<{ status: number; token?: string; body: Record<string, unknown> }> {
-    const r = await this.fetchJson('/api/auth/login', { method: 'POST', headers: { 'Content-Type': 'application/json' }, body: JSON.stringify({ email, password }) });
+  async login(
+    email: string,
+    password: string,
+  ): Promise<{ status: number; token?: string; body: Record<string, unknown> }> {
+    const r = await this.fetchJson('/api/auth/login', {
+      method: 'POST',
+      headers: { 'Content-Type': 'application/json' },
+      body: JSON.stringify({ email, password }),
+    });
     return { status: r.status, token: r.body.token as string | undefined, body: r.body };
   }
 

@@ -34,7 +34,12 @@ export async function createScoreFixture(
   const versions: { id: string }[] = await dataSource.query(
     `INSERT INTO score_versions (score_id, version, mode, model, probability_column, change_note)
      VALUES ($1, 1, $2, $3::jsonb, $4, 'fixture') RETURNING id`,
-    [scores[0].id, mode, model ? JSON.stringify(model) : null, mode === 'supplied' ? (opts.probabilityColumn ?? 'risk') : null],
+    [
+      scores[0].id,
+      mode,
+      model ? JSON.stringify(model) : null,
+      mode === 'supplied' ? (opts.probabilityColumn ?? 'risk') : null,
+    ],
   );
   return { scoreId: scores[0].id, scoreVersionId: versions[0].id, model };
 }
@@ -52,11 +57,15 @@ export interface CohortFixture {
   rows: FixtureRow[];
 }
 
-export async function createCohortFixture(rows: FixtureRow[], opts: { name?: string; label?: string; periodStart?: string; periodEnd?: string } = {}): Promise<CohortFixture> {
+export async function createCohortFixture(
+  rows: FixtureRow[],
+  opts: { name?: string; label?: string; periodStart?: string; periodEnd?: string } = {},
+): Promise<CohortFixture> {
   const body = JSON.stringify(rows);
-  const cohorts: { id: string }[] = await dataSource.query(`INSERT INTO cohorts (name, description) VALUES ($1, 'fixture') RETURNING id`, [
-    opts.name ?? `Fixture cohort ${randomUUID().slice(0, 8)}`,
-  ]);
+  const cohorts: { id: string }[] = await dataSource.query(
+    `INSERT INTO cohorts (name, description) VALUES ($1, 'fixture') RETURNING id`,
+    [opts.name ?? `Fixture cohort ${randomUUID().slice(0, 8)}`],
+  );
   const events = rows.reduce((s, r) => s + r.outcome, 0);
   // As an upload stores them: the blocks first (the database refuses blocks for a version already stored), then the version.
   const id = randomUUID();
@@ -65,10 +74,18 @@ export async function createCohortFixture(rows: FixtureRow[], opts: { name?: str
   const num = Object.keys(first).filter((k) => typeof first[k] === 'number');
   const cat = Object.keys(first).filter((k) => typeof first[k] !== 'number');
   const sub = [...new Set(rows.flatMap((r) => Object.keys(r.subgroups ?? {})))];
-  const text = encodeBlocks(id, { num, cat, sub }, rows.map((r, i) => ({
-    line: i + 1, outcome: r.outcome as 0 | 1, date: r.eventDate ?? null,
-    num: num.map((k) => Number(r.predictors[k])), cat: cat.map((k) => String(r.predictors[k])), sub: sub.map((k) => r.subgroups?.[k] ?? null),
-  })));
+  const text = encodeBlocks(
+    id,
+    { num, cat, sub },
+    rows.map((r, i) => ({
+      line: i + 1,
+      outcome: r.outcome as 0 | 1,
+      date: r.eventDate ?? null,
+      num: num.map((k) => Number(r.predictors[k])),
+      cat: cat.map((k) => String(r.predictors[k])),
+      sub: sub.map((k) => r.subgroups?.[k] ?? null),
+    })),
+  );
   const qr = dataSource.createQueryRunner();
   try {
     await qr.connect();
@@ -80,7 +97,17 @@ export async function createCohortFixture(rows: FixtureRow[], opts: { name?: str
   await dataSource.query(
     `INSERT INTO cohort_versions (id, cohort_id, version, label, source_filename, source_sha256, source_bytes, row_count, events, mapping, period_start, period_end)
      VALUES ($1, $2, 1, $3, 'fixture.csv', $4, $5, $6, $7, '{}'::jsonb, $8, $9)`,
-    [id, cohorts[0].id, opts.label ?? 'fixture', createHash('sha256').update(body).digest('hex'), Buffer.byteLength(body), rows.length, events, opts.periodStart ?? null, opts.periodEnd ?? null],
+    [
+      id,
+      cohorts[0].id,
+      opts.label ?? 'fixture',
+      createHash('sha256').update(body).digest('hex'),
+      Buffer.byteLength(body),
+      rows.length,
+      events,
+      opts.periodStart ?? null,
+      opts.periodEnd ?? null,
+    ],
   );
   return { cohortId: cohorts[0].id, cohortVersionId: id, rows };
 }
@@ -102,7 +129,14 @@ export function kestrelRows(n: number, seed = 1, opts: { logitShift?: number; mo
     const prior = Math.floor(-Math.log(1 - rnd()) * 1.2);
     const emergency = rnd() < 0.6 ? 'yes' : 'no';
     const charlson = Math.floor(rnd() * 8);
-    const lp = -3.6 + 0.012 * age + 0.35 * Math.log(los) + 0.28 * prior + (emergency === 'yes' ? 0.45 : 0) + 0.11 * charlson + (opts.logitShift ?? 0);
+    const lp =
+      -3.6 +
+      0.012 * age +
+      0.35 * Math.log(los) +
+      0.28 * prior +
+      (emergency === 'yes' ? 0.45 : 0) +
+      0.11 * charlson +
+      (opts.logitShift ?? 0);
     const outcome = rnd() < 1 / (1 + Math.exp(-lp)) ? 1 : 0;
     const month = Math.floor(rnd() * months);
     const day = 1 + Math.floor(rnd() * 28);
@@ -110,8 +144,17 @@ export function kestrelRows(n: number, seed = 1, opts: { logitShift?: number; mo
     rows.push({
       outcome,
       eventDate: date,
-      predictors: { age, length_of_stay: los, prior_admissions: prior, emergency_admission: emergency, charlson_index: charlson },
-      subgroups: { sex: rnd() < 0.5 ? 'female' : 'male', unit: ['Birch', 'Cedar', 'Alder', 'Rowan', 'Small'][rnd() < 0.006 ? 4 : Math.floor(rnd() * 4)] },
+      predictors: {
+        age,
+        length_of_stay: los,
+        prior_admissions: prior,
+        emergency_admission: emergency,
+        charlson_index: charlson,
+      },
+      subgroups: {
+        sex: rnd() < 0.5 ? 'female' : 'male',
+        unit: ['Birch', 'Cedar', 'Alder', 'Rowan', 'Small'][rnd() < 0.006 ? 4 : Math.floor(rnd() * 4)],
+      },
     });
   }
   return rows;

@@ -40,9 +40,12 @@ export const jsonBodyRoutes = () => routes.filter((r) => ['post', 'put', 'patch'
 /** Every route mounted on the Express app, walked from its router stack (to catch routes added outside the table). */
 export function mountedRoutes(app: unknown): string[] {
   const out: string[] = [];
-  const walk = (stack: { route?: { path: string; methods: Record<string, boolean> }; handle?: { stack?: unknown[] } }[]) => {
+  const walk = (
+    stack: { route?: { path: string; methods: Record<string, boolean> }; handle?: { stack?: unknown[] } }[],
+  ) => {
     for (const layer of stack) {
-      if (layer.route) for (const m of Object.keys(layer.route.methods)) out.push(`${m.toUpperCase()} ${layer.route.path}`);
+      if (layer.route)
+        for (const m of Object.keys(layer.route.methods)) out.push(`${m.toUpperCase()} ${layer.route.path}`);
       else if (layer.handle?.stack) walk(layer.handle.stack as never);
     }
   };
@@ -51,12 +54,19 @@ export function mountedRoutes(app: unknown): string[] {
 }
 
 /** Every table name in the public schema with its row count (to prove hostile input changed nothing). */
-export async function tableCounts(query: (sql: string) => Promise<{ relname: string }[]>, exclude: string[] = []): Promise<Record<string, number>> {
-  const tables = (await query(`SELECT tablename AS relname FROM pg_tables WHERE schemaname = 'public' ORDER BY tablename`)) as { relname: string }[];
+export async function tableCounts(
+  query: (sql: string) => Promise<{ relname: string }[]>,
+  exclude: string[] = [],
+): Promise<Record<string, number>> {
+  const tables = (await query(
+    `SELECT tablename AS relname FROM pg_tables WHERE schemaname = 'public' ORDER BY tablename`,
+  )) as { relname: string }[];
   const counts: Record<string, number> = {};
   for (const t of tables) {
     if (exclude.includes(t.relname)) continue;
-    const rows = (await query(`SELECT count(*)::text AS relname FROM "${t.relname.replace(/"/g, '""')}"`)) as { relname: string }[];
+    const rows = (await query(`SELECT count(*)::text AS relname FROM "${t.relname.replace(/"/g, '""')}"`)) as {
+      relname: string;
+    }[];
     counts[t.relname] = Number(rows[0].relname);
   }
   return counts;
@@ -69,8 +79,12 @@ export function unwrapSchema(schema: unknown): ZodLike | undefined {
   let s = schema as ZodLike | undefined;
   for (let i = 0; i < 20 && s?._zod; i++) {
     const def = s._zod.def;
-    if (['optional', 'nullable', 'default', 'prefault', 'catch', 'readonly', 'nonoptional'].includes(def.type as string)) s = def.innerType as ZodLike;
-    else if (def.type === 'pipe') s = ((def.out as ZodLike)?._zod?.def.type === 'transform' ? def.in : def.out) as ZodLike;
+    if (
+      ['optional', 'nullable', 'default', 'prefault', 'catch', 'readonly', 'nonoptional'].includes(def.type as string)
+    )
+      s = def.innerType as ZodLike;
+    else if (def.type === 'pipe')
+      s = ((def.out as ZodLike)?._zod?.def.type === 'transform' ? def.in : def.out) as ZodLike;
     else if (def.type === 'lazy') s = (def.getter as () => ZodLike)();
     else break;
   }
@@ -85,7 +99,8 @@ export function fieldPaths(schema: unknown, depth = 2, prefix: string[] = []): s
   const out: string[][] = [];
   for (const [k, v] of Object.entries(shape)) {
     const inner = unwrapSchema(v);
-    if (depth > 1 && inner?._zod?.def.type === 'object') out.push([...prefix, k], ...fieldPaths(inner, depth - 1, [...prefix, k]));
+    if (depth > 1 && inner?._zod?.def.type === 'object')
+      out.push([...prefix, k], ...fieldPaths(inner, depth - 1, [...prefix, k]));
     else out.push([...prefix, k]);
   }
   return out;
@@ -103,7 +118,10 @@ export function leakMarkers(text: string): string[] {
     ['stack frame', /\n\s*at\s+\S+|\bat\s+[\w.<>]+\s+\(?[^\s)]*:\d+:\d+/],
     ['source path', /\/(server|node_modules|work)\/[\w./-]+\.(ts|js)/],
     ['QueryFailedError', /QueryFailedError|EntityNotFound|TypeORMError/],
-    ['PostgreSQL error text', /syntax error at or near|invalid input syntax for|violates (foreign key|unique|check) constraint|relation "[^"]+" does not exist/i],
+    [
+      'PostgreSQL error text',
+      /syntax error at or near|invalid input syntax for|violates (foreign key|unique|check) constraint|relation "[^"]+" does not exist/i,
+    ],
     ['SQL', /\b(SELECT\s+[\w*"]|INSERT\s+INTO\b|UPDATE\s+\w+\s+SET\b|DELETE\s+FROM\b)/i],
   ];
   for (const [name, re] of checks) if (re.test(text)) found.push(name);

@@ -15,7 +15,8 @@ function pgRun(bin: string, args: string[], opts: { allowFail?: boolean } = {}):
   const cmd = isRoot ? 'runuser' : path.join(PG_BIN, bin);
   const full = isRoot ? ['-u', 'postgres', '--', path.join(PG_BIN, bin), ...args] : args;
   const res = spawnSync(cmd, full, { encoding: 'utf8', timeout: 120_000 });
-  if (res.status !== 0 && !opts.allowFail) throw new Error(`${bin} ${args.join(' ')} failed (${res.status}): ${res.stderr}${res.stdout}`);
+  if (res.status !== 0 && !opts.allowFail)
+    throw new Error(`${bin} ${args.join(' ')} failed (${res.status}): ${res.stderr}${res.stdout}`);
   return `${res.stdout ?? ''}${res.stderr ?? ''}`;
 }
 
@@ -24,7 +25,10 @@ export async function freePort(from: number, span: number): Promise<number> {
   for (let i = 0; i < 50; i++) {
     const port = from + Math.floor(Math.random() * span);
     const inUse = await new Promise<boolean>((resolve) => {
-      const s = net.connect({ host: '127.0.0.1', port }, () => { s.destroy(); resolve(true); });
+      const s = net.connect({ host: '127.0.0.1', port }, () => {
+        s.destroy();
+        resolve(true);
+      });
       s.on('error', () => resolve(false));
     });
     if (!inUse) return port;
@@ -60,17 +64,38 @@ export async function createThrowawayCluster(): Promise<ThrowawayCluster> {
   const cluster: ThrowawayCluster = {
     port,
     dataDir,
-    env: (database = 'plumbline') => ({ PGHOST: '127.0.0.1', PGPORT: String(port), PGUSER: 'postgres', PGPASSWORD: '', PGDATABASE: database }),
+    env: (database = 'plumbline') => ({
+      PGHOST: '127.0.0.1',
+      PGPORT: String(port),
+      PGUSER: 'postgres',
+      PGPASSWORD: '',
+      PGDATABASE: database,
+    }),
     createDatabase(name) {
       cluster.psql(`CREATE DATABASE ${name}`, 'postgres');
     },
     psql(sql, database = 'plumbline') {
-      return execFileSync(path.join(PG_BIN, 'psql'), ['-h', '127.0.0.1', '-p', String(port), '-U', 'postgres', '-tAq', '-v', 'ON_ERROR_STOP=1', '-c', sql, database], {
-        encoding: 'utf8',
-      }).trim();
+      return execFileSync(
+        path.join(PG_BIN, 'psql'),
+        ['-h', '127.0.0.1', '-p', String(port), '-U', 'postgres', '-tAq', '-v', 'ON_ERROR_STOP=1', '-c', sql, database],
+        {
+          encoding: 'utf8',
+        },
+      ).trim();
     },
     start() {
-      pgRun('pg_ctl', ['-D', dataDir, '-l', path.join(root, 'postgres.log'), '-w', '-t', '60', '-o', `-h 127.0.0.1 -p ${port} -k ${sockDir} -c fsync=off`, 'start']);
+      pgRun('pg_ctl', [
+        '-D',
+        dataDir,
+        '-l',
+        path.join(root, 'postgres.log'),
+        '-w',
+        '-t',
+        '60',
+        '-o',
+        `-h 127.0.0.1 -p ${port} -k ${sockDir} -c fsync=off`,
+        'start',
+      ]);
     },
     stop(mode = 'fast') {
       pgRun('pg_ctl', ['-D', dataDir, '-m', mode, '-w', '-t', '60', 'stop'], { allowFail: true });
@@ -94,7 +119,8 @@ export async function createPreparedCluster(): Promise<ThrowawayCluster> {
 
 /** Registers an invented score with one formula version (FIXTURE_MODEL) straight in the database; returns the version id. */
 export function insertFixtureScore(cluster: ThrowawayCluster, name: string): string {
-  const scoreId = cluster.psql(`INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
+  const scoreId =
+    cluster.psql(`INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
     VALUES ('${name.replace(/'/g, "''")}', 'readmission (invented)', '30 days', 'adults (invented)', 'invented for tests', 'not medical advice') RETURNING id`);
   return cluster.psql(`INSERT INTO score_versions (score_id, version, mode, model)
     VALUES ('${scoreId}', 1, 'formula', '${JSON.stringify(FIXTURE_MODEL).replace(/'/g, "''")}'::jsonb) RETURNING id`);

@@ -3,7 +3,14 @@
  * the wait: errors are retried until the deadline. On time-out the error names what was awaited, the last value and
  * whatever `context` adds (e.g. the tail of a child process's output).
  */
-export async function until<T>(what: string, get: () => Promise<T> | T, ok: (v: T) => boolean, timeoutMs: number, stepMs = 100, context?: () => string): Promise<T> {
+export async function until<T>(
+  what: string,
+  get: () => Promise<T> | T,
+  ok: (v: T) => boolean,
+  timeoutMs: number,
+  stepMs = 100,
+  context?: () => string,
+): Promise<T> {
   const deadline = Date.now() + timeoutMs;
   let last: T | undefined;
   while (Date.now() < deadline) {

@@ -9,13 +9,16 @@ import { Z975 } from '../../server/src/stats/distributions';
 import { validate } from '../../server/src/stats/index';
 import { cohort, relErr, runR, skipR, writeCsv } from './tools';
 
-const json = 'toJ <- function(x) cat(paste0("{", paste0("\\"", names(x), "\\":", sapply(x, function(v) if (length(v) == 1) format(v, digits = 17) else paste0("[", paste(format(v, digits = 17), collapse = ","), "]")), collapse = ","), "}\\n"))';
+const json =
+  'toJ <- function(x) cat(paste0("{", paste0("\\"", names(x), "\\":", sapply(x, function(v) if (length(v) == 1) format(v, digits = 17) else paste0("[", paste(format(v, digits = 17), collapse = ","), "]")), collapse = ","), "}\\n"))';
 
 /** Two scores on the same patients: the second is the first plus noise on the logit scale (so it discriminates less). */
 function twoScores(n: number, seed: number, noise: number) {
   const { p, y } = cohort(n, seed, { digits: 10 });
   const { p: q } = cohort(n, seed + 1000, { mu: 0, sigma: 1, digits: 10 });
-  const p2 = Float64Array.from(p, (v, i) => Number((1 / (1 + Math.exp(-(Math.log(v / (1 - v)) + noise * Math.log(q[i] / (1 - q[i])))))).toFixed(10)));
+  const p2 = Float64Array.from(p, (v, i) =>
+    Number((1 / (1 + Math.exp(-(Math.log(v / (1 - v)) + noise * Math.log(q[i] / (1 - q[i])))))).toFixed(10)),
+  );
   return { p1: p, p2, y };
 }
 
@@ -31,25 +34,28 @@ function handNetBenefit(p: Float64Array, y: Uint8Array, t: number): number {
   return tp / p.length - (fp / p.length) * (t / (1 - t));
 }
 
-describe.skipIf(skipR)('paired comparison of two scores against pROC roc.test(paired = TRUE, method = "delong")', () => {
-  it.each([
-    [1500, 51, 0.8],
-    [600, 52, 0.3],
-  ])('n = %i (seed %i, noise %s): AUCs, difference, its CI, z and p', (n, seed, noise) => {
-    const { p1, p2, y } = twoScores(n, seed, noise);
-    const ref = runR(
-      `suppressMessages(library(pROC)); ${json}; d <- read.csv(commandArgs(TRUE)[1]); r1 <- roc(d$y, d$p1, levels = c(0, 1), direction = "<", quiet = TRUE); r2 <- roc(d$y, d$p2, levels = c(0, 1), direction = "<", quiet = TRUE); t <- roc.test(r1, r2, paired = TRUE, method = "delong"); toJ(list(a1 = as.numeric(auc(r1)), a2 = as.numeric(auc(r2)), z = unname(t$statistic), p = t$p.value, lo = t$conf.int[1], hi = t$conf.int[2]))`,
-      writeCsv({ p1, p2, y }),
-    );
-    const c = compareScores(p1, p2, y, { thresholds: [0.1, 0.2] });
-    expect(relErr(c.auc.first, ref.a1)).toBeLessThan(1e-12); // pROC auc(r1) [ref]
-    expect(relErr(c.auc.second, ref.a2)).toBeLessThan(1e-12); // pROC auc(r2) [ref]
-    expect(relErr(c.auc.z, ref.z)).toBeLessThan(1e-9); // pROC roc.test paired DeLong statistic [ref]
-    expect(relErr(c.auc.pValue, ref.p)).toBeLessThan(1e-8); // pROC roc.test p.value [ref]
-    expect(Math.abs(c.auc.difference.lower - ref.lo)).toBeLessThan(1e-10); // pROC roc.test conf.int[1] [ref]
-    expect(Math.abs(c.auc.difference.upper - ref.hi)).toBeLessThan(1e-10); // pROC roc.test conf.int[2] [ref]
-  });
-});
+describe.skipIf(skipR)(
+  'paired comparison of two scores against pROC roc.test(paired = TRUE, method = "delong")',
+  () => {
+    it.each([
+      [1500, 51, 0.8],
+      [600, 52, 0.3],
+    ])('n = %i (seed %i, noise %s): AUCs, difference, its CI, z and p', (n, seed, noise) => {
+      const { p1, p2, y } = twoScores(n, seed, noise);
+      const ref = runR(
+        `suppressMessages(library(pROC)); ${json}; d <- read.csv(commandArgs(TRUE)[1]); r1 <- roc(d$y, d$p1, levels = c(0, 1), direction = "<", quiet = TRUE); r2 <- roc(d$y, d$p2, levels = c(0, 1), direction = "<", quiet = TRUE); t <- roc.test(r1, r2, paired = TRUE, method = "delong"); toJ(list(a1 = as.numeric(auc(r1)), a2 = as.numeric(auc(r2)), z = unname(t$statistic), p = t$p.value, lo = t$conf.int[1], hi = t$conf.int[2]))`,
+        writeCsv({ p1, p2, y }),
+      );
+      const c = compareScores(p1, p2, y, { thresholds: [0.1, 0.2] });
+      expect(relErr(c.auc.first, ref.a1)).toBeLessThan(1e-12); // pROC auc(r1) [ref]
+      expect(relErr(c.auc.second, ref.a2)).toBeLessThan(1e-12); // pROC auc(r2) [ref]
+      expect(relErr(c.auc.z, ref.z)).toBeLessThan(1e-9); // pROC roc.test paired DeLong statistic [ref]
+      expect(relErr(c.auc.pValue, ref.p)).toBeLessThan(1e-8); // pROC roc.test p.value [ref]
+      expect(Math.abs(c.auc.difference.lower - ref.lo)).toBeLessThan(1e-10); // pROC roc.test conf.int[1] [ref]
+      expect(Math.abs(c.auc.difference.upper - ref.hi)).toBeLessThan(1e-10); // pROC roc.test conf.int[2] [ref]
+    });
+  },
+);
 
 describe('net-benefit difference with a paired bootstrap', () => {
   const { p1, p2, y } = twoScores(2000, 53, 0.8);
@@ -78,7 +84,9 @@ describe('net-benefit difference with a paired bootstrap', () => {
 
   it('is the same for the same seed and differs for another', () => {
     expect(compareScores(p1, p2, y, { thresholds, replicates: 300, seed: 11 })).toEqual(c);
-    expect(compareScores(p1, p2, y, { thresholds, replicates: 300, seed: 12 }).netBenefit[1].difference).not.toEqual(c.netBenefit[1].difference);
+    expect(compareScores(p1, p2, y, { thresholds, replicates: 300, seed: 12 }).netBenefit[1].difference).not.toEqual(
+      c.netBenefit[1].difference,
+    );
   });
 
   it('pairing matters: the paired interval is narrower than one that resamples each score separately would allow', () => {
@@ -103,7 +111,8 @@ describe('bootstrap intervals for the new figures', () => {
       expect(iv.lower).toBeLessThan(iv.estimate);
       expect(iv.upper).toBeGreaterThan(iv.estimate);
     }
-    for (const key of ['brier', 'scaledBrier', 'ici', 'e50', 'e90', 'emax', 'netBenefit@0.1']) expect(Number.isFinite(r.bootstrap!.intervals[key].lower), key).toBe(true);
+    for (const key of ['brier', 'scaledBrier', 'ici', 'e50', 'e90', 'emax', 'netBenefit@0.1'])
+      expect(Number.isFinite(r.bootstrap!.intervals[key].lower), key).toBe(true);
   });
 
   it('on 10,000 rows the Brier percentile interval is close to the normal-theory one, B ± 1.96·sd((p − y)²)/√n', () => {
@@ -130,9 +139,15 @@ describe.skipIf(skipR)('calibration band (pointwise bootstrap of the loess curve
     const band = calibrationBand(p, y, grid, settings);
     expect(calibrationBand(p, y, grid, settings)).toEqual(band);
     expect(calibrationBand(p, y, grid, { ...settings, bootstrapSeed: 5 }).lower).not.toEqual(band.lower);
-    const inside = grid.p.filter((_, k) => band.lower[k] <= grid.observed[k] && grid.observed[k] <= band.upper[k]).length;
+    const inside = grid.p.filter(
+      (_, k) => band.lower[k] <= grid.observed[k] && grid.observed[k] <= band.upper[k],
+    ).length;
     expect(inside / grid.p.length).toBeGreaterThan(0.9);
-    const ref = runR(`${json}; a <- commandArgs(TRUE); d <- read.csv(a[1]); f <- loess(y ~ p, data = d, span = 0.75, degree = 2, family = "gaussian", surface = "direct"); g <- as.numeric(strsplit(a[2], ",")[[1]]); s <- predict(f, newdata = data.frame(p = g), se = TRUE); toJ(list(fit = unname(s$fit), se = unname(s$se.fit)))`, writeCsv({ p, y }), grid.p.join(','));
+    const ref = runR(
+      `${json}; a <- commandArgs(TRUE); d <- read.csv(a[1]); f <- loess(y ~ p, data = d, span = 0.75, degree = 2, family = "gaussian", surface = "direct"); g <- as.numeric(strsplit(a[2], ",")[[1]]); s <- predict(f, newdata = data.frame(p = g), se = TRUE); toJ(list(fit = unname(s$fit), se = unname(s$se.fit)))`,
+      writeCsv({ p, y }),
+      grid.p.join(','),
+    );
     // between the 10th and 90th grid points (quantiles of p) compare widths: bootstrap vs R's normal-theory band
     const ratios: number[] = [];
     for (let k = 10; k < 90 && k < grid.p.length; k++) {

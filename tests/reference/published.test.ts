@@ -17,8 +17,18 @@ describe('Hanley & McNeil (1982) rating example', () => {
   const abnormal = [3, 2, 2, 11, 33];
   const p: number[] = [];
   const y: number[] = [];
-  normal.forEach((c, i) => { for (let k = 0; k < c; k++) { p.push((i + 1) / 5); y.push(0); } });
-  abnormal.forEach((c, i) => { for (let k = 0; k < c; k++) { p.push((i + 1) / 5); y.push(1); } });
+  normal.forEach((c, i) => {
+    for (let k = 0; k < c; k++) {
+      p.push((i + 1) / 5);
+      y.push(0);
+    }
+  });
+  abnormal.forEach((c, i) => {
+    for (let k = 0; k < c; k++) {
+      p.push((i + 1) / 5);
+      y.push(1);
+    }
+  });
   const auc = delongAuc(sortCohort(Float64Array.from(p), Uint8Array.from(y)));
 
   it('gives the printed AUC with ties counted one half', () => {
@@ -90,7 +100,9 @@ describe.skipIf(skipPython)('Spector & Mazzeo (1980) data, as shipped by statsmo
     'import json, statsmodels.api as sm; d = sm.datasets.spector.load_pandas().data; print(json.dumps({k: d[k].tolist() for k in d.columns}))',
   ) as Record<string, number[]>;
   const y = Uint8Array.from(data.GRADE);
-  const fit = logisticFit(y, [Float64Array.from(data.GPA), Float64Array.from(data.TUCE), Float64Array.from(data.PSI)], { intercept: true });
+  const fit = logisticFit(y, [Float64Array.from(data.GPA), Float64Array.from(data.TUCE), Float64Array.from(data.PSI)], {
+    intercept: true,
+  });
 
   it('has 32 rows and 11 events', () => {
     expect(y.length).toBe(32); // Spector & Mazzeo 1980, as in Greene's Econometric Analysis
@@ -116,7 +128,9 @@ describe.skipIf(skipPython)('Spector & Mazzeo (1980) data, as shipped by statsmo
   it('gives the in-sample AUC, Brier, log loss and Spiegelhalter z', () => {
     if (!fit.converged) throw new Error(fit.detail);
     const [b0, b1, b2, b3] = fit.coefficients;
-    const p = Float64Array.from(data.GPA.map((g, i) => 1 / (1 + Math.exp(-(b0 + b1 * g + b2 * data.TUCE[i] + b3 * data.PSI[i])))));
+    const p = Float64Array.from(
+      data.GPA.map((g, i) => 1 / (1 + Math.exp(-(b0 + b1 * g + b2 * data.TUCE[i] + b3 * data.PSI[i])))),
+    );
     const r = validate(p, y);
     expect(r.auc.estimate).toBeCloseTo(204 / 231, 10); // 204 of 231 pairs, docs/references.md [ref]
     expect(r.auc.estimate).toBeCloseTo(0.8831169, 7); // docs/references.md [ref]

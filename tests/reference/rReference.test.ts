@@ -7,7 +7,8 @@ import { loessAt } from '../../server/src/stats/loess';
 import { sortCohort } from '../../server/src/stats/sortedCohort';
 import { cohort, relErr, runR, skipR, writeCsv } from './tools';
 
-const json = 'toJ <- function(x) cat(paste0("{", paste0("\\"", names(x), "\\":", sapply(x, function(v) if (length(v) == 1) format(v, digits = 17) else paste0("[", paste(format(v, digits = 17), collapse = ","), "]")), collapse = ","), "}\\n"))';
+const json =
+  'toJ <- function(x) cat(paste0("{", paste0("\\"", names(x), "\\":", sapply(x, function(v) if (length(v) == 1) format(v, digits = 17) else paste0("[", paste(format(v, digits = 17), collapse = ","), "]")), collapse = ","), "}\\n"))';
 
 describe.skipIf(skipR)('pROC DeLong', () => {
   it.each([
@@ -28,7 +29,9 @@ describe.skipIf(skipR)('pROC DeLong', () => {
   });
 
   it('aSAH (pROC): s100b and ndka, and their paired DeLong test', () => {
-    const d = runR(`suppressMessages(library(pROC)); ${json}; data(aSAH, package = "pROC"); t <- roc.test(roc(aSAH$outcome, aSAH$s100b, levels = c("Good", "Poor"), direction = "<", quiet = TRUE), roc(aSAH$outcome, aSAH$ndka, levels = c("Good", "Poor"), direction = "<", quiet = TRUE), method = "delong"); toJ(list(y = as.integer(aSAH$outcome == "Poor"), s100b = aSAH$s100b, ndka = aSAH$ndka, z = unname(t$statistic), pv = t$p.value))`);
+    const d = runR(
+      `suppressMessages(library(pROC)); ${json}; data(aSAH, package = "pROC"); t <- roc.test(roc(aSAH$outcome, aSAH$s100b, levels = c("Good", "Poor"), direction = "<", quiet = TRUE), roc(aSAH$outcome, aSAH$ndka, levels = c("Good", "Poor"), direction = "<", quiet = TRUE), method = "delong"); toJ(list(y = as.integer(aSAH$outcome == "Poor"), s100b = aSAH$s100b, ndka = aSAH$ndka, z = unname(t$statistic), pv = t$p.value))`,
+    );
     const y = Uint8Array.from(d.y);
     // neither marker is a probability: scale each into [0, 1] monotonically — the AUC depends on order only
     const scaled = (v: number[]) => Float64Array.from(v.map((x) => x / Math.max(...v)));
@@ -54,19 +57,22 @@ describe.skipIf(skipR)('R loess (span 0.75, degree 2, gaussian, surface = "direc
     [400, 31, 0.75],
     [2500, 32, 0.75],
     [1000, 33, 0.5],
-  ])('n = %i (seed %i, span %s): every smoothed value within 1e-6 and ICI, E50, E90, Emax within 1e-7', (n, seed, span) => {
-    const { p, y } = cohort(n, seed, { a: 0.4, b: 0.6, digits: 6 });
-    const ref = runR(R_LOESS, writeCsv({ p, y }), String(span));
-    const s = sortCohort(p, y);
-    let worst = 0;
-    for (let i = 0; i < n; i++) worst = Math.max(worst, Math.abs(loessAt(s, p[i], span) - ref.s[i]));
-    expect(worst).toBeLessThan(1e-6); // R stats::loess surface = "direct" [ref]; tolerance: R zeroes weights beyond 0.999·h [mem]
-    const r = validate(p, y, { loessSpan: span });
-    expect(Math.abs(r.ici - ref.ici)).toBeLessThan(1e-7); // Austin & Steyerberg 2019 ICI from R loess [ref]
-    expect(Math.abs(r.e50 - ref.e50)).toBeLessThan(1e-7); // ibid. [ref]
-    expect(Math.abs(r.e90 - ref.e90)).toBeLessThan(1e-7); // ibid. [ref]
-    expect(Math.abs(r.emax - ref.emax)).toBeLessThan(1e-7); // ibid. [ref]
-  });
+  ])(
+    'n = %i (seed %i, span %s): every smoothed value within 1e-6 and ICI, E50, E90, Emax within 1e-7',
+    (n, seed, span) => {
+      const { p, y } = cohort(n, seed, { a: 0.4, b: 0.6, digits: 6 });
+      const ref = runR(R_LOESS, writeCsv({ p, y }), String(span));
+      const s = sortCohort(p, y);
+      let worst = 0;
+      for (let i = 0; i < n; i++) worst = Math.max(worst, Math.abs(loessAt(s, p[i], span) - ref.s[i]));
+      expect(worst).toBeLessThan(1e-6); // R stats::loess surface = "direct" [ref]; tolerance: R zeroes weights beyond 0.999·h [mem]
+      const r = validate(p, y, { loessSpan: span });
+      expect(Math.abs(r.ici - ref.ici)).toBeLessThan(1e-7); // Austin & Steyerberg 2019 ICI from R loess [ref]
+      expect(Math.abs(r.e50 - ref.e50)).toBeLessThan(1e-7); // ibid. [ref]
+      expect(Math.abs(r.e90 - ref.e90)).toBeLessThan(1e-7); // ibid. [ref]
+      expect(Math.abs(r.emax - ref.emax)).toBeLessThan(1e-7); // ibid. [ref]
+    },
+  );
 
   it('on 8,000 rows the grid-and-interpolate evaluation keeps ICI within 2e-4 of the direct fit', () => {
     const { p, y } = cohort(8000, 34, { a: 0.4, b: 0.6, digits: 6 });
@@ -79,7 +85,9 @@ describe.skipIf(skipR)('R loess (span 0.75, degree 2, gaussian, surface = "direc
 });
 
 describe.skipIf(skipR)('Hosmer–Lemeshow on MASS::birthwt', () => {
-  const d = runR(`suppressMessages(library(MASS)); ${json}; f <- glm(low ~ age + lwt + factor(race) + smoke + ptl + ht + ui, family = binomial, data = birthwt); toJ(list(p = unname(fitted(f)), y = birthwt$low, ll = as.numeric(logLik(f))))`);
+  const d = runR(
+    `suppressMessages(library(MASS)); ${json}; f <- glm(low ~ age + lwt + factor(race) + smoke + ptl + ht + ui, family = binomial, data = birthwt); toJ(list(p = unname(fitted(f)), y = birthwt$low, ll = as.numeric(logLik(f))))`,
+  );
   const s = sortCohort(Float64Array.from(d.p), Uint8Array.from(d.y));
 
   it('is the cohort docs/references.md describes', () => {

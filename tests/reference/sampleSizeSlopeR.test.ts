@@ -57,16 +57,19 @@ describe.skipIf(skipR)('slope sample size: the SE it promises, by simulation wit
     [0.018, 0.8, 0.2, 200, 17449], // the setting of Riley et al. 2021's worked example [pub], our LP assumption → n = 17,449
     [0.12, 0.72, 0.2, 400, 20210],
     [0.3, 0.65, 0.3, 400, 40230],
-  ])('event rate %s, AUC %s, slope CI width %s: SD of %i fitted slopes within 10 per cent of width/3.92', (eventRate, auc, ciWidthSlope, reps, seed) => {
-    const plan = planSampleSize({ eventRate, auc, ciWidthSlope });
-    const lp = plan.lpDistribution!;
-    const n = plan.criteria[0].n;
-    if (eventRate === 0.018) expect(n).toBe(17449); // our planner's answer under the Normal-LP assumption (see the header)
-    const r = runR(R_SIMULATE, String(n), String(lp.mean), String(lp.sd), String(reps), String(seed));
-    const promised = ciWidthSlope / 3.92; // SE the planner designs for (Riley et al. 2021) [pub]
-    expect(r.sd / promised).toBeGreaterThan(0.9); // R glm.fit, simulated here [ref]
-    expect(r.sd / promised).toBeLessThan(1.1); // ibid. [ref]
-    // outcomes were drawn from the model itself, so the fitted slope centres on 1 (common practice, no source)
-    expect(Math.abs(r.mean - 1)).toBeLessThan(4 * (r.sd / Math.sqrt(reps)) + 0.02);
-  });
+  ])(
+    'event rate %s, AUC %s, slope CI width %s: SD of %i fitted slopes within 10 per cent of width/3.92',
+    (eventRate, auc, ciWidthSlope, reps, seed) => {
+      const plan = planSampleSize({ eventRate, auc, ciWidthSlope });
+      const lp = plan.lpDistribution!;
+      const n = plan.criteria[0].n;
+      if (eventRate === 0.018) expect(n).toBe(17449); // our planner's answer under the Normal-LP assumption (see the header)
+      const r = runR(R_SIMULATE, String(n), String(lp.mean), String(lp.sd), String(reps), String(seed));
+      const promised = ciWidthSlope / 3.92; // SE the planner designs for (Riley et al. 2021) [pub]
+      expect(r.sd / promised).toBeGreaterThan(0.9); // R glm.fit, simulated here [ref]
+      expect(r.sd / promised).toBeLessThan(1.1); // ibid. [ref]
+      // outcomes were drawn from the model itself, so the fitted slope centres on 1 (common practice, no source)
+      expect(Math.abs(r.mean - 1)).toBeLessThan(4 * (r.sd / Math.sqrt(reps)) + 0.02);
+    },
+  );
 });

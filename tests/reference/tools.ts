@@ -48,12 +48,20 @@ export function runPython(script: string, ...args: string[]): ScriptOutput {
 }
 
 export function runR(script: string, ...args: string[]): ScriptOutput {
-  const out = execFileSync(RSCRIPT, ['-e', script, ...args], { encoding: 'utf8', maxBuffer: 1 << 28, stdio: ['ignore', 'pipe', 'ignore'] });
+  const out = execFileSync(RSCRIPT, ['-e', script, ...args], {
+    encoding: 'utf8',
+    maxBuffer: 1 << 28,
+    stdio: ['ignore', 'pipe', 'ignore'],
+  });
   return JSON.parse(out.trim().split('\n').pop()!);
 }
 
 /** A seeded cohort: lp ~ N(μ, σ), p = expit(lp) rounded to `digits`, y ~ Bernoulli(expit(a + b·lp)). */
-export function cohort(n: number, seed: number, opts: { mu?: number; sigma?: number; a?: number; b?: number; digits?: number } = {}) {
+export function cohort(
+  n: number,
+  seed: number,
+  opts: { mu?: number; sigma?: number; a?: number; b?: number; digits?: number } = {},
+) {
   const { mu = -1.5, sigma = 1, a = 0.2, b = 0.8, digits = 12 } = opts;
   const r = mulberry32(seed);
   const p = new Float64Array(n);

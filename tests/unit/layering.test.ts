@@ -42,7 +42,8 @@ export function importsOf(text: string): string[] {
 }
 
 const topOf = (rel: string) => (rel.includes('/') ? rel.split('/')[0] : '.');
-const within = (rel: string, place: string) => rel === place || rel.startsWith(`${place}/`) || rel === place.replace(/\.ts$/, '');
+const within = (rel: string, place: string) =>
+  rel === place || rel.startsWith(`${place}/`) || rel === place.replace(/\.ts$/, '');
 
 // Files outside server/src that server code may read: the package's own version (route table, OpenAPI document).
 const OUTSIDE_ALLOWED = ['../../package.json'];
@@ -62,7 +63,8 @@ function fileViolations(rel: string, text: string): string[] {
     const targetTop = topOf(target);
     if (targetTop !== top && !allowed.some((place) => within(target, place) || within(`${target}.ts`, place)))
       found.push(`${rel} imports ${target} (${top} may import ${allowed.join(', ') || 'only itself'})`);
-    for (const rule of FORBIDDEN_INSIDE) if (top === rule.from && within(target, rule.to)) found.push(`${rel} imports ${target}: ${rule.why}`);
+    for (const rule of FORBIDDEN_INSIDE)
+      if (top === rule.from && within(target, rule.to)) found.push(`${rel} imports ${target}: ${rule.why}`);
   }
   return found;
 }
@@ -71,24 +73,31 @@ const serverFiles = () => walk(src).map((f) => path.relative(src, f).split(path.
 
 describe('server layering', () => {
   it('reads the import lines it checks', () => {
-    expect(importsOf(`import a from './a';\nimport type { B } from '../b';\nexport { c } from './c';\nimport './d';\nconst e = await import('../e');\nimport x from 'express';`)).toEqual([
-      './a',
-      '../b',
-      './c',
-      './d',
-      '../e',
-    ]);
+    expect(
+      importsOf(
+        `import a from './a';\nimport type { B } from '../b';\nexport { c } from './c';\nimport './d';\nconst e = await import('../e');\nimport x from 'express';`,
+      ),
+    ).toEqual(['./a', '../b', './c', './d', '../e']);
   });
 
   it('reports the imports the table forbids', () => {
-    expect(fileViolations('domain/runs/x.ts', `import { notFound } from '../../http/middleware/errors';`)).toHaveLength(1);
-    expect(fileViolations('platform/observability/x.ts', `import { queueDepth } from '../../jobs/queueDepth';`)).toHaveLength(1);
+    expect(fileViolations('domain/runs/x.ts', `import { notFound } from '../../http/middleware/errors';`)).toHaveLength(
+      1,
+    );
+    expect(
+      fileViolations('platform/observability/x.ts', `import { queueDepth } from '../../jobs/queueDepth';`),
+    ).toHaveLength(1);
     expect(fileViolations('domain/runs/x.ts', `import { task } from '../../jobs/background';`)).toHaveLength(1);
-    expect(fileViolations('http/routes/x.ts', `import { dataSource } from '../../platform/database/dataSource';`)).toEqual([
-      'http/routes/x.ts imports platform/database/dataSource: routes call services and never run SQL',
-    ]);
+    expect(
+      fileViolations('http/routes/x.ts', `import { dataSource } from '../../platform/database/dataSource';`),
+    ).toEqual(['http/routes/x.ts imports platform/database/dataSource: routes call services and never run SQL']);
     expect(fileViolations('stats/x.ts', `const m = await import('../domain/runs/runs');`)).toHaveLength(1);
-    expect(fileViolations('domain/runs/x.ts', `import { enqueue } from '../../jobs/queue';\nimport { loadCohortData } from '../cohorts/cohortData';`)).toEqual([]);
+    expect(
+      fileViolations(
+        'domain/runs/x.ts',
+        `import { enqueue } from '../../jobs/queue';\nimport { loadCohortData } from '../cohorts/cohortData';`,
+      ),
+    ).toEqual([]);
   });
 
   it('every server file imports only what its folder may', () => {
@@ -99,7 +108,11 @@ describe('server layering', () => {
   it('nothing outside http/ imports from http/', () => {
     const offenders = serverFiles()
       .filter((rel) => topOf(rel) !== 'http' && topOf(rel) !== '.')
-      .filter((rel) => importsOf(readFileSync(path.join(src, rel), 'utf8')).some((spec) => path.posix.join(path.posix.dirname(rel), spec).startsWith('http/')));
+      .filter((rel) =>
+        importsOf(readFileSync(path.join(src, rel), 'utf8')).some((spec) =>
+          path.posix.join(path.posix.dirname(rel), spec).startsWith('http/'),
+        ),
+      );
     expect(offenders).toEqual([]);
   });
 });

@@ -24,4 +24,5 @@ export const listAudit = (filter: AuditFilter, signal?: AbortSignal) =>
 export const verifyAuditChain = () => http.get<ChainReport>('/api/audit/verify');
 
 /** The filtered trail as CSV (the whole match, not only the page shown). */
-export const downloadAuditCsv = (filter: AuditFilter) => downloadFile('/api/audit.csv', 'plumbline-audit.csv', { ...filter, limit: undefined, offset: undefined });
+export const downloadAuditCsv = (filter: AuditFilter) =>
+  downloadFile('/api/audit.csv', 'plumbline-audit.csv', { ...filter, limit: undefined, offset: undefined });

@@ -53,13 +53,21 @@ export interface Paging {
   sortDir?: 'asc' | 'desc';
 }
 
-export const listCohorts = (q: Paging) => http.get<{ cohorts: CohortListItem[]; total: number }>('/api/cohorts', { ...q });
+export const listCohorts = (q: Paging) =>
+  http.get<{ cohorts: CohortListItem[]; total: number }>('/api/cohorts', { ...q });
 
 export const getCohort = (id: string) =>
-  http.get<{ cohort: { id: string; name: string; description: string; createdAt: string }; versions: CohortVersionInfo[] }>(`/api/cohorts/${encodeURIComponent(id)}`);
+  http.get<{
+    cohort: { id: string; name: string; description: string; createdAt: string };
+    versions: CohortVersionInfo[];
+  }>(`/api/cohorts/${encodeURIComponent(id)}`);
 
 export const getCohortVersion = async (id: string, version: number) =>
-  (await http.get<{ version: CohortVersionInfo }>(`/api/cohorts/${encodeURIComponent(id)}/versions/${version}`)).version;
+  (await http.get<{ version: CohortVersionInfo }>(`/api/cohorts/${encodeURIComponent(id)}/versions/${version}`))
+    .version;
 
 export const listCohortRows = (id: string, version: number, q: Paging) =>
-  http.get<{ rows: CohortRow[]; total: number; predictorKeys: string[]; subgroupKeys: string[] }>(`/api/cohorts/${encodeURIComponent(id)}/versions/${version}/rows`, { ...q });
+  http.get<{ rows: CohortRow[]; total: number; predictorKeys: string[]; subgroupKeys: string[] }>(
+    `/api/cohorts/${encodeURIComponent(id)}/versions/${version}/rows`,
+    { ...q },
+  );

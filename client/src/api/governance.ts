@@ -15,7 +15,8 @@ import { http } from './http';
 
 export const getRunGovernance = (runId: string) => http.get<RunGovernanceView>(`/api/runs/${runId}/review`);
 
-export const reviewRun = (runId: string, body: { verdict: Verdict; reasoning: string }) => http.post<ReviewView>(`/api/runs/${runId}/review`, body);
+export const reviewRun = (runId: string, body: { verdict: Verdict; reasoning: string }) =>
+  http.post<ReviewView>(`/api/runs/${runId}/review`, body);
 
 export const signoffRun = (runId: string, body: { decision: Decision; password: string; reason?: string }) =>
   http.post<SignatureView>(`/api/runs/${runId}/signoff`, body);
@@ -25,7 +26,8 @@ export const revokeApproval = (scoreVersionId: string, body: { password: string;
 
 export const listComments = (runId: string) => http.get<CommentView[]>(`/api/runs/${runId}/comments`);
 
-export const addComment = (runId: string, body: string) => http.post<CommentView>(`/api/runs/${runId}/comments`, { body });
+export const addComment = (runId: string, body: string) =>
+  http.post<CommentView>(`/api/runs/${runId}/comments`, { body });
 
 export const getSignoffQueue = () => http.get<SignoffQueueItem[]>('/api/signoff-queue');
 

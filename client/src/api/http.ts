@@ -92,7 +92,10 @@ export async function downloadFile(path: string, filename: string, query?: Query
   const res = await fetch(withQuery(path, query), { headers: token ? { Authorization: `Bearer ${token}` } : {} });
   if (!res.ok) {
     const body = (await res.json().catch(() => ({}))) as { error?: unknown };
-    throw new ApiError(res.status, typeof body.error === 'string' ? body.error : `download failed (HTTP ${res.status})`);
+    throw new ApiError(
+      res.status,
+      typeof body.error === 'string' ? body.error : `download failed (HTTP ${res.status})`,
+    );
   }
   saveBlob(await res.blob(), filename);
 }

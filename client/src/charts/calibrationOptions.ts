@@ -11,7 +11,18 @@ export function calibrationAxisMax(values: number[]): number {
 
 /** The observed = predicted diagonal. */
 export function idealLine(): ChartData<'scatter'>['datasets'][number] {
-  return { label: 'Ideal (observed = predicted)', data: [{ x: 0, y: 0 }, { x: 1, y: 1 }], showLine: true, borderColor: CHART_COLOURS.reference, borderDash: [6, 4], pointRadius: 0, borderWidth: 1 };
+  return {
+    label: 'Ideal (observed = predicted)',
+    data: [
+      { x: 0, y: 0 },
+      { x: 1, y: 1 },
+    ],
+    showLine: true,
+    borderColor: CHART_COLOURS.reference,
+    borderDash: [6, 4],
+    pointRadius: 0,
+    borderWidth: 1,
+  };
 }
 
 export function calibrationOptions(axisMax: number, xTitle = 'Predicted risk'): ChartOptions<'scatter'> {

@@ -22,7 +22,10 @@ export interface CusumPeriodSpan {
 export function cusumPeriodSpans(
   periods: readonly CusumPeriodInput[],
   points: readonly { index: number; date: string | null }[],
-  signals: { deterioration: readonly { index: number; date: string | null }[]; improvement: readonly { index: number; date: string | null }[] },
+  signals: {
+    deterioration: readonly { index: number; date: string | null }[];
+    improvement: readonly { index: number; date: string | null }[];
+  },
 ): CusumPeriodSpan[] {
   if (!periods.length || !points.length) return [];
   const firstIndex = points[0].index;
@@ -41,10 +44,18 @@ export function cusumPeriodSpans(
     }
   }
   starts[0] = Math.min(starts[0], firstIndex);
-  return ordered.map((p, i) => {
-    const from = starts[i];
-    const to = i + 1 < starts.length ? starts[i + 1] - 1 : lastIndex;
-    const inside = (s: { index: number }) => s.index >= from && s.index <= to;
-    return { label: p.label, from, to, deterioration: signals.deterioration.filter(inside), improvement: signals.improvement.filter(inside) };
-  }).filter((s) => s.to >= s.from);
+  return ordered
+    .map((p, i) => {
+      const from = starts[i];
+      const to = i + 1 < starts.length ? starts[i + 1] - 1 : lastIndex;
+      const inside = (s: { index: number }) => s.index >= from && s.index <= to;
+      return {
+        label: p.label,
+        from,
+        to,
+        deterioration: signals.deterioration.filter(inside),
+        improvement: signals.improvement.filter(inside),
+      };
+    })
+    .filter((s) => s.to >= s.from);
 }

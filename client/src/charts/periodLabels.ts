@@ -32,7 +32,10 @@ export function periodLabels(periods: readonly PeriodNaming[]): string[] {
 }
 
 /** A category-axis tick callback that puts a period name's parts on separate lines. */
-export function periodTick(this: { getLabelForValue(value: number): string }, value: string | number): string | string[] {
+export function periodTick(
+  this: { getLabelForValue(value: number): string },
+  value: string | number,
+): string | string[] {
   const label = this.getLabelForValue(Number(value));
   return label.includes(SEPARATOR) ? label.split(SEPARATOR) : label;
 }

@@ -1,5 +1,16 @@
 // chart.js pieces the run charts use, registered once, and a small plugin that draws vertical CI bars.
-import { BarElement, CategoryScale, Chart, Filler, Legend, LinearScale, LineElement, PointElement, Tooltip, type Plugin } from 'chart.js';
+import {
+  BarElement,
+  CategoryScale,
+  Chart,
+  Filler,
+  Legend,
+  LinearScale,
+  LineElement,
+  PointElement,
+  Tooltip,
+  type Plugin,
+} from 'chart.js';
 
 Chart.register(LinearScale, CategoryScale, PointElement, LineElement, BarElement, Tooltip, Legend, Filler);
 

@@ -18,4 +18,5 @@ export function saveBlob(blob: Blob, name: string): void {
 }
 
 /** Saves a value as pretty-printed JSON. */
-export const saveJson = (value: unknown, name: string): void => saveBlob(new Blob([`${JSON.stringify(value, null, 2)}\n`], { type: 'application/json' }), name);
+export const saveJson = (value: unknown, name: string): void =>
+  saveBlob(new Blob([`${JSON.stringify(value, null, 2)}\n`], { type: 'application/json' }), name);

@@ -49,7 +49,10 @@ export const useAuthStore = defineStore('auth', {
       this.user = session.user;
       this.expiresAt = Date.now() + session.expiresInSeconds * 1000;
       this.notice = null;
-      sessionStorage.setItem(STORAGE_KEY, JSON.stringify({ token: this.token, expiresAt: this.expiresAt, user: this.user }));
+      sessionStorage.setItem(
+        STORAGE_KEY,
+        JSON.stringify({ token: this.token, expiresAt: this.expiresAt, user: this.user }),
+      );
       this.scheduleExpiry();
     },
     async login(email: string, password: string) {

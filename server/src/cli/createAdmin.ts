@@ -12,10 +12,12 @@ import { User } from '../platform/database/entities/User';
 import { appendAudit } from '../domain/accounts/audit';
 import { hashPassword } from '../domain/accounts/users';
 
-const USAGE = 'usage: admin:create --email ADDRESS --name "FULL NAME"   (password from PLUMBLINE_ADMIN_PASSWORD or the first line of stdin)';
+const USAGE =
+  'usage: admin:create --email ADDRESS --name "FULL NAME"   (password from PLUMBLINE_ADMIN_PASSWORD or the first line of stdin)';
 
 async function readStdinLine(): Promise<string> {
-  if (process.stdin.isTTY) process.stderr.write('Password (input is shown; prefer PLUMBLINE_ADMIN_PASSWORD or a pipe): ');
+  if (process.stdin.isTTY)
+    process.stderr.write('Password (input is shown; prefer PLUMBLINE_ADMIN_PASSWORD or a pipe): ');
   let text = '';
   for await (const chunk of process.stdin) {
     text += chunk;
@@ -54,9 +56,23 @@ async function main(): Promise<number> {
       return 1;
     }
     const user = await dataSource.transaction(async (m) => {
-      const u = m.create(User, { email: input.email, name: input.name, role: 'admin', passwordHash: await hashPassword(input.password) });
+      const u = m.create(User, {
+        email: input.email,
+        name: input.name,
+        role: 'admin',
+        passwordHash: await hashPassword(input.password),
+      });
       await m.save(u);
-      await appendAudit({ action: 'user.create', targetType: 'user', targetId: u.id, sourceIp: 'command line', details: { email: u.email, role: u.role } }, m);
+      await appendAudit(
+        {
+          action: 'user.create',
+          targetType: 'user',
+          targetId: u.id,
+          sourceIp: 'command line',
+          details: { email: u.email, role: u.role },
+        },
+        m,
+      );
       return u;
     });
     console.log(`admin account created: ${user.email}`);

@@ -6,10 +6,25 @@ import { readFileSync } from 'node:fs';
 import { scoreModelSchema, type ScoreModel } from '@shared/model';
 import type { Estimate, FitResult, ValidationResult } from '@shared/validation';
 import { ADEQUACY_SOURCES, adequacyVerdict, MINIMUM_EACH } from '@shared/adequacy';
-import { formatCount, formatEstimateShort, formatFigure, formatNumber, formatPercent, formatPValue, type Figure, type Interval } from '@shared/format';
+import {
+  formatCount,
+  formatEstimateShort,
+  formatFigure,
+  formatNumber,
+  formatPercent,
+  formatPValue,
+  type Figure,
+  type Interval,
+} from '@shared/format';
 import { EngineInputError, resolveSettings, validate } from '../stats/index';
 import { calibrationBand } from '../stats/bootstrap';
-import { siteAnalysis, subgroupAnalysis, type LevelPerformance, type SiteAnalysis, type SubgroupAnalysis } from '../stats/groupPerformance';
+import {
+  siteAnalysis,
+  subgroupAnalysis,
+  type LevelPerformance,
+  type SiteAnalysis,
+  type SubgroupAnalysis,
+} from '../stats/groupPerformance';
 import { analyseGaps, MISSING_OPTIONS, missingOptions, modelColumns } from './missingData';
 import { CsvInputError, readCohortCsv } from './readCohortCsv';
 
@@ -44,8 +59,10 @@ const fit = (f: FitResult<Estimate & { se: number }>) => (f.converged ? { ...est
 export function smallSampleCaution(events: number, n: number): string | null {
   const verdict = adequacyVerdict(events, n - events);
   if (verdict.meetsMinimum) return null;
-  return `small sample: ${events} event(s) and ${n - events} non-event(s), below the minimum of ${MINIMUM_EACH} of each (${ADEQUACY_SOURCES.minimum}); `
-    + 'the calibration slope and intercept, Hosmer–Lemeshow and ICI/E50/E90/Emax are imprecise and may mislead';
+  return (
+    `small sample: ${events} event(s) and ${n - events} non-event(s), below the minimum of ${MINIMUM_EACH} of each (${ADEQUACY_SOURCES.minimum}); ` +
+    'the calibration slope and intercept, Hosmer–Lemeshow and ICI/E50/E90/Emax are imprecise and may mislead'
+  );
 }
 
 /** The CLI's JSON: exactly the keys the command documents, NaN as null. */
@@ -61,13 +78,23 @@ export function toCliJson(r: ValidationResult) {
     calibrationIntercept: fit(r.calibrationIntercept),
     calibrationSlope: fit(r.calibrationSlope),
     oe: est(r.oe),
-    hosmerLemeshow: { statistic: num(r.hosmerLemeshow.statistic), df: r.hosmerLemeshow.df, pValue: num(r.hosmerLemeshow.pValue), groups: r.hosmerLemeshow.groups },
+    hosmerLemeshow: {
+      statistic: num(r.hosmerLemeshow.statistic),
+      df: r.hosmerLemeshow.df,
+      pValue: num(r.hosmerLemeshow.pValue),
+      groups: r.hosmerLemeshow.groups,
+    },
     spiegelhalter: { z: num(r.spiegelhalter.z), pValue: num(r.spiegelhalter.pValue) },
     ici: r.ici,
     e50: r.e50,
     e90: r.e90,
     emax: r.emax,
-    netBenefit: r.netBenefit.map((b) => ({ threshold: b.threshold, model: b.model, treatAll: b.treatAll, standardized: num(b.standardized ?? NaN) })),
+    netBenefit: r.netBenefit.map((b) => ({
+      threshold: b.threshold,
+      model: b.model,
+      treatAll: b.treatAll,
+      standardized: num(b.standardized ?? NaN),
+    })),
     thresholds: r.thresholds.map((t) => ({
       threshold: t.threshold,
       sensitivity: est(t.sensitivity),
@@ -85,13 +112,18 @@ export function toCliJson(r: ValidationResult) {
 
 // Figures as on every page and in the report (shared/src/format.ts); --format json keeps full precision.
 const ci = (figure: Figure, e: Interval | null) => (e ? formatEstimateShort(figure, e) : 'not estimable');
-const ciSe = (figure: Figure, e: (Interval & { se: number | null }) | null) => (e ? `${ci(figure, e)}, SE ${f(e.se)}` : 'not estimable');
+const ciSe = (figure: Figure, e: (Interval & { se: number | null }) | null) =>
+  e ? `${ci(figure, e)}, SE ${f(e.se)}` : 'not estimable';
 const f = (v: number | null | undefined, digits = 4) => formatNumber(v, digits);
 /** An interval at a set number of decimals, for the optional sections' figures that have no set decimals of their own. */
-const ciAt = (e: { estimate: number | null; lower: number | null; upper: number | null } | null, d = 4) => (e ? `${f(e.estimate, d)}  (${f(e.lower, d)} to ${f(e.upper, d)})` : 'not estimable');
+const ciAt = (e: { estimate: number | null; lower: number | null; upper: number | null } | null, d = 4) =>
+  e ? `${f(e.estimate, d)}  (${f(e.lower, d)} to ${f(e.upper, d)})` : 'not estimable';
 
 /** An AUC interval inside [0, 1]: DeLong's normal approximation can reach past the ends on small or extreme cohorts. */
-function aucInterval(auc: { estimate: number | null; lower: number | null; upper: number | null }): { text: string; note: string | null } {
+function aucInterval(auc: { estimate: number | null; lower: number | null; upper: number | null }): {
+  text: string;
+  note: string | null;
+} {
   const outside = (auc.lower !== null && auc.lower < 0) || (auc.upper !== null && auc.upper > 1);
   if (!outside) return { text: ci('auc', auc), note: null };
   const clamp = (v: number | null) => (v === null ? null : Math.min(1, Math.max(0, v)));
@@ -108,12 +140,18 @@ export function toTable(r: ValidationResult): string {
     ['Rows', formatCount(j.n)],
     ['Events', `${formatCount(j.events)} (${formatPercent(r.eventRate)})`],
     ['AUC (95% CI, DeLong)', auc.text],
-    ['Log loss (mean / total)', `${formatFigure('logLoss', j.logLoss)} / ${formatFigure('logLossTotal', j.logLossTotal)}`],
+    [
+      'Log loss (mean / total)',
+      `${formatFigure('logLoss', j.logLoss)} / ${formatFigure('logLossTotal', j.logLossTotal)}`,
+    ],
     ['Brier / scaled Brier', `${formatFigure('brier', j.brier)} / ${formatFigure('scaledBrier', j.scaledBrier)}`],
     ['Calibration intercept', ciSe('calibrationIntercept', j.calibrationIntercept)],
     ['Calibration slope', ciSe('calibrationSlope', j.calibrationSlope)],
     ['O/E', ci('oe', j.oe)],
-    ['Hosmer–Lemeshow', `${formatFigure('chiSquare', j.hosmerLemeshow.statistic)} on ${j.hosmerLemeshow.df} df, ${formatPValue(j.hosmerLemeshow.pValue)}`],
+    [
+      'Hosmer–Lemeshow',
+      `${formatFigure('chiSquare', j.hosmerLemeshow.statistic)} on ${j.hosmerLemeshow.df} df, ${formatPValue(j.hosmerLemeshow.pValue)}`,
+    ],
     ['Spiegelhalter z', `${formatFigure('z', j.spiegelhalter.z)}, ${formatPValue(j.spiegelhalter.pValue)}`],
     ['ICI / E50 / E90 / Emax', [j.ici, j.e50, j.e90, j.emax].map((v) => formatFigure('ici', v)).join(' / ')],
   ];
@@ -125,8 +163,19 @@ export function toTable(r: ValidationResult): string {
   j.thresholds.forEach((t, i) => {
     const nb = j.netBenefit[i];
     lines.push(
-      [formatFigure('risk', t.threshold).padEnd(9), formatFigure('risk', t.sensitivity.estimate).padStart(5), formatFigure('risk', t.specificity.estimate).padStart(7), formatFigure('risk', t.ppv.estimate).padStart(7), formatFigure('risk', t.npv.estimate).padStart(7),
-        String(t.tp).padStart(8), String(t.fp).padStart(7), String(t.tn).padStart(7), String(t.fn).padStart(7), formatFigure('netBenefit', nb.model).padStart(9), formatFigure('netBenefit', nb.treatAll).padStart(7)].join(' '),
+      [
+        formatFigure('risk', t.threshold).padEnd(9),
+        formatFigure('risk', t.sensitivity.estimate).padStart(5),
+        formatFigure('risk', t.specificity.estimate).padStart(7),
+        formatFigure('risk', t.ppv.estimate).padStart(7),
+        formatFigure('risk', t.npv.estimate).padStart(7),
+        String(t.tp).padStart(8),
+        String(t.fp).padStart(7),
+        String(t.tn).padStart(7),
+        String(t.fn).padStart(7),
+        formatFigure('netBenefit', nb.model).padStart(9),
+        formatFigure('netBenefit', nb.treatAll).padStart(7),
+      ].join(' '),
     );
   });
   if (r.warnings.length) lines.push('', 'Warnings:', ...r.warnings.map((x) => `- ${x}`));
@@ -156,8 +205,18 @@ export function bootstrapJson(r: ValidationResult, band: Band) {
     e50: iv('e50'),
     e90: iv('e90'),
     emax: iv('emax'),
-    netBenefit: r.netBenefit.map((nb) => ({ threshold: nb.threshold, model: iv(`netBenefit@${nb.threshold}`), standardized: iv(`standardizedNetBenefit@${nb.threshold}`) })),
-    calibrationBand: { p: band.p, observed: band.observed.map(num), lower: band.lower.map(num), upper: band.upper.map(num), method: band.method },
+    netBenefit: r.netBenefit.map((nb) => ({
+      threshold: nb.threshold,
+      model: iv(`netBenefit@${nb.threshold}`),
+      standardized: iv(`standardizedNetBenefit@${nb.threshold}`),
+    })),
+    calibrationBand: {
+      p: band.p,
+      observed: band.observed.map(num),
+      lower: band.lower.map(num),
+      upper: band.upper.map(num),
+      method: band.method,
+    },
   };
 }
 
@@ -169,7 +228,10 @@ const levelJson = (l: LevelPerformance) => ({
   belowMinimum: l.belowMinimum,
   error: l.error,
   auc: l.auc && { ...est(l.auc), se: num(l.auc.se) },
-  calibrationIntercept: l.calibrationIntercept && { ...est(l.calibrationIntercept), se: num(l.calibrationIntercept.se) },
+  calibrationIntercept: l.calibrationIntercept && {
+    ...est(l.calibrationIntercept),
+    se: num(l.calibrationIntercept.se),
+  },
   calibrationSlope: l.calibrationSlope && { ...est(l.calibrationSlope), se: num(l.calibrationSlope.se) },
   oe: l.oe && { ...est(l.oe), seLog: num(l.oe.seLog) },
   ici: l.ici && est(l.ici),
@@ -178,45 +240,115 @@ const levelJson = (l: LevelPerformance) => ({
 function extraJson(x: CliExtra) {
   return {
     ...(x.bootstrap ? { bootstrap: x.bootstrap } : {}),
-    ...(x.subgroups ? { subgroups: x.subgroups.map((g) => ({ column: g.column, levels: g.levels.map(levelJson), heterogeneity: g.heterogeneity })) } : {}),
-    ...(x.sites ? { sites: { column: x.sites.column, levels: x.sites.levels.map(levelJson), pooled: x.sites.pooled } } : {}),
+    ...(x.subgroups
+      ? {
+          subgroups: x.subgroups.map((g) => ({
+            column: g.column,
+            levels: g.levels.map(levelJson),
+            heterogeneity: g.heterogeneity,
+          })),
+        }
+      : {}),
+    ...(x.sites
+      ? { sites: { column: x.sites.column, levels: x.sites.levels.map(levelJson), pooled: x.sites.pooled } }
+      : {}),
   };
 }
 
 function levelRows(levels: LevelPerformance[]): string[] {
-  const head = ['Level', 'n', 'Events', 'AUC (95% CI)', 'Cal. intercept (95% CI)', 'Cal. slope (95% CI)', 'O/E (95% CI)', 'ICI (95% CI)', ''];
+  const head = [
+    'Level',
+    'n',
+    'Events',
+    'AUC (95% CI)',
+    'Cal. intercept (95% CI)',
+    'Cal. slope (95% CI)',
+    'O/E (95% CI)',
+    'ICI (95% CI)',
+    '',
+  ];
   const cell = (e: Estimate | null, d = 3) => (e ? `${f(e.estimate, d)} (${f(e.lower, d)} to ${f(e.upper, d)})` : '—');
-  const rows = levels.map((l) => [l.level, String(l.n), String(l.events), cell(l.auc), cell(l.calibrationIntercept), cell(l.calibrationSlope), cell(l.oe, 2), cell(l.ici, 4),
-    [l.belowMinimum ? `below the minimum of ${MINIMUM_EACH} events and non-events` : '', l.error ? `not computed: ${l.error}` : ''].filter(Boolean).join('; ')]);
+  const rows = levels.map((l) => [
+    l.level,
+    String(l.n),
+    String(l.events),
+    cell(l.auc),
+    cell(l.calibrationIntercept),
+    cell(l.calibrationSlope),
+    cell(l.oe, 2),
+    cell(l.ici, 4),
+    [
+      l.belowMinimum ? `below the minimum of ${MINIMUM_EACH} events and non-events` : '',
+      l.error ? `not computed: ${l.error}` : '',
+    ]
+      .filter(Boolean)
+      .join('; '),
+  ]);
   const w = head.map((h, k) => Math.max(h.length, ...rows.map((r) => r[k].length)));
-  return [head, ...rows].map((r) => r.map((c, k) => c.padEnd(w[k])).join('  ').trimEnd());
+  return [head, ...rows].map((r) =>
+    r
+      .map((c, k) => c.padEnd(w[k]))
+      .join('  ')
+      .trimEnd(),
+  );
 }
 
 function extraTables(x: CliExtra): string[] {
   const out: string[] = [];
   if (x.bootstrap) {
     const b = x.bootstrap;
-    out.push([`Bootstrap 95% CIs (${b.replicates} replicates, seed ${b.seed}; ${b.method})`,
-      `Brier          ${ciAt(b.brier)}`, `Scaled Brier   ${ciAt(b.scaledBrier)}`, `ICI            ${ciAt(b.ici)}`, `E50            ${ciAt(b.e50)}`, `E90            ${ciAt(b.e90)}`, `Emax           ${ciAt(b.emax)}`,
-      ...b.netBenefit.map((nb) => `NB at ${f(nb.threshold, 3)}    ${ciAt(nb.model)}   standardised ${ciAt(nb.standardized)}`),
-      `Calibration curve: pointwise 95% band at ${b.calibrationBand.p.length} fixed points in --format json.`].join('\n'));
+    out.push(
+      [
+        `Bootstrap 95% CIs (${b.replicates} replicates, seed ${b.seed}; ${b.method})`,
+        `Brier          ${ciAt(b.brier)}`,
+        `Scaled Brier   ${ciAt(b.scaledBrier)}`,
+        `ICI            ${ciAt(b.ici)}`,
+        `E50            ${ciAt(b.e50)}`,
+        `E90            ${ciAt(b.e90)}`,
+        `Emax           ${ciAt(b.emax)}`,
+        ...b.netBenefit.map(
+          (nb) => `NB at ${f(nb.threshold, 3)}    ${ciAt(nb.model)}   standardised ${ciAt(nb.standardized)}`,
+        ),
+        `Calibration curve: pointwise 95% band at ${b.calibrationBand.p.length} fixed points in --format json.`,
+      ].join('\n'),
+    );
   }
   for (const g of x.subgroups ?? []) {
     const het = (name: string, h: SubgroupAnalysis['heterogeneity']['logOe']) =>
-      h.result ? `${name}: Q = ${f(h.result.q, 3)} on ${h.result.df} df, p = ${f(h.result.pValue)} (${h.levels.length} levels)` : `${name}: not tested (fewer than 2 levels with an estimate)`;
-    out.push([`Subgroups by ${g.column}`, ...levelRows(g.levels), `Heterogeneity across levels (${g.heterogeneity.logOe.result?.method ?? "Cochran's Q"}):`,
-      `  ${het('calibration-in-the-large', g.heterogeneity.calibrationIntercept)}`, `  ${het('log O/E', g.heterogeneity.logOe)}`].join('\n'));
+      h.result
+        ? `${name}: Q = ${f(h.result.q, 3)} on ${h.result.df} df, p = ${f(h.result.pValue)} (${h.levels.length} levels)`
+        : `${name}: not tested (fewer than 2 levels with an estimate)`;
+    out.push(
+      [
+        `Subgroups by ${g.column}`,
+        ...levelRows(g.levels),
+        `Heterogeneity across levels (${g.heterogeneity.logOe.result?.method ?? "Cochran's Q"}):`,
+        `  ${het('calibration-in-the-large', g.heterogeneity.calibrationIntercept)}`,
+        `  ${het('log O/E', g.heterogeneity.logOe)}`,
+      ].join('\n'),
+    );
   }
   if (x.sites) {
-    const names: Record<string, string> = { logitAuc: 'AUC', calibrationIntercept: 'Calibration intercept', calibrationSlope: 'Calibration slope', logOe: 'O/E' };
+    const names: Record<string, string> = {
+      logitAuc: 'AUC',
+      calibrationIntercept: 'Calibration intercept',
+      calibrationSlope: 'Calibration slope',
+      logOe: 'O/E',
+    };
     const pooled = Object.entries(x.sites.pooled).map(([k, a]) => {
       const r = a.result;
       if (!r) return `  ${names[k]}: not pooled (fewer than 2 sites with an estimate)`;
       const n = r.natural;
       return `  ${names[k]}: ${f(n.estimate)} (95% CI ${f(n.lower)} to ${f(n.upper)}); 95% prediction interval ${f(n.predictionLower)} to ${f(n.predictionUpper)}; τ² = ${f(r.tau2, 5)}, I² = ${f(r.i2, 1)}%, Q = ${f(r.q, 3)} on ${r.qDf} df, p = ${f(r.qPValue)} (${r.k} sites)`;
     });
-    out.push([`Sites by ${x.sites.column}`, ...levelRows(x.sites.levels),
-      'Random-effects meta-analysis (REML; AUC pooled on the logit scale and O/E on the log scale, shown back-transformed; prediction interval with t on k − 2 df, Riley et al. 2011):', ...pooled].join('\n'));
+    out.push(
+      [
+        `Sites by ${x.sites.column}`,
+        ...levelRows(x.sites.levels),
+        'Random-effects meta-analysis (REML; AUC pooled on the logit scale and O/E on the log scale, shown back-transformed; prediction interval with t on k − 2 df, Riley et al. 2011):',
+        ...pooled,
+      ].join('\n'),
+    );
   }
   return out;
 }
@@ -225,18 +357,37 @@ async function run(argv: string[]): Promise<void> {
   const [command, ...rest] = argv;
   if (command !== 'validate') throw new UsageError(command ? `unknown command ${command}` : 'no command');
   const args = parseArgs(rest);
-  for (const k of Object.keys(args)) if (!['csv', 'outcome', 'prediction', 'model', 'thresholds', 'format', 'bootstrap', 'group', 'site', ...MISSING_OPTIONS].includes(k)) throw new UsageError(`unknown option --${k}`);
+  for (const k of Object.keys(args))
+    if (
+      ![
+        'csv',
+        'outcome',
+        'prediction',
+        'model',
+        'thresholds',
+        'format',
+        'bootstrap',
+        'group',
+        'site',
+        ...MISSING_OPTIONS,
+      ].includes(k)
+    )
+      throw new UsageError(`unknown option --${k}`);
   if (!args.csv || !args.outcome) throw new UsageError('--csv and --outcome are required');
   if (!!args.prediction === !!args.model) throw new UsageError('give exactly one of --prediction and --model');
   const format = args.format ?? 'json';
   if (format !== 'json' && format !== 'table') throw new UsageError('--format is json or table');
   const thresholds = args.thresholds ? args.thresholds.split(',').map(Number) : undefined;
-  if (thresholds?.some((t) => !(t > 0 && t < 1))) throw new UsageError('--thresholds are numbers strictly between 0 and 1, comma-separated');
+  if (thresholds?.some((t) => !(t > 0 && t < 1)))
+    throw new UsageError('--thresholds are numbers strictly between 0 and 1, comma-separated');
   const replicates = args.bootstrap === undefined ? 0 : Number(args.bootstrap);
-  if (!(Number.isInteger(replicates) && replicates >= 0 && replicates <= 100_000)) throw new UsageError('--bootstrap is a whole number of replicates, 0 to 100000');
-  if (args.seed !== undefined && args.bootstrap === undefined && args.missing === undefined) throw new UsageError('--seed goes with --bootstrap or --missing mi');
+  if (!(Number.isInteger(replicates) && replicates >= 0 && replicates <= 100_000))
+    throw new UsageError('--bootstrap is a whole number of replicates, 0 to 100000');
+  if (args.seed !== undefined && args.bootstrap === undefined && args.missing === undefined)
+    throw new UsageError('--seed goes with --bootstrap or --missing mi');
   const seed = args.seed === undefined ? undefined : Number(args.seed);
-  if (seed !== undefined && !(Number.isInteger(seed) && seed >= 0 && seed <= 0xffffffff)) throw new UsageError('--seed is a whole number, 0 to 4294967295');
+  if (seed !== undefined && !(Number.isInteger(seed) && seed >= 0 && seed <= 0xffffffff))
+    throw new UsageError('--seed is a whole number, 0 to 4294967295');
   const groupColumns = args.group ? args.group.split(',').map((c) => c.trim()) : [];
   if (groupColumns.some((c) => !c)) throw new UsageError('--group is one column name or several, comma-separated');
   let model: ScoreModel | undefined;
@@ -248,13 +399,20 @@ async function run(argv: string[]): Promise<void> {
       throw new CsvInputError(args.model, null, null, `cannot read the model JSON (${(e as Error).message})`);
     }
     const parsed = scoreModelSchema.safeParse(raw);
-    if (!parsed.success) throw new CsvInputError(args.model, null, null, `not a valid model: ${parsed.error.issues.map((i) => `${i.path.join('.') || '(root)'} ${i.message}`).join('; ')}`);
+    if (!parsed.success)
+      throw new CsvInputError(
+        args.model,
+        null,
+        null,
+        `not a valid model: ${parsed.error.issues.map((i) => `${i.path.join('.') || '(root)'} ${i.message}`).join('; ')}`,
+      );
     model = parsed.data;
   }
   const missing = missingOptions(args, (message) => {
     throw new UsageError(message);
   });
-  if (missing && (replicates > 0 || groupColumns.length || args.site)) throw new UsageError('--missing runs on its own: leave out --bootstrap, --group and --site');
+  if (missing && (replicates > 0 || groupColumns.length || args.site))
+    throw new UsageError('--missing runs on its own: leave out --bootstrap, --group and --site');
   const labelColumns = [...new Set([...groupColumns, ...(args.site ? [args.site] : [])])];
   const { p, y, labels, kept } = await readCohortCsv(args.csv, {
     outcome: args.outcome,
@@ -263,28 +421,49 @@ async function run(argv: string[]): Promise<void> {
     labels: labelColumns,
     keep: missing ? [...new Set([...modelColumns(model!), ...missing.extraColumns])] : undefined,
   });
-  const settings = resolveSettings({ ...(thresholds ? { thresholds } : {}), bootstrapReplicates: replicates, ...(seed !== undefined ? { bootstrapSeed: seed } : {}) });
+  const settings = resolveSettings({
+    ...(thresholds ? { thresholds } : {}),
+    bootstrapReplicates: replicates,
+    ...(seed !== undefined ? { bootstrapSeed: seed } : {}),
+  });
   let result: ValidationResult;
   let extra: CliExtra;
   try {
     if (missing) {
       const gaps = analyseGaps(args.csv, model!, y, kept!, missing, thresholds, toCliJson);
-      process.stdout.write(format === 'json' ? `${JSON.stringify({ ...toCliJson(gaps.main), missingData: gaps.details }, null, 2)}\n` : `${toTable(gaps.main)}\n\n${gaps.table.join('\n')}\n`);
+      process.stdout.write(
+        format === 'json'
+          ? `${JSON.stringify({ ...toCliJson(gaps.main), missingData: gaps.details }, null, 2)}\n`
+          : `${toTable(gaps.main)}\n\n${gaps.table.join('\n')}\n`,
+      );
       return;
     }
     result = validate(p, y, settings);
     extra = {
-      ...(replicates > 0 ? { bootstrap: bootstrapJson(result, calibrationBand(p, y, result.calibrationCurve.smoothed, settings)) } : {}),
-      ...(groupColumns.length ? { subgroups: groupColumns.map((c) => ({ column: c, ...subgroupAnalysis(p, y, labels[c], settings) })) } : {}),
+      ...(replicates > 0
+        ? { bootstrap: bootstrapJson(result, calibrationBand(p, y, result.calibrationCurve.smoothed, settings)) }
+        : {}),
+      ...(groupColumns.length
+        ? { subgroups: groupColumns.map((c) => ({ column: c, ...subgroupAnalysis(p, y, labels[c], settings) })) }
+        : {}),
       ...(args.site ? { sites: { column: args.site, ...siteAnalysis(p, y, labels[args.site], settings) } } : {}),
     };
   } catch (e) {
     if (e instanceof EngineInputError) {
-      throw new CsvInputError(args.csv, e.row === null ? null : e.row + 1, e.field === 'outcome' ? args.outcome : e.field === 'prediction' ? (args.prediction ?? 'model') : null, e.message.replace(/^row \d+: /, ''));
+      throw new CsvInputError(
+        args.csv,
+        e.row === null ? null : e.row + 1,
+        e.field === 'outcome' ? args.outcome : e.field === 'prediction' ? (args.prediction ?? 'model') : null,
+        e.message.replace(/^row \d+: /, ''),
+      );
     }
     throw e;
   }
-  process.stdout.write(format === 'json' ? `${JSON.stringify({ ...toCliJson(result), ...extraJson(extra) }, null, 2)}\n` : `${[toTable(result), ...extraTables(extra)].join('\n\n')}\n`);
+  process.stdout.write(
+    format === 'json'
+      ? `${JSON.stringify({ ...toCliJson(result), ...extraJson(extra) }, null, 2)}\n`
+      : `${[toTable(result), ...extraTables(extra)].join('\n\n')}\n`,
+  );
 }
 
 run(process.argv.slice(2)).catch((e: unknown) => {

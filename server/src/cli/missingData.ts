@@ -7,7 +7,12 @@ import { formatNumber } from '@shared/format';
 import type { ValidationResult } from '@shared/validation';
 import { defaultImputationSettings, IMPUTATION_METHOD, type ImputationSettings } from '../stats/chainedImputation';
 import { computeFullSet, resolveSettings } from '../stats/fullSet';
-import { riskFromColumns, validateWithGaps, type CohortColumn, type MissingDataValidation } from '../stats/pooledValidation';
+import {
+  riskFromColumns,
+  validateWithGaps,
+  type CohortColumn,
+  type MissingDataValidation,
+} from '../stats/pooledValidation';
 import type { PooledMetric } from '../stats/rubinsRules';
 import { CsvInputError } from './readCohortCsv';
 
@@ -28,7 +33,8 @@ export function missingOptions(args: Record<string, string>, fail: (message: str
     return null;
   }
   if (args.missing !== 'complete-case' && args.missing !== 'mi') fail('--missing is complete-case or mi');
-  if (!args.model) fail('--missing needs --model: gaps are in predictor columns, which a --prediction column does not have');
+  if (!args.model)
+    fail('--missing needs --model: gaps are in predictor columns, which a --prediction column does not have');
   const int = (name: string, fallback: number, min: number, max: number) => {
     if (args[name] === undefined) return fallback;
     if (args.missing !== 'mi') fail(`--${name} needs --missing mi`);
@@ -36,7 +42,12 @@ export function missingOptions(args: Record<string, string>, fail: (message: str
     if (!(Number.isInteger(v) && v >= min && v <= max)) fail(`--${name} is a whole number from ${min} to ${max}`);
     return v;
   };
-  const extraColumns = args['imputation-columns'] ? args['imputation-columns'].split(',').map((c) => c.trim()).filter(Boolean) : [];
+  const extraColumns = args['imputation-columns']
+    ? args['imputation-columns']
+        .split(',')
+        .map((c) => c.trim())
+        .filter(Boolean)
+    : [];
   if (extraColumns.length && args.missing !== 'mi') fail('--imputation-columns needs --missing mi');
   return {
     method: args.missing as 'complete-case' | 'mi',
@@ -55,18 +66,33 @@ export function missingOptions(args: Record<string, string>, fail: (message: str
  * when some value is not a number): two levels are imputed as binary, more as categorical; a numeric column whose
  * observed values are only 0 and 1 is binary too (logistic imputation), any other numeric column is imputed by PMM.
  */
-export function typedColumn(name: string, text: string[], lines: number[], file: string, categorical: boolean, gapsAllowed: boolean): CohortColumn {
+export function typedColumn(
+  name: string,
+  text: string[],
+  lines: number[],
+  file: string,
+  categorical: boolean,
+  gapsAllowed: boolean,
+): CohortColumn {
   const n = text.length;
   const values = new Float64Array(n);
   const isGap = (t: string) => t.trim() === '';
-  for (let i = 0; i < n; i++) if (!gapsAllowed && isGap(text[i])) throw new CsvInputError(file, lines[i], name, 'an imputation column must have a value in every row');
+  for (let i = 0; i < n; i++)
+    if (!gapsAllowed && isGap(text[i]))
+      throw new CsvInputError(file, lines[i], name, 'an imputation column must have a value in every row');
   if (!categorical && !gapsAllowed && text.some((t) => !Number.isFinite(parseDecimal(t)))) categorical = true;
   if (categorical) {
     const levelNames = [...new Set(text.filter((t) => !isGap(t)).map((t) => t.trim()))].sort();
     const code = new Map(levelNames.map((l, k) => [l, k]));
     for (let i = 0; i < n; i++) values[i] = isGap(text[i]) ? NaN : code.get(text[i].trim())!;
     if (levelNames.length < 2) return { name, kind: 'numeric', values, levelNames };
-    return { name, kind: levelNames.length === 2 ? 'binary' : 'categorical', levels: levelNames.length, values, levelNames };
+    return {
+      name,
+      kind: levelNames.length === 2 ? 'binary' : 'categorical',
+      levels: levelNames.length,
+      values,
+      levelNames,
+    };
   }
   let binary = true;
   for (let i = 0; i < n; i++) {
@@ -75,7 +101,13 @@ export function typedColumn(name: string, text: string[], lines: number[], file:
       continue;
     }
     const x = parseDecimal(text[i]);
-    if (!Number.isFinite(x)) throw new CsvInputError(file, lines[i], name, `not a decimal number: ${JSON.stringify(text[i])} (leave the cell empty for a missing value)`);
+    if (!Number.isFinite(x))
+      throw new CsvInputError(
+        file,
+        lines[i],
+        name,
+        `not a decimal number: ${JSON.stringify(text[i])} (leave the cell empty for a missing value)`,
+      );
     values[i] = x;
     if (x !== 0 && x !== 1) binary = false;
   }
@@ -101,7 +133,13 @@ export function pooledAsResult(a: MissingDataValidation): ValidationResult {
   const fromPooled = (m: PooledMetric) => ({ estimate: m.estimate, lower: m.estimateLower, upper: m.estimateUpper });
   const unknown = { estimate: NaN, lower: NaN, upper: NaN };
   const fit = (m: PooledMetric | null, failed: number) =>
-    m ? { converged: true as const, ...fromPooled(m), se: Math.sqrt(m.total) } : { converged: false as const, reason: 'non-convergence' as const, detail: `the fit failed in ${failed} of ${per.length} completed data sets` };
+    m
+      ? { converged: true as const, ...fromPooled(m), se: Math.sqrt(m.total) }
+      : {
+          converged: false as const,
+          reason: 'non-convergence' as const,
+          detail: `the fit failed in ${failed} of ${per.length} completed data sets`,
+        };
   return {
     ...first,
     auc: { ...fromPooled(p.auc), se: Math.sqrt(p.auc.total) * p.auc.estimate * (1 - p.auc.estimate) },
@@ -110,7 +148,10 @@ export function pooledAsResult(a: MissingDataValidation): ValidationResult {
     brier: avg((r) => r.brier),
     scaledBrier: avg((r) => r.scaledBrier),
     calibrationIntercept: fit(p.calibrationIntercept, a.imputed.failedFits.calibrationIntercept),
-    calibrationSlope: fit(p.calibrationSlope, a.imputed.failedFits.calibrationSlope) as ValidationResult['calibrationSlope'],
+    calibrationSlope: fit(
+      p.calibrationSlope,
+      a.imputed.failedFits.calibrationSlope,
+    ) as ValidationResult['calibrationSlope'],
     oe: { ...first.oe, ...fromPooled(p.oe), expected: avg((r) => r.oe.expected) },
     hosmerLemeshow: { ...first.hosmerLemeshow, statistic: avg((r) => r.hosmerLemeshow.statistic), pValue: NaN },
     spiegelhalter: { z: avg((r) => r.spiegelhalter.z), pValue: NaN },
@@ -169,19 +210,40 @@ export function analyseGaps(
   toJson: (r: ValidationResult) => unknown,
 ): GapsAnalysis {
   // categorical only where every use of the column is an indicator: a column also used as a number stays numeric
-  const indicator = new Set(modelColumns(model).filter((c) => model.predictors.every((q) => q.column !== c || q.transform === 'indicator')));
-  const columns = modelColumns(model).map((c) => typedColumn(c, kept.columns[c], kept.lines, file, indicator.has(c), true));
+  const indicator = new Set(
+    modelColumns(model).filter((c) => model.predictors.every((q) => q.column !== c || q.transform === 'indicator')),
+  );
+  const columns = modelColumns(model).map((c) =>
+    typedColumn(c, kept.columns[c], kept.lines, file, indicator.has(c), true),
+  );
   const extra = options.extraColumns.map((c) => typedColumn(c, kept.columns[c], kept.lines, file, false, false));
   const settings = thresholds ? { thresholds } : {};
-  const gapsByColumn = Object.fromEntries(columns.map((c) => [c.name, c.values.reduce((s, v) => s + (Number.isNaN(v) ? 1 : 0), 0)]));
+  const gapsByColumn = Object.fromEntries(
+    columns.map((c) => [c.name, c.values.reduce((s, v) => s + (Number.isNaN(v) ? 1 : 0), 0)]),
+  );
   if (options.method === 'complete-case') {
     const rows = Uint32Array.from([...y.keys()].filter((i) => columns.every((c) => !Number.isNaN(c.values[i]))));
-    const main = computeFullSet(riskFromColumns(model, Object.fromEntries(columns.map((c) => [c.name, c])), Object.fromEntries(columns.map((c) => [c.name, c.values])), rows), Uint8Array.from(rows, (i) => y[i]), resolveSettings(settings));
+    const main = computeFullSet(
+      riskFromColumns(
+        model,
+        Object.fromEntries(columns.map((c) => [c.name, c])),
+        Object.fromEntries(columns.map((c) => [c.name, c.values])),
+        rows,
+      ),
+      Uint8Array.from(rows, (i) => y[i]),
+      resolveSettings(settings),
+    );
     const leftOut = y.length - rows.length;
     return {
       main,
       details: { method: 'complete-case', rows: y.length, rowsWithGaps: leftOut, leftOut, gapsByColumn },
-      table: [`Missing predictor values: complete cases only, ${rows.length} of ${y.length} rows; ${leftOut} row(s) with a gap left out (${Object.entries(gapsByColumn).map(([c, k]) => `${c} ${k}`).join(', ')}).`],
+      table: [
+        `Missing predictor values: complete cases only, ${rows.length} of ${y.length} rows; ${leftOut} row(s) with a gap left out (${Object.entries(
+          gapsByColumn,
+        )
+          .map(([c, k]) => `${c} ${k}`)
+          .join(', ')}).`,
+      ],
     };
   }
   const a = validateWithGaps(model, y, columns, options.imputation, settings, extra);
@@ -198,7 +260,16 @@ export function analyseGaps(
       seed: a.imputed.seed,
       donors: a.imputed.donors,
       method: IMPUTATION_METHOD,
-      columns: Object.fromEntries(columns.map((c) => [c.name, c.kind === 'numeric' ? 'predictive mean matching' : c.kind === 'binary' ? 'logistic regression' : 'multinomial logistic regression'])),
+      columns: Object.fromEntries(
+        columns.map((c) => [
+          c.name,
+          c.kind === 'numeric'
+            ? 'predictive mean matching'
+            : c.kind === 'binary'
+              ? 'logistic regression'
+              : 'multinomial logistic regression',
+        ]),
+      ),
       extraColumns: options.extraColumns,
       computed: 'in this process, one completed data set after another',
     },
@@ -217,7 +288,9 @@ export function analyseGaps(
   const ccr = cc.result;
   const ccFit = (r: ValidationResult['calibrationIntercept'] | undefined) => (r && r.converged ? r : null);
   const table = [
-    `Missing predictor values: ${a.rowsWithGaps} of ${a.n} rows have a gap (${Object.entries(gapsByColumn).map(([c, k]) => `${c} ${k}`).join(', ')}).`,
+    `Missing predictor values: ${a.rowsWithGaps} of ${a.n} rows have a gap (${Object.entries(gapsByColumn)
+      .map(([c, k]) => `${c} ${k}`)
+      .join(', ')}).`,
     `Multiple imputation: ${a.imputed.imputations} imputations, ${a.imputed.iterations} iterations, seed ${a.imputed.seed}; the table above is the pooled analysis.`,
     '',
     `${'Pooled (Rubin)'.padEnd(22)} ${'estimate (95% CI)'.padEnd(26)}  within    between   fmi     complete cases (${cc.n} rows, ${cc.leftOut} left out)`,

@@ -51,7 +51,12 @@ async function checkReadable(file: string): Promise<void> {
     info = await stat(file);
   } catch (e) {
     const code = (e as { code?: string }).code;
-    throw new CsvInputError(file, null, null, code === 'ENOENT' ? 'file not found' : `cannot be opened (${code ?? (e as Error).message})`);
+    throw new CsvInputError(
+      file,
+      null,
+      null,
+      code === 'ENOENT' ? 'file not found' : `cannot be opened (${code ?? (e as Error).message})`,
+    );
   }
   if (info.isDirectory()) throw new CsvInputError(file, null, null, 'is a folder, not a CSV file');
   if (!info.isFile()) throw new CsvInputError(file, null, null, 'is not a regular file');
@@ -64,24 +69,36 @@ async function checkReadable(file: string): Promise<void> {
 
 const cell = (record: string[], i: number) => {
   const v = record[i];
-  return v === undefined ? undefined : v.length && (v.charCodeAt(0) === 32 || v.charCodeAt(v.length - 1) === 32) ? v.trim() : v;
+  return v === undefined
+    ? undefined
+    : v.length && (v.charCodeAt(0) === 32 || v.charCodeAt(v.length - 1) === 32)
+      ? v.trim()
+      : v;
 };
 
 export async function readCohortCsv(
   file: string,
   source: CohortSource,
-): Promise<{ p: Float64Array; y: Uint8Array; labels: Record<string, string[]>; kept?: { columns: Record<string, string[]>; lines: number[] } }> {
+): Promise<{
+  p: Float64Array;
+  y: Uint8Array;
+  labels: Record<string, string[]>;
+  kept?: { columns: Record<string, string[]>; lines: number[] };
+}> {
   await checkReadable(file);
   const p = new Growing(new Float64Array(1 << 16));
   const y = new Growing(new Uint8Array(1 << 16));
   let header: string[] | null = null;
-  let yi = -1, pi = -1;
+  let yi = -1,
+    pi = -1;
   const labelNames = source.labels ?? [];
   const labels: Record<string, string[]> = Object.fromEntries(labelNames.map((c) => [c, []]));
   let labelIndex: number[] = [];
   let index: Record<string, number> = {};
   const lines = new LineNumbers();
-  const kept = source.keep ? { columns: Object.fromEntries(source.keep.map((c) => [c, [] as string[]])), lines: [] as number[] } : undefined;
+  const kept = source.keep
+    ? { columns: Object.fromEntries(source.keep.map((c) => [c, [] as string[]])), lines: [] as number[] }
+    : undefined;
   try {
     for await (const batch of csvBatches(file)) {
       for (const record of batch) {
@@ -90,17 +107,37 @@ export async function readCohortCsv(
         if (!header) {
           header = record.map((h) => h.trim());
           const dup = header.find((h, i) => header!.indexOf(h) !== i);
-          if (dup !== undefined) throw new CsvInputError(file, line, dup, 'this column name appears more than once in the header; rename one of them');
+          if (dup !== undefined)
+            throw new CsvInputError(
+              file,
+              line,
+              dup,
+              'this column name appears more than once in the header; rename one of them',
+            );
           index = Object.fromEntries(header.map((h, i) => [h, i]));
-          const needed = [source.outcome, ...(source.prediction ? [source.prediction] : []), ...(source.model?.predictors.map((q) => q.column) ?? []), ...(source.keep ?? []), ...labelNames];
-          for (const c of needed) if (!(c in index)) throw new CsvInputError(file, line, c, `no such column in the header (columns: ${header.join(', ')})`);
+          const needed = [
+            source.outcome,
+            ...(source.prediction ? [source.prediction] : []),
+            ...(source.model?.predictors.map((q) => q.column) ?? []),
+            ...(source.keep ?? []),
+            ...labelNames,
+          ];
+          for (const c of needed)
+            if (!(c in index))
+              throw new CsvInputError(file, line, c, `no such column in the header (columns: ${header.join(', ')})`);
           yi = index[source.outcome];
           pi = source.prediction ? index[source.prediction] : -1;
           labelIndex = labelNames.map((c) => index[c]);
           continue;
         }
         const yText = cell(record, yi);
-        if (yText !== '0' && yText !== '1') throw new CsvInputError(file, line, source.outcome, `outcome must be 0 or 1, got ${JSON.stringify(yText ?? '')}`);
+        if (yText !== '0' && yText !== '1')
+          throw new CsvInputError(
+            file,
+            line,
+            source.outcome,
+            `outcome must be 0 or 1, got ${JSON.stringify(yText ?? '')}`,
+          );
         let risk: number;
         if (kept) {
           for (const c of source.keep!) kept.columns[c].push(cell(record, index[c]) ?? '');
@@ -110,13 +147,21 @@ export async function readCohortCsv(
           const text = record[pi];
           risk = parseDecimal(text);
           if (!Number.isFinite(risk)) {
-            throw new CsvInputError(file, line, source.prediction!, text === undefined || text.trim() === '' ? 'predicted probability is missing'
-              : `predicted probability is not a decimal number: ${JSON.stringify(text)} (write numbers like 0.25; hexadecimal, binary and exponent forms are refused)`);
+            throw new CsvInputError(
+              file,
+              line,
+              source.prediction!,
+              text === undefined || text.trim() === ''
+                ? 'predicted probability is missing'
+                : `predicted probability is not a decimal number: ${JSON.stringify(text)} (write numbers like 0.25; hexadecimal, binary and exponent forms are refused)`,
+            );
           }
-          if (risk < 0 || risk > 1) throw new CsvInputError(file, line, source.prediction!, `predicted probability ${risk} is outside [0, 1]`);
+          if (risk < 0 || risk > 1)
+            throw new CsvInputError(file, line, source.prediction!, `predicted probability ${risk} is outside [0, 1]`);
         } else {
           const lp = linearPredictorRow(source.model!, (c) => record[index[c]], line - 1);
-          if (typeof lp !== 'number') throw new CsvInputError(file, line, lp.column, lp.message.replace(/^row \d+: /, ''));
+          if (typeof lp !== 'number')
+            throw new CsvInputError(file, line, lp.column, lp.message.replace(/^row \d+: /, ''));
           risk = 1 / (1 + Math.exp(-lp));
         }
         p.push(risk);

@@ -31,7 +31,11 @@ export async function seedDemo(): Promise<SeedOutcome> {
   await seedGovernance();
   // Drift rules and their alerts on the demo runs (seeds/drift.ts): last, it reads the runs.
   await seedDrift();
-  await appendAudit({ action: 'demo.seeded', sourceIp: 'seed', details: { note: 'invented demo scenario seeded into an empty database' } });
+  await appendAudit({
+    action: 'demo.seeded',
+    sourceIp: 'seed',
+    details: { note: 'invented demo scenario seeded into an empty database' },
+  });
   return 'seeded';
 }
 
@@ -41,8 +45,14 @@ if (isMain) {
     .then(() => seedDemo())
     .then(async (outcome) => {
       await closeDatabase();
-      if (outcome === 'seeded') console.log(`Demo data ready. Demo accounts: admin@, steward@, statistician@, chair@, clinician@demo.test — password: ${DEMO_PASSWORD}`);
-      else console.log('The database already has accounts: the demo is seeded only into an empty database, so nothing was changed.');
+      if (outcome === 'seeded')
+        console.log(
+          `Demo data ready. Demo accounts: admin@, steward@, statistician@, chair@, clinician@demo.test — password: ${DEMO_PASSWORD}`,
+        );
+      else
+        console.log(
+          'The database already has accounts: the demo is seeded only into an empty database, so nothing was changed.',
+        );
     })
     .catch(async (err) => {
       console.error('Seeding failed:', err);

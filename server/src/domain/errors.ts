@@ -32,7 +32,5 @@ export const conflict = (message: string, details?: unknown) => new DomainError(
 export const refused = (message: string, details?: unknown) => new DomainError('refused', message, details);
 
 export function zodMessage(err: ZodError): string {
-  return err.issues
-    .map((i) => (i.path.length ? `${i.path.join('.')}: ${i.message}` : i.message))
-    .join('; ');
+  return err.issues.map((i) => (i.path.length ? `${i.path.join('.')}: ${i.message}` : i.message)).join('; ');
 }

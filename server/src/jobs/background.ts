@@ -34,7 +34,9 @@ export async function startJobWorkers(): Promise<Stopper> {
 }
 
 /** The background services of a process: `http` for one that serves the API, `jobs` for one that runs jobs. */
-export function backgroundServices(roles: { http: boolean; jobs: boolean } = { http: true, jobs: config.jobs }): Starter[] {
+export function backgroundServices(
+  roles: { http: boolean; jobs: boolean } = { http: true, jobs: config.jobs },
+): Starter[] {
   const list: Starter[] = [];
   if (roles.jobs) list.push(startJobWorkers);
   // Files a crash left in this host's upload folder; the widths warm-up fills this process's page cache.

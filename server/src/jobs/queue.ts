@@ -54,13 +54,23 @@ function theBoss(): PgBoss {
 
 /** A transaction's connection as pg-boss's executor: the job row commits or rolls back with the change. */
 function executor(qr: QueryRunner) {
-  return { executeSql: async (text: string, values: unknown[] = []) => ({ rows: (await qr.query(text, values, true)).records }) };
+  return {
+    executeSql: async (text: string, values: unknown[] = []) => ({
+      rows: (await qr.query(text, values, true)).records,
+    }),
+  };
 }
 
 /** Enqueues a job in the transaction `m` belongs to (a TypeORM transaction's manager; a query runner's `.manager`). */
-export async function enqueue(m: EntityManager, name: JobName, data: Record<string, unknown>, options: PgBoss.SendOptions = {}): Promise<string | null> {
+export async function enqueue(
+  m: EntityManager,
+  name: JobName,
+  data: Record<string, unknown>,
+  options: PgBoss.SendOptions = {},
+): Promise<string | null> {
   const qr = m.queryRunner;
-  if (!qr || !qr.isTransactionActive) throw new Error(`a ${name} job is enqueued inside the transaction of the change that causes it`);
+  if (!qr || !qr.isTransactionActive)
+    throw new Error(`a ${name} job is enqueued inside the transaction of the change that causes it`);
   return theBoss().send(name, data, { ...sendOptions(name), ...options, db: executor(qr) });
 }
 
@@ -101,13 +111,22 @@ let working = false;
 export const jobWorkersRunning = () => working;
 
 /** Starts pg-boss (maintenance, cron) and one worker per handler; returns the stop function. */
-export async function startJobs(handlers: Partial<Record<JobName, { handler: JobHandler; concurrency?: number }>>, schedules: { name: JobName; cron: string }[] = []): Promise<(beforeStop?: () => Promise<void>) => Promise<void>> {
+export async function startJobs(
+  handlers: Partial<Record<JobName, { handler: JobHandler; concurrency?: number }>>,
+  schedules: { name: JobName; cron: string }[] = [],
+): Promise<(beforeStop?: () => Promise<void>) => Promise<void>> {
   const b = theBoss();
   await b.start();
   working = true;
-  for (const [name, { handler, concurrency = 1 }] of Object.entries(handlers) as [JobName, { handler: JobHandler; concurrency?: number }][]) {
+  for (const [name, { handler, concurrency = 1 }] of Object.entries(handlers) as [
+    JobName,
+    { handler: JobHandler; concurrency?: number },
+  ][]) {
     // batchSize 1: each job is claimed, run and completed on its own; several workers give concurrency.
-    for (let i = 0; i < concurrency; i++) await b.work(name, { includeMetadata: true, batchSize: 1, pollingIntervalSeconds: 1 }, async ([job]) => handler(job as PgBoss.JobWithMetadata<Record<string, unknown>>));
+    for (let i = 0; i < concurrency; i++)
+      await b.work(name, { includeMetadata: true, batchSize: 1, pollingIntervalSeconds: 1 }, async ([job]) =>
+        handler(job as PgBoss.JobWithMetadata<Record<string, unknown>>),
+      );
   }
   for (const s of schedules) await b.schedule(s.name, s.cron, {}, { tz: 'UTC' });
   return async (beforeStop) => {

@@ -27,7 +27,10 @@ export async function queueDepth(): Promise<QueueCount[]> {
     else out.push({ queue: r.queue, state: r.state, count: Number(r.n) });
   }
   for (const j of await jobCounts()) {
-    out.push({ queue: `job:${j.name}`, state: 'waiting', count: j.waiting }, { queue: `job:${j.name}`, state: 'active', count: j.active });
+    out.push(
+      { queue: `job:${j.name}`, state: 'waiting', count: j.waiting },
+      { queue: `job:${j.name}`, state: 'active', count: j.active },
+    );
   }
   return out;
 }

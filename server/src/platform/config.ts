@@ -12,12 +12,18 @@ export const DEMO_PASSWORD = 'plumbline-demo-2026';
 
 // Empty means "not set" (a `VAR=` line in a service file), so the default applies.
 const unset = (v: unknown) => (v === '' ? undefined : v);
-const int = (d: number, min: number, max: number) => z.preprocess(unset, z.coerce.number().int().min(min).max(max).default(d));
+const int = (d: number, min: number, max: number) =>
+  z.preprocess(unset, z.coerce.number().int().min(min).max(max).default(d));
 const num = (d: number, min: number) => z.preprocess(unset, z.coerce.number().min(min).default(d));
 const text = (d: string) => z.preprocess(unset, z.string().default(d));
 const optionalText = () => z.preprocess(unset, z.string().optional());
-const flag = (d: boolean) => z.preprocess(unset, z.enum(['true', 'false', '1', '0', 'on', 'off']).optional()).transform((v) => (v === undefined ? d : v === 'true' || v === '1' || v === 'on'));
-const roleName = z.string().regex(/^[a-z_][a-z0-9_]{0,62}$/, 'a PostgreSQL role name of lower-case letters, digits and _');
+const flag = (d: boolean) =>
+  z
+    .preprocess(unset, z.enum(['true', 'false', '1', '0', 'on', 'off']).optional())
+    .transform((v) => (v === undefined ? d : v === 'true' || v === '1' || v === 'on'));
+const roleName = z
+  .string()
+  .regex(/^[a-z_][a-z0-9_]{0,62}$/, 'a PostgreSQL role name of lower-case letters, digits and _');
 
 /** The environment, variable by variable. */
 const envSchema = z.object({
@@ -62,7 +68,10 @@ const envSchema = z.object({
   PLUMBLINE_CLIENT_DIR: text('dist/client'),
   PLUMBLINE_BCRYPT_COST: int(10, 4, 15),
   // pino level (the test suite sets warn).
-  PLUMBLINE_LOG_LEVEL: z.preprocess(unset, z.enum(['trace', 'debug', 'info', 'warn', 'error', 'fatal', 'silent']).default('info')),
+  PLUMBLINE_LOG_LEVEL: z.preprocess(
+    unset,
+    z.enum(['trace', 'debug', 'info', 'warn', 'error', 'fatal', 'silent']).default('info'),
+  ),
   // When set, GET /api/metrics needs `Authorization: Bearer <this>` (a Prometheus scrape credential).
   PLUMBLINE_METRICS_TOKEN: text(''),
   // Read by the admin:create command only (server/src/cli/createAdmin.ts), never by the server.
@@ -85,13 +94,16 @@ export class ConfigError extends Error {}
  */
 export function jwtSecretProblem(secret: string | undefined): string | null {
   if (!secret) return 'is required in production (generate one with `openssl rand -base64 32`)';
-  if (secret === DEV_JWT_SECRET) return 'is the development secret from the repository; generate a new one with `openssl rand -base64 32`';
+  if (secret === DEV_JWT_SECRET)
+    return 'is the development secret from the repository; generate a new one with `openssl rand -base64 32`';
   let bytes: Buffer | null = null;
   if (/^[0-9a-fA-F]+$/.test(secret) && secret.length % 2 === 0) bytes = Buffer.from(secret, 'hex');
-  else if (/^[A-Za-z0-9+/_-]+={0,2}$/.test(secret)) bytes = Buffer.from(secret.replace(/-/g, '+').replace(/_/g, '/'), 'base64');
+  else if (/^[A-Za-z0-9+/_-]+={0,2}$/.test(secret))
+    bytes = Buffer.from(secret.replace(/-/g, '+').replace(/_/g, '/'), 'base64');
   if (!bytes) return 'must be hex or base64 text of random bytes (e.g. `openssl rand -base64 32`)';
   if (bytes.length < 32) return `must encode at least 32 random bytes (it encodes ${bytes.length})`;
-  if (new Set(bytes).size < 16) return 'does not look random (too few distinct bytes); generate one with `openssl rand -base64 32`';
+  if (new Set(bytes).size < 16)
+    return 'does not look random (too few distinct bytes); generate one with `openssl rand -base64 32`';
   return null;
 }
 
@@ -99,7 +111,9 @@ export function jwtSecretProblem(secret: string | undefined): string | null {
 export function loadConfig(env: Record<string, string | undefined>) {
   const parsed = envSchema.safeParse(env);
   if (!parsed.success) {
-    const lines = parsed.error.issues.map((i) => `  ${i.path.join('.')}=${JSON.stringify(env[String(i.path[0])] ?? '')}: ${i.message}`);
+    const lines = parsed.error.issues.map(
+      (i) => `  ${i.path.join('.')}=${JSON.stringify(env[String(i.path[0])] ?? '')}: ${i.message}`,
+    );
     throw new ConfigError(`Plumbline: invalid settings, not starting:\n${lines.join('\n')}`);
   }
   const e = parsed.data;
@@ -110,8 +124,14 @@ export function loadConfig(env: Record<string, string | undefined>) {
     const p = jwtSecretProblem(e.PLUMBLINE_JWT_SECRET);
     if (p) problems.push(`  PLUMBLINE_JWT_SECRET ${p}`);
   }
-  const owner = { user: e.PLUMBLINE_DB_OWNER_USER ?? e.PGUSER, password: e.PLUMBLINE_DB_OWNER_PASSWORD ?? e.PGPASSWORD };
-  if (owner.user === e.PLUMBLINE_DB_APP_USER) problems.push(`  PLUMBLINE_DB_APP_USER must differ from the owner role (${owner.user}): the API must not own the tables`);
+  const owner = {
+    user: e.PLUMBLINE_DB_OWNER_USER ?? e.PGUSER,
+    password: e.PLUMBLINE_DB_OWNER_PASSWORD ?? e.PGPASSWORD,
+  };
+  if (owner.user === e.PLUMBLINE_DB_APP_USER)
+    problems.push(
+      `  PLUMBLINE_DB_APP_USER must differ from the owner role (${owner.user}): the API must not own the tables`,
+    );
   if (problems.length) throw new ConfigError(`Plumbline: invalid settings, not starting:\n${problems.join('\n')}`);
   const server = { host: e.PGHOST, port: e.PGPORT ?? e.PLUMBLINE_PGPORT, database: e.PGDATABASE };
   return {

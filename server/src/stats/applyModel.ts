@@ -11,7 +11,9 @@
 import type { Predictor, ScoreModel } from '@shared/model';
 import { parseDecimal } from '@shared/decimal';
 
-export type ApplyResult = { ok: true; p: Float64Array; linearPredictor: Float64Array } | { ok: false; row: number; column: string; message: string };
+export type ApplyResult =
+  | { ok: true; p: Float64Array; linearPredictor: Float64Array }
+  | { ok: false; row: number; column: string; message: string };
 
 export function rcsTerm(x: number, knots: readonly number[], term: number): number {
   const k = knots.length;
@@ -40,7 +42,11 @@ function predictorValue(pred: Predictor, text: string | undefined, row: number):
 }
 
 /** The linear predictor of one row; `value(column)` gives that row's text; `row` (1-based) is for messages. */
-export function linearPredictorRow(model: ScoreModel, value: (column: string) => string | undefined, row: number): number | { column: string; message: string } {
+export function linearPredictorRow(
+  model: ScoreModel,
+  value: (column: string) => string | undefined,
+  row: number,
+): number | { column: string; message: string } {
   let lp = model.intercept;
   for (const pred of model.predictors) {
     const v = predictorValue(pred, value(pred.column), row);
@@ -53,7 +59,13 @@ export function linearPredictorRow(model: ScoreModel, value: (column: string) =>
 /** `columns[name][i]` is the text of row i (0-based) in column `name`; rows in messages are 1-based. */
 export function applyModel(model: ScoreModel, columns: Record<string, ArrayLike<string>>, n: number): ApplyResult {
   for (const pred of model.predictors) {
-    if (!columns[pred.column]) return { ok: false, row: 0, column: pred.column, message: `the model needs column ${pred.column}, which the data lack` };
+    if (!columns[pred.column])
+      return {
+        ok: false,
+        row: 0,
+        column: pred.column,
+        message: `the model needs column ${pred.column}, which the data lack`,
+      };
   }
   const lp = new Float64Array(n);
   for (let i = 0; i < n; i++) {

@@ -78,7 +78,14 @@ export function resampleIndices(n: number, seed: number, replicate: number, into
 }
 
 /** Metric values of replicates [from, to): one row of values per replicate, keyed like scalarMetrics. */
-export function runReplicates(p: Float64Array, y: Uint8Array, settings: ValidationSettings, from: number, to: number, onReplicate?: (done: number) => void): Record<string, number>[] {
+export function runReplicates(
+  p: Float64Array,
+  y: Uint8Array,
+  settings: ValidationSettings,
+  from: number,
+  to: number,
+  onReplicate?: (done: number) => void,
+): Record<string, number>[] {
   const n = p.length;
   const bp = new Float64Array(n);
   const by = new Uint8Array(n);
@@ -99,7 +106,11 @@ export function runReplicates(p: Float64Array, y: Uint8Array, settings: Validati
   return rows;
 }
 
-export function percentileIntervals(point: Record<string, number>, rows: Record<string, number>[], seed: number): NonNullable<ValidationResult['bootstrap']> {
+export function percentileIntervals(
+  point: Record<string, number>,
+  rows: Record<string, number>[],
+  seed: number,
+): NonNullable<ValidationResult['bootstrap']> {
   const intervals: Record<string, Estimate> = {};
   const failed: Record<string, number> = {};
   for (const key of Object.keys(point)) {
@@ -110,12 +121,28 @@ export function percentileIntervals(point: Record<string, number>, rows: Record<
       ? { estimate: point[key], lower: quantileType7(sorted, 0.025), upper: quantileType7(sorted, 0.975) }
       : { estimate: point[key], lower: NaN, upper: NaN };
   }
-  return { replicates: rows.length, seed, intervals, failed, method: 'percentile (2.5th, 97.5th; type 7), resampling rows with replacement' };
+  return {
+    replicates: rows.length,
+    seed,
+    intervals,
+    failed,
+    method: 'percentile (2.5th, 97.5th; type 7), resampling rows with replacement',
+  };
 }
 
 /** In-process bootstrap (single thread); see bootstrapInWorkers (jobs/threads/pool.ts) for the same across worker threads. */
-export function bootstrap(p: Float64Array, y: Uint8Array, settings: ValidationSettings, point: ValidationResult, onReplicate?: (done: number) => void): NonNullable<ValidationResult['bootstrap']> {
-  return percentileIntervals(scalarMetrics(point), runReplicates(p, y, settings, 0, settings.bootstrapReplicates, onReplicate), settings.bootstrapSeed);
+export function bootstrap(
+  p: Float64Array,
+  y: Uint8Array,
+  settings: ValidationSettings,
+  point: ValidationResult,
+  onReplicate?: (done: number) => void,
+): NonNullable<ValidationResult['bootstrap']> {
+  return percentileIntervals(
+    scalarMetrics(point),
+    runReplicates(p, y, settings, 0, settings.bootstrapReplicates, onReplicate),
+    settings.bootstrapSeed,
+  );
 }
 
 /**
@@ -123,7 +150,12 @@ export function bootstrap(p: Float64Array, y: Uint8Array, settings: ValidationSe
  * (so the interval equals `bootstrap(...).intervals.ici`), without the other metrics — loess is most of the time, the
  * rest of the full set most of what is left. A resample without events or without non-events fails, as there.
  */
-export function iciInterval(p: Float64Array, y: Uint8Array, settings: ValidationSettings, point: number): Estimate & { failed: number } {
+export function iciInterval(
+  p: Float64Array,
+  y: Uint8Array,
+  settings: ValidationSettings,
+  point: number,
+): Estimate & { failed: number } {
   const n = p.length;
   const bp = new Float64Array(n);
   const by = new Uint8Array(n);
@@ -139,12 +171,18 @@ export function iciInterval(p: Float64Array, y: Uint8Array, settings: Validation
     }
     if (events === 0 || events === n) continue;
     const s = sortCohort(bp, by);
-    const v = ici(s, loessCurve(s, { span: settings.loessSpan, exactMaxN: settings.loessExactMaxN, gridSize: settings.loessGridSize }).atGroups).ici;
+    const v = ici(
+      s,
+      loessCurve(s, { span: settings.loessSpan, exactMaxN: settings.loessExactMaxN, gridSize: settings.loessGridSize })
+        .atGroups,
+    ).ici;
     if (Number.isFinite(v)) values.push(v);
   }
   const sorted = Float64Array.from(values).sort();
   const failed = settings.bootstrapReplicates - values.length;
-  return sorted.length ? { estimate: point, lower: quantileType7(sorted, 0.025), upper: quantileType7(sorted, 0.975), failed } : { estimate: point, lower: NaN, upper: NaN, failed };
+  return sorted.length
+    ? { estimate: point, lower: quantileType7(sorted, 0.025), upper: quantileType7(sorted, 0.975), failed }
+    : { estimate: point, lower: NaN, upper: NaN, failed };
 }
 
 export type { CalibrationBand } from '@shared/validation';
@@ -153,7 +191,12 @@ export type { CalibrationBand } from '@shared/validation';
  * Pointwise 95% band of the loess calibration curve: each replicate's loess (same span) evaluated at the fixed grid
  * `grid` (the point curve's x values), percentiles 2.5 and 97.5 (type 7) per grid point. Pointwise, not simultaneous.
  */
-export function calibrationBand(p: Float64Array, y: Uint8Array, grid: { p: number[]; observed: number[] }, settings: Pick<ValidationSettings, 'bootstrapReplicates' | 'bootstrapSeed' | 'loessSpan'>): CalibrationBand {
+export function calibrationBand(
+  p: Float64Array,
+  y: Uint8Array,
+  grid: { p: number[]; observed: number[] },
+  settings: Pick<ValidationSettings, 'bootstrapReplicates' | 'bootstrapSeed' | 'loessSpan'>,
+): CalibrationBand {
   const n = p.length;
   const values = grid.p.map(() => new Float64Array(settings.bootstrapReplicates));
   const bp = new Float64Array(n);
@@ -176,6 +219,7 @@ export function calibrationBand(p: Float64Array, y: Uint8Array, grid: { p: numbe
     upper: sorted.map((v) => quantileType7(v, 0.975)),
     replicates: settings.bootstrapReplicates,
     seed: settings.bootstrapSeed,
-    method: 'pointwise percentile bootstrap (2.5th, 97.5th; type 7) of the loess curve at the fixed grid of the point curve, rows resampled with replacement',
+    method:
+      'pointwise percentile bootstrap (2.5th, 97.5th; type 7) of the loess curve at the fixed grid of the point curve, rows resampled with replacement',
   };
 }

@@ -10,7 +10,10 @@ import type { Estimate, FitResult } from '@shared/validation';
 import { Z975 } from './distributions';
 import { logisticFit } from './logisticFit';
 
-export function calibrationSlope(logitP: Float64Array, y: Uint8Array): FitResult<Estimate & { se: number; intercept: number }> {
+export function calibrationSlope(
+  logitP: Float64Array,
+  y: Uint8Array,
+): FitResult<Estimate & { se: number; intercept: number }> {
   let minE = Infinity;
   let maxE = -Infinity;
   let minN = Infinity;
@@ -25,11 +28,28 @@ export function calibrationSlope(logitP: Float64Array, y: Uint8Array): FitResult
       if (x > maxN) maxN = x;
     }
   }
-  if (Math.min(minE, minN) === Math.max(maxE, maxN)) return { converged: false, reason: 'degenerate', detail: 'every row has the same predicted risk: the slope is not estimable' };
-  if (maxN <= minE || maxE <= minN) return { converged: false, reason: 'separation', detail: 'predicted risk separates events from non-events completely: the slope is not estimable (it diverges)' };
+  if (Math.min(minE, minN) === Math.max(maxE, maxN))
+    return {
+      converged: false,
+      reason: 'degenerate',
+      detail: 'every row has the same predicted risk: the slope is not estimable',
+    };
+  if (maxN <= minE || maxE <= minN)
+    return {
+      converged: false,
+      reason: 'separation',
+      detail: 'predicted risk separates events from non-events completely: the slope is not estimable (it diverges)',
+    };
   const fit = logisticFit(y, [logitP], { intercept: true, start: [0, 1] });
   if (!fit.converged) return fit;
   const b = fit.coefficients[1];
   const se = fit.se[1];
-  return { converged: true, estimate: b, se, lower: b - Z975 * se, upper: b + Z975 * se, intercept: fit.coefficients[0] };
+  return {
+    converged: true,
+    estimate: b,
+    se,
+    lower: b - Z975 * se,
+    upper: b + Z975 * se,
+    intercept: fit.coefficients[0],
+  };
 }

@@ -43,7 +43,9 @@ function augmentedRows(codes: Float64Array, observed: Uint8Array, design: Float6
   }
   if (augment) {
     const stats = design.map((col) => {
-      let mean = 0, min = Infinity, max = -Infinity;
+      let mean = 0,
+        min = Infinity,
+        max = -Infinity;
       for (let i = 0; i < n; i++) {
         mean += col[i];
         if (col[i] < min) min = col[i];
@@ -73,7 +75,11 @@ function augmentedRows(codes: Float64Array, observed: Uint8Array, design: Float6
 }
 
 /** Multinomial logistic fit: coefficients of levels 1 … K−1 against level 0, each [intercept, covariates…]. */
-export function multinomialFit(rows: Rows, levels: number, start?: number[]): { coef: number[]; covarianceChol: Matrix } | null {
+export function multinomialFit(
+  rows: Rows,
+  levels: number,
+  start?: number[],
+): { coef: number[]; covarianceChol: Matrix } | null {
   const P = rows.x.length + 1;
   const C = levels - 1;
   const dim = C * P;
@@ -119,7 +125,10 @@ export function multinomialFit(rows: Rows, levels: number, start?: number[]): { 
       }
     }
     if (withDerivatives) {
-      for (let c = 0; c < C; c++) for (let d = 0; d <= c; d++) for (let a = 0; a < P; a++) for (let bb = a + 1; bb < P; bb++) h[c * P + a][d * P + bb] = h[c * P + bb][d * P + a];
+      for (let c = 0; c < C; c++)
+        for (let d = 0; d <= c; d++)
+          for (let a = 0; a < P; a++)
+            for (let bb = a + 1; bb < P; bb++) h[c * P + a][d * P + bb] = h[c * P + bb][d * P + a];
       for (let r = 0; r < dim; r++) for (let s = r + 1; s < dim; s++) h[r][s] = h[s][r];
     }
     return { ll, g, h };
@@ -153,7 +162,14 @@ export function multinomialFit(rows: Rows, levels: number, start?: number[]): { 
   return null;
 }
 
-function drawLevels(target: Float64Array, observed: Uint8Array, design: Float64Array[], beta: number[], levels: number, rand: Uniform): void {
+function drawLevels(
+  target: Float64Array,
+  observed: Uint8Array,
+  design: Float64Array[],
+  beta: number[],
+  levels: number,
+  rand: Uniform,
+): void {
   const P = design.length + 1;
   const C = levels - 1;
   const prob = new Float64Array(levels);
@@ -182,7 +198,14 @@ function drawLevels(target: Float64Array, observed: Uint8Array, design: Float64A
 }
 
 /** Fills the gaps of a column coded 0 … levels−1 in place (levels = 2: logistic; more: multinomial). */
-export function categoricalImpute(target: Float64Array, observed: Uint8Array, design: Float64Array[], levels: number, rand: Uniform, warm?: { start?: number[] }): void {
+export function categoricalImpute(
+  target: Float64Array,
+  observed: Uint8Array,
+  design: Float64Array[],
+  levels: number,
+  rand: Uniform,
+  warm?: { start?: number[] },
+): void {
   if (levels === 2) {
     const n = target.length;
     let nObs = 0;
@@ -195,7 +218,10 @@ export function categoricalImpute(target: Float64Array, observed: Uint8Array, de
       for (let j = 0; j < design.length; j++) cols[j][r] = design[j][i];
       r++;
     }
-    const fit = logisticFit(y, cols, { intercept: true, start: warm?.start?.length === design.length + 1 ? warm.start : undefined });
+    const fit = logisticFit(y, cols, {
+      intercept: true,
+      start: warm?.start?.length === design.length + 1 ? warm.start : undefined,
+    });
     const l = fit.converged ? cholesky(fit.covariance) : null;
     if (fit.converged && l) {
       if (warm) warm.start = fit.coefficients;
@@ -210,7 +236,9 @@ export function categoricalImpute(target: Float64Array, observed: Uint8Array, de
       return;
     }
   }
-  const fit = multinomialFit(augmentedRows(target, observed, design, levels), levels, warm?.start) ?? multinomialFit(augmentedRows(target, observed, design, levels), levels);
+  const fit =
+    multinomialFit(augmentedRows(target, observed, design, levels), levels, warm?.start) ??
+    multinomialFit(augmentedRows(target, observed, design, levels), levels);
   if (!fit) throw new Error('the imputation model for a categorical column could not be fitted');
   if (warm) warm.start = fit.coef;
   const z = Array.from({ length: fit.coef.length }, () => normalDraw(rand));

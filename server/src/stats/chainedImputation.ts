@@ -36,9 +36,15 @@ export interface ImputationSettings {
   donors: number;
 }
 
-export const defaultImputationSettings: ImputationSettings = { imputations: 20, iterations: 5, seed: 20260101, donors: 5 };
+export const defaultImputationSettings: ImputationSettings = {
+  imputations: 20,
+  iterations: 5,
+  seed: 20260101,
+  donors: 5,
+};
 
-export const IMPUTATION_METHOD = 'chained equations (van Buuren & Groothuis-Oudshoorn 2011): predictive mean matching, type-1, d donors, for numeric columns; logistic regression with a parameter draw for binary; multinomial logistic with a parameter draw for categorical; outcome and every other column in each model';
+export const IMPUTATION_METHOD =
+  'chained equations (van Buuren & Groothuis-Oudshoorn 2011): predictive mean matching, type-1, d donors, for numeric columns; logistic regression with a parameter draw for binary; multinomial logistic with a parameter draw for categorical; outcome and every other column in each model';
 
 export interface ImputationInput {
   outcome: Uint8Array;
@@ -46,7 +52,7 @@ export interface ImputationInput {
   extra?: ImputationColumn[];
 }
 
-const levelsOf = (c: ImputationColumn) => (c.kind === 'categorical' ? c.levels ?? 0 : c.kind === 'binary' ? 2 : 0);
+const levelsOf = (c: ImputationColumn) => (c.kind === 'categorical' ? (c.levels ?? 0) : c.kind === 'binary' ? 2 : 0);
 
 /** The column as model covariates: itself, or K − 1 indicators for a categorical column. */
 function encode(c: ImputationColumn, values: Float64Array): Float64Array[] {
@@ -58,12 +64,15 @@ export function checkImputationInput(input: ImputationInput): void {
   const n = input.outcome.length;
   for (const c of [...input.columns, ...(input.extra ?? [])]) {
     if (c.values.length !== n) throw new Error(`column ${c.name} has ${c.values.length} values for ${n} rows`);
-    if (c.kind === 'categorical' && !(levelsOf(c) >= 2)) throw new Error(`categorical column ${c.name} needs at least 2 levels`);
+    if (c.kind === 'categorical' && !(levelsOf(c) >= 2))
+      throw new Error(`categorical column ${c.name} needs at least 2 levels`);
     let observed = 0;
     for (let i = 0; i < n; i++) if (!Number.isNaN(c.values[i])) observed++;
     if (observed === 0) throw new Error(`column ${c.name} has no observed value to impute from`);
   }
-  for (const c of input.extra ?? []) if (c.values.some(Number.isNaN)) throw new Error(`extra column ${c.name} has gaps; extra columns of the imputation model must be complete`);
+  for (const c of input.extra ?? [])
+    if (c.values.some(Number.isNaN))
+      throw new Error(`extra column ${c.name} has gaps; extra columns of the imputation model must be complete`);
 }
 
 /** Completed columns of chain `imputation` (0-based), in the order of input.columns. */
@@ -96,7 +105,11 @@ export function imputeOnce(input: ImputationInput, settings: ImputationSettings,
 }
 
 /** m completed data sets; `onImputation` hears of each finished chain. */
-export function multipleImputation(input: ImputationInput, settings: ImputationSettings, onImputation?: (done: number) => void): Float64Array[][] {
+export function multipleImputation(
+  input: ImputationInput,
+  settings: ImputationSettings,
+  onImputation?: (done: number) => void,
+): Float64Array[][] {
   checkImputationInput(input);
   const out: Float64Array[][] = [];
   for (let l = 0; l < settings.imputations; l++) {

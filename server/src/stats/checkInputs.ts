@@ -14,23 +14,54 @@ export type InputCheck =
   | { ok: false; row: number | null; field: 'outcome' | 'prediction' | null; message: string };
 
 export function checkInputs(p: ArrayLike<number>, y: ArrayLike<number>): InputCheck {
-  if (p.length !== y.length) return { ok: false, row: null, field: null, message: `predictions (${p.length}) and outcomes (${y.length}) differ in length` };
+  if (p.length !== y.length)
+    return {
+      ok: false,
+      row: null,
+      field: null,
+      message: `predictions (${p.length}) and outcomes (${y.length}) differ in length`,
+    };
   if (p.length === 0) return { ok: false, row: null, field: null, message: 'no rows: the cohort is empty' };
   let zeros = 0;
   let ones = 0;
   let events = 0;
   for (let i = 0; i < p.length; i++) {
     const yi = y[i];
-    if (yi !== 0 && yi !== 1) return { ok: false, row: i + 1, field: 'outcome', message: `row ${i + 1}: outcome must be 0 or 1, got ${yi}` };
+    if (yi !== 0 && yi !== 1)
+      return { ok: false, row: i + 1, field: 'outcome', message: `row ${i + 1}: outcome must be 0 or 1, got ${yi}` };
     const pi = p[i];
-    if (Number.isNaN(pi)) return { ok: false, row: i + 1, field: 'prediction', message: `row ${i + 1}: predicted probability is not a number` };
-    if (!(pi >= 0 && pi <= 1)) return { ok: false, row: i + 1, field: 'prediction', message: `row ${i + 1}: predicted probability ${pi} is outside [0, 1]` };
+    if (Number.isNaN(pi))
+      return {
+        ok: false,
+        row: i + 1,
+        field: 'prediction',
+        message: `row ${i + 1}: predicted probability is not a number`,
+      };
+    if (!(pi >= 0 && pi <= 1))
+      return {
+        ok: false,
+        row: i + 1,
+        field: 'prediction',
+        message: `row ${i + 1}: predicted probability ${pi} is outside [0, 1]`,
+      };
     if (pi === 0) zeros++;
     else if (pi === 1) ones++;
     events += yi;
   }
-  if (events === 0) return { ok: false, row: null, field: 'outcome', message: 'no events (every outcome is 0): discrimination and calibration cannot be estimated' };
-  if (events === p.length) return { ok: false, row: null, field: 'outcome', message: 'no non-events (every outcome is 1): discrimination and calibration cannot be estimated' };
+  if (events === 0)
+    return {
+      ok: false,
+      row: null,
+      field: 'outcome',
+      message: 'no events (every outcome is 0): discrimination and calibration cannot be estimated',
+    };
+  if (events === p.length)
+    return {
+      ok: false,
+      row: null,
+      field: 'outcome',
+      message: 'no non-events (every outcome is 1): discrimination and calibration cannot be estimated',
+    };
   return { ok: true, zeros, ones };
 }
 

@@ -47,5 +47,13 @@ export function closedTest(lp: Float64Array, y: Uint8Array, alpha = 0.05): FitRe
     tests.push(lr('logistic recalibration vs intercept update', logistic.logLik, intercept.logLik, 1));
     choice = tests[1].significant ? 'logistic' : 'intercept';
   }
-  return { converged: true, alpha, logLik: { original: l0, intercept: intercept.logLik, logistic: logistic.logLik }, tests, choice, intercept, logistic };
+  return {
+    converged: true,
+    alpha,
+    logLik: { original: l0, intercept: intercept.logLik, logistic: logistic.logLik },
+    tests,
+    choice,
+    intercept,
+    logistic,
+  };
 }

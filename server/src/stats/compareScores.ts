@@ -29,7 +29,12 @@ export interface ScoreComparison {
 }
 
 /** Net benefit of risks `p` at each threshold, over the rows listed in `idx` (all rows when idx is null). */
-export function netBenefitAt(p: Float64Array, y: Uint8Array, thresholds: number[], idx: Uint32Array | null = null): number[] {
+export function netBenefitAt(
+  p: Float64Array,
+  y: Uint8Array,
+  thresholds: number[],
+  idx: Uint32Array | null = null,
+): number[] {
   const n = idx ? idx.length : p.length;
   const tp = new Float64Array(thresholds.length);
   const fp = new Float64Array(thresholds.length);
@@ -45,10 +50,16 @@ export function netBenefitAt(p: Float64Array, y: Uint8Array, thresholds: number[
   return thresholds.map((t, j) => tp[j] / n - (fp[j] / n) * (t / (1 - t)));
 }
 
-export function compareScores(p1: Float64Array, p2: Float64Array, y: Uint8Array, opts: { thresholds: number[]; replicates?: number; seed?: number }): ScoreComparison {
+export function compareScores(
+  p1: Float64Array,
+  p2: Float64Array,
+  y: Uint8Array,
+  opts: { thresholds: number[]; replicates?: number; seed?: number },
+): ScoreComparison {
   const n = y.length;
   if (p1.length !== n || p2.length !== n) throw new RangeError('both scores need a risk for every row');
-  for (const t of opts.thresholds) if (!(t > 0 && t < 1)) throw new RangeError(`threshold ${t} must lie strictly between 0 and 1`);
+  for (const t of opts.thresholds)
+    if (!(t > 0 && t < 1)) throw new RangeError(`threshold ${t} must lie strictly between 0 and 1`);
   const replicates = opts.replicates ?? 0;
   const seed = opts.seed ?? 20260101;
   let events = 0;
@@ -82,9 +93,20 @@ export function compareScores(p1: Float64Array, p2: Float64Array, y: Uint8Array,
         threshold: t,
         first: nb1[j],
         second: nb2[j],
-        difference: { estimate: nb1[j] - nb2[j], lower: replicates ? quantileType7(sorted, 0.025) : NaN, upper: replicates ? quantileType7(sorted, 0.975) : NaN },
+        difference: {
+          estimate: nb1[j] - nb2[j],
+          lower: replicates ? quantileType7(sorted, 0.025) : NaN,
+          upper: replicates ? quantileType7(sorted, 0.975) : NaN,
+        },
       };
     }),
-    bootstrap: replicates ? { replicates, seed, method: 'paired percentile bootstrap (2.5th, 97.5th; type 7): rows resampled once per replicate for both scores' } : null,
+    bootstrap: replicates
+      ? {
+          replicates,
+          seed,
+          method:
+            'paired percentile bootstrap (2.5th, 97.5th; type 7): rows resampled once per replicate for both scores',
+        }
+      : null,
   };
 }

@@ -93,13 +93,25 @@ function covariance(a: Float64Array, b: Float64Array, ma: number, mb: number): n
  * Paired DeLong test of two AUCs on the same subjects (DeLong et al. 1988, §3):
  * z = (A1 − A2) / sqrt(Var A1 + Var A2 − 2 Cov), two-sided p.
  */
-export function compareAucs(p1: Float64Array, p2: Float64Array, y: Uint8Array): { difference: number; se: number; z: number; pValue: number; auc1: number; auc2: number } {
+export function compareAucs(
+  p1: Float64Array,
+  p2: Float64Array,
+  y: Uint8Array,
+): { difference: number; se: number; z: number; pValue: number; auc1: number; auc2: number } {
   const a = components(p1, y);
   const b = components(p2, y);
   const n1 = a.v10.length;
   const n0 = a.v01.length;
-  const s10 = [covariance(a.v10, a.v10, a.auc, a.auc), covariance(b.v10, b.v10, b.auc, b.auc), covariance(a.v10, b.v10, a.auc, b.auc)];
-  const s01 = [covariance(a.v01, a.v01, a.auc, a.auc), covariance(b.v01, b.v01, b.auc, b.auc), covariance(a.v01, b.v01, a.auc, b.auc)];
+  const s10 = [
+    covariance(a.v10, a.v10, a.auc, a.auc),
+    covariance(b.v10, b.v10, b.auc, b.auc),
+    covariance(a.v10, b.v10, a.auc, b.auc),
+  ];
+  const s01 = [
+    covariance(a.v01, a.v01, a.auc, a.auc),
+    covariance(b.v01, b.v01, b.auc, b.auc),
+    covariance(a.v01, b.v01, a.auc, b.auc),
+  ];
   const variance = s10[0] / n1 + s01[0] / n0 + s10[1] / n1 + s01[1] / n0 - 2 * (s10[2] / n1 + s01[2] / n0);
   const se = Math.sqrt(variance);
   const z = (a.auc - b.auc) / se;

@@ -41,7 +41,8 @@ export function resolveSettings(settings: Partial<ValidationSettings> = {}): Val
     if (!(t > 0 && t < 1)) throw new EngineInputError(`threshold ${t} must lie strictly between 0 and 1`, null, null);
   }
   if (!(s.loessSpan > 0)) throw new EngineInputError(`loess span ${s.loessSpan} must be positive`, null, null);
-  if (!(Number.isInteger(s.hosmerLemeshowGroups) && s.hosmerLemeshowGroups >= 2)) throw new EngineInputError('Hosmer–Lemeshow needs at least 2 groups', null, null);
+  if (!(Number.isInteger(s.hosmerLemeshowGroups) && s.hosmerLemeshowGroups >= 2))
+    throw new EngineInputError('Hosmer–Lemeshow needs at least 2 groups', null, null);
   return s;
 }
 
@@ -54,18 +55,24 @@ export function computeFullSet(p: Float64Array, y: Uint8Array, settings: Validat
     extreme === 0
       ? 'none at exactly 0 or 1'
       : `${check.zeros} at exactly 0 and ${check.ones} at exactly 1: log loss, calibration intercept and slope use p clamped to [${P_CLAMP}, 1 − ${P_CLAMP}]; every other metric uses p as given`;
-  if (extreme > 0) warnings.push(`Predicted risks of exactly 0 (${check.zeros}) or 1 (${check.ones}): ${handling.split(': ')[1]}.`);
+  if (extreme > 0)
+    warnings.push(`Predicted risks of exactly 0 (${check.zeros}) or 1 (${check.ones}): ${handling.split(': ')[1]}.`);
 
   const sorted = sortCohort(p, y);
   const lp = clampedLogit(p);
   const auc = delongAuc(sorted);
-  if (Number.isNaN(auc.se)) warnings.push('The DeLong standard error needs at least two events and two non-events: the AUC interval is not estimable.');
-  else if (auc.lower < 0 || auc.upper > 1) warnings.push('The AUC interval crosses [0, 1]; it is reported untruncated.');
+  if (Number.isNaN(auc.se))
+    warnings.push(
+      'The DeLong standard error needs at least two events and two non-events: the AUC interval is not estimable.',
+    );
+  else if (auc.lower < 0 || auc.upper > 1)
+    warnings.push('The AUC interval crosses [0, 1]; it is reported untruncated.');
   const ll = logLoss(p, y);
   const br = brier(p, y);
   const intercept = calibrationIntercept(lp, y);
   const slope = calibrationSlope(lp, y);
-  if (!intercept.converged) warnings.push(`Calibration intercept not estimable (${intercept.reason}): ${intercept.detail}.`);
+  if (!intercept.converged)
+    warnings.push(`Calibration intercept not estimable (${intercept.reason}): ${intercept.detail}.`);
   if (!slope.converged) warnings.push(`Calibration slope not estimable (${slope.reason}): ${slope.detail}.`);
   const oe = observedExpected(p, y);
   const rule = settings.hosmerLemeshowRule ?? 'quantile-type2';
@@ -73,12 +80,18 @@ export function computeFullSet(p: Float64Array, y: Uint8Array, settings: Validat
   if (hl.df <= 0) warnings.push(`Hosmer–Lemeshow: only ${hl.groups} distinct risk groups, so no p-value.`);
   const sp = spiegelhalter(p, y);
   if (Number.isNaN(sp.z)) warnings.push('Spiegelhalter z is not defined: every predicted risk is 0, ½ or 1.');
-  const curve = loessCurve(sorted, { span: settings.loessSpan, exactMaxN: settings.loessExactMaxN, gridSize: settings.loessGridSize });
+  const curve = loessCurve(sorted, {
+    span: settings.loessSpan,
+    exactMaxN: settings.loessExactMaxN,
+    gridSize: settings.loessGridSize,
+  });
   const calib = ici(sorted, curve.atGroups);
   const thresholds = thresholdTable(sorted, settings.thresholds);
   for (const row of thresholds) {
-    if (row.tp + row.fp === 0) warnings.push(`At threshold ${row.threshold} no row is at or above it: PPV is not defined.`);
-    if (row.tn + row.fn === 0) warnings.push(`At threshold ${row.threshold} every row is at or above it: NPV is not defined.`);
+    if (row.tp + row.fp === 0)
+      warnings.push(`At threshold ${row.threshold} no row is at or above it: PPV is not defined.`);
+    if (row.tn + row.fn === 0)
+      warnings.push(`At threshold ${row.threshold} every row is at or above it: NPV is not defined.`);
   }
   const nbThresholds = settings.netBenefitThresholds ?? settings.thresholds;
   const { estimate, se, lower, upper } = auc;
@@ -97,7 +110,14 @@ export function computeFullSet(p: Float64Array, y: Uint8Array, settings: Validat
     scaledBrier: br.scaled,
     calibrationIntercept: intercept,
     calibrationSlope: slope,
-    oe: { estimate: oe.estimate, lower: oe.lower, upper: oe.upper, observed: oe.observed, expected: oe.expected, method: oe.method },
+    oe: {
+      estimate: oe.estimate,
+      lower: oe.lower,
+      upper: oe.upper,
+      observed: oe.observed,
+      expected: oe.expected,
+      method: oe.method,
+    },
     hosmerLemeshow: hl,
     spiegelhalter: sp,
     calibrationCurve: {

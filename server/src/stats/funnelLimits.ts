@@ -31,7 +31,16 @@ export function funnelLimits(observed: number, expected: number, variance: numbe
   });
   const d = observed - expected;
   const status = Math.abs(d) > Z998 * sd ? 'outside' : Math.abs(d) > Z95 * sd ? 'warning' : 'inside';
-  return { observed, expected, variance, oMinusE: d, oe: expected > 0 ? observed / expected : NaN, limits95: lim(Z95), limits998: lim(Z998), status };
+  return {
+    observed,
+    expected,
+    variance,
+    oMinusE: d,
+    oe: expected > 0 ? observed / expected : NaN,
+    limits95: lim(Z95),
+    limits998: lim(Z998),
+    status,
+  };
 }
 
 /** Sums a group of patients' p and y into funnelLimits. */

@@ -25,15 +25,15 @@ export type { LevelPerformance, PooledAnalysis, PooledMetric, SiteAnalysis, Subg
 
 export const BLANK_LEVEL = '(blank)';
 
-
-
 export function levelEffect(l: LevelPerformance, metric: PooledMetric): { estimate: number; se: number } | null {
   let e: { estimate: number; se: number } | null = null;
   if (metric === 'logitAuc' && l.auc) {
     const a = l.auc.estimate;
     e = { estimate: Math.log(a / (1 - a)), se: l.auc.se / (a * (1 - a)) }; // delta method (Debray et al. 2017)
-  } else if (metric === 'calibrationIntercept' && l.calibrationIntercept) e = { estimate: l.calibrationIntercept.estimate, se: l.calibrationIntercept.se };
-  else if (metric === 'calibrationSlope' && l.calibrationSlope) e = { estimate: l.calibrationSlope.estimate, se: l.calibrationSlope.se };
+  } else if (metric === 'calibrationIntercept' && l.calibrationIntercept)
+    e = { estimate: l.calibrationIntercept.estimate, se: l.calibrationIntercept.se };
+  else if (metric === 'calibrationSlope' && l.calibrationSlope)
+    e = { estimate: l.calibrationSlope.estimate, se: l.calibrationSlope.se };
   else if (metric === 'logOe' && l.oe) e = { estimate: Math.log(l.oe.estimate), se: l.oe.seLog };
   return e && Number.isFinite(e.estimate) && Number.isFinite(e.se) && e.se > 0 ? e : null;
 }
@@ -53,7 +53,8 @@ function levelsOf(groups: ArrayLike<string>): Map<string, number[]> {
 export function levelFromResult(level: string, r: ValidationResult): LevelPerformance {
   const verdict = adequacyVerdict(r.events, r.nonEvents);
   const oe = oeFromCounts(r.oe.observed, r.oe.expected, r.n);
-  const fit = (f: ValidationResult['calibrationIntercept']) => (f.converged ? { estimate: f.estimate, lower: f.lower, upper: f.upper, se: f.se } : null);
+  const fit = (f: ValidationResult['calibrationIntercept']) =>
+    f.converged ? { estimate: f.estimate, lower: f.lower, upper: f.upper, se: f.se } : null;
   const iciCi = r.bootstrap?.intervals.ici;
   return {
     level,
@@ -75,8 +76,14 @@ export function levelFromResult(level: string, r: ValidationResult): LevelPerfor
  * Figures for each level of `groups` (one label per row). `settings.bootstrapReplicates` > 0 gives ICI its CI,
  * seeded by `settings.bootstrapSeed` (the same seed for every level: each level's resamples are its own rows).
  */
-export function performanceByLevel(p: Float64Array, y: Uint8Array, groups: ArrayLike<string>, settings: Partial<ValidationSettings> = {}): LevelPerformance[] {
-  if (groups.length !== p.length || y.length !== p.length) throw new RangeError('risks, outcomes and group labels differ in length');
+export function performanceByLevel(
+  p: Float64Array,
+  y: Uint8Array,
+  groups: ArrayLike<string>,
+  settings: Partial<ValidationSettings> = {},
+): LevelPerformance[] {
+  if (groups.length !== p.length || y.length !== p.length)
+    throw new RangeError('risks, outcomes and group labels differ in length');
   const s = resolveSettings(settings);
   const out: LevelPerformance[] = [];
   for (const [level, idx] of levelsOf(groups)) {
@@ -90,7 +97,20 @@ export function performanceByLevel(p: Float64Array, y: Uint8Array, groups: Array
       let events = 0;
       for (const v of ly) events += v;
       const verdict = adequacyVerdict(events, ly.length - events);
-      out.push({ level, n: ly.length, events, nonEvents: ly.length - events, adequacy: verdict.level, belowMinimum: !verdict.meetsMinimum, error: e.message, auc: null, calibrationIntercept: null, calibrationSlope: null, oe: null, ici: null });
+      out.push({
+        level,
+        n: ly.length,
+        events,
+        nonEvents: ly.length - events,
+        adequacy: verdict.level,
+        belowMinimum: !verdict.meetsMinimum,
+        error: e.message,
+        auc: null,
+        calibrationIntercept: null,
+        calibrationSlope: null,
+        oe: null,
+        ici: null,
+      });
       continue;
     }
     const row = levelFromResult(level, r);
@@ -103,8 +123,12 @@ export function performanceByLevel(p: Float64Array, y: Uint8Array, groups: Array
   return out;
 }
 
-
-function pooled<T>(levels: LevelPerformance[], metric: PooledMetric, minLevels: number, analyse: (y: number[], se: number[]) => T): PooledAnalysis<T> {
+function pooled<T>(
+  levels: LevelPerformance[],
+  metric: PooledMetric,
+  minLevels: number,
+  analyse: (y: number[], se: number[]) => T,
+): PooledAnalysis<T> {
   const used: string[] = [];
   const excluded: { level: string; reason: string }[] = [];
   const y: number[] = [];
@@ -122,9 +146,13 @@ function pooled<T>(levels: LevelPerformance[], metric: PooledMetric, minLevels: 
   return { levels: used, excluded, result: y.length >= minLevels ? analyse(y, se) : null };
 }
 
-
 /** Subgroups (fairness): per-level figures and Cochran's Q across levels for calibration-in-the-large and log O/E. */
-export function subgroupAnalysis(p: Float64Array, y: Uint8Array, groups: ArrayLike<string>, settings: Partial<ValidationSettings> = {}): SubgroupAnalysis {
+export function subgroupAnalysis(
+  p: Float64Array,
+  y: Uint8Array,
+  groups: ArrayLike<string>,
+  settings: Partial<ValidationSettings> = {},
+): SubgroupAnalysis {
   const levels = performanceByLevel(p, y, groups, settings);
   return {
     levels,
@@ -135,18 +163,44 @@ export function subgroupAnalysis(p: Float64Array, y: Uint8Array, groups: ArrayLi
   };
 }
 
-
 const expit = (x: number) => 1 / (1 + Math.exp(-x));
-const back: Record<PooledMetric, (x: number) => number> = { logitAuc: expit, calibrationIntercept: (x) => x, calibrationSlope: (x) => x, logOe: Math.exp };
+const back: Record<PooledMetric, (x: number) => number> = {
+  logitAuc: expit,
+  calibrationIntercept: (x) => x,
+  calibrationSlope: (x) => x,
+  logOe: Math.exp,
+};
 
 /** Sites: per-site figures and a REML random-effects meta-analysis of each metric (at least 2 sites to pool). */
-export function siteAnalysis(p: Float64Array, y: Uint8Array, sites: ArrayLike<string>, settings: Partial<ValidationSettings> = {}): SiteAnalysis {
+export function siteAnalysis(
+  p: Float64Array,
+  y: Uint8Array,
+  sites: ArrayLike<string>,
+  settings: Partial<ValidationSettings> = {},
+): SiteAnalysis {
   const levels = performanceByLevel(p, y, sites, settings);
   const one = (metric: PooledMetric) =>
     pooled(levels, metric, 2, (ys, ses) => {
       const r = randomEffectsReml(ys, ses);
       const f = back[metric];
-      return { ...r, natural: { estimate: f(r.estimate), lower: f(r.lower), upper: f(r.upper), predictionLower: f(r.predictionInterval.lower), predictionUpper: f(r.predictionInterval.upper) } };
+      return {
+        ...r,
+        natural: {
+          estimate: f(r.estimate),
+          lower: f(r.lower),
+          upper: f(r.upper),
+          predictionLower: f(r.predictionInterval.lower),
+          predictionUpper: f(r.predictionInterval.upper),
+        },
+      };
     });
-  return { levels, pooled: { logitAuc: one('logitAuc'), calibrationIntercept: one('calibrationIntercept'), calibrationSlope: one('calibrationSlope'), logOe: one('logOe') } };
+  return {
+    levels,
+    pooled: {
+      logitAuc: one('logitAuc'),
+      calibrationIntercept: one('calibrationIntercept'),
+      calibrationSlope: one('calibrationSlope'),
+      logOe: one('logOe'),
+    },
+  };
 }

@@ -8,7 +8,10 @@
  */
 import type { SortedCohort } from './sortedCohort';
 
-export function ici(s: SortedCohort, smoothedAtGroups: Float64Array): { ici: number; e50: number; e90: number; emax: number } {
+export function ici(
+  s: SortedCohort,
+  smoothedAtGroups: Float64Array,
+): { ici: number; e50: number; e90: number; emax: number } {
   const d = new Float64Array(s.n);
   let i = 0;
   let sum = 0;
@@ -37,7 +40,9 @@ function select(a: Float64Array, k: number, left: number, right: number): number
   while (right > left) {
     // median of three as pivot; partition with equal keys spread to both sides (no quadratic case on ties)
     const mid = (left + right) >>> 1;
-    const x = a[left], y = a[mid], z = a[right];
+    const x = a[left],
+      y = a[mid],
+      z = a[right];
     const pivot = x < y ? (y < z ? y : x < z ? z : x) : x < z ? x : y < z ? z : y;
     let i = left;
     let j = right;

@@ -13,7 +13,12 @@ export { applyModel } from './applyModel';
 export { compareAucs } from './delongAuc';
 
 /** `onReplicate` hears of each finished bootstrap replicate (the run's progress text counts them). */
-export function validate(p: Float64Array, y: Uint8Array, settings: Partial<ValidationSettings> = {}, onReplicate?: (done: number) => void): ValidationResult {
+export function validate(
+  p: Float64Array,
+  y: Uint8Array,
+  settings: Partial<ValidationSettings> = {},
+  onReplicate?: (done: number) => void,
+): ValidationResult {
   const s = resolveSettings(settings);
   const result = computeFullSet(p, y, s);
   if (s.bootstrapReplicates > 0) result.bootstrap = bootstrap(p, y, s, result, onReplicate);

@@ -72,7 +72,14 @@ export function loessAt(s: SortedCohort, x0: number, span: number): number {
   }
   const from = upperBound(gv, x0 - h);
   const to = lowerBound(gv, x0 + h);
-  let s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0, t0 = 0, t1 = 0, t2 = 0;
+  let s0 = 0,
+    s1 = 0,
+    s2 = 0,
+    s3 = 0,
+    s4 = 0,
+    t0 = 0,
+    t1 = 0,
+    t2 = 0;
   const invH = 1 / h;
   // rows strictly inside (x0 − h, x0 + h) all carry positive weight
   const distinct = to - from;

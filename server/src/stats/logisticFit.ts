@@ -80,7 +80,11 @@ export function logisticFit(
       const x = k === 2 ? covariates[0] : null;
       const b0 = b[0];
       const b1 = k === 2 ? b[1] : 0;
-      let g0 = 0, g1 = 0, h00 = 0, h01 = 0, h11 = 0;
+      let g0 = 0,
+        g1 = 0,
+        h00 = 0,
+        h01 = 0,
+        h11 = 0;
       for (let i = 0; i < n; i++) {
         const xi = x ? x[i] : 0;
         const eta = (offset ? offset[i] : 0) + b0 + b1 * xi;
@@ -130,8 +134,16 @@ export function logisticFit(
     const delta = solve(cur.h, cur.g);
     if (!delta || delta.some((d) => !Number.isFinite(d))) {
       return cur.extreme > 0
-        ? { converged: false, reason: 'separation', detail: 'the information matrix became singular as fitted probabilities reached 0 or 1' }
-        : { converged: false, reason: 'degenerate', detail: 'the information matrix is singular (a covariate without variation?)' };
+        ? {
+            converged: false,
+            reason: 'separation',
+            detail: 'the information matrix became singular as fitted probabilities reached 0 or 1',
+          }
+        : {
+            converged: false,
+            reason: 'degenerate',
+            detail: 'the information matrix is singular (a covariate without variation?)',
+          };
     }
     let stepScale = 1;
     let next = beta.map((b, j) => b + delta[j]);
@@ -145,13 +157,29 @@ export function logisticFit(
     for (let j = 0; j < k; j++) beta[j] = next[j];
     cur = cand;
     if (beta.some((b) => Math.abs(b) > 1e6) || (cur.extreme === n && n > 0)) {
-      return { converged: false, reason: 'separation', detail: `coefficients diverge (|β| > 10⁶ or every fitted probability at 0 or 1) after ${it} iterations` };
+      return {
+        converged: false,
+        reason: 'separation',
+        detail: `coefficients diverge (|β| > 10⁶ or every fitted probability at 0 or 1) after ${it} iterations`,
+      };
     }
     if (small) {
       const inv = invert(cur.h);
-      if (!inv) return { converged: false, reason: 'degenerate', detail: 'the information matrix is singular at the optimum' };
-      return { converged: true, coefficients: [...beta], se: inv.map((row, j) => Math.sqrt(row[j])), covariance: inv, logLik: cur.ll, iterations: it };
+      if (!inv)
+        return { converged: false, reason: 'degenerate', detail: 'the information matrix is singular at the optimum' };
+      return {
+        converged: true,
+        coefficients: [...beta],
+        se: inv.map((row, j) => Math.sqrt(row[j])),
+        covariance: inv,
+        logLik: cur.ll,
+        iterations: it,
+      };
     }
   }
-  return { converged: false, reason: 'non-convergence', detail: `Newton–Raphson did not converge in ${maxIt} iterations` };
+  return {
+    converged: false,
+    reason: 'non-convergence',
+    detail: `Newton–Raphson did not converge in ${maxIt} iterations`,
+  };
 }

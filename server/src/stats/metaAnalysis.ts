@@ -19,10 +19,10 @@ import { chiSquareUpper, normalTwoSided, Z975 } from './distributions';
 
 export type { HeterogeneityTest, RandomEffectsResult } from '@shared/subgroups';
 
-
-
 function fixedEffect(y: number[], v: number[]) {
-  let sw = 0, swy = 0, sw2 = 0;
+  let sw = 0,
+    swy = 0,
+    sw2 = 0;
   for (let i = 0; i < y.length; i++) {
     const w = 1 / v[i];
     sw += w;
@@ -39,12 +39,17 @@ function checkInput(y: number[], se: number[], minK: number) {
   if (y.length !== se.length) throw new RangeError('estimates and standard errors differ in length');
   if (y.length < minK) throw new RangeError(`at least ${minK} estimates are needed`);
   for (let i = 0; i < y.length; i++) {
-    if (!Number.isFinite(y[i]) || !(se[i] > 0) || !Number.isFinite(se[i])) throw new RangeError(`estimate ${i + 1} has no finite value and positive standard error`);
+    if (!Number.isFinite(y[i]) || !(se[i] > 0) || !Number.isFinite(se[i]))
+      throw new RangeError(`estimate ${i + 1} has no finite value and positive standard error`);
   }
 }
 
 /** REML random-effects meta-analysis of estimates with their standard errors (at least 2). */
-export function randomEffectsReml(y: number[], se: number[], opts: { tolerance?: number; maxIterations?: number } = {}): RandomEffectsResult {
+export function randomEffectsReml(
+  y: number[],
+  se: number[],
+  opts: { tolerance?: number; maxIterations?: number } = {},
+): RandomEffectsResult {
   checkInput(y, se, 2);
   const { tolerance = 1e-12, maxIterations = 1000 } = opts;
   const k = y.length;
@@ -54,7 +59,10 @@ export function randomEffectsReml(y: number[], se: number[], opts: { tolerance?:
   let tau2 = Math.max(0, (fe.q - (k - 1)) / (fe.sw - fe.sw2 / fe.sw));
   let iterations = 0;
   for (; iterations < maxIterations; iterations++) {
-    let sw = 0, sw2 = 0, sw3 = 0, swy = 0;
+    let sw = 0,
+      sw2 = 0,
+      sw3 = 0,
+      swy = 0;
     for (let i = 0; i < k; i++) {
       const w = 1 / (v[i] + tau2);
       sw += w;
@@ -72,7 +80,8 @@ export function randomEffectsReml(y: number[], se: number[], opts: { tolerance?:
     tau2 = next;
     if (change < tolerance) break;
   }
-  let sw = 0, swy = 0;
+  let sw = 0,
+    swy = 0;
   for (let i = 0; i < k; i++) {
     const w = 1 / (v[i] + tau2);
     sw += w;
@@ -102,12 +111,22 @@ export function randomEffectsReml(y: number[], se: number[], opts: { tolerance?:
   };
 }
 
-
-export const HETEROGENEITY_METHOD = "Cochran's Q under a fixed-effect model, χ² on levels − 1 df (Cochran 1954, Biometrics 10:101–129)";
+export const HETEROGENEITY_METHOD =
+  "Cochran's Q under a fixed-effect model, χ² on levels − 1 df (Cochran 1954, Biometrics 10:101–129)";
 
 /** Do the levels' estimates differ more than their standard errors allow? Cochran's Q test (at least 2 levels). */
 export function heterogeneityTest(y: number[], se: number[]): HeterogeneityTest {
   checkInput(y, se, 2);
-  const fe = fixedEffect(y, se.map((s) => s * s));
-  return { pooled: fe.mean, pooledSe: fe.se, q: fe.q, df: y.length - 1, pValue: chiSquareUpper(fe.q, y.length - 1), method: HETEROGENEITY_METHOD };
+  const fe = fixedEffect(
+    y,
+    se.map((s) => s * s),
+  );
+  return {
+    pooled: fe.mean,
+    pooledSe: fe.se,
+    q: fe.q,
+    df: y.length - 1,
+    pValue: chiSquareUpper(fe.q, y.length - 1),
+    method: HETEROGENEITY_METHOD,
+  };
 }

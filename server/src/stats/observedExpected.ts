@@ -23,5 +23,13 @@ export function oeFromCounts(observed: number, expected: number, n: number) {
   const ratio = observed / expected;
   const phi = observed / n;
   const se = Math.sqrt((1 - phi) / (n * phi));
-  return { estimate: ratio, lower: ratio * Math.exp(-Z975 * se), upper: ratio * Math.exp(Z975 * se), observed, expected, method: OE_METHOD, seLog: se };
+  return {
+    estimate: ratio,
+    lower: ratio * Math.exp(-Z975 * se),
+    upper: ratio * Math.exp(Z975 * se),
+    observed,
+    expected,
+    method: OE_METHOD,
+    seLog: se,
+  };
 }

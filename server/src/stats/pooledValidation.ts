@@ -25,8 +25,13 @@ export interface CohortColumn extends ImputationColumn {
 }
 
 /** Risk of each row from the model and complete columns; `rows` restricts to a subset (complete cases). */
-export function riskFromColumns(model: ScoreModel, columns: Record<string, CohortColumn>, values: Record<string, Float64Array>, rows?: Uint32Array): Float64Array {
-  const n = rows ? rows.length : Object.values(values)[0]?.length ?? 0;
+export function riskFromColumns(
+  model: ScoreModel,
+  columns: Record<string, CohortColumn>,
+  values: Record<string, Float64Array>,
+  rows?: Uint32Array,
+): Float64Array {
+  const n = rows ? rows.length : (Object.values(values)[0]?.length ?? 0);
   const p = new Float64Array(n);
   for (let r = 0; r < n; r++) {
     const i = rows ? rows[r] : r;
@@ -37,7 +42,8 @@ export function riskFromColumns(model: ScoreModel, columns: Record<string, Cohor
       let x: number;
       if (pred.transform === 'indicator') x = (col.levelNames ? col.levelNames[v] : String(v)) === pred.level ? 1 : 0;
       else if (pred.transform === 'log') {
-        if (!(v > 0)) throw new EngineInputError(`column ${pred.column} must be positive for a natural log, got ${v}`, i, null);
+        if (!(v > 0))
+          throw new EngineInputError(`column ${pred.column} must be positive for a natural log, got ${v}`, i, null);
         x = Math.log(v);
       } else if (pred.transform === 'rcs') x = rcsTerm(v, pred.knots!, pred.term!);
       else x = v;
@@ -54,7 +60,12 @@ export interface PooledAnalysis {
   seed: number;
   donors: number;
   /** Rubin's rules, per metric that has a per-data-set variance; null where a fit failed in some completed set */
-  pooled: { auc: PooledMetric; calibrationIntercept: PooledMetric | null; calibrationSlope: PooledMetric | null; oe: PooledMetric };
+  pooled: {
+    auc: PooledMetric;
+    calibrationIntercept: PooledMetric | null;
+    calibrationSlope: PooledMetric | null;
+    oe: PooledMetric;
+  };
   /** completed sets in which the calibration fits failed */
   failedFits: { calibrationIntercept: number; calibrationSlope: number };
   perImputation: ValidationResult[];
@@ -74,16 +85,34 @@ export function poolResults(results: ValidationResult[]): Pick<PooledAnalysis, '
   const fits = (key: 'calibrationIntercept' | 'calibrationSlope') => {
     const ok = results.map((r) => r[key]).filter((f) => f.converged);
     const failed = results.length - ok.length;
-    return { failed, pooled: failed === 0 ? poolMetric(ok.map((f) => f.estimate), ok.map((f) => f.se), 'identity') : null };
+    return {
+      failed,
+      pooled:
+        failed === 0
+          ? poolMetric(
+              ok.map((f) => f.estimate),
+              ok.map((f) => f.se),
+              'identity',
+            )
+          : null,
+    };
   };
   const ci = fits('calibrationIntercept');
   const cs = fits('calibrationSlope');
   return {
     pooled: {
-      auc: poolMetric(results.map((r) => r.auc.estimate), results.map((r) => r.auc.se), 'logit'),
+      auc: poolMetric(
+        results.map((r) => r.auc.estimate),
+        results.map((r) => r.auc.se),
+        'logit',
+      ),
       calibrationIntercept: ci.pooled,
       calibrationSlope: cs.pooled,
-      oe: poolMetric(results.map((r) => r.oe.estimate), results.map(seLogOe), 'log'),
+      oe: poolMetric(
+        results.map((r) => r.oe.estimate),
+        results.map(seLogOe),
+        'log',
+      ),
     },
     failedFits: { calibrationIntercept: ci.failed, calibrationSlope: cs.failed },
   };
@@ -105,9 +134,12 @@ export function validateWithGaps(
   const settings = resolveSettings({ ...validation, bootstrapReplicates: 0 });
   const n = y.length;
   const byName = Object.fromEntries(columns.map((c) => [c.name, c]));
-  for (const pred of model.predictors) if (!byName[pred.column]) throw new EngineInputError(`the model needs column ${pred.column}`, null, null);
+  for (const pred of model.predictors)
+    if (!byName[pred.column]) throw new EngineInputError(`the model needs column ${pred.column}`, null, null);
   checkImputationInput({ outcome: y, columns, extra });
-  const gapsByColumn = Object.fromEntries(columns.map((c) => [c.name, c.values.reduce((s, v) => s + (Number.isNaN(v) ? 1 : 0), 0)]));
+  const gapsByColumn = Object.fromEntries(
+    columns.map((c) => [c.name, c.values.reduce((s, v) => s + (Number.isNaN(v) ? 1 : 0), 0)]),
+  );
   const complete: number[] = [];
   for (let i = 0; i < n; i++) if (columns.every((c) => !Number.isNaN(c.values[i]))) complete.push(i);
   const rows = Uint32Array.from(complete);
@@ -115,7 +147,11 @@ export function validateWithGaps(
   let ccResult: ValidationResult | null = null;
   let refused: string | null = null;
   try {
-    ccResult = computeFullSet(riskFromColumns(model, byName, observedValues, rows), Uint8Array.from(rows, (i) => y[i]), settings);
+    ccResult = computeFullSet(
+      riskFromColumns(model, byName, observedValues, rows),
+      Uint8Array.from(rows, (i) => y[i]),
+      settings,
+    );
   } catch (e) {
     if (!(e instanceof EngineInputError)) throw e;
     refused = e.message; // e.g. no events left among complete cases
@@ -132,6 +168,13 @@ export function validateWithGaps(
     rowsWithGaps: n - rows.length,
     gapsByColumn,
     completeCase: { n: rows.length, leftOut: n - rows.length, result: ccResult, refused },
-    imputed: { imputations: imputation.imputations, iterations: imputation.iterations, seed: imputation.seed, donors: imputation.donors, ...poolResults(perImputation), perImputation },
+    imputed: {
+      imputations: imputation.imputations,
+      iterations: imputation.iterations,
+      seed: imputation.seed,
+      donors: imputation.donors,
+      ...poolResults(perImputation),
+      perImputation,
+    },
   };
 }

@@ -16,7 +16,11 @@ import { chiSquareDraw, normalDraw, type Uniform } from './randomDraws';
 import { addCorrelated, cholesky, choleskyInverse, choleskySolve, type Matrix } from './smallMatrix';
 
 /** XᵀX and Xᵀy over the rows where `use` is 1, with an intercept as the first column. */
-function normalEquations(design: Float64Array[], target: Float64Array, use: Uint8Array): { xtx: Matrix; xty: number[]; rows: number } {
+function normalEquations(
+  design: Float64Array[],
+  target: Float64Array,
+  use: Uint8Array,
+): { xtx: Matrix; xty: number[]; rows: number } {
   const p = design.length + 1;
   const xtx: Matrix = Array.from({ length: p }, () => new Array(p).fill(0));
   const xty = new Array(p).fill(0);
@@ -46,14 +50,20 @@ export interface LinearDraw {
 }
 
 /** The regression-parameter draw of step 1. */
-export function bayesianLinearDraw(design: Float64Array[], target: Float64Array, observed: Uint8Array, rand: Uniform): LinearDraw {
+export function bayesianLinearDraw(
+  design: Float64Array[],
+  target: Float64Array,
+  observed: Uint8Array,
+  rand: Uniform,
+): LinearDraw {
   const { xtx, xty, rows } = normalEquations(design, target, observed);
   const p = xtx.length;
   let l = cholesky(xtx);
   if (!l) {
     const ridged = xtx.map((row, i) => row.map((v, j) => (i === j ? v + 1e-5 * xtx[i][i] : v)));
     l = cholesky(ridged);
-    if (!l) throw new Error('the imputation model is degenerate (a predictor column without variation among observed rows?)');
+    if (!l)
+      throw new Error('the imputation model is degenerate (a predictor column without variation among observed rows?)');
   }
   const coef = choleskySolve(l, xty);
   let rss = 0;
@@ -75,13 +85,27 @@ export function bayesianLinearDraw(design: Float64Array[], target: Float64Array,
  * Fills the gaps of `target` (rows where observed[i] = 0) in place; `design` holds the current values of the other
  * columns of the imputation model. Returns the donor row of each filled row, in row order.
  */
-export function pmmImpute(target: Float64Array, observed: Uint8Array, design: Float64Array[], rand: Uniform, donors = 5): Int32Array {
+export function pmmImpute(
+  target: Float64Array,
+  observed: Uint8Array,
+  design: Float64Array[],
+  rand: Uniform,
+  donors = 5,
+): Int32Array {
   const { coef, beta } = bayesianLinearDraw(design, target, observed, rand);
   return pmmMatch(target, observed, design, coef, beta, rand, donors);
 }
 
 /** Step 2 alone: type-1 matching given β̂ (`coef`, for donors) and β* (`beta`, for the rows to fill). */
-export function pmmMatch(target: Float64Array, observed: Uint8Array, design: Float64Array[], coef: number[], beta: number[], rand: Uniform, donors = 5): Int32Array {
+export function pmmMatch(
+  target: Float64Array,
+  observed: Uint8Array,
+  design: Float64Array[],
+  coef: number[],
+  beta: number[],
+  rand: Uniform,
+  donors = 5,
+): Int32Array {
   const p = coef.length;
   const n = target.length;
   const fitted = (b: number[], i: number) => {
@@ -103,7 +127,8 @@ export function pmmMatch(target: Float64Array, observed: Uint8Array, design: Flo
   for (let i = 0; i < n; i++) {
     if (observed[i]) continue;
     const yhat = fitted(beta, i);
-    let lo = 0, hi = nObs;
+    let lo = 0,
+      hi = nObs;
     while (lo < hi) {
       const mid = (lo + hi) >>> 1;
       if (sortedFit[mid] < yhat) lo = mid + 1;
@@ -111,7 +136,9 @@ export function pmmMatch(target: Float64Array, observed: Uint8Array, design: Flo
     }
     // walk outwards from the insertion point; the (pick+1)-th nearest is the donor
     const pick = Math.floor(rand() * d);
-    let left = lo - 1, right = lo, donor = -1;
+    let left = lo - 1,
+      right = lo,
+      donor = -1;
     for (let step = 0; step <= pick; step++) {
       const takeLeft = right >= nObs || (left >= 0 && yhat - sortedFit[left] <= sortedFit[right] - yhat);
       donor = takeLeft ? left-- : right++;

@@ -22,7 +22,12 @@ export interface UpdateFit {
   logLik: number;
 }
 
-const ci = (estimate: number, se: number) => ({ estimate, se, lower: estimate - Z975 * se, upper: estimate + Z975 * se });
+const ci = (estimate: number, se: number) => ({
+  estimate,
+  se,
+  lower: estimate - Z975 * se,
+  upper: estimate + Z975 * se,
+});
 
 /** Log-likelihood of y under the unchanged score (a = 0, b = 1). */
 export function originalLogLik(lp: Float64Array, y: Uint8Array): number {
@@ -39,13 +44,25 @@ export function originalLogLik(lp: Float64Array, y: Uint8Array): number {
 export function interceptUpdate(lp: Float64Array, y: Uint8Array): FitResult<UpdateFit> {
   const fit = logisticFit(y, [], { intercept: true, offset: lp });
   if (!fit.converged) return fit;
-  return { converged: true, method: 'intercept', a: ci(fit.coefficients[0], fit.se[0]), b: { estimate: 1, se: 0, lower: 1, upper: 1 }, logLik: fit.logLik };
+  return {
+    converged: true,
+    method: 'intercept',
+    a: ci(fit.coefficients[0], fit.se[0]),
+    b: { estimate: 1, se: 0, lower: 1, upper: 1 },
+    logLik: fit.logLik,
+  };
 }
 
 export function logisticRecalibration(lp: Float64Array, y: Uint8Array): FitResult<UpdateFit> {
   const fit = logisticFit(y, [lp], { intercept: true });
   if (!fit.converged) return fit;
-  return { converged: true, method: 'logistic', a: ci(fit.coefficients[0], fit.se[0]), b: ci(fit.coefficients[1], fit.se[1]), logLik: fit.logLik };
+  return {
+    converged: true,
+    method: 'logistic',
+    a: ci(fit.coefficients[0], fit.se[0]),
+    b: ci(fit.coefficients[1], fit.se[1]),
+    logLik: fit.logLik,
+  };
 }
 
 /** The original formula with its linear predictor replaced by a + b·lp. */

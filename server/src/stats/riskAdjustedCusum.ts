@@ -60,5 +60,14 @@ export function riskAdjustedCusum(
     }
     if (signalled || t % step === 0 || t === n - 1) series.push({ index: t, value: sign * x });
   }
-  return { oddsRatio: ra, h, direction: ra > 1 ? 'deterioration' : 'improvement', n, signals, series, finalValue: sign * x, maxValue: sign * maxValue };
+  return {
+    oddsRatio: ra,
+    h,
+    direction: ra > 1 ? 'deterioration' : 'improvement',
+    n,
+    signals,
+    series,
+    finalValue: sign * x,
+    maxValue: sign * maxValue,
+  };
 }

@@ -28,7 +28,8 @@ export function riskGroups(s: SortedCohort, g: number, rule: GroupRule): RiskGro
   }
   if (cuts.length === 1) cuts.push(cuts[0]); // every p equal: one group
   const groups: RiskGroup[] = [];
-  for (let j = 1; j < cuts.length; j++) groups.push({ n: 0, events: 0, expected: 0, lowerCut: cuts[j - 1], upperCut: cuts[j] });
+  for (let j = 1; j < cuts.length; j++)
+    groups.push({ n: 0, events: 0, expected: 0, lowerCut: cuts[j - 1], upperCut: cuts[j] });
   let j = 0;
   for (let i = 0; i < s.n; i++) {
     const v = s.p[i];

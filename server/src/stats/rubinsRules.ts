@@ -49,7 +49,7 @@ export function barnardRubinDf(m: number, b: number, t: number, dfComplete = Inf
 /** `dfComplete` is mice's n − k (Inf by default, as pool.scalar's n = Inf). */
 export function poolScalar(q: ArrayLike<number>, u: ArrayLike<number>, dfComplete = Infinity): PooledScalar {
   const m = q.length;
-  if (m < 2 || u.length !== m) throw new Error('Rubin\'s rules need at least 2 estimates, each with its variance');
+  if (m < 2 || u.length !== m) throw new Error("Rubin's rules need at least 2 estimates, each with its variance");
   let qbar = 0;
   let ubar = 0;
   for (let i = 0; i < m; i++) {
@@ -86,7 +86,12 @@ const back = { identity: (x: number) => x, logit: (x: number) => 1 / (1 + Math.e
 const slope = { identity: () => 1, logit: (x: number) => 1 / (x * (1 - x)), log: (x: number) => 1 / x };
 
 /** Pools estimates given on the metric's own scale with their standard errors, on `scale` (Marshall et al. 2009). */
-export function poolMetric(estimates: ArrayLike<number>, ses: ArrayLike<number>, scale: PoolingScale, dfComplete = Infinity): PooledMetric {
+export function poolMetric(
+  estimates: ArrayLike<number>,
+  ses: ArrayLike<number>,
+  scale: PoolingScale,
+  dfComplete = Infinity,
+): PooledMetric {
   const m = estimates.length;
   const q = new Float64Array(m);
   const u = new Float64Array(m);
@@ -95,5 +100,11 @@ export function poolMetric(estimates: ArrayLike<number>, ses: ArrayLike<number>,
     u[i] = (ses[i] * slope[scale](estimates[i])) ** 2;
   }
   const pooled = poolScalar(q, u, dfComplete);
-  return { ...pooled, scale, estimate: back[scale](pooled.qbar), estimateLower: back[scale](pooled.lower), estimateUpper: back[scale](pooled.upper) };
+  return {
+    ...pooled,
+    scale,
+    estimate: back[scale](pooled.qbar),
+    estimateLower: back[scale](pooled.lower),
+    estimateUpper: back[scale](pooled.upper),
+  };
 }

@@ -21,7 +21,10 @@ import type { SampleSizeCriterion, SampleSizePlan } from '@shared/drift';
 export type { SampleSizeCriterion, SampleSizePlan };
 
 const expit = (x: number) => 1 / (1 + Math.exp(-x));
-const withEvents = (c: Omit<SampleSizeCriterion, 'events'>, phi: number): SampleSizeCriterion => ({ ...c, events: Math.ceil(c.n * phi) });
+const withEvents = (c: Omit<SampleSizeCriterion, 'events'>, phi: number): SampleSizeCriterion => ({
+  ...c,
+  events: Math.ceil(c.n * phi),
+});
 
 export function sampleSizeOE(eventRate: number, ciWidth: number): SampleSizeCriterion {
   const se = Math.asinh(ciWidth / 2) / Z;
@@ -127,14 +130,24 @@ export function slopeInformation(mean: number, sd: number): { i00: number; i01: 
   return { i00, i01, i11 };
 }
 
-export function sampleSizeSlope(eventRate: number, ciWidth: number, lp: { mean: number; sd: number }): SampleSizeCriterion {
+export function sampleSizeSlope(
+  eventRate: number,
+  ciWidth: number,
+  lp: { mean: number; sd: number },
+): SampleSizeCriterion {
   const se = ciWidth / (2 * Z);
   const { i00, i01, i11 } = slopeInformation(lp.mean, lp.sd);
   const n = Math.ceil(i00 / (se * se * (i00 * i11 - i01 * i01)) - 1e-9);
   return withEvents({ criterion: 'slope', ciWidth, targetSe: se, n }, eventRate);
 }
 
-export function planSampleSize(input: { eventRate: number; auc: number; ciWidthOE?: number; ciWidthAuc?: number; ciWidthSlope?: number }): SampleSizePlan {
+export function planSampleSize(input: {
+  eventRate: number;
+  auc: number;
+  ciWidthOE?: number;
+  ciWidthAuc?: number;
+  ciWidthSlope?: number;
+}): SampleSizePlan {
   const { eventRate, auc } = input;
   if (!(eventRate > 0 && eventRate < 1)) throw new RangeError('eventRate must lie strictly between 0 and 1');
   if (!(auc > 0.5 && auc < 1)) throw new RangeError('auc must lie strictly between 0.5 and 1');
@@ -151,7 +164,11 @@ export function planSampleSize(input: { eventRate: number; auc: number; ciWidthO
 }
 
 /** Precision a cohort of n patients gives: the expected 95% CI widths for O/E, C and slope. */
-export function precisionFor(n: number, eventRate: number, c: number): { oe: number; auc: number; slope: number | null } {
+export function precisionFor(
+  n: number,
+  eventRate: number,
+  c: number,
+): { oe: number; auc: number; slope: number | null } {
   const seOE = Math.sqrt((1 - eventRate) / (eventRate * n));
   const oe = Math.exp(Z * seOE) - Math.exp(-Z * seOE);
   const auc = 2 * Z * seAuc(n, eventRate, c);

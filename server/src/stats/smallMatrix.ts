@@ -42,7 +42,12 @@ export function choleskySolve(l: Matrix, b: ArrayLike<number>): number[] {
 
 export function choleskyInverse(l: Matrix): Matrix {
   const k = l.length;
-  const cols = Array.from({ length: k }, (_, j) => choleskySolve(l, Array.from({ length: k }, (_, i) => (i === j ? 1 : 0))));
+  const cols = Array.from({ length: k }, (_, j) =>
+    choleskySolve(
+      l,
+      Array.from({ length: k }, (_, i) => (i === j ? 1 : 0)),
+    ),
+  );
   return Array.from({ length: k }, (_, i) => cols.map((c) => c[i]));
 }
 

@@ -74,7 +74,10 @@ function tUpper(t: number, df: number): number {
   const x = df / (df + t2);
   const y = t2 / (df + t2);
   const front = Math.exp(logGammaRatioHalf(a) - 0.5723649429247001 - a * Math.log1p(t2 / df) + 0.5 * Math.log(y)); // ln Γ(½) = ln √π
-  return 0.5 * (x < (a + 1) / (a + 1.5) ? (front * betaFraction(a, 0.5, x)) / a : 1 - (front * betaFraction(0.5, a, y)) / 0.5);
+  return (
+    0.5 *
+    (x < (a + 1) / (a + 1.5) ? (front * betaFraction(a, 0.5, x)) / a : 1 - (front * betaFraction(0.5, a, y)) / 0.5)
+  );
 }
 
 function tDensity(t: number, df: number): number {
@@ -88,11 +91,12 @@ export function tQuantile(p: number, df: number): number {
   const z = normalQuantile(p);
   if (df === Infinity) return z;
   const z2 = z * z;
-  const series = z
-    + (z * (z2 + 1)) / 4 / df
-    + (z * ((5 * z2 + 16) * z2 + 3)) / 96 / df ** 2
-    + (z * (((3 * z2 + 19) * z2 + 17) * z2 - 15)) / 384 / df ** 3
-    + (z * ((((79 * z2 + 776) * z2 + 1482) * z2 - 1920) * z2 - 945)) / 92160 / df ** 4;
+  const series =
+    z +
+    (z * (z2 + 1)) / 4 / df +
+    (z * ((5 * z2 + 16) * z2 + 3)) / 96 / df ** 2 +
+    (z * (((3 * z2 + 19) * z2 + 17) * z2 - 15)) / 384 / df ** 3 +
+    (z * ((((79 * z2 + 776) * z2 + 1482) * z2 - 1920) * z2 - 945)) / 92160 / df ** 4;
   if (df > 1e4) return series;
   let t = df < 1 ? Math.max(series, 1) : series;
   for (let i = 0; i < 100; i++) {

@@ -50,10 +50,16 @@ describe('loadConfig', () => {
 
   it('in production requires a signing secret, refuses the development one and weak ones', () => {
     expect(fails({ NODE_ENV: 'production' })).toMatch(/PLUMBLINE_JWT_SECRET is required/);
-    expect(fails({ NODE_ENV: 'production', PLUMBLINE_JWT_SECRET: DEV_JWT_SECRET })).toMatch(/PLUMBLINE_JWT_SECRET is the development secret/);
-    expect(fails({ NODE_ENV: 'production', PLUMBLINE_JWT_SECRET: randomBytes(16).toString('hex') })).toMatch(/at least 32 random bytes/);
+    expect(fails({ NODE_ENV: 'production', PLUMBLINE_JWT_SECRET: DEV_JWT_SECRET })).toMatch(
+      /PLUMBLINE_JWT_SECRET is the development secret/,
+    );
+    expect(fails({ NODE_ENV: 'production', PLUMBLINE_JWT_SECRET: randomBytes(16).toString('hex') })).toMatch(
+      /at least 32 random bytes/,
+    );
     expect(fails({ NODE_ENV: 'production', PLUMBLINE_JWT_SECRET: 'a'.repeat(64) })).toMatch(/does not look random/);
-    expect(fails({ NODE_ENV: 'production', PLUMBLINE_JWT_SECRET: 'correct horse battery staple and then some more words' })).toMatch(/hex or base64/);
+    expect(
+      fails({ NODE_ENV: 'production', PLUMBLINE_JWT_SECRET: 'correct horse battery staple and then some more words' }),
+    ).toMatch(/hex or base64/);
     const secret = goodSecret();
     const c = loadConfig({ NODE_ENV: 'production', PLUMBLINE_JWT_SECRET: secret });
     expect(c.jwtSecret).toBe(secret);

@@ -2,18 +2,38 @@
 import Papa from 'papaparse';
 import { execFileSync } from 'node:child_process';
 import { describe, expect, it } from 'vitest';
-import { csvCellText, csvRecords, neutraliseFormula, toCsv, type CsvCell } from '../../../server/src/domain/cohorts/csvExport';
+import {
+  csvCellText,
+  csvRecords,
+  neutraliseFormula,
+  toCsv,
+  type CsvCell,
+} from '../../../server/src/domain/cohorts/csvExport';
 
 const csvCell = (v: CsvCell) => csvRecords([[v]]).replace(/\r\n$/, '');
 
 describe('neutraliseFormula', () => {
   // The trigger characters are the ones OWASP lists for CSV injection: = + - @ tab CR.
-  it.each(['=1+1', '+cmd', '-1+2', '@SUM(A1)', '\tx', '\rx', '=HYPERLINK("http://x","y")', "=cmd|' /C calc'!A0", ' =not first', '  +1+1'])('prefixes %j with a quote', (text) => {
+  it.each([
+    '=1+1',
+    '+cmd',
+    '-1+2',
+    '@SUM(A1)',
+    '\tx',
+    '\rx',
+    '=HYPERLINK("http://x","y")',
+    "=cmd|' /C calc'!A0",
+    ' =not first',
+    '  +1+1',
+  ])('prefixes %j with a quote', (text) => {
     expect(neutraliseFormula(text)).toBe(`'${text}`);
   });
-  it.each(['plain', '', '1=1', "'already", 'a-b', 'Birch', '-3.6', '+1', '-0.5e2'])('leaves %j alone (text, or a plain number)', (text) => {
-    expect(neutraliseFormula(text)).toBe(text);
-  });
+  it.each(['plain', '', '1=1', "'already", 'a-b', 'Birch', '-3.6', '+1', '-0.5e2'])(
+    'leaves %j alone (text, or a plain number)',
+    (text) => {
+      expect(neutraliseFormula(text)).toBe(text);
+    },
+  );
 });
 
 describe('csvCell', () => {
@@ -65,9 +85,13 @@ describe('toCsv', () => {
 
   it("is read the same by Python's csv module (an outside RFC 4180 reader)", () => {
     const text = toCsv(['a', 'b', 'c', 'd'], hostile);
-    const out = execFileSync('/usr/bin/python3', ['-c', 'import csv,sys,json; print(json.dumps(list(csv.reader(sys.stdin.read().splitlines(True)))))'], {
-      input: text,
-    }).toString();
+    const out = execFileSync(
+      '/usr/bin/python3',
+      ['-c', 'import csv,sys,json; print(json.dumps(list(csv.reader(sys.stdin.read().splitlines(True)))))'],
+      {
+        input: text,
+      },
+    ).toString();
     const rows = JSON.parse(out) as string[][];
     expect(rows).toHaveLength(4);
     expect(rows.slice(1).map((r) => r.map((c) => c.replace(/^'/, '')))).toEqual(hostile);

@@ -14,8 +14,12 @@ function cohort(n: number) {
     outcome[i] = rand() < risk[i] ? 1 : 0;
   }
   return {
-    cohortVersionId: 'test', n, outcome, lineNo: Int32Array.from({ length: n }, (_, i) => i + 2),
-    columns: { risk }, eventDate: Array.from({ length: n }, (_, i) => (i % 2 ? '2026-01-01' : '2026-04-01')),
+    cohortVersionId: 'test',
+    n,
+    outcome,
+    lineNo: Int32Array.from({ length: n }, (_, i) => i + 2),
+    columns: { risk },
+    eventDate: Array.from({ length: n }, (_, i) => (i % 2 ? '2026-01-01' : '2026-04-01')),
     subgroups: { unit: Array.from({ length: n }, (_, i) => (i % 3 ? 'Alder' : 'Birch')) },
   };
 }
@@ -27,8 +31,17 @@ describe('run progress', () => {
 
   it('counts the bootstrap up to its last replicate while the bar moves forward, and names each step', () => {
     const told: [number, string][] = [];
-    const settings = { ...defaultRunSettings(), bootstrapReplicates: 40, subgroupColumns: ['unit'], siteColumn: 'unit', timeGrouping: 'quarter' as const };
-    computeRunResults({ score: { mode: 'supplied', model: null, probabilityColumn: 'risk' }, data: cohort(400), settings }, (f, m) => told.push([f, m]));
+    const settings = {
+      ...defaultRunSettings(),
+      bootstrapReplicates: 40,
+      subgroupColumns: ['unit'],
+      siteColumn: 'unit',
+      timeGrouping: 'quarter' as const,
+    };
+    computeRunResults(
+      { score: { mode: 'supplied', model: null, probabilityColumn: 'risk' }, data: cohort(400), settings },
+      (f, m) => told.push([f, m]),
+    );
     const messages = told.map(([, m]) => m);
     expect(messages).toContain('Computing bootstrap replicate 40 of 40');
     expect(messages).toContain('Computing subgroups by unit');

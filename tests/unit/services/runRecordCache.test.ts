@@ -5,7 +5,13 @@ import { beforeEach, describe, expect, it } from 'vitest';
 import type { ValidationRun } from '../../../server/src/platform/database/entities/ValidationRun';
 import { clearRunRecordCache, completedRunRecord } from '../../../server/src/domain/runs/runRecordCache';
 
-const record = (id: string, status: string) => ({ id, status, results: { overall: { n: 10, auc: { estimate: 0.7 } } }, settings: { subgroupColumns: [] } }) as unknown as ValidationRun;
+const record = (id: string, status: string) =>
+  ({
+    id,
+    status,
+    results: { overall: { n: 10, auc: { estimate: 0.7 } } },
+    settings: { subgroupColumns: [] },
+  }) as unknown as ValidationRun;
 
 beforeEach(() => clearRunRecordCache());
 
@@ -32,7 +38,11 @@ describe('completed run records in memory', () => {
     await completedRunRecord('c', async () => (loads++, record('c', 'running')));
     await completedRunRecord('c', async () => (loads++, record('c', 'completed')));
     expect(loads).toBe(2);
-    await expect(completedRunRecord('d', async () => { throw new Error('database down'); })).rejects.toThrow('database down');
+    await expect(
+      completedRunRecord('d', async () => {
+        throw new Error('database down');
+      }),
+    ).rejects.toThrow('database down');
     const again = await completedRunRecord('d', async () => record('d', 'completed'));
     expect(again.status).toBe('completed');
   });

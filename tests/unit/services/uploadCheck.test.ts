@@ -28,7 +28,17 @@ function rows(): string[] {
   const units = ['Birch', 'Cedar', 'Alder', 'Rowan', ' Birch ', ''];
   const out: string[] = [];
   for (let i = 0; i < 25_000; i++) {
-    out.push([18 + (i % 70), 1 + (i % 20), i % 3 ? 'yes' : 'no', i % 9 ? 'no' : 'yes', `2025-${String(1 + (i % 12)).padStart(2, '0')}`, units[i % units.length], `n${i % 40}`].join(','));
+    out.push(
+      [
+        18 + (i % 70),
+        1 + (i % 20),
+        i % 3 ? 'yes' : 'no',
+        i % 9 ? 'no' : 'yes',
+        `2025-${String(1 + (i % 12)).padStart(2, '0')}`,
+        units[i % units.length],
+        `n${i % 40}`,
+      ].join(','),
+    );
   }
   // One of each kind of bad row, and lines that are not rows.
   out.splice(10, 0, '45,3,yes,no,2025-01,Birch'); // too few fields
@@ -50,7 +60,16 @@ async function check(text: string) {
   writeFileSync(file, text);
   const copied: Buffer[] = [];
   const result = await checkUploadRows(
-    { path: file, delimiter: ',', headers: HEADER, mapping, predictors, supplied: false, plannedVersionId: '0b7c5d0e-1f2a-4b3c-8d4e-5f6a7b8c9d0e', totalBytes: text.length },
+    {
+      path: file,
+      delimiter: ',',
+      headers: HEADER,
+      mapping,
+      predictors,
+      supplied: false,
+      plannedVersionId: '0b7c5d0e-1f2a-4b3c-8d4e-5f6a7b8c9d0e',
+      totalBytes: text.length,
+    },
     { rows: (b) => void copied.push(b), progress: () => {} },
   );
   return { result, copied: Buffer.concat(copied) };
@@ -67,7 +86,10 @@ describe('row checks: a file with and without quotes gives the same result', () 
     expect(plain.result.accepted + plain.result.rejectedRows).toBe(plain.result.rowsRead);
     // Line numbers count the header and the empty line: the formula row was inserted at index 30 → line 32.
     expect(plain.result.rejections).toContainEqual([32, 'age', '=1+2', 'the cell looks like a spreadsheet formula']);
-    expect(plain.result.rejections.filter((r) => r[1] === '(row)')).toEqual([[12, '(row)', '', 'the row has 6 fields; the header has 7'], [22, '(row)', '', 'the row has 8 fields; the header has 7']]);
+    expect(plain.result.rejections.filter((r) => r[1] === '(row)')).toEqual([
+      [12, '(row)', '', 'the row has 6 fields; the header has 7'],
+      [22, '(row)', '', 'the row has 8 fields; the header has 7'],
+    ]);
     expect(plain.result).toEqual(quoted.result);
     expect(plain.copied.equals(quoted.copied)).toBe(true);
     expect(plain.copied.length).toBeGreaterThan(100_000);
@@ -81,7 +103,16 @@ describe('row checks: a file with and without quotes gives the same result', () 
       const file = path.join(dir, `id${Math.random().toString(36).slice(2)}.csv`);
       writeFileSync(file, `${header}\n${body.join('\n')}\n`);
       const res = await checkUploadRows(
-        { path: file, delimiter: ',', headers: HEADER, mapping: mapped, predictors, supplied: false, plannedVersionId: '0b7c5d0e-1f2a-4b3c-8d4e-5f6a7b8c9d0e', totalBytes: 1 },
+        {
+          path: file,
+          delimiter: ',',
+          headers: HEADER,
+          mapping: mapped,
+          predictors,
+          supplied: false,
+          plannedVersionId: '0b7c5d0e-1f2a-4b3c-8d4e-5f6a7b8c9d0e',
+          totalBytes: 1,
+        },
         { rows: () => {}, progress: () => {} },
       );
       expect(res.refusal?.column).toBe('note');
@@ -104,7 +135,27 @@ describe('row checks: unusual cells give the same result with and without quotes
     { column: 'lab', kind: 'numeric', positiveOnly: false },
     { column: 'flag', kind: 'text', positiveOnly: false },
   ];
-  const labs = ['-1.5', '007', '12345.678', '1e3', '0x10', '0b1', 'Infinity', ' 4', '4 ', '5.', '.5', '1.000000000000001', '99999.5', '0', '-0', '3.25', '', 'abc', '+2'];
+  const labs = [
+    '-1.5',
+    '007',
+    '12345.678',
+    '1e3',
+    '0x10',
+    '0b1',
+    'Infinity',
+    ' 4',
+    '4 ',
+    '5.',
+    '.5',
+    '1.000000000000001',
+    '99999.5',
+    '0',
+    '-0',
+    '3.25',
+    '',
+    'abc',
+    '+2',
+  ];
   const units = ['Ålesund', 'café', ' Birch', 'Birch', '', 'Cedar', 'Birch '];
   const flags = ['yes', 'Yes', 'no', ' no'];
   const periods = ['2025-01', '2025-Q3', '', '2025-13', '2025'];
@@ -114,8 +165,16 @@ describe('row checks: unusual cells give the same result with and without quotes
     // Mostly ordinary rows (so the byte path learns the labels), with the unusual cells mixed in.
     const odd = i % 7 === 0;
     const k = Math.floor(i / 7);
-    body.push([odd ? ages[k % ages.length] : String(20 + (i % 60)), odd ? labs[k % labs.length] : String(i % 50), flags[i % flags.length], i % 5 ? 'no' : 'yes',
-      odd ? periods[k % periods.length] : '2025-02', units[i % units.length]].join(','));
+    body.push(
+      [
+        odd ? ages[k % ages.length] : String(20 + (i % 60)),
+        odd ? labs[k % labs.length] : String(i % 50),
+        flags[i % flags.length],
+        i % 5 ? 'no' : 'yes',
+        odd ? periods[k % periods.length] : '2025-02',
+        units[i % units.length],
+      ].join(','),
+    );
   }
 
   async function run(text: Buffer) {
@@ -123,7 +182,16 @@ describe('row checks: unusual cells give the same result with and without quotes
     writeFileSync(file, text);
     const copied: Buffer[] = [];
     const result = await checkUploadRows(
-      { path: file, delimiter: ',', headers: header, mapping: unusual, predictors: preds, supplied: false, plannedVersionId: '0b7c5d0e-1f2a-4b3c-8d4e-5f6a7b8c9d0e', totalBytes: text.length },
+      {
+        path: file,
+        delimiter: ',',
+        headers: header,
+        mapping: unusual,
+        predictors: preds,
+        supplied: false,
+        plannedVersionId: '0b7c5d0e-1f2a-4b3c-8d4e-5f6a7b8c9d0e',
+        totalBytes: text.length,
+      },
       { rows: (b) => void copied.push(b), progress: () => {} },
     );
     return { result, copied: Buffer.concat(copied) };
@@ -131,7 +199,9 @@ describe('row checks: unusual cells give the same result with and without quotes
 
   it('on signs, leading zeros, long and malformed numbers, padded and non-ASCII labels', async () => {
     const a = await run(Buffer.from(`${header.join(',')}\n${body.join('\n')}\n46,3,yes,no,2025,Cedar`));
-    const b = await run(Buffer.from(`${header.map((h) => `"${h}"`).join(',')}\n${body.join('\n')}\n46,3,yes,no,2025,Cedar`));
+    const b = await run(
+      Buffer.from(`${header.map((h) => `"${h}"`).join(',')}\n${body.join('\n')}\n46,3,yes,no,2025,Cedar`),
+    );
     expect(a.result.refusal).toBeNull();
     expect(a.result.rowsRead).toBe(12_001);
     expect(a.result.rejectedRows).toBeGreaterThan(100);
@@ -139,7 +209,11 @@ describe('row checks: unusual cells give the same result with and without quotes
     expect(a.result).toEqual(b.result);
     expect(a.copied.equals(b.copied)).toBe(true);
     // Only decimal notation is a number: hexadecimal, binary, exponent and Infinity are rejected.
-    for (const odd of ['1e3', '0x10', '0b1', 'Infinity']) expect(a.result.rejections.some((r) => r[1] === 'lab' && r[2] === odd && /decimal number/.test(r[3])), odd).toBe(true);
+    for (const odd of ['1e3', '0x10', '0b1', 'Infinity'])
+      expect(
+        a.result.rejections.some((r) => r[1] === 'lab' && r[2] === odd && /decimal number/.test(r[3])),
+        odd,
+      ).toBe(true);
   });
 
   it('refuses the file on a byte that is not UTF-8 or a NUL after the first rows, naming the line', async () => {
@@ -166,9 +240,18 @@ describe('the screen sample is what the row checks read', () => {
     const { readHeaderAndSample } = await import('../../../server/src/domain/cohorts/csvFile');
     const body = rows();
     body.splice(5, 0, '', '46,2,no,no,2025-03,Ålesund ward,n2', '47,2,no');
-    const expected = { headers: HEADER, sample: body.filter((l) => l !== '').slice(0, 5000).map((l) => l.split(',')) };
-    for (const text of [`\uFEFF${HEADER.join(',')}\r\n${body.join('\r\n')}\r\n`, `${HEADER.join(';')}\n${body.map((l) => l.replace(/,/g, ';')).join('\n')}`,
-      `${HEADER.map((h) => `"${h}"`).join(',')}\n${body.join('\n')}\n`]) {
+    const expected = {
+      headers: HEADER,
+      sample: body
+        .filter((l) => l !== '')
+        .slice(0, 5000)
+        .map((l) => l.split(',')),
+    };
+    for (const text of [
+      `\uFEFF${HEADER.join(',')}\r\n${body.join('\r\n')}\r\n`,
+      `${HEADER.join(';')}\n${body.map((l) => l.replace(/,/g, ';')).join('\n')}`,
+      `${HEADER.map((h) => `"${h}"`).join(',')}\n${body.join('\n')}\n`,
+    ]) {
       const file = path.join(dir, `s${Math.random().toString(36).slice(2)}.csv`);
       writeFileSync(file, text);
       const delimiter = text.startsWith('age;') ? ';' : ',';
@@ -182,13 +265,33 @@ describe('column summaries: the histogram of a large numeric column comes from a
     const header = ['age', 'lab', 'flag', 'died', 'period', 'unit'];
     const n = 60_000;
     // lab runs 0…59,999 in file order, so a sample biased to early or late rows would show as a slope.
-    const lines = Array.from({ length: n }, (_, i) => `${20 + (i % 60)},${i},yes,${i % 5 ? 'no' : 'yes'},2025-02,Birch`);
+    const lines = Array.from(
+      { length: n },
+      (_, i) => `${20 + (i % 60)},${i},yes,${i % 5 ? 'no' : 'yes'},2025-02,Birch`,
+    );
     const file = path.join(dir, `hist${Math.random().toString(36).slice(2)}.csv`);
     writeFileSync(file, `${header.join(',')}\n${lines.join('\n')}\n`);
     const res = await checkUploadRows(
-      { path: file, delimiter: ',', headers: header, mapping: { predictors: { age: 'age', lab: 'lab', flag: 'flag' }, outcome: { column: 'died', positive: ['yes'], negative: ['no'] }, date: null, subgroups: {}, ranges: {} },
-        predictors: [{ column: 'age', kind: 'numeric', positiveOnly: false }, { column: 'lab', kind: 'numeric', positiveOnly: false }, { column: 'flag', kind: 'text', positiveOnly: false }],
-        supplied: false, plannedVersionId: '0b7c5d0e-1f2a-4b3c-8d4e-5f6a7b8c9d0e', totalBytes: 1 },
+      {
+        path: file,
+        delimiter: ',',
+        headers: header,
+        mapping: {
+          predictors: { age: 'age', lab: 'lab', flag: 'flag' },
+          outcome: { column: 'died', positive: ['yes'], negative: ['no'] },
+          date: null,
+          subgroups: {},
+          ranges: {},
+        },
+        predictors: [
+          { column: 'age', kind: 'numeric', positiveOnly: false },
+          { column: 'lab', kind: 'numeric', positiveOnly: false },
+          { column: 'flag', kind: 'text', positiveOnly: false },
+        ],
+        supplied: false,
+        plannedVersionId: '0b7c5d0e-1f2a-4b3c-8d4e-5f6a7b8c9d0e',
+        totalBytes: 1,
+      },
       { rows: () => {}, progress: () => {} },
     );
     const lab = res.columnSummary.lab as { kind: 'numeric'; histogram: { count: number }[]; histogramSampled: boolean };
@@ -209,7 +312,16 @@ describe('line numbers count the lines a quoted field spans', () => {
     const file = path.join(dir, `q${Math.random().toString(36).slice(2)}.csv`);
     writeFileSync(file, text);
     const res = await checkUploadRows(
-      { path: file, delimiter: ',', headers: HEADER, mapping, predictors, supplied: false, plannedVersionId: '0b7c5d0e-1f2a-4b3c-8d4e-5f6a7b8c9d0e', totalBytes: text.length },
+      {
+        path: file,
+        delimiter: ',',
+        headers: HEADER,
+        mapping,
+        predictors,
+        supplied: false,
+        plannedVersionId: '0b7c5d0e-1f2a-4b3c-8d4e-5f6a7b8c9d0e',
+        totalBytes: text.length,
+      },
       { rows: () => {}, progress: () => {} },
     );
     expect(res.rejections).toEqual([[6, 'age', '=1+2', 'the cell looks like a spreadsheet formula']]);

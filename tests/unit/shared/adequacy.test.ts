@@ -41,7 +41,9 @@ describe('adequacyVerdict', () => {
     expect(v.missingForMinimum).toEqual({ events: 1, nonEvents: 0 });
     expect(v.missingForPreferred).toEqual({ events: 101, nonEvents: 50 });
     expect(v.message).toMatch(/Below the minimum of 100 events and 100 non-events \(1 more event needed\)/);
-    expect(adequacyVerdict(150, 120).message).toMatch(/not the preferred 200 of each \(50 more events and 80 more non-events needed\)/);
+    expect(adequacyVerdict(150, 120).message).toMatch(
+      /not the preferred 200 of each \(50 more events and 80 more non-events needed\)/,
+    );
     expect(adequacyVerdict(200, 200).message).toMatch(/^Meets the preferred size/);
   });
 

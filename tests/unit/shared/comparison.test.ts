@@ -19,7 +19,11 @@ describe('comparison sentences', () => {
     expect(netBenefitComparisonSentence(names, 0.1, { estimate: -0.01234, lower: -0.0201, upper: -0.004 })).toBe(
       'At a threshold of 10%, Ward score v1 has the higher net benefit, by 0.0123 (95% CI 0.0040 to 0.0201).',
     );
-    expect(netBenefitComparisonSentence(names, 0.25, { estimate: 0.003, lower: NaN, upper: NaN })).toBe('At a threshold of 25%, Ward score v2 has the higher net benefit, by 0.0030.');
-    expect(netBenefitComparisonSentence(names, 0.25, { estimate: 0, lower: -0.01, upper: 0.01 })).toBe('At a threshold of 25%, Ward score v2 and Ward score v1 have the same net benefit.');
+    expect(netBenefitComparisonSentence(names, 0.25, { estimate: 0.003, lower: NaN, upper: NaN })).toBe(
+      'At a threshold of 25%, Ward score v2 has the higher net benefit, by 0.0030.',
+    );
+    expect(netBenefitComparisonSentence(names, 0.25, { estimate: 0, lower: -0.01, upper: 0.01 })).toBe(
+      'At a threshold of 25%, Ward score v2 and Ward score v1 have the same net benefit.',
+    );
   });
 });

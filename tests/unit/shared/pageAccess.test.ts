@@ -17,7 +17,11 @@ describe('page access (shared/src/access.ts)', () => {
   });
 
   it('gives every page that is not public at least one API route it needs', () => {
-    expect(pages.filter((p) => PAGES[p].access !== 'public' && !['forbidden', 'not-found'].includes(p) && PAGES[p].api.length === 0)).toEqual([]);
+    expect(
+      pages.filter(
+        (p) => PAGES[p].access !== 'public' && !['forbidden', 'not-found'].includes(p) && PAGES[p].api.length === 0,
+      ),
+    ).toEqual([]);
   });
 
   it('opens each page only for roles that may call every API route it needs', () => {
@@ -31,7 +35,8 @@ describe('page access (shared/src/access.ts)', () => {
           continue;
         }
         const allowed = allowedRoles(access);
-        for (const role of pageRoles(page)) if (!allowed.has(role)) refused.push(`${page} opens for ${role}, but ${key} refuses ${role}`);
+        for (const role of pageRoles(page))
+          if (!allowed.has(role)) refused.push(`${page} opens for ${role}, but ${key} refuses ${role}`);
       }
     }
     expect(refused).toEqual([]);

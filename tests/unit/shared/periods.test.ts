@@ -1,6 +1,15 @@
 // Period arithmetic: an uploaded period label is a closed range of calendar days.
 import { describe, expect, it } from 'vitest';
-import { comparePeriodLabels, daysInMonth, formatPeriodRange, parsePeriod, periodCovering, periodLabel, periodStartingOn, wholeMonths } from '@shared/periods';
+import {
+  comparePeriodLabels,
+  daysInMonth,
+  formatPeriodRange,
+  parsePeriod,
+  periodCovering,
+  periodLabel,
+  periodStartingOn,
+  wholeMonths,
+} from '@shared/periods';
 
 describe('parsePeriod', () => {
   it.each([
@@ -28,9 +37,12 @@ describe('parsePeriod', () => {
     expect(daysInMonth(2028, 2)).toBe(29);
   });
 
-  it.each(['2026-13', '2026-00', '2026-Q5', '2026-Q0', '2026-H3', '2026-03-14', '26-Q1', 'March', '', '2026-W14'])('refuses %j', (raw) => {
-    expect(parsePeriod(raw)).toBeNull();
-  });
+  it.each(['2026-13', '2026-00', '2026-Q5', '2026-Q0', '2026-H3', '2026-03-14', '26-Q1', 'March', '', '2026-W14'])(
+    'refuses %j',
+    (raw) => {
+      expect(parsePeriod(raw)).toBeNull();
+    },
+  );
 });
 
 describe('stored starts and cohort ranges', () => {
@@ -71,6 +83,14 @@ describe('stored starts and cohort ranges', () => {
 
   it('orders labels forwards in time, across kinds and year ends', () => {
     const labels = ['2026-Q2', '2026-H1', '2025-12', '2026', '2026-Q1', '2025-Q4', '2026-01'];
-    expect([...labels].sort(comparePeriodLabels)).toEqual(['2025-Q4', '2025-12', '2026-01', '2026-Q1', '2026-H1', '2026', '2026-Q2']);
+    expect([...labels].sort(comparePeriodLabels)).toEqual([
+      '2025-Q4',
+      '2025-12',
+      '2026-01',
+      '2026-Q1',
+      '2026-H1',
+      '2026',
+      '2026-Q2',
+    ]);
   });
 });

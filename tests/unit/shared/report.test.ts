@@ -7,16 +7,60 @@ import { defaultRunSettings } from '@shared/runs';
 
 const est = (estimate: number) => ({ estimate, lower: estimate - 0.1, upper: estimate + 0.1 });
 
-function bundle(over: { thresholds?: unknown[]; periods?: unknown[]; subgroups?: unknown[]; results?: boolean; derived?: boolean } = {}): ReportBundle {
+function bundle(
+  over: {
+    thresholds?: unknown[];
+    periods?: unknown[];
+    subgroups?: unknown[];
+    results?: boolean;
+    derived?: boolean;
+  } = {},
+): ReportBundle {
   const results =
     over.results === false
       ? null
-      : { overall: { n: 100, events: 20, auc: est(0.7), thresholds: over.thresholds ?? [] }, subgroups: over.subgroups ?? [], periods: over.periods ?? [], minSubgroupEvents: 10 };
+      : {
+          overall: { n: 100, events: 20, auc: est(0.7), thresholds: over.thresholds ?? [] },
+          subgroups: over.subgroups ?? [],
+          periods: over.periods ?? [],
+          minSubgroupEvents: 10,
+        };
   return {
     generatedAt: '2026-12-03T10:00:00Z',
-    run: { id: 'r', status: 'completed', engineVersion: '1', settings: defaultRunSettings(), inputsSha256: 'a'.repeat(64), resultsSha256: 'b'.repeat(64), createdAt: null, completedAt: null },
-    score: { name: 'S', version: 1, mode: 'formula', citation: 'Invented (2026)', predicts: 'readmission', horizon: '30 days', forWhom: 'adults', inputs: [{ name: 'age', how: 'linear' }], intercept: -2, clinicalStatus: 'draft', derivedFromRunId: over.derived ? 'r0' : null },
-    cohort: { label: 'Q1', description: '', periodStart: null, periodEnd: null, patients: 100, events: 20, excluded: 0, sourceFilename: 'q1.csv', sourceSha256: 'c'.repeat(64) },
+    run: {
+      id: 'r',
+      status: 'completed',
+      engineVersion: '1',
+      settings: defaultRunSettings(),
+      inputsSha256: 'a'.repeat(64),
+      resultsSha256: 'b'.repeat(64),
+      createdAt: null,
+      completedAt: null,
+    },
+    score: {
+      name: 'S',
+      version: 1,
+      mode: 'formula',
+      citation: 'Invented (2026)',
+      predicts: 'readmission',
+      horizon: '30 days',
+      forWhom: 'adults',
+      inputs: [{ name: 'age', how: 'linear' }],
+      intercept: -2,
+      clinicalStatus: 'draft',
+      derivedFromRunId: over.derived ? 'r0' : null,
+    },
+    cohort: {
+      label: 'Q1',
+      description: '',
+      periodStart: null,
+      periodEnd: null,
+      patients: 100,
+      events: 20,
+      excluded: 0,
+      sourceFilename: 'q1.csv',
+      sourceSha256: 'c'.repeat(64),
+    },
     results,
     methods: [{ name: 'AUC', how: 'DeLong', source: 'DeLong 1988' }],
     reviews: [],
@@ -29,7 +73,10 @@ describe('reportChecklist', () => {
   it('marks the threshold item absent when the run has no threshold table', () => {
     expect(reportContents(bundle()).thresholds).toBe(false);
     expect(item(bundle(), '11')).toMatchObject({ present: false, parts: ['thresholds'] });
-    expect(item(bundle({ thresholds: [{ threshold: 0.1 }] }), '11')).toMatchObject({ present: true, where: 'threshold table' });
+    expect(item(bundle({ thresholds: [{ threshold: 0.1 }] }), '11')).toMatchObject({
+      present: true,
+      where: 'threshold table',
+    });
   });
 
   it('ties every present item to parts the report shows, and never marks what Plumbline does not record', () => {
@@ -69,6 +116,8 @@ describe('describeRunSettings', () => {
     expect(rows[1].value).toBe('1% to 50% in steps of 1% (50 thresholds)');
     expect(rows[4].value).toBe('off');
     expect(rows[6].value).toBe('not grouped by time');
-    expect(describeRunSettings({ ...defaultRunSettings(), bootstrapReplicates: 2000, bootstrapSeed: 7 })[4].value).toBe('2,000 replicates, seed 7');
+    expect(describeRunSettings({ ...defaultRunSettings(), bootstrapReplicates: 2000, bootstrapSeed: 7 })[4].value).toBe(
+      '2,000 replicates, seed 7',
+    );
   });
 });

@@ -1,6 +1,13 @@
 // The shared score schemas: the same rules run in the browser form and on the server.
 import { describe, expect, it } from 'vitest';
-import { changeNoteProblem, createScoreRequest, createScoreVersionRequest, modelFileName, scoreModelFile, updateScoreRequest } from '@shared/scores';
+import {
+  changeNoteProblem,
+  createScoreRequest,
+  createScoreVersionRequest,
+  modelFileName,
+  scoreModelFile,
+  updateScoreRequest,
+} from '@shared/scores';
 
 const meta = {
   name: 'A score',
@@ -13,25 +20,48 @@ const meta = {
 
 describe('createScoreVersionRequest', () => {
   it('reads an imported --model file (no mode) as a formula version and keeps the change note apart', () => {
-    const r = createScoreVersionRequest.parse({ intercept: -1.5, predictors: [{ column: 'age', coefficient: 0.1 }], changeNote: 'import' });
-    expect(r).toEqual({ mode: 'formula', model: { intercept: -1.5, predictors: [{ column: 'age', coefficient: 0.1, transform: 'linear' }] }, changeNote: 'import' });
+    const r = createScoreVersionRequest.parse({
+      intercept: -1.5,
+      predictors: [{ column: 'age', coefficient: 0.1 }],
+      changeNote: 'import',
+    });
+    expect(r).toEqual({
+      mode: 'formula',
+      model: { intercept: -1.5, predictors: [{ column: 'age', coefficient: 0.1, transform: 'linear' }] },
+      changeNote: 'import',
+    });
   });
 
   it('accepts a supplied-probability version', () => {
-    expect(createScoreVersionRequest.parse({ mode: 'supplied', probabilityColumn: ' p_vendor ' })).toEqual({ mode: 'supplied', probabilityColumn: 'p_vendor' });
+    expect(createScoreVersionRequest.parse({ mode: 'supplied', probabilityColumn: ' p_vendor ' })).toEqual({
+      mode: 'supplied',
+      probabilityColumn: 'p_vendor',
+    });
   });
 
-  const refuse = (predictors: unknown[]) => createScoreVersionRequest.safeParse({ mode: 'formula', model: { intercept: 0, predictors } });
+  const refuse = (predictors: unknown[]) =>
+    createScoreVersionRequest.safeParse({ mode: 'formula', model: { intercept: 0, predictors } });
   it.each([
     ['unknown transform', [{ column: 'a', coefficient: 1, transform: 'exp' }], /transform/],
     ['indicator without level', [{ column: 'a', coefficient: 1, transform: 'indicator' }], /needs a level/],
-    ['indicator with a blank level', [{ column: 'a', coefficient: 1, transform: 'indicator', level: ' ' }], /not blank/],
+    [
+      'indicator with a blank level',
+      [{ column: 'a', coefficient: 1, transform: 'indicator', level: ' ' }],
+      /not blank/,
+    ],
     ['knots not ascending', [{ column: 'a', coefficient: 1, transform: 'rcs', knots: [1, 3, 2], term: 1 }], /ascend/],
     ['equal knots', [{ column: 'a', coefficient: 1, transform: 'rcs', knots: [1, 2, 2, 4], term: 1 }], /ascend/],
     ['too few knots', [{ column: 'a', coefficient: 1, transform: 'rcs', knots: [1, 2], term: 1 }], /knots/],
     ['non-finite coefficient', [{ column: 'a', coefficient: Number.POSITIVE_INFINITY }], /coefficient/],
     ['NaN coefficient', [{ column: 'a', coefficient: Number.NaN }], /coefficient/],
-    ['duplicate term', [{ column: 'a', coefficient: 1, transform: 'log' }, { column: 'a', coefficient: 2, transform: 'log' }], /twice/],
+    [
+      'duplicate term',
+      [
+        { column: 'a', coefficient: 1, transform: 'log' },
+        { column: 'a', coefficient: 2, transform: 'log' },
+      ],
+      /twice/,
+    ],
   ])('refuses %s', (_what, predictors, message) => {
     const r = refuse(predictors);
     expect(r.success).toBe(false);
@@ -49,7 +79,15 @@ describe('createScoreVersionRequest', () => {
   });
 
   it('applies the whole-formula rules to a bare model file too', () => {
-    expect(scoreModelFile.safeParse({ intercept: 0, predictors: [{ column: 'a', coefficient: 1 }, { column: 'a', coefficient: 1 }] }).success).toBe(false);
+    expect(
+      scoreModelFile.safeParse({
+        intercept: 0,
+        predictors: [
+          { column: 'a', coefficient: 1 },
+          { column: 'a', coefficient: 1 },
+        ],
+      }).success,
+    ).toBe(false);
     expect(scoreModelFile.safeParse({ intercept: 0, predictors: [] }).success).toBe(true);
   });
 });

@@ -10,7 +10,8 @@ import { validate } from '../../../server/src/stats/index';
 
 const dir = mkdtempSync(join(tmpdir(), 'plumbline-cli-'));
 const rows = ['risk,died,age'];
-for (let i = 0; i < 200; i++) rows.push(`${((i % 19) + 1) / 20},${(i * 37) % 100 < ((i % 19) + 1) * 5 ? 1 : 0},${40 + (i % 50)}`);
+for (let i = 0; i < 200; i++)
+  rows.push(`${((i % 19) + 1) / 20},${(i * 37) % 100 < ((i % 19) + 1) * 5 ? 1 : 0},${40 + (i % 50)}`);
 const good = join(dir, 'cohort.csv');
 writeFileSync(good, rows.join('\n') + '\n');
 const bad = join(dir, 'bad.csv');
@@ -19,17 +20,68 @@ const cli = (args: string[]) => spawnSync('npx', ['tsx', 'server/src/cli/main.ts
 
 describe('plumbline validate', () => {
   it('prints exactly the documented JSON keys', () => {
-    const out = JSON.parse(execFileSync('npx', ['tsx', 'server/src/cli/main.ts', 'validate', '--csv', good, '--outcome', 'died', '--prediction', 'risk', '--thresholds', '0.1,0.3'], { encoding: 'utf8' }));
-    expect(Object.keys(out)).toEqual(['n', 'events', 'auc', 'logLoss', 'logLossTotal', 'brier', 'scaledBrier', 'calibrationIntercept', 'calibrationSlope', 'oe', 'hosmerLemeshow', 'spiegelhalter', 'ici', 'e50', 'e90', 'emax', 'netBenefit', 'thresholds', 'warnings']);
+    const out = JSON.parse(
+      execFileSync(
+        'npx',
+        [
+          'tsx',
+          'server/src/cli/main.ts',
+          'validate',
+          '--csv',
+          good,
+          '--outcome',
+          'died',
+          '--prediction',
+          'risk',
+          '--thresholds',
+          '0.1,0.3',
+        ],
+        { encoding: 'utf8' },
+      ),
+    );
+    expect(Object.keys(out)).toEqual([
+      'n',
+      'events',
+      'auc',
+      'logLoss',
+      'logLossTotal',
+      'brier',
+      'scaledBrier',
+      'calibrationIntercept',
+      'calibrationSlope',
+      'oe',
+      'hosmerLemeshow',
+      'spiegelhalter',
+      'ici',
+      'e50',
+      'e90',
+      'emax',
+      'netBenefit',
+      'thresholds',
+      'warnings',
+    ]);
     expect(out.n).toBe(200);
     expect(Object.keys(out.auc)).toEqual(['estimate', 'lower', 'upper', 'se']);
     expect(Object.keys(out.hosmerLemeshow)).toEqual(['statistic', 'df', 'pValue', 'groups']);
     expect(Object.keys(out.calibrationIntercept)).toEqual(['estimate', 'lower', 'upper', 'se']);
     expect(Object.keys(out.calibrationSlope)).toEqual(['estimate', 'lower', 'upper', 'se']);
-    expect(out.calibrationIntercept.se).toBeCloseTo((out.calibrationIntercept.upper - out.calibrationIntercept.lower) / (2 * 1.959963984540054), 12);
+    expect(out.calibrationIntercept.se).toBeCloseTo(
+      (out.calibrationIntercept.upper - out.calibrationIntercept.lower) / (2 * 1.959963984540054),
+      12,
+    );
     expect(Object.keys(out.netBenefit[0])).toEqual(['threshold', 'model', 'treatAll', 'standardized']);
     expect(out.netBenefit.map((r: { threshold: number }) => r.threshold)).toEqual([0.1, 0.3]);
-    expect(Object.keys(out.thresholds[0])).toEqual(['threshold', 'sensitivity', 'specificity', 'ppv', 'npv', 'tp', 'fp', 'tn', 'fn']);
+    expect(Object.keys(out.thresholds[0])).toEqual([
+      'threshold',
+      'sensitivity',
+      'specificity',
+      'ppv',
+      'npv',
+      'tp',
+      'fp',
+      'tn',
+      'fn',
+    ]);
     expect(Object.keys(out.thresholds[0].sensitivity)).toEqual(['estimate', 'lower', 'upper']);
   });
   it('applies a --model file and prints a table', () => {
@@ -59,39 +111,63 @@ describe('plumbline validate: one-line errors and cautions', () => {
     expect(r.stderr).not.toMatch(/\bat .*\.(ts|js):\d+/); // no stack trace
     return r.stderr;
   };
-  const file = (name: string, text: string) => { const f = join(dir, name); writeFileSync(f, text); return f; };
+  const file = (name: string, text: string) => {
+    const f = join(dir, name);
+    writeFileSync(f, text);
+    return f;
+  };
 
   it('a missing file and a folder', () => {
-    expect(oneLine(cli(['validate', '--csv', join(dir, 'nope.csv'), '--outcome', 'died', '--prediction', 'risk']))).toMatch(/nope\.csv: file not found/);
-    expect(oneLine(cli(['validate', '--csv', dir, '--outcome', 'died', '--prediction', 'risk']))).toMatch(/is a folder, not a CSV file/);
+    expect(
+      oneLine(cli(['validate', '--csv', join(dir, 'nope.csv'), '--outcome', 'died', '--prediction', 'risk'])),
+    ).toMatch(/nope\.csv: file not found/);
+    expect(oneLine(cli(['validate', '--csv', dir, '--outcome', 'died', '--prediction', 'risk']))).toMatch(
+      /is a folder, not a CSV file/,
+    );
   });
   // root reads any file whatever its mode, so this can only be shown as another user.
   it.skipIf(process.getuid?.() === 0)('an unreadable file', () => {
     const f = file('locked.csv', 'risk,died\n0.2,0\n');
     chmodSync(f, 0o000);
-    expect(oneLine(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']))).toMatch(/cannot be read \(permission denied\)/);
+    expect(oneLine(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']))).toMatch(
+      /cannot be read \(permission denied\)/,
+    );
   });
   it('a duplicated column name', () => {
     const f = file('dup.csv', 'died,risk,risk\n0,0.2,0.3\n1,0.4,0.5\n');
-    expect(oneLine(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']))).toMatch(/line 1, column risk: this column name appears more than once/);
+    expect(oneLine(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']))).toMatch(
+      /line 1, column risk: this column name appears more than once/,
+    );
   });
   it.each(['0b1', '0x10', '1e-1', 'Infinity', '.5.5'])('a risk written as %s', (form) => {
     const f = file(`form-${form}.csv`, `died,risk\n0,0.2\n1,${form}\n`);
-    expect(oneLine(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']))).toMatch(/line 3, column risk: predicted probability is not a decimal number/);
+    expect(oneLine(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']))).toMatch(
+      /line 3, column risk: predicted probability is not a decimal number/,
+    );
   });
   it('bytes that are not UTF-8 text', () => {
     const f = join(dir, 'latin1.csv');
     writeFileSync(f, Buffer.from('died,risk\n0,0.2\n1,0.3\xe9\n', 'latin1'));
-    expect(oneLine(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']))).toMatch(/not valid UTF-8.*line 3/);
+    expect(oneLine(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']))).toMatch(
+      /not valid UTF-8.*line 3/,
+    );
   });
   it('a small cohort gets a caution naming the minimum and its source, in the table and the JSON', () => {
     const f = file('tiny.csv', 'died,risk\n0,0.2\n1,0.7\n0,0.1\n');
     const table = cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk', '--format', 'table']);
     expect(table.status, table.stderr).toBe(0);
-    expect(table.stdout.split('\n')[0]).toMatch(/^Caution: small sample: 1 event\(s\) and 2 non-event\(s\), below the minimum of 100 of each \(Vergouwe/);
+    expect(table.stdout.split('\n')[0]).toMatch(
+      /^Caution: small sample: 1 event\(s\) and 2 non-event\(s\), below the minimum of 100 of each \(Vergouwe/,
+    );
     const json = JSON.parse(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']).stdout);
     expect(json.warnings[0]).toMatch(/small sample/);
-    const big = JSON.parse(execFileSync('npx', ['tsx', 'server/src/cli/main.ts', 'validate', '--csv', good, '--outcome', 'died', '--prediction', 'risk'], { encoding: 'utf8' }));
+    const big = JSON.parse(
+      execFileSync(
+        'npx',
+        ['tsx', 'server/src/cli/main.ts', 'validate', '--csv', good, '--outcome', 'died', '--prediction', 'risk'],
+        { encoding: 'utf8' },
+      ),
+    );
     expect(big.events).toBeLessThan(100); // the 200-row file is short of events too
     expect(big.warnings.some((w: string) => /small sample/.test(w))).toBe(true);
   });
@@ -102,7 +178,17 @@ describe('plumbline validate: one-line errors and cautions', () => {
     const f = file('edge.csv', lines.join('\n') + '\n');
     const json = JSON.parse(cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk']).stdout);
     expect(json.auc.upper).toBeGreaterThan(1); // the untruncated interval does reach past 1 on this file
-    const table = cli(['validate', '--csv', f, '--outcome', 'died', '--prediction', 'risk', '--format', 'table']).stdout;
+    const table = cli([
+      'validate',
+      '--csv',
+      f,
+      '--outcome',
+      'died',
+      '--prediction',
+      'risk',
+      '--format',
+      'table',
+    ]).stdout;
     const aucLine = table.split('\n').find((l) => l.startsWith('AUC'))!;
     for (const x of aucLine.match(/\d+\.\d+/g)!.map(Number)) expect(x).toBeLessThanOrEqual(1);
     expect(aucLine).toContain('†');
@@ -133,7 +219,18 @@ describe('plumbline validate: --bootstrap, --group and --site', () => {
   const multi = join(dir, 'multi.csv');
   writeFileSync(multi, lines.join('\n') + '\n');
   const run = (extra: string[]) => {
-    const r = cli(['validate', '--csv', multi, '--outcome', 'died', '--prediction', 'risk', '--thresholds', '0.1,0.2', ...extra]);
+    const r = cli([
+      'validate',
+      '--csv',
+      multi,
+      '--outcome',
+      'died',
+      '--prediction',
+      'risk',
+      '--thresholds',
+      '0.1,0.2',
+      ...extra,
+    ]);
     expect(r.status, r.stderr).toBe(0);
     return r.stdout;
   };
@@ -143,12 +240,26 @@ describe('plumbline validate: --bootstrap, --group and --site', () => {
   it('--bootstrap N --seed S prints the same intervals as the engine, the same again for the same seed', () => {
     const out = JSON.parse(run(['--bootstrap', '60', '--seed', '7']));
     const r = validate(P, Y, { thresholds: [0.1, 0.2], bootstrapReplicates: 60, bootstrapSeed: 7 });
-    expect(Object.keys(out.bootstrap)).toEqual(['replicates', 'seed', 'method', 'brier', 'scaledBrier', 'ici', 'e50', 'e90', 'emax', 'netBenefit', 'calibrationBand']);
+    expect(Object.keys(out.bootstrap)).toEqual([
+      'replicates',
+      'seed',
+      'method',
+      'brier',
+      'scaledBrier',
+      'ici',
+      'e50',
+      'e90',
+      'emax',
+      'netBenefit',
+      'calibrationBand',
+    ]);
     for (const k of ['brier', 'scaledBrier', 'ici', 'e50', 'e90', 'emax']) {
       expect(out.bootstrap[k].lower, k).toBe(r.bootstrap!.intervals[k].lower);
       expect(out.bootstrap[k].upper, k).toBe(r.bootstrap!.intervals[k].upper);
     }
-    expect(out.bootstrap.netBenefit[1].standardized.upper).toBe(r.bootstrap!.intervals['standardizedNetBenefit@0.2'].upper);
+    expect(out.bootstrap.netBenefit[1].standardized.upper).toBe(
+      r.bootstrap!.intervals['standardizedNetBenefit@0.2'].upper,
+    );
     expect(out.bootstrap.calibrationBand.p).toHaveLength(r.calibrationCurve.smoothed.p.length);
     expect(JSON.parse(run(['--bootstrap', '60', '--seed', '7'])).bootstrap).toEqual(out.bootstrap);
     expect(JSON.parse(run(['--bootstrap', '60', '--seed', '8'])).bootstrap.brier).not.toEqual(out.bootstrap.brier);
@@ -166,7 +277,11 @@ describe('plumbline validate: --bootstrap, --group and --site', () => {
     expect(g.levels.map((l: { level: string }) => l.level)).toEqual(['F', 'M']);
     for (const l of g.levels) {
       const idx = sex.flatMap((s, i) => (s === l.level ? [i] : []));
-      const r = validate(Float64Array.from(idx, (i) => p[i]), Uint8Array.from(idx, (i) => y[i]), { thresholds: [0.1, 0.2] });
+      const r = validate(
+        Float64Array.from(idx, (i) => p[i]),
+        Uint8Array.from(idx, (i) => y[i]),
+        { thresholds: [0.1, 0.2] },
+      );
       expect(l.n).toBe(r.n);
       expect(l.auc.estimate).toBe(r.auc.estimate); // the engine on the subset, exactly
       expect(l.calibrationSlope.se).toBe(r.calibrationSlope.converged ? r.calibrationSlope.se : NaN);

@@ -28,9 +28,39 @@ for (let i = 0; i < 400; i++) {
   rows.push([died, ...cells].join(','));
 }
 const gaps = file('gaps.csv', rows.join('\n') + '\n');
-const model = file('score.json', JSON.stringify({ intercept: -6, predictors: [{ column: 'age', coefficient: 0.05 }, { column: 'lactate', coefficient: 0.6 }, { column: 'ward', coefficient: 0.8, transform: 'indicator', level: 'icu' }] }));
+const model = file(
+  'score.json',
+  JSON.stringify({
+    intercept: -6,
+    predictors: [
+      { column: 'age', coefficient: 0.05 },
+      { column: 'lactate', coefficient: 0.6 },
+      { column: 'ward', coefficient: 0.8, transform: 'indicator', level: 'icu' },
+    ],
+  }),
+);
 const base = ['validate', '--csv', gaps, '--outcome', 'died', '--model', model];
-const USUAL_KEYS = ['n', 'events', 'auc', 'logLoss', 'logLossTotal', 'brier', 'scaledBrier', 'calibrationIntercept', 'calibrationSlope', 'oe', 'hosmerLemeshow', 'spiegelhalter', 'ici', 'e50', 'e90', 'emax', 'netBenefit', 'thresholds', 'warnings'];
+const USUAL_KEYS = [
+  'n',
+  'events',
+  'auc',
+  'logLoss',
+  'logLossTotal',
+  'brier',
+  'scaledBrier',
+  'calibrationIntercept',
+  'calibrationSlope',
+  'oe',
+  'hosmerLemeshow',
+  'spiegelhalter',
+  'ici',
+  'e50',
+  'e90',
+  'emax',
+  'netBenefit',
+  'thresholds',
+  'warnings',
+];
 
 describe('plumbline validate --missing mi', () => {
   const run = (seed: string) => {
@@ -45,9 +75,32 @@ describe('plumbline validate --missing mi', () => {
     expect(a.n).toBe(400);
     const md = a.missingData;
     expect(md.rowsWithGaps).toBe(withGaps);
-    expect(md.imputation).toMatchObject({ imputations: 5, iterations: 3, seed: 11, donors: 5, columns: { age: 'predictive mean matching', lactate: 'predictive mean matching', ward: 'multinomial logistic regression' } });
+    expect(md.imputation).toMatchObject({
+      imputations: 5,
+      iterations: 3,
+      seed: 11,
+      donors: 5,
+      columns: {
+        age: 'predictive mean matching',
+        lactate: 'predictive mean matching',
+        ward: 'multinomial logistic regression',
+      },
+    });
     for (const k of ['auc', 'calibrationIntercept', 'calibrationSlope', 'oe']) {
-      expect(Object.keys(md.pooling[k])).toEqual(['estimate', 'lower', 'upper', 'scale', 'pooledOnScale', 'within', 'between', 'total', 'relativeIncrease', 'lambda', 'fmi', 'df']);
+      expect(Object.keys(md.pooling[k])).toEqual([
+        'estimate',
+        'lower',
+        'upper',
+        'scale',
+        'pooledOnScale',
+        'within',
+        'between',
+        'total',
+        'relativeIncrease',
+        'lambda',
+        'fmi',
+        'df',
+      ]);
       expect(md.pooling[k].lower).toBeLessThan(md.pooling[k].estimate);
       expect(md.pooling[k].upper).toBeGreaterThan(md.pooling[k].estimate);
       expect(md.pooling[k].total).toBeCloseTo(md.pooling[k].within + (1 + 1 / 5) * md.pooling[k].between, 12); // Rubin 1987: T = Ū + (1 + 1/m)B
@@ -78,15 +131,65 @@ describe('plumbline validate --missing mi', () => {
 
 describe('plumbline validate --missing mi --imputation-columns', () => {
   it('a complete extra column informs the imputation models; an extra column with a gap is refused with its line', () => {
-    const withSite = file('site.csv', rows.map((line, i) => `${line},${i === 0 ? 'site' : `s${i % 3}`}`).join('\n') + '\n');
-    const out = cli(['validate', '--csv', withSite, '--outcome', 'died', '--model', model, '--missing', 'mi', '--imputations', '3', '--seed', '2', '--imputation-columns', 'site']);
+    const withSite = file(
+      'site.csv',
+      rows.map((line, i) => `${line},${i === 0 ? 'site' : `s${i % 3}`}`).join('\n') + '\n',
+    );
+    const out = cli([
+      'validate',
+      '--csv',
+      withSite,
+      '--outcome',
+      'died',
+      '--model',
+      model,
+      '--missing',
+      'mi',
+      '--imputations',
+      '3',
+      '--seed',
+      '2',
+      '--imputation-columns',
+      'site',
+    ]);
     expect(out.status, out.stderr).toBe(0);
     const j = JSON.parse(out.stdout);
     expect(j.missingData.imputation.extraColumns).toEqual(['site']);
-    const without = JSON.parse(cli(['validate', '--csv', withSite, '--outcome', 'died', '--model', model, '--missing', 'mi', '--imputations', '3', '--seed', '2']).stdout);
+    const without = JSON.parse(
+      cli([
+        'validate',
+        '--csv',
+        withSite,
+        '--outcome',
+        'died',
+        '--model',
+        model,
+        '--missing',
+        'mi',
+        '--imputations',
+        '3',
+        '--seed',
+        '2',
+      ]).stdout,
+    );
     expect(j.missingData.pooling.auc.pooledOnScale).not.toBe(without.missingData.pooling.auc.pooledOnScale); // another model, other draws
-    const gap = file('site-gap.csv', rows.map((line, i) => `${line},${i === 0 ? 'site' : i === 5 ? '' : 's1'}`).join('\n') + '\n');
-    const bad = cli(['validate', '--csv', gap, '--outcome', 'died', '--model', model, '--missing', 'mi', '--imputation-columns', 'site']);
+    const gap = file(
+      'site-gap.csv',
+      rows.map((line, i) => `${line},${i === 0 ? 'site' : i === 5 ? '' : 's1'}`).join('\n') + '\n',
+    );
+    const bad = cli([
+      'validate',
+      '--csv',
+      gap,
+      '--outcome',
+      'died',
+      '--model',
+      model,
+      '--missing',
+      'mi',
+      '--imputation-columns',
+      'site',
+    ]);
     expect(bad.status).toBe(1);
     expect(bad.stderr).toContain(`${gap} line 6, column site: an imputation column must have a value in every row`);
   });

@@ -29,7 +29,9 @@ describe('risk-adjusted CUSUM', () => {
     expect(r.signals).toHaveLength(1);
     expect(r.signals[0].index).toBe(4); // fifth patient, hand calculation above
     expect(r.signals[0].value).toBeCloseTo(1.421663, 5);
-    const values = r.series.filter((s, i, all) => i === all.length - 1 || all[i + 1].index !== s.index).map((s) => s.value);
+    const values = r.series
+      .filter((s, i, all) => i === all.length - 1 || all[i + 1].index !== s.index)
+      .map((s) => s.value);
     const hand = [0.510826, 0.798508, 0.703198, 0.99088, 0, 0]; // after reset at t5
     values.forEach((v, i) => expect(v).toBeCloseTo(hand[i], 5));
     expect(r.finalValue).toBe(0);

@@ -2,12 +2,19 @@
 // minimum are flagged and kept, refused levels are kept with their reason, and the ICI bootstrap is seeded.
 import { describe, expect, it } from 'vitest';
 import { validate } from '../../../server/src/stats/index';
-import { BLANK_LEVEL, performanceByLevel, siteAnalysis, subgroupAnalysis } from '../../../server/src/stats/groupPerformance';
+import {
+  BLANK_LEVEL,
+  performanceByLevel,
+  siteAnalysis,
+  subgroupAnalysis,
+} from '../../../server/src/stats/groupPerformance';
 import { oeFromCounts } from '../../../server/src/stats/observedExpected';
 import { cohort } from '../../reference/tools';
 
 const { p, y } = cohort(1500, 71, { digits: 8 });
-const groups = Array.from({ length: p.length }, (_, i) => (i % 7 === 0 ? 'women 65+' : i % 3 === 0 ? 'men' : i % 11 === 0 ? '' : 'women'));
+const groups = Array.from({ length: p.length }, (_, i) =>
+  i % 7 === 0 ? 'women 65+' : i % 3 === 0 ? 'men' : i % 11 === 0 ? '' : 'women',
+);
 
 function subset(label: string) {
   const idx = groups.flatMap((g, i) => ((g === '' ? BLANK_LEVEL : g) === label ? [i] : []));
@@ -32,10 +39,21 @@ describe('performance by level', () => {
     const ci = r.calibrationIntercept;
     const sl = r.calibrationSlope;
     expect(ci.converged && sl.converged).toBe(true);
-    if (ci.converged) expect(l.calibrationIntercept).toEqual({ estimate: ci.estimate, lower: ci.lower, upper: ci.upper, se: ci.se });
-    if (sl.converged) expect(l.calibrationSlope).toEqual({ estimate: sl.estimate, lower: sl.lower, upper: sl.upper, se: sl.se });
-    expect(l.oe).toEqual({ estimate: r.oe.estimate, lower: r.oe.lower, upper: r.oe.upper, seLog: oeFromCounts(r.oe.observed, r.oe.expected, r.n).seLog });
-    expect(l.ici).toEqual({ estimate: r.ici, lower: r.bootstrap!.intervals.ici.lower, upper: r.bootstrap!.intervals.ici.upper });
+    if (ci.converged)
+      expect(l.calibrationIntercept).toEqual({ estimate: ci.estimate, lower: ci.lower, upper: ci.upper, se: ci.se });
+    if (sl.converged)
+      expect(l.calibrationSlope).toEqual({ estimate: sl.estimate, lower: sl.lower, upper: sl.upper, se: sl.se });
+    expect(l.oe).toEqual({
+      estimate: r.oe.estimate,
+      lower: r.oe.lower,
+      upper: r.oe.upper,
+      seLog: oeFromCounts(r.oe.observed, r.oe.expected, r.n).seLog,
+    });
+    expect(l.ici).toEqual({
+      estimate: r.ici,
+      lower: r.bootstrap!.intervals.ici.lower,
+      upper: r.bootstrap!.intervals.ici.upper,
+    });
     expect(l.ici!.lower).toBeLessThan(l.ici!.upper);
   });
 

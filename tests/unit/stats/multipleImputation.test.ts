@@ -12,14 +12,19 @@ import { poolMetric, poolScalar } from '../../../server/src/stats/rubinsRules';
 /** x1 ~ N(50, 10), x2 correlated with x1, x3 a 3-level category; y from all three; gaps MAR on y and x1. */
 function cohortWithGaps(n: number, seed: number) {
   const r = mulberry32(seed);
-  const x1 = new Float64Array(n), x2 = new Float64Array(n), x3 = new Float64Array(n), y = new Uint8Array(n);
+  const x1 = new Float64Array(n),
+    x2 = new Float64Array(n),
+    x3 = new Float64Array(n),
+    y = new Uint8Array(n);
   for (let i = 0; i < n; i++) {
     x1[i] = 50 + 10 * normalDraw(r);
     x2[i] = (0.5 * (x1[i] - 50)) / 10 + normalDraw(r);
     x3[i] = Math.floor(r() * 3);
     y[i] = r() < 1 / (1 + Math.exp(-(-1.5 + 0.06 * (x1[i] - 50) + 0.5 * x2[i] + 0.4 * x3[i]))) ? 1 : 0;
   }
-  const g1 = Float64Array.from(x1), g2 = Float64Array.from(x2), g3 = Float64Array.from(x3);
+  const g1 = Float64Array.from(x1),
+    g2 = Float64Array.from(x2),
+    g3 = Float64Array.from(x3);
   for (let i = 0; i < n; i++) {
     if (r() < (y[i] ? 0.45 : 0.1)) g1[i] = NaN;
     if (r() < (x1[i] > 55 ? 0.35 : 0.1)) g2[i] = NaN;
@@ -83,7 +88,10 @@ describe('predictive mean matching: the published donor rule (Morris, White & Ro
     const target = Float64Array.from(input.columns[0].values);
     const observed = Uint8Array.from(target, (v) => (Number.isNaN(v) ? 0 : 1));
     const observedValues = new Set(Array.from(target).filter((v) => !Number.isNaN(v)));
-    const design = [Float64Array.from(input.outcome), Float64Array.from(input.columns[1].values, (v) => (Number.isNaN(v) ? 0 : v))];
+    const design = [
+      Float64Array.from(input.outcome),
+      Float64Array.from(input.columns[1].values, (v) => (Number.isNaN(v) ? 0 : v)),
+    ];
     const donors = pmmImpute(target, observed, design, mulberry32(3), 5);
     const gaps = [...observed.keys()].filter((i) => !observed[i]);
     expect(donors.length).toBe(gaps.length);
@@ -195,19 +203,43 @@ describe("Rubin's rules by hand", () => {
 
 describe('validation with gaps: complete cases beside multiple imputation (simulation, seeds stated)', () => {
   // the score is the true model, so on the full data O/E ≈ 1; x1 has gaps, either on the outcome (MAR) or at random (MCAR)
-  const model = { intercept: -1.5 - 0.1 * 50, predictors: [{ column: 'x1', coefficient: 0.1, transform: 'linear' as const }, { column: 'x2', coefficient: 0.5, transform: 'linear' as const }] };
+  const model = {
+    intercept: -1.5 - 0.1 * 50,
+    predictors: [
+      { column: 'x1', coefficient: 0.1, transform: 'linear' as const },
+      { column: 'x2', coefficient: 0.5, transform: 'linear' as const },
+    ],
+  };
   function run(mechanism: 'MAR' | 'MCAR', seed: number) {
     const r = mulberry32(seed);
     const n = 3000;
-    const x1 = new Float64Array(n), x2 = new Float64Array(n), y = new Uint8Array(n);
+    const x1 = new Float64Array(n),
+      x2 = new Float64Array(n),
+      y = new Uint8Array(n);
     for (let i = 0; i < n; i++) {
       x1[i] = 50 + 10 * normalDraw(r);
       x2[i] = 0.05 * (x1[i] - 50) + normalDraw(r);
       y[i] = r() < 1 / (1 + Math.exp(-(-1.5 + 0.1 * (x1[i] - 50) + 0.5 * x2[i]))) ? 1 : 0;
     }
     const g1 = Float64Array.from(x1, (v, i) => (r() < (mechanism === 'MAR' ? (y[i] ? 0.6 : 0.05) : 0.2) ? NaN : v));
-    const full = validateWithGaps(model, y, [{ name: 'x1', kind: 'numeric', values: x1 }, { name: 'x2', kind: 'numeric', values: x2 }], { imputations: 2, iterations: 1, seed: 1, donors: 5 }).completeCase.result!;
-    const gaps = validateWithGaps(model, y, [{ name: 'x1', kind: 'numeric', values: g1 }, { name: 'x2', kind: 'numeric', values: x2 }], { imputations: 10, iterations: 5, seed: seed + 1, donors: 5 });
+    const full = validateWithGaps(
+      model,
+      y,
+      [
+        { name: 'x1', kind: 'numeric', values: x1 },
+        { name: 'x2', kind: 'numeric', values: x2 },
+      ],
+      { imputations: 2, iterations: 1, seed: 1, donors: 5 },
+    ).completeCase.result!;
+    const gaps = validateWithGaps(
+      model,
+      y,
+      [
+        { name: 'x1', kind: 'numeric', values: g1 },
+        { name: 'x2', kind: 'numeric', values: x2 },
+      ],
+      { imputations: 10, iterations: 5, seed: seed + 1, donors: 5 },
+    );
     return { full, gaps };
   }
 
@@ -228,11 +260,17 @@ describe('validation with gaps: complete cases beside multiple imputation (simul
     const cc = gaps.completeCase.result!;
     const p = gaps.imputed.pooled;
     expect(gaps.completeCase.leftOut).toBeGreaterThan(500);
-    for (const [lo, hi] of [[cc.oe.lower, cc.oe.upper], [p.oe.estimateLower, p.oe.estimateUpper]]) {
+    for (const [lo, hi] of [
+      [cc.oe.lower, cc.oe.upper],
+      [p.oe.estimateLower, p.oe.estimateUpper],
+    ]) {
       expect(full.oe.estimate).toBeGreaterThan(lo);
       expect(full.oe.estimate).toBeLessThan(hi);
     }
-    for (const [lo, hi] of [[cc.auc.lower, cc.auc.upper], [p.auc.estimateLower, p.auc.estimateUpper]]) {
+    for (const [lo, hi] of [
+      [cc.auc.lower, cc.auc.upper],
+      [p.auc.estimateLower, p.auc.estimateUpper],
+    ]) {
       expect(full.auc.estimate).toBeGreaterThan(lo);
       expect(full.auc.estimate).toBeLessThan(hi);
     }
@@ -243,12 +281,23 @@ describe('validation with gaps: complete cases beside multiple imputation (simul
     const x1 = Float64Array.from({ length: 500 }, () => 50 + 10 * normalDraw(r));
     const x2 = Float64Array.from({ length: 500 }, () => normalDraw(r));
     const y = Uint8Array.from(x1, (v, i) => (r() < 1 / (1 + Math.exp(-(-6.5 + 0.1 * v + 0.5 * x2[i]))) ? 1 : 0));
-    const a = validateWithGaps(model, y, [{ name: 'x1', kind: 'numeric', values: x1 }, { name: 'x2', kind: 'numeric', values: x2 }], { imputations: 3, iterations: 2, seed: 1, donors: 5 });
+    const a = validateWithGaps(
+      model,
+      y,
+      [
+        { name: 'x1', kind: 'numeric', values: x1 },
+        { name: 'x2', kind: 'numeric', values: x2 },
+      ],
+      { imputations: 3, iterations: 2, seed: 1, donors: 5 },
+    );
     const cc = a.completeCase.result!;
     expect(a.completeCase.leftOut).toBe(0);
     expect(a.imputed.pooled.auc.between).toBe(0); // identical sets: B = 0 (Rubin 1987 §3.1)
     expect(a.imputed.pooled.auc.estimate).toBeCloseTo(cc.auc.estimate, 12);
-    expect(a.imputed.pooled.calibrationSlope!.estimate).toBeCloseTo((cc.calibrationSlope as { estimate: number }).estimate, 12);
+    expect(a.imputed.pooled.calibrationSlope!.estimate).toBeCloseTo(
+      (cc.calibrationSlope as { estimate: number }).estimate,
+      12,
+    );
     expect(a.imputed.pooled.calibrationSlope!.total).toBeCloseTo((cc.calibrationSlope as { se: number }).se ** 2, 12); // T = Ū when B = 0
   });
 });

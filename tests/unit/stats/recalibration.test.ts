@@ -7,7 +7,12 @@ import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import type { ScoreModel } from '@shared/model';
 import { closedTest } from '../../../server/src/stats/closedTest';
-import { interceptUpdate, logisticRecalibration, recalibratedProbabilities, transformModel } from '../../../server/src/stats/recalibration';
+import {
+  interceptUpdate,
+  logisticRecalibration,
+  recalibratedProbabilities,
+  transformModel,
+} from '../../../server/src/stats/recalibration';
 
 function mulberry32(seed: number) {
   return () => {
@@ -75,7 +80,10 @@ describe('recalibration', () => {
     let maxDiff = 0;
     for (let i = 0; i < d.lp.length; i++) {
       const eta =
-        m2.intercept + m2.predictors[0].coefficient * d.age[i] + m2.predictors[1].coefficient * Math.log(d.los[i]) + (d.em[i] === 'yes' ? m2.predictors[2].coefficient : 0);
+        m2.intercept +
+        m2.predictors[0].coefficient * d.age[i] +
+        m2.predictors[1].coefficient * Math.log(d.los[i]) +
+        (d.em[i] === 'yes' ? m2.predictors[2].coefficient : 0);
       maxDiff = Math.max(maxDiff, Math.abs(1 / (1 + Math.exp(-eta)) - direct[i]));
     }
     expect(maxDiff).toBeLessThan(1e-12);

@@ -14,7 +14,11 @@ describe('precisionFor inverts planSampleSize', () => {
   ])('event rate %s, AUC %s', (eventRate, auc, ciWidthAuc, ciWidthOE, ciWidthSlope) => {
     const plan = planSampleSize({ eventRate, auc, ciWidthAuc, ciWidthOE, ciWidthSlope });
     const byCriterion = Object.fromEntries(plan.criteria.map((c) => [c.criterion, c]));
-    for (const [criterion, target] of [['oe', ciWidthOE], ['auc', ciWidthAuc], ['slope', ciWidthSlope]] as const) {
+    for (const [criterion, target] of [
+      ['oe', ciWidthOE],
+      ['auc', ciWidthAuc],
+      ['slope', ciWidthSlope],
+    ] as const) {
       const n = byCriterion[criterion].n;
       const at = precisionFor(n, eventRate, auc)[criterion];
       const below = precisionFor(n - 1, eventRate, auc)[criterion];

@@ -1,6 +1,13 @@
 // Minimum sample size for external validation: Riley RD et al. (2021), Stat Med 40:4230–4251.
 import { describe, expect, it } from 'vitest';
-import { anticipatedLpDistribution, planSampleSize, sampleSizeAuc, sampleSizeOE, sampleSizeSlope, seAuc } from '../../../server/src/stats/sampleSize';
+import {
+  anticipatedLpDistribution,
+  planSampleSize,
+  sampleSizeAuc,
+  sampleSizeOE,
+  sampleSizeSlope,
+  seAuc,
+} from '../../../server/src/stats/sampleSize';
 
 describe('Riley et al. (2021) sample-size criteria', () => {
   it('C statistic: φ = 0.018, C = 0.8, CI width 0.1 → n = 4,252', () => {
@@ -38,7 +45,7 @@ describe('Riley et al. (2021) sample-size criteria', () => {
     }
     const rate = yy.reduce((s, v) => s + v, 0) / n;
     expect(rate).toBeGreaterThan(0.016);
-    expect(rate).toBeLessThan(0.020);
+    expect(rate).toBeLessThan(0.02);
     // Mann–Whitney C by ranks
     const idx = x.map((_, i) => i).sort((a, b) => x[a] - x[b]);
     let rankSum = 0;

@@ -14,7 +14,13 @@ export const DEMO_COHORT_NAME = 'Fernhollow medical discharges (invented demo da
 export const KESTREL_SCORE_NAME = 'Kestrel 30-day Readmission Score';
 
 export const KESTREL_MAPPING: ColumnMappingSpec = {
-  predictors: { age: 'age', length_of_stay: 'length_of_stay', prior_admissions: 'prior_admissions', emergency_admission: 'emergency_admission', charlson_index: 'charlson_index' },
+  predictors: {
+    age: 'age',
+    length_of_stay: 'length_of_stay',
+    prior_admissions: 'prior_admissions',
+    emergency_admission: 'emergency_admission',
+    charlson_index: 'charlson_index',
+  },
   outcome: { column: 'readmitted_30d', positive: ['yes'], negative: ['no'] },
   date: { column: 'discharge_date' },
   subgroups: { sex: 'sex', age_band: 'age_band', unit: 'unit', site: 'site' },
@@ -40,7 +46,9 @@ export async function seedCohorts(): Promise<void> {
     [KESTREL_SCORE_NAME],
   );
   if (!sv.length) {
-    logger.warn(`seedCohorts: score "${KESTREL_SCORE_NAME}" not found; run the score seed first — demo cohorts skipped`);
+    logger.warn(
+      `seedCohorts: score "${KESTREL_SCORE_NAME}" not found; run the score seed first — demo cohorts skipped`,
+    );
     return;
   }
   const [steward] = await dataSource.query(`SELECT id, email, name, role FROM users WHERE email = 'steward@demo.test'`);
@@ -51,7 +59,10 @@ export async function seedCohorts(): Promise<void> {
       const label = `${q.year}-Q${q.quarter}`;
       const cohort = await dataSource.query('SELECT id FROM cohorts WHERE name = $1', [DEMO_COHORT_NAME]);
       if (cohort.length) {
-        const has = await dataSource.query('SELECT 1 FROM cohort_versions WHERE cohort_id = $1 AND label = $2', [cohort[0].id, label]);
+        const has = await dataSource.query('SELECT 1 FROM cohort_versions WHERE cohort_id = $1 AND label = $2', [
+          cohort[0].id,
+          label,
+        ]);
         if (has.length) continue;
       }
       const file = path.join(dir, `fernhollow-${label}.csv`);
@@ -59,13 +70,23 @@ export async function seedCohorts(): Promise<void> {
       const { size } = await import('node:fs/promises').then((m) => m.stat(file));
       const startMonth = (q.quarter - 1) * 3 + 1;
       const end = new Date(Date.UTC(q.year, startMonth + 2, 0)).toISOString().slice(0, 10);
-      const { upload } = await createUpload(steward, { path: file, originalName: `fernhollow-${label}.csv`, sha256, bytes: size },
-        { scoreVersionId: sv[0].id, ...(cohort.length ? { cohortId: cohort[0].id } : { cohortName: DEMO_COHORT_NAME }), label,
-          periodStart: `${q.year}-${String(startMonth).padStart(2, '0')}-01`, periodEnd: end }, 'seed');
+      const { upload } = await createUpload(
+        steward,
+        { path: file, originalName: `fernhollow-${label}.csv`, sha256, bytes: size },
+        {
+          scoreVersionId: sv[0].id,
+          ...(cohort.length ? { cohortId: cohort[0].id } : { cohortName: DEMO_COHORT_NAME }),
+          label,
+          periodStart: `${q.year}-${String(startMonth).padStart(2, '0')}-01`,
+          periodEnd: end,
+        },
+        'seed',
+      );
       await applyMapping(steward, upload.id, KESTREL_MAPPING, 'seed');
       await whenProcessed(upload.id);
       const checked = await getUpload(upload.id);
-      if (checked.status !== 'checked') throw new Error(`seedCohorts: ${label} ended ${checked.status}: ${checked.error}`);
+      if (checked.status !== 'checked')
+        throw new Error(`seedCohorts: ${label} ended ${checked.status}: ${checked.error}`);
       await commitUpload(steward, upload.id, true, 'seed');
     }
   } finally {

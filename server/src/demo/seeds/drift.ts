@@ -13,18 +13,30 @@ const DEFAULT_RULES = [
 ] as const;
 
 export async function seedDrift(): Promise<void> {
-  const scores: { id: string }[] = await dataSource.query('SELECT id FROM scores WHERE name = $1', [KESTREL_SCORE_NAME]);
+  const scores: { id: string }[] = await dataSource.query('SELECT id FROM scores WHERE name = $1', [
+    KESTREL_SCORE_NAME,
+  ]);
   if (!scores.length) {
     logger.warn(`seedDrift: "${KESTREL_SCORE_NAME}" not found; drift rules skipped`);
     return;
   }
   const scoreId = scores[0].id;
-  const [statistician]: { id: string; email: string }[] = await dataSource.query(`SELECT id, email FROM users WHERE email = 'statistician@demo.test'`);
+  const [statistician]: { id: string; email: string }[] = await dataSource.query(
+    `SELECT id, email FROM users WHERE email = 'statistician@demo.test'`,
+  );
   let made = 0;
   for (const rule of DEFAULT_RULES) {
-    const have = await dataSource.query('SELECT 1 FROM alert_rules WHERE score_id = $1 AND kind = $2 LIMIT 1', [scoreId, rule.kind]);
+    const have = await dataSource.query('SELECT 1 FROM alert_rules WHERE score_id = $1 AND kind = $2 LIMIT 1', [
+      scoreId,
+      rule.kind,
+    ]);
     if (have.length) continue;
-    await createAlertRule(statistician ?? null, scoreId, { kind: rule.kind, params: { ...rule.params }, enabled: true }, null);
+    await createAlertRule(
+      statistician ?? null,
+      scoreId,
+      { kind: rule.kind, params: { ...rule.params }, enabled: true },
+      null,
+    );
     made++;
   }
   const versions: { id: string; version: number }[] = await dataSource.query(
@@ -34,5 +46,7 @@ export async function seedDrift(): Promise<void> {
   );
   let alerts = 0;
   for (const v of versions) alerts += (await evaluateAlertsForVersion(v.id)).length;
-  logger.info(`[seed] drift: ${made} alert rule${made === 1 ? '' : 's'} added, ${alerts} new alert${alerts === 1 ? '' : 's'} raised`);
+  logger.info(
+    `[seed] drift: ${made} alert rule${made === 1 ? '' : 's'} added, ${alerts} new alert${alerts === 1 ? '' : 's'} raised`,
+  );
 }

@@ -25,8 +25,12 @@ interface DemoRun {
 /** An invented but consistent reasoning text, written from the run's own figures. */
 function reasoning(r: RunResults, label: string, fit: boolean): string {
   const o = r.overall;
-  const slope = o.calibrationSlope.converged ? `calibration slope ${formatEstimateShort('calibrationSlope', o.calibrationSlope)}` : 'calibration slope not estimable';
-  const citl = o.calibrationIntercept.converged ? `calibration-in-the-large ${formatFigure('calibrationIntercept', o.calibrationIntercept.estimate)}` : 'calibration-in-the-large not estimable';
+  const slope = o.calibrationSlope.converged
+    ? `calibration slope ${formatEstimateShort('calibrationSlope', o.calibrationSlope)}`
+    : 'calibration slope not estimable';
+  const citl = o.calibrationIntercept.converged
+    ? `calibration-in-the-large ${formatFigure('calibrationIntercept', o.calibrationIntercept.estimate)}`
+    : 'calibration-in-the-large not estimable';
   return [
     `${label}: ${formatCount(o.n)} discharges, ${formatCount(o.events)} readmissions.`,
     `AUC ${formatEstimateShort('auc', o.auc)}; ${citl}; ${slope}; O/E ${formatEstimateShort('oe', o.oe)}.`,
@@ -36,7 +40,12 @@ function reasoning(r: RunResults, label: string, fit: boolean): string {
   ].join('\n');
 }
 
-const asActor = (u: { id: string; email: string; name: string; role: AuthUser['role'] }): AuthUser => ({ id: u.id, email: u.email, name: u.name, role: u.role });
+const asActor = (u: { id: string; email: string; name: string; role: AuthUser['role'] }): AuthUser => ({
+  id: u.id,
+  email: u.email,
+  name: u.name,
+  role: u.role,
+});
 
 export async function seedGovernance(): Promise<void> {
   const runs: DemoRun[] = await dataSource.query(
@@ -58,12 +67,22 @@ export async function seedGovernance(): Promise<void> {
   const older = runs[runs.length - 2];
 
   if (older.reviews === 0) {
-    await reviewRun(statistician, older.id, { verdict: 'fit for use', reasoning: reasoning(older.results, older.label, true) }, SEED_IP);
+    await reviewRun(
+      statistician,
+      older.id,
+      { verdict: 'fit for use', reasoning: reasoning(older.results, older.label, true) },
+      SEED_IP,
+    );
   }
   if (older.decided === 0) {
     await signoffRun(chair, older.id, { decision: 'approve', password: DEMO_PASSWORD }, SEED_IP);
   }
   if (newest.reviews === 0) {
-    await reviewRun(statistician, newest.id, { verdict: 'recalibrate first', reasoning: reasoning(newest.results, newest.label, false) }, SEED_IP);
+    await reviewRun(
+      statistician,
+      newest.id,
+      { verdict: 'recalibrate first', reasoning: reasoning(newest.results, newest.label, false) },
+      SEED_IP,
+    );
   }
 }

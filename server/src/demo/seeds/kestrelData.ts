@@ -5,7 +5,19 @@ import { mulberry32 } from '../../stats/bootstrap';
 /** mulberry32, the engine's seeded PRNG (common practice, no source needed for a demo generator). */
 export const seededRandom = mulberry32;
 
-export const KESTREL_HEADER = ['age', 'length_of_stay', 'prior_admissions', 'emergency_admission', 'charlson_index', 'readmitted_30d', 'discharge_date', 'sex', 'age_band', 'unit', 'site'];
+export const KESTREL_HEADER = [
+  'age',
+  'length_of_stay',
+  'prior_admissions',
+  'emergency_admission',
+  'charlson_index',
+  'readmitted_30d',
+  'discharge_date',
+  'sex',
+  'age_band',
+  'unit',
+  'site',
+];
 const UNITS = ['Birch', 'Cedar', 'Alder', 'Rowan'];
 
 /** Kestrel's made-up formula (version 1): logit p = −3.6 + 0.012·age + 0.35·ln LOS + 0.28·prior + 0.45·[emergency] + 0.11·Charlson. */
@@ -50,7 +62,19 @@ export function* kestrelQuarterCsv(q: QuarterSpec): Generator<string> {
     const band = age < 45 ? '18-44' : age < 65 ? '45-64' : age < 80 ? '65-79' : '80+';
     const unit = UNITS[Math.floor(rand() * 4)];
     const site = unit === 'Rowan' || rand() < 0.15 ? 'North annex' : 'Main campus';
-    yield [age > 89 ? '90+' : String(age), los, prior, emergency ? 'yes' : 'no', charlson, y ? 'yes' : 'no', `${q.year}-${String(month).padStart(2, '0')}`, sex, band, unit, site].join(',');
+    yield [
+      age > 89 ? '90+' : String(age),
+      los,
+      prior,
+      emergency ? 'yes' : 'no',
+      charlson,
+      y ? 'yes' : 'no',
+      `${q.year}-${String(month).padStart(2, '0')}`,
+      sex,
+      band,
+      unit,
+      site,
+    ].join(',');
   }
 }
 
@@ -65,7 +89,13 @@ export function demoQuarters(): QuarterSpec[] {
   const out: QuarterSpec[] = [];
   const rand = seededRandom(20240101);
   for (let i = 0; i < 8; i++) {
-    out.push({ year: 2024 + Math.floor(i / 4), quarter: ((i % 4) + 1) as 1 | 2 | 3 | 4, index: i, n: 1500 + Math.floor(rand() * 1001), seed: 1000 + i });
+    out.push({
+      year: 2024 + Math.floor(i / 4),
+      quarter: ((i % 4) + 1) as 1 | 2 | 3 | 4,
+      index: i,
+      n: 1500 + Math.floor(rand() * 1001),
+      seed: 1000 + i,
+    });
   }
   return out;
 }

@@ -28,18 +28,25 @@ export async function seedRuns(): Promise<void> {
     logger.warn('seedRuns: no demo cohort versions; demo runs skipped');
     return;
   }
-  const [statistician]: { id: string }[] = await dataSource.query(`SELECT id FROM users WHERE email = 'statistician@demo.test'`);
+  const [statistician]: { id: string }[] = await dataSource.query(
+    `SELECT id FROM users WHERE email = 'statistician@demo.test'`,
+  );
   let made = 0;
   for (const cv of versions) {
-    const done = await dataSource.query(`SELECT 1 FROM validation_runs WHERE score_version_id = $1 AND cohort_version_id = $2 AND status = 'completed' LIMIT 1`, [
-      sv[0].id,
-      cv.id,
-    ]);
+    const done = await dataSource.query(
+      `SELECT 1 FROM validation_runs WHERE score_version_id = $1 AND cohort_version_id = $2 AND status = 'completed' LIMIT 1`,
+      [sv[0].id, cv.id],
+    );
     if (done.length) continue;
     const present = cv.groups ?? [];
-    const settings = runSettingsSchema.parse({ subgroupColumns: DEMO_GROUPS.filter((g) => present.includes(g)), timeGrouping: 'month' });
+    const settings = runSettingsSchema.parse({
+      subgroupColumns: DEMO_GROUPS.filter((g) => present.includes(g)),
+      timeGrouping: 'month',
+    });
     await recordRunNow(statistician?.id ?? null, sv[0].id, cv.id, settings, { seeded: true });
     made++;
   }
-  logger.info(`[seed] runs: ${made} demo validation run${made === 1 ? '' : 's'} computed (${versions.length - made} already there)`);
+  logger.info(
+    `[seed] runs: ${made} demo validation run${made === 1 ? '' : 's'} computed (${versions.length - made} already there)`,
+  );
 }

@@ -35,25 +35,36 @@ export const KESTREL_V1_MODEL: ScoreModel = {
 /** Version 2: the (fictional) erratum corrected the prior-admissions coefficient from 0.28 to 0.26. */
 export const KESTREL_V2_MODEL: ScoreModel = {
   ...KESTREL_V1_MODEL,
-  predictors: KESTREL_V1_MODEL.predictors.map((p) => (p.column === 'prior_admissions' ? { ...p, coefficient: 0.26 } : p)),
+  predictors: KESTREL_V1_MODEL.predictors.map((p) =>
+    p.column === 'prior_admissions' ? { ...p, coefficient: 0.26 } : p,
+  ),
 };
 
 const KESTREL_VERSIONS = [
   { model: KESTREL_V1_MODEL, changeNote: 'As published (Arkwright & Nandi 2021, fictional).' },
-  { model: KESTREL_V2_MODEL, changeNote: 'Erratum (fictional, 2022): prior_admissions coefficient corrected from 0.28 to 0.26.' },
+  {
+    model: KESTREL_V2_MODEL,
+    changeNote: 'Erratum (fictional, 2022): prior_admissions coefficient corrected from 0.28 to 0.26.',
+  },
 ];
 
 /** Registers the Kestrel score and its versions 1 and 2 through the registry service. Idempotent. */
 export async function seedKestrelScore(): Promise<Score> {
-  const [statistician]: { id: string; email: string }[] = await dataSource.query(`SELECT id, email FROM users WHERE email = 'statistician@demo.test'`);
-  if (!statistician) throw new Error('seedKestrelScore: the demo statistician account is missing; seed the accounts first');
+  const [statistician]: { id: string; email: string }[] = await dataSource.query(
+    `SELECT id, email FROM users WHERE email = 'statistician@demo.test'`,
+  );
+  if (!statistician)
+    throw new Error('seedKestrelScore: the demo statistician account is missing; seed the accounts first');
   const repo = dataSource.getRepository(Score);
   let score = await repo.findOne({ where: { name: KESTREL_SCORE.name } });
   if (!score) {
     await createScore(statistician, KESTREL_SCORE, 'seed');
     score = (await repo.findOne({ where: { name: KESTREL_SCORE.name } }))!;
   }
-  const [{ n }]: { n: number }[] = await dataSource.query('SELECT count(*)::int AS n FROM score_versions WHERE score_id = $1', [score.id]);
+  const [{ n }]: { n: number }[] = await dataSource.query(
+    'SELECT count(*)::int AS n FROM score_versions WHERE score_id = $1',
+    [score.id],
+  );
   for (const v of KESTREL_VERSIONS.slice(n)) {
     await createScoreVersion(statistician, score.id, { mode: 'formula', ...v }, 'seed');
   }

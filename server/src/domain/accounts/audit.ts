@@ -110,11 +110,31 @@ async function verifyLinks(manager: EntityManager): Promise<ChainReport> {
     if (rows.length === 0) break;
     for (const r of rows) {
       count++;
-      if (r.prevHash !== prev) return { ok: false, entries: count, firstBrokenSeq: r.seq, reason: 'link to previous entry broken', head: null };
-      if (entryHash(prev, r) !== r.hash) return { ok: false, entries: count, firstBrokenSeq: r.seq, reason: 'entry content does not match its hash', head: null };
+      if (r.prevHash !== prev)
+        return {
+          ok: false,
+          entries: count,
+          firstBrokenSeq: r.seq,
+          reason: 'link to previous entry broken',
+          head: null,
+        };
+      if (entryHash(prev, r) !== r.hash)
+        return {
+          ok: false,
+          entries: count,
+          firstBrokenSeq: r.seq,
+          reason: 'entry content does not match its hash',
+          head: null,
+        };
       prev = r.hash;
       after = r.seq;
     }
   }
-  return { ok: true, entries: count, firstBrokenSeq: null, reason: null, head: count ? { seq: after, hash: prev } : null };
+  return {
+    ok: true,
+    entries: count,
+    firstBrokenSeq: null,
+    reason: null,
+    head: count ? { seq: after, hash: prev } : null,
+  };
 }

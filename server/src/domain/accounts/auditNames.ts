@@ -25,7 +25,9 @@ const TARGET_NAMES: Record<string, string> = {
 };
 
 /** The entries with `actorName` and `targetName` added (null where nothing is known, e.g. a target since removed). */
-export async function withNames<T extends NamedEntry>(entries: T[]): Promise<(T & { actorName: string | null; targetName: string | null })[]> {
+export async function withNames<T extends NamedEntry>(
+  entries: T[],
+): Promise<(T & { actorName: string | null; targetName: string | null })[]> {
   const byType = new Map<string, Set<string>>();
   const add = (type: string, id: string | null) => {
     if (!id || !TARGET_NAMES[type]) return;

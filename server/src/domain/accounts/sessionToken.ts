@@ -17,12 +17,22 @@ export function signToken(user: Pick<User, 'id' | 'role' | 'tokenVersion'>): str
   return jwt.sign(claims, config.jwtSecret, { algorithm: 'HS256', expiresIn: config.tokenLifetimeSeconds });
 }
 
-export type AccountRow = { id: string; email: string; name: string; role: Role; active: boolean; token_version: number };
+export type AccountRow = {
+  id: string;
+  email: string;
+  name: string;
+  role: Role;
+  active: boolean;
+  token_version: number;
+};
 
 // The account row is read on every request (one indexed lookup), so a deactivation, role change or password change —
 // made through any API process or straight in the database — is refused on the very next request.
 export async function accountForToken(id: string): Promise<AccountRow | undefined> {
   // One plain parameterised query (the query builder cost more than the query itself).
-  const rows: AccountRow[] = await dataSource.query('SELECT id, email, name, role, active, token_version FROM users WHERE id = $1', [id]);
+  const rows: AccountRow[] = await dataSource.query(
+    'SELECT id, email, name, role, active, token_version FROM users WHERE id = $1',
+    [id],
+  );
   return rows[0];
 }

@@ -11,11 +11,18 @@ import { appendAudit } from './audit';
 
 const repo = () => dataSource.getRepository(User);
 
-export const toPublicUser = (u: User): PublicUser => ({ id: u.id, email: u.email, name: u.name, role: u.role, active: u.active });
+export const toPublicUser = (u: User): PublicUser => ({
+  id: u.id,
+  email: u.email,
+  name: u.name,
+  role: u.role,
+  active: u.active,
+});
 
 // One answer for a wrong password, an unknown or inactive e-mail and a locked account, so no answer tells which
 // accounts exist or are locked (the audit trail records the real reason).
-export const GENERIC_LOGIN_FAILURE = 'e-mail or password is not correct, or the account is locked for a while after too many failed sign-ins';
+export const GENERIC_LOGIN_FAILURE =
+  'e-mail or password is not correct, or the account is locked for a while after too many failed sign-ins';
 // Computed once so an unknown e-mail or a locked account costs the same bcrypt time as a wrong password.
 const DUMMY_HASH = bcrypt.hashSync('plumbline-no-such-account', 10);
 
@@ -40,7 +47,8 @@ async function reserveGuess(where: 'email' | 'id', value: string): Promise<Reser
 }
 
 /** A right password: the account's count of failed tries starts again (and a lock taken by this very try ends). */
-const clearFailures = (id: string) => dataSource.query('UPDATE users SET failed_logins = 0, locked_until = NULL WHERE id = $1', [id]);
+const clearFailures = (id: string) =>
+  dataSource.query('UPDATE users SET failed_logins = 0, locked_until = NULL WHERE id = $1', [id]);
 
 export async function login(email: string, password: string, ip: string) {
   const reserved = await reserveGuess('email', email);
@@ -81,20 +89,43 @@ export async function login(email: string, password: string, ip: string) {
  * against the same allowance as sign-in (reserveGuess), so a stolen session cannot guess the password either, and a
  * failure is audited as `<act>.password_failed` (e.g. signature, user.change_password). Throws on failure.
  */
-export async function verifyPasswordFor(actor: AuthUser, password: string, act: { action: string; targetType: string; targetId: string; ip: string; details?: Record<string, unknown> }, wrong: string): Promise<void> {
+export async function verifyPasswordFor(
+  actor: AuthUser,
+  password: string,
+  act: { action: string; targetType: string; targetId: string; ip: string; details?: Record<string, unknown> },
+  wrong: string,
+): Promise<void> {
   const reserved = await reserveGuess('id', actor.id);
   const ok = await bcrypt.compare(password, reserved?.password_hash ?? DUMMY_HASH);
   if (reserved && ok) {
     await clearFailures(reserved.id);
     return;
   }
-  const audit = { actorId: actor.id, actorEmail: actor.email, targetType: act.targetType, targetId: act.targetId, sourceIp: act.ip };
+  const audit = {
+    actorId: actor.id,
+    actorEmail: actor.email,
+    targetType: act.targetType,
+    targetId: act.targetId,
+    sourceIp: act.ip,
+  };
   if (!reserved) {
     await appendAudit({ ...audit, action: `${act.action}.password_locked`, details: { ...act.details } });
-    throw new DomainError('too-many-tries', 'too many wrong passwords: the account is locked for a while; nothing was recorded');
+    throw new DomainError(
+      'too-many-tries',
+      'too many wrong passwords: the account is locked for a while; nothing was recorded',
+    );
   }
-  await appendAudit({ ...audit, action: `${act.action}.password_failed`, details: { ...act.details, failures: reserved.failures } });
-  if (reserved.locks) await appendAudit({ ...audit, action: 'auth.account_locked', details: { reason: `wrong password re-entered (${act.action})`, failures: reserved.failures } });
+  await appendAudit({
+    ...audit,
+    action: `${act.action}.password_failed`,
+    details: { ...act.details, failures: reserved.failures },
+  });
+  if (reserved.locks)
+    await appendAudit({
+      ...audit,
+      action: 'auth.account_locked',
+      details: { reason: `wrong password re-entered (${act.action})`, failures: reserved.failures },
+    });
   throw forbidden(wrong);
 }
 
@@ -110,20 +141,43 @@ export async function getUser(id: string): Promise<User> {
   return user;
 }
 
-export async function createUser(actor: AuthUser, input: { email: string; name: string; role: Role; password: string }, ip: string) {
-  if (await repo().findOne({ where: { email: input.email } })) throw conflict('an account with this e-mail already exists');
+export async function createUser(
+  actor: AuthUser,
+  input: { email: string; name: string; role: Role; password: string },
+  ip: string,
+) {
+  if (await repo().findOne({ where: { email: input.email } }))
+    throw conflict('an account with this e-mail already exists');
   return dataSource.transaction(async (m) => {
-    const user = m.create(User, { email: input.email, name: input.name, role: input.role, passwordHash: await hashPassword(input.password) });
+    const user = m.create(User, {
+      email: input.email,
+      name: input.name,
+      role: input.role,
+      passwordHash: await hashPassword(input.password),
+    });
     await m.save(user);
     await appendAudit(
-      { actorId: actor.id, actorEmail: actor.email, action: 'user.create', targetType: 'user', targetId: user.id, sourceIp: ip, details: { email: user.email, role: user.role } },
+      {
+        actorId: actor.id,
+        actorEmail: actor.email,
+        action: 'user.create',
+        targetType: 'user',
+        targetId: user.id,
+        sourceIp: ip,
+        details: { email: user.email, role: user.role },
+      },
       m,
     );
     return toPublicUser(user);
   });
 }
 
-export async function updateUser(actor: AuthUser, id: string, change: { name?: string; role?: Role; active?: boolean }, ip: string) {
+export async function updateUser(
+  actor: AuthUser,
+  id: string,
+  change: { name?: string; role?: Role; active?: boolean },
+  ip: string,
+) {
   const user = await getUser(id);
   if (actor.id === id && (change.active === false || (change.role && change.role !== 'admin'))) {
     throw conflict('you cannot deactivate yourself or remove your own admin role');
@@ -135,7 +189,15 @@ export async function updateUser(actor: AuthUser, id: string, change: { name?: s
   return dataSource.transaction(async (m) => {
     await m.save(user);
     await appendAudit(
-      { actorId: actor.id, actorEmail: actor.email, action: 'user.update', targetType: 'user', targetId: id, sourceIp: ip, details: { before, after: change } },
+      {
+        actorId: actor.id,
+        actorEmail: actor.email,
+        action: 'user.update',
+        targetType: 'user',
+        targetId: id,
+        sourceIp: ip,
+        details: { before, after: change },
+      },
       m,
     );
     return toPublicUser(user);
@@ -150,18 +212,43 @@ export async function resetPassword(actor: AuthUser, id: string, newPassword: st
   user.lockedUntil = null;
   await dataSource.transaction(async (m) => {
     await m.save(user);
-    await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'user.reset_password', targetType: 'user', targetId: id, sourceIp: ip }, m);
+    await appendAudit(
+      {
+        actorId: actor.id,
+        actorEmail: actor.email,
+        action: 'user.reset_password',
+        targetType: 'user',
+        targetId: id,
+        sourceIp: ip,
+      },
+      m,
+    );
   });
 }
 
 export async function changeOwnPassword(actor: AuthUser, currentPassword: string, newPassword: string, ip: string) {
-  await verifyPasswordFor(actor, currentPassword, { action: 'user.change_password', targetType: 'user', targetId: actor.id, ip }, 'the current password is not correct');
+  await verifyPasswordFor(
+    actor,
+    currentPassword,
+    { action: 'user.change_password', targetType: 'user', targetId: actor.id, ip },
+    'the current password is not correct',
+  );
   const user = await getUser(actor.id);
   user.passwordHash = await hashPassword(newPassword);
   user.tokenVersion += 1;
   await dataSource.transaction(async (m) => {
     await m.save(user);
-    await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'user.change_password', targetType: 'user', targetId: actor.id, sourceIp: ip }, m);
+    await appendAudit(
+      {
+        actorId: actor.id,
+        actorEmail: actor.email,
+        action: 'user.change_password',
+        targetType: 'user',
+        targetId: actor.id,
+        sourceIp: ip,
+      },
+      m,
+    );
   });
   return { token: signToken(user), expiresInSeconds: config.tokenLifetimeSeconds, user: toPublicUser(user) };
 }

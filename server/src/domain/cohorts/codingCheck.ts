@@ -8,22 +8,35 @@ import { isAgeHeader } from './deidentify';
 import { requiredPredictors } from './uploadMapping';
 
 /** The plausible range the row checks apply to a predictor (uploadCheck.ts uses the same defaults). */
-export function plausibleRange(column: string, fileColumn: string | undefined, mapping: ColumnMappingSpec | null, supplied: boolean) {
+export function plausibleRange(
+  column: string,
+  fileColumn: string | undefined,
+  mapping: ColumnMappingSpec | null,
+  supplied: boolean,
+) {
   const set = mapping?.ranges?.[column] ?? {};
   const age = /^age/i.test(column) || (fileColumn ? isAgeHeader(fileColumn) : false);
   return { min: set.min ?? (age || supplied ? 0 : null), max: set.max ?? (age ? 120 : supplied ? 1 : null) };
 }
 
-export function predictorViews(sv: Pick<ScoreVersion, 'mode' | 'model' | 'probabilityColumn'>, mapping: ColumnMappingSpec | null): RequiredPredictorView[] {
+export function predictorViews(
+  sv: Pick<ScoreVersion, 'mode' | 'model' | 'probabilityColumn'>,
+  mapping: ColumnMappingSpec | null,
+): RequiredPredictorView[] {
   const terms = sv.mode === 'formula' ? (sv.model as ScoreModel).predictors : [];
   return requiredPredictors(sv).map((p) => {
     const mine = terms.filter((t) => t.column === p.column);
     return {
       ...p,
       transforms: sv.mode === 'supplied' ? ['supplied probability'] : [...new Set(mine.map((t) => t.transform))],
-      levels: [...new Set(mine.filter((t) => t.transform === 'indicator' && t.level !== undefined).map((t) => t.level!))],
+      levels: [
+        ...new Set(mine.filter((t) => t.transform === 'indicator' && t.level !== undefined).map((t) => t.level!)),
+      ],
       unit: mine.find((t) => t.unit)?.unit ?? null,
-      range: p.kind === 'numeric' ? plausibleRange(p.column, mapping?.predictors[p.column], mapping, sv.mode === 'supplied') : { min: null, max: null },
+      range:
+        p.kind === 'numeric'
+          ? plausibleRange(p.column, mapping?.predictors[p.column], mapping, sv.mode === 'supplied')
+          : { min: null, max: null },
     };
   });
 }
@@ -35,7 +48,11 @@ const quoted = (xs: string[]) => xs.map((x) => `"${x}"`).join(', ');
  * a level only by case or spaces, or more than one label the formula does not name (only one can be the "otherwise").
  * Labels the steward confirmed (mapping.labels) count as named.
  */
-export function codingIssues(predictors: RequiredPredictorView[], mapping: ColumnMappingSpec | null, summary: Record<string, ColumnSummary>): CodingIssue[] {
+export function codingIssues(
+  predictors: RequiredPredictorView[],
+  mapping: ColumnMappingSpec | null,
+  summary: Record<string, ColumnSummary>,
+): CodingIssue[] {
   if (!mapping) return [];
   const out: CodingIssue[] = [];
   for (const p of predictors) {
@@ -48,7 +65,10 @@ export function codingIssues(predictors: RequiredPredictorView[], mapping: Colum
     const unnamed = found.filter((f) => !p.levels.includes(f.value) && !(f.value in confirmed));
     const near = unnamed.filter((f) => p.levels.some((l) => l.trim().toLowerCase() === f.value.trim().toLowerCase()));
     if (!absent.length && !near.length && unnamed.length <= 1) continue;
-    const held = found.slice(0, 8).map((f) => `"${f.value}" (${f.count})`).join(', ');
+    const held = found
+      .slice(0, 8)
+      .map((f) => `"${f.value}" (${f.count})`)
+      .join(', ');
     const why = absent.length
       ? `the formula's level ${quoted(absent)} never occurs`
       : near.length

@@ -36,7 +36,9 @@ export interface BlockRow {
 // count and each field as length + bytes, big-endian; arrays as in array_send, bytea as its bytes. Binary, because
 // array_in (the text input of arrays) measured about 250 ns per element.
 const OID = { int2: 21, int4: 23, text: 25, date: 1082 } as const;
-const SIGNATURE = Buffer.from([0x50, 0x47, 0x43, 0x4f, 0x50, 0x59, 0x0a, 0xff, 0x0d, 0x0a, 0x00, 0, 0, 0, 0, 0, 0, 0, 0]);
+const SIGNATURE = Buffer.from([
+  0x50, 0x47, 0x43, 0x4f, 0x50, 0x59, 0x0a, 0xff, 0x0d, 0x0a, 0x00, 0, 0, 0, 0, 0, 0, 0, 0,
+]);
 const TRAILER = Buffer.from([0xff, 0xff]);
 const PG_EPOCH_DAYS = Date.UTC(2000, 0, 1) / 86_400_000;
 const FIELDS = 14;
@@ -53,15 +55,41 @@ class Bytes {
     this.buf = next;
     this.view = new DataView(next.buffer, next.byteOffset, next.byteLength);
   }
-  i16(v: number) { this.ensure(2); this.view.setInt16(this.at, v); this.at += 2; }
-  i32(v: number) { this.ensure(4); this.view.setInt32(this.at, v); this.at += 4; }
-  f64(v: number) { this.ensure(8); this.view.setFloat64(this.at, v); this.at += 8; }
-  bytes(b: Buffer) { this.ensure(b.length); b.copy(this.buf, this.at); this.at += b.length; }
+  i16(v: number) {
+    this.ensure(2);
+    this.view.setInt16(this.at, v);
+    this.at += 2;
+  }
+  i32(v: number) {
+    this.ensure(4);
+    this.view.setInt32(this.at, v);
+    this.at += 4;
+  }
+  f64(v: number) {
+    this.ensure(8);
+    this.view.setFloat64(this.at, v);
+    this.at += 8;
+  }
+  bytes(b: Buffer) {
+    this.ensure(b.length);
+    b.copy(this.buf, this.at);
+    this.at += b.length;
+  }
   /** Reserves a length word; returns its position for `endField`. */
-  startField(): number { this.i32(0); return this.at; }
-  endField(start: number) { this.view.setInt32(start - 4, this.at - start); }
+  startField(): number {
+    this.i32(0);
+    return this.at;
+  }
+  endField(start: number) {
+    this.view.setInt32(start - 4, this.at - start);
+  }
   // Buffer.from(a Buffer's view) copies element by element; allocUnsafe + copy is one memcpy.
-  take(): Buffer { const out = Buffer.allocUnsafe(this.at); this.buf.copy(out, 0, 0, this.at); this.at = 0; return out; }
+  take(): Buffer {
+    const out = Buffer.allocUnsafe(this.at);
+    this.buf.copy(out, 0, 0, this.at);
+    this.at = 0;
+    return out;
+  }
 }
 
 /** Collects rows and encodes each full block as one binary COPY row. */
@@ -86,7 +114,10 @@ export class BlockWriter {
   private readonly codeOf = new Map<string, number>();
   private readonly dayOf = new Map<string, number>();
 
-  constructor(versionId: string, readonly columns: BlockColumns) {
+  constructor(
+    versionId: string,
+    readonly columns: BlockColumns,
+  ) {
     this.uuid = Buffer.from(versionId.replace(/-/g, ''), 'hex');
     if (this.uuid.length !== 16) throw new Error(`not a uuid: ${versionId}`);
     this.num = columns.num.map(() => new Float64Array(BLOCK_ROWS));
@@ -103,7 +134,14 @@ export class BlockWriter {
   }
 
   /** Adds one row; `num`, `cat`, `sub` in the order of the columns; `date` as YYYY-MM-DD. */
-  add(line: number, outcome: number, date: string | null, num: ArrayLike<number>, cat: ArrayLike<string>, sub: ArrayLike<string | null>): void {
+  add(
+    line: number,
+    outcome: number,
+    date: string | null,
+    num: ArrayLike<number>,
+    cat: ArrayLike<string>,
+    sub: ArrayLike<string | null>,
+  ): void {
     const i = this.n++;
     this.lines[i] = line;
     this.outcomes[i] = outcome;
@@ -137,7 +175,11 @@ export class BlockWriter {
   }
 
   private arrayHeader(o: Bytes, oid: number, count: number, hasNull: boolean) {
-    o.i32(1); o.i32(hasNull ? 1 : 0); o.i32(oid); o.i32(count); o.i32(1);
+    o.i32(1);
+    o.i32(hasNull ? 1 : 0);
+    o.i32(oid);
+    o.i32(count);
+    o.i32(1);
   }
 
   /** A text[] field (column names, the block's levels). */
@@ -164,9 +206,16 @@ export class BlockWriter {
     for (const col of cols) {
       for (let i = 0; i < n; i++) {
         const v = col[i];
-        if (v === null) { o.i32(-1); continue; }
+        if (v === null) {
+          o.i32(-1);
+          continue;
+        }
         let c = codeOf.get(v);
-        if (c === undefined) { c = levels.length; levels.push(v); codeOf.set(v, c); }
+        if (c === undefined) {
+          c = levels.length;
+          levels.push(v);
+          codeOf.set(v, c);
+        }
         o.i32(c);
       }
     }
@@ -176,21 +225,42 @@ export class BlockWriter {
   flush(): Buffer {
     const n = this.n;
     const o = this.out;
-    if (!this.started) { o.bytes(SIGNATURE); this.started = true; }
+    if (!this.started) {
+      o.bytes(SIGNATURE);
+      this.started = true;
+    }
     if (n === 0) return o.take();
     o.i16(FIELDS);
-    o.i32(16); o.bytes(this.uuid);
-    o.i32(4); o.i32(this.block);
-    o.i32(4); o.i32(n);
-    o.i32(4); o.i32(this.dated);
-    let f = o.startField(); this.arrayHeader(o, OID.int4, n, false);
-    for (let i = 0; i < n; i++) { o.i32(4); o.i32(this.lines[i]); }
+    o.i32(16);
+    o.bytes(this.uuid);
+    o.i32(4);
+    o.i32(this.block);
+    o.i32(4);
+    o.i32(n);
+    o.i32(4);
+    o.i32(this.dated);
+    let f = o.startField();
+    this.arrayHeader(o, OID.int4, n, false);
+    for (let i = 0; i < n; i++) {
+      o.i32(4);
+      o.i32(this.lines[i]);
+    }
     o.endField(f);
-    f = o.startField(); this.arrayHeader(o, OID.int2, n, false);
-    for (let i = 0; i < n; i++) { o.i32(2); o.i16(this.outcomes[i]); }
+    f = o.startField();
+    this.arrayHeader(o, OID.int2, n, false);
+    for (let i = 0; i < n; i++) {
+      o.i32(2);
+      o.i16(this.outcomes[i]);
+    }
     o.endField(f);
-    f = o.startField(); this.arrayHeader(o, OID.date, n, this.dated < n);
-    for (let i = 0; i < n; i++) { if (this.hasDate[i]) { o.i32(4); o.i32(this.days[i]); } else o.i32(-1); }
+    f = o.startField();
+    this.arrayHeader(o, OID.date, n, this.dated < n);
+    for (let i = 0; i < n; i++) {
+      if (this.hasDate[i]) {
+        o.i32(4);
+        o.i32(this.days[i]);
+      } else o.i32(-1);
+    }
     o.endField(f);
     this.textArray(o, this.columns.num);
     o.i32(8 * n * this.num.length);
@@ -253,7 +323,7 @@ export const SELECT_BLOCKS_SQL = `SELECT row_count, array_to_json(line_no)::text
 
 /** A block row of SELECT_BLOCKS_SQL with its arrays parsed and its packed columns unpacked. */
 export function parseStoredBlock(r: Record<string, unknown>): StoredBlock {
-  const json = <T,>(v: unknown) => JSON.parse(v as string) as T;
+  const json = <T>(v: unknown) => JSON.parse(v as string) as T;
   const packed = r.num_values as Buffer;
   const num = new Array<number>(packed.length / 8);
   for (let i = 0; i < num.length; i++) num[i] = packed.readDoubleBE(8 * i);
@@ -267,8 +337,15 @@ export function parseStoredBlock(r: Record<string, unknown>): StoredBlock {
     return out;
   };
   return {
-    row_count: r.row_count as number, line_no: json(r.line_no), outcome: json(r.outcome), event_date: json(r.event_date),
-    num_names: r.num_names as string[], num_values: num, cat_names: r.cat_names as string[], cat_values: text(r.cat_codes as Buffer) as string[],
-    sub_names: r.sub_names as string[], sub_values: text(r.sub_codes as Buffer),
+    row_count: r.row_count as number,
+    line_no: json(r.line_no),
+    outcome: json(r.outcome),
+    event_date: json(r.event_date),
+    num_names: r.num_names as string[],
+    num_values: num,
+    cat_names: r.cat_names as string[],
+    cat_values: text(r.cat_codes as Buffer) as string[],
+    sub_names: r.sub_names as string[],
+    sub_values: text(r.sub_codes as Buffer),
   };
 }

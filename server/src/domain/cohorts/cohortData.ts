@@ -38,7 +38,7 @@ export async function loadCohortData(cohortVersionId: string, query: Query = mai
       lineNo[at + i] = b.line_no[i];
       eventDate[at + i] = b.event_date[i];
     }
-    const spread = <T,>(names: string[], values: T[], into: Record<string, T[]>) => {
+    const spread = <T>(names: string[], values: T[], into: Record<string, T[]>) => {
       names.forEach((name, k) => {
         const col = (into[name] ??= new Array(n).fill(null));
         for (let i = 0; i < m; i++) col[at + i] = values[k * m + i];
@@ -53,12 +53,19 @@ export async function loadCohortData(cohortVersionId: string, query: Query = mai
 }
 
 /** The column names a stored version holds, from its first block (no rows are read). */
-export async function cohortColumnNames(cohortVersionId: string, m: { query: (q: string, p: unknown[]) => Promise<unknown> } = dataSource) {
+export async function cohortColumnNames(
+  cohortVersionId: string,
+  m: { query: (q: string, p: unknown[]) => Promise<unknown> } = dataSource,
+) {
   const rows = (await m.query(
     `SELECT num_names, cat_names, sub_names, EXISTS (SELECT 1 FROM cohort_row_blocks d WHERE d.cohort_version_id = $1 AND d.dated_count > 0) AS dated
      FROM cohort_row_blocks WHERE cohort_version_id = $1 ORDER BY block_no LIMIT 1`,
     [cohortVersionId],
   )) as { num_names: string[]; cat_names: string[]; sub_names: string[]; dated: boolean }[];
   const r = rows[0];
-  return { predictors: r ? [...r.num_names, ...r.cat_names] : [], subgroups: r ? r.sub_names : [], hasDates: r?.dated ?? false };
+  return {
+    predictors: r ? [...r.num_names, ...r.cat_names] : [],
+    subgroups: r ? r.sub_names : [],
+    hasDates: r?.dated ?? false,
+  };
 }

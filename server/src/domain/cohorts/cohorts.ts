@@ -8,9 +8,20 @@ import { cohortVersionAdequacy } from '../runs/adequacy';
 import { appendAudit } from '../accounts/audit';
 import { browseRows } from '../../jobs/threads/pool';
 
-const SORTS: Record<string, string> = { name: 'c.name', createdAt: 'c.created_at', versions: 'versions', latestRows: 'latest_rows' };
+const SORTS: Record<string, string> = {
+  name: 'c.name',
+  createdAt: 'c.created_at',
+  versions: 'versions',
+  latestRows: 'latest_rows',
+};
 
-export async function listCohorts(q: { page: number; pageSize: number; search?: string; sortBy: string; sortDir: 'asc' | 'desc' }) {
+export async function listCohorts(q: {
+  page: number;
+  pageSize: number;
+  search?: string;
+  sortBy: string;
+  sortDir: 'asc' | 'desc';
+}) {
   const where = q.search ? `WHERE c.name ILIKE $3 OR c.description ILIKE $3` : '';
   const params: unknown[] = [q.pageSize, (q.page - 1) * q.pageSize];
   if (q.search) params.push(`%${q.search.replace(/[%_\\]/g, (m) => `\\${m}`)}%`);
@@ -25,8 +36,16 @@ export async function listCohorts(q: { page: number; pageSize: number; search?: 
      LIMIT $1 OFFSET $2`,
     params,
   );
-  const [{ n }] = await dataSource.query(`SELECT count(*)::int AS n FROM cohorts c ${q.search ? 'WHERE c.name ILIKE $1 OR c.description ILIKE $1' : ''}`, q.search ? [params[2]] : []);
-  return { cohorts: rows.map(({ latest_rows, ...r }: Record<string, unknown>) => ({ ...r, latestRows: latest_rows })), total: n as number, page: q.page, pageSize: q.pageSize };
+  const [{ n }] = await dataSource.query(
+    `SELECT count(*)::int AS n FROM cohorts c ${q.search ? 'WHERE c.name ILIKE $1 OR c.description ILIKE $1' : ''}`,
+    q.search ? [params[2]] : [],
+  );
+  return {
+    cohorts: rows.map(({ latest_rows, ...r }: Record<string, unknown>) => ({ ...r, latestRows: latest_rows })),
+    total: n as number,
+    page: q.page,
+    pageSize: q.pageSize,
+  };
 }
 
 const VERSION_COLUMNS = `v.id, v.cohort_id AS "cohortId", v.version, v.label, to_char(v.period_start, 'YYYY-MM-DD') AS "periodStart",
@@ -35,7 +54,10 @@ const VERSION_COLUMNS = `v.id, v.cohort_id AS "cohortId", v.version, v.label, to
   v.mapping, v.uploaded_by AS "uploadedBy", u.name AS "uploadedByName", v.created_at AS "createdAt"`;
 
 export async function getCohort(id: string) {
-  const rows = await dataSource.query(`SELECT id, name, description, score_id AS "scoreId", created_at AS "createdAt" FROM cohorts WHERE id = $1`, [id]);
+  const rows = await dataSource.query(
+    `SELECT id, name, description, score_id AS "scoreId", created_at AS "createdAt" FROM cohorts WHERE id = $1`,
+    [id],
+  );
   if (!rows.length) throw notFound('cohort');
   const versions = await dataSource.query(
     `SELECT ${VERSION_COLUMNS} FROM cohort_versions v LEFT JOIN users u ON u.id = v.uploaded_by WHERE v.cohort_id = $1 ORDER BY v.version DESC`,
@@ -61,7 +83,11 @@ async function readCohortVersion(cohortId: string, version: number) {
 }
 
 /** Rows of one version, paged and sorted; sort keys are line_no, outcome, event_date, or a predictor/subgroup key. */
-export async function listCohortRows(cohortId: string, version: number, q: { page: number; pageSize: number; search?: string; sortBy: string; sortDir: 'asc' | 'desc' }) {
+export async function listCohortRows(
+  cohortId: string,
+  version: number,
+  q: { page: number; pageSize: number; search?: string; sortBy: string; sortDir: 'asc' | 'desc' },
+) {
   const v = await readCohortVersion(cohortId, version);
   const mapping = v.mapping as ColumnMappingSpec;
   const predictorKeys = Object.keys(mapping.predictors ?? {});
@@ -72,7 +98,16 @@ export async function listCohortRows(cohortId: string, version: number, q: { pag
   // Loading, sorting and searching happen in the row browser's thread, once per version and order; here only a page.
   // Rows store a period's first day; they show the label the file had (2026-Q2) when the version's periods share one kind.
   const periodKind = (v.mapping as { periodKind?: PeriodKind | null }).periodKind ?? null;
-  const browsed = await browseRows({ cohortVersionId: v.id, rowCount: Number(v.rowCount), sortBy: q.sortBy, sortDir: q.sortDir, search: q.search, periodKind, page: q.page, pageSize: q.pageSize });
+  const browsed = await browseRows({
+    cohortVersionId: v.id,
+    rowCount: Number(v.rowCount),
+    sortBy: q.sortBy,
+    sortDir: q.sortDir,
+    search: q.search,
+    periodKind,
+    page: q.page,
+    pageSize: q.pageSize,
+  });
   const rows = browsed.rows.map((r) => ({ ...r, period: periodLabel(r.eventDate, periodKind) }));
   return { rows, total: browsed.total, page: q.page, pageSize: q.pageSize, predictorKeys, subgroupKeys };
 }
@@ -85,7 +120,11 @@ export async function listMappings(cohortId?: string) {
   );
 }
 
-export async function saveMapping(actor: AuthUser, body: { name: string; cohortId?: string | null; mapping: ColumnMappingSpec }, ip: string) {
+export async function saveMapping(
+  actor: AuthUser,
+  body: { name: string; cohortId?: string | null; mapping: ColumnMappingSpec },
+  ip: string,
+) {
   if (body.cohortId) {
     const found = await dataSource.query('SELECT id FROM cohorts WHERE id = $1', [body.cohortId]);
     if (!found.length) throw notFound('cohort');
@@ -96,7 +135,18 @@ export async function saveMapping(actor: AuthUser, body: { name: string; cohortI
        RETURNING id, name, cohort_id AS "cohortId", mapping, created_at AS "createdAt"`,
       [body.name, body.cohortId ?? null, JSON.stringify(body.mapping), actor.id],
     );
-    await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.mapping.saved', targetType: 'column_mapping', targetId: row.id, sourceIp: ip, details: { name: body.name } }, m);
+    await appendAudit(
+      {
+        actorId: actor.id,
+        actorEmail: actor.email,
+        action: 'cohort.mapping.saved',
+        targetType: 'column_mapping',
+        targetId: row.id,
+        sourceIp: ip,
+        details: { name: body.name },
+      },
+      m,
+    );
     return row;
   });
 }

@@ -32,7 +32,11 @@ function countNewlines(text: string, end = text.length): number {
  * The text of a file, piece by piece: BOM removed, strictly UTF-8; a NUL byte, another binary control character or
  * an invalid byte sequence anywhere throws CsvBytesError naming the line.
  */
-export async function* csvText(path: string, onBytes?: (bytesRead: number) => void, onQuote?: () => void): AsyncGenerator<string> {
+export async function* csvText(
+  path: string,
+  onBytes?: (bytesRead: number) => void,
+  onQuote?: () => void,
+): AsyncGenerator<string> {
   // 64 KB pieces: the records papaparse makes of a piece then die young (1 MB pieces measured 4× the parse CPU, mostly in
   // the garbage collector copying and promoting each live batch).
   const input = createReadStream(path, { highWaterMark: 64 * 1024 });
@@ -54,20 +58,33 @@ export async function* csvText(path: string, onBytes?: (bytesRead: number) => vo
         // The validator only says that bad bytes exist; a lenient decoding shows where (as U+FFFD).
         const lossy = whole.toString('utf8');
         const at = Math.max(0, lossy.indexOf('\uFFFD'));
-        throw new CsvBytesError(`the file is not valid UTF-8 text (line ${line + countNewlines(lossy, at)}); export it as CSV with UTF-8 encoding`);
+        throw new CsvBytesError(
+          `the file is not valid UTF-8 text (line ${line + countNewlines(lossy, at)}); export it as CSV with UTF-8 encoding`,
+        );
       }
-      if (first) { first = false; if (text.charCodeAt(0) === 0xfeff) text = text.slice(1); }
+      if (first) {
+        first = false;
+        if (text.charCodeAt(0) === 0xfeff) text = text.slice(1);
+      }
       const bad = CONTROL.exec(text);
       if (bad) {
         const what = bad[0] === '\0' ? 'a NUL byte' : 'a binary control character';
-        throw new CsvBytesError(`the file is not text: it contains ${what} (line ${line + countNewlines(text, bad.index)}); is it a spreadsheet or a compressed file? export it as CSV, UTF-8`);
+        throw new CsvBytesError(
+          `the file is not text: it contains ${what} (line ${line + countNewlines(text, bad.index)}); is it a spreadsheet or a compressed file? export it as CSV, UTF-8`,
+        );
       }
       line += countNewlines(text);
-      if (onQuote && text.indexOf('"') !== -1) { onQuote(); onQuote = undefined; }
+      if (onQuote && text.indexOf('"') !== -1) {
+        onQuote();
+        onQuote = undefined;
+      }
       onBytes?.(input.bytesRead);
       if (text) yield text;
     }
-    if (carry) throw new CsvBytesError(`the file is not valid UTF-8 text (it ends inside a character, line ${line}); export it as CSV with UTF-8 encoding`);
+    if (carry)
+      throw new CsvBytesError(
+        `the file is not valid UTF-8 text (it ends inside a character, line ${line}); export it as CSV with UTF-8 encoding`,
+      );
   } finally {
     input.destroy();
   }
@@ -95,17 +112,32 @@ export type CsvBatch = string[][] & { quoted?: boolean };
  * rows kept for the row checks, empty lines as [''] (the caller counts line numbers). The file is read only as fast as
  * the batches are taken.
  */
-export async function* csvBatches(path: string, delimiter?: Delimiter, onBytes?: (bytesRead: number) => void): AsyncGenerator<CsvBatch> {
+export async function* csvBatches(
+  path: string,
+  delimiter?: Delimiter,
+  onBytes?: (bytesRead: number) => void,
+): AsyncGenerator<CsvBatch> {
   let quoted = false;
   // Object mode hands papaparse the decoded pieces as they are (a byte stream would encode each to UTF-8 and decode it again).
-  const source = Readable.from(csvText(path, onBytes, () => (quoted = true)), { objectMode: true });
+  const source = Readable.from(
+    csvText(path, onBytes, () => (quoted = true)),
+    { objectMode: true },
+  );
   const batches: CsvBatch[] = [];
   let parser: Papa.Parser | null = null;
   let done = false;
   let failure: unknown = null;
   let wake: (() => void) | null = null;
-  const signal = () => { const w = wake; wake = null; w?.(); };
-  source.on('error', (err) => { failure ??= err; done = true; signal(); });
+  const signal = () => {
+    const w = wake;
+    wake = null;
+    w?.();
+  };
+  source.on('error', (err) => {
+    failure ??= err;
+    done = true;
+    signal();
+  });
   Papa.parse<string[]>(source as unknown as Papa.LocalFile, {
     delimiter: delimiter ?? '',
     quoteChar: '"',
@@ -120,15 +152,25 @@ export async function* csvBatches(path: string, delimiter?: Delimiter, onBytes?:
       batches.push(batch);
       signal();
     },
-    complete() { done = true; signal(); },
-    error(err: Error) { failure ??= err; done = true; signal(); },
+    complete() {
+      done = true;
+      signal();
+    },
+    error(err: Error) {
+      failure ??= err;
+      done = true;
+      signal();
+    },
   });
   try {
     for (;;) {
       const batch = batches.shift();
       if (batch) {
         yield batch;
-        if (!batches.length && !done && parser) { (parser as Papa.Parser).resume(); source.resume(); }
+        if (!batches.length && !done && parser) {
+          (parser as Papa.Parser).resume();
+          source.resume();
+        }
         continue;
       }
       if (failure) throw failure;
@@ -178,7 +220,10 @@ export async function sniffCsv(path: string): Promise<{ delimiter: Delimiter; by
   } finally {
     await fh.close();
   }
-  if (buf.includes(0)) throw new CsvBytesError('the file is not text: it contains NUL bytes (is it a spreadsheet or a compressed file? export it as CSV, UTF-8)');
+  if (buf.includes(0))
+    throw new CsvBytesError(
+      'the file is not text: it contains NUL bytes (is it a spreadsheet or a compressed file? export it as CSV, UTF-8)',
+    );
   // Cut at the last newline so a multi-byte character split by the 64 kB window is not blamed.
   const cut = buf.length < size ? buf.lastIndexOf(0x0a) : buf.length;
   let text: string;
@@ -189,10 +234,13 @@ export async function sniffCsv(path: string): Promise<{ delimiter: Delimiter; by
   }
   text = text.replace(/^\uFEFF/, '');
   if (text.trim() === '') throw unprocessable('the file is empty');
-  if (CONTROL.test(text)) throw new CsvBytesError('the file contains binary control characters; it does not look like a CSV');
+  if (CONTROL.test(text))
+    throw new CsvBytesError('the file contains binary control characters; it does not look like a CSV');
   // The header as papaparse reads it with each candidate separator: the one giving the most columns wins.
-  const fields = (d: string) => (Papa.parse<string[]>(text, { delimiter: d, preview: 1, quoteChar: '"' }).data[0] ?? []).length;
-  const commas = fields(','), semis = fields(';');
+  const fields = (d: string) =>
+    (Papa.parse<string[]>(text, { delimiter: d, preview: 1, quoteChar: '"' }).data[0] ?? []).length;
+  const commas = fields(','),
+    semis = fields(';');
   if (commas <= 1 && semis <= 1) {
     throw unprocessable(
       fields('\t') > 1
@@ -204,7 +252,11 @@ export async function sniffCsv(path: string): Promise<{ delimiter: Delimiter; by
 }
 
 /** The header and the first rows, for the screen and the suggested mapping. */
-export async function readHeaderAndSample(path: string, delimiter: Delimiter, maxRows = 5000): Promise<{ headers: string[]; sample: string[][] }> {
+export async function readHeaderAndSample(
+  path: string,
+  delimiter: Delimiter,
+  maxRows = 5000,
+): Promise<{ headers: string[]; sample: string[][] }> {
   let headers: string[] | null = null;
   const sample: string[][] = [];
   try {
@@ -221,7 +273,8 @@ export async function readHeaderAndSample(path: string, delimiter: Delimiter, ma
     throw unprocessable(`the file could not be read as CSV: ${(err as Error).message.split('\n')[0]}`);
   }
   if (!headers) throw unprocessable('the file is empty');
-  if (headers.some((h) => h === '')) throw unprocessable(`the header has an empty column name (column ${headers.indexOf('') + 1})`);
+  if (headers.some((h) => h === ''))
+    throw unprocessable(`the header has an empty column name (column ${headers.indexOf('') + 1})`);
   const dup = headers.find((h, i) => headers!.indexOf(h) !== i);
   if (dup !== undefined) throw unprocessable(`the header names column "${dup}" twice`);
   if (sample.length === 0) throw unprocessable('the file has a header but no data rows');

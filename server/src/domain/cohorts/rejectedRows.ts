@@ -8,7 +8,12 @@ import { csvBatches, LineNumbers, type Delimiter } from './csvFile';
 
 /** The file columns a mapping reads, in the file's order (the only columns a download may carry). */
 export function mappedColumns(headers: string[], mapping: ColumnMappingSpec): string[] {
-  const used = new Set<string>([...Object.values(mapping.predictors), mapping.outcome.column, ...(mapping.date ? [mapping.date.column] : []), ...Object.values(mapping.subgroups)]);
+  const used = new Set<string>([
+    ...Object.values(mapping.predictors),
+    mapping.outcome.column,
+    ...(mapping.date ? [mapping.date.column] : []),
+    ...Object.values(mapping.subgroups),
+  ]);
   return headers.filter((h) => used.has(h));
 }
 
@@ -61,7 +66,10 @@ export async function* rejectedRowsCsv(src: RejectedRowsSource): AsyncGenerator<
         for (const record of records) {
           const line = numbers.next(record, records.quoted);
           if (!line) continue;
-          if (first) { first = false; continue; }
+          if (first) {
+            first = false;
+            continue;
+          }
           if (line > last) break outer;
           const e = lines.get(line);
           if (e && !e.ragged && record.length === src.headers.length) e.values = idx.map((i) => record[i].trim());
@@ -83,6 +91,9 @@ export async function* rejectedRowsCsv(src: RejectedRowsSource): AsyncGenerator<
 
 /** The distinct rejected line numbers of an upload (for a commit that excludes chosen rows). */
 export async function rejectedLineNumbers(uploadId: string): Promise<number[]> {
-  const rows: { line: number }[] = await dataSource.query('SELECT DISTINCT line_no AS line FROM cohort_upload_rejections WHERE upload_id = $1 ORDER BY line_no', [uploadId]);
+  const rows: { line: number }[] = await dataSource.query(
+    'SELECT DISTINCT line_no AS line FROM cohort_upload_rejections WHERE upload_id = $1 ORDER BY line_no',
+    [uploadId],
+  );
   return rows.map((r) => r.line);
 }

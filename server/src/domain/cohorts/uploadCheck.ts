@@ -72,10 +72,15 @@ class Accumulator {
   private w = 1;
   private nextPick = 0;
   /** inTimeOrder: levels are periods, listed forwards in time rather than by count. */
-  constructor(public readonly asNumber: boolean, private readonly inTimeOrder = false) {}
+  constructor(
+    public readonly asNumber: boolean,
+    private readonly inTimeOrder = false,
+  ) {}
   /** xorshift32 in (0, 1): a seeded reservoir keeps the histogram reproducible for the same file. */
   private rand() {
-    this.seed ^= this.seed << 13; this.seed ^= this.seed >>> 17; this.seed ^= this.seed << 5;
+    this.seed ^= this.seed << 13;
+    this.seed ^= this.seed >>> 17;
+    this.seed ^= this.seed << 5;
     return ((this.seed >>> 0) + 1) / 4294967297;
   }
   private skip() {
@@ -83,7 +88,10 @@ class Accumulator {
     this.nextPick += Math.floor(Math.log(this.rand()) / Math.log(1 - this.w)) + 1;
   }
   add(v: string | number | null) {
-    if (v === null || v === '') { this.missing++; return; }
+    if (v === null || v === '') {
+      this.missing++;
+      return;
+    }
     this.n++;
     if (this.asNumber && typeof v === 'number') {
       const i = this.numeric++;
@@ -92,7 +100,10 @@ class Accumulator {
       this.sum += v;
       if (i < RESERVOIR) {
         this.reservoir.push(v);
-        if (i === RESERVOIR - 1) { this.nextPick = i; this.skip(); }
+        if (i === RESERVOIR - 1) {
+          this.nextPick = i;
+          this.skip();
+        }
       } else if (i === this.nextPick) {
         this.reservoir[Math.floor(this.rand() * RESERVOIR)] = v;
         this.skip();
@@ -101,8 +112,16 @@ class Accumulator {
     }
     const s = String(v);
     const few = this.fewLevels;
-    for (let k = 0; k < few.length; k++) if (few[k] === s) { this.fewCounts[k]++; return; }
-    if (few.length < 16) { few.push(s); this.fewCounts.push(1); return; }
+    for (let k = 0; k < few.length; k++)
+      if (few[k] === s) {
+        this.fewCounts[k]++;
+        return;
+      }
+    if (few.length < 16) {
+      few.push(s);
+      this.fewCounts.push(1);
+      return;
+    }
     const c = this.moreLevels.get(s);
     if (c !== undefined) this.moreLevels.set(s, c + 1);
     else if (few.length + this.moreLevels.size < 1000) this.moreLevels.set(s, 1);
@@ -113,17 +132,34 @@ class Accumulator {
       const histogram: { from: number; to: number; count: number }[] = [];
       if (this.numeric > 0) {
         const width = this.max > this.min ? (this.max - this.min) / bins : 1;
-        for (let b = 0; b < bins; b++) histogram.push({ from: this.min + b * width, to: this.min + (b + 1) * width, count: 0 });
+        for (let b = 0; b < bins; b++)
+          histogram.push({ from: this.min + b * width, to: this.min + (b + 1) * width, count: 0 });
         const scale = this.numeric / this.reservoir.length;
         for (const v of this.reservoir) histogram[Math.min(bins - 1, Math.floor((v - this.min) / width))].count++;
         if (scale !== 1) for (const h of histogram) h.count = Math.round(h.count * scale);
       }
-      return { kind: 'numeric', n: this.n, missing: this.missing, min: this.numeric ? this.min : null, max: this.numeric ? this.max : null,
-        mean: this.numeric ? this.sum / this.numeric : null, histogram, histogramSampled: this.numeric > RESERVOIR };
+      return {
+        kind: 'numeric',
+        n: this.n,
+        missing: this.missing,
+        min: this.numeric ? this.min : null,
+        max: this.numeric ? this.max : null,
+        mean: this.numeric ? this.sum / this.numeric : null,
+        histogram,
+        histogramSampled: this.numeric > RESERVOIR,
+      };
     }
     const counted: [string, number][] = this.fewLevels.map((l, k) => [l, this.fewCounts[k]]);
-    const sorted = [...counted, ...this.moreLevels.entries()].sort(this.inTimeOrder ? (a, b) => comparePeriodLabels(a[0], b[0]) : (a, b) => b[1] - a[1]);
-    return { kind: 'categorical', n: this.n, missing: this.missing, levels: sorted.slice(0, 50).map(([value, count]) => ({ value, count })), otherLevels: Math.max(0, sorted.length - 50) };
+    const sorted = [...counted, ...this.moreLevels.entries()].sort(
+      this.inTimeOrder ? (a, b) => comparePeriodLabels(a[0], b[0]) : (a, b) => b[1] - a[1],
+    );
+    return {
+      kind: 'categorical',
+      n: this.n,
+      missing: this.missing,
+      levels: sorted.slice(0, 50).map(([value, count]) => ({ value, count })),
+      otherLevels: Math.max(0, sorted.length - 50),
+    };
   }
 }
 
@@ -150,16 +186,27 @@ class Interner {
   constructor(private readonly judge: (v: string) => Verdict = () => CLEAN) {}
   intern(v: string): string {
     const few = this.few;
-    for (let i = 0; i < few.length; i++) if (few[i] === v) { this.verdict = this.fewVerdicts[i]; return few[i]; }
-    if (few.length < 16) { this.verdict = this.judge(v); few.push(v); this.fewVerdicts.push(this.verdict); return v; }
+    for (let i = 0; i < few.length; i++)
+      if (few[i] === v) {
+        this.verdict = this.fewVerdicts[i];
+        return few[i];
+      }
+    if (few.length < 16) {
+      this.verdict = this.judge(v);
+      few.push(v);
+      this.fewVerdicts.push(this.verdict);
+      return v;
+    }
     const hit = this.many.get(v);
-    if (hit !== undefined) { this.verdict = hit[1]; return hit[0]; }
+    if (hit !== undefined) {
+      this.verdict = hit[1];
+      return hit[0];
+    }
     this.verdict = this.judge(v);
     if (this.many.size < 50_000) this.many.set(v, [v, this.verdict]);
     return v;
   }
 }
-
 
 /** Short cells of digits and points: no identifier rule can match them (every number rule needs 5+ digits; deidentify.ts). */
 function shortPlainNumber(v: string): boolean {
@@ -180,9 +227,15 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     const age = /^age/i.test(p.column) || isAgeHeader(fileCol);
     const prob = input.supplied;
     return {
-      name: p.column, fileCol, idx: col(fileCol), numeric: p.kind === 'numeric', positiveOnly: p.positiveOnly, age,
+      name: p.column,
+      fileCol,
+      idx: col(fileCol),
+      numeric: p.kind === 'numeric',
+      positiveOnly: p.positiveOnly,
+      age,
       labels: mapping.labels?.[p.column] ? new Map(Object.entries(mapping.labels[p.column])) : null,
-      min: range.min ?? (age ? 0 : prob ? 0 : -Infinity), max: range.max ?? (age ? 120 : prob ? 1 : Infinity),
+      min: range.min ?? (age ? 0 : prob ? 0 : -Infinity),
+      max: range.max ?? (age ? 120 : prob ? 1 : Infinity),
     };
   });
   const outcomeIdx = col(mapping.outcome.column);
@@ -199,7 +252,9 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   const outcomeAcc = summaries.get(`outcome (${mapping.outcome.column})`)!;
   const dateAcc = mapping.date ? summaries.get(`period (${mapping.date.column})`)! : null;
   const subAcc = subs.map((s) => summaries.get(s.name)!);
-  const mappedIdx = [...new Set([...preds.map((p) => p.idx), outcomeIdx, dateIdx, ...subs.map((s) => s.idx)].filter((i) => i >= 0))];
+  const mappedIdx = [
+    ...new Set([...preds.map((p) => p.idx), outcomeIdx, dateIdx, ...subs.map((s) => s.idx)].filter((i) => i >= 0)),
+  ];
   // Numeric predictors take many values (checked cell by cell); the other mapped columns repeat a few levels.
   const numericIdx = new Set(preds.filter((p) => p.numeric).map((p) => p.idx));
   const labelIdx = new Set([...preds.filter((p) => !p.numeric).map((p) => p.idx), ...subs.map((s) => s.idx)]);
@@ -211,7 +266,9 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     return { min: p.min, max: p.max };
   };
   const judgeFor = (i: number) => {
-    const rule = cellRules(headers[i], labelIdx.has(i) && !numericIdx.has(i) ? 'label' : 'number', { sixDigitRange: sixDigitRange(i) });
+    const rule = cellRules(headers[i], labelIdx.has(i) && !numericIdx.has(i) ? 'label' : 'number', {
+      sixDigitRange: sixDigitRange(i),
+    });
     return (raw: string): Verdict => {
       const v = raw.trim();
       const formula = looksLikeFormula(v);
@@ -238,7 +295,11 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
 
   const numPreds = preds.filter((p) => p.numeric);
   const catPreds = preds.filter((p) => !p.numeric);
-  const writer = new BlockWriter(plannedVersionId, { num: numPreds.map((p) => p.name), cat: catPreds.map((p) => p.name), sub: subs.map((s) => s.name) });
+  const writer = new BlockWriter(plannedVersionId, {
+    num: numPreds.map((p) => p.name),
+    cat: catPreds.map((p) => p.name),
+    sub: subs.map((s) => s.name),
+  });
   const numVals = new Float64Array(numPreds.length);
   const catVals: string[] = new Array(catPreds.length);
   const subVals: (string | null)[] = new Array(subs.length);
@@ -250,8 +311,13 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
   // Slot of each predictor in numVals / catVals.
   const slot = preds.map((p) => (p.numeric ? numPreds : catPreds).indexOf(p));
   const periodCache = new Map<string, Period | null>();
-  let rowsRead = 0, accepted = 0, rejectedRows = 0, events = 0;
-  let minDate: string | null = null, maxDate: string | null = null, endDate: string | null = null;
+  let rowsRead = 0,
+    accepted = 0,
+    rejectedRows = 0,
+    events = 0;
+  let minDate: string | null = null,
+    maxDate: string | null = null,
+    endDate: string | null = null;
   const periodKinds = new Set<PeriodKind>();
   const reasonCounts = new Map<string, number>();
   const rejections: Rejection[] = [];
@@ -262,13 +328,21 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     if (rejections.length < MAX_STORED_REJECTIONS) rejections.push([line, column, value.slice(0, 500), reason]);
   };
 
-  const NEXT = 0, STOP = 1, FLUSH = 2;
+  const NEXT = 0,
+    STOP = 1,
+    FLUSH = 2;
   /** One data record: checked, summarised and added to the block writer, or rejected; STOP when the file is refused. */
   const checkRow = (record: string[], line: number): number => {
     rowsRead++;
     if (record.length !== headers.length) {
       // Only the line number and the reason: the row's text (and any extra field) is never kept.
-      reject(line, '(row)', '', `the row has ${record.length} fields; the header has ${headers.length}`, 'wrong number of fields');
+      reject(
+        line,
+        '(row)',
+        '',
+        `the row has ${record.length} fields; the header has ${headers.length}`,
+        'wrong number of fields',
+      );
       rejectedRows++;
       return NEXT;
     }
@@ -280,25 +354,75 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
       const v = cells ? (record[i] = cells.intern(record[i])) : record[i];
       const verdict = cells ? cells.verdict : judgeNumber(j, v);
       if (verdict === CLEAN) continue;
-      if (verdict.hit) { refusal = { column: headers[i], category: verdict.hit.category, reason: `${verdict.hit.reason} (line ${line})` }; return STOP; }
+      if (verdict.hit) {
+        refusal = {
+          column: headers[i],
+          category: verdict.hit.category,
+          reason: `${verdict.hit.reason} (line ${line})`,
+        };
+        return STOP;
+      }
       // A person's name refuses wherever it is and however often it repeats (a patient with several stays repeats too).
-      if (verdict.name) { refusal = { column: headers[i], category: 'names', reason: `holds a value that looks like a personal name (line ${line}); recode the label or remove names` }; return STOP; }
-      if (verdict.formula) { reject(line, headers[i], v.trim(), 'the cell looks like a spreadsheet formula', 'formula-looking cell'); bad = true; }
+      if (verdict.name) {
+        refusal = {
+          column: headers[i],
+          category: 'names',
+          reason: `holds a value that looks like a personal name (line ${line}); recode the label or remove names`,
+        };
+        return STOP;
+      }
+      if (verdict.formula) {
+        reject(line, headers[i], v.trim(), 'the cell looks like a spreadsheet formula', 'formula-looking cell');
+        bad = true;
+      }
     }
-    if (bad) { rejectedRows++; return NEXT; }
+    if (bad) {
+      rejectedRows++;
+      return NEXT;
+    }
 
     for (let k = 0; k < preds.length; k++) {
       const p = preds[k];
       const raw = record[p.idx].trim();
-      if (raw === '') { reject(line, p.fileCol, raw, `missing value for ${p.name}`, `missing ${p.name}`); bad = true; continue; }
+      if (raw === '') {
+        reject(line, p.fileCol, raw, `missing value for ${p.name}`, `missing ${p.name}`);
+        bad = true;
+        continue;
+      }
       if (p.numeric) {
         // Decimal notation only: Number() would also read 0x10, 0b1, 1e3 and Infinity.
         let x = parseDecimal(raw);
-        if (p.age && raw === '90+') x = 90; // the Safe Harbor grouping of ages over 89 enters the formula as 90
-        else if (p.age && ageOver89(raw)) { refusal = { column: p.fileCol, category: 'ages over 89', reason: `holds an age over 89 (line ${line}); group them as "90+"` }; return STOP; }
-        if (!Number.isFinite(x)) { reject(line, p.fileCol, raw, `${p.name} must be a decimal number`, `non-numeric ${p.name}`); bad = true; continue; }
-        if (x < p.min || x > p.max) { reject(line, p.fileCol, raw, `${p.name} must be between ${p.min} and ${p.max}`, `${p.name} out of range`); bad = true; continue; }
-        if (p.positiveOnly && x <= 0) { reject(line, p.fileCol, raw, `${p.name} enters the score as a logarithm and must be above 0`, `${p.name} not above 0`); bad = true; continue; }
+        if (p.age && raw === '90+')
+          x = 90; // the Safe Harbor grouping of ages over 89 enters the formula as 90
+        else if (p.age && ageOver89(raw)) {
+          refusal = {
+            column: p.fileCol,
+            category: 'ages over 89',
+            reason: `holds an age over 89 (line ${line}); group them as "90+"`,
+          };
+          return STOP;
+        }
+        if (!Number.isFinite(x)) {
+          reject(line, p.fileCol, raw, `${p.name} must be a decimal number`, `non-numeric ${p.name}`);
+          bad = true;
+          continue;
+        }
+        if (x < p.min || x > p.max) {
+          reject(line, p.fileCol, raw, `${p.name} must be between ${p.min} and ${p.max}`, `${p.name} out of range`);
+          bad = true;
+          continue;
+        }
+        if (p.positiveOnly && x <= 0) {
+          reject(
+            line,
+            p.fileCol,
+            raw,
+            `${p.name} enters the score as a logarithm and must be above 0`,
+            `${p.name} not above 0`,
+          );
+          bad = true;
+          continue;
+        }
         numVals[slot[k]] = x;
       } else {
         const v = catIntern[slot[k]].intern(raw);
@@ -315,7 +439,13 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
       if (outcomeOf.size < 1000) outcomeOf.set(yRaw, y);
     }
     if (y < 0) {
-      reject(line, mapping.outcome.column, yRaw, yRaw === '' ? 'missing outcome' : `the outcome must be one of ${[...pos, ...neg].join(', ')}`, yRaw === '' ? 'missing outcome' : 'outcome not a known label');
+      reject(
+        line,
+        mapping.outcome.column,
+        yRaw,
+        yRaw === '' ? 'missing outcome' : `the outcome must be one of ${[...pos, ...neg].join(', ')}`,
+        yRaw === '' ? 'missing outcome' : 'outcome not a known label',
+      );
       bad = true;
     }
     let date: Period | null = null;
@@ -323,11 +453,26 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
       const d = dateIntern.intern(record[dateIdx].trim());
       if (d !== '') {
         date = periodCache.get(d) ?? null;
-        if (date === null && !periodCache.has(d)) { date = parsePeriod(d); if (periodCache.size < 10_000) periodCache.set(d, date); }
-        if (!date) { reject(line, mapping.date!.column, d, 'the period must be YYYY-MM, YYYY-Qn, YYYY-Hn or YYYY', 'unreadable period'); bad = true; }
+        if (date === null && !periodCache.has(d)) {
+          date = parsePeriod(d);
+          if (periodCache.size < 10_000) periodCache.set(d, date);
+        }
+        if (!date) {
+          reject(
+            line,
+            mapping.date!.column,
+            d,
+            'the period must be YYYY-MM, YYYY-Qn, YYYY-Hn or YYYY',
+            'unreadable period',
+          );
+          bad = true;
+        }
       }
     }
-    if (bad) { rejectedRows++; return NEXT; }
+    if (bad) {
+      rejectedRows++;
+      return NEXT;
+    }
 
     for (let k = 0; k < subs.length; k++) {
       const v = record[subs[k].idx].trim();
@@ -370,7 +515,10 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
       for (const record of records) {
         const line = lines.next(record, records.quoted);
         if (!line) continue;
-        if (first) { first = false; continue; }
+        if (first) {
+          first = false;
+          continue;
+        }
         const r = checkRow(record, line);
         if (r === STOP) break outer;
         if (r === FLUSH) await sink.rows(writer.flush());
@@ -385,10 +533,16 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     await batches.return(undefined);
   }
   return {
-    refusal, rowsRead, accepted, rejectedRows, events,
+    refusal,
+    rowsRead,
+    accepted,
+    rejectedRows,
+    events,
     reasonCounts: [...reasonCounts.entries()].map(([reason, count]) => ({ reason, count })),
     columnSummary: Object.fromEntries([...summaries.entries()].map(([k, a]) => [k, a.summary()])),
-    eventPeriod: minDate ? { min: minDate, max: maxDate!, end: endDate!, kind: periodKinds.size === 1 ? [...periodKinds][0] : null } : null,
+    eventPeriod: minDate
+      ? { min: minDate, max: maxDate!, end: endDate!, kind: periodKinds.size === 1 ? [...periodKinds][0] : null }
+      : null,
     rejections,
   };
 }

@@ -9,7 +9,9 @@ import { toCsv } from '@shared/csv';
 import type { RequiredPredictor } from './uploadCheck';
 
 /** The columns a score version reads from a cohort, one entry per distinct column. */
-export function requiredPredictors(sv: Pick<ScoreVersion, 'mode' | 'model' | 'probabilityColumn'>): RequiredPredictor[] {
+export function requiredPredictors(
+  sv: Pick<ScoreVersion, 'mode' | 'model' | 'probabilityColumn'>,
+): RequiredPredictor[] {
   if (sv.mode === 'supplied') return [{ column: sv.probabilityColumn!, kind: 'numeric', positiveOnly: false }];
   const out = new Map<string, RequiredPredictor>();
   for (const p of (sv.model as ScoreModel).predictors) {
@@ -29,7 +31,11 @@ export function cohortTemplateCsv(sv: Pick<ScoreVersion, 'mode' | 'model' | 'pro
 const normName = (s: string) => s.toLowerCase().replace(/[^a-z0-9]/g, '');
 
 /** A first guess the steward corrects: same names, usual outcome and period columns, usual subgroup names. */
-export function suggestMapping(headers: string[], sample: string[][], required: RequiredPredictor[]): ColumnMappingSpec {
+export function suggestMapping(
+  headers: string[],
+  sample: string[][],
+  required: RequiredPredictor[],
+): ColumnMappingSpec {
   const byNorm = new Map(headers.map((h) => [normName(h), h]));
   const find = (...names: string[]) => {
     for (const n of names) if (byNorm.has(normName(n))) return byNorm.get(normName(n))!;
@@ -40,7 +46,8 @@ export function suggestMapping(headers: string[], sample: string[][], required: 
     const h = byNorm.get(normName(r.column)) ?? headers.find((x) => normName(x).includes(normName(r.column)));
     if (h) predictors[r.column] = h;
   }
-  const outcomeCol = find('outcome', 'readmitted_30d', 'readmitted', 'readmission', 'event', 'died', 'death', 'y') ?? headers[0];
+  const outcomeCol =
+    find('outcome', 'readmitted_30d', 'readmitted', 'readmission', 'event', 'died', 'death', 'y') ?? headers[0];
   const idx = headers.indexOf(outcomeCol);
   const levels = new Set(sample.map((r) => (r[idx] ?? '').trim().toLowerCase()).filter(Boolean));
   let positive = ['1'];
@@ -58,13 +65,37 @@ export function suggestMapping(headers: string[], sample: string[][], required: 
     const h = find(...aliases);
     if (h && !Object.values(predictors).includes(h)) subgroups[name] = h;
   }
-  return columnMapping.parse({ predictors, outcome: { column: outcomeCol, positive, negative }, date: dateCol ? { column: dateCol } : null, subgroups });
+  return columnMapping.parse({
+    predictors,
+    outcome: { column: outcomeCol, positive, negative },
+    date: dateCol ? { column: dateCol } : null,
+    subgroups,
+  });
 }
 
 /** Score versions a cohort can be uploaded against (for the upload form's select). */
 export async function scoreVersionChoices() {
-  const rows: { id: string; scoreId: string; scoreName: string; version: number; mode: string; probability_column: string | null; model: ScoreModel | null }[] = await dataSource.query(
+  const rows: {
+    id: string;
+    scoreId: string;
+    scoreName: string;
+    version: number;
+    mode: string;
+    probability_column: string | null;
+    model: ScoreModel | null;
+  }[] = await dataSource.query(
     `SELECT sv.id, s.id AS "scoreId", s.name AS "scoreName", sv.version, sv.mode, sv.probability_column, sv.model FROM score_versions sv JOIN scores s ON s.id = sv.score_id ORDER BY s.name, sv.version DESC`,
   );
-  return rows.map((r) => ({ id: r.id, scoreId: r.scoreId, scoreName: r.scoreName, version: r.version, mode: r.mode, requiredPredictors: requiredPredictors({ mode: r.mode as 'formula', model: r.model, probabilityColumn: r.probability_column }) }));
+  return rows.map((r) => ({
+    id: r.id,
+    scoreId: r.scoreId,
+    scoreName: r.scoreName,
+    version: r.version,
+    mode: r.mode,
+    requiredPredictors: requiredPredictors({
+      mode: r.mode as 'formula',
+      model: r.model,
+      probabilityColumn: r.probability_column,
+    }),
+  }));
 }

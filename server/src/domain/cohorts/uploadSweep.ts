@@ -9,14 +9,21 @@ import { appendAudit } from '../accounts/audit';
 import { type JobHandler } from '../../jobs/queue';
 import { warmUploadThreads } from '../../jobs/threads/pool';
 import { logger } from '../../platform/observability/log';
-import { deleteStagedRows, FORGET_DERIVED, removeQuietly, running, uploadDir, uploads, setUploadsStopping } from './uploads';
+import {
+  deleteStagedRows,
+  FORGET_DERIVED,
+  removeQuietly,
+  running,
+  uploadDir,
+  uploads,
+  setUploadsStopping,
+} from './uploads';
 
 /** The 'upload-sweep' job (a pg-boss schedule): uploads nobody finished are discarded after the keep period. */
 export const uploadSweepJob: JobHandler = async () => {
   const n = await discardStaleUploads();
   if (n) logger.info({ discarded: n }, 'discarded stale uploads');
 };
-
 
 /**
  * Uploads nobody finished (not stored, not discarded) are discarded after PLUMBLINE_UPLOAD_KEEP_DAYS without a change
@@ -26,17 +33,30 @@ export async function discardStaleUploads(keepDays = config.uploadKeepDays): Pro
   const stale = await uploads()
     .createQueryBuilder('u')
     .select(['u.id', 'u.tempPath', 'u.plannedVersionId', 'u.createdBy'])
-    .where(`u.status IN ('pending', 'checked', 'failed') AND u.updated_at < now() - make_interval(days => :keepDays)`, { keepDays })
+    .where(`u.status IN ('pending', 'checked', 'failed') AND u.updated_at < now() - make_interval(days => :keepDays)`, {
+      keepDays,
+    })
     .getMany();
   for (const u of stale) {
     if (running.has(u.id)) continue;
     await dataSource.transaction(async (m) => {
       const [, changed] = await m.query(
-        `UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, ${FORGET_DERIVED}, updated_at = now() WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`, [u.id]);
+        `UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, ${FORGET_DERIVED}, updated_at = now() WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`,
+        [u.id],
+      );
       if (changed !== 1) return;
       await deleteStagedRows(u.plannedVersionId, m);
       await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [u.id]);
-      await appendAudit({ action: 'cohort.upload.expired', actorId: null, targetType: 'cohort_upload', targetId: u.id, details: { keepDays, uploadedBy: u.createdBy } }, m);
+      await appendAudit(
+        {
+          action: 'cohort.upload.expired',
+          actorId: null,
+          targetType: 'cohort_upload',
+          targetId: u.id,
+          details: { keepDays, uploadedBy: u.createdBy },
+        },
+        m,
+      );
     });
     await removeQuietly(u.tempPath);
   }
@@ -80,7 +100,8 @@ export async function sweepUploadDir(now = Date.now()): Promise<string[]> {
 export async function startUploadUpkeep(): Promise<() => void> {
   setUploadsStopping(false);
   warmUploadThreads();
-  const sweepFiles = () => void sweepUploadDir().catch((err: Error) => logger.error({ err }, 'sweeping the upload folder failed'));
+  const sweepFiles = () =>
+    void sweepUploadDir().catch((err: Error) => logger.error({ err }, 'sweeping the upload folder failed'));
   sweepFiles();
   const fileTimer = setInterval(sweepFiles, ORPHAN_AGE_MS);
   fileTimer.unref();

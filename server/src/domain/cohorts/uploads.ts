@@ -38,7 +38,6 @@ export interface ReceivedFile {
   bytes: number;
 }
 
-
 async function loadScoreVersion(id: string): Promise<ScoreVersion> {
   const sv = await dataSource.getRepository(ScoreVersion).findOne({ where: { id } });
   if (!sv) throw notFound('score version');
@@ -49,7 +48,6 @@ export async function removeQuietly(path: string | null | undefined) {
   if (path) await unlink(path).catch(() => undefined);
 }
 
-
 /** Step 1: screen the received file; refuse (422, file deleted) or keep it as a pending upload. */
 export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: UploadFields, ip: string) {
   try {
@@ -58,9 +56,16 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
       const found = await dataSource.query('SELECT id FROM cohorts WHERE id = $1', [fields.cohortId]);
       if (!found.length) throw notFound('cohort');
     } else {
-      const found: { id: string; name: string }[] = await dataSource.query('SELECT id, name FROM cohorts WHERE lower(name) = lower($1)', [fields.cohortName]);
+      const found: { id: string; name: string }[] = await dataSource.query(
+        'SELECT id, name FROM cohorts WHERE lower(name) = lower($1)',
+        [fields.cohortName],
+      );
       // Said in words; the details let the client offer "add as a new version of" that cohort.
-      if (found.length) throw conflict(`a cohort named "${found[0].name}" already exists: add this file as a new version of "${found[0].name}", or choose another name for a new cohort`, { existingCohort: { id: found[0].id, name: found[0].name } });
+      if (found.length)
+        throw conflict(
+          `a cohort named "${found[0].name}" already exists: add this file as a new version of "${found[0].name}", or choose another name for a new cohort`,
+          { existingCohort: { id: found[0].id, name: found[0].name } },
+        );
     }
     // Parsing the sample and running the screen's patterns is CPU work: done in an upload thread, off the API's loop.
     const looked = await screenInThread(file.path);
@@ -74,11 +79,18 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
         action: 'cohort.upload.refused',
         targetType: 'cohort_upload',
         sourceIp: ip,
-        details: { filename: file.originalName, sha256: file.sha256, columns: screen.refused.map((f) => ({ column: f.column, category: f.category })) },
+        details: {
+          filename: file.originalName,
+          sha256: file.sha256,
+          columns: screen.refused.map((f) => ({ column: f.column, category: f.category })),
+        },
       });
-      throw refused(`the file was refused by the de-identification screen: ${screen.refused.length} column(s) look like direct identifiers; nothing was stored`, {
-        columns: screen.refused,
-      });
+      throw refused(
+        `the file was refused by the de-identification screen: ${screen.refused.length} column(s) look like direct identifiers; nothing was stored`,
+        {
+          columns: screen.refused,
+        },
+      );
     }
     const required = requiredPredictors(sv);
     const suggested = suggestMapping(headers, sample, required);
@@ -86,11 +98,31 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
       `INSERT INTO cohort_uploads (status, cohort_id, cohort_name, score_version_id, label, period_start, period_end, source_filename, temp_path,
          sha256, bytes, delimiter, headers, warnings, suggested_mapping, created_by)
        VALUES ('pending', $1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15) RETURNING id`,
-      [fields.cohortId ?? null, fields.cohortId ? null : fields.cohortName, sv.id, fields.label ?? '', fields.periodStart ?? null, fields.periodEnd ?? null,
-        file.originalName.slice(0, 255), file.path, file.sha256, file.bytes, delimiter, JSON.stringify(headers), JSON.stringify(screen.warnings), JSON.stringify(suggested), actor.id],
+      [
+        fields.cohortId ?? null,
+        fields.cohortId ? null : fields.cohortName,
+        sv.id,
+        fields.label ?? '',
+        fields.periodStart ?? null,
+        fields.periodEnd ?? null,
+        file.originalName.slice(0, 255),
+        file.path,
+        file.sha256,
+        file.bytes,
+        delimiter,
+        JSON.stringify(headers),
+        JSON.stringify(screen.warnings),
+        JSON.stringify(suggested),
+        actor.id,
+      ],
     );
     await appendAudit({
-      actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.received', targetType: 'cohort_upload', targetId: row.id, sourceIp: ip,
+      actorId: actor.id,
+      actorEmail: actor.email,
+      action: 'cohort.upload.received',
+      targetType: 'cohort_upload',
+      targetId: row.id,
+      sourceIp: ip,
       details: { filename: file.originalName, sha256: file.sha256, bytes: file.bytes, columns: headers.length },
     });
     return { upload: await getUpload(row.id), preview: maskPreview(headers, sample.slice(0, 5)) };
@@ -122,12 +154,33 @@ export async function getUpload(id: string, waitSeconds = 0): Promise<UploadView
   const sv = await dataSource.getRepository(ScoreVersion).findOne({ where: { id: r.scoreVersionId } });
   const views = sv ? predictorViews(sv, r.mapping ?? r.suggestedMapping) : [];
   return {
-    id: r.id, status: r.status, cohortId: r.cohortId, cohortName: r.cohortName, scoreVersionId: r.scoreVersionId, label: r.label,
-    periodStart: r.periodStart, periodEnd: r.periodEnd, sourceFilename: r.sourceFilename, sha256: r.sha256, bytes: Number(r.bytes),
-    delimiter: r.delimiter, headers: r.headers, warnings: r.warnings, suggestedMapping: r.suggestedMapping, mapping: r.mapping,
-    progress: r.progress, rowsRead: r.rowsRead, rowsAccepted: r.rowsAccepted, rowsRejected: r.rowsRejected, events: r.events,
-    rejectionCounts: r.rejectionCounts, columnSummary: r.columnSummary, cohortVersionId: r.cohortVersionId, error: r.error,
-    createdAt: new Date(r.createdAt).toISOString(), requiredPredictors: views,
+    id: r.id,
+    status: r.status,
+    cohortId: r.cohortId,
+    cohortName: r.cohortName,
+    scoreVersionId: r.scoreVersionId,
+    label: r.label,
+    periodStart: r.periodStart,
+    periodEnd: r.periodEnd,
+    sourceFilename: r.sourceFilename,
+    sha256: r.sha256,
+    bytes: Number(r.bytes),
+    delimiter: r.delimiter,
+    headers: r.headers,
+    warnings: r.warnings,
+    suggestedMapping: r.suggestedMapping,
+    mapping: r.mapping,
+    progress: r.progress,
+    rowsRead: r.rowsRead,
+    rowsAccepted: r.rowsAccepted,
+    rowsRejected: r.rowsRejected,
+    events: r.events,
+    rejectionCounts: r.rejectionCounts,
+    columnSummary: r.columnSummary,
+    cohortVersionId: r.cohortVersionId,
+    error: r.error,
+    createdAt: new Date(r.createdAt).toISOString(),
+    requiredPredictors: views,
     codingIssues: r.status === 'checked' ? codingIssues(views, r.mapping, r.columnSummary) : [],
   };
 }
@@ -158,9 +211,16 @@ export async function whenProcessed(id: string): Promise<void> {
   }
 }
 
-export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnMappingSpec, ip: string, saveAs?: string): Promise<UploadView> {
+export async function applyMapping(
+  actor: AuthUser,
+  id: string,
+  mapping: ColumnMappingSpec,
+  ip: string,
+  saveAs?: string,
+): Promise<UploadView> {
   const r = await uploadRow(id);
-  if (!['pending', 'checked', 'failed'].includes(r.status) || !r.tempPath) throw conflict(`this upload is ${r.status}; mapping is possible only before it is stored`);
+  if (!['pending', 'checked', 'failed'].includes(r.status) || !r.tempPath)
+    throw conflict(`this upload is ${r.status}; mapping is possible only before it is stored`);
   const sv = await loadScoreVersion(r.scoreVersionId);
   const problems: string[] = [];
   const has = (c: string) => r.headers.includes(c);
@@ -169,18 +229,29 @@ export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnM
     if (!col) problems.push(`predictor "${p.column}" is not mapped to a file column`);
     else if (!has(col)) problems.push(`predictor "${p.column}": the file has no column "${col}"`);
   }
-  for (const k of Object.keys(mapping.predictors)) if (!requiredPredictors(sv).some((p) => p.column === k)) problems.push(`"${k}" is not a predictor of this score version`);
+  for (const k of Object.keys(mapping.predictors))
+    if (!requiredPredictors(sv).some((p) => p.column === k))
+      problems.push(`"${k}" is not a predictor of this score version`);
   // Label readings only for indicator columns, and only into the formula's levels (or '' for "none of them").
   for (const [k, readings] of Object.entries(mapping.labels ?? {})) {
     const levels = predictorViews(sv, mapping).find((p) => p.column === k)?.levels ?? [];
-    if (!levels.length) { problems.push(`"${k}" is not an indicator predictor of this score version, so its labels cannot be mapped`); continue; }
-    for (const [label, level] of Object.entries(readings)) if (level !== '' && !levels.includes(level)) problems.push(`${k}: "${label}" can only be read as ${levels.map((l) => `"${l}"`).join(', ')} or as none of them`);
+    if (!levels.length) {
+      problems.push(`"${k}" is not an indicator predictor of this score version, so its labels cannot be mapped`);
+      continue;
+    }
+    for (const [label, level] of Object.entries(readings))
+      if (level !== '' && !levels.includes(level))
+        problems.push(
+          `${k}: "${label}" can only be read as ${levels.map((l) => `"${l}"`).join(', ')} or as none of them`,
+        );
   }
   if (!has(mapping.outcome.column)) problems.push(`outcome: the file has no column "${mapping.outcome.column}"`);
   const pos = mapping.outcome.positive.map((s) => s.toLowerCase());
-  if (mapping.outcome.negative.some((n) => pos.includes(n.toLowerCase()))) problems.push('outcome: a label cannot be both positive and negative');
+  if (mapping.outcome.negative.some((n) => pos.includes(n.toLowerCase())))
+    problems.push('outcome: a label cannot be both positive and negative');
   if (mapping.date && !has(mapping.date.column)) problems.push(`date: the file has no column "${mapping.date.column}"`);
-  for (const [name, col] of Object.entries(mapping.subgroups)) if (!has(col)) problems.push(`subgroup "${name}": the file has no column "${col}"`);
+  for (const [name, col] of Object.entries(mapping.subgroups))
+    if (!has(col)) problems.push(`subgroup "${name}": the file has no column "${col}"`);
   if (problems.length) throw invalid(`the mapping does not fit this file: ${problems.join('; ')}`, { problems });
 
   const plannedVersionId = randomUUID();
@@ -191,12 +262,30 @@ export async function applyMapping(actor: AuthUser, id: string, mapping: ColumnM
        WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`,
       [id, JSON.stringify(mapping), plannedVersionId],
     );
-    if (changed !== 1) throw conflict('this upload changed meanwhile (checked again or stored from another window); reload it');
+    if (changed !== 1)
+      throw conflict('this upload changed meanwhile (checked again or stored from another window); reload it');
     // A second mapping replaces the first pass: its staged rows and rejections go.
     await deleteStagedRows(r.plannedVersionId, m);
     await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
-    if (saveAs) await m.query('INSERT INTO column_mappings (name, cohort_id, mapping, created_by) VALUES ($1, $2, $3, $4)', [saveAs, r.cohortId, JSON.stringify(mapping), actor.id]);
-    await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.mapped', targetType: 'cohort_upload', targetId: id, sourceIp: ip, details: { mapping, savedAs: saveAs ?? null } }, m);
+    if (saveAs)
+      await m.query('INSERT INTO column_mappings (name, cohort_id, mapping, created_by) VALUES ($1, $2, $3, $4)', [
+        saveAs,
+        r.cohortId,
+        JSON.stringify(mapping),
+        actor.id,
+      ]);
+    await appendAudit(
+      {
+        actorId: actor.id,
+        actorEmail: actor.email,
+        action: 'cohort.upload.mapped',
+        targetType: 'cohort_upload',
+        targetId: id,
+        sourceIp: ip,
+        details: { mapping, savedAs: saveAs ?? null },
+      },
+      m,
+    );
     await enqueue(m, JOB.uploadCheck, { uploadId: id, plannedVersionId });
   });
   return getUpload(id);
@@ -254,17 +343,36 @@ export const uploadCheckAbandonedJob: JobHandler<{ uploadId: string; plannedVers
 export const FORGET_DERIVED = `column_summary = '{}', event_period = NULL, rejection_counts = '[]', suggested_mapping = NULL, progress = 0`;
 
 /** Staged rows of an upload that never became a cohort version (re-mapped, discarded, failed). */
-export async function deleteStagedRows(plannedVersionId: string | null, m: { query: (q: string, p: unknown[]) => Promise<unknown> } = dataSource) {
+export async function deleteStagedRows(
+  plannedVersionId: string | null,
+  m: { query: (q: string, p: unknown[]) => Promise<unknown> } = dataSource,
+) {
   if (!plannedVersionId) return;
-  await m.query('DELETE FROM cohort_row_blocks WHERE cohort_version_id = $1 AND NOT EXISTS (SELECT 1 FROM cohort_versions WHERE id = $1)', [plannedVersionId]);
+  await m.query(
+    'DELETE FROM cohort_row_blocks WHERE cohort_version_id = $1 AND NOT EXISTS (SELECT 1 FROM cohort_versions WHERE id = $1)',
+    [plannedVersionId],
+  );
 }
 
 /** The full pass runs in a worker thread (server/src/jobs/threads/uploadWorker.ts); this side records progress and endings. */
-async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappingSpec, plannedVersionId: string): Promise<void> {
+async function processUpload(
+  id: string,
+  sv: ScoreVersion,
+  mapping: ColumnMappingSpec,
+  plannedVersionId: string,
+): Promise<void> {
   const r = await uploadRow(id);
   const data: UploadWorkerData = {
-    uploadId: id, db: { ...config.db }, path: r.tempPath!, delimiter: r.delimiter, headers: r.headers, mapping,
-    predictors: requiredPredictors(sv), supplied: sv.mode === 'supplied', plannedVersionId, totalBytes: Number(r.bytes),
+    uploadId: id,
+    db: { ...config.db },
+    path: r.tempPath!,
+    delimiter: r.delimiter,
+    headers: r.headers,
+    mapping,
+    predictors: requiredPredictors(sv),
+    supplied: sv.mode === 'supplied',
+    plannedVersionId,
+    totalBytes: Number(r.bytes),
   };
   let lastWrite = 0;
   let progressWrite: Promise<unknown> = Promise.resolve();
@@ -272,8 +380,12 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
     if (Date.now() - lastWrite < 400) return;
     lastWrite = Date.now();
     // Only while still processing: the worker's own final update wins over a late progress write.
-    progressWrite = dataSource.query(`UPDATE cohort_uploads SET progress = $2, rows_read = $3, rows_rejected = $4, updated_at = now() WHERE id = $1 AND status = 'processing'`,
-      [id, m.fraction, m.rowsRead, m.rowsRejected]).catch(() => undefined);
+    progressWrite = dataSource
+      .query(
+        `UPDATE cohort_uploads SET progress = $2, rows_read = $3, rows_rejected = $4, updated_at = now() WHERE id = $1 AND status = 'processing'`,
+        [id, m.fraction, m.rowsRead, m.rowsRejected],
+      )
+      .catch(() => undefined);
   });
   await progressWrite;
   if (ending.type === 'checked') return;
@@ -282,24 +394,42 @@ async function processUpload(id: string, sv: ScoreVersion, mapping: ColumnMappin
     await removeQuietly(r.tempPath);
     await dataSource.transaction(async (m) => {
       await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
-      const error = refusal.column === '(file)' ? `the file was refused: ${refusal.reason}; nothing was stored`
-        : `refused by the de-identification screen: column "${refusal.column}" ${refusal.reason}; nothing was stored`;
-      await m.query(`UPDATE cohort_uploads SET status = 'refused', temp_path = NULL, warnings = $2, error = $3, column_summary = '{}', event_period = NULL, updated_at = now() WHERE id = $1`,
-        [id, JSON.stringify([refusal]), error]);
-      await appendAudit({ action: 'cohort.upload.refused', actorId: r.createdBy, targetType: 'cohort_upload', targetId: id, details: { columns: [{ column: refusal.column, category: refusal.category }] } }, m);
+      const error =
+        refusal.column === '(file)'
+          ? `the file was refused: ${refusal.reason}; nothing was stored`
+          : `refused by the de-identification screen: column "${refusal.column}" ${refusal.reason}; nothing was stored`;
+      await m.query(
+        `UPDATE cohort_uploads SET status = 'refused', temp_path = NULL, warnings = $2, error = $3, column_summary = '{}', event_period = NULL, updated_at = now() WHERE id = $1`,
+        [id, JSON.stringify([refusal]), error],
+      );
+      await appendAudit(
+        {
+          action: 'cohort.upload.refused',
+          actorId: r.createdBy,
+          targetType: 'cohort_upload',
+          targetId: id,
+          details: { columns: [{ column: refusal.column, category: refusal.category }] },
+        },
+        m,
+      );
     });
     return;
   }
   const message = ending.type === 'error' ? ending.message : 'unknown ending';
   logger.error({ uploadId: id, reason: message }, 'checking an upload failed');
   // The database's own message (table and constraint names) stays in the server log.
-  const shown = ending.type === 'error' && ending.database ? 'the database refused the rows or went away (details are in the server log); try again' : message;
+  const shown =
+    ending.type === 'error' && ending.database
+      ? 'the database refused the rows or went away (details are in the server log); try again'
+      : message;
   // The check may have failed because PostgreSQL went away: then this write fails too, and is tried again until the
   // database is back, so the upload never stays "processing" (a crash meanwhile is covered by the job's retry).
   await untilStored(`marking upload ${id} failed`, async () => {
     await deleteStagedRows(plannedVersionId);
-    await dataSource.query(`UPDATE cohort_uploads SET status = 'failed', error = $2, updated_at = now() WHERE id = $1 AND status = 'processing'`,
-      [id, `the file could not be processed: ${shown}; nothing was stored`]);
+    await dataSource.query(
+      `UPDATE cohort_uploads SET status = 'failed', error = $2, updated_at = now() WHERE id = $1 AND status = 'processing'`,
+      [id, `the file could not be processed: ${shown}; nothing was stored`],
+    );
   });
 }
 
@@ -324,29 +454,45 @@ export function setUploadsStopping(value: boolean): void {
 }
 // ---- Step 3: store or discard ---------------------------------------------------------------------------------
 
-export async function commitUpload(actor: AuthUser, id: string, excludeRejected: boolean, ip: string, excludeLines?: number[]) {
+export async function commitUpload(
+  actor: AuthUser,
+  id: string,
+  excludeRejected: boolean,
+  ip: string,
+  excludeLines?: number[],
+) {
   const r = await uploadRow(id);
-  if (r.status !== 'checked' || !r.plannedVersionId) throw conflict(`this upload is ${r.status}; only a checked upload can be stored`);
+  if (r.status !== 'checked' || !r.plannedVersionId)
+    throw conflict(`this upload is ${r.status}; only a checked upload can be stored`);
   let excludedLines: number[] | null = null;
   if (r.rowsRejected > 0 && excludeLines && !excludeRejected) {
     // Rows excluded one by one: every rejected row must be chosen; the rest are fixed in the file first.
     const rejected = await rejectedLineNumbers(id);
     const chosen = new Set(excludeLines);
     const unknown = excludeLines.filter((l) => !rejected.includes(l));
-    if (unknown.length) throw invalid(`line(s) ${unknown.slice(0, 10).join(', ')} were not rejected; only rejected rows can be excluded`);
+    if (unknown.length)
+      throw invalid(`line(s) ${unknown.slice(0, 10).join(', ')} were not rejected; only rejected rows can be excluded`);
     const open = rejected.filter((l) => !chosen.has(l));
     if (open.length || rejected.length < r.rowsRejected) {
-      throw conflict(`${open.length || r.rowsRejected - rejected.length} rejected row(s) are neither excluded nor fixed (line ${open.slice(0, 10).join(', ')}${open.length > 10 ? ', …' : ''}): exclude them too, or download the rejected rows, fix them in the file and upload it again`, { openLines: open.slice(0, 1000) });
+      throw conflict(
+        `${open.length || r.rowsRejected - rejected.length} rejected row(s) are neither excluded nor fixed (line ${open.slice(0, 10).join(', ')}${open.length > 10 ? ', …' : ''}): exclude them too, or download the rejected rows, fix them in the file and upload it again`,
+        { openLines: open.slice(0, 1000) },
+      );
     }
     excludedLines = rejected;
   } else if (r.rowsRejected > 0 && !excludeRejected) {
-    throw conflict(`${r.rowsRejected} row(s) were rejected: store with excludeRejected: true (the exclusions are recorded), or fix the file and upload it again`);
+    throw conflict(
+      `${r.rowsRejected} row(s) were rejected: store with excludeRejected: true (the exclusions are recorded), or fix the file and upload it again`,
+    );
   }
   if (r.rowsAccepted === 0) throw refused('no row passed the checks; nothing to store');
   const sv = await loadScoreVersion(r.scoreVersionId);
   // A coding mismatch (Y/N against the level "yes") stores nothing: the steward maps the labels or goes back.
   const mismatches = codingIssues(predictorViews(sv, r.mapping), r.mapping, r.columnSummary);
-  if (mismatches.length) throw conflict(`the coding does not match the score: ${mismatches.map((m) => m.message).join(' ')}`, { codingIssues: mismatches });
+  if (mismatches.length)
+    throw conflict(`the coding does not match the score: ${mismatches.map((m) => m.message).join(' ')}`, {
+      codingIssues: mismatches,
+    });
   const qr = dataSource.createQueryRunner();
   await qr.connect();
   await qr.startTransaction();
@@ -355,18 +501,29 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
   let version: number;
   try {
     // Two windows storing the same upload: the second waits here, then finds it stored.
-    const locked = await qr.manager.getRepository(CohortUpload).findOneOrFail({ where: { id }, select: { id: true, status: true }, lock: { mode: 'pessimistic_write' } });
-    if (locked.status !== 'checked') throw conflict(`this upload is ${locked.status}; only a checked upload can be stored`);
+    const locked = await qr.manager
+      .getRepository(CohortUpload)
+      .findOneOrFail({ where: { id }, select: { id: true, status: true }, lock: { mode: 'pessimistic_write' } });
+    if (locked.status !== 'checked')
+      throw conflict(`this upload is ${locked.status}; only a checked upload can be stored`);
     if (r.cohortId) {
       cohortId = r.cohortId;
       await qr.query('SELECT id FROM cohorts WHERE id = $1 FOR UPDATE', [cohortId]);
     } else {
       const existing = await qr.query('SELECT id FROM cohorts WHERE lower(name) = lower($1)', [r.cohortName]);
-      if (existing.length) throw conflict(`a cohort named "${r.cohortName}" was created meanwhile; upload again as a new version of it`);
-      const [c] = await qr.query('INSERT INTO cohorts (name, score_id, created_by) VALUES ($1, $2, $3) RETURNING id', [r.cohortName, sv.scoreId, actor.id]);
+      if (existing.length)
+        throw conflict(`a cohort named "${r.cohortName}" was created meanwhile; upload again as a new version of it`);
+      const [c] = await qr.query('INSERT INTO cohorts (name, score_id, created_by) VALUES ($1, $2, $3) RETURNING id', [
+        r.cohortName,
+        sv.scoreId,
+        actor.id,
+      ]);
       cohortId = c.id;
     }
-    const [{ next }] = await qr.query('SELECT coalesce(max(version), 0) + 1 AS next FROM cohort_versions WHERE cohort_id = $1', [cohortId]);
+    const [{ next }] = await qr.query(
+      'SELECT coalesce(max(version), 0) + 1 AS next FROM cohort_versions WHERE cohort_id = $1',
+      [cohortId],
+    );
     version = next;
     const period = r.eventPeriod;
     // The version ends on the last day of its latest period (2026-Q2 ends 2026-06-30); an upload checked before the
@@ -377,40 +534,93 @@ export async function commitUpload(actor: AuthUser, id: string, excludeRejected:
     };
     const exclusions = r.rejectionCounts;
     // periodKind: how the rows' periods were labelled, so they are shown as uploaded (2026-Q2, not 2026-04-01).
-    const mapping = { ...r.mapping, scoreVersionId: r.scoreVersionId, delimiter: r.delimiter, periodKind: period?.kind ?? null };
+    const mapping = {
+      ...r.mapping,
+      scoreVersionId: r.scoreVersionId,
+      delimiter: r.delimiter,
+      periodKind: period?.kind ?? null,
+    };
     const [v] = await qr.query(
       `INSERT INTO cohort_versions (id, cohort_id, version, label, period_start, period_end, source_filename, source_sha256, source_bytes,
          row_count, events, excluded_count, exclusions, mapping, column_summary, uploaded_by)
        VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16) RETURNING id`,
-      [r.plannedVersionId, cohortId, version, r.label || `version ${version}`, r.periodStart ?? period?.min ?? null, r.periodEnd ?? (period ? (period.end ?? endOfMonth(period.max)) : null),
-        r.sourceFilename, r.sha256, r.bytes, r.rowsAccepted, r.events, r.rowsRejected, JSON.stringify(exclusions), JSON.stringify(mapping), JSON.stringify(r.columnSummary), actor.id],
+      [
+        r.plannedVersionId,
+        cohortId,
+        version,
+        r.label || `version ${version}`,
+        r.periodStart ?? period?.min ?? null,
+        r.periodEnd ?? (period ? (period.end ?? endOfMonth(period.max)) : null),
+        r.sourceFilename,
+        r.sha256,
+        r.bytes,
+        r.rowsAccepted,
+        r.events,
+        r.rowsRejected,
+        JSON.stringify(exclusions),
+        JSON.stringify(mapping),
+        JSON.stringify(r.columnSummary),
+        actor.id,
+      ],
     );
     versionId = v.id;
     // The rows were streamed in by the check, in the same transaction that recorded rows_accepted (the worker compares
     // COPY's count); only a new mapping or a discard removes them, and both change the status locked above. This
     // version row is what makes them a cohort version.
-    await qr.query(`UPDATE cohort_uploads SET status = 'committed', cohort_id = $2, cohort_version_id = $3, temp_path = NULL, updated_at = now() WHERE id = $1 AND status = 'checked'`, [id, cohortId, versionId]);
+    await qr.query(
+      `UPDATE cohort_uploads SET status = 'committed', cohort_id = $2, cohort_version_id = $3, temp_path = NULL, updated_at = now() WHERE id = $1 AND status = 'checked'`,
+      [id, cohortId, versionId],
+    );
     await qr.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
-    await appendAudit({
-      actorId: actor.id, actorEmail: actor.email, action: 'cohort.version.stored', targetType: 'cohort_version', targetId: versionId, sourceIp: ip,
-      details: { cohortId, version, rows: r.rowsAccepted, events: r.events, excluded: r.rowsRejected, sha256: r.sha256, uploadId: id, ...(excludedLines ? { excludedLines: excludedLines.slice(0, 1000) } : {}) },
-    }, qr.manager);
+    await appendAudit(
+      {
+        actorId: actor.id,
+        actorEmail: actor.email,
+        action: 'cohort.version.stored',
+        targetType: 'cohort_version',
+        targetId: versionId,
+        sourceIp: ip,
+        details: {
+          cohortId,
+          version,
+          rows: r.rowsAccepted,
+          events: r.events,
+          excluded: r.rowsRejected,
+          sha256: r.sha256,
+          uploadId: id,
+          ...(excludedLines ? { excludedLines: excludedLines.slice(0, 1000) } : {}),
+        },
+      },
+      qr.manager,
+    );
     await qr.commitTransaction();
   } catch (err) {
     await qr.rollbackTransaction().catch(() => undefined);
     if (err instanceof DomainError) throw err;
     logger.error({ err, uploadId: id }, 'storing an upload failed, rolled back');
-    throw new DomainError('failed', 'storing the cohort failed and was rolled back: nothing was stored; try again or upload the file again');
+    throw new DomainError(
+      'failed',
+      'storing the cohort failed and was rolled back: nothing was stored; try again or upload the file again',
+    );
   } finally {
     await qr.release();
   }
   await removeQuietly(r.tempPath);
-  return { cohortId, cohortVersionId: versionId, version, rowCount: r.rowsAccepted, events: r.events, excludedCount: r.rowsRejected, sha256: r.sha256 };
+  return {
+    cohortId,
+    cohortVersionId: versionId,
+    version,
+    rowCount: r.rowsAccepted,
+    events: r.events,
+    excludedCount: r.rowsRejected,
+    sha256: r.sha256,
+  };
 }
 
 export async function discardUpload(actor: AuthUser, id: string, ip: string) {
   const r = await uploadRow(id);
-  if (r.status === 'committed') throw conflict('this upload is stored as a cohort version; stored versions are immutable');
+  if (r.status === 'committed')
+    throw conflict('this upload is stored as a cohort version; stored versions are immutable');
   // A check under way (in any process) is waited for a while; one still running then is refused below.
   if (r.status === 'processing') await getUpload(id, 30);
   // The upload's row is locked before anything is removed, as commitUpload locks it before storing: of a commit and a
@@ -422,12 +632,27 @@ export async function discardUpload(actor: AuthUser, id: string, ip: string) {
       lock: { mode: 'pessimistic_write' },
     });
     if (locked.status === 'discarded') return null;
-    if (locked.status === 'committed') throw conflict('this upload was stored as a cohort version meanwhile; stored versions are immutable');
-    if (locked.status === 'processing') throw conflict('this upload is being checked again; discard it when the check ends');
+    if (locked.status === 'committed')
+      throw conflict('this upload was stored as a cohort version meanwhile; stored versions are immutable');
+    if (locked.status === 'processing')
+      throw conflict('this upload is being checked again; discard it when the check ends');
     await deleteStagedRows(locked.plannedVersionId, m);
     await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
-    await m.query(`UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, ${FORGET_DERIVED}, updated_at = now() WHERE id = $1`, [id]);
-    await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'cohort.upload.discarded', targetType: 'cohort_upload', targetId: id, sourceIp: ip }, m);
+    await m.query(
+      `UPDATE cohort_uploads SET status = 'discarded', temp_path = NULL, ${FORGET_DERIVED}, updated_at = now() WHERE id = $1`,
+      [id],
+    );
+    await appendAudit(
+      {
+        actorId: actor.id,
+        actorEmail: actor.email,
+        action: 'cohort.upload.discarded',
+        targetType: 'cohort_upload',
+        targetId: id,
+        sourceIp: ip,
+      },
+      m,
+    );
     return locked.tempPath;
   });
   await removeQuietly(tempPath);

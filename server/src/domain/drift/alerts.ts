@@ -52,20 +52,50 @@ export function toAlertView(r: AlertRow): AlertView {
   };
 }
 
-export async function listAlerts(filter: { versionId?: string; scoreId?: string } = {}, m: EntityManager = dataSource.manager): Promise<AlertView[]> {
+export async function listAlerts(
+  filter: { versionId?: string; scoreId?: string } = {},
+  m: EntityManager = dataSource.manager,
+): Promise<AlertView[]> {
   const rows: AlertRow[] = filter.versionId
-    ? await m.query(`${ALERT_SELECT} WHERE a.score_version_id = $1 ORDER BY a.raised_at DESC, a.period`, [filter.versionId])
-    : await m.query(`${ALERT_SELECT} WHERE ($1::uuid IS NULL OR s.id = $1) ORDER BY (a.acknowledged_at IS NULL) DESC, a.raised_at DESC LIMIT 500`, [filter.scoreId ?? null]);
+    ? await m.query(`${ALERT_SELECT} WHERE a.score_version_id = $1 ORDER BY a.raised_at DESC, a.period`, [
+        filter.versionId,
+      ])
+    : await m.query(
+        `${ALERT_SELECT} WHERE ($1::uuid IS NULL OR s.id = $1) ORDER BY (a.acknowledged_at IS NULL) DESC, a.raised_at DESC LIMIT 500`,
+        [filter.scoreId ?? null],
+      );
   return rows.map(toAlertView);
 }
 
-export async function acknowledgeAlert(actor: AuthUser, id: string, note: string, ip: string | null): Promise<AlertView> {
+export async function acknowledgeAlert(
+  actor: AuthUser,
+  id: string,
+  note: string,
+  ip: string | null,
+): Promise<AlertView> {
   return dataSource.transaction(async (m) => {
-    const found: { acknowledged_at: Date | null }[] = await m.query('SELECT acknowledged_at FROM drift_alerts WHERE id = $1 FOR UPDATE', [id]);
+    const found: { acknowledged_at: Date | null }[] = await m.query(
+      'SELECT acknowledged_at FROM drift_alerts WHERE id = $1 FOR UPDATE',
+      [id],
+    );
     if (!found[0]) throw notFound('alert');
     if (found[0].acknowledged_at) throw conflict('this alert has already been acknowledged');
-    await m.query('UPDATE drift_alerts SET acknowledged_by = $2, acknowledged_at = now(), ack_note = $3 WHERE id = $1', [id, actor.id, note]);
-    await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'drift_alert.acknowledged', targetType: 'drift_alert', targetId: id, sourceIp: ip, details: { note } }, m);
+    await m.query(
+      'UPDATE drift_alerts SET acknowledged_by = $2, acknowledged_at = now(), ack_note = $3 WHERE id = $1',
+      [id, actor.id, note],
+    );
+    await appendAudit(
+      {
+        actorId: actor.id,
+        actorEmail: actor.email,
+        action: 'drift_alert.acknowledged',
+        targetType: 'drift_alert',
+        targetId: id,
+        sourceIp: ip,
+        details: { note },
+      },
+      m,
+    );
     const rows: AlertRow[] = await m.query(`${ALERT_SELECT} WHERE a.id = $1`, [id]);
     return toAlertView(rows[0]);
   });
@@ -91,7 +121,10 @@ function fire(rule: { kind: AlertRuleKind; params: Record<string, unknown> }, co
       out.push({
         period: periods[i].label,
         message: `Calibration-in-the-large differs from 0 for ${k} consecutive periods up to ${periods[i].label} (CITL ${formatEstimate('calibrationIntercept', c)}).`,
-        detail: { periods: run.map((q) => ({ label: q.label, runId: q.runId, calibrationIntercept: q.calibrationIntercept })), consecutive: k },
+        detail: {
+          periods: run.map((q) => ({ label: q.label, runId: q.runId, calibrationIntercept: q.calibrationIntercept })),
+          consecutive: k,
+        },
       });
     }
   } else if (rule.kind === 'cusum') {
@@ -161,7 +194,15 @@ export async function evaluateAlertsForVersion(versionId: string): Promise<Alert
       if (!ins[0]) continue;
       ids.push(ins[0].id);
       lines.push(`- ${period} (${rule.kind}): ${f.message}`);
-      await appendAudit({ action: 'drift_alert.raised', targetType: 'drift_alert', targetId: ins[0].id, details: { scoreVersionId: versionId, ruleId: rule.id, kind: rule.kind, period } }, m);
+      await appendAudit(
+        {
+          action: 'drift_alert.raised',
+          targetType: 'drift_alert',
+          targetId: ins[0].id,
+          details: { scoreVersionId: versionId, ruleId: rule.id, kind: rule.kind, period },
+        },
+        m,
+      );
     }
     if (ids.length)
       await queueEmail(
@@ -176,18 +217,27 @@ export async function evaluateAlertsForVersion(versionId: string): Promise<Alert
     return ids;
   });
   if (!raised.length) return [];
-  const rows: AlertRow[] = await dataSource.query(`${ALERT_SELECT} WHERE a.id = ANY($1::uuid[]) ORDER BY a.period`, [raised]);
+  const rows: AlertRow[] = await dataSource.query(`${ALERT_SELECT} WHERE a.id = ANY($1::uuid[]) ORDER BY a.period`, [
+    raised,
+  ]);
   return rows.map(toAlertView);
 }
 
 export async function evaluateAlertsForRun(runId: string): Promise<AlertView[]> {
-  const rows: { score_version_id: string; status: string }[] = await dataSource.query('SELECT score_version_id, status FROM validation_runs WHERE id = $1', [runId]);
+  const rows: { score_version_id: string; status: string }[] = await dataSource.query(
+    'SELECT score_version_id, status FROM validation_runs WHERE id = $1',
+    [runId],
+  );
   if (!rows[0] || rows[0].status !== 'completed') return [];
   return evaluateAlertsForVersion(rows[0].score_version_id);
 }
 
-
-export async function acknowledgeAlerts(actor: AuthUser, ids: string[], note: string, ip: string | null): Promise<AlertView[]> {
+export async function acknowledgeAlerts(
+  actor: AuthUser,
+  ids: string[],
+  note: string,
+  ip: string | null,
+): Promise<AlertView[]> {
   const unique = [...new Set(ids)];
   return dataSource.transaction(async (m) => {
     // Locked in id order, so two bulk acknowledgements that overlap wait for each other rather than deadlock.
@@ -197,12 +247,31 @@ export async function acknowledgeAlerts(actor: AuthUser, ids: string[], note: st
     );
     if (found.length !== unique.length) throw notFound(`${unique.length - found.length} of the alerts`);
     const done = found.filter((f) => f.acknowledged_at);
-    if (done.length) throw conflict(`${done.length} of the chosen alerts ${done.length === 1 ? 'has' : 'have'} already been acknowledged; reload the list and choose again`);
-    await m.query('UPDATE drift_alerts SET acknowledged_by = $2, acknowledged_at = now(), ack_note = $3 WHERE id = ANY($1::uuid[])', [unique, actor.id, note]);
+    if (done.length)
+      throw conflict(
+        `${done.length} of the chosen alerts ${done.length === 1 ? 'has' : 'have'} already been acknowledged; reload the list and choose again`,
+      );
+    await m.query(
+      'UPDATE drift_alerts SET acknowledged_by = $2, acknowledged_at = now(), ack_note = $3 WHERE id = ANY($1::uuid[])',
+      [unique, actor.id, note],
+    );
     for (const id of unique) {
-      await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'drift_alert.acknowledged', targetType: 'drift_alert', targetId: id, sourceIp: ip, details: { note, together: unique.length } }, m);
+      await appendAudit(
+        {
+          actorId: actor.id,
+          actorEmail: actor.email,
+          action: 'drift_alert.acknowledged',
+          targetType: 'drift_alert',
+          targetId: id,
+          sourceIp: ip,
+          details: { note, together: unique.length },
+        },
+        m,
+      );
     }
-    const rows: AlertRow[] = await m.query(`${ALERT_SELECT} WHERE a.id = ANY($1::uuid[]) ORDER BY a.raised_at DESC`, [unique]);
+    const rows: AlertRow[] = await m.query(`${ALERT_SELECT} WHERE a.id = ANY($1::uuid[]) ORDER BY a.raised_at DESC`, [
+      unique,
+    ]);
     return rows.map(toAlertView);
   });
 }

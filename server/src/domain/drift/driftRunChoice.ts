@@ -7,7 +7,13 @@ import { forbidden, invalid } from '../errors';
 import { appendAudit } from '../accounts/audit';
 import { getScoreVersionByNumber } from '../scores/scores';
 
-export async function chooseDriftRun(actor: AuthUser, scoreId: string, versionNumber: number, body: DriftRunChoice, ip: string): Promise<DriftRunChoice> {
+export async function chooseDriftRun(
+  actor: AuthUser,
+  scoreId: string,
+  versionNumber: number,
+  body: DriftRunChoice,
+  ip: string,
+): Promise<DriftRunChoice> {
   if (actor.role !== 'statistician') throw forbidden('only a statistician chooses the runs of the drift timeline');
   const sv = await getScoreVersionByNumber(scoreId, versionNumber);
   return dataSource.transaction(async (m) => {
@@ -17,7 +23,8 @@ export async function chooseDriftRun(actor: AuthUser, scoreId: string, versionNu
         [body.runId, sv.id, body.cohortVersionId],
       );
       if (!runs[0]) throw invalid('that run is not a run of this score version on this cohort version');
-      if (runs[0].status !== 'completed') throw invalid(`that run is ${runs[0].status}; only a completed run can stand for its cohort version`);
+      if (runs[0].status !== 'completed')
+        throw invalid(`that run is ${runs[0].status}; only a completed run can stand for its cohort version`);
     } else {
       const cvs: unknown[] = await m.query('SELECT 1 FROM cohort_versions WHERE id = $1', [body.cohortVersionId]);
       if (!cvs.length) throw invalid('no such cohort version');
@@ -31,10 +38,18 @@ export async function chooseDriftRun(actor: AuthUser, scoreId: string, versionNu
        ON CONFLICT (score_version_id, cohort_version_id) DO UPDATE SET run_id = EXCLUDED.run_id, chosen_by = EXCLUDED.chosen_by, chosen_at = now()`,
       [sv.id, body.cohortVersionId, body.runId, actor.id],
     );
-    await appendAudit({
-      actorId: actor.id, actorEmail: actor.email, action: 'drift.run.chosen', targetType: 'score_version', targetId: sv.id, sourceIp: ip,
-      details: { cohortVersionId: body.cohortVersionId, runId: body.runId, previousRunId: before?.run_id ?? null },
-    }, m);
+    await appendAudit(
+      {
+        actorId: actor.id,
+        actorEmail: actor.email,
+        action: 'drift.run.chosen',
+        targetType: 'score_version',
+        targetId: sv.id,
+        sourceIp: ip,
+        details: { cohortVersionId: body.cohortVersionId, runId: body.runId, previousRunId: before?.run_id ?? null },
+      },
+      m,
+    );
     return { cohortVersionId: body.cohortVersionId, runId: body.runId };
   });
 }

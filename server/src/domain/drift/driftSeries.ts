@@ -44,7 +44,13 @@ export function driftSeriesOf(score: RunScoreInput, data: CohortData): DriftSeri
 const bytesOf = (a: Float64Array | Uint8Array) => Buffer.from(a.buffer, a.byteOffset, a.byteLength);
 
 /** Stores a series once; a second writer (another run of the same pair, another process) changes nothing. */
-export async function storeDriftSeries(query: Query, scoreVersionId: string, cohortVersionId: string, runId: string | null, s: DriftSeriesPart): Promise<void> {
+export async function storeDriftSeries(
+  query: Query,
+  scoreVersionId: string,
+  cohortVersionId: string,
+  runId: string | null,
+  s: DriftSeriesPart,
+): Promise<void> {
   await query(
     `INSERT INTO drift_series (score_version_id, cohort_version_id, run_id, n, variance, dates, counts, p, y)
      VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9) ON CONFLICT (score_version_id, cohort_version_id) DO NOTHING`,
@@ -53,7 +59,11 @@ export async function storeDriftSeries(query: Query, scoreVersionId: string, coh
 }
 
 /** Stored series of a score version on the given cohort versions (those with none are missing from the map). */
-export async function readDriftSeries(query: Query, scoreVersionId: string, cohortVersionIds: string[]): Promise<Map<string, DriftSeriesPart>> {
+export async function readDriftSeries(
+  query: Query,
+  scoreVersionId: string,
+  cohortVersionIds: string[],
+): Promise<Map<string, DriftSeriesPart>> {
   const rows = await query(
     'SELECT cohort_version_id, n, variance, dates, counts, p, y FROM drift_series WHERE score_version_id = $1 AND cohort_version_id = ANY($2::uuid[])',
     [scoreVersionId, cohortVersionIds],

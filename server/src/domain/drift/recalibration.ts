@@ -15,16 +15,24 @@ import { scoreInputOf, versionById } from './timeline';
 
 /** Checks the run and its version here; the cohort is loaded and the fit made in a pool thread (jobs/threads/pool.ts). */
 async function recalibrationFit(runId: string, method: RecalibrationMethod) {
-  const rows: { id: string; status: string; score_version_id: string; cohort_version_id: string }[] = await dataSource.query(
-    'SELECT id, status, score_version_id, cohort_version_id FROM validation_runs WHERE id = $1',
-    [runId],
-  );
+  const rows: { id: string; status: string; score_version_id: string; cohort_version_id: string }[] =
+    await dataSource.query(
+      'SELECT id, status, score_version_id, cohort_version_id FROM validation_runs WHERE id = $1',
+      [runId],
+    );
   if (!rows[0]) throw notFound('validation run');
-  if (rows[0].status !== 'completed') throw conflict(`the run is ${rows[0].status}; only a completed run can be recalibrated`);
+  if (rows[0].status !== 'completed')
+    throw conflict(`the run is ${rows[0].status}; only a completed run can be recalibrated`);
   const version = await versionById(rows[0].score_version_id);
   if (version.mode !== 'formula' || !version.model)
-    throw conflict('this score version uses supplied probabilities and has no formula to transform; recalibration needs a formula version');
-  const answer = await recalibrateInPool({ cohortVersionId: rows[0].cohort_version_id, score: scoreInputOf(version), method });
+    throw conflict(
+      'this score version uses supplied probabilities and has no formula to transform; recalibration needs a formula version',
+    );
+  const answer = await recalibrateInPool({
+    cohortVersionId: rows[0].cohort_version_id,
+    score: scoreInputOf(version),
+    method,
+  });
   if (!answer.ok) throw conflict(answer.message);
   return { version, derivation: answer.derivation, fit: answer.fit };
 }
@@ -36,12 +44,19 @@ export async function recalibrationPreview(runId: string, method: RecalibrationM
 export async function recalibrate(actor: AuthUser, runId: string, method: RecalibrationMethod, ip: string) {
   const input = await recalibrationFit(runId, method);
   const { derivation, fit } = input;
-  if (!fit) throw conflict('closed testing keeps the original score (no update is significant); no new version was proposed');
+  if (!fit)
+    throw conflict('closed testing keeps the original score (no update is significant); no new version was proposed');
   const model = transformModel(input.version.model!, fit.a.estimate, fit.b.estimate);
   const sv = await createScoreVersion(
     actor,
     input.version.score_id,
-    { mode: 'formula', model, changeNote: `Recalibrated (${method}) from run ${runId}`, derivedFromRunId: runId, derivation: derivation as unknown as Record<string, unknown> },
+    {
+      mode: 'formula',
+      model,
+      changeNote: `Recalibrated (${method}) from run ${runId}`,
+      derivedFromRunId: runId,
+      derivation: derivation as unknown as Record<string, unknown>,
+    },
     ip,
   );
   await appendAudit({
@@ -51,7 +66,14 @@ export async function recalibrate(actor: AuthUser, runId: string, method: Recali
     targetType: 'score_version',
     targetId: sv.id,
     sourceIp: ip,
-    details: { fromRunId: runId, fromScoreVersionId: input.version.id, method, chosen: derivation.chosen, a: fit.a.estimate, b: fit.b.estimate },
+    details: {
+      fromRunId: runId,
+      fromScoreVersionId: input.version.id,
+      method,
+      chosen: derivation.chosen,
+      a: fit.a.estimate,
+      b: fit.b.estimate,
+    },
   });
   return { version: await scoreVersionDto(sv), derivation, banner: RECALIBRATION_BANNER };
 }

@@ -8,7 +8,12 @@ import { calibrationSlope } from '../../stats/calibrationSlope';
 import { closedTest } from '../../stats/closedTest';
 import { groupedCalibration } from '../../stats/groupedCalibration';
 import { observedExpected } from '../../stats/observedExpected';
-import { interceptUpdate, logisticRecalibration, recalibratedProbabilities, type UpdateFit } from '../../stats/recalibration';
+import {
+  interceptUpdate,
+  logisticRecalibration,
+  recalibratedProbabilities,
+  type UpdateFit,
+} from '../../stats/recalibration';
 import { sortCohort } from '../../stats/sortedCohort';
 
 /** A fit that cannot be made (separation, no convergence): answered as a conflict, with this message. */
@@ -24,16 +29,31 @@ export const finiteEstimate = (e: Estimate | null | undefined): Estimate | null 
   e && Number.isFinite(e.estimate) ? { estimate: e.estimate, lower: e.lower, upper: e.upper } : null;
 
 function summary(lp: Float64Array, p: Float64Array, y: Uint8Array): CalibrationSummary {
-  return { citl: convergedEstimate(calibrationIntercept(lp, y)), slope: convergedEstimate(calibrationSlope(lp, y)), oe: finiteEstimate(observedExpected(p, y)) };
+  return {
+    citl: convergedEstimate(calibrationIntercept(lp, y)),
+    slope: convergedEstimate(calibrationSlope(lp, y)),
+    oe: finiteEstimate(observedExpected(p, y)),
+  };
 }
 
 function curve(p: Float64Array, y: Uint8Array): CalibrationPoint[] {
-  return groupedCalibration(sortCohort(p, y), 10).map((g) => ({ meanPredicted: g.meanPredicted, observed: g.observed.estimate }));
+  return groupedCalibration(sortCohort(p, y), 10).map((g) => ({
+    meanPredicted: g.meanPredicted,
+    observed: g.observed.estimate,
+  }));
 }
 
-const estOf = (e: { estimate: number; lower: number; upper: number }): Estimate => ({ estimate: e.estimate, lower: e.lower, upper: e.upper });
+const estOf = (e: { estimate: number; lower: number; upper: number }): Estimate => ({
+  estimate: e.estimate,
+  lower: e.lower,
+  upper: e.upper,
+});
 
-export function derive(method: RecalibrationMethod, lp: Float64Array, y: Uint8Array): { derivation: Derivation; fit: UpdateFit | null } {
+export function derive(
+  method: RecalibrationMethod,
+  lp: Float64Array,
+  y: Uint8Array,
+): { derivation: Derivation; fit: UpdateFit | null } {
   madeHere++;
   let fit: UpdateFit | null;
   let chosen: Derivation['chosen'];
@@ -71,4 +91,3 @@ export function derive(method: RecalibrationMethod, lp: Float64Array, y: Uint8Ar
     },
   };
 }
-

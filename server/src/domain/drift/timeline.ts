@@ -104,14 +104,19 @@ async function completedRuns(versionId: string): Promise<RunRow[]> {
   );
 }
 
-export const scoreInputOf = (v: VersionRow): RunScoreInput => ({ mode: v.mode, model: v.model, probabilityColumn: v.probability_column });
+export const scoreInputOf = (v: VersionRow): RunScoreInput => ({
+  mode: v.mode,
+  model: v.model,
+  probabilityColumn: v.probability_column,
+});
 
 /** Stored series of the version on these cohort versions; a pair without one (a run stored before series were kept) gets it worked out in the run thread first. */
 async function storedSeries(versionId: string, cohortVersionIds: string[]): Promise<Map<string, DriftSeriesPart>> {
   const found = await readDriftSeries(mainQuery, versionId, cohortVersionIds);
   const missing = cohortVersionIds.filter((id) => !found.has(id));
   if (!missing.length) return found;
-  for (const cohortVersionId of missing) await computeInThread({ task: 'drift-series', scoreVersionId: versionId, cohortVersionId }).result;
+  for (const cohortVersionId of missing)
+    await computeInThread({ task: 'drift-series', scoreVersionId: versionId, cohortVersionId }).result;
   return readDriftSeries(mainQuery, versionId, cohortVersionIds);
 }
 
@@ -163,7 +168,11 @@ async function patientSeries(version: VersionRow, runs: RunRow[]): Promise<Patie
 /** What a cohort version's dates cover: 2026-Q2, 2026-H1 (half-year), or a span of months, so unequal periods show as such. */
 function periodSpan(start: string | null, end: string | null): DriftPeriod['period'] {
   const one = periodCovering(start, end);
-  return { label: one ? one.label : start || end ? formatPeriodRange(start, end) : 'period not recorded', kind: one?.kind ?? null, months: wholeMonths(start, end) };
+  return {
+    label: one ? one.label : start || end ? formatPeriodRange(start, end) : 'period not recorded',
+    kind: one?.kind ?? null,
+    months: wholeMonths(start, end),
+  };
 }
 
 export interface DriftCore {
@@ -202,7 +211,14 @@ export async function driftCore(versionId: string): Promise<DriftCore> {
       calibrationIntercept: convergedEstimate(r.citl),
       calibrationSlope: convergedEstimate(r.slope),
       oe: finiteEstimate(r.oe),
-      funnel: { oMinusE: lim.oMinusE, lower95: lim.limits95.oMinusE[0], upper95: lim.limits95.oMinusE[1], lower998: lim.limits998.oMinusE[0], upper998: lim.limits998.oMinusE[1], status: lim.status },
+      funnel: {
+        oMinusE: lim.oMinusE,
+        lower95: lim.limits95.oMinusE[0],
+        upper95: lim.limits95.oMinusE[1],
+        lower998: lim.limits998.oMinusE[0],
+        upper998: lim.limits998.oMinusE[1],
+        status: lim.status,
+      },
     };
   });
   return { version, runs, periods, series };
@@ -243,7 +259,16 @@ export async function driftForVersion(scoreId: string, versionNumber: number): P
     scoreName: version.score_name,
     version: version.version,
     versionId: version.id,
-    reference: ref ? { runId: ref.runId, label: ref.label, auc: ref.auc, calibrationIntercept: ref.calibrationIntercept, calibrationSlope: ref.calibrationSlope, oe: ref.oe } : null,
+    reference: ref
+      ? {
+          runId: ref.runId,
+          label: ref.label,
+          auc: ref.auc,
+          calibrationIntercept: ref.calibrationIntercept,
+          calibrationSlope: ref.calibrationSlope,
+          oe: ref.oe,
+        }
+      : null,
     periods,
     cusum: {
       oddsRatio,

@@ -204,7 +204,12 @@ async function approvalOf(m: EntityManager, approvedRunId: string): Promise<Appr
   );
   const a = rows[0];
   if (!a) return null;
-  return { runId: approvedRunId, runNumber: Number(a.run_number), cohortLabel: a.cohort_label, signedAt: a.signed_at ? new Date(a.signed_at).toISOString() : null };
+  return {
+    runId: approvedRunId,
+    runNumber: Number(a.run_number),
+    cohortLabel: a.cohort_label,
+    signedAt: a.signed_at ? new Date(a.signed_at).toISOString() : null,
+  };
 }
 
 /** Reviews, signatures and what the signed-in account may do next on this run. */
@@ -219,8 +224,11 @@ export async function getRunGovernance(actor: AuthUser, runId: string): Promise<
   if (actor.role !== 'chair') reasonCannotSign = 'only the committee chair signs';
   else if (!current) reasonCannotSign = 'the run has no review yet';
   else if (current.decision) reasonCannotSign = `the current review was already signed (${current.decision})`;
-  else if (current.closedBy) reasonCannotSign = 'the approval of this score version was revoked after this review was written; the statistician reviews the run again first';
-  else if (reviews.some((r) => r.reviewerId === actor.id)) reasonCannotSign = 'you reviewed this run, so another chair must sign it';
+  else if (current.closedBy)
+    reasonCannotSign =
+      'the approval of this score version was revoked after this review was written; the statistician reviews the run again first';
+  else if (reviews.some((r) => r.reviewerId === actor.id))
+    reasonCannotSign = 'you reviewed this run, so another chair must sign it';
   return {
     runId,
     runStatus: run.status,
@@ -248,13 +256,23 @@ export async function reviewRun(actor: AuthUser, runId: string, input: ReviewReq
   const reviewId = await dataSource.transaction(async (m) => {
     const run = await loadRun(m, runId, true);
     if (run.status !== 'completed') throw conflict(`the run is ${run.status}; only a completed run can be reviewed`);
-    const approved: unknown[] = await m.query(`SELECT 1 FROM signatures WHERE run_id = $1 AND meaning = 'approve for clinical use'`, [runId]);
-    if (approved.length) throw conflict('this run was approved for clinical use; its record is closed — start a new run to review again');
+    const approved: unknown[] = await m.query(
+      `SELECT 1 FROM signatures WHERE run_id = $1 AND meaning = 'approve for clinical use'`,
+      [runId],
+    );
+    if (approved.length)
+      throw conflict('this run was approved for clinical use; its record is closed — start a new run to review again');
     const current = await m.getRepository(RunReview).findOne({ where: { runId, supersededBy: IsNull() } });
     const [{ id }]: { id: string }[] = await m.query('SELECT gen_random_uuid() AS id');
     // The old review points at its successor first (the link is deferred), keeping one current review per run.
     if (current) await m.query('UPDATE run_reviews SET superseded_by = $1 WHERE id = $2', [id, current.id]);
-    await m.insert(RunReview, { id, runId, verdict: input.verdict, reasoning: input.reasoning, reviewerId: actor.id } as never);
+    await m.insert(RunReview, {
+      id,
+      runId,
+      verdict: input.verdict,
+      reasoning: input.reasoning,
+      reviewerId: actor.id,
+    } as never);
     await appendAudit(
       {
         actorId: actor.id,
@@ -291,15 +309,37 @@ export async function reviewRun(actor: AuthUser, runId: string, input: ReviewReq
 // ---------- signatures ----------
 
 /** The signer's password, re-entered: limited and audited like sign-in (users.verifyPasswordFor). */
-async function reauthenticate(actor: AuthUser, password: string, act: string, targetType: string, targetId: string, ip: string) {
-  await verifyPasswordFor(actor, password, { action: 'signature', targetType, targetId, ip, details: { act } }, 'the password is not correct; the signature was not recorded');
+async function reauthenticate(
+  actor: AuthUser,
+  password: string,
+  act: string,
+  targetType: string,
+  targetId: string,
+  ip: string,
+) {
+  await verifyPasswordFor(
+    actor,
+    password,
+    { action: 'signature', targetType, targetId, ip, details: { act } },
+    'the password is not correct; the signature was not recorded',
+  );
 }
 
-const isUniqueViolation = (err: unknown) => (err as { code?: string; driverError?: { code?: string } }).code === '23505' || (err as { driverError?: { code?: string } }).driverError?.code === '23505';
+const isUniqueViolation = (err: unknown) =>
+  (err as { code?: string; driverError?: { code?: string } }).code === '23505' ||
+  (err as { driverError?: { code?: string } }).driverError?.code === '23505';
 
 async function notifyDecision(m: EntityManager, subject: string, text: string[], kind: string) {
   const to = [...(await recipientsForRole('steward', m)), ...(await recipientsForRole('statistician', m))];
-  await queueEmail({ to, subject, kind, text: [...text, '', 'Plumbline — a statistical check of past local performance; not medical advice.'].join('\n') }, m);
+  await queueEmail(
+    {
+      to,
+      subject,
+      kind,
+      text: [...text, '', 'Plumbline — a statistical check of past local performance; not medical advice.'].join('\n'),
+    },
+    m,
+  );
 }
 
 /** The chair approves the run's score version for clinical use, or returns the run to the statistician. */
@@ -323,19 +363,29 @@ export async function signoffRun(
       if (!unlocked) throw notFound('validation run');
       await m.query('SELECT id FROM score_versions WHERE id = $1 FOR UPDATE', [unlocked.score_version_id]);
       const run = await loadRun(m, runId, true);
-      if (run.status !== 'completed') throw conflict(`the run is ${run.status}; only a completed, reviewed run can be signed`);
+      if (run.status !== 'completed')
+        throw conflict(`the run is ${run.status}; only a completed, reviewed run can be signed`);
       const current = await m.getRepository(RunReview).findOne({ where: { runId, supersededBy: IsNull() } });
       if (!current) throw conflict('the run has no review yet; the statistician reviews before the chair signs');
-      const reviewed: unknown[] = await m.query('SELECT 1 FROM run_reviews WHERE run_id = $1 AND reviewer_id = $2', [runId, actor.id]);
+      const reviewed: unknown[] = await m.query('SELECT 1 FROM run_reviews WHERE run_id = $1 AND reviewer_id = $2', [
+        runId,
+        actor.id,
+      ]);
       if (reviewed.length) throw forbidden('you reviewed this run, so another chair must sign it');
-      const decided: { meaning: string }[] = await m.query('SELECT meaning FROM signatures WHERE review_id = $1 AND meaning = ANY($2)', [current.id, DECISIVE]);
+      const decided: { meaning: string }[] = await m.query(
+        'SELECT meaning FROM signatures WHERE review_id = $1 AND meaning = ANY($2)',
+        [current.id, DECISIVE],
+      );
       if (decided.length) throw conflict(`this review was already signed (${decided[0].meaning})`);
       const [closing]: { id: string }[] = await m.query(
         `SELECT s.id FROM signatures s JOIN run_reviews rv ON rv.id = $2
          WHERE s.meaning = 'revoke approval' AND s.score_version_id = $1 AND s.signed_at >= date_trunc('milliseconds', rv.created_at)`,
         [run.score_version_id, current.id],
       );
-      if (closing) throw conflict('the approval of this score version was revoked after this review was written, which closed it; the statistician reviews the run again first');
+      if (closing)
+        throw conflict(
+          'the approval of this score version was revoked after this review was written, which closed it; the statistician reviews the run again first',
+        );
       if (input.decision === 'approve' && approvalNeedsReason(current.verdict) && !reason) {
         throw invalid(`the review says "${current.verdict}": approving against it needs your written reason`);
       }
@@ -372,7 +422,10 @@ export async function signoffRun(
         revokesSignatureId: null,
       } as never);
       if (input.decision === 'approve') {
-        await m.query(`UPDATE score_versions SET clinical_status = 'approved', approved_run_id = $1 WHERE id = $2`, [runId, run.score_version_id]);
+        await m.query(`UPDATE score_versions SET clinical_status = 'approved', approved_run_id = $1 WHERE id = $2`, [
+          runId,
+          run.score_version_id,
+        ]);
       }
       await appendAudit(
         {
@@ -382,13 +435,22 @@ export async function signoffRun(
           targetType: 'validation_run',
           targetId: runId,
           sourceIp: ip,
-          details: { signatureId: id, reviewId: current.id, meaning, reason, scoreVersionId: run.score_version_id, signedAt: signedAt.toISOString() },
+          details: {
+            signatureId: id,
+            reviewId: current.id,
+            meaning,
+            reason,
+            scoreVersionId: run.score_version_id,
+            signedAt: signedAt.toISOString(),
+          },
         },
         m,
       );
       await notifyDecision(
         m,
-        input.decision === 'approve' ? `Approved for clinical use: ${runTitle(run)}` : `Returned to the statistician: ${runTitle(run)}`,
+        input.decision === 'approve'
+          ? `Approved for clinical use: ${runTitle(run)}`
+          : `Returned to the statistician: ${runTitle(run)}`,
         [
           `${actor.name} (committee chair) signed the validation run of ${runTitle(run)}.`,
           `Meaning of the signature: ${meaning}.`,
@@ -410,7 +472,12 @@ export async function signoffRun(
 }
 
 /** Withdraws a score version's approval: a signed act with a reason, linked to the approval it revokes. */
-export async function revokeApproval(actor: AuthUser, versionId: string, input: { password: string; reason: string }, ip: string): Promise<SignatureView> {
+export async function revokeApproval(
+  actor: AuthUser,
+  versionId: string,
+  input: { password: string; reason: string },
+  ip: string,
+): Promise<SignatureView> {
   if (actor.role !== 'chair') throw forbidden('only the committee chair revokes an approval');
   await reauthenticate(actor, input.password, 'revoke', 'score_version', versionId, ip);
   let result: { id: string; runId: string };
@@ -422,16 +489,21 @@ export async function revokeApproval(actor: AuthUser, versionId: string, input: 
       );
       const version = versions[0];
       if (!version) throw notFound('score version');
-      if (version.clinical_status !== 'approved' || !version.approved_run_id) throw conflict(`the score version is ${version.clinical_status}; only an approved version can be revoked`);
+      if (version.clinical_status !== 'approved' || !version.approved_run_id)
+        throw conflict(`the score version is ${version.clinical_status}; only an approved version can be revoked`);
       const run = await loadRun(m, version.approved_run_id, true);
       const approvals: Signature[] = await m
         .getRepository(Signature)
         .find({ where: { runId: run.id, meaning: 'approve for clinical use' }, order: { signedAt: 'DESC' }, take: 1 });
       const approval = approvals[0];
       if (!approval) throw conflict('no approval signature was found for this version');
-      const review = approval.reviewId ? await m.getRepository(RunReview).findOne({ where: { id: approval.reviewId } }) : null;
+      const review = approval.reviewId
+        ? await m.getRepository(RunReview).findOne({ where: { id: approval.reviewId } })
+        : null;
       // The database clock, the one that dates reviews: every review written before this moment is closed (CLOSED_BY_SQL).
-      const [{ at: signedAt }]: { at: Date }[] = await m.query(`SELECT date_trunc('milliseconds', clock_timestamp()) AS at`);
+      const [{ at: signedAt }]: { at: Date }[] = await m.query(
+        `SELECT date_trunc('milliseconds', clock_timestamp()) AS at`,
+      );
       const closes: { id: string; run_id: string }[] = await m.query(
         `SELECT rv.id, rv.run_id FROM run_reviews rv JOIN validation_runs vr ON vr.id = rv.run_id
          WHERE vr.score_version_id = $1 AND rv.superseded_by IS NULL AND date_trunc('milliseconds', rv.created_at) <= $2
@@ -478,7 +550,14 @@ export async function revokeApproval(actor: AuthUser, versionId: string, input: 
           targetType: 'score_version',
           targetId: versionId,
           sourceIp: ip,
-          details: { signatureId: id, revokes: approval.id, runId: run.id, reason: input.reason, signedAt: signedAt.toISOString(), closesReviews: closes.map((c) => c.id) },
+          details: {
+            signatureId: id,
+            revokes: approval.id,
+            runId: run.id,
+            reason: input.reason,
+            signedAt: signedAt.toISOString(),
+            closesReviews: closes.map((c) => c.id),
+          },
         },
         m,
       );
@@ -489,7 +568,11 @@ export async function revokeApproval(actor: AuthUser, versionId: string, input: 
           `${actor.name} (committee chair) revoked the clinical-use approval of ${run.score_name} v${run.score_version}.`,
           `Reason: ${input.reason}`,
           `Signed at ${signedAt.toISOString()} (UTC). Clinicians no longer see its score card.`,
-          ...(closes.length ? [`${closes.length} review(s) of this version awaiting a decision were closed; a new review is needed before any sign-off.`] : []),
+          ...(closes.length
+            ? [
+                `${closes.length} review(s) of this version awaiting a decision were closed; a new review is needed before any sign-off.`,
+              ]
+            : []),
           '',
           `${appUrl()}/runs/${run.id}`,
         ],
@@ -508,7 +591,15 @@ export async function revokeApproval(actor: AuthUser, versionId: string, input: 
 
 export async function listComments(runId: string): Promise<CommentView[]> {
   await loadRun(dataSource.manager, runId);
-  const rows: { id: string; run_id: string; author_id: string; author_name: string; author_role: Role; body: string; created_at: Date }[] = await dataSource.query(
+  const rows: {
+    id: string;
+    run_id: string;
+    author_id: string;
+    author_name: string;
+    author_role: Role;
+    body: string;
+    created_at: Date;
+  }[] = await dataSource.query(
     `SELECT c.*, u.name AS author_name, u.role AS author_role
      FROM run_comments c JOIN users u ON u.id = c.author_id WHERE c.run_id = $1 ORDER BY c.created_at ASC, c.id`,
     [runId],
@@ -525,13 +616,22 @@ export async function listComments(runId: string): Promise<CommentView[]> {
 }
 
 export async function addComment(actor: AuthUser, runId: string, body: string, ip: string): Promise<CommentView> {
-  if (actor.role === 'clinician') throw forbidden('clinicians read score cards; the run discussion is for the quality team');
+  if (actor.role === 'clinician')
+    throw forbidden('clinicians read score cards; the run discussion is for the quality team');
   const id = await dataSource.transaction(async (m) => {
     await loadRun(m, runId);
     const [{ id }]: { id: string }[] = await m.query('SELECT gen_random_uuid() AS id');
     await m.insert(RunComment, { id, runId, authorId: actor.id, body } as never);
     await appendAudit(
-      { actorId: actor.id, actorEmail: actor.email, action: 'comment.create', targetType: 'validation_run', targetId: runId, sourceIp: ip, details: { commentId: id, length: body.length } },
+      {
+        actorId: actor.id,
+        actorEmail: actor.email,
+        action: 'comment.create',
+        targetType: 'validation_run',
+        targetId: runId,
+        sourceIp: ip,
+        details: { commentId: id, length: body.length },
+      },
       m,
     );
     return id;

@@ -95,24 +95,40 @@ async function claim(sql: string, params: unknown[]): Promise<OutboxRow[]> {
 }
 
 /** Sends one claimed message and records the outcome; `lastTry` marks it failed instead of waiting for a retry. */
-async function sendClaimed(row: OutboxRow, transporter: ReturnType<typeof transport>, lastTry: boolean): Promise<Outcome> {
+async function sendClaimed(
+  row: OutboxRow,
+  transporter: ReturnType<typeof transport>,
+  lastTry: boolean,
+): Promise<Outcome> {
   const attempts = row.attempts + 1;
   try {
     await transporter.sendMail({ from: config.smtp.from, to: row.to, subject: row.subject, text: row.text });
   } catch (err) {
     const lastError = (err as Error).message?.slice(0, 2000) ?? String(err);
     const giveUp = lastTry || attempts >= MAX_ATTEMPTS;
-    await dataSource.getRepository(EmailOutbox).update(row.id, { attempts, lastError, status: giveUp ? 'failed' : 'pending', nextAttemptAt: new Date(Date.now() + backoffMs(attempts)) });
-    logger[giveUp ? 'warn' : 'info']({ outboxId: row.id, kind: row.kind, attempts, maxAttempts: MAX_ATTEMPTS, lastError }, giveUp ? 'gave up sending an e-mail' : 'sending an e-mail failed; will retry');
+    await dataSource.getRepository(EmailOutbox).update(row.id, {
+      attempts,
+      lastError,
+      status: giveUp ? 'failed' : 'pending',
+      nextAttemptAt: new Date(Date.now() + backoffMs(attempts)),
+    });
+    logger[giveUp ? 'warn' : 'info'](
+      { outboxId: row.id, kind: row.kind, attempts, maxAttempts: MAX_ATTEMPTS, lastError },
+      giveUp ? 'gave up sending an e-mail' : 'sending an e-mail failed; will retry',
+    );
     return giveUp ? 'failed' : 'retried';
   }
-  await dataSource.getRepository(EmailOutbox).update(row.id, { status: 'sent', attempts, sentAt: new Date(), lastError: null });
+  await dataSource
+    .getRepository(EmailOutbox)
+    .update(row.id, { status: 'sent', attempts, sentAt: new Date(), lastError: null });
   return 'sent';
 }
 
 /** The 'mail' job: sends its message unless it was sent meanwhile; a failure is thrown so pg-boss tries again later. */
 export const mailJob: JobHandler<{ outboxId: string }> = async (job) => {
-  const [row] = await claim(`UPDATE email_outbox SET ${CLAIM} WHERE id = $1 AND status = 'pending' ${RETURNING}`, [job.data.outboxId]);
+  const [row] = await claim(`UPDATE email_outbox SET ${CLAIM} WHERE id = $1 AND status = 'pending' ${RETURNING}`, [
+    job.data.outboxId,
+  ]);
   if (!row) return;
   const transporter = transport();
   try {

@@ -17,7 +17,8 @@ function methods(settings: Partial<RunSettings> | null, results: RunResults | nu
     {
       name: 'Discrimination (AUC)',
       how: 'c-statistic with DeLong standard error and 95% CI; ties count one half.',
-      source: 'DeLong ER, DeLong DM, Clarke-Pearson DL (1988) Biometrics 44:837–845; Sun X, Xu W (2014) IEEE Signal Processing Letters 21:1389–1393',
+      source:
+        'DeLong ER, DeLong DM, Clarke-Pearson DL (1988) Biometrics 44:837–845; Sun X, Xu W (2014) IEEE Signal Processing Letters 21:1389–1393',
     },
     {
       name: 'Calibration-in-the-large and calibration slope',
@@ -52,7 +53,8 @@ function methods(settings: Partial<RunSettings> | null, results: RunResults | nu
     {
       name: 'Sample size adequacy',
       how: `events${o ? ` (${formatCount(o.events)})` : ''} and non-events${o ? ` (${formatCount(o.nonEvents)})` : ''} against published minimums for external validation.`,
-      source: 'Collins GS, Ogundimu EO, Altman DG (2016) Stat Med 35:214–226; Riley RD et al. (2021) Stat Med 40:4230–4251',
+      source:
+        'Collins GS, Ogundimu EO, Altman DG (2016) Stat Med 35:214–226; Riley RD et al. (2021) Stat Med 40:4230–4251',
     },
   ];
 }

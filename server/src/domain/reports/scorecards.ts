@@ -12,9 +12,18 @@ const interval = (e: { estimate: number; lower: number; upper: number } | null |
   e && Number.isFinite(e.estimate) ? { estimate: e.estimate, lower: e.lower, upper: e.upper } : null;
 
 /** How one predictor enters the formula, in words a clinician reads. */
-export function describeInputs(mode: string, model: ScoreModel | null, probabilityColumn: string | null): { name: string; how: string }[] {
+export function describeInputs(
+  mode: string,
+  model: ScoreModel | null,
+  probabilityColumn: string | null,
+): { name: string; how: string }[] {
   if (mode === 'supplied' || !model) {
-    return [{ name: probabilityColumn ?? 'predicted probability', how: 'a predicted risk supplied by the score’s vendor (the formula is not published)' }];
+    return [
+      {
+        name: probabilityColumn ?? 'predicted probability',
+        how: 'a predicted risk supplied by the score’s vendor (the formula is not published)',
+      },
+    ];
   }
   const seen = new Map<string, string>();
   for (const p of model.predictors) {
@@ -32,13 +41,22 @@ export function describeInputs(mode: string, model: ScoreModel | null, probabili
 }
 
 /** The figures of a run that a score card shows (a subset of its results.overall). */
-export type CardFigures = Pick<ValidationResult, 'n' | 'events' | 'auc' | 'oe' | 'calibrationIntercept' | 'calibrationSlope'>;
+export type CardFigures = Pick<
+  ValidationResult,
+  'n' | 'events' | 'auc' | 'oe' | 'calibrationIntercept' | 'calibrationSlope'
+>;
 
 /** The run's key numbers, one plain sentence each; wording follows the direction of each measure. */
-export function plainWords(o: CardFigures, cohort: { patients: number; events: number; periodStart: string | null; periodEnd: string | null }): string[] {
+export function plainWords(
+  o: CardFigures,
+  cohort: { patients: number; events: number; periodStart: string | null; periodEnd: string | null },
+): string[] {
   const out: string[] = [];
-  const when = cohort.periodStart && cohort.periodEnd ? ` discharged between ${cohort.periodStart} and ${cohort.periodEnd}` : '';
-  out.push(`Checked on ${formatCount(cohort.patients)} local patients${when}, of whom ${formatCount(cohort.events)} had the outcome.`);
+  const when =
+    cohort.periodStart && cohort.periodEnd ? ` discharged between ${cohort.periodStart} and ${cohort.periodEnd}` : '';
+  out.push(
+    `Checked on ${formatCount(cohort.patients)} local patients${when}, of whom ${formatCount(cohort.events)} had the outcome.`,
+  );
   const auc = interval(o.auc);
   if (auc) {
     out.push(
@@ -47,18 +65,32 @@ export function plainWords(o: CardFigures, cohort: { patients: number; events: n
   }
   const oe = interval(o.oe);
   if (oe) {
-    const dir = oe.lower > 1 ? 'more outcomes happened than the score predicted' : oe.upper < 1 ? 'fewer outcomes happened than the score predicted' : 'observed and predicted numbers of outcomes were compatible';
+    const dir =
+      oe.lower > 1
+        ? 'more outcomes happened than the score predicted'
+        : oe.upper < 1
+          ? 'fewer outcomes happened than the score predicted'
+          : 'observed and predicted numbers of outcomes were compatible';
     out.push(`Overall level (observed/expected ${formatEstimate('oe', oe)}): ${dir}.`);
   }
   const citl = o.calibrationIntercept.converged ? interval(o.calibrationIntercept) : null;
   if (citl) {
-    const dir = citl.lower > 0 ? 'the score tended to under-estimate risk' : citl.upper < 0 ? 'the score tended to over-estimate risk' : 'no clear over- or under-estimation on average';
+    const dir =
+      citl.lower > 0
+        ? 'the score tended to under-estimate risk'
+        : citl.upper < 0
+          ? 'the score tended to over-estimate risk'
+          : 'no clear over- or under-estimation on average';
     out.push(`Calibration-in-the-large ${formatEstimate('calibrationIntercept', citl)} (0 is ideal): ${dir}.`);
   } else out.push('Calibration-in-the-large could not be estimated on this cohort.');
   const slope = o.calibrationSlope.converged ? interval(o.calibrationSlope) : null;
   if (slope) {
     const dir =
-      slope.upper < 1 ? 'predicted risks were too extreme (high risks too high, low risks too low)' : slope.lower > 1 ? 'predicted risks were too modest (spread too narrow)' : 'the spread of predicted risks looked about right';
+      slope.upper < 1
+        ? 'predicted risks were too extreme (high risks too high, low risks too low)'
+        : slope.lower > 1
+          ? 'predicted risks were too modest (spread too narrow)'
+          : 'the spread of predicted risks looked about right';
     out.push(`Calibration slope ${formatEstimate('calibrationSlope', slope)} (1 is ideal): ${dir}.`);
   } else out.push('The calibration slope could not be estimated on this cohort.');
   return out;
@@ -114,7 +146,12 @@ const CARD_SQL = `
 
 function toCard(r: CardRow): ScoreCardView {
   const overall = r.overall && typeof r.overall.n === 'number' ? r.overall : null;
-  const cohort = { patients: r.row_count ?? overall?.n ?? 0, events: r.events ?? overall?.events ?? 0, periodStart: r.period_start, periodEnd: r.period_end };
+  const cohort = {
+    patients: r.row_count ?? overall?.n ?? 0,
+    events: r.events ?? overall?.events ?? 0,
+    periodStart: r.period_start,
+    periodEnd: r.period_end,
+  };
   return {
     scoreVersionId: r.score_version_id,
     scoreName: r.score_name,
@@ -136,13 +173,18 @@ function toCard(r: CardRow): ScoreCardView {
             patients: overall.n,
             events: overall.events,
             auc: interval(overall.auc),
-            calibrationIntercept: overall.calibrationIntercept.converged ? interval(overall.calibrationIntercept) : null,
+            calibrationIntercept: overall.calibrationIntercept.converged
+              ? interval(overall.calibrationIntercept)
+              : null,
             calibrationSlope: overall.calibrationSlope.converged ? interval(overall.calibrationSlope) : null,
             oe: interval(overall.oe),
             plainWords: plainWords(overall, { ...cohort, patients: overall.n, events: overall.events }),
           }
         : null,
-    approval: r.printed_name && r.signed_at ? { printedName: r.printed_name, role: r.signer_role ?? 'chair', signedAt: new Date(r.signed_at).toISOString() } : null,
+    approval:
+      r.printed_name && r.signed_at
+        ? { printedName: r.printed_name, role: r.signer_role ?? 'chair', signedAt: new Date(r.signed_at).toISOString() }
+        : null,
   };
 }
 

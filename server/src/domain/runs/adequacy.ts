@@ -1,11 +1,23 @@
 // The `adequacy` block of run and cohort-version responses: the shared verdict (shared/src/adequacy.ts) plus the
 // expected CI widths from precisionFor (Riley et al. 2021, server/src/stats/sampleSize.ts).
-import { adequacyVerdict, ASSUMED_AUC, PRECISION_ASSUMPTION, type AdequacyAucSource, type CohortAdequacy } from '@shared/adequacy';
+import {
+  adequacyVerdict,
+  ASSUMED_AUC,
+  PRECISION_ASSUMPTION,
+  type AdequacyAucSource,
+  type CohortAdequacy,
+} from '@shared/adequacy';
 import { dataSource } from '../../platform/database/dataSource';
 import { runPrecisionInputs } from './adequacyPrecision';
 import { precisionOffThread } from './adequacyWidths';
 
-export async function buildAdequacy(input: { n: number; events: number; auc: number | null; source: AdequacyAucSource; runId: string | null }): Promise<CohortAdequacy> {
+export async function buildAdequacy(input: {
+  n: number;
+  events: number;
+  auc: number | null;
+  source: AdequacyAucSource;
+  runId: string | null;
+}): Promise<CohortAdequacy> {
   const { n, events } = input;
   const nonEvents = n - events;
   return {
@@ -21,7 +33,10 @@ export async function buildAdequacy(input: { n: number; events: number; auc: num
 }
 
 /** For a completed run: its own counts and AUC. */
-export async function runAdequacy(run: { id: string; results: { overall: { n: number; events: number; auc: { estimate: number } } } | null }): Promise<CohortAdequacy | null> {
+export async function runAdequacy(run: {
+  id: string;
+  results: { overall: { n: number; events: number; auc: { estimate: number } } } | null;
+}): Promise<CohortAdequacy | null> {
   const inputs = runPrecisionInputs(run.results);
   return inputs && buildAdequacy({ ...inputs, source: 'this run', runId: run.id });
 }
@@ -30,7 +45,12 @@ export async function runAdequacy(run: { id: string; results: { overall: { n: nu
  * For a cohort version: the AUC comes from, in order, the latest completed run on this version, the run on which a
  * version of the cohort's score was approved, the score's latest completed run, or else ASSUMED_AUC (said so).
  */
-export async function cohortVersionAdequacy(v: { id: string; cohortId: string; rowCount: number; events: number }): Promise<CohortAdequacy> {
+export async function cohortVersionAdequacy(v: {
+  id: string;
+  cohortId: string;
+  rowCount: number;
+  events: number;
+}): Promise<CohortAdequacy> {
   // Candidates are ranked without touching `results` (a large TOASTed jsonb); only the best few are opened.
   const rows: { auc: number | null; run_id: string; source: AdequacyAucSource }[] = await dataSource.query(
     `WITH candidates AS (

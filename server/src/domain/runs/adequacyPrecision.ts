@@ -20,7 +20,8 @@ function keep(key: string, value: AdequacyPrecision) {
 
 /** The expected CI widths for n patients with `events` events and this AUC (null: not available), computed once per key. */
 export function precision(n: number, events: number, auc: number | null): AdequacyPrecision {
-  if (events === 0 || events === n) return { oe: null, auc: null, slope: null, note: 'no precision can be given without both events and non-events' };
+  if (events === 0 || events === n)
+    return { oe: null, auc: null, slope: null, note: 'no precision can be given without both events and non-events' };
   const key = keyOf(n, events, auc);
   const hit = memo.get(key);
   if (hit) return hit;
@@ -32,7 +33,12 @@ export function precision(n: number, events: number, auc: number | null): Adequa
     out = { oe: fin(p.oe), auc: null, slope: null, note: 'the AUC is not available, so only the O/E width is given' };
   } else {
     const p = precisionFor(n, eventRate, auc);
-    out = { oe: fin(p.oe), auc: fin(p.auc), slope: fin(p.slope), note: p.slope === null ? 'the calibration slope width needs an AUC above 0.5' : null };
+    out = {
+      oe: fin(p.oe),
+      auc: fin(p.auc),
+      slope: fin(p.slope),
+      note: p.slope === null ? 'the calibration slope width needs an AUC above 0.5' : null,
+    };
   }
   keep(key, out);
   return out;
@@ -44,7 +50,9 @@ export function cachePrecision(n: number, events: number, auc: number | null, va
 }
 
 /** What a completed run's adequacy is computed from: its own counts and AUC (null when the results lack them). */
-export function runPrecisionInputs(results: { overall?: { n?: unknown; events?: unknown; auc?: { estimate?: unknown } } } | null | undefined): { n: number; events: number; auc: number | null } | null {
+export function runPrecisionInputs(
+  results: { overall?: { n?: unknown; events?: unknown; auc?: { estimate?: unknown } } } | null | undefined,
+): { n: number; events: number; auc: number | null } | null {
   const o = results?.overall;
   if (!o || !Number.isInteger(o.n) || !Number.isInteger(o.events)) return null;
   const auc = typeof o.auc?.estimate === 'number' && Number.isFinite(o.auc.estimate) ? o.auc.estimate : null;

@@ -46,7 +46,9 @@ export async function warmRunCiWidths(limit: number, stopped: () => boolean = ()
   );
   for (const r of rows) {
     if (stopped()) return;
-    const inputs = runPrecisionInputs({ overall: { n: r.n, events: r.events, auc: { estimate: r.auc === null ? undefined : Number(r.auc) } } });
+    const inputs = runPrecisionInputs({
+      overall: { n: r.n, events: r.events, auc: { estimate: r.auc === null ? undefined : Number(r.auc) } },
+    });
     if (inputs) await precisionOffThread(inputs.n, inputs.events, inputs.auc);
   }
 }
@@ -58,7 +60,9 @@ export function startCiWidthsWarmUp(): () => void {
   const limit = Number.isInteger(n) && n >= 0 ? Math.min(n, 500) : 50;
   let stopped = false;
   if (limit > 0) {
-    warmRunCiWidths(limit, () => stopped).catch((err) => logger.error({ err }, 'working out the widths of completed runs failed'));
+    warmRunCiWidths(limit, () => stopped).catch((err) =>
+      logger.error({ err }, 'working out the widths of completed runs failed'),
+    );
   }
   return () => {
     stopped = true;

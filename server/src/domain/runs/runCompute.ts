@@ -3,7 +3,15 @@
 import { createHash } from 'node:crypto';
 import type { ScoreModel } from '@shared/model';
 import { formatCount, formatPercent } from '@shared/format';
-import { MIN_SUBGROUP_EVENTS, type PeriodResult, type RunResults, type RunSettings, type SubgroupMetrics, type SubgroupResult, type TimeGrouping } from '@shared/runs';
+import {
+  MIN_SUBGROUP_EVENTS,
+  type PeriodResult,
+  type RunResults,
+  type RunSettings,
+  type SubgroupMetrics,
+  type SubgroupResult,
+  type TimeGrouping,
+} from '@shared/runs';
 import type { Estimate, FitResult, ValidationResult, ValidationSettings } from '@shared/validation';
 import { applyModel, ENGINE_VERSION, resolveSettings, validate } from '../../stats/index';
 import { calibrationBand } from '../../stats/bootstrap';
@@ -38,7 +46,12 @@ export const asStored = <T>(value: T): T => JSON.parse(JSON.stringify(value)) as
 export const resultsSha256 = (results: RunResults) => sha256(canonical(asStored(results)));
 
 /** What the result depends on: the formula, the cohort (by its source hash and size), the settings and the engine. */
-export function inputsSha256(score: RunScoreInput, cohort: { sourceSha256: string; rowCount: number }, settings: RunSettings, engineVersion = ENGINE_VERSION): string {
+export function inputsSha256(
+  score: RunScoreInput,
+  cohort: { sourceSha256: string; rowCount: number },
+  settings: RunSettings,
+  engineVersion = ENGINE_VERSION,
+): string {
   return sha256(
     canonical(
       asStored({
@@ -86,7 +99,10 @@ export function predictedRisk(score: RunScoreInput, data: CohortData): Float64Ar
   for (let i = 0; i < data.n; i++) {
     const v = col[i];
     const x = typeof v === 'number' ? v : v === null || v.trim() === '' ? NaN : Number(v);
-    if (!(x >= 0 && x <= 1)) throw new RunInputError(`cohort line ${data.lineNo[i]}: supplied probability ${JSON.stringify(v)} is not a number in [0, 1]`);
+    if (!(x >= 0 && x <= 1))
+      throw new RunInputError(
+        `cohort line ${data.lineNo[i]}: supplied probability ${JSON.stringify(v)} is not a number in [0, 1]`,
+      );
     p[i] = x;
   }
   return p;
@@ -138,7 +154,16 @@ function partMetrics(p: Float64Array, y: Uint8Array, settings: RunSettings): Sub
     // Subgroups and periods report headline figures without bootstrap: the bootstrap is for the whole cohort.
     return headline(validate(p, y, engineSettings(settings, false)));
   } catch (err) {
-    return { eventRate: NaN, auc: null, calibrationIntercept: null, calibrationSlope: null, oe: null, brier: null, ici: null, warnings: [(err as Error).message] };
+    return {
+      eventRate: NaN,
+      auc: null,
+      calibrationIntercept: null,
+      calibrationSlope: null,
+      oe: null,
+      brier: null,
+      ici: null,
+      warnings: [(err as Error).message],
+    };
   }
 }
 
@@ -167,9 +192,14 @@ export function indicatorLevelWarnings(score: RunScoreInput, data: CohortData): 
     let hits = 0;
     for (let i = 0; i < data.n; i++) if (values[i] !== null && String(values[i]) === t.level) hits++;
     const share = data.n ? hits / data.n : 0;
-    if (hits === 0) out.push(`No patient has ${t.column} = "${t.level}", the level the formula expects: that term never counts, so predicted risks may be wrong. Check how the column is coded.`);
+    if (hits === 0)
+      out.push(
+        `No patient has ${t.column} = "${t.level}", the level the formula expects: that term never counts, so predicted risks may be wrong. Check how the column is coded.`,
+      );
     else if (hits < RARE_LEVEL_COUNT || share < RARE_LEVEL_SHARE)
-      out.push(`Only ${formatCount(hits)} patient${hits === 1 ? '' : 's'} (${formatPercent(share)}) have ${t.column} = "${t.level}", the level the formula expects: check how the column is coded.`);
+      out.push(
+        `Only ${formatCount(hits)} patient${hits === 1 ? '' : 's'} (${formatPercent(share)}) have ${t.column} = "${t.level}", the level the formula expects: check how the column is coded.`,
+      );
   }
   return out;
 }
@@ -186,7 +216,7 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
   const p = predictedRisk(input.score, data);
   const y = data.outcome;
 
-  onProgress(0.1, 'Computing the whole cohort\'s figures');
+  onProgress(0.1, "Computing the whole cohort's figures");
   const total = settings.bootstrapReplicates;
   let lastTold = 0;
   // The bootstrap takes most of a run: each replicate moves the bar from 10 % to 50 %, told at most every 200 ms.
@@ -232,7 +262,14 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
       const part = subset(p, y, byLevel.get(level)!);
       const n = part.p.length;
       const tooSmall = part.events < MIN_SUBGROUP_EVENTS || n - part.events < MIN_SUBGROUP_EVENTS;
-      subgroups.push({ column, level, n, events: part.events, tooSmall, ...(tooSmall ? {} : { result: partMetrics(part.p, part.y, settings) }) });
+      subgroups.push({
+        column,
+        level,
+        n,
+        events: part.events,
+        tooSmall,
+        ...(tooSmall ? {} : { result: partMetrics(part.p, part.y, settings) }),
+      });
     }
     subgroupAnalyses.push({ column, ...subgroupAnalysis(p, y, labelsOf(column, 'subgroup'), levelSettings) });
   });
@@ -240,9 +277,15 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
   let sites: RunResults['sites'];
   if (settings.siteColumn) {
     onProgress(0.85, `Computing sites by ${settings.siteColumn}`);
-    sites = { column: settings.siteColumn, ...siteAnalysis(p, y, labelsOf(settings.siteColumn, 'site'), levelSettings) };
+    sites = {
+      column: settings.siteColumn,
+      ...siteAnalysis(p, y, labelsOf(settings.siteColumn, 'site'), levelSettings),
+    };
   }
-  const band = settings.bootstrapReplicates > 0 ? calibrationBand(p, y, overall.calibrationCurve.smoothed, levelSettings) : undefined;
+  const band =
+    settings.bootstrapReplicates > 0
+      ? calibrationBand(p, y, overall.calibrationCurve.smoothed, levelSettings)
+      : undefined;
 
   const periods: PeriodResult[] = [];
   let undatedRows: number | undefined;
@@ -259,7 +302,8 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
       if (!byPeriod.has(period)) byPeriod.set(period, []);
       byPeriod.get(period)!.push(i);
     }
-    if (byPeriod.size === 0) throw new RunInputError(`time grouping by ${settings.timeGrouping} needs event dates, and this cohort has none`);
+    if (byPeriod.size === 0)
+      throw new RunInputError(`time grouping by ${settings.timeGrouping} needs event dates, and this cohort has none`);
     for (const period of [...byPeriod.keys()].sort()) {
       const part = subset(p, y, byPeriod.get(period)!);
       const n = part.p.length;

@@ -52,7 +52,12 @@ export const runJob: JobHandler<{ runId: string }> = async (job) => {
     );
     if (!claimed.length) return;
     if (attempt > 1) {
-      await appendAudit({ action: 'run.requeued', targetType: 'validation_run', targetId: runId, details: { attempt, reason: 'the process computing it stopped' } });
+      await appendAudit({
+        action: 'run.requeued',
+        targetType: 'validation_run',
+        targetId: runId,
+        details: { attempt, reason: 'the process computing it stopped' },
+      });
       logger.warn({ runId, attempt }, 'computing a run again after its process stopped');
     }
     await computeClaimedRun(runId);
@@ -73,17 +78,25 @@ export const runAbandonedJob: JobHandler<{ runId: string }> = async (job) => {
          AND pg_try_advisory_xact_lock(hashtextextended('plumbline run ' || id::text, 0))`,
       [runId, reason],
     );
-    if (changed === 1) await appendAudit({ action: 'run.failed', targetType: 'validation_run', targetId: runId, details: { reason } }, m);
+    if (changed === 1)
+      await appendAudit(
+        { action: 'run.failed', targetType: 'validation_run', targetId: runId, details: { reason } },
+        m,
+      );
   });
 };
 
 /** Tests and the seed: computes the oldest waiting run here (and its drift-rule job); the run id, or null if none. */
 export async function processNextRun(): Promise<string | null> {
   let ran: string | null = null;
-  await drainJobs<{ runId: string }>(JOB.run, async (job) => {
-    ran = job.data.runId;
-    await runJob(job);
-  }, 1);
+  await drainJobs<{ runId: string }>(
+    JOB.run,
+    async (job) => {
+      ran = job.data.runId;
+      await runJob(job);
+    },
+    1,
+  );
   if (ran) await drainJobs(JOB.driftRules, driftRulesJob);
   return ran;
 }
@@ -109,29 +122,57 @@ async function computeClaimedRun(claimed: string): Promise<string> {
     lastMessage = message;
     pending = pending.then(() =>
       dataSource
-        .query(`UPDATE validation_runs SET progress = $2, progress_message = $3 WHERE id = $1 AND status = 'running'`, [claimed, Math.min(0.99, Math.max(0, fraction)), message])
+        .query(`UPDATE validation_runs SET progress = $2, progress_message = $3 WHERE id = $1 AND status = 'running'`, [
+          claimed,
+          Math.min(0.99, Math.max(0, fraction)),
+          message,
+        ])
         .catch(() => undefined),
     );
   };
 
   try {
     // The thread loads the score and the cohort itself, through its own connection.
-    const thread = computeInThread({ task: 'run', scoreVersionId: run.scoreVersionId, cohortVersionId: run.cohortVersionId, settings: run.settings }, onProgress);
+    const thread = computeInThread(
+      { task: 'run', scoreVersionId: run.scoreVersionId, cohortVersionId: run.cohortVersionId, settings: run.settings },
+      onProgress,
+    );
     active.set(claimed, thread);
     const { results: raw, inputsSha256: inputsHash, drift } = await thread.result;
     active.delete(claimed);
     await pending;
     const sealed = sealResults(raw);
     await dataSource.transaction(async (m) => {
-      if (drift) await storeDriftSeries((sql, params) => m.query(sql, params), run.scoreVersionId, run.cohortVersionId, claimed, drift);
+      if (drift)
+        await storeDriftSeries(
+          (sql, params) => m.query(sql, params),
+          run.scoreVersionId,
+          run.cohortVersionId,
+          claimed,
+          drift,
+        );
       // Idempotent: only a run still 'running' takes a result, so a second attempt never stores a second one.
       const [, changed] = await m.query(
         `UPDATE validation_runs SET status = 'completed', progress = 1, progress_message = 'completed', results = $2::jsonb, engine_version = $3,
            inputs_sha256 = $4, results_sha256 = $5, finished_at = now() WHERE id = $1 AND status = 'running'`,
-        [claimed, JSON.stringify(sealed.results), sealed.results.overall.engineVersion ?? ENGINE_VERSION, inputsHash, sealed.resultsSha256],
+        [
+          claimed,
+          JSON.stringify(sealed.results),
+          sealed.results.overall.engineVersion ?? ENGINE_VERSION,
+          inputsHash,
+          sealed.resultsSha256,
+        ],
       );
       if (changed !== 1) return;
-      await appendAudit({ action: 'run.completed', targetType: 'validation_run', targetId: claimed, details: { inputsSha256: inputsHash, resultsSha256: sealed.resultsSha256, engineVersion: ENGINE_VERSION } }, m);
+      await appendAudit(
+        {
+          action: 'run.completed',
+          targetType: 'validation_run',
+          targetId: claimed,
+          details: { inputsSha256: inputsHash, resultsSha256: sealed.resultsSha256, engineVersion: ENGINE_VERSION },
+        },
+        m,
+      );
       // Drift rules of the score look at the new period, as a job of its own: a failure there never fails the run.
       await enqueue(m, JOB.driftRules, { runId: claimed });
     });
@@ -142,17 +183,29 @@ async function computeClaimedRun(claimed: string): Promise<string> {
     if (stopping) {
       // A clean shutdown interrupted the computation: the run waits in the queue with a fresh job, not a failure.
       await dataSource.transaction(async (m) => {
-        const [, changed] = await m.query(`UPDATE validation_runs SET status = 'queued', progress = 0, progress_message = 'waiting in the queue (server restarted)' WHERE id = $1 AND status = 'running'`, [claimed]);
+        const [, changed] = await m.query(
+          `UPDATE validation_runs SET status = 'queued', progress = 0, progress_message = 'waiting in the queue (server restarted)' WHERE id = $1 AND status = 'running'`,
+          [claimed],
+        );
         if (changed === 1) await enqueue(m, JOB.run, { runId: claimed });
       });
       timer({ outcome: 'interrupted' });
       return claimed;
     }
     outcome = 'failed';
-    const reason = err instanceof RunInputError ? (err as Error).message : `the computation failed: ${(err as Error).message ?? String(err)}`;
+    const reason =
+      err instanceof RunInputError
+        ? (err as Error).message
+        : `the computation failed: ${(err as Error).message ?? String(err)}`;
     await dataSource.transaction(async (m) => {
-      await m.query(`UPDATE validation_runs SET status = 'failed', error = $2, progress_message = 'failed', finished_at = now() WHERE id = $1 AND status = 'running'`, [claimed, reason]);
-      await appendAudit({ action: 'run.failed', targetType: 'validation_run', targetId: claimed, details: { reason } }, m);
+      await m.query(
+        `UPDATE validation_runs SET status = 'failed', error = $2, progress_message = 'failed', finished_at = now() WHERE id = $1 AND status = 'running'`,
+        [claimed, reason],
+      );
+      await appendAudit(
+        { action: 'run.failed', targetType: 'validation_run', targetId: claimed, details: { reason } },
+        m,
+      );
     });
   }
   timer({ outcome });
@@ -163,7 +216,9 @@ async function computeClaimedRun(claimed: string): Promise<string> {
 async function notifyRunFinished(runId: string): Promise<void> {
   try {
     const run = await getRun(runId, dataSource.manager, { adequacy: false });
-    const creator: { email: string }[] = run.createdBy ? await dataSource.query('SELECT email FROM users WHERE id = $1 AND active', [run.createdBy]) : [];
+    const creator: { email: string }[] = run.createdBy
+      ? await dataSource.query('SELECT email FROM users WHERE id = $1 AND active', [run.createdBy])
+      : [];
     const to = [...new Set([...(await recipientsForRole('statistician')), ...creator.map((c) => c.email)])];
     if (to.length === 0) return;
     const what = `${run.scoreName} v${run.scoreVersion} on ${run.cohortName} v${run.cohortVersion}${run.cohortLabel ? ` (${run.cohortLabel})` : ''}`;
@@ -183,7 +238,13 @@ async function notifyRunFinished(runId: string): Promise<void> {
  * Computes a run synchronously in this thread and stores it completed (the demo seed uses this; the API never does,
  * it queues). Same computation, same hashes, same audit entries as the queue.
  */
-export async function recordRunNow(actorId: string | null, scoreVersionId: string, cohortVersionId: string, settings: RunSettings, details: Record<string, unknown> = {}): Promise<string> {
+export async function recordRunNow(
+  actorId: string | null,
+  scoreVersionId: string,
+  cohortVersionId: string,
+  settings: RunSettings,
+  details: Record<string, unknown> = {},
+): Promise<string> {
   const parsed = runSettingsSchema.parse(settings);
   const { input, inputsSha256: inputsHash } = await loadRunInput({ scoreVersionId, cohortVersionId, settings: parsed });
   const sealed = sealResults(computeRunResults(input));
@@ -194,12 +255,43 @@ export async function recordRunNow(actorId: string | null, scoreVersionId: strin
       `INSERT INTO validation_runs (score_version_id, cohort_version_id, settings, status, progress, progress_message, results, engine_version,
          inputs_sha256, results_sha256, created_by, started_at, finished_at)
        VALUES ($1, $2, $3::jsonb, 'completed', 1, 'completed', $4::jsonb, $5, $6, $7, $8, now(), now()) RETURNING id`,
-      [scoreVersionId, cohortVersionId, JSON.stringify(parsed), JSON.stringify(sealed.results), ENGINE_VERSION, inputsHash, sealed.resultsSha256, actorId],
+      [
+        scoreVersionId,
+        cohortVersionId,
+        JSON.stringify(parsed),
+        JSON.stringify(sealed.results),
+        ENGINE_VERSION,
+        inputsHash,
+        sealed.resultsSha256,
+        actorId,
+      ],
     );
     const id = rows[0].id;
     await storeDriftSeries((sql, params) => m.query(sql, params), scoreVersionId, cohortVersionId, id, drift);
-    await appendAudit({ actorId, action: 'run.created', targetType: 'validation_run', targetId: id, details: { scoreVersionId, cohortVersionId, settings: parsed, ...details } }, m);
-    await appendAudit({ action: 'run.completed', targetType: 'validation_run', targetId: id, details: { inputsSha256: inputsHash, resultsSha256: sealed.resultsSha256, engineVersion: ENGINE_VERSION, ...details } }, m);
+    await appendAudit(
+      {
+        actorId,
+        action: 'run.created',
+        targetType: 'validation_run',
+        targetId: id,
+        details: { scoreVersionId, cohortVersionId, settings: parsed, ...details },
+      },
+      m,
+    );
+    await appendAudit(
+      {
+        action: 'run.completed',
+        targetType: 'validation_run',
+        targetId: id,
+        details: {
+          inputsSha256: inputsHash,
+          resultsSha256: sealed.resultsSha256,
+          engineVersion: ENGINE_VERSION,
+          ...details,
+        },
+      },
+      m,
+    );
     return id;
   });
 }

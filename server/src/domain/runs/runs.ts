@@ -3,7 +3,20 @@
 import type { ColumnSummary } from '@shared/cohorts';
 import { periodGroupingOf } from '@shared/periodGrouping';
 import type { EntityManager } from 'typeorm';
-import { runSettingsSchema, type CompareMetric, type ReproduceReport, type RunComparison, type RunDetail, type RunListQuery, type RunResults, type RunOptions, type RunSettings, type RunStage, type RunStatus, type RunSummary } from '@shared/runs';
+import {
+  runSettingsSchema,
+  type CompareMetric,
+  type ReproduceReport,
+  type RunComparison,
+  type RunDetail,
+  type RunListQuery,
+  type RunResults,
+  type RunOptions,
+  type RunSettings,
+  type RunStage,
+  type RunStatus,
+  type RunSummary,
+} from '@shared/runs';
 import { dataSource } from '../../platform/database/dataSource';
 import { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
 import { CohortVersion } from '../../platform/database/entities/CohortVersion';
@@ -28,7 +41,10 @@ export interface CreateRunInput {
 }
 
 /** Column names of the cohort's subgroups and predictors, and whether it has periods (read from its first block). */
-async function cohortColumns(m: EntityManager, cohortVersionId: string): Promise<{ subgroups: Set<string>; hasDates: boolean }> {
+async function cohortColumns(
+  m: EntityManager,
+  cohortVersionId: string,
+): Promise<{ subgroups: Set<string>; hasDates: boolean }> {
   const cols = await cohortColumnNames(cohortVersionId, m);
   return { subgroups: new Set([...cols.subgroups, ...cols.predictors]), hasDates: cols.hasDates };
 }
@@ -42,20 +58,51 @@ export async function createRun(actor: AuthUser, input: CreateRunInput, ip: stri
     if (!cv) throw notFound('cohort version');
     const cols = await cohortColumns(m, cv.id);
     const missing = settings.subgroupColumns.filter((c) => !cols.subgroups.has(c));
-    if (missing.length) throw invalid(`the cohort version has no column ${missing.map((c) => `"${c}"`).join(', ')} to group by`);
-    if (settings.siteColumn && !cols.subgroups.has(settings.siteColumn)) throw invalid(`the cohort version has no site column "${settings.siteColumn}"`);
-    if (settings.timeGrouping !== 'none' && !cols.hasDates) throw invalid('time grouping needs event dates, and this cohort version has none');
+    if (missing.length)
+      throw invalid(`the cohort version has no column ${missing.map((c) => `"${c}"`).join(', ')} to group by`);
+    if (settings.siteColumn && !cols.subgroups.has(settings.siteColumn))
+      throw invalid(`the cohort version has no site column "${settings.siteColumn}"`);
+    if (settings.timeGrouping !== 'none' && !cols.hasDates)
+      throw invalid('time grouping needs event dates, and this cohort version has none');
 
     // The formula is frozen from the moment a run uses it (score_versions trigger keeps it so).
     if (!sv.locked) {
       await m.query('UPDATE score_versions SET locked = true WHERE id = $1 AND NOT locked', [sv.id]);
-      await appendAudit({ actorId: actor.id, actorEmail: actor.email, action: 'score_version.locked', targetType: 'score_version', targetId: sv.id, sourceIp: ip, details: { reason: 'first validation run' } }, m);
+      await appendAudit(
+        {
+          actorId: actor.id,
+          actorEmail: actor.email,
+          action: 'score_version.locked',
+          targetType: 'score_version',
+          targetId: sv.id,
+          sourceIp: ip,
+          details: { reason: 'first validation run' },
+        },
+        m,
+      );
     }
     const run = await m.getRepository(ValidationRun).save(
-      m.getRepository(ValidationRun).create({ scoreVersionId: sv.id, cohortVersionId: cv.id, settings, status: 'queued', progress: 0, progressMessage: 'waiting in the queue', createdBy: actor.id, attempt: 1 }),
+      m.getRepository(ValidationRun).create({
+        scoreVersionId: sv.id,
+        cohortVersionId: cv.id,
+        settings,
+        status: 'queued',
+        progress: 0,
+        progressMessage: 'waiting in the queue',
+        createdBy: actor.id,
+        attempt: 1,
+      }),
     );
     await appendAudit(
-      { actorId: actor.id, actorEmail: actor.email, action: 'run.created', targetType: 'validation_run', targetId: run.id, sourceIp: ip, details: { scoreVersionId: sv.id, cohortVersionId: cv.id, settings } },
+      {
+        actorId: actor.id,
+        actorEmail: actor.email,
+        action: 'run.created',
+        targetType: 'validation_run',
+        targetId: run.id,
+        sourceIp: ip,
+        details: { scoreVersionId: sv.id, cohortVersionId: cv.id, settings },
+      },
       m,
     );
     await enqueue(m, JOB.run, { runId: run.id });
@@ -125,7 +172,9 @@ function toSummary(r: SummaryRow): RunSummary {
     attempt: r.attempt as number,
     headline: (r.headline as RunSummary['headline']) ?? null,
     review: r.review_verdict ? { verdict: r.review_verdict as string, reviewedAt: iso(r.reviewed_at)! } : null,
-    signoff: r.signoff_meaning ? { meaning: r.signoff_meaning as string, signedAt: iso(r.signed_at)!, signedBy: (r.signed_by as string) ?? '' } : null,
+    signoff: r.signoff_meaning
+      ? { meaning: r.signoff_meaning as string, signedAt: iso(r.signed_at)!, signedBy: (r.signed_by as string) ?? '' }
+      : null,
   };
 }
 
@@ -142,22 +191,42 @@ export async function listRuns(q: RunListQuery): Promise<{ total: number; runs: 
   if (q.status) add('r.status = ?', q.status);
   if (q.stage) where.push(`(${STAGE_SQL[q.stage]})`);
   // Words in the score, cohort, label or the name of who started it; LIKE's own wildcards are taken literally.
-  if (q.search) add(`concat_ws(' ', s.name, c.name, cv.label, u.name, rv.verdict) ILIKE ?`, `%${q.search.replace(/[\\%_]/g, (ch) => `\\${ch}`)}%`);
+  if (q.search)
+    add(
+      `concat_ws(' ', s.name, c.name, cv.label, u.name, rv.verdict) ILIKE ?`,
+      `%${q.search.replace(/[\\%_]/g, (ch) => `\\${ch}`)}%`,
+    );
   const filter = where.length ? ` WHERE ${where.join(' AND ')}` : '';
   const total: { n: string }[] = await dataSource.query(`SELECT count(*)::text AS n ${SUMMARY_FROM}${filter}`, args);
-  const rows: SummaryRow[] = await dataSource.query(`${SUMMARY_SELECT}${filter} ORDER BY r.created_at DESC, r.id LIMIT ${q.limit} OFFSET ${q.offset}`, args);
+  const rows: SummaryRow[] = await dataSource.query(
+    `${SUMMARY_SELECT}${filter} ORDER BY r.created_at DESC, r.id LIMIT ${q.limit} OFFSET ${q.offset}`,
+    args,
+  );
   return { total: Number(total[0].n), runs: rows.map(toSummary) };
 }
 
 /** One run; `adequacy` (about 0.2 s of CPU the first time a run is read) only where a page will show it. */
-export async function getRun(id: string, manager: EntityManager = dataSource.manager, opts: { adequacy: boolean } = { adequacy: true }): Promise<RunDetail> {
+export async function getRun(
+  id: string,
+  manager: EntityManager = dataSource.manager,
+  opts: { adequacy: boolean } = { adequacy: true },
+): Promise<RunDetail> {
   const rows: SummaryRow[] = await manager.query(`${SUMMARY_SELECT} WHERE r.id = $1`, [id]);
   if (!rows[0]) throw notFound('validation run');
   // A completed run never changes (trigger plumbline_run_guard): read outside a transaction, its record is final and
   // is kept in memory (domain/runs/runRecordCache.ts).
   const load = () => manager.getRepository(ValidationRun).findOneOrFail({ where: { id } });
-  const run = rows[0].status === 'completed' && manager === dataSource.manager ? await completedRunRecord(id, load) : await load();
-  const detail: RunDetail = { ...toSummary(rows[0]), settings: run.settings, results: run.results, inputsSha256: run.inputsSha256, resultsSha256: run.resultsSha256 };
+  const run =
+    rows[0].status === 'completed' && manager === dataSource.manager
+      ? await completedRunRecord(id, load)
+      : await load();
+  const detail: RunDetail = {
+    ...toSummary(rows[0]),
+    settings: run.settings,
+    results: run.results,
+    inputsSha256: run.inputsSha256,
+    resultsSha256: run.resultsSha256,
+  };
   // Derived on read (not part of the sealed results): is this cohort big enough, and how precise are its figures?
   if (opts.adequacy && run.status === 'completed') detail.adequacy = await runAdequacy(run);
   return detail;
@@ -192,7 +261,10 @@ export async function runOptions(): Promise<RunOptions> {
         version: r.version as number,
         mode: r.mode as 'formula' | 'supplied',
         clinicalStatus: r.clinical_status as string,
-        columns: r.mode === 'formula' ? [...new Set((model?.predictors ?? []).map((p) => p.column))] : [r.probability_column as string],
+        columns:
+          r.mode === 'formula'
+            ? [...new Set((model?.predictors ?? []).map((p) => p.column))]
+            : [r.probability_column as string],
       };
     }),
     cohortVersions: cvs.map((r) => ({
@@ -219,16 +291,34 @@ export function sealResults(results: RunResults): { results: RunResults; results
   return { results: stored, resultsSha256: resultsSha256(stored) };
 }
 
-
-function differences(a: unknown, b: unknown, path = '', out: ReproduceReport['differences'] = [], max = 25): NonNullable<ReproduceReport['differences']> {
+function differences(
+  a: unknown,
+  b: unknown,
+  path = '',
+  out: ReproduceReport['differences'] = [],
+  max = 25,
+): NonNullable<ReproduceReport['differences']> {
   if (out!.length >= max) return out!;
   if (a === b) return out!;
-  if (typeof a !== 'object' || typeof b !== 'object' || a === null || b === null || Array.isArray(a) !== Array.isArray(b)) {
+  if (
+    typeof a !== 'object' ||
+    typeof b !== 'object' ||
+    a === null ||
+    b === null ||
+    Array.isArray(a) !== Array.isArray(b)
+  ) {
     out!.push({ path: path || '(root)', stored: a, recomputed: b });
     return out!;
   }
   const keys = new Set([...Object.keys(a as object), ...Object.keys(b as object)]);
-  for (const k of keys) differences((a as Record<string, unknown>)[k], (b as Record<string, unknown>)[k], Array.isArray(a) ? `${path}[${k}]` : path ? `${path}.${k}` : k, out, max);
+  for (const k of keys)
+    differences(
+      (a as Record<string, unknown>)[k],
+      (b as Record<string, unknown>)[k],
+      Array.isArray(a) ? `${path}[${k}]` : path ? `${path}.${k}` : k,
+      out,
+      max,
+    );
   return out!;
 }
 
@@ -236,8 +326,14 @@ function differences(a: unknown, b: unknown, path = '', out: ReproduceReport['di
 export async function reproduceRun(actor: AuthUser, id: string, ip: string | null = null): Promise<ReproduceReport> {
   const run = await dataSource.getRepository(ValidationRun).findOne({ where: { id } });
   if (!run) throw notFound('validation run');
-  if (run.status !== 'completed' || !run.results || !run.resultsSha256) throw conflict(`only a completed run can be reproduced; this one is ${run.status}`);
-  const outcome = await computeInThread({ task: 'run', scoreVersionId: run.scoreVersionId, cohortVersionId: run.cohortVersionId, settings: run.settings }).result;
+  if (run.status !== 'completed' || !run.results || !run.resultsSha256)
+    throw conflict(`only a completed run can be reproduced; this one is ${run.status}`);
+  const outcome = await computeInThread({
+    task: 'run',
+    scoreVersionId: run.scoreVersionId,
+    cohortVersionId: run.cohortVersionId,
+    settings: run.settings,
+  }).result;
   const inputsHash = outcome.inputsSha256;
   const recomputed = sealResults(outcome.results);
   const storedNow = resultsSha256(run.results);
@@ -250,7 +346,11 @@ export async function reproduceRun(actor: AuthUser, id: string, ip: string | nul
     engineVersionNow: ENGINE_VERSION,
     ...(match ? {} : { differences: differences(run.results, recomputed.results) }),
   };
-  if (inputsHash !== run.inputsSha256) report.differences = [{ path: '(inputs)', stored: run.inputsSha256, recomputed: inputsHash }, ...(report.differences ?? [])];
+  if (inputsHash !== run.inputsSha256)
+    report.differences = [
+      { path: '(inputs)', stored: run.inputsSha256, recomputed: inputsHash },
+      ...(report.differences ?? []),
+    ];
   await appendAudit({
     actorId: actor.id,
     actorEmail: actor.email,
@@ -258,7 +358,12 @@ export async function reproduceRun(actor: AuthUser, id: string, ip: string | nul
     targetType: 'validation_run',
     targetId: id,
     sourceIp: ip,
-    details: { match, storedSha256: report.storedSha256, recomputedSha256: report.recomputedSha256, engineVersionNow: ENGINE_VERSION },
+    details: {
+      match,
+      storedSha256: report.storedSha256,
+      recomputedSha256: report.recomputedSha256,
+      engineVersionNow: ENGINE_VERSION,
+    },
   });
   return report;
 }
@@ -289,14 +394,27 @@ function metric(key: string, label: string, a: unknown, b: unknown): CompareMetr
 }
 
 export async function compareRuns(aId: string, bId: string): Promise<RunComparison> {
-  const [a, b] = await Promise.all([getRun(aId, dataSource.manager, { adequacy: false }), getRun(bId, dataSource.manager, { adequacy: false })]);
-  if (a.status !== 'completed' || b.status !== 'completed' || !a.results || !b.results) throw conflict('both runs must be completed to compare them');
+  const [a, b] = await Promise.all([
+    getRun(aId, dataSource.manager, { adequacy: false }),
+    getRun(bId, dataSource.manager, { adequacy: false }),
+  ]);
+  if (a.status !== 'completed' || b.status !== 'completed' || !a.results || !b.results)
+    throw conflict('both runs must be completed to compare them');
   const oa = a.results.overall;
   const ob = b.results.overall;
   const settingsDiffer = Object.keys({ ...a.settings, ...b.settings }).filter(
-    (k) => JSON.stringify((a.settings as Record<string, unknown>)[k]) !== JSON.stringify((b.settings as Record<string, unknown>)[k]),
+    (k) =>
+      JSON.stringify((a.settings as Record<string, unknown>)[k]) !==
+      JSON.stringify((b.settings as Record<string, unknown>)[k]),
   );
-  const strip = ({ results: _r, settings: _s, inputsSha256: _i, resultsSha256: _h, adequacy: _a, ...rest }: RunDetail): RunSummary => rest;
+  const strip = ({
+    results: _r,
+    settings: _s,
+    inputsSha256: _i,
+    resultsSha256: _h,
+    adequacy: _a,
+    ...rest
+  }: RunDetail): RunSummary => rest;
   return {
     a: strip(a),
     b: strip(b),

@@ -6,7 +6,13 @@
 // version; the database trigger then also refuses any change of its formula (see migration 1764633700000-Registry).
 import type { EntityManager } from 'typeorm';
 import type { ScoreModel } from '@shared/model';
-import type { CreateScoreRequest, ScoreDto, ScoreSummaryDto, ScoreVersionDto, UpdateScoreRequest } from '@shared/scores';
+import type {
+  CreateScoreRequest,
+  ScoreDto,
+  ScoreSummaryDto,
+  ScoreVersionDto,
+  UpdateScoreRequest,
+} from '@shared/scores';
 import { changeNoteProblem, createScoreVersionRequest } from '@shared/scores';
 import { dataSource } from '../../platform/database/dataSource';
 import { Score } from '../../platform/database/entities/Score';
@@ -71,15 +77,21 @@ const isUniqueViolation = (err: unknown) => (err as { code?: string })?.code ===
 
 export async function listScores(): Promise<ScoreSummaryDto[]> {
   const scores = await dataSource.getRepository(Score).find({ order: { name: 'ASC' } });
-  const stats: { score_id: string; n: string; latest: number | null; approved: number[] | null }[] = await dataSource.query(
-    `SELECT score_id, count(*)::text AS n, max(version) AS latest,
+  const stats: { score_id: string; n: string; latest: number | null; approved: number[] | null }[] =
+    await dataSource.query(
+      `SELECT score_id, count(*)::text AS n, max(version) AS latest,
             array_agg(version ORDER BY version) FILTER (WHERE clinical_status = 'approved') AS approved
        FROM score_versions GROUP BY score_id`,
-  );
+    );
   const byScore = new Map(stats.map((r) => [r.score_id, r]));
   return scores.map((s) => {
     const r = byScore.get(s.id);
-    return { ...toScoreDto(s), versionCount: r ? Number(r.n) : 0, latestVersion: r?.latest ?? null, approvedVersions: r?.approved ?? [] };
+    return {
+      ...toScoreDto(s),
+      versionCount: r ? Number(r.n) : 0,
+      latestVersion: r?.latest ?? null,
+      approvedVersions: r?.approved ?? [],
+    };
   });
 }
 
@@ -95,7 +107,15 @@ export async function createScore(actor: Actor, input: CreateScoreRequest, ip: s
       const score = m.create(Score, { ...input, doi: input.doi ?? null, createdBy: actor.id });
       await m.save(score);
       await appendAudit(
-        { actorId: actor.id, actorEmail: actor.email, action: 'score.create', targetType: 'score', targetId: score.id, sourceIp: ip, details: { name: score.name } },
+        {
+          actorId: actor.id,
+          actorEmail: actor.email,
+          action: 'score.create',
+          targetType: 'score',
+          targetId: score.id,
+          sourceIp: ip,
+          details: { name: score.name },
+        },
         m,
       );
       return toScoreDto(score);
@@ -122,7 +142,15 @@ export async function updateScore(actor: Actor, id: string, change: UpdateScoreR
       Object.assign(score, after);
       await m.save(score);
       await appendAudit(
-        { actorId: actor.id, actorEmail: actor.email, action: 'score.update', targetType: 'score', targetId: id, sourceIp: ip, details: { before, after } },
+        {
+          actorId: actor.id,
+          actorEmail: actor.email,
+          action: 'score.update',
+          targetType: 'score',
+          targetId: id,
+          sourceIp: ip,
+          details: { before, after },
+        },
         m,
       );
       return toScoreDto(score);
@@ -139,14 +167,20 @@ async function withNames(rows: ScoreVersion[], manager: EntityManager): Promise<
   const ids = [...new Set(rows.map((r) => r.createdBy).filter((x): x is string => !!x))];
   const names = new Map<string, string>();
   if (ids.length) {
-    const users: { id: string; name: string }[] = await manager.query('SELECT id, name FROM users WHERE id = ANY($1::uuid[])', [ids]);
+    const users: { id: string; name: string }[] = await manager.query(
+      'SELECT id, name FROM users WHERE id = ANY($1::uuid[])',
+      [ids],
+    );
     for (const u of users) names.set(u.id, u.name);
   }
   return rows.map((r) => toVersionDto(r, r.createdBy ? (names.get(r.createdBy) ?? null) : null));
 }
 
 /** The version history of a score, newest first. */
-export async function listScoreVersions(scoreId: string, manager: EntityManager = dataSource.manager): Promise<ScoreVersionDto[]> {
+export async function listScoreVersions(
+  scoreId: string,
+  manager: EntityManager = dataSource.manager,
+): Promise<ScoreVersionDto[]> {
   await getScore(scoreId, manager);
   const rows = await manager.getRepository(ScoreVersion).find({ where: { scoreId }, order: { version: 'DESC' } });
   return withNames(rows, manager);
@@ -160,13 +194,20 @@ export async function getScoreVersion(id: string, manager: EntityManager = dataS
 }
 
 /** One version by score and number (for the API). */
-export async function getScoreVersionByNumber(scoreId: string, version: number, manager: EntityManager = dataSource.manager): Promise<ScoreVersion> {
+export async function getScoreVersionByNumber(
+  scoreId: string,
+  version: number,
+  manager: EntityManager = dataSource.manager,
+): Promise<ScoreVersion> {
   const v = await manager.getRepository(ScoreVersion).findOne({ where: { scoreId, version } });
   if (!v) throw notFound(`version ${version} of this score`);
   return v;
 }
 
-export async function scoreVersionDto(v: ScoreVersion, manager: EntityManager = dataSource.manager): Promise<ScoreVersionDto> {
+export async function scoreVersionDto(
+  v: ScoreVersion,
+  manager: EntityManager = dataSource.manager,
+): Promise<ScoreVersionDto> {
   return (await withNames([v], manager))[0];
 }
 
@@ -183,7 +224,9 @@ export async function createScoreVersion(
 ): Promise<ScoreVersion> {
   // Callers inside the server (recalibration) get the same checks as the API.
   const parsed = createScoreVersionRequest.safeParse(
-    input.mode === 'formula' ? { mode: 'formula', model: input.model, changeNote: input.changeNote ?? undefined } : { mode: 'supplied', probabilityColumn: input.probabilityColumn, changeNote: input.changeNote ?? undefined },
+    input.mode === 'formula'
+      ? { mode: 'formula', model: input.model, changeNote: input.changeNote ?? undefined }
+      : { mode: 'supplied', probabilityColumn: input.probabilityColumn, changeNote: input.changeNote ?? undefined },
   );
   if (!parsed.success) throw invalid(`invalid score version: ${zodMessage(parsed.error)}`);
   const valid = parsed.data;
@@ -191,7 +234,10 @@ export async function createScoreVersion(
   const work = async (m: EntityManager) => {
     const locked: { id: string }[] = await m.query('SELECT id FROM scores WHERE id = $1 FOR UPDATE', [scoreId]);
     if (locked.length === 0) throw notFound('score');
-    const [{ next }]: { next: number }[] = await m.query('SELECT coalesce(max(version), 0) + 1 AS next FROM score_versions WHERE score_id = $1', [scoreId]);
+    const [{ next }]: { next: number }[] = await m.query(
+      'SELECT coalesce(max(version), 0) + 1 AS next FROM score_versions WHERE score_id = $1',
+      [scoreId],
+    );
     const problem = changeNoteProblem(next, valid.changeNote);
     if (problem) throw invalid(problem);
     const row = m.create(ScoreVersion, {
@@ -214,7 +260,13 @@ export async function createScoreVersion(
         targetType: 'score_version',
         targetId: row.id,
         sourceIp: ip,
-        details: { scoreId, version: next, mode: row.mode, changeNote: row.changeNote, derivedFromRunId: row.derivedFromRunId },
+        details: {
+          scoreId,
+          version: next,
+          mode: row.mode,
+          changeNote: row.changeNote,
+          derivedFromRunId: row.derivedFromRunId,
+        },
       },
       m,
     );
@@ -258,17 +310,30 @@ export async function lockScoreVersion(id: string, manager: EntityManager, actor
  */
 export async function refuseVersionEdit(scoreId: string, version: number): Promise<never> {
   const v = await getScoreVersionByNumber(scoreId, version);
-  const [{ next }]: { next: number }[] = await dataSource.query('SELECT max(version) + 1 AS next FROM score_versions WHERE score_id = $1', [scoreId]);
-  const why = v.locked ? `version ${version} is used by a validation run and is frozen` : `score versions are never edited in place`;
-  throw conflict(`${why}; create a new version instead (it will be version ${next}, with a note of what changed)`, { locked: v.locked, nextVersion: next });
+  const [{ next }]: { next: number }[] = await dataSource.query(
+    'SELECT max(version) + 1 AS next FROM score_versions WHERE score_id = $1',
+    [scoreId],
+  );
+  const why = v.locked
+    ? `version ${version} is used by a validation run and is frozen`
+    : `score versions are never edited in place`;
+  throw conflict(`${why}; create a new version instead (it will be version ${next}, with a note of what changed)`, {
+    locked: v.locked,
+    nextVersion: next,
+  });
 }
 
 /** The formula of a version as a --model file. */
-export async function exportScoreModel(scoreId: string, version: number): Promise<{ score: Score; version: ScoreVersion; model: ScoreModel }> {
+export async function exportScoreModel(
+  scoreId: string,
+  version: number,
+): Promise<{ score: Score; version: ScoreVersion; model: ScoreModel }> {
   const score = await getScore(scoreId);
   const v = await getScoreVersionByNumber(scoreId, version);
   if (v.mode !== 'formula' || !v.model) {
-    throw conflict(`version ${version} uses a supplied probability column (${v.probabilityColumn}) and has no formula to export`);
+    throw conflict(
+      `version ${version} uses a supplied probability column (${v.probabilityColumn}) and has no formula to export`,
+    );
   }
   return { score, version: v, model: { intercept: v.model.intercept, predictors: v.model.predictors } };
 }

@@ -37,12 +37,20 @@ function verifiedClaims(token: string): TokenClaims {
   let claims: TokenClaims & { exp?: unknown; iat?: unknown; nbf?: unknown };
   try {
     // maxAge makes jsonwebtoken refuse a token without `iat` or older than the lifetime; `exp` is required below.
-    claims = jwt.verify(token, verifyKey, { algorithms: ['HS256'], maxAge: config.tokenLifetimeSeconds }) as unknown as TokenClaims & { exp?: unknown; iat?: unknown; nbf?: unknown };
+    claims = jwt.verify(token, verifyKey, {
+      algorithms: ['HS256'],
+      maxAge: config.tokenLifetimeSeconds,
+    }) as unknown as TokenClaims & { exp?: unknown; iat?: unknown; nbf?: unknown };
   } catch {
     throw unauthorized();
   }
   // Every token Plumbline signs has exp = iat + lifetime: one without exp, or valid for longer, was not made here.
-  if (typeof claims.exp !== 'number' || typeof claims.iat !== 'number' || claims.exp - claims.iat > config.tokenLifetimeSeconds) throw unauthorized();
+  if (
+    typeof claims.exp !== 'number' ||
+    typeof claims.iat !== 'number' ||
+    claims.exp - claims.iat > config.tokenLifetimeSeconds
+  )
+    throw unauthorized();
   if (claims.nbf === undefined) {
     verifiedTokens.set(token, { sub: claims.sub, role: claims.role, tv: claims.tv, exp: claims.exp });
     if (verifiedTokens.size > TOKEN_LIMIT) verifiedTokens.delete(verifiedTokens.keys().next().value as string);

@@ -40,7 +40,26 @@ export function isDatabaseDown(err: unknown): boolean {
   const e = err as { code?: string; message?: string } | undefined;
   if (!e) return false;
   // 57P01/57P02/57P03: admin, crash or start-up shutdown; 08xxx: connection exceptions; 53300: too many connections.
-  if (e.code && ['ECONNREFUSED', 'ECONNRESET', 'ETIMEDOUT', 'EPIPE', 'EHOSTUNREACH', '57P01', '57P02', '57P03', '08000', '08006', '08001', '08003', '08004', '53300'].includes(e.code)) return true;
+  if (
+    e.code &&
+    [
+      'ECONNREFUSED',
+      'ECONNRESET',
+      'ETIMEDOUT',
+      'EPIPE',
+      'EHOSTUNREACH',
+      '57P01',
+      '57P02',
+      '57P03',
+      '08000',
+      '08006',
+      '08001',
+      '08003',
+      '08004',
+      '53300',
+    ].includes(e.code)
+  )
+    return true;
   return /Connection terminated|connect ECONNREFUSED|timeout exceeded when trying to connect|Connection is not established|terminating connection due to|the database system is (starting up|shutting down|in recovery mode)/i.test(
     e.message ?? '',
   );
@@ -83,10 +102,17 @@ const DRAIN_LIMIT = 16 * 1024 * 1024;
 
 function sendError(err: unknown, req: Request, res: Response): void {
   if (res.headersSent) return;
-  const known = err instanceof DomainError ? { status: STATUS_OF[err.kind], message: err.message, details: err.details } : err instanceof HttpError ? err : null;
+  const known =
+    err instanceof DomainError
+      ? { status: STATUS_OF[err.kind], message: err.message, details: err.details }
+      : err instanceof HttpError
+        ? err
+        : null;
   if (known) {
     if (known.status >= 500) res.err = err as Error; // written with the request's log line, with its own stack
-    res.status(known.status).json({ error: known.message, ...(known.details !== undefined ? { details: known.details } : {}) });
+    res
+      .status(known.status)
+      .json({ error: known.message, ...(known.details !== undefined ? { details: known.details } : {}) });
     return;
   }
   if (err instanceof ZodError) {

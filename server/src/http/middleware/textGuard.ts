@@ -31,7 +31,8 @@ export function findBadText(value: unknown, path = '', depth = 0): string | null
 
 export const refuseBadText: RequestHandler = (req, _res, next) => {
   const inBody = findBadText(req.body);
-  if (inBody) throw new HttpError(400, `invalid body: ${inBody} contains a NUL character, broken Unicode or too deep nesting`);
+  if (inBody)
+    throw new HttpError(400, `invalid body: ${inBody} contains a NUL character, broken Unicode or too deep nesting`);
   const inQuery = findBadText(req.query);
   if (inQuery) throw new HttpError(400, `invalid query: ${inQuery} contains a NUL character or broken Unicode`);
   next();

@@ -14,7 +14,29 @@ export async function verify(_req: Request, res: Response) {
 
 export async function csv(req: Request, res: Response) {
   const rows = await auditEntriesForExport(req.query as unknown as AuditQuery);
-  const header = ['seq', 'at', 'actor_email', 'action', 'target_type', 'target_id', 'source_ip', 'details', 'prev_hash', 'hash'];
-  const cells = rows.map((r): CsvCell[] => [r.seq, r.at, r.actorEmail, r.action, r.targetType, r.targetId, r.sourceIp, JSON.stringify(r.details ?? {}), r.prevHash, r.hash]);
+  const header = [
+    'seq',
+    'at',
+    'actor_email',
+    'action',
+    'target_type',
+    'target_id',
+    'source_ip',
+    'details',
+    'prev_hash',
+    'hash',
+  ];
+  const cells = rows.map((r): CsvCell[] => [
+    r.seq,
+    r.at,
+    r.actorEmail,
+    r.action,
+    r.targetType,
+    r.targetId,
+    r.sourceIp,
+    JSON.stringify(r.details ?? {}),
+    r.prevHash,
+    r.hash,
+  ]);
   sendCsv(res, 'plumbline-audit.csv', header, cells);
 }

@@ -11,5 +11,7 @@ export async function me(req: Request, res: Response) {
 }
 
 export async function changePassword(req: Request, res: Response) {
-  res.json(await users.changeOwnPassword(currentUser(req), req.body.currentPassword, req.body.newPassword, sourceIp(req)));
+  res.json(
+    await users.changeOwnPassword(currentUser(req), req.body.currentPassword, req.body.newPassword, sourceIp(req)),
+  );
 }

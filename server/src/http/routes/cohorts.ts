@@ -41,7 +41,10 @@ const hashingStorage: StorageEngine = {
       settled = true;
       if (!err) return cb(null, { path: target, size, sha256: hash.digest('hex') } as Partial<HashedFile>);
       out.destroy();
-      unlink(target).then(() => cb(err), () => cb(err));
+      unlink(target).then(
+        () => cb(err),
+        () => cb(err),
+      );
     };
     file.stream.on('error', (err: Error) => settle(err));
     file.stream.on('close', () => {
@@ -52,25 +55,41 @@ const hashingStorage: StorageEngine = {
     out.on('finish', () => settle(null));
   },
   _removeFile(_req, file, cb) {
-    unlink(file.path).then(() => cb(null), () => cb(null));
+    unlink(file.path).then(
+      () => cb(null),
+      () => cb(null),
+    );
   },
 };
 
-const multerUpload = multer({ storage: hashingStorage, limits: { fileSize: config.uploadLimitBytes, files: 1, fields: 20 } }).single('file');
+const multerUpload = multer({
+  storage: hashingStorage,
+  limits: { fileSize: config.uploadLimitBytes, files: 1, fields: 20 },
+}).single('file');
 
 /** Multer with its errors turned into clear 4xx answers; the temp file is removed unless the upload keeps it. */
 export const receiveFile: RequestHandler = (req: Request, res: Response, next: NextFunction) => {
   const ct = req.headers['content-type'] ?? '';
-  if (!ct.startsWith('multipart/form-data')) return next(badRequest('send the CSV as multipart/form-data with the file in field "file"'));
+  if (!ct.startsWith('multipart/form-data'))
+    return next(badRequest('send the CSV as multipart/form-data with the file in field "file"'));
   multerUpload(req, res, (err: unknown) => {
     if (err) {
       const e = err as { code?: string; message?: string };
-      if (e.code === 'LIMIT_FILE_SIZE') return next(new HttpError(413, `the file is larger than the upload limit of ${Math.round(config.uploadLimitBytes / 1048576)} MB (PLUMBLINE_UPLOAD_LIMIT_MB)`));
+      if (e.code === 'LIMIT_FILE_SIZE')
+        return next(
+          new HttpError(
+            413,
+            `the file is larger than the upload limit of ${Math.round(config.uploadLimitBytes / 1048576)} MB (PLUMBLINE_UPLOAD_LIMIT_MB)`,
+          ),
+        );
       if (e.code?.startsWith('LIMIT_')) return next(badRequest(`the upload was refused: ${e.message}`));
       return next(badRequest(`the upload could not be read: ${e.message ?? 'malformed multipart body'}`));
     }
     const file = req.file;
-    if (file) res.on('close', () => { if (!(req as { fileKept?: boolean }).fileKept) void unlink(file.path).catch(() => undefined); });
+    if (file)
+      res.on('close', () => {
+        if (!(req as { fileKept?: boolean }).fileKept) void unlink(file.path).catch(() => undefined);
+      });
     next();
   });
 };
@@ -82,7 +101,12 @@ export async function createUpload(req: Request, res: Response) {
   if (!fields.success) throw badRequest(`invalid fields: ${zodMessage(fields.error)}`);
   // From here the service owns the temp file (it deletes it on refusal).
   (req as { fileKept?: boolean }).fileKept = true;
-  const result = await uploads.createUpload(currentUser(req), { path: file.path, originalName: file.originalname, sha256: file.sha256, bytes: file.size }, fields.data, sourceIp(req));
+  const result = await uploads.createUpload(
+    currentUser(req),
+    { path: file.path, originalName: file.originalname, sha256: file.sha256, bytes: file.size },
+    fields.data,
+    sourceIp(req),
+  );
   res.status(201).json(result);
 }
 
@@ -115,7 +139,9 @@ export async function getUpload(req: Request, res: Response) {
 }
 export async function postMapping(req: Request, res: Response) {
   const id = await ownUpload(req);
-  res.status(202).json({ upload: await uploads.applyMapping(currentUser(req), id, req.body.mapping, sourceIp(req), req.body.saveAs) });
+  res.status(202).json({
+    upload: await uploads.applyMapping(currentUser(req), id, req.body.mapping, sourceIp(req), req.body.saveAs),
+  });
 }
 export async function listRejections(req: Request, res: Response) {
   const id = await ownUpload(req);
@@ -131,7 +157,11 @@ export async function rejectionsCsv(req: Request, res: Response) {
 }
 export async function commit(req: Request, res: Response) {
   const id = await ownUpload(req);
-  res.status(201).json(await uploads.commitUpload(currentUser(req), id, req.body.excludeRejected, sourceIp(req), req.body.excludeLines));
+  res
+    .status(201)
+    .json(
+      await uploads.commitUpload(currentUser(req), id, req.body.excludeRejected, sourceIp(req), req.body.excludeLines),
+    );
 }
 export async function discard(req: Request, res: Response) {
   const id = await ownUpload(req);

@@ -1,5 +1,12 @@
 import type { Request, Response } from 'express';
-import type { AlertAckBody, AlertBulkAckBody, AlertRuleBody, DriftRunChoice, RecalibrationBody, SampleSizeQuery } from '@shared/drift';
+import type {
+  AlertAckBody,
+  AlertBulkAckBody,
+  AlertRuleBody,
+  DriftRunChoice,
+  RecalibrationBody,
+  SampleSizeQuery,
+} from '@shared/drift';
 import * as alerts from '../../domain/drift/alerts';
 import * as alertRules from '../../domain/drift/alertRules';
 import * as recalibration from '../../domain/drift/recalibration';
@@ -40,15 +47,33 @@ export async function listRules(req: Request, res: Response) {
 }
 
 export async function createRule(req: Request, res: Response) {
-  res.status(201).json({ rule: await alertRules.createAlertRule(currentUser(req), String(req.params.id), req.body as AlertRuleBody, sourceIp(req)) });
+  res.status(201).json({
+    rule: await alertRules.createAlertRule(
+      currentUser(req),
+      String(req.params.id),
+      req.body as AlertRuleBody,
+      sourceIp(req),
+    ),
+  });
 }
 
 export async function recalibrationPreview(req: Request, res: Response) {
-  res.json({ derivation: await recalibration.recalibrationPreview(String(req.params.id), (req.body as RecalibrationBody).method) });
+  res.json({
+    derivation: await recalibration.recalibrationPreview(String(req.params.id), (req.body as RecalibrationBody).method),
+  });
 }
 
 export async function recalibrate(req: Request, res: Response) {
-  res.status(201).json(await recalibration.recalibrate(currentUser(req), String(req.params.id), (req.body as RecalibrationBody).method, sourceIp(req)));
+  res
+    .status(201)
+    .json(
+      await recalibration.recalibrate(
+        currentUser(req),
+        String(req.params.id),
+        (req.body as RecalibrationBody).method,
+        sourceIp(req),
+      ),
+    );
 }
 
 /** The statistician chooses which run of a cohort version the timeline takes (null: the newest completed). */

@@ -21,11 +21,15 @@ export async function postReview(req: Request, res: Response) {
 }
 
 export async function signoff(req: Request, res: Response) {
-  res.status(201).json(await governance.signoffRun(currentUser(req), id(req), req.body as SignoffRequest, sourceIp(req)));
+  res
+    .status(201)
+    .json(await governance.signoffRun(currentUser(req), id(req), req.body as SignoffRequest, sourceIp(req)));
 }
 
 export async function revoke(req: Request, res: Response) {
-  res.status(201).json(await governance.revokeApproval(currentUser(req), id(req), req.body as RevokeRequest, sourceIp(req)));
+  res
+    .status(201)
+    .json(await governance.revokeApproval(currentUser(req), id(req), req.body as RevokeRequest, sourceIp(req)));
 }
 
 export async function listComments(req: Request, res: Response) {
@@ -33,7 +37,9 @@ export async function listComments(req: Request, res: Response) {
 }
 
 export async function addComment(req: Request, res: Response) {
-  res.status(201).json(await governance.addComment(currentUser(req), id(req), (req.body as CommentRequest).body, sourceIp(req)));
+  res
+    .status(201)
+    .json(await governance.addComment(currentUser(req), id(req), (req.body as CommentRequest).body, sourceIp(req)));
 }
 
 export async function queue(req: Request, res: Response) {

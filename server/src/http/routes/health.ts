@@ -8,7 +8,8 @@ import { queueDepth } from '../../jobs/queueDepth';
 export async function health(_req: Request, res: Response) {
   try {
     const counts = await queueDepth();
-    const count = (queue: string, state: string) => counts.find((c) => c.queue === queue && c.state === state)?.count ?? 0;
+    const count = (queue: string, state: string) =>
+      counts.find((c) => c.queue === queue && c.state === state)?.count ?? 0;
     res.json({
       status: 'ok',
       database: 'up',
@@ -18,7 +19,9 @@ export async function health(_req: Request, res: Response) {
         mail: { pending: count('mail', 'pending') },
         // pg-boss's jobs per queue: waiting (created or retry) and active (claimed by a live or crashed process).
         jobs: Object.fromEntries(
-          counts.filter((c) => c.queue.startsWith('job:') && c.state === 'waiting').map((c) => [c.queue.slice(4), { waiting: c.count, active: count(c.queue, 'active') }]),
+          counts
+            .filter((c) => c.queue.startsWith('job:') && c.state === 'waiting')
+            .map((c) => [c.queue.slice(4), { waiting: c.count, active: count(c.queue, 'active') }]),
         ),
       },
     });
@@ -29,7 +32,8 @@ export async function health(_req: Request, res: Response) {
 
 /** Prometheus text format; with PLUMBLINE_METRICS_TOKEN set, only for a scraper that presents it. */
 export async function metrics(req: Request, res: Response) {
-  if (config.metricsToken && req.headers.authorization !== `Bearer ${config.metricsToken}`) throw new HttpError(401, 'the metrics need the scrape token');
+  if (config.metricsToken && req.headers.authorization !== `Bearer ${config.metricsToken}`)
+    throw new HttpError(401, 'the metrics need the scrape token');
   res.setHeader('Content-Type', registry.contentType);
   res.send(await registry.metrics());
 }

@@ -29,10 +29,15 @@ function parameters(schema: ZodType | undefined, where: 'path' | 'query') {
   }));
 }
 
-const who = (access: Access) => (access === 'public' ? 'anyone' : access === 'signed-in' ? 'any signed-in account' : access.join(', '));
-const rolesOf = (access: Access): string[] => (access === 'public' ? [] : access === 'signed-in' ? [...ROLES] : [...access]);
+const who = (access: Access) =>
+  access === 'public' ? 'anyone' : access === 'signed-in' ? 'any signed-in account' : access.join(', ');
+const rolesOf = (access: Access): string[] =>
+  access === 'public' ? [] : access === 'signed-in' ? [...ROLES] : [...access];
 
-const errorResponse = (description: string) => ({ description, content: { 'application/json': { schema: { $ref: '#/components/schemas/Error' } } } });
+const errorResponse = (description: string) => ({
+  description,
+  content: { 'application/json': { schema: { $ref: '#/components/schemas/Error' } } },
+});
 
 function operation(route: RouteDef) {
   const responses: Record<string, unknown> = {
@@ -46,7 +51,11 @@ function operation(route: RouteDef) {
         required: true,
         content: {
           'multipart/form-data': {
-            schema: { type: 'object', required: [route.multipartFile], properties: { [route.multipartFile]: { type: 'string', contentMediaType: 'text/csv' } } },
+            schema: {
+              type: 'object',
+              required: [route.multipartFile],
+              properties: { [route.multipartFile]: { type: 'string', contentMediaType: 'text/csv' } },
+            },
           },
         },
       }

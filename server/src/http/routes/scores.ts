@@ -31,7 +31,10 @@ export async function listVersions(req: Request, res: Response) {
 
 export async function createVersion(req: Request, res: Response) {
   const row = await scores.createScoreVersion(currentUser(req), String(req.params.id), req.body, sourceIp(req));
-  res.status(201).location(`/api/scores/${row.scoreId}/versions/${row.version}`).json({ version: await scores.scoreVersionDto(row) });
+  res
+    .status(201)
+    .location(`/api/scores/${row.scoreId}/versions/${row.version}`)
+    .json({ version: await scores.scoreVersionDto(row) });
 }
 
 export async function getVersion(req: Request, res: Response) {
@@ -58,6 +61,15 @@ export async function exportVersion(req: Request, res: Response) {
 export async function cohortTemplate(req: Request, res: Response) {
   const { id, version } = versionParams(req);
   const [score, v] = [await scores.getScore(id), await scores.getScoreVersionByNumber(id, version)];
-  const base = score.name.toLowerCase().replace(/[^a-z0-9]+/g, '-').replace(/^-|-$/g, '').slice(0, 60) || 'score';
-  res.status(200).type('text/csv; charset=utf-8').attachment(`${base}-v${v.version}-cohort-template.csv`).send(cohortTemplateCsv(v));
+  const base =
+    score.name
+      .toLowerCase()
+      .replace(/[^a-z0-9]+/g, '-')
+      .replace(/^-|-$/g, '')
+      .slice(0, 60) || 'score';
+  res
+    .status(200)
+    .type('text/csv; charset=utf-8')
+    .attachment(`${base}-v${v.version}-cohort-template.csv`)
+    .send(cohortTemplateCsv(v));
 }

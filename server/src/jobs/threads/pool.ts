@@ -36,10 +36,19 @@ type PoolName = 'background' | 'uploads' | 'requests' | 'rows';
 function options(name: PoolName): ConstructorParameters<typeof Piscina>[0] {
   const nice = config.workerNice;
   switch (name) {
-    case 'background': return { minThreads: 0, maxThreads: Math.max(1, availableParallelism()), idleTimeout: 30_000, niceIncrement: nice };
-    case 'uploads': return { minThreads: 1, maxThreads: config.uploadThreads, idleTimeout: 60_000, niceIncrement: nice };
-    case 'requests': return { minThreads: 0, maxThreads: 2, idleTimeout: 60_000, niceIncrement: nice };
-    case 'rows': return { minThreads: 1, maxThreads: 1, niceIncrement: nice };
+    case 'background':
+      return {
+        minThreads: 0,
+        maxThreads: Math.max(1, availableParallelism()),
+        idleTimeout: 30_000,
+        niceIncrement: nice,
+      };
+    case 'uploads':
+      return { minThreads: 1, maxThreads: config.uploadThreads, idleTimeout: 60_000, niceIncrement: nice };
+    case 'requests':
+      return { minThreads: 0, maxThreads: 2, idleTimeout: 60_000, niceIncrement: nice };
+    case 'rows':
+      return { minThreads: 1, maxThreads: 1, niceIncrement: nice };
   }
 }
 
@@ -118,8 +127,13 @@ type JobWithoutDb = RunJob extends infer J ? (J extends RunJob ? Omit<J, 'db'> :
 /** A run (or a drift series) in the background pool: the thread reads its own inputs; progress reaches onProgress. */
 export function computeInThread(job: JobWithoutDb, onProgress: ProgressFn = () => {}): RunningThread {
   const stop = new AbortController();
-  const progress = progressPort((m: Extract<RunWorkerMessage, { type: 'progress' }>) => onProgress(m.fraction, m.message));
-  const running = task('background', 'run', { ...job, db: { ...config.db }, progress: progress.port } as RunTask, { transferList: [progress.port], signal: stop.signal });
+  const progress = progressPort((m: Extract<RunWorkerMessage, { type: 'progress' }>) =>
+    onProgress(m.fraction, m.message),
+  );
+  const running = task('background', 'run', { ...job, db: { ...config.db }, progress: progress.port } as RunTask, {
+    transferList: [progress.port],
+    signal: stop.signal,
+  });
   const result = running.finally(progress.done).then((msg) => {
     if (msg.type === 'error') throw msg.inputError ? new RunInputError(msg.message) : new Error(msg.message);
     if (msg.precision) cachePrecision(msg.precision.n, msg.precision.events, msg.precision.auc, msg.precision.value);
@@ -146,7 +160,9 @@ export async function bootstrapInWorkers(
   const R = settings.bootstrapReplicates;
   const k = Math.max(1, Math.min(workers, R));
   const ranges = Array.from({ length: k }, (_, i) => [Math.floor((i * R) / k), Math.floor(((i + 1) * R) / k)]);
-  const parts = await Promise.all(ranges.map(([from, to]) => task('background', 'bootstrap', { p, y, settings, from, to })));
+  const parts = await Promise.all(
+    ranges.map(([from, to]) => task('background', 'bootstrap', { p, y, settings, from, to })),
+  );
   return { ...percentileIntervals(scalarMetrics(point), parts.flat(), settings.bootstrapSeed), workers: k };
 }
 
@@ -155,7 +171,10 @@ export async function bootstrapInWorkers(
 type CheckEnding = Exclude<UploadWorkerMessage, { type: 'progress' }>;
 
 /** Checks one upload in the uploads pool; resolves with how it ended (stored or rolled back by then). */
-export async function checkInThread(data: UploadWorkerData, onProgress: (m: Extract<UploadWorkerMessage, { type: 'progress' }>) => void): Promise<CheckEnding> {
+export async function checkInThread(
+  data: UploadWorkerData,
+  onProgress: (m: Extract<UploadWorkerMessage, { type: 'progress' }>) => void,
+): Promise<CheckEnding> {
   const progress = progressPort(onProgress);
   try {
     return await task('uploads', 'checkUpload', { data, progress: progress.port }, { transferList: [progress.port] });
@@ -167,7 +186,9 @@ export async function checkInThread(data: UploadWorkerData, onProgress: (m: Extr
 }
 
 /** The first look at a received file (encoding, delimiter, header, sample, identifier screen), off the API thread. */
-export async function screenInThread(path: string): Promise<ScreenAnswer | Extract<UploadWorkerMessage, { type: 'error' }>> {
+export async function screenInThread(
+  path: string,
+): Promise<ScreenAnswer | Extract<UploadWorkerMessage, { type: 'error' }>> {
   try {
     return await task('requests', 'screenFile', path);
   } catch (err) {

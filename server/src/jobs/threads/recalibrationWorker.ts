@@ -14,7 +14,8 @@ export interface RecalibrationTask {
   method: RecalibrationMethod;
 }
 
-export type RecalibrationAnswer = { ok: true; derivation: Derivation; fit: UpdateFit | null } | { ok: false; message: string };
+export type RecalibrationAnswer =
+  { ok: true; derivation: Derivation; fit: UpdateFit | null } | { ok: false; message: string };
 
 /** The pool task: the fit, or why it cannot be made (a conflict for the caller). */
 export async function recalibration(task: RecalibrationTask): Promise<RecalibrationAnswer> {
@@ -22,7 +23,10 @@ export async function recalibration(task: RecalibrationTask): Promise<Recalibrat
   client.on('error', () => undefined); // a lost connection surfaces as the failed query
   await client.connect();
   try {
-    const data = await loadCohortData(task.cohortVersionId, async (sql, params) => (await client.query(sql, params as unknown[])).rows);
+    const data = await loadCohortData(
+      task.cohortVersionId,
+      async (sql, params) => (await client.query(sql, params as unknown[])).rows,
+    );
     const p = predictedRisk(task.score, data);
     const lp = new Float64Array(p.length);
     for (let i = 0; i < p.length; i++) lp[i] = Math.log(p[i] / (1 - p[i]));

@@ -76,8 +76,13 @@ function sortedOrder(data: CohortData, sortBy: string, dir: 'asc' | 'desc', subs
   if (sortBy === 'line_no') key = (i) => data.lineNo[i];
   else if (sortBy === 'outcome') key = (i) => data.outcome[i];
   else if (sortBy === 'event_date') key = (i) => data.eventDate[i];
-  else if (data.columns[sortBy]) { const col = data.columns[sortBy]; key = (i) => col[i] ?? null; }
-  else { const col = data.subgroups[sortBy] ?? []; key = (i) => col[i] ?? null; }
+  else if (data.columns[sortBy]) {
+    const col = data.columns[sortBy];
+    key = (i) => col[i] ?? null;
+  } else {
+    const col = data.subgroups[sortBy] ?? [];
+    key = (i) => col[i] ?? null;
+  }
   const idx = subset ? Array.from(subset) : Array.from({ length: data.n }, (_, i) => i);
   const sign = dir === 'asc' ? 1 : -1;
   idx.sort((a, b) => {
@@ -99,7 +104,8 @@ function matching(data: CohortData, needle: string, periodKind: PeriodKind | nul
   const out: number[] = [];
   // A period is searched as the rows show it (2026-Q2) and as its stored first day.
   const periods = new Map<string, string>();
-  const periodText = (start: string) => periods.get(start) ?? periods.set(start, `${periodLabel(start, periodKind)} ${start}`.toLowerCase()).get(start)!;
+  const periodText = (start: string) =>
+    periods.get(start) ?? periods.set(start, `${periodLabel(start, periodKind)} ${start}`.toLowerCase()).get(start)!;
   for (let i = 0; i < data.n; i++) {
     const start = data.eventDate[i];
     if (
@@ -119,7 +125,9 @@ async function answer(r: RowsRequest): Promise<RowsAnswer> {
   const key = `${needle}|${r.periodKind ?? ''}|${r.sortBy}|${r.sortDir}`;
   let order = h.orders.get(key);
   if (!order) {
-    order = Promise.resolve().then(() => sortedOrder(data, r.sortBy, r.sortDir, needle ? matching(data, needle, r.periodKind ?? null) : undefined));
+    order = Promise.resolve().then(() =>
+      sortedOrder(data, r.sortBy, r.sortDir, needle ? matching(data, needle, r.periodKind ?? null) : undefined),
+    );
     h.orders.set(key, order);
     if (h.orders.size > MAX_ORDERS_PER_VERSION) h.orders.delete(h.orders.keys().next().value!);
   }
@@ -130,7 +138,11 @@ async function answer(r: RowsRequest): Promise<RowsAnswer> {
     outcome: data.outcome[i],
     eventDate: data.eventDate[i],
     predictors: Object.fromEntries(Object.entries(data.columns).map(([k, c]) => [k, c[i]])),
-    subgroups: Object.fromEntries(Object.entries(data.subgroups).filter(([, c]) => c[i] !== null).map(([k, c]) => [k, c[i]])),
+    subgroups: Object.fromEntries(
+      Object.entries(data.subgroups)
+        .filter(([, c]) => c[i] !== null)
+        .map(([k, c]) => [k, c[i]]),
+    ),
   }));
   return { ok: true, rows, total: idx.length };
 }

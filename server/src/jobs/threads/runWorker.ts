@@ -35,9 +35,22 @@ async function main(job: RunJob, post: (m: RunWorkerMessage) => void): Promise<v
   await client.connect();
   const query: Query = async (sql, params) => (await client.query(sql, params as unknown[])).rows;
   try {
-    const { input, inputsSha256 } = await loadRunInput({ scoreVersionId: job.scoreVersionId, cohortVersionId: job.cohortVersionId, settings: job.task === 'run' ? job.settings : {} }, query);
+    const { input, inputsSha256 } = await loadRunInput(
+      {
+        scoreVersionId: job.scoreVersionId,
+        cohortVersionId: job.cohortVersionId,
+        settings: job.task === 'run' ? job.settings : {},
+      },
+      query,
+    );
     if (job.task === 'drift-series') {
-      await storeDriftSeries(query, job.scoreVersionId, job.cohortVersionId, null, driftSeriesOf(input.score, input.data));
+      await storeDriftSeries(
+        query,
+        job.scoreVersionId,
+        job.cohortVersionId,
+        null,
+        driftSeriesOf(input.score, input.data),
+      );
       post({ type: 'done', results: null, inputsSha256, drift: null, precision: null });
       return;
     }
@@ -64,7 +77,11 @@ export async function run(task: RunTask): Promise<Exclude<RunWorkerMessage, { ty
       else ending = m;
     });
   } catch (err) {
-    ending = { type: 'error', message: (err as Error).message ?? String(err), inputError: err instanceof RunInputError };
+    ending = {
+      type: 'error',
+      message: (err as Error).message ?? String(err),
+      inputError: err instanceof RunInputError,
+    };
   }
   // The port stays open: the caller reads what is left on it and then closes it.
   return ending ?? { type: 'error', message: 'the run ended without a result', inputError: false };

@@ -13,11 +13,17 @@ export const WORKER_NICE = config.workerNice;
  * this machine (loopback or a socket path), only for a process the kernel names "postgres", and only where the
  * operating system lets us (the same user, or root); anywhere else it does nothing and the session runs as before.
  */
-export async function lowerDatabaseSessionPriority(client: { query: (sql: string) => Promise<{ rows: { pid: number }[] }> }, host: string, nice = WORKER_NICE): Promise<boolean> {
+export async function lowerDatabaseSessionPriority(
+  client: { query: (sql: string) => Promise<{ rows: { pid: number }[] }> },
+  host: string,
+  nice = WORKER_NICE,
+): Promise<boolean> {
   if (process.platform !== 'linux' || nice === 0) return false;
   if (!(host === 'localhost' || host === '127.0.0.1' || host === '::1' || host.startsWith('/'))) return false;
   try {
-    const { rows: [{ pid }] } = await client.query('SELECT pg_backend_pid() AS pid');
+    const {
+      rows: [{ pid }],
+    } = await client.query('SELECT pg_backend_pid() AS pid');
     if (readFileSync(`/proc/${pid}/comm`, 'utf8').trim() !== 'postgres') return false;
     if (getPriority(pid) >= nice) return false;
     setPriority(pid, nice);

@@ -19,7 +19,13 @@ const tasks = {
   precision: async (input: { n: number; events: number; auc: number | null }): Promise<AdequacyPrecision> =>
     (await import('../../domain/runs/adequacyPrecision')).precision(input.n, input.events, input.auc),
   /** Bootstrap replicates [from, to) of the full metric set: one range of a bootstrap spread over threads. */
-  bootstrap: async (input: { p: Float64Array; y: Uint8Array; settings: ValidationSettings; from: number; to: number }): Promise<Record<string, number>[]> =>
+  bootstrap: async (input: {
+    p: Float64Array;
+    y: Uint8Array;
+    settings: ValidationSettings;
+    from: number;
+    to: number;
+  }): Promise<Record<string, number>[]> =>
     (await import('../../stats/bootstrap')).runReplicates(input.p, input.y, input.settings, input.from, input.to),
 };
 
@@ -27,6 +33,12 @@ export type Tasks = typeof tasks;
 export type TaskName = keyof Tasks;
 
 /** What a pool posts: the task's name and its input. */
-export default function runTask<K extends TaskName>({ name, input }: { name: K; input: Parameters<Tasks[K]>[0] }): ReturnType<Tasks[K]> {
+export default function runTask<K extends TaskName>({
+  name,
+  input,
+}: {
+  name: K;
+  input: Parameters<Tasks[K]>[0];
+}): ReturnType<Tasks[K]> {
   return (tasks[name] as (input: Parameters<Tasks[K]>[0]) => ReturnType<Tasks[K]>)(input);
 }

@@ -36,10 +36,17 @@ export type UploadWorkerMessage =
   | { type: 'progress'; fraction: number; rowsRead: number; rowsRejected: number }
   | { type: 'checked'; rowsRead: number; accepted: number; rejectedRows: number }
   | { type: 'refused'; refusal: ScreenFinding }
-  | { type: 'error'; message: string; /** PostgreSQL's own words: logged on the server, not shown to the steward. */ database?: boolean };
+  | {
+      type: 'error';
+      message: string;
+      /** PostgreSQL's own words: logged on the server, not shown to the steward. */ database?: boolean;
+    };
 
 /** COPY text escaping for free text (rejected values come straight from the file). */
-const copyField = (s: string) => s.replace(/\0/g, '').replace(/[\\\t\n\r]/g, (c) => (c === '\\' ? '\\\\' : c === '\t' ? '\\t' : c === '\n' ? '\\n' : '\\r'));
+const copyField = (s: string) =>
+  s
+    .replace(/\0/g, '')
+    .replace(/[\\\t\n\r]/g, (c) => (c === '\\' ? '\\\\' : c === '\t' ? '\\t' : c === '\n' ? '\\n' : '\\r'));
 
 function write(stream: Writable, chunk: string | Buffer): Promise<void> {
   if (stream.write(chunk)) return Promise.resolve();
@@ -48,7 +55,8 @@ function write(stream: Writable, chunk: string | Buffer): Promise<void> {
       stream.off('drain', done);
       stream.off('error', done);
       stream.off('close', closed);
-      if (err) reject(err); else resolve();
+      if (err) reject(err);
+      else resolve();
     };
     const closed = () => done(new Error('the COPY stream closed'));
     stream.on('drain', done);
@@ -58,11 +66,16 @@ function write(stream: Writable, chunk: string | Buffer): Promise<void> {
 }
 
 async function copyRejections(client: pg.Client, uploadId: string, rejections: Rejection[]) {
-  const copy = client.query(copyFrom('COPY cohort_upload_rejections (upload_id, line_no, column_name, value, reason) FROM STDIN'));
+  const copy = client.query(
+    copyFrom('COPY cohort_upload_rejections (upload_id, line_no, column_name, value, reason) FROM STDIN'),
+  );
   let buf = '';
   for (const [line, column, value, reason] of rejections) {
     buf += `${uploadId}\t${line}\t${copyField(column)}\t${copyField(value)}\t${copyField(reason)}\n`;
-    if (buf.length > 256 * 1024) { await write(copy, buf); buf = ''; }
+    if (buf.length > 256 * 1024) {
+      await write(copy, buf);
+      buf = '';
+    }
   }
   copy.end(buf);
   await finished(copy);
@@ -76,7 +89,8 @@ async function screen(path: string): Promise<ScreenAnswer> {
   for await (const piece of csvText(path)) void piece;
   const { headers, sample } = await readHeaderAndSample(path, delimiter, 5000);
   // A registry extract has tens of columns; thousands means a wrong file (or a hostile one) — refuse before storing anything.
-  if (headers.length > MAX_UPLOAD_COLUMNS) throw refused(`the file has ${headers.length} columns; at most ${MAX_UPLOAD_COLUMNS} are accepted`);
+  if (headers.length > MAX_UPLOAD_COLUMNS)
+    throw refused(`the file has ${headers.length} columns; at most ${MAX_UPLOAD_COLUMNS} are accepted`);
   return { type: 'screened', delimiter, headers, sample, screen: screenColumns(headers, sample) };
 }
 
@@ -96,7 +110,8 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
       progress: (fraction, rowsRead, rowsRejected) => post({ type: 'progress', fraction, rowsRead, rowsRejected }),
     });
     copy.end();
-    if (result.refusal) await copied.catch(() => undefined); // cut short on purpose: rolled back just below
+    if (result.refusal)
+      await copied.catch(() => undefined); // cut short on purpose: rolled back just below
     else await copied;
     if (result.refusal) {
       await client.query('ROLLBACK');
@@ -110,8 +125,17 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
       `UPDATE cohort_uploads SET status = 'checked', progress = 1, rows_read = $2, rows_accepted = $3, rows_rejected = $4, events = $5,
          rejection_counts = $6, column_summary = $7, event_period = $8, updated_at = now()
        WHERE id = $1 AND status = 'processing' AND planned_version_id = $9`,
-      [data.uploadId, result.rowsRead, result.accepted, result.rejectedRows, result.events, JSON.stringify(result.reasonCounts),
-        JSON.stringify(result.columnSummary), result.eventPeriod ? JSON.stringify(result.eventPeriod) : null, data.plannedVersionId],
+      [
+        data.uploadId,
+        result.rowsRead,
+        result.accepted,
+        result.rejectedRows,
+        result.events,
+        JSON.stringify(result.reasonCounts),
+        JSON.stringify(result.columnSummary),
+        result.eventPeriod ? JSON.stringify(result.eventPeriod) : null,
+        data.plannedVersionId,
+      ],
     );
     if (updated.rowCount !== 1) throw new Error('the upload was changed while its rows were checked');
     await client.query('COMMIT');
@@ -119,7 +143,10 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
   } catch (err) {
     await client.query('ROLLBACK').catch(() => undefined);
     // Bytes that are not UTF-8 text refuse the file, like an identifier does (nothing of it is kept).
-    if (err instanceof CsvBytesError) { post({ type: 'refused', refusal: { column: '(file)', category: 'not text', reason: err.message } }); return; }
+    if (err instanceof CsvBytesError) {
+      post({ type: 'refused', refusal: { column: '(file)', category: 'not text', reason: err.message } });
+      return;
+    }
     throw err;
   } finally {
     await client.end().catch(() => undefined);
@@ -128,12 +155,16 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
 
 /** An error from pg carries a SQLSTATE and a severity; anything else is about the file (parsing, reading). */
 function failure(err: Error): Extract<UploadWorkerMessage, { type: 'error' }> {
-  const database = typeof (err as { severity?: unknown }).severity === 'string' || /^[0-9A-Z]{5}$/.test(String((err as { code?: unknown }).code ?? ''));
+  const database =
+    typeof (err as { severity?: unknown }).severity === 'string' ||
+    /^[0-9A-Z]{5}$/.test(String((err as { code?: unknown }).code ?? ''));
   return { type: 'error', message: (err?.message ?? String(err)).split('\n')[0], database };
 }
 
 /** The pool task for a screen: the answer, a refusal of the file, or an error. */
-export async function screenFile(path: string): Promise<ScreenAnswer | Extract<UploadWorkerMessage, { type: 'error' }>> {
+export async function screenFile(
+  path: string,
+): Promise<ScreenAnswer | Extract<UploadWorkerMessage, { type: 'error' }>> {
   try {
     return await screen(path);
   } catch (err) {
@@ -144,7 +175,10 @@ export async function screenFile(path: string): Promise<ScreenAnswer | Extract<U
 }
 
 /** The pool task for a full check: progress goes to `progress`; the ending (stored or rolled back by then) is returned. */
-export async function checkUpload(task: { data: UploadWorkerData; progress: MessagePort }): Promise<Exclude<UploadWorkerMessage, { type: 'progress' }>> {
+export async function checkUpload(task: {
+  data: UploadWorkerData;
+  progress: MessagePort;
+}): Promise<Exclude<UploadWorkerMessage, { type: 'progress' }>> {
   let ending: Exclude<UploadWorkerMessage, { type: 'progress' }> | null = null;
   try {
     await main(task.data, (m) => {

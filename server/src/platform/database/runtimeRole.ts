@@ -47,7 +47,9 @@ export async function ensureRuntimeRole(m: EntityManager, role: string, password
   const [exists] = await m.query('SELECT rolsuper FROM pg_roles WHERE rolname = $1', [role]);
   const attrs = 'LOGIN NOSUPERUSER NOCREATEDB NOCREATEROLE NOREPLICATION NOBYPASSRLS NOINHERIT';
   const [{ sql }] = await m.query(
-    password ? `SELECT format('%s ROLE %I WITH ${attrs} PASSWORD %L', $1::text, $2::text, $3::text) AS sql` : `SELECT format('%s ROLE %I WITH ${attrs}', $1::text, $2::text) AS sql`,
+    password
+      ? `SELECT format('%s ROLE %I WITH ${attrs} PASSWORD %L', $1::text, $2::text, $3::text) AS sql`
+      : `SELECT format('%s ROLE %I WITH ${attrs}', $1::text, $2::text) AS sql`,
     password ? [exists ? 'ALTER' : 'CREATE', role, password] : [exists ? 'ALTER' : 'CREATE', role],
   );
   await m.query(sql);
@@ -58,10 +60,15 @@ export async function grantRuntimeRole(m: EntityManager, role: string, database:
   await m.query('SELECT pg_advisory_xact_lock($1)', [GRANT_LOCK]);
   const r = ident(role);
   // Usually held through PUBLIC already; granted only when missing (an owner of the tables need not own the database).
-  const [has] = await m.query(`SELECT has_database_privilege($1, $2, 'CONNECT') AS connect, has_schema_privilege($1, 'public', 'USAGE') AS usage`, [role, database]);
+  const [has] = await m.query(
+    `SELECT has_database_privilege($1, $2, 'CONNECT') AS connect, has_schema_privilege($1, 'public', 'USAGE') AS usage`,
+    [role, database],
+  );
   if (!has.connect) await m.query(`GRANT CONNECT ON DATABASE ${ident(database)} TO ${r}`);
   if (!has.usage) await m.query(`GRANT USAGE ON SCHEMA public TO ${r}`);
-  const tables: { name: string }[] = await m.query(`SELECT tablename AS name FROM pg_tables WHERE schemaname = 'public' ORDER BY tablename`);
+  const tables: { name: string }[] = await m.query(
+    `SELECT tablename AS name FROM pg_tables WHERE schemaname = 'public' ORDER BY tablename`,
+  );
   for (const { name } of tables) {
     const t = `public.${ident(name)}`;
     await m.query(`REVOKE ALL ON ${t} FROM ${r}`);
@@ -70,7 +77,10 @@ export async function grantRuntimeRole(m: EntityManager, role: string, database:
   await m.query(`GRANT USAGE, SELECT ON ALL SEQUENCES IN SCHEMA public TO ${r}`);
   // The job queue's schema: usage, and only the listed tables (a queue's partition is reached through pgboss.job).
   for (const schema of OTHER_SCHEMAS) {
-    const found: { name: string }[] = await m.query(`SELECT tablename AS name FROM pg_tables WHERE schemaname = $1 ORDER BY tablename`, [schema]);
+    const found: { name: string }[] = await m.query(
+      `SELECT tablename AS name FROM pg_tables WHERE schemaname = $1 ORDER BY tablename`,
+      [schema],
+    );
     if (!found.length) continue;
     await m.query(`GRANT USAGE ON SCHEMA ${ident(schema)} TO ${r}`);
     for (const { name } of found) {

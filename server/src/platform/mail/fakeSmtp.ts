@@ -15,7 +15,9 @@ export function decodeHeader(value: string): string {
     .replace(/\?=\s+=\?/g, '?==?')
     .replace(/=\?([^?]+)\?([bBqQ])\?([^?]*)\?=/g, (_all, _charset: string, enc: string, data: string) => {
       if (enc.toUpperCase() === 'B') return Buffer.from(data, 'base64').toString('utf8');
-      const bytes = data.replace(/_/g, ' ').replace(/=([0-9A-Fa-f]{2})/g, (_m, h: string) => String.fromCharCode(parseInt(h, 16)));
+      const bytes = data
+        .replace(/_/g, ' ')
+        .replace(/=([0-9A-Fa-f]{2})/g, (_m, h: string) => String.fromCharCode(parseInt(h, 16)));
       return Buffer.from(bytes, 'latin1').toString('utf8');
     });
 }
@@ -24,7 +26,9 @@ function decodeBody(body: string, encoding: string): string {
   const enc = encoding.toLowerCase();
   if (enc === 'base64') return Buffer.from(body.replace(/\s+/g, ''), 'base64').toString('utf8');
   if (enc === 'quoted-printable') {
-    const bytes = body.replace(/=\r?\n/g, '').replace(/=([0-9A-Fa-f]{2})/g, (_m, h: string) => String.fromCharCode(parseInt(h, 16)));
+    const bytes = body
+      .replace(/=\r?\n/g, '')
+      .replace(/=([0-9A-Fa-f]{2})/g, (_m, h: string) => String.fromCharCode(parseInt(h, 16)));
     return Buffer.from(bytes, 'latin1').toString('utf8');
   }
   return Buffer.from(body, 'latin1').toString('utf8');
@@ -40,7 +44,12 @@ export function parseMessage(raw: string): { headers: Record<string, string>; te
     const i = line.indexOf(':');
     if (i > 0) headers[line.slice(0, i).trim().toLowerCase()] = line.slice(i + 1).trim();
   }
-  return { headers, text: decodeBody(body, headers['content-transfer-encoding'] ?? '7bit').replace(/\r\n/g, '\n').trimEnd() };
+  return {
+    headers,
+    text: decodeBody(body, headers['content-transfer-encoding'] ?? '7bit')
+      .replace(/\r\n/g, '\n')
+      .trimEnd(),
+  };
 }
 
 export const receivedMessages = (): ReceivedMail[] => [...received].reverse();

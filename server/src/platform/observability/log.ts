@@ -20,7 +20,10 @@ export const REDACT_PATHS = [
 
 /** A logger with the project's settings; tests pass their own destination to read what it writes. */
 export function createLogger(destination?: DestinationStream, level = config.logLevel): Logger {
-  return pino({ level, base: { service: 'plumbline', pid: process.pid }, redact: { paths: REDACT_PATHS, censor: '[redacted]' } }, destination);
+  return pino(
+    { level, base: { service: 'plumbline', pid: process.pid }, redact: { paths: REDACT_PATHS, censor: '[redacted]' } },
+    destination,
+  );
 }
 
 export const logger = createLogger();
@@ -42,7 +45,13 @@ export function requestLogger(log: Logger = logger) {
     customLogLevel: (_req, res, err) => (err || res.statusCode >= 500 ? 'error' : 'info'),
     // The path without its query string: queries can carry search text typed by a person.
     serializers: {
-      req: (req: { id: unknown; method: string; url: string; headers: Record<string, unknown>; remoteAddress?: string }) => ({
+      req: (req: {
+        id: unknown;
+        method: string;
+        url: string;
+        headers: Record<string, unknown>;
+        remoteAddress?: string;
+      }) => ({
         id: req.id,
         method: req.method,
         url: String(req.url).split('?')[0],

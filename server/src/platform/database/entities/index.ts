@@ -15,5 +15,37 @@ import { Signature } from './Signature';
 import { User } from './User';
 import { ValidationRun } from './ValidationRun';
 
-export { AuditEntry, Cohort, CohortUpload, CohortVersion, ColumnMapping, Score, ScoreVersion, User, ValidationRun, RunReview, Signature, RunComment, EmailOutbox, AlertRule, DriftAlert };
-export const entities = [User, AuditEntry, Score, ScoreVersion, Cohort, ColumnMapping, CohortVersion, CohortUpload, ValidationRun, RunReview, Signature, RunComment, EmailOutbox, AlertRule, DriftAlert];
+export {
+  AuditEntry,
+  Cohort,
+  CohortUpload,
+  CohortVersion,
+  ColumnMapping,
+  Score,
+  ScoreVersion,
+  User,
+  ValidationRun,
+  RunReview,
+  Signature,
+  RunComment,
+  EmailOutbox,
+  AlertRule,
+  DriftAlert,
+};
+export const entities = [
+  User,
+  AuditEntry,
+  Score,
+  ScoreVersion,
+  Cohort,
+  ColumnMapping,
+  CohortVersion,
+  CohortUpload,
+  ValidationRun,
+  RunReview,
+  Signature,
+  RunComment,
+  EmailOutbox,
+  AlertRule,
+  DriftAlert,
+];

@@ -117,7 +117,8 @@ export class Registry1764633700000 implements MigrationInterface {
   }
 
   async down(q: QueryRunner): Promise<void> {
-    for (const t of ['cohort_rows', 'cohort_versions', 'column_mappings', 'cohorts', 'score_versions', 'scores']) await q.query(`DROP TABLE ${t}`);
+    for (const t of ['cohort_rows', 'cohort_versions', 'column_mappings', 'cohorts', 'score_versions', 'scores'])
+      await q.query(`DROP TABLE ${t}`);
     await q.query('DROP FUNCTION plumbline_score_version_guard');
   }
 }

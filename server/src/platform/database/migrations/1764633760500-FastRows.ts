@@ -14,6 +14,8 @@ export class FastRows1764633760500 implements MigrationInterface {
   }
 
   async down(q: QueryRunner): Promise<void> {
-    await q.query('ALTER TABLE cohort_rows ADD CONSTRAINT cohort_rows_cohort_version_id_fkey FOREIGN KEY (cohort_version_id) REFERENCES cohort_versions(id)');
+    await q.query(
+      'ALTER TABLE cohort_rows ADD CONSTRAINT cohort_rows_cohort_version_id_fkey FOREIGN KEY (cohort_version_id) REFERENCES cohort_versions(id)',
+    );
   }
 }

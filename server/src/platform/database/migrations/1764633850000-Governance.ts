@@ -59,7 +59,9 @@ export class Governance1764633850000 implements MigrationInterface {
     await q.query(`
       CREATE UNIQUE INDEX signatures_one_decision ON signatures (review_id)
       WHERE meaning IN ('approve for clinical use', 'return to statistician')`);
-    await q.query(`CREATE UNIQUE INDEX signatures_one_revocation ON signatures (revokes_signature_id) WHERE revokes_signature_id IS NOT NULL`);
+    await q.query(
+      `CREATE UNIQUE INDEX signatures_one_revocation ON signatures (revokes_signature_id) WHERE revokes_signature_id IS NOT NULL`,
+    );
     await q.query(`CREATE INDEX signatures_run_idx ON signatures (run_id)`);
     await q.query(`
       CREATE TRIGGER signatures_immutable BEFORE UPDATE OR DELETE ON signatures

@@ -41,7 +41,9 @@ export class Drift1764633900000 implements MigrationInterface {
         END IF;
         RETURN NEW;
       END $$`);
-    await q.query(`CREATE TRIGGER drift_alerts_guard BEFORE UPDATE OR DELETE ON drift_alerts FOR EACH ROW EXECUTE FUNCTION plumbline_drift_alert_guard()`);
+    await q.query(
+      `CREATE TRIGGER drift_alerts_guard BEFORE UPDATE OR DELETE ON drift_alerts FOR EACH ROW EXECUTE FUNCTION plumbline_drift_alert_guard()`,
+    );
     await q.query('CREATE INDEX drift_alerts_open ON drift_alerts (raised_at DESC) WHERE acknowledged_at IS NULL');
   }
 

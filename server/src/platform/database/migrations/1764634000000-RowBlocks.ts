@@ -49,8 +49,16 @@ export class RowBlocks1764634000000 implements MigrationInterface {
     // layout (PackedBlocks1764700000000): this migration must keep producing the layout its own table has.
     const versions: { id: string }[] = await q.query('SELECT DISTINCT cohort_version_id AS id FROM cohort_rows');
     for (const { id } of versions) {
-      const rows: { line_no: number; outcome: number; event_date: string | null; predictors: Record<string, number | string>; subgroups: Record<string, string> }[] =
-        await q.query(`SELECT line_no, outcome, event_date::text AS event_date, predictors, subgroups FROM cohort_rows WHERE cohort_version_id = $1 ORDER BY line_no`, [id]);
+      const rows: {
+        line_no: number;
+        outcome: number;
+        event_date: string | null;
+        predictors: Record<string, number | string>;
+        subgroups: Record<string, string>;
+      }[] = await q.query(
+        `SELECT line_no, outcome, event_date::text AS event_date, predictors, subgroups FROM cohort_rows WHERE cohort_version_id = $1 ORDER BY line_no`,
+        [id],
+      );
       const first = rows[0].predictors;
       const num = Object.keys(first).filter((k) => typeof first[k] === 'number');
       const cat = Object.keys(first).filter((k) => typeof first[k] !== 'number');
@@ -60,9 +68,21 @@ export class RowBlocks1764634000000 implements MigrationInterface {
         await q.query(
           `INSERT INTO cohort_row_blocks (cohort_version_id, block_no, row_count, dated_count, line_no, outcome, event_date, num_names, num_values, cat_names, cat_values, sub_names, sub_values)
            VALUES ($1, $2, $3, $4, $5, $6, $7::date[], $8, $9, $10, $11, $12, $13)`,
-          [id, b, part.length, part.filter((r) => r.event_date !== null).length, part.map((r) => r.line_no), part.map((r) => r.outcome), part.map((r) => r.event_date),
-            num, num.flatMap((k) => part.map((r) => Number(r.predictors[k]))), cat, cat.flatMap((k) => part.map((r) => String(r.predictors[k]))),
-            sub, sub.flatMap((k) => part.map((r) => r.subgroups[k] ?? null))],
+          [
+            id,
+            b,
+            part.length,
+            part.filter((r) => r.event_date !== null).length,
+            part.map((r) => r.line_no),
+            part.map((r) => r.outcome),
+            part.map((r) => r.event_date),
+            num,
+            num.flatMap((k) => part.map((r) => Number(r.predictors[k]))),
+            cat,
+            cat.flatMap((k) => part.map((r) => String(r.predictors[k]))),
+            sub,
+            sub.flatMap((k) => part.map((r) => r.subgroups[k] ?? null)),
+          ],
         );
       }
     }
@@ -71,6 +91,8 @@ export class RowBlocks1764634000000 implements MigrationInterface {
   }
 
   async down(): Promise<void> {
-    throw new Error('RowBlocks cannot be undone automatically: restore the backup taken before the upgrade (npm run restore)');
+    throw new Error(
+      'RowBlocks cannot be undone automatically: restore the backup taken before the upgrade (npm run restore)',
+    );
   }
 }

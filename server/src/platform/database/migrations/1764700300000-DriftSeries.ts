@@ -26,7 +26,9 @@ export class DriftSeries1764700300000 implements MigrationInterface {
         PRIMARY KEY (score_version_id, cohort_version_id),
         CHECK (octet_length(p) = 8 * n AND octet_length(y) = n AND cardinality(dates) = cardinality(counts))
       )`);
-    await q.query(`CREATE TRIGGER drift_series_immutable BEFORE UPDATE OR DELETE ON drift_series FOR EACH ROW EXECUTE FUNCTION plumbline_refuse_change()`);
+    await q.query(
+      `CREATE TRIGGER drift_series_immutable BEFORE UPDATE OR DELETE ON drift_series FOR EACH ROW EXECUTE FUNCTION plumbline_refuse_change()`,
+    );
   }
 
   async down(q: QueryRunner): Promise<void> {

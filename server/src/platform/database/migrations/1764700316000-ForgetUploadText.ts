@@ -10,7 +10,9 @@ export class ForgetUploadText1764700316000 implements MigrationInterface {
 
   async up(q: QueryRunner): Promise<void> {
     await q.query(`UPDATE cohort_upload_rejections SET value = '' WHERE column_name = '(row)' AND value <> ''`);
-    await q.query(`DELETE FROM cohort_upload_rejections r USING cohort_uploads u WHERE u.id = r.upload_id AND u.status IN ('discarded', 'refused')`);
+    await q.query(
+      `DELETE FROM cohort_upload_rejections r USING cohort_uploads u WHERE u.id = r.upload_id AND u.status IN ('discarded', 'refused')`,
+    );
     await q.query(`UPDATE cohort_uploads SET column_summary = '{}', event_period = NULL, rejection_counts = '[]', suggested_mapping = NULL
                    WHERE status IN ('discarded', 'refused')`);
     await q.query('ALTER TABLE cohort_uploads DROP COLUMN plain_text');

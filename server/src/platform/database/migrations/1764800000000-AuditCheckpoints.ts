@@ -19,7 +19,9 @@ export class AuditCheckpoints1764800000000 implements MigrationInterface {
       CREATE TRIGGER audit_checkpoints_append_only BEFORE UPDATE OR DELETE ON audit_checkpoints
       FOR EACH ROW EXECUTE FUNCTION plumbline_refuse_change()`);
     // The head as it stands now: entries written before this migration are covered from here on.
-    await q.query(`INSERT INTO audit_checkpoints (seq, hash) SELECT seq, hash FROM audit_log ORDER BY seq DESC LIMIT 1`);
+    await q.query(
+      `INSERT INTO audit_checkpoints (seq, hash) SELECT seq, hash FROM audit_log ORDER BY seq DESC LIMIT 1`,
+    );
   }
 
   async down(q: QueryRunner): Promise<void> {

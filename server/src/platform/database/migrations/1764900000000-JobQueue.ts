@@ -9,7 +9,13 @@ export const JOB_SCHEMA = 'pgboss';
  * here). Runs and upload checks are retried once after a crash, then handed to their "-abandoned" queue, whose job
  * marks the run or upload failed. E-mails: 8 attempts in all with back-off from 5 s.
  */
-export const QUEUE_SETTINGS: { name: string; retryLimit: number; retryDelay?: number; retryBackoff?: boolean; deadLetter?: string }[] = [
+export const QUEUE_SETTINGS: {
+  name: string;
+  retryLimit: number;
+  retryDelay?: number;
+  retryBackoff?: boolean;
+  deadLetter?: string;
+}[] = [
   { name: 'run-abandoned', retryLimit: 2, retryDelay: 10 },
   { name: 'upload-check-abandoned', retryLimit: 2, retryDelay: 10 },
   { name: 'run', retryLimit: 1, deadLetter: 'run-abandoned' },
@@ -27,12 +33,19 @@ export class JobQueue1764900000000 implements MigrationInterface {
   async up(q: QueryRunner): Promise<void> {
     // pg-boss wraps its plan in its own BEGIN/COMMIT; TypeORM already runs this migration in a transaction.
     const plan = PgBoss.getConstructionPlans(JOB_SCHEMA).trim();
-    if (!plan.startsWith('BEGIN;') || !plan.endsWith('COMMIT;')) throw new Error('unexpected pg-boss construction plan');
+    if (!plan.startsWith('BEGIN;') || !plan.endsWith('COMMIT;'))
+      throw new Error('unexpected pg-boss construction plan');
     await q.query(plan.slice('BEGIN;'.length, -'COMMIT;'.length));
     for (const s of QUEUE_SETTINGS) {
       await q.query(`SELECT ${JOB_SCHEMA}.create_queue($1, $2::json)`, [
         s.name,
-        JSON.stringify({ policy: 'standard', retryLimit: s.retryLimit, retryDelay: s.retryDelay ?? 0, retryBackoff: s.retryBackoff ?? false, deadLetter: s.deadLetter ?? null }),
+        JSON.stringify({
+          policy: 'standard',
+          retryLimit: s.retryLimit,
+          retryDelay: s.retryDelay ?? 0,
+          retryBackoff: s.retryBackoff ?? false,
+          deadLetter: s.deadLetter ?? null,
+        }),
       ]);
     }
   }

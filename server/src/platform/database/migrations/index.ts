@@ -17,4 +17,22 @@ import { AuditCheckpoints1764800000000 } from './1764800000000-AuditCheckpoints'
 import { JobQueue1764900000000 } from './1764900000000-JobQueue';
 import { DriftRunChoices1764900100000 } from './1764900100000-DriftRunChoices';
 
-export const migrations = [Foundation1764633600000, Registry1764633700000, Uploads1764633750000, FastRows1764633760500, Runs1764633800000, Governance1764633850000, Drift1764633900000, StagedRows1764633950000, RowBlocks1764634000000, PackedBlocks1764700000000, UploadPlainText1764700100000, BlockInsertGuard1764700200000, DriftSeries1764700300000, ForgetUploadText1764700316000, AuditCheckpoints1764800000000, JobQueue1764900000000, DriftRunChoices1764900100000];
+export const migrations = [
+  Foundation1764633600000,
+  Registry1764633700000,
+  Uploads1764633750000,
+  FastRows1764633760500,
+  Runs1764633800000,
+  Governance1764633850000,
+  Drift1764633900000,
+  StagedRows1764633950000,
+  RowBlocks1764634000000,
+  PackedBlocks1764700000000,
+  UploadPlainText1764700100000,
+  BlockInsertGuard1764700200000,
+  DriftSeries1764700300000,
+  ForgetUploadText1764700316000,
+  AuditCheckpoints1764800000000,
+  JobQueue1764900000000,
+  DriftRunChoices1764900100000,
+];
