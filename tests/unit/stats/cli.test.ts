@@ -1,5 +1,5 @@
 // The command line as a person runs it: a child process on a small generated CSV.
-import { execFileSync, spawnSync } from 'node:child_process';
+import { execFileSync } from 'node:child_process';
 import { chmodSync, mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -7,6 +7,7 @@ import { describe, expect, it } from 'vitest';
 import { mulberry32 } from '../../../server/src/stats/bootstrap';
 import { siteAnalysis } from '../../../server/src/stats/groupPerformance';
 import { validate } from '../../../server/src/stats/index';
+import { CLI_JSON_KEYS, runCli } from '../../helpers/cli';
 
 const dir = mkdtempSync(join(tmpdir(), 'plumbline-cli-'));
 const rows = ['risk,died,age'];
@@ -16,7 +17,7 @@ const good = join(dir, 'cohort.csv');
 writeFileSync(good, rows.join('\n') + '\n');
 const bad = join(dir, 'bad.csv');
 writeFileSync(bad, ['risk,died', '0.2,0', '0.3,1', '0.4,yes'].join('\n') + '\n');
-const cli = (args: string[]) => spawnSync('npx', ['tsx', 'server/src/cli/main.ts', ...args], { encoding: 'utf8' });
+const cli = runCli;
 
 describe('plumbline validate', () => {
   it('prints exactly the documented JSON keys', () => {
@@ -39,27 +40,7 @@ describe('plumbline validate', () => {
         { encoding: 'utf8' },
       ),
     );
-    expect(Object.keys(out)).toEqual([
-      'n',
-      'events',
-      'auc',
-      'logLoss',
-      'logLossTotal',
-      'brier',
-      'scaledBrier',
-      'calibrationIntercept',
-      'calibrationSlope',
-      'oe',
-      'hosmerLemeshow',
-      'spiegelhalter',
-      'ici',
-      'e50',
-      'e90',
-      'emax',
-      'netBenefit',
-      'thresholds',
-      'warnings',
-    ]);
+    expect(Object.keys(out)).toEqual(CLI_JSON_KEYS);
     expect(out.n).toBe(200);
     expect(Object.keys(out.auc)).toEqual(['estimate', 'lower', 'upper', 'se']);
     expect(Object.keys(out.hosmerLemeshow)).toEqual(['statistic', 'df', 'pValue', 'groups']);

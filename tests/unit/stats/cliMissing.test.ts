@@ -1,10 +1,10 @@
 // The command line's missing-data options as a person runs them: a child process on small generated CSVs with gaps.
-import { spawnSync } from 'node:child_process';
 import { mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { mulberry32 } from '../../../server/src/stats/bootstrap';
+import { CLI_JSON_KEYS, runCli } from '../../helpers/cli';
 
 const dir = mkdtempSync(join(tmpdir(), 'plumbline-cli-gaps-'));
 const file = (name: string, text: string) => {
@@ -12,7 +12,7 @@ const file = (name: string, text: string) => {
   writeFileSync(f, text);
   return f;
 };
-const cli = (args: string[]) => spawnSync('npx', ['tsx', 'server/src/cli/main.ts', ...args], { encoding: 'utf8' });
+const cli = runCli;
 
 // 400 invented patients: age, lactate and ward, about 15% of each predictor empty; sicker patients (events) lack lactate more often
 const r = mulberry32(2024);
@@ -40,27 +40,7 @@ const model = file(
   }),
 );
 const base = ['validate', '--csv', gaps, '--outcome', 'died', '--model', model];
-const USUAL_KEYS = [
-  'n',
-  'events',
-  'auc',
-  'logLoss',
-  'logLossTotal',
-  'brier',
-  'scaledBrier',
-  'calibrationIntercept',
-  'calibrationSlope',
-  'oe',
-  'hosmerLemeshow',
-  'spiegelhalter',
-  'ici',
-  'e50',
-  'e90',
-  'emax',
-  'netBenefit',
-  'thresholds',
-  'warnings',
-];
+const USUAL_KEYS = CLI_JSON_KEYS;
 
 describe('plumbline validate --missing mi', () => {
   const run = (seed: string) => {
