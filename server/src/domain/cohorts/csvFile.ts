@@ -280,3 +280,38 @@ export async function readHeaderAndSample(
   if (sample.length === 0) throw unprocessable('the file has a header but no data rows');
   return { headers, sample };
 }
+
+/**
+ * The trimmed cells of the chosen columns on the wanted lines of a CSV, line numbers counted as the row checks count
+ * them (quoted line breaks included, empty lines skipped, the header is line 1). Lines whose field count differs from
+ * the header's are left out. Runs in a worker thread (jobs/threads/tasks.ts): it reads the whole file up to the last
+ * wanted line.
+ */
+export async function cellsOnLines(input: {
+  path: string;
+  delimiter: Delimiter;
+  fields: number;
+  columns: number[];
+  lines: number[];
+}): Promise<[number, string[]][]> {
+  const wanted = new Set(input.lines);
+  const last = Math.max(0, ...input.lines);
+  const out: [number, string[]][] = [];
+  if (!wanted.size || !input.columns.length) return out;
+  const numbers = new LineNumbers();
+  const batches = csvBatches(input.path, input.delimiter);
+  try {
+    for await (const records of batches) {
+      for (const record of records) {
+        const line = numbers.next(record, records.quoted);
+        if (!line || line === 1) continue;
+        if (line > last) return out;
+        if (wanted.has(line) && record.length === input.fields)
+          out.push([line, input.columns.map((i) => record[i].trim())]);
+      }
+    }
+  } finally {
+    await batches.return(undefined);
+  }
+  return out;
+}

@@ -4,7 +4,8 @@
 import type { ColumnMappingSpec } from '@shared/cohorts';
 import { csvRecords } from '@shared/csv';
 import { dataSource } from '../../platform/database/dataSource';
-import { csvBatches, LineNumbers, type Delimiter } from './csvFile';
+import { cellsOnLinesInPool } from '../../jobs/threads/pool';
+import type { Delimiter } from './csvFile';
 
 /** The file columns a mapping reads, in the file's order (the only columns a download may carry). */
 export function mappedColumns(headers: string[], mapping: ColumnMappingSpec): string[] {
@@ -54,31 +55,20 @@ export async function* rejectedRowsCsv(src: RejectedRowsSource): AsyncGenerator<
   yield csvRecords([['line', 'reason', ...columns]]);
   const lines = await rejectedLines(src.uploadId);
   if (!lines.size) return;
-  const idx = columns.map((c) => src.headers.indexOf(c));
-  const last = Math.max(...lines.keys());
   if (src.tempPath && columns.length) {
-    // Line numbers are counted as the row checks count them (uploadCheck.ts): quoted line breaks included, empty lines skipped.
-    const numbers = new LineNumbers();
-    let first = true;
-    const batches = csvBatches(src.tempPath, src.delimiter);
+    // The file is read in a worker thread, not on the API thread; ragged rows' text is never asked for.
+    const wanted = [...lines.entries()].filter(([, e]) => !e.ragged).map(([line]) => line);
     try {
-      outer: for await (const records of batches) {
-        for (const record of records) {
-          const line = numbers.next(record, records.quoted);
-          if (!line) continue;
-          if (first) {
-            first = false;
-            continue;
-          }
-          if (line > last) break outer;
-          const e = lines.get(line);
-          if (e && !e.ragged && record.length === src.headers.length) e.values = idx.map((i) => record[i].trim());
-        }
-      }
+      const cells = await cellsOnLinesInPool({
+        path: src.tempPath,
+        delimiter: src.delimiter,
+        fields: src.headers.length,
+        columns: columns.map((c) => src.headers.indexOf(c)),
+        lines: wanted,
+      });
+      for (const [line, values] of cells) lines.get(line)!.values = values;
     } catch {
       // The temp file went (discarded meanwhile) or cannot be read: the lines and reasons are still sent.
-    } finally {
-      await batches.return(undefined);
     }
   }
   const out: (string | number)[][] = [];

@@ -208,6 +208,11 @@ export function precisionInPool(n: number, events: number, auc: number | null): 
   return task('requests', 'precision', { n, events, auc });
 }
 
+/** Chosen cells of chosen lines of an upload's temp file (the rejected-rows CSV), read in the requests pool. */
+export function cellsOnLinesInPool(input: Parameters<Tasks['cellsOnLines']>[0]): Promise<[number, string[]][]> {
+  return task('requests', 'cellsOnLines', input);
+}
+
 /** A recalibration fit of a stored cohort version, made in the requests pool. */
 export function recalibrateInPool(input: RecalibrationTask): Promise<RecalibrationAnswer> {
   return task('requests', 'recalibration', input);

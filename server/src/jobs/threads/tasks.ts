@@ -14,6 +14,9 @@ const tasks = {
   screenFile,
   run: async (input: RunTask) => (await import('./runWorker')).run(input),
   rows: async (input: RowsRequest) => (await import('./rowsWorker')).rows(input),
+  /** The mapped cells of an upload's rejected lines, read back from its temp file for the rejected-rows CSV. */
+  cellsOnLines: async (input: Parameters<typeof import('../../domain/cohorts/csvFile').cellsOnLines>[0]) =>
+    (await import('../../domain/cohorts/csvFile')).cellsOnLines(input),
   recalibration: async (input: RecalibrationTask) => (await import('./recalibrationWorker')).recalibration(input),
   /** The adequacy widths for (n, events, AUC): about 0.2 s of bisection the API thread must not spend. */
   precision: async (input: { n: number; events: number; auc: number | null }): Promise<AdequacyPrecision> =>
