@@ -66,6 +66,18 @@ export function periodLabel(start: string | null, kind: PeriodKind | null | unde
   return (kind && periodStartingOn(start, kind)?.label) || start;
 }
 
+/**
+ * The label a stored row shows: the label uploaded for its start date when the version kept one per start (a file mixing
+ * months and quarters), else the uploaded kind's label, else the date itself.
+ */
+export function rowPeriodLabel(
+  start: string | null,
+  kind: PeriodKind | null | undefined,
+  labels: Record<string, string> | null | undefined,
+): string | null {
+  return (start && labels?.[start]) || periodLabel(start, kind);
+}
+
 /** The one period [start, end] covers exactly (2026-04-01 … 2026-06-30 is 2026-Q2), or null when it is no single period. */
 export function periodCovering(start: string | null, end: string | null): Period | null {
   if (!start || !end) return null;

@@ -96,6 +96,28 @@ describe('uploaded periods', () => {
     expect((await search('2026-04-01')).body.total).toBe(60);
   });
 
+  it('a file mixing a quarter and months: each row shows the label it was uploaded with, and search finds it', async () => {
+    const stored = await storeFile('mixed.csv', [
+      ...rowsLabelled(2026, 1, 30, '2026-Q1'),
+      ...rowsLabelled(2026, 2, 20, '2026-04'),
+      ...rowsLabelled(2026, 2, 10, '2026-05'),
+    ]);
+    const steward = bearer(await tokenFor('steward'));
+    const rowsOf = (query: Record<string, string | number>) =>
+      request(app)
+        .get(`/api/cohorts/${stored.cohortId}/versions/${stored.version}/rows`)
+        .set(steward)
+        .query({ page: 1, pageSize: 100, sortBy: 'line_no', sortDir: 'asc', ...query });
+    const all = await rowsOf({});
+    expect(all.status).toBe(200);
+    const shown = all.body.rows.map((r: { period: string }) => r.period);
+    expect(shown.slice(0, 30).every((p: string) => p === '2026-Q1')).toBe(true);
+    expect(shown.slice(30, 50).every((p: string) => p === '2026-04')).toBe(true);
+    expect(shown.slice(50, 60).every((p: string) => p === '2026-05')).toBe(true);
+    expect((await rowsOf({ search: '2026-q1' })).body.total).toBe(30);
+    expect((await rowsOf({ search: '2026-05' })).body.total).toBe(10);
+  });
+
   it('months across a year end and a leap February: the version ends on the last day of the last month', async () => {
     const stored = await storeFile('months.csv', [
       ...rowsLabelled(2023, 4, 20, '2023-12'),

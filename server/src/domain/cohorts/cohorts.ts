@@ -1,6 +1,6 @@
 // Stored cohorts and their immutable versions: lists, details, rows with server-side paging, saved mappings.
 import type { ColumnMappingSpec } from '@shared/cohorts';
-import { periodLabel, type PeriodKind } from '@shared/periods';
+import { rowPeriodLabel, type PeriodKind } from '@shared/periods';
 import { dataSource } from '../../platform/database/dataSource';
 import type { AuthUser } from '../accounts/actor';
 import { invalid, notFound } from '../errors';
@@ -96,8 +96,11 @@ export async function listCohortRows(
     throw invalid(`cannot sort by "${q.sortBy}"; use line_no, outcome, event_date, a predictor or a subgroup`);
   }
   // Loading, sorting and searching happen in the row browser's thread, once per version and order; here only a page.
-  // Rows store a period's first day; they show the label the file had (2026-Q2) when the version's periods share one kind.
-  const periodKind = (v.mapping as { periodKind?: PeriodKind | null }).periodKind ?? null;
+  // Rows store a period's first day; they show the label the file had (2026-Q2): by the version's one kind of period,
+  // or, for a file that mixed kinds, by the label kept for each start date.
+  const stored = v.mapping as { periodKind?: PeriodKind | null; periodLabels?: Record<string, string> | null };
+  const periodKind = stored.periodKind ?? null;
+  const periodLabels = stored.periodLabels ?? null;
   const browsed = await browseRows({
     cohortVersionId: v.id,
     rowCount: Number(v.rowCount),
@@ -105,10 +108,11 @@ export async function listCohortRows(
     sortDir: q.sortDir,
     search: q.search,
     periodKind,
+    periodLabels,
     page: q.page,
     pageSize: q.pageSize,
   });
-  const rows = browsed.rows.map((r) => ({ ...r, period: periodLabel(r.eventDate, periodKind) }));
+  const rows = browsed.rows.map((r) => ({ ...r, period: rowPeriodLabel(r.eventDate, periodKind, periodLabels) }));
   return { rows, total: browsed.total, page: q.page, pageSize: q.pageSize, predictorKeys, subgroupKeys };
 }
 

@@ -49,7 +49,14 @@ export interface CheckResult {
   columnSummary: Record<string, ColumnSummary>;
   /** min/max: the earliest and latest period start; end: the last day of the latest-ending period; kind: the
    * uploaded labels' kind when they all share one (rows then show their label), else null. */
-  eventPeriod: { min: string; max: string; end: string; kind: PeriodKind | null } | null;
+  eventPeriod: {
+    min: string;
+    max: string;
+    end: string;
+    kind: PeriodKind | null;
+    /** Each start date's uploaded label, when the file mixes kinds (months and quarters) and no start has two labels. */
+    labels?: Record<string, string> | null;
+  } | null;
   /** The first MAX_STORED_REJECTIONS rejected cells, in line order. */
   rejections: Rejection[];
 }
@@ -319,6 +326,8 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     maxDate: string | null = null,
     endDate: string | null = null;
   const periodKinds = new Set<PeriodKind>();
+  const labelOfStart = new Map<string, string>();
+  let startWithTwoLabels = false;
   const reasonCounts = new Map<string, number>();
   const rejections: Rejection[] = [];
   let bytesRead = 0;
@@ -494,6 +503,9 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
       if (!maxDate || period.start > maxDate) maxDate = period.start;
       if (!endDate || period.end > endDate) endDate = period.end;
       periodKinds.add(period.kind);
+      const seen = labelOfStart.get(period.start);
+      if (seen === undefined) labelOfStart.set(period.start, period.label);
+      else if (seen !== period.label) startWithTwoLabels = true;
     }
     accepted++;
     events += y;
@@ -541,7 +553,13 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     reasonCounts: [...reasonCounts.entries()].map(([reason, count]) => ({ reason, count })),
     columnSummary: Object.fromEntries([...summaries.entries()].map(([k, a]) => [k, a.summary()])),
     eventPeriod: minDate
-      ? { min: minDate, max: maxDate!, end: endDate!, kind: periodKinds.size === 1 ? [...periodKinds][0] : null }
+      ? {
+          min: minDate,
+          max: maxDate!,
+          end: endDate!,
+          kind: periodKinds.size === 1 ? [...periodKinds][0] : null,
+          labels: periodKinds.size > 1 && !startWithTwoLabels ? Object.fromEntries(labelOfStart) : null,
+        }
       : null,
     rejections,
   };

@@ -539,6 +539,8 @@ export async function commitUpload(
       scoreVersionId: r.scoreVersionId,
       delimiter: r.delimiter,
       periodKind: period?.kind ?? null,
+      // and, when the file mixed kinds, each start date's uploaded label (2026-Q1 beside 2026-04)
+      periodLabels: period?.labels ?? null,
     };
     const [v] = await qr.query(
       `INSERT INTO cohort_versions (id, cohort_id, version, label, period_start, period_end, source_filename, source_sha256, source_bytes,

@@ -6,7 +6,7 @@
 import pg from 'pg';
 import { config } from '../../platform/config';
 import { loadCohortData, type CohortData, type Query } from '../../domain/cohorts/cohortData';
-import { periodLabel, type PeriodKind } from '@shared/periods';
+import { rowPeriodLabel, type PeriodKind } from '@shared/periods';
 
 export interface RowsRequest {
   cohortVersionId: string;
@@ -16,6 +16,8 @@ export interface RowsRequest {
   search?: string;
   /** The kind of period every row's start date begins, so a search for 2026-Q2 finds that quarter's rows. */
   periodKind?: PeriodKind | null;
+  /** Each start date's uploaded label, for a version whose file mixed kinds of period. */
+  periodLabels?: Record<string, string> | null;
   page: number;
   pageSize: number;
 }
@@ -99,13 +101,19 @@ function sortedOrder(data: CohortData, sortBy: string, dir: 'asc' | 'desc', subs
   return Int32Array.from(idx);
 }
 
-function matching(data: CohortData, needle: string, periodKind: PeriodKind | null): Int32Array {
+function matching(
+  data: CohortData,
+  needle: string,
+  periodKind: PeriodKind | null,
+  periodLabels: Record<string, string> | null,
+): Int32Array {
   const cols = [...Object.values(data.columns), ...Object.values(data.subgroups)];
   const out: number[] = [];
   // A period is searched as the rows show it (2026-Q2) and as its stored first day.
   const periods = new Map<string, string>();
   const periodText = (start: string) =>
-    periods.get(start) ?? periods.set(start, `${periodLabel(start, periodKind)} ${start}`.toLowerCase()).get(start)!;
+    periods.get(start) ??
+    periods.set(start, `${rowPeriodLabel(start, periodKind, periodLabels)} ${start}`.toLowerCase()).get(start)!;
   for (let i = 0; i < data.n; i++) {
     const start = data.eventDate[i];
     if (
@@ -122,11 +130,16 @@ async function answer(r: RowsRequest): Promise<RowsAnswer> {
   const h = version(r.cohortVersionId, r.rowCount);
   const data = await h.data;
   const needle = r.search?.trim().toLowerCase() || '';
-  const key = `${needle}|${r.periodKind ?? ''}|${r.sortBy}|${r.sortDir}`;
+  const key = `${needle}|${r.periodKind ?? ''}|${r.periodLabels ? 'labels' : ''}|${r.sortBy}|${r.sortDir}`;
   let order = h.orders.get(key);
   if (!order) {
     order = Promise.resolve().then(() =>
-      sortedOrder(data, r.sortBy, r.sortDir, needle ? matching(data, needle, r.periodKind ?? null) : undefined),
+      sortedOrder(
+        data,
+        r.sortBy,
+        r.sortDir,
+        needle ? matching(data, needle, r.periodKind ?? null, r.periodLabels ?? null) : undefined,
+      ),
     );
     h.orders.set(key, order);
     if (h.orders.size > MAX_ORDERS_PER_VERSION) h.orders.delete(h.orders.keys().next().value!);

@@ -82,7 +82,13 @@ export class CohortUpload {
   columnSummary: Record<string, ColumnSummary>;
 
   @Column({ name: 'event_period', type: 'jsonb', nullable: true })
-  eventPeriod: { min: string; max: string; end?: string; kind?: PeriodKind | null } | null;
+  eventPeriod: {
+    min: string;
+    max: string;
+    end?: string;
+    kind?: PeriodKind | null;
+    labels?: Record<string, string> | null;
+  } | null;
 
   /** The id the cohort version will get when stored; the staged blocks carry it meanwhile. */
   @Column({ name: 'planned_version_id', type: 'uuid', nullable: true })
