@@ -11,24 +11,24 @@ import type {
 } from '@shared/subgroups';
 import type { ValidationResult } from '@shared/validation';
 
-/** The four metrics each section plots, the level field that holds it and the pooled metric it corresponds to. */
+/** The four metrics each section plots, the level field that holds it, the pooled metric and the scale it pools on. */
 export const FOREST_METRICS = [
-  { key: 'auc', figure: 'auc', label: 'AUC', pooled: 'logitAuc', scale: 'logit AUC' },
+  { key: 'auc', figure: 'auc', label: 'AUC', pooled: 'logitAuc', scale: ' on the logit scale' },
   {
     key: 'calibrationIntercept',
     figure: 'calibrationIntercept',
     label: 'Calibration-in-the-large',
     pooled: 'calibrationIntercept',
-    scale: 'calibration-in-the-large',
+    scale: '',
   },
   {
     key: 'calibrationSlope',
     figure: 'calibrationSlope',
     label: 'Calibration slope',
     pooled: 'calibrationSlope',
-    scale: 'calibration slope',
+    scale: '',
   },
-  { key: 'oe', figure: 'oe', label: 'O/E', pooled: 'logOe', scale: 'log O/E' },
+  { key: 'oe', figure: 'oe', label: 'O/E', pooled: 'logOe', scale: ' on the log scale' },
 ] as const satisfies readonly { key: Figure; figure: Figure; label: string; pooled: PooledMetric; scale: string }[];
 export type ForestMetric = (typeof FOREST_METRICS)[number];
 
@@ -109,7 +109,7 @@ export function randomEffectsText(metric: ForestMetric, a: SitePooled): string {
     finite(r.natural.predictionLower) && finite(r.natural.predictionUpper)
       ? `95% prediction interval ${formatFigure(f, r.natural.predictionLower)} to ${formatFigure(f, r.natural.predictionUpper)}`
       : 'no prediction interval (it needs at least 3 sites)';
-  return `${metric.label}: pooled ${formatFigure(f, r.natural.estimate)} (95% CI ${formatFigure(f, r.natural.lower)} to ${formatFigure(f, r.natural.upper)}) over ${formatCount(r.k)} sites, REML random effects on the ${metric.scale} scale; τ² = ${formatNumber(r.tau2, 4)}, I² = ${formatNumber(r.i2, 1)}%, Q = ${formatNumber(r.q, 2)} on ${formatCount(r.qDf)} df, ${formatPValue(r.qPValue)}; ${pi}.${excludedText(a)}`;
+  return `${metric.label}: pooled ${formatFigure(f, r.natural.estimate)} (95% CI ${formatFigure(f, r.natural.lower)} to ${formatFigure(f, r.natural.upper)}) over ${formatCount(r.k)} sites, REML random effects${metric.scale}; τ² = ${formatNumber(r.tau2, 4)}, I² = ${formatNumber(r.i2, 1)}%, Q = ${formatNumber(r.q, 2)} on ${formatCount(r.qDf)} df, ${formatPValue(r.qPValue)}; ${pi}.${excludedText(a)}`;
 }
 
 /** Cautions for the site section: too few sites for a prediction interval, or sites below the minimum events. */
