@@ -90,6 +90,19 @@ describe('Performance by subgroup', () => {
   });
 });
 
+describe('the printed report', () => {
+  it('shows the tables and sentences without the plots', () => {
+    const w = mount(RunSubgroupForest, {
+      props: { analyses: [sexAnalysis], overall, charts: false },
+      global: { plugins: [vuetify] },
+    });
+    expect(chartsOf(w)).toHaveLength(0);
+    expect(w.find('[data-test="heterogeneity"]').text()).toContain("Cochran's Q");
+    expect(w.findAll('tbody tr')).toHaveLength(3);
+    expect(w.text()).not.toContain('dashed line');
+  });
+});
+
 describe('Performance by site', () => {
   const w = mount(RunSiteForest, {
     props: { sites, overall, filename: 'run' },
