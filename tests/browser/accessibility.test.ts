@@ -159,6 +159,8 @@ describe('a phone-sized screen', () => {
         await page.goto(`${appUrl}/runs/${ids.runId}`);
         await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor();
         await page.getByRole('img', { name: 'ROC curve' }).waitFor();
+        // The demo run has subgroup columns: their forest plots and tables must fit too.
+        await page.locator('[data-test="subgroup-forest"]').waitFor();
         await page.waitForLoadState('networkidle');
         const widths = await page.evaluate(() => ({
           scroll: document.documentElement.scrollWidth,

@@ -92,6 +92,10 @@ describe('steward → statistician → chair → clinician on a new version of a
         const subgroups = page.locator('.v-select', { hasText: 'Subgroups' });
         await expect.poll(() => subgroups.innerText()).toMatch(/age_band[\s\S]*sex[\s\S]*unit/);
         expect(await subgroups.innerText()).not.toMatch(/\bsite\b/);
+        // A site column comes from the same list: the units stand in for sites here.
+        await page.locator('.v-select', { hasText: 'Site column' }).locator('.v-field').click();
+        await page.getByRole('option', { name: 'unit', exact: true }).click();
+        await expect.poll(() => page.locator('.v-select', { hasText: 'Site column' }).innerText()).toMatch(/unit/);
         await page.locator('.v-select', { hasText: 'Score version' }).locator('.v-field').click();
         await page.getByRole('option', { name: new RegExp(scoreName) }).click();
         await screenshot(page, 'steward-run-defaults');
@@ -101,6 +105,17 @@ describe('steward → statistician → chair → clinician on a new version of a
         // The run computes in the server's run thread; its page says what it is doing, then shows the figures.
         await page.getByText('AUC (c-statistic)').first().waitFor({ timeout: 180_000 });
         await expect.poll(() => page.locator('body').innerText()).toMatch(/age_band/);
+        // Performance by subgroup and by site: forest plots drawn, Cochran's Q and the pooling said in words.
+        const bySex = page.locator('[data-test="subgroup-forest-sex"]');
+        await bySex.waitFor();
+        expect(await bySex.locator('canvas').count()).toBe(4);
+        expect(await bySex.locator('[data-test="heterogeneity"]').innerText()).toMatch(/Cochran's Q[\s\S]*on 1 df, p/);
+        const bySite = page.locator('[data-test="site-forest"]');
+        expect(await bySite.locator('canvas').count()).toBe(4);
+        expect(await bySite.locator('[data-test="site-pooling"]').innerText()).toMatch(/τ² = [\s\S]*I² = /);
+        expect(await bySite.locator('[data-test="site-cautions"]').innerText()).toMatch(/fewer than 100 events/);
+        await bySite.scrollIntoViewIfNeeded();
+        await screenshot(page, 'steward-run-sites');
         await screenshot(page, 'steward-run-completed');
       },
       'steward@demo.test',
