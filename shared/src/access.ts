@@ -86,6 +86,9 @@ export const PAGES = {
     api: ['GET /api/runs/:id', 'GET /api/runs/:id/review', 'GET /api/runs/:id/comments', 'POST /api/runs/:id/comments'],
   },
   'run-report': { access: RESULT_READERS, api: ['GET /api/runs/:id/report'] },
+  // Score comparisons (two scores on the same patients); the start form on the list page shows to statisticians.
+  comparisons: { access: RESULT_READERS, api: ['GET /api/comparisons'] },
+  comparison: { access: RESULT_READERS, api: ['GET /api/comparisons/:id'] },
   'signoff-queue': { access: SIGNOFF_QUEUE_READERS, api: ['GET /api/signoff-queue'] },
   scorecards: { access: CARD_READERS, api: ['GET /api/scorecards'] },
   'dev-outbox': { access: ADMIN, api: ['GET /api/dev/outbox'] },

@@ -1,5 +1,6 @@
 // Review, sign-off, comments and score cards: the request schemas and the shapes both sides read.
 import { z } from 'zod';
+import type { ScoreComparisonDetail } from './scoreComparison';
 
 export const VERDICTS = ['fit for use', 'recalibrate first', 'not fit for use'] as const;
 export type Verdict = (typeof VERDICTS)[number];
@@ -23,6 +24,8 @@ export const approvalNeedsReason = (verdict: Verdict | null | undefined) =>
 export const reviewRequest = z.object({
   verdict: z.enum(VERDICTS),
   reasoning: z.string().trim().min(1, 'reasoning is required').max(20_000),
+  /** The score comparison (shared/src/scoreComparison.ts) the review relied on, if any. */
+  comparisonId: z.uuid().optional(),
 });
 export type ReviewRequest = z.infer<typeof reviewRequest>;
 
@@ -58,6 +61,8 @@ export interface ReviewView {
   reviewerName: string;
   createdAt: string;
   supersededBy: string | null;
+  /** The score comparison this review relied on, if it names one. */
+  comparisonId?: string | null;
   current: boolean;
   /** The decisive signature on this review, if any. */
   decision: SignatureMeaning | null;
@@ -222,6 +227,8 @@ export interface RunReport {
   methods: MethodNote[];
   reviews: ReviewView[];
   signatures: SignatureView[];
+  /** The score comparison a review of this run relied on (the current review's, else the latest naming one). */
+  comparison?: ScoreComparisonDetail | null;
   checklist: ChecklistItem[];
   checklistSource: string;
 }

@@ -23,6 +23,7 @@ export const REPORT_PARTS = [
   'thresholds',
   'subgroups',
   'periods',
+  'comparison',
   'review',
   'signatures',
 ] as const;
@@ -51,6 +52,7 @@ export function reportContents(r: ReportBundle): Record<ReportPart, boolean> {
     thresholds: !!results?.overall?.thresholds?.length,
     subgroups: !!results?.subgroups?.length,
     periods: !!results?.periods?.length,
+    comparison: !!r.comparison,
     review: r.reviews.some((v) => v.current),
     signatures: true,
   };

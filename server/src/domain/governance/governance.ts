@@ -26,6 +26,7 @@ import { appendAudit, canonical } from '../accounts/audit';
 import { queueEmail, recipientsForRole } from '../notifications/mail';
 import { verifyPasswordFor } from '../accounts/users';
 import { COHORT_LABEL_SQL, RUN_SCORE_COHORT_JOIN } from '../runs/runJoin';
+import { checkComparisonForRun } from '../comparisons/reviewReference';
 
 const DECISIVE: SignatureMeaning[] = ['approve for clinical use', 'return to statistician'];
 
@@ -91,6 +92,7 @@ interface ReviewRow {
   reviewer_name: string;
   created_at: Date;
   superseded_by: string | null;
+  comparison_id: string | null;
   decision: SignatureMeaning | null;
   closed_by_id: string | null;
   closed_at: Date | null;
@@ -124,6 +126,7 @@ export async function listReviews(runId: string, m: EntityManager = dataSource.m
     reviewerName: r.reviewer_name,
     createdAt: new Date(r.created_at).toISOString(),
     supersededBy: r.superseded_by,
+    comparisonId: r.comparison_id ?? null,
     current: r.superseded_by === null,
     decision: r.decision,
     closedBy: r.closed_by_id ? { signatureId: r.closed_by_id, signedAt: new Date(r.closed_at!).toISOString() } : null,
@@ -263,6 +266,7 @@ export async function reviewRun(actor: AuthUser, runId: string, input: ReviewReq
     if (approved.length)
       throw conflict('this run was approved for clinical use; its record is closed — start a new run to review again');
     const current = await m.getRepository(RunReview).findOne({ where: { runId, supersededBy: IsNull() } });
+    const comparisonId = input.comparisonId ? await checkComparisonForRun(m, runId, input.comparisonId) : null;
     const [{ id }]: { id: string }[] = await m.query('SELECT gen_random_uuid() AS id');
     // The old review points at its successor first (the link is deferred), keeping one current review per run.
     if (current) await m.query('UPDATE run_reviews SET superseded_by = $1 WHERE id = $2', [id, current.id]);
@@ -272,6 +276,7 @@ export async function reviewRun(actor: AuthUser, runId: string, input: ReviewReq
       verdict: input.verdict,
       reasoning: input.reasoning,
       reviewerId: actor.id,
+      comparisonId,
     } as never);
     await appendAudit(
       {
@@ -281,7 +286,7 @@ export async function reviewRun(actor: AuthUser, runId: string, input: ReviewReq
         targetType: 'validation_run',
         targetId: runId,
         sourceIp: ip,
-        details: { reviewId: id, verdict: input.verdict, supersedes: current?.id ?? null },
+        details: { reviewId: id, verdict: input.verdict, supersedes: current?.id ?? null, comparisonId },
       },
       m,
     );

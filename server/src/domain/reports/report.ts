@@ -9,6 +9,7 @@ import { notFound } from '../errors';
 import { listReviews, listSignatures } from '../governance/governance';
 import { describeInputs } from './scorecards';
 import { COHORT_LABEL_SQL, RUN_SCORE_COHORT_JOIN } from '../runs/runJoin';
+import { getComparison } from '../comparisons/comparisons';
 
 /** Methods and where each is published (see docs/references.md for the full list the engine follows). */
 function methods(settings: Partial<RunSettings> | null, results: RunResults | null): MethodNote[] {
@@ -78,6 +79,8 @@ export async function runReport(runId: string): Promise<RunReport> {
   const model = (r.model as ScoreModel | null) ?? null;
   const reviews = await listReviews(runId);
   const signatures = await listSignatures(runId);
+  // The comparison a review relied on: the current review's, else the latest review's that names one.
+  const named = [...reviews].reverse().sort((a, b) => Number(b.current) - Number(a.current)).find((v) => v.comparisonId);
   const iso = (v: unknown) => (v ? new Date(v as string).toISOString() : null);
   const inputs = describeInputs(r.mode as string, model, r.probability_column as string | null);
   const bundle: ReportBundle = {
@@ -120,7 +123,15 @@ export async function runReport(runId: string): Promise<RunReport> {
     methods: methods(settings, results),
     reviews,
     signatures,
+    comparison: named?.comparisonId ? await getComparison(named.comparisonId) : null,
   };
+  if (bundle.comparison)
+    bundle.methods.push({
+      name: 'Two scores on the same patients',
+      how: `paired DeLong test of the AUC difference with its Wald 95% CI; net-benefit difference at each threshold${bundle.comparison.results.bootstrap ? ` with a paired percentile bootstrap 95% CI (${formatCount(bundle.comparison.results.bootstrap.replicates)} replicates, seed ${bundle.comparison.results.bootstrap.seed})` : ''}.`,
+      source:
+        'DeLong ER, DeLong DM, Clarke-Pearson DL (1988) Biometrics 44:837–845; Vickers AJ, Elkin EB (2006) Med Decis Making 26:565–574; Efron B, Tibshirani RJ (1993) An Introduction to the Bootstrap',
+    });
   // The checklist is derived from the same bundle the report is rendered from (shared/src/report.ts).
   return { ...bundle, checklist: reportChecklist(bundle), checklistSource: CHECKLIST_SOURCE };
 }

@@ -3,6 +3,7 @@
 import { rateLimit } from 'express-rate-limit';
 import { auditQuery } from '@shared/audit';
 import { createRunRequest, runCompareQuery, runListQuery } from '@shared/runs';
+import { createScoreComparisonRequest, scoreComparisonListQuery } from '@shared/scoreComparison';
 import {
   changePasswordRequest,
   createUserRequest,
@@ -44,6 +45,7 @@ import {
   sampleSizeQuery,
 } from '@shared/drift';
 import * as cohorts from './cohorts';
+import * as comparisons from './comparisons';
 import type { RouteDef } from './define';
 import * as drift from './drift';
 import * as governance from './governance';
@@ -205,9 +207,34 @@ export const routes: RouteDef[] = [
     method: 'get',
     path: '/api/runs/compare',
     access: RESULT_READERS,
-    summary: 'compare the headline figures of two runs',
+    summary: 'set the headline figures of two separate runs side by side (unpaired; see /api/comparisons)',
     query: runCompareQuery,
     handler: runs.compare,
+  },
+  // Score comparisons: two score versions on the same patients of one cohort version (paired), computed in a thread.
+  {
+    method: 'post',
+    path: '/api/comparisons',
+    access: STATISTICIAN,
+    summary: 'compare two score versions on the same patients (paired DeLong test, net-benefit differences)',
+    body: createScoreComparisonRequest,
+    handler: comparisons.create,
+  },
+  {
+    method: 'get',
+    path: '/api/comparisons',
+    access: RESULT_READERS,
+    summary: 'list score comparisons (filter by score version or cohort version; paged)',
+    query: scoreComparisonListQuery,
+    handler: comparisons.list,
+  },
+  {
+    method: 'get',
+    path: '/api/comparisons/:id',
+    access: RESULT_READERS,
+    summary: 'one score comparison with its results',
+    params: idParam,
+    handler: comparisons.get,
   },
   {
     method: 'get',

@@ -25,6 +25,7 @@ import { cachePrecision } from '../../domain/runs/adequacyPrecision';
 import type { DriftSeriesPart } from '../../domain/drift/driftSeries';
 import { RunInputError, type ProgressFn } from '../../domain/runs/runCompute';
 import { percentileIntervals, scalarMetrics } from '../../stats/bootstrap';
+import type { ComparisonAnswer, ComparisonTask } from './comparisonWorker';
 import type { RecalibrationAnswer, RecalibrationTask } from './recalibrationWorker';
 import type { BrowsedRow, RowsRequest } from './rowsWorker';
 import type { RunJob, RunTask, RunWorkerMessage } from './runWorker';
@@ -164,6 +165,11 @@ export async function bootstrapInWorkers(
     ranges.map(([from, to]) => task('background', 'bootstrap', { p, y, settings, from, to })),
   );
   return { ...percentileIntervals(scalarMetrics(point), parts.flat(), settings.bootstrapSeed), workers: k };
+}
+
+/** A score comparison (two score versions on one cohort version) in the background pool; the thread reads its inputs. */
+export function compareInThread(input: Omit<ComparisonTask, 'db'>): Promise<ComparisonAnswer> {
+  return task('background', 'comparison', { ...input, db: { ...config.db } });
 }
 
 // ---------------------------------------------------------------- uploads

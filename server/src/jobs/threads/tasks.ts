@@ -4,6 +4,7 @@
 // load on a thread's first task of their kind, so a thread starts with only what it runs.
 import type { AdequacyPrecision } from '@shared/adequacy';
 import type { ValidationSettings } from '@shared/validation';
+import type { ComparisonTask } from './comparisonWorker';
 import type { RecalibrationTask } from './recalibrationWorker';
 import type { RowsRequest } from './rowsWorker';
 import type { RunTask } from './runWorker';
@@ -13,6 +14,8 @@ const tasks = {
   checkUpload,
   screenFile,
   run: async (input: RunTask) => (await import('./runWorker')).run(input),
+  /** Two score versions on the same patients (domain/comparisons/). */
+  comparison: async (input: ComparisonTask) => (await import('./comparisonWorker')).comparison(input),
   rows: async (input: RowsRequest) => (await import('./rowsWorker')).rows(input),
   /** The mapped cells of an upload's rejected lines, read back from its temp file for the rejected-rows CSV. */
   cellsOnLines: async (input: Parameters<typeof import('../../domain/cohorts/csvFile').cellsOnLines>[0]) =>

@@ -24,4 +24,8 @@ export class RunReview {
 
   @Column({ name: 'superseded_by', type: 'uuid', nullable: true })
   supersededBy: string | null;
+
+  /** The score comparison this review relied on, if the statistician named one. */
+  @Column({ name: 'comparison_id', type: 'uuid', nullable: true })
+  comparisonId: string | null;
 }

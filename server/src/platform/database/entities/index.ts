@@ -10,6 +10,7 @@ import { EmailOutbox } from './EmailOutbox';
 import { RunComment } from './RunComment';
 import { RunReview } from './RunReview';
 import { Score } from './Score';
+import { ScoreComparison } from './ScoreComparison';
 import { ScoreVersion } from './ScoreVersion';
 import { Signature } from './Signature';
 import { User } from './User';
@@ -31,6 +32,7 @@ export {
   EmailOutbox,
   AlertRule,
   DriftAlert,
+  ScoreComparison,
 };
 export const entities = [
   User,
@@ -48,4 +50,5 @@ export const entities = [
   EmailOutbox,
   AlertRule,
   DriftAlert,
+  ScoreComparison,
 ];

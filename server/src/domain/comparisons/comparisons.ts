@@ -1,0 +1,221 @@
+// Score comparisons: two score versions on the same patients of one cohort version. Created in one request (computed
+// in a worker thread, stored completed with its hashes), read, listed, and named by a review. A stored comparison
+// never changes (trigger in migration 1765000019000-ScoreComparisons).
+import {
+  scoreComparisonSettingsSchema,
+  type CreateScoreComparisonRequest,
+  type ScoreComparisonDetail,
+  type ScoreComparisonListQuery,
+  type ScoreComparisonResults,
+  type ScoreComparisonSettings,
+  type ScoreComparisonSummary,
+} from '@shared/scoreComparison';
+import type { EntityManager } from 'typeorm';
+import { dataSource } from '../../platform/database/dataSource';
+import { ScoreComparison } from '../../platform/database/entities/ScoreComparison';
+import { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
+import { CohortVersion } from '../../platform/database/entities/CohortVersion';
+import { compareInThread } from '../../jobs/threads/pool';
+import type { ComparisonAnswer } from '../../jobs/threads/comparisonWorker';
+import type { AuthUser } from '../accounts/actor';
+import { appendAudit } from '../accounts/audit';
+import { cohortColumnNames } from '../cohorts/cohortData';
+import { DomainError, invalid, notFound } from '../errors';
+import { comparisonResultsSha256 } from './comparisonCompute';
+
+export type ComputeComparison = (input: {
+  firstScoreVersionId: string;
+  secondScoreVersionId: string;
+  cohortVersionId: string;
+  settings: ScoreComparisonSettings;
+}) => Promise<ComparisonAnswer>;
+
+/** The cohort columns a score version reads: its formula's predictors, or its supplied probability column. */
+function columnsOf(sv: ScoreVersion): string[] {
+  if (sv.mode === 'formula') return [...new Set((sv.model?.predictors ?? []).map((p) => p.column))];
+  return sv.probabilityColumn ? [sv.probabilityColumn] : [];
+}
+
+export async function createComparison(
+  actor: AuthUser,
+  body: CreateScoreComparisonRequest,
+  ip: string | null = null,
+  compute: ComputeComparison = compareInThread,
+): Promise<ScoreComparisonDetail> {
+  if (body.firstScoreVersionId === body.secondScoreVersionId) throw invalid('choose two different score versions');
+  const settings = scoreComparisonSettingsSchema.parse(body.settings ?? {});
+  const svRepo = dataSource.getRepository(ScoreVersion);
+  const first = await svRepo.findOne({ where: { id: body.firstScoreVersionId } });
+  const second = await svRepo.findOne({ where: { id: body.secondScoreVersionId } });
+  if (!first || !second) throw notFound('score version');
+  const cv = await dataSource.getRepository(CohortVersion).findOne({ where: { id: body.cohortVersionId } });
+  if (!cv) throw notFound('cohort version');
+  const cols = await cohortColumnNames(cv.id);
+  const present = new Set([...cols.predictors, ...cols.subgroups]);
+  for (const [which, sv] of [
+    ['first', first],
+    ['second', second],
+  ] as const) {
+    const missing = columnsOf(sv).filter((c) => !present.has(c));
+    if (missing.length)
+      throw invalid(
+        `the cohort version lacks ${missing.map((c) => `"${c}"`).join(', ')}, which the ${which} score version needs`,
+      );
+  }
+
+  const answer = await compute({
+    firstScoreVersionId: first.id,
+    secondScoreVersionId: second.id,
+    cohortVersionId: cv.id,
+    settings,
+  });
+  if (!answer.ok)
+    throw answer.inputError
+      ? invalid(answer.message)
+      : new DomainError('failed', `the comparison could not be computed: ${answer.message}`);
+  const resultsSha256 = comparisonResultsSha256(answer.results);
+
+  const id = await dataSource.transaction(async (m) => {
+    // A formula is frozen from the moment a result rests on it, as for runs (the score_versions trigger keeps it so).
+    for (const sv of [first, second])
+      if (!sv.locked) {
+        const [, changed] = await m.query('UPDATE score_versions SET locked = true WHERE id = $1 AND NOT locked', [
+          sv.id,
+        ]);
+        if (changed === 1)
+          await appendAudit(
+            {
+              actorId: actor.id,
+              actorEmail: actor.email,
+              action: 'score_version.locked',
+              targetType: 'score_version',
+              targetId: sv.id,
+              sourceIp: ip,
+              details: { reason: 'first score comparison' },
+            },
+            m,
+          );
+      }
+    const saved = await m.getRepository(ScoreComparison).save(
+      m.getRepository(ScoreComparison).create({
+        firstScoreVersionId: first.id,
+        secondScoreVersionId: second.id,
+        cohortVersionId: cv.id,
+        settings,
+        results: answer.results,
+        engineVersion: answer.results.engineVersion,
+        inputsSha256: answer.inputsSha256,
+        resultsSha256,
+        createdBy: actor.id,
+      }),
+    );
+    await appendAudit(
+      {
+        actorId: actor.id,
+        actorEmail: actor.email,
+        action: 'comparison.created',
+        targetType: 'score_comparison',
+        targetId: saved.id,
+        sourceIp: ip,
+        details: {
+          firstScoreVersionId: first.id,
+          secondScoreVersionId: second.id,
+          cohortVersionId: cv.id,
+          settings,
+          inputsSha256: answer.inputsSha256,
+          resultsSha256,
+        },
+      },
+      m,
+    );
+    return saved.id;
+  });
+  return getComparison(id);
+}
+
+// ---------------------------------------------------------------- read
+
+const SUMMARY_SQL = `
+  SELECT sc.id, sc.first_score_version_id, sc.second_score_version_id, sc.cohort_version_id, sc.engine_version,
+         sc.created_by, sc.created_at, u.name AS created_by_name,
+         sv1.version AS first_version, s1.id AS first_score_id, s1.name AS first_score_name,
+         sv2.version AS second_version, s2.id AS second_score_id, s2.name AS second_score_name,
+         cv.version AS cohort_version, cv.label AS cohort_label, c.id AS cohort_id, c.name AS cohort_name,
+         (sc.results->>'n')::int AS n, (sc.results->'auc'->'difference'->>'estimate')::float8 AS auc_difference,
+         (sc.results->'auc'->>'pValue')::float8 AS p_value
+  FROM score_comparisons sc
+  JOIN score_versions sv1 ON sv1.id = sc.first_score_version_id JOIN scores s1 ON s1.id = sv1.score_id
+  JOIN score_versions sv2 ON sv2.id = sc.second_score_version_id JOIN scores s2 ON s2.id = sv2.score_id
+  JOIN cohort_versions cv ON cv.id = sc.cohort_version_id JOIN cohorts c ON c.id = cv.cohort_id
+  LEFT JOIN users u ON u.id = sc.created_by`;
+
+type Row = Record<string, unknown>;
+
+function toSummary(r: Row): ScoreComparisonSummary {
+  return {
+    id: r.id as string,
+    first: {
+      scoreVersionId: r.first_score_version_id as string,
+      scoreId: r.first_score_id as string,
+      scoreName: r.first_score_name as string,
+      version: r.first_version as number,
+    },
+    second: {
+      scoreVersionId: r.second_score_version_id as string,
+      scoreId: r.second_score_id as string,
+      scoreName: r.second_score_name as string,
+      version: r.second_version as number,
+    },
+    cohortId: r.cohort_id as string,
+    cohortName: r.cohort_name as string,
+    cohortVersionId: r.cohort_version_id as string,
+    cohortVersion: r.cohort_version as number,
+    cohortLabel: (r.cohort_label as string) ?? '',
+    engineVersion: r.engine_version as string,
+    createdBy: (r.created_by as string) ?? null,
+    createdByName: (r.created_by_name as string) ?? null,
+    createdAt: new Date(r.created_at as string).toISOString(),
+    headline: { n: r.n as number, aucDifference: r.auc_difference as number, pValue: r.p_value as number },
+  };
+}
+
+export async function listComparisons(
+  q: ScoreComparisonListQuery,
+): Promise<{ total: number; comparisons: ScoreComparisonSummary[] }> {
+  const where: string[] = [];
+  const args: unknown[] = [];
+  if (q.scoreVersion) {
+    args.push(q.scoreVersion);
+    where.push(`(sc.first_score_version_id = $${args.length} OR sc.second_score_version_id = $${args.length})`);
+  }
+  if (q.cohortVersion) {
+    args.push(q.cohortVersion);
+    where.push(`sc.cohort_version_id = $${args.length}`);
+  }
+  const filter = where.length ? ` WHERE ${where.join(' AND ')}` : '';
+  const [{ n }]: { n: number }[] = await dataSource.query(
+    `SELECT count(*)::int AS n FROM score_comparisons sc${filter}`,
+    args,
+  );
+  const rows: Row[] = await dataSource.query(
+    `${SUMMARY_SQL}${filter} ORDER BY sc.created_at DESC, sc.id LIMIT ${q.limit} OFFSET ${q.offset}`,
+    args,
+  );
+  return { total: n, comparisons: rows.map(toSummary) };
+}
+
+export async function getComparison(
+  id: string,
+  manager: EntityManager = dataSource.manager,
+): Promise<ScoreComparisonDetail> {
+  const rows: Row[] = await manager.query(`${SUMMARY_SQL} WHERE sc.id = $1`, [id]);
+  if (!rows[0]) throw notFound('score comparison');
+  const stored = await manager.getRepository(ScoreComparison).findOneOrFail({ where: { id } });
+  return {
+    ...toSummary(rows[0]),
+    settings: stored.settings,
+    results: stored.results as ScoreComparisonResults,
+    inputsSha256: stored.inputsSha256.trim(),
+    resultsSha256: stored.resultsSha256.trim(),
+  };
+}

@@ -1,0 +1,17 @@
+// A review may name the score comparison it relied on: one on the run's own cohort version with the run's score
+// version as one of its two sides, so the comparison speaks of the same patients and the same formula.
+import type { EntityManager } from 'typeorm';
+import { invalid } from '../errors';
+
+export async function checkComparisonForRun(m: EntityManager, runId: string, comparisonId: string): Promise<string> {
+  const rows: { ok: boolean }[] = await m.query(
+    `SELECT (sc.cohort_version_id = r.cohort_version_id
+             AND r.score_version_id IN (sc.first_score_version_id, sc.second_score_version_id)) AS ok
+     FROM score_comparisons sc, validation_runs r WHERE sc.id = $1 AND r.id = $2`,
+    [comparisonId, runId],
+  );
+  if (!rows[0]) throw invalid('the named score comparison does not exist');
+  if (!rows[0].ok)
+    throw invalid("the named score comparison is not on this run's cohort version with this run's score version");
+  return comparisonId;
+}
