@@ -14,7 +14,10 @@ export const scoreComparisonSettingsSchema = z
       .min(2)
       .max(200)
       .default(DEFAULT_NET_BENEFIT_THRESHOLDS)
-      .refine((xs) => xs.every((x, i) => i === 0 || x > xs[i - 1]), 'net-benefit thresholds must ascend without repeats'),
+      .refine(
+        (xs) => xs.every((x, i) => i === 0 || x > xs[i - 1]),
+        'net-benefit thresholds must ascend without repeats',
+      ),
     /** Paired bootstrap replicates for the net-benefit differences; 0 gives the differences without intervals. */
     bootstrapReplicates: z.number().int().min(0).max(2000).default(500),
     bootstrapSeed: z

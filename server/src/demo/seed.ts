@@ -7,6 +7,7 @@ import { seedGovernance } from './seeds/governance';
 import { seedCohorts } from './seeds/cohorts';
 import { seedDrift } from './seeds/drift';
 import { seedRuns } from './seeds/runs';
+import { seedCompetingScore } from './seeds/competingScore';
 import { seedKestrelScore } from './seeds/scenario';
 
 export type SeedOutcome = 'seeded' | 'already has data';
@@ -29,6 +30,8 @@ export async function seedDemo(): Promise<SeedOutcome> {
   await seedRuns();
   // Reviews and signatures on the demo runs (seeds/governance.ts): keep this last, after the runs are seeded.
   await seedGovernance();
+  // The competing Wren index and its comparison with Kestrel v2 (seeds/competingScore.ts): after the reviews.
+  await seedCompetingScore();
   // Drift rules and their alerts on the demo runs (seeds/drift.ts): last, it reads the runs.
   await seedDrift();
   await appendAudit({

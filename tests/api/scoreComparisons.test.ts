@@ -1,0 +1,223 @@
+// Two score versions head to head on the same patients: the stored comparison equals the engine's compareScores on
+// the same rows computed here independently (exact), who may create and read it, the refusals for bad input, its
+// immutability, and a review naming it (shown in the run's report). Fixture data and the second score are invented.
+import request from 'supertest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { ScoreModel } from '@shared/model';
+import type { Role } from '@shared/roles';
+import type { ScoreComparisonDetail } from '@shared/scoreComparison';
+import { stopBackgroundServices } from '../../server/src/jobs/background';
+import { asStored } from '../../server/src/domain/runs/runCompute';
+import { processNextRun } from '../../server/src/domain/runs/runQueue';
+import { WREN_V1_MODEL } from '../../server/src/demo/seeds/competingScore';
+import { compareScores } from '../../server/src/stats/compareScores';
+import { applyModel, validate } from '../../server/src/stats/index';
+import { app, bearer, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
+import {
+  createCohortFixture,
+  createScoreFixture,
+  FIXTURE_MODEL,
+  kestrelRows,
+  type CohortFixture,
+  type FixtureRow,
+  type ScoreFixture,
+} from '../helpers/fixtures';
+
+useDatabase();
+
+let first: ScoreFixture;
+let second: ScoreFixture;
+let needsAlbumin: ScoreFixture;
+let cohort: CohortFixture;
+let otherCohort: CohortFixture;
+const THRESHOLDS = [0.05, 0.1, 0.15, 0.2, 0.3];
+const SETTINGS = { netBenefitThresholds: THRESHOLDS, bootstrapReplicates: 60, bootstrapSeed: 4242 };
+
+const as = async (role: Role) => bearer(await tokenFor(role));
+const create = async (role: Role, body: Record<string, unknown>) =>
+  request(app)
+    .post('/api/comparisons')
+    .set(await as(role))
+    .send(body);
+
+function risks(model: ScoreModel, rows: FixtureRow[]): Float64Array {
+  const columns: Record<string, string[]> = {};
+  for (const pred of model.predictors) columns[pred.column] = rows.map((x) => String(x.predictors[pred.column]));
+  const applied = applyModel(model, columns, rows.length);
+  if (!applied.ok) throw new Error(applied.message);
+  return applied.p;
+}
+
+beforeAll(async () => {
+  while (await processNextRun());
+  first = await createScoreFixture();
+  second = await createScoreFixture({ model: WREN_V1_MODEL });
+  needsAlbumin = await createScoreFixture({
+    model: { intercept: -2, predictors: [{ column: 'albumin', coefficient: -0.05, transform: 'linear' }] },
+  });
+  cohort = await createCohortFixture(kestrelRows(1200, 77));
+  otherCohort = await createCohortFixture(kestrelRows(300, 78));
+});
+
+afterAll(async () => {
+  await stopBackgroundServices();
+});
+
+describe('a comparison of two score versions on one cohort version', () => {
+  let made: ScoreComparisonDetail;
+  let p1: Float64Array;
+  let p2: Float64Array;
+  let y: Uint8Array;
+
+  beforeAll(async () => {
+    const res = await create('statistician', {
+      firstScoreVersionId: first.scoreVersionId,
+      secondScoreVersionId: second.scoreVersionId,
+      cohortVersionId: cohort.cohortVersionId,
+      settings: SETTINGS,
+    });
+    expect(res.status, JSON.stringify(res.body)).toBe(201);
+    made = res.body.comparison;
+    p1 = risks(FIXTURE_MODEL, cohort.rows);
+    p2 = risks(WREN_V1_MODEL, cohort.rows);
+    y = Uint8Array.from(cohort.rows.map((r) => r.outcome));
+  });
+
+  it("stores the engine's paired DeLong test and bootstrap net-benefit differences on the same rows, exactly", () => {
+    const expected = asStored(compareScores(p1, p2, y, { thresholds: THRESHOLDS, replicates: 60, seed: 4242 }));
+    expect(made.results.n).toBe(cohort.rows.length);
+    expect(made.results.events).toBe(expected.events);
+    expect(made.results.auc).toEqual(expected.auc);
+    expect(made.results.netBenefit).toEqual(expected.netBenefit);
+    expect(made.results.bootstrap).toEqual(expected.bootstrap);
+    // The bootstrap made real intervals around each difference.
+    for (const d of made.results.netBenefit) {
+      expect(d.difference.lower!).toBeLessThanOrEqual(d.difference.upper!);
+      expect(d.difference.upper! - d.difference.lower!).toBeGreaterThan(0);
+    }
+  });
+
+  it("keeps each score's own figures and calibration curve as the engine gives them", () => {
+    const own = validate(p2, y, { netBenefitThresholds: THRESHOLDS, bootstrapReplicates: 0 });
+    expect(made.results.second.auc.estimate).toBe(own.auc.estimate);
+    expect(made.results.second.calibrationCurve).toEqual(asStored(own.calibrationCurve));
+    expect(made.results.treatAll).toEqual(own.netBenefit.map((r) => r.treatAll));
+    // Two AUC routines of the engine (single and paired DeLong) agree to rounding.
+    expect(made.results.first.auc.estimate).toBeCloseTo(made.results.auc.first, 12);
+  });
+
+  it('reads back the same record with its hashes, names and headline, and lists it', async () => {
+    const got = await request(app)
+      .get(`/api/comparisons/${made.id}`)
+      .set(await as('chair'));
+    expect(got.status).toBe(200);
+    expect(got.body.comparison).toEqual(made);
+    expect(made.inputsSha256).toMatch(/^[0-9a-f]{64}$/);
+    expect(made.resultsSha256).toMatch(/^[0-9a-f]{64}$/);
+    expect(made.first.scoreVersionId).toBe(first.scoreVersionId);
+    expect(made.headline.aucDifference).toBe(made.results.auc.difference.estimate);
+    const list = await request(app)
+      .get('/api/comparisons')
+      .query({ cohortVersion: cohort.cohortVersionId })
+      .set(await as('admin'));
+    expect(list.status).toBe(200);
+    expect(list.body.comparisons.map((c: { id: string }) => c.id)).toEqual([made.id]);
+  });
+
+  it('is never changed or deleted (no grant; the owner meets the trigger)', async () => {
+    await refusedTwice(`UPDATE score_comparisons SET settings = '{}' WHERE id = $1`, [made.id], /append-only/);
+    await refusedTwice('DELETE FROM score_comparisons WHERE id = $1', [made.id], /append-only/);
+  });
+
+  it('can be named by the review of a run of one of its score versions on the same cohort version, and the report carries it', async () => {
+    const run = await request(app)
+      .post('/api/runs')
+      .set(await as('statistician'))
+      .send({ scoreVersionId: first.scoreVersionId, cohortVersionId: cohort.cohortVersionId });
+    expect(run.status).toBe(201);
+    while (await processNextRun());
+    const review = await request(app)
+      .post(`/api/runs/${run.body.run.id}/review`)
+      .set(await as('statistician'))
+      .send({ verdict: 'fit for use', reasoning: 'Better than the alternative.', comparisonId: made.id });
+    expect(review.status, JSON.stringify(review.body)).toBe(201);
+    expect(review.body.comparisonId).toBe(made.id);
+    const report = await request(app)
+      .get(`/api/runs/${run.body.run.id}/report`)
+      .set(await as('chair'));
+    expect(report.status).toBe(200);
+    expect(report.body.comparison.id).toBe(made.id);
+    expect(report.body.methods.map((m: { name: string }) => m.name)).toContain('Two scores on the same patients');
+
+    // A run on another cohort version cannot rest on it.
+    const other = await request(app)
+      .post('/api/runs')
+      .set(await as('statistician'))
+      .send({ scoreVersionId: first.scoreVersionId, cohortVersionId: otherCohort.cohortVersionId });
+    while (await processNextRun());
+    const wrong = await request(app)
+      .post(`/api/runs/${other.body.run.id}/review`)
+      .set(await as('statistician'))
+      .send({ verdict: 'fit for use', reasoning: 'x', comparisonId: made.id });
+    expect(wrong.status).toBe(400);
+    expect(wrong.body.error).toMatch(/not on this run's cohort version/);
+  });
+
+  it('is read by result readers only', async () => {
+    for (const role of ['steward', 'clinician'] as const) {
+      const res = await request(app)
+        .get(`/api/comparisons/${made.id}`)
+        .set(await as(role));
+      expect(res.status, role).toBe(403);
+      const list = await request(app)
+        .get('/api/comparisons')
+        .set(await as(role));
+      expect(list.status, role).toBe(403);
+    }
+  });
+});
+
+describe('creating a comparison', () => {
+  const body = () => ({
+    firstScoreVersionId: first.scoreVersionId,
+    secondScoreVersionId: second.scoreVersionId,
+    cohortVersionId: cohort.cohortVersionId,
+    settings: { ...SETTINGS, bootstrapReplicates: 0 },
+  });
+
+  it('is for statisticians only', async () => {
+    for (const role of ['steward', 'chair', 'admin', 'clinician'] as const) {
+      const res = await create(role, body());
+      expect(res.status, role).toBe(403);
+    }
+  });
+
+  it('refuses the same score version twice', async () => {
+    const res = await create('statistician', { ...body(), secondScoreVersionId: first.scoreVersionId });
+    expect(res.status).toBe(400);
+    expect(JSON.stringify(res.body)).toMatch(/two different score versions/);
+  });
+
+  it("refuses a cohort version lacking a score's columns", async () => {
+    const res = await create('statistician', { ...body(), secondScoreVersionId: needsAlbumin.scoreVersionId });
+    expect(res.status).toBe(400);
+    expect(res.body.error).toMatch(/"albumin"/);
+  });
+
+  it('answers 404 for a score version or cohort version that does not exist', async () => {
+    const missing = '00000000-0000-4000-8000-000000000000';
+    expect((await create('statistician', { ...body(), firstScoreVersionId: missing })).status).toBe(404);
+    expect((await create('statistician', { ...body(), cohortVersionId: missing })).status).toBe(404);
+    const get = await request(app)
+      .get(`/api/comparisons/${missing}`)
+      .set(await as('statistician'));
+    expect(get.status).toBe(404);
+  });
+
+  it('without bootstrap replicates gives the differences without intervals', async () => {
+    const res = await create('statistician', body());
+    expect(res.status).toBe(201);
+    expect(res.body.comparison.results.bootstrap).toBeNull();
+    expect(res.body.comparison.results.netBenefit[0].difference.lower).toBeNull();
+  });
+});
