@@ -24,6 +24,7 @@ export const navigation: NavigationItem[] = [
   item('home', '/', 'Overview', 'mdi-home-outline'),
   item('scores', '/scores', 'Scores', 'mdi-function-variant'),
   item('runs', '/runs', 'Validation runs', 'mdi-chart-bell-curve-cumulative'),
+  item('comparisons', '/comparisons', 'Score comparisons', 'mdi-scale-balance'),
   item('signoff-queue', '/signoff-queue', 'Sign-off queue', 'mdi-draw-pen'),
   item('alerts', '/alerts', 'Alerts', 'mdi-bell-alert-outline'),
   item('sample-size', '/sample-size', 'Sample size', 'mdi-calculator-variant-outline'),

@@ -15,7 +15,7 @@ import { http } from './http';
 
 export const getRunGovernance = (runId: string) => http.get<RunGovernanceView>(`/api/runs/${runId}/review`);
 
-export const reviewRun = (runId: string, body: { verdict: Verdict; reasoning: string }) =>
+export const reviewRun = (runId: string, body: { verdict: Verdict; reasoning: string; comparisonId?: string }) =>
   http.post<ReviewView>(`/api/runs/${runId}/review`, body);
 
 export const signoffRun = (runId: string, body: { decision: Decision; password: string; reason?: string }) =>

@@ -56,6 +56,18 @@ export const router = createRouter({
       meta: { title: 'Compare runs' },
     },
     {
+      path: '/comparisons',
+      name: 'comparisons',
+      component: () => import('@/views/ScoreComparisonListView.vue'),
+      meta: { title: 'Score comparisons' },
+    },
+    {
+      path: '/comparisons/:id',
+      name: 'comparison',
+      component: () => import('@/views/ScoreComparisonView.vue'),
+      meta: { title: 'Score comparison' },
+    },
+    {
       path: '/runs/:id',
       name: 'run',
       component: () => import('@/views/RunView.vue'),

@@ -25,18 +25,18 @@ export const WREN_SCORE = {
   doi: null,
   cautionText:
     'Invented demo score. The Wren index was (fictionally) built on a smaller hospital; it uses the same five discharge items as ' +
-    'the Kestrel score with simpler weights. Use it alongside clinical judgement, never instead of it.',
+    'the Kestrel score, weighted more on age. Use it alongside clinical judgement, never instead of it.',
 };
 
-/** Invented weights: logit p = −2.9 + 0.009·age + 0.04·LOS + 0.33·prior + 0.25·[emergency] + 0.07·Charlson. */
+/** Invented weights: logit p = −3.3 + 0.022·age + 0.03·LOS + 0.10·prior + 0.30·[emergency] + 0.05·Charlson. */
 export const WREN_V1_MODEL: ScoreModel = {
-  intercept: -2.9,
+  intercept: -3.3,
   predictors: [
-    { column: 'age', coefficient: 0.009, transform: 'linear' },
-    { column: 'length_of_stay', coefficient: 0.04, transform: 'linear' },
-    { column: 'prior_admissions', coefficient: 0.33, transform: 'linear' },
-    { column: 'emergency_admission', coefficient: 0.25, transform: 'indicator', level: 'yes' },
-    { column: 'charlson_index', coefficient: 0.07, transform: 'linear' },
+    { column: 'age', coefficient: 0.022, transform: 'linear' },
+    { column: 'length_of_stay', coefficient: 0.03, transform: 'linear' },
+    { column: 'prior_admissions', coefficient: 0.1, transform: 'linear' },
+    { column: 'emergency_admission', coefficient: 0.3, transform: 'indicator', level: 'yes' },
+    { column: 'charlson_index', coefficient: 0.05, transform: 'linear' },
   ],
 };
 

@@ -80,7 +80,10 @@ export async function runReport(runId: string): Promise<RunReport> {
   const reviews = await listReviews(runId);
   const signatures = await listSignatures(runId);
   // The comparison a review relied on: the current review's, else the latest review's that names one.
-  const named = [...reviews].reverse().sort((a, b) => Number(b.current) - Number(a.current)).find((v) => v.comparisonId);
+  const named = [...reviews]
+    .reverse()
+    .sort((a, b) => Number(b.current) - Number(a.current))
+    .find((v) => v.comparisonId);
   const iso = (v: unknown) => (v ? new Date(v as string).toISOString() : null);
   const inputs = describeInputs(r.mode as string, model, r.probability_column as string | null);
   const bundle: ReportBundle = {
