@@ -133,6 +133,6 @@ describe('a score comparison without bootstrap replicates', () => {
     expect(text).toContain('At a threshold of 10%');
     expect(text.split('At a threshold').slice(1).join('')).not.toContain('95% CI');
     const [nb] = chartsOf(w);
-    expect(nb.map((d) => d.label)).toEqual(['Difference (Heron index v1 − Plover score v1)', 'No difference']);
+    expect(nb.map((d) => d.label)).toEqual(['Difference (first − second)', 'No difference']);
   });
 });

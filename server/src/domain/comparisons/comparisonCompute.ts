@@ -41,7 +41,8 @@ const fitted = (f: FitResult<Estimate>, what: string, warnings: string[]): Estim
 const finite = (x: number) => (Number.isFinite(x) ? x : null);
 
 function figuresOf(r: ValidationResult): ComparedScoreFigures {
-  const warnings = [...r.warnings];
+  // A comparison shows no threshold table, so the table's own remarks (an undefined NPV at 5%, say) are left out.
+  const warnings = r.warnings.filter((w) => !/^At threshold /.test(w));
   return {
     auc: { estimate: r.auc.estimate, lower: r.auc.lower, upper: r.auc.upper },
     calibrationIntercept: fitted(r.calibrationIntercept, 'calibration-in-the-large', warnings),

@@ -1,0 +1,72 @@
+// Two scores head to head in the browser, on the invented demo data: the statistician compares Kestrel v1 with the
+// competing Wren index on one demo quarter from the comparisons page and reads the summary and both charts; the chair
+// opens the report of the run whose review relied on the demo's comparison and finds its section.
+import 'reflect-metadata';
+import type { Page } from 'playwright-core';
+import { describe, expect, it } from 'vitest';
+import { dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
+import { WREN_SCORE } from '../../server/src/demo/seeds/competingScore';
+import { appUrl } from '../helpers/appServer';
+import { inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
+
+const QUARTER = '2025-Q2';
+let reviewedRunId: string;
+
+/** Vuetify lays its field over the input, hence force. */
+async function choose(page: Page, label: string, option: RegExp): Promise<void> {
+  await page.getByRole('combobox', { name: label }).click({ force: true });
+  await page.getByRole('option', { name: option }).click();
+}
+
+const browser = useAppAndBrowser(async () => {
+  await initDatabase(false);
+  const rows: { run_id: string }[] = await dataSource.query(
+    `SELECT rv.run_id FROM run_reviews rv JOIN score_comparisons sc ON sc.id = rv.comparison_id
+     JOIN score_versions sv ON sv.id = sc.second_score_version_id JOIN scores s ON s.id = sv.score_id
+     WHERE s.name = $1 AND rv.superseded_by IS NULL LIMIT 1`,
+    [WREN_SCORE.name],
+  );
+  expect(rows.length, 'the demo seed has a review relying on the Kestrel–Wren comparison').toBe(1);
+  reviewedRunId = rows[0].run_id;
+});
+
+describe('two scores on the same patients', () => {
+  it('the statistician compares Kestrel v1 with the Wren index on one quarter', async () => {
+    await inTab(
+      browser(),
+      'score-comparison-start',
+      async (page) => {
+        await page.goto(`${appUrl}/comparisons`);
+        await choose(page, 'First score version', /^Kestrel 30-day Readmission Score — version 1$/);
+        await choose(page, 'Second score version', /^Wren Early Readmission Index — version 1$/);
+        await choose(page, 'Cohort version (the same patients)', new RegExp(QUARTER));
+        await page.getByLabel('Bootstrap replicates').fill('50');
+        await page.getByRole('button', { name: 'Compare', exact: true }).click();
+        await page.waitForURL(/\/comparisons\/[0-9a-f-]{36}$/);
+        const sentences = page.getByTestId('comparison-sentences');
+        await expect.poll(() => sentences.textContent()).toMatch(/has the higher AUC, by \d\.\d{3} \(95% CI/);
+        await expect.poll(() => sentences.textContent()).toMatch(/At a threshold of 10%, .* \(95% CI/);
+        await page.getByRole('img', { name: 'Net benefit difference chart' }).waitFor();
+        await page.getByRole('img', { name: 'Calibration plot of both scores' }).waitFor();
+        await screenshot(page, 'score-comparison');
+      },
+      'statistician@demo.test',
+    );
+  });
+
+  it("the chair finds the comparison the review relied on in the run's report", async () => {
+    await inTab(
+      browser(),
+      'score-comparison-report',
+      async (page) => {
+        await page.goto(`${appUrl}/runs/${reviewedRunId}/report`);
+        const section = page.locator('[data-report-part="comparison"]');
+        await section.getByRole('heading', { name: 'Comparison with another score' }).waitFor();
+        await expect
+          .poll(() => section.getByTestId('comparison-sentences').textContent())
+          .toMatch(/Kestrel 30-day Readmission Score v2|Wren Early Readmission Index v1/);
+      },
+      'chair@demo.test',
+    );
+  });
+});
