@@ -124,6 +124,20 @@ describe('a comparison of two score versions on one cohort version', () => {
     expect(list.body.comparisons.map((c: { id: string }) => c.id)).toEqual([made.id]);
   });
 
+  it('is computed again from its inputs to the same results hash', async () => {
+    const res = await request(app)
+      .post(`/api/comparisons/${made.id}/reproduce`)
+      .set(await as('admin'));
+    expect(res.status).toBe(200);
+    expect(res.body).toMatchObject({ match: true, storedSha256: made.resultsSha256 });
+    expect(res.body.recomputedSha256).toBe(made.resultsSha256);
+    expect(res.body.differences).toBeUndefined();
+    const chair = await request(app)
+      .post(`/api/comparisons/${made.id}/reproduce`)
+      .set(await as('chair'));
+    expect(chair.status).toBe(403);
+  });
+
   it('is never changed or deleted (no grant; the owner meets the trigger)', async () => {
     await refusedTwice(`UPDATE score_comparisons SET settings = '{}' WHERE id = $1`, [made.id], /append-only/);
     await refusedTwice('DELETE FROM score_comparisons WHERE id = $1', [made.id], /append-only/);

@@ -47,6 +47,7 @@ export const accessMatrix: Record<string, MatrixAccess> = {
   'POST /api/comparisons': STATISTICIAN,
   'GET /api/comparisons': RESULT_READERS,
   'GET /api/comparisons/:id': RESULT_READERS,
+  'POST /api/comparisons/:id/reproduce': REPRODUCERS,
   'GET /api/runs/:id': RUN_TEAM,
   'POST /api/runs/:id/reproduce': REPRODUCERS,
   'GET /api/runs/:id/review': RUN_TEAM,

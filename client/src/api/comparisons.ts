@@ -4,6 +4,7 @@ import type {
   ScoreComparisonDetail,
   ScoreComparisonSummary,
 } from '@shared/scoreComparison';
+import type { ReproduceReport } from '@shared/runs';
 import { http } from './http';
 
 export interface ComparisonFilter {
@@ -19,3 +20,4 @@ export const getComparison = async (id: string, signal?: AbortSignal) =>
   (await http.get<{ comparison: ScoreComparisonDetail }>(`/api/comparisons/${id}`, undefined, signal)).comparison;
 export const createComparison = async (body: CreateScoreComparisonRequest) =>
   (await http.post<{ comparison: ScoreComparisonDetail }>('/api/comparisons', body)).comparison;
+export const reproduceComparison = (id: string) => http.post<ReproduceReport>(`/api/comparisons/${id}/reproduce`);

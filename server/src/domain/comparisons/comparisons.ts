@@ -10,6 +10,7 @@ import {
   type ScoreComparisonSettings,
   type ScoreComparisonSummary,
 } from '@shared/scoreComparison';
+import type { ReproduceReport } from '@shared/runs';
 import type { EntityManager } from 'typeorm';
 import { dataSource } from '../../platform/database/dataSource';
 import { ScoreComparison } from '../../platform/database/entities/ScoreComparison';
@@ -22,6 +23,7 @@ import { appendAudit } from '../accounts/audit';
 import { cohortColumnNames } from '../cohorts/cohortData';
 import { DomainError, invalid, notFound } from '../errors';
 import { comparisonResultsSha256 } from './comparisonCompute';
+import { ENGINE_VERSION } from '../runs/runCompute';
 
 export type ComputeComparison = (input: {
   firstScoreVersionId: string;
@@ -218,4 +220,47 @@ export async function getComparison(
     inputsSha256: stored.inputsSha256.trim(),
     resultsSha256: stored.resultsSha256.trim(),
   };
+}
+
+// ---------------------------------------------------------------- reproduce
+
+/** Re-computes a stored comparison from its inputs (in a worker thread) and compares the results hash bit for bit. */
+export async function reproduceComparison(
+  actor: AuthUser,
+  id: string,
+  ip: string | null = null,
+  compute: ComputeComparison = compareInThread,
+): Promise<ReproduceReport> {
+  const stored = await dataSource.getRepository(ScoreComparison).findOne({ where: { id } });
+  if (!stored) throw notFound('score comparison');
+  const answer = await compute({
+    firstScoreVersionId: stored.firstScoreVersionId,
+    secondScoreVersionId: stored.secondScoreVersionId,
+    cohortVersionId: stored.cohortVersionId,
+    settings: stored.settings,
+  });
+  if (!answer.ok) throw new DomainError('failed', `the comparison could not be computed again: ${answer.message}`);
+  const recomputed = comparisonResultsSha256(answer.results);
+  const storedNow = comparisonResultsSha256(stored.results);
+  const storedSha = stored.resultsSha256.trim();
+  const match = recomputed === storedSha && storedNow === storedSha;
+  const report: ReproduceReport = {
+    match,
+    storedSha256: storedSha,
+    recomputedSha256: recomputed,
+    engineVersionStored: stored.engineVersion,
+    engineVersionNow: ENGINE_VERSION,
+  };
+  if (answer.inputsSha256 !== stored.inputsSha256.trim())
+    report.differences = [{ path: '(inputs)', stored: stored.inputsSha256.trim(), recomputed: answer.inputsSha256 }];
+  await appendAudit({
+    actorId: actor.id,
+    actorEmail: actor.email,
+    action: 'comparison.reproduced',
+    targetType: 'score_comparison',
+    targetId: id,
+    sourceIp: ip,
+    details: { match, storedSha256: storedSha, recomputedSha256: recomputed, engineVersionNow: ENGINE_VERSION },
+  });
+  return report;
 }

@@ -16,3 +16,7 @@ export async function list(req: Request, res: Response) {
 export async function get(req: Request, res: Response) {
   res.json({ comparison: await comparisons.getComparison(String(req.params.id)) });
 }
+
+export async function reproduce(req: Request, res: Response) {
+  res.json(await comparisons.reproduceComparison(currentUser(req), String(req.params.id), sourceIp(req)));
+}

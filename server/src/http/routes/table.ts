@@ -237,6 +237,14 @@ export const routes: RouteDef[] = [
     handler: comparisons.get,
   },
   {
+    method: 'post',
+    path: '/api/comparisons/:id/reproduce',
+    access: REPRODUCERS,
+    summary: 're-compute a score comparison and compare its hash',
+    params: idParam,
+    handler: comparisons.reproduce,
+  },
+  {
     method: 'get',
     path: '/api/runs/:id',
     access: RUN_TEAM,
