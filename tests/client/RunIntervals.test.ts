@@ -28,6 +28,9 @@ vi.mock('vue-chartjs', () => ({
 let detail: RunDetail;
 vi.mock('@/api/runs', () => ({ getRun: async () => detail, reproduceRun: async () => null }));
 
+// Whole pages and charts mount here: allow for a busy 2-core machine rather than vitest's 5 s.
+vi.setConfig({ testTimeout: 60_000 });
+
 const vuetify = createVuetify();
 const settings = resolveSettings({ bootstrapReplicates: 40, bootstrapSeed: 11 });
 const { p, y } = cohort(3000, 23, { digits: 8 });
