@@ -19,6 +19,12 @@ export interface LevelPerformance {
   oe: (Estimate & { seLog: number }) | null;
   /** Point value and seeded percentile bootstrap CI (NaN bounds when no replicates were asked for). */
   ici: Estimate | null;
+  /**
+   * The level's smoothed calibration curve: the whole-cohort curve's method (loess, same span) on this level's rows,
+   * on up to the same number of grid points (quantiles of the level's risks). Null when the engine refused the level;
+   * absent on runs stored before engine 1.2.0.
+   */
+  calibrationCurve?: { p: number[]; observed: number[] } | null;
 }
 
 /** The effect on the pooling scale for one level and metric. */

@@ -3,7 +3,10 @@
 import request from 'supertest';
 import { describe, expect, it } from 'vitest';
 import { runSettingsSchema } from '@shared/runs';
+import type { RunResults, RunSettings } from '@shared/runs';
 import { seedDemo } from '../../server/src/demo/seed';
+import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from '../../server/src/demo/seeds/cohorts';
+import { DEMO_SITE_RUN_QUARTER, DEMO_SITE_RUN_SETTINGS, seedSiteRun } from '../../server/src/demo/seeds/siteRun';
 import { recordRunNow } from '../../server/src/domain/runs/runQueue';
 import { app, bearer, dataSource, DEMO_PASSWORD, loginAs, ownerDataSource, useDatabase } from '../helpers/api';
 
@@ -25,6 +28,41 @@ describe('the demo seed', () => {
       `SELECT action FROM audit_log WHERE source_ip = 'seed' AND action IN ('review.create', 'signature.approve') ORDER BY seq`,
     );
     expect(acts.map((a) => a.action)).toEqual(['review.create', 'signature.approve', 'review.create']);
+  });
+
+  it('has a completed run by site with bootstrap replicates, whose sites, curves by group and band are stored', async () => {
+    const runs: { id: string; label: string; settings: RunSettings; results: RunResults }[] = await dataSource.query(
+      `SELECT r.id, cv.label, r.settings, r.results FROM validation_runs r
+         JOIN score_versions sv ON sv.id = r.score_version_id JOIN scores s ON s.id = sv.score_id
+         JOIN cohort_versions cv ON cv.id = r.cohort_version_id JOIN cohorts c ON c.id = cv.cohort_id
+       WHERE s.name = $1 AND c.name = $2 AND cv.label = $3 AND r.status = 'completed' AND r.settings->>'siteColumn' IS NOT NULL`,
+      [KESTREL_SCORE_NAME, DEMO_COHORT_NAME, DEMO_SITE_RUN_QUARTER],
+    );
+    expect(runs).toHaveLength(1);
+    const [run] = runs;
+    expect(run.settings).toEqual(DEMO_SITE_RUN_SETTINGS);
+    expect(run.settings.bootstrapReplicates).toBeGreaterThan(0);
+    const r = run.results;
+    // Two invented sites, both with figures, pooled.
+    expect(r.sites!.column).toBe('site');
+    expect(r.sites!.levels.map((l) => l.level)).toEqual(['Main campus', 'North annex']);
+    expect(r.sites!.levels.every((l) => l.error === null && l.calibrationCurve!.p.length > 10)).toBe(true);
+    expect(r.sites!.pooled.logitAuc.result!.k).toBe(2);
+    // A curve for every level of every subgroup column, and the bootstrap's intervals and band.
+    expect(r.subgroupAnalyses!.map((a) => a.column)).toEqual(DEMO_SITE_RUN_SETTINGS.subgroupColumns);
+    for (const a of r.subgroupAnalyses!) expect(a.levels.every((l) => l.calibrationCurve!.p.length > 10)).toBe(true);
+    expect(r.overall.bootstrap!.replicates).toBe(DEMO_SITE_RUN_SETTINGS.bootstrapReplicates);
+    for (const key of ['brier', 'scaledBrier', 'ici', 'e50', 'e90', 'emax', 'netBenefit@0.1'])
+      expect(r.overall.bootstrap!.intervals[key].lower).toBeLessThan(r.overall.bootstrap!.intervals[key].upper);
+    expect(r.calibrationBand!.replicates).toBe(DEMO_SITE_RUN_SETTINGS.bootstrapReplicates);
+    expect(r.calibrationBand!.p).toEqual(r.overall.calibrationCurve.smoothed.p);
+    // Seeding that part again adds nothing.
+    await seedSiteRun();
+    const [{ n }] = await dataSource.query(
+      `SELECT count(*)::int AS n FROM validation_runs WHERE settings->>'siteColumn' IS NOT NULL AND cohort_version_id = (SELECT cohort_version_id FROM validation_runs WHERE id = $1)`,
+      [run.id],
+    );
+    expect(n).toBe(1);
   });
 
   it('a second seed changes nothing, even with a newer unreviewed demo run and a changed chair password', async () => {

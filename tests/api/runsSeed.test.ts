@@ -13,7 +13,7 @@ const demoRuns = async () =>
     `SELECT r.id, r.status, r.results_sha256, r.cohort_version_id FROM validation_runs r
        JOIN score_versions sv ON sv.id = r.score_version_id JOIN scores s ON s.id = sv.score_id
        JOIN cohort_versions cv ON cv.id = r.cohort_version_id JOIN cohorts c ON c.id = cv.cohort_id
-       WHERE s.name = $1 AND sv.version = 2 AND c.name = $2`,
+       WHERE s.name = $1 AND sv.version = 2 AND c.name = $2 ORDER BY r.created_at, r.id`,
     [KESTREL_SCORE_NAME, DEMO_COHORT_NAME],
   )) as { id: string; status: string; results_sha256: string; cohort_version_id: string }[];
 

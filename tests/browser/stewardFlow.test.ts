@@ -98,6 +98,9 @@ describe('steward → statistician → chair → clinician on a new version of a
         await expect.poll(() => page.locator('.v-select', { hasText: 'Site column' }).innerText()).toMatch(/unit/);
         await page.locator('.v-select', { hasText: 'Score version' }).locator('.v-field').click();
         await page.getByRole('option', { name: new RegExp(scoreName) }).click();
+        // Bootstrap replicates and their seed: intervals for Brier, ICI and net benefit, and the calibration band.
+        await page.getByLabel('Bootstrap replicates').fill('50');
+        await page.getByLabel('Bootstrap seed').fill('4242');
         await screenshot(page, 'steward-run-defaults');
         await page.getByRole('button', { name: 'Queue the run' }).click();
         await page.waitForURL(/\/runs\/[0-9a-f-]{36}$/);
@@ -111,11 +114,40 @@ describe('steward → statistician → chair → clinician on a new version of a
         expect(await bySex.locator('canvas').count()).toBe(4);
         expect(await bySex.locator('[data-test="heterogeneity"]').innerText()).toMatch(/Cochran's Q[\s\S]*on 1 df, p/);
         const bySite = page.locator('[data-test="site-forest"]');
-        expect(await bySite.locator('canvas').count()).toBe(4);
+        expect(await bySite.locator('canvas').count()).toBe(5); // the four forest plots and the curves by site
         expect(await bySite.locator('[data-test="site-pooling"]').innerText()).toMatch(/τ² = [\s\S]*I² = /);
         expect(await bySite.locator('[data-test="site-cautions"]').innerText()).toMatch(/fewer than 100 events/);
         await bySite.scrollIntoViewIfNeeded();
         await screenshot(page, 'steward-run-sites');
+
+        // The bootstrap's 95% CIs beside the figures, the band under the calibration curve said in a line.
+        await expect.poll(() => page.locator('body').innerText()).toMatch(/Brier score\s+[\d.]+ \(95% CI [\d.]+ to /);
+        await expect.poll(() => page.locator('body').innerText()).toMatch(/E90 [\d.]+ \(95% CI /);
+        expect(await page.locator('[data-test="calibration-band-note"]').innerText()).toMatch(
+          /pointwise 95% bootstrap percentile band[\s\S]*50 replicates, seed 4242/,
+        );
+        // The decision curve on the standardised scale.
+        const marks = page.locator('[data-test="decision-curve-marks"]');
+        expect(await marks.innerText()).toMatch(/^Net benefit of the score \(bootstrap 95% CI\): at 5% /);
+        await page.locator('[data-test="decision-curve-scale"]').getByRole('button', { name: 'Standardised' }).click();
+        await expect.poll(() => marks.innerText()).toMatch(/^Standardised net benefit of the score/);
+        // Calibration curves by subgroup: choose the column, switch a group off.
+        const curves = page.locator('[data-test="subgroup-forest"] [data-test="subgroup-calibration"]');
+        await curves.locator('canvas').waitFor();
+        await curves.locator('.v-select').locator('.v-field').click();
+        await page.getByRole('option', { name: 'sex', exact: true }).click();
+        await expect.poll(() => curves.locator('.v-card-title').innerText()).toBe('Calibration by sex');
+        const toggles = curves.locator('[data-test^="curve-toggle-"]');
+        await expect.poll(() => toggles.count()).toBe(2);
+        const male = curves.locator('[data-test="curve-toggle-M"]');
+        expect(await male.getAttribute('aria-pressed')).toBe('true');
+        await male.click();
+        await expect.poll(() => male.getAttribute('aria-pressed')).toBe('false');
+        expect(await curves.locator('[data-test="subgroup-calibration-method"]').innerText()).toMatch(
+          /loess of the outcome on predicted risk[\s\S]*span 0.75/,
+        );
+        await curves.scrollIntoViewIfNeeded();
+        await screenshot(page, 'steward-run-curves-by-group');
         await screenshot(page, 'steward-run-completed');
       },
       'steward@demo.test',

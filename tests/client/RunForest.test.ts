@@ -32,13 +32,17 @@ interface Dataset {
   data: { x: number; y: number; xMin: number; xMax: number }[];
   pointStyle?: string;
 }
+// The forest plots only (each section also has a plot of calibration curves by level: RunIntervals.test.ts).
 const chartsOf = (w: ReturnType<typeof mount>) =>
-  w.findAllComponents({ name: 'Scatter' }).map((c) => ({
-    datasets: (c.props('data') as { datasets: Dataset[] }).datasets,
-    options: c.props('options') as {
-      scales: { y: { ticks: { callback: (v: number) => string } } };
-    },
-  }));
+  w
+    .findAllComponents({ name: 'ForestPlot' })
+    .map((f) => f.findComponent({ name: 'Scatter' }))
+    .map((c) => ({
+      datasets: (c.props('data') as { datasets: Dataset[] }).datasets,
+      options: c.props('options') as {
+        scales: { y: { ticks: { callback: (v: number) => string } } };
+      },
+    }));
 
 describe('Performance by subgroup', () => {
   const w = mount(RunSubgroupForest, {
@@ -142,6 +146,21 @@ describe('Performance by site', () => {
     const pi = auc.datasets.find((d) => d.label === '95% prediction interval')!;
     expect([pi.data[0].xMin, pi.data[0].xMax]).toEqual([nat.predictionLower, nat.predictionUpper]);
     expect(auc.options.scales.y.ticks.callback(n)).toBe('Pooled ◆');
+  });
+
+  it("puts every site's own calibration curve on one plot, the refused site left out", () => {
+    const curves = w.find('[data-test="subgroup-calibration"]');
+    expect(curves.text()).toContain('Calibration by site');
+    expect(curves.text()).toContain(`No curve for Outpost`);
+    const drawn = curves.findComponent({ name: 'Scatter' }).props('data') as { datasets: Dataset[] };
+    expect(drawn.datasets.map((d) => d.label.split(' ')[0])).toEqual([
+      'Annex',
+      'East',
+      'North',
+      'South',
+      'Whole',
+      'Ideal',
+    ]);
   });
 
   it('with two sites warns that there is no prediction interval and draws none', () => {

@@ -71,5 +71,14 @@ export const CHART_COLOURS = {
   nonEvents: '#1f5f8b',
 };
 
+/** One colour per group when several groups share a plot (Okabe & Ito's colour-blind-safe set, yellow left out). */
+export const GROUP_COLOURS = ['#0072b2', '#d55e00', '#009e73', '#cc79a7', '#e69f00', '#56b4e9', '#000000'];
+
+/** A colour made see-through, for bands drawn behind a line ('#1f5f8b' → 'rgba(31, 95, 139, 0.2)'). */
+export function translucent(hex: string, alpha = 0.2): string {
+  const n = Number.parseInt(hex.slice(1), 16);
+  return `rgba(${(n >> 16) & 255}, ${(n >> 8) & 255}, ${n & 255}, ${alpha})`;
+}
+
 // Chart and table downloads go through the one CSV writer (quoting and formula neutralisation), as the server's do.
 export { toCsv, type CsvCell } from '@shared/csv';

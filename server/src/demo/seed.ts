@@ -9,6 +9,7 @@ import { seedDrift } from './seeds/drift';
 import { seedRuns } from './seeds/runs';
 import { seedCompetingScore } from './seeds/competingScore';
 import { seedKestrelScore } from './seeds/scenario';
+import { seedSiteRun } from './seeds/siteRun';
 
 export type SeedOutcome = 'seeded' | 'already has data';
 
@@ -34,6 +35,8 @@ export async function seedDemo(): Promise<SeedOutcome> {
   await seedCompetingScore();
   // Drift rules and their alerts on the demo runs (seeds/drift.ts): last, it reads the runs.
   await seedDrift();
+  // A run by site with bootstrap replicates on one quarter (seeds/siteRun.ts): after governance and drift, which it leaves alone.
+  await seedSiteRun();
   await appendAudit({
     action: 'demo.seeded',
     sourceIp: 'seed',

@@ -21,7 +21,10 @@ import { sortCohort } from './sortedCohort';
 import { spiegelhalter } from './spiegelhalter';
 import { thresholdTable } from './thresholdTable';
 
-export const ENGINE_VERSION = '1.1.0'; // 1.1.0: standardised net benefit in every net-benefit row and its bootstrap interval
+// 1.1.0: standardised net benefit in every net-benefit row and its bootstrap interval.
+// 1.2.0: each subgroup and site level carries its smoothed calibration curve (groupPerformance.ts); with no more
+// distinct risks than groups, Hosmer–Lemeshow and the grouped curve make one group per distinct risk (riskGroups.ts).
+export const ENGINE_VERSION = '1.2.0';
 
 export const defaultValidationSettings: ValidationSettings = {
   thresholds: [0.05, 0.1, 0.2, 0.3, 0.5],

@@ -2,8 +2,9 @@
  * Performance within each level of a grouping column (subgroups for fairness, or sites), then either a test of
  * heterogeneity across the levels (subgroups) or a random-effects meta-analysis (sites).
  * Every per-level figure is the engine's own single-cohort result on that level's rows (fullSet.ts), so a level's
- * AUC, calibration-in-the-large, slope and O/E equal `validate` on the subset exactly; ICI's 95% CI is the seeded
- * percentile bootstrap of bootstrap.ts on the subset (iciInterval: the full bootstrap's ICI interval, computed alone).
+ * AUC, calibration-in-the-large, slope, O/E and smoothed calibration curve equal `validate` on the subset exactly (the
+ * curve on as many grid points as the whole cohort's, so a stored run grows by at most gridSize points a level);
+ * ICI's 95% CI is the seeded percentile bootstrap of bootstrap.ts on the subset (iciInterval: the full bootstrap's ICI interval, computed alone).
  * Levels below the published minimum events (shared/src/adequacy.ts: Vergouwe et al. 2005) are flagged, not dropped.
  * Heterogeneity across subgroup levels: Cochran's Q under a fixed effect (metaAnalysis.ts) for calibration-in-the-large
  * and log O/E. Sites: REML random effects for logit AUC, calibration-in-the-large, calibration slope and log O/E with
@@ -69,6 +70,7 @@ export function levelFromResult(level: string, r: ValidationResult): LevelPerfor
     calibrationSlope: fit(r.calibrationSlope),
     oe: { estimate: r.oe.estimate, lower: r.oe.lower, upper: r.oe.upper, seLog: oe.seLog },
     ici: { estimate: r.ici, lower: iciCi?.lower ?? NaN, upper: iciCi?.upper ?? NaN },
+    calibrationCurve: r.calibrationCurve.smoothed,
   };
 }
 
@@ -110,6 +112,7 @@ export function performanceByLevel(
         calibrationSlope: null,
         oe: null,
         ici: null,
+        calibrationCurve: null,
       });
       continue;
     }

@@ -2,7 +2,9 @@
  * Groups of predicted risk, shared by Hosmer–Lemeshow and the grouped calibration curve.
  * Rule: cut points are the quantiles of p at k/g (k = 0 … g), duplicates dropped; group 1 is [q0, q1], group j is
  * (q_{j−1}, q_j] — R's cut(p, unique(quantile(p, type)), include.lowest = TRUE, right = TRUE). Cuts are on values,
- * so tied predictions always share a group, and with many ties there may be fewer than g groups.
+ * so tied predictions always share a group, and with many ties there may be fewer than g groups. With g or fewer
+ * distinct risks, each distinct risk is its own group (a score with three risk levels gives three groups, not the two
+ * the quantile cuts would leave, whose lowest group joins the first two levels).
  * Two quantile definitions (Hyndman RJ, Fan Y (1996) Am Stat 50:361–365): 'quantile-type2' (inverse empirical CDF,
  * averaging at jumps; default — cut points are observed values) and 'quantile-type7' (linear interpolation, R's
  * default quantile). Source for why the choice matters: see docs/references.md (birthwt: 9.6525 vs 10.398).
@@ -20,6 +22,15 @@ export interface RiskGroup {
 }
 
 export function riskGroups(s: SortedCohort, g: number, rule: GroupRule): RiskGroup[] {
+  // No more distinct risks than groups: one group per distinct risk (quantile cuts would merge the lowest two).
+  if (s.groupValue.length <= g)
+    return Array.from(s.groupValue, (v, k) => ({
+      n: s.groupTotal[k],
+      events: s.groupEvents[k],
+      expected: v * s.groupTotal[k],
+      lowerCut: v,
+      upperCut: v,
+    }));
   const q = rule === 'quantile-type2' ? quantileType2 : quantileType7;
   const cuts: number[] = [];
   for (let k = 0; k <= g; k++) {

@@ -57,6 +57,23 @@ describe('performance by level', () => {
     expect(l.ici!.lower).toBeLessThan(l.ici!.upper);
   });
 
+  it.each([BLANK_LEVEL, 'men', 'women', 'women 65+'])(
+    "level %s carries the whole cohort's smoothed curve computed on its rows, on a bounded grid",
+    (label) => {
+      const curve = levels.find((x) => x.level === label)!.calibrationCurve!;
+      const s = subset(label);
+      expect(curve).toEqual(validate(s.p, s.y).calibrationCurve.smoothed); // same loess, span and grid, exactly
+      expect(curve.p.length).toBeGreaterThan(10);
+      expect(curve.p.length).toBeLessThanOrEqual(100); // the default grid size (fullSet.ts loessGridSize)
+      expect(curve).not.toEqual(validate(p, y).calibrationCurve.smoothed);
+    },
+  );
+
+  it('keeps the curve bounded however many rows a level has (the grid size setting)', () => {
+    const small = performanceByLevel(p, y, groups, { loessGridSize: 12 });
+    for (const l of small) expect(l.calibrationCurve!.p.length).toBeLessThanOrEqual(12);
+  });
+
   it('flags levels below 100 events or non-events and keeps them', () => {
     for (const l of levels) expect(l.belowMinimum).toBe(l.events < 100 || l.nonEvents < 100); // Vergouwe et al. 2005 minimum, shared/src/adequacy.ts
     expect(levels.some((l) => l.belowMinimum)).toBe(true);
@@ -69,6 +86,7 @@ describe('performance by level', () => {
     const a = subgroupAnalysis(p, y2, g2);
     const tiny = a.levels.find((l) => l.level === 'tiny')!;
     expect(tiny.error).toMatch(/event/);
+    expect(tiny.calibrationCurve).toBeNull();
     expect(tiny.n).toBe(5);
     expect(tiny.belowMinimum).toBe(true);
     expect(a.heterogeneity.logOe.excluded.map((e) => e.level)).toContain('tiny');
