@@ -6,6 +6,7 @@ import { CohortUpload } from './CohortUpload';
 import { CohortVersion } from './CohortVersion';
 import { ColumnMapping } from './ColumnMapping';
 import { DriftAlert } from './DriftAlert';
+import { DriftRunChoice } from './DriftRunChoice';
 import { EmailOutbox } from './EmailOutbox';
 import { RunComment } from './RunComment';
 import { RunReview } from './RunReview';
@@ -31,6 +32,7 @@ export {
   EmailOutbox,
   AlertRule,
   DriftAlert,
+  DriftRunChoice,
 };
 export const entities = [
   User,
@@ -48,4 +50,5 @@ export const entities = [
   EmailOutbox,
   AlertRule,
   DriftAlert,
+  DriftRunChoice,
 ];
