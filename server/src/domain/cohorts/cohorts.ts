@@ -1,7 +1,7 @@
 // Stored cohorts and their immutable versions: lists, details, rows with server-side paging, saved mappings.
 import type { ColumnMappingSpec } from '@shared/cohorts';
 import { rowPeriodLabel, type PeriodKind } from '@shared/periods';
-import { IsNull } from 'typeorm';
+import { ILike, IsNull } from 'typeorm';
 import { dataSource } from '../../platform/database/dataSource';
 import { Cohort } from '../../platform/database/entities/Cohort';
 import { ColumnMapping } from '../../platform/database/entities/ColumnMapping';
@@ -39,10 +39,11 @@ export async function listCohorts(q: {
      LIMIT $1 OFFSET $2`,
     params,
   );
-  const [{ n }] = await dataSource.query(
-    `SELECT count(*)::int AS n FROM cohorts c ${q.search ? 'WHERE c.name ILIKE $1 OR c.description ILIKE $1' : ''}`,
-    q.search ? [params[2]] : [],
-  );
+  const n = await dataSource
+    .getRepository(Cohort)
+    .count({
+      where: q.search ? [{ name: ILike(params[2] as string) }, { description: ILike(params[2] as string) }] : {},
+    });
   return {
     cohorts: rows.map(({ latest_rows, ...r }: Record<string, unknown>) => ({ ...r, latestRows: latest_rows })),
     total: n as number,
