@@ -39,11 +39,9 @@ export async function listCohorts(q: {
      LIMIT $1 OFFSET $2`,
     params,
   );
-  const n = await dataSource
-    .getRepository(Cohort)
-    .count({
-      where: q.search ? [{ name: ILike(params[2] as string) }, { description: ILike(params[2] as string) }] : {},
-    });
+  const n = await dataSource.getRepository(Cohort).count({
+    where: q.search ? [{ name: ILike(params[2] as string) }, { description: ILike(params[2] as string) }] : {},
+  });
   return {
     cohorts: rows.map(({ latest_rows, ...r }: Record<string, unknown>) => ({ ...r, latestRows: latest_rows })),
     total: n as number,
