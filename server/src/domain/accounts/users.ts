@@ -46,8 +46,12 @@ async function reserveGuess(where: 'email' | 'id', value: string): Promise<Reser
   return rows[0][0];
 }
 
-/** A right password: the account's count of failed tries starts again (and a lock taken by this very try ends). */
-const clearFailures = (id: string) => repo().update(id, { failedLogins: 0, lockedUntil: null });
+/**
+ * A right password: the account's count of failed tries starts again (and a lock taken by this very try ends). A
+ * sign-in is no change of the account, so updated_at stays (TypeORM would set it to now otherwise).
+ */
+const clearFailures = (id: string) =>
+  repo().update(id, { failedLogins: 0, lockedUntil: null, updatedAt: () => 'updated_at' });
 
 export async function login(email: string, password: string, ip: string) {
   const reserved = await reserveGuess('email', email);
