@@ -7,7 +7,7 @@ import { describe, expect, it } from 'vitest';
 import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import { dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
 import { appUrl } from '../helpers/appServer';
-import { inTab, useAppAndBrowser } from '../helpers/browser';
+import { inTab, reviewRun, useAppAndBrowser } from '../helpers/browser';
 import { createCohortFixture, createScoreFixture, kestrelRows } from '../helpers/fixtures';
 
 const est = (estimate: number, lower: number, upper: number) => ({ estimate, lower, upper });
@@ -59,15 +59,12 @@ describe('review, sign-off and score card in the browser', () => {
       browser(),
       'signoff-statistician',
       async (page) => {
-        await page.goto(`${appUrl}/runs/${runId}`);
-        await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor();
-        await page.getByRole('combobox', { name: 'Verdict' }).click({ force: true }); // Vuetify lays its field over the input
-        await page.getByRole('option', { name: 'fit for use', exact: true }).click();
-        await page
-          .getByLabel('Reasoning')
-          .fill('AUC and calibration match the published figures; no subgroup concerns.');
-        await page.getByRole('button', { name: 'Save review' }).click();
-        await page.getByText('awaiting the chair’s decision').waitFor();
+        await reviewRun(
+          page,
+          runId,
+          'fit for use',
+          'AUC and calibration match the published figures; no subgroup concerns.',
+        );
       },
       'statistician@demo.test',
     ));

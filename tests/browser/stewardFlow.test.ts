@@ -7,7 +7,7 @@ import { describe, expect, it } from 'vitest';
 import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import { initDatabase } from '../../server/src/platform/database/dataSource';
 import { appUrl } from '../helpers/appServer';
-import { inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
+import { inTab, reviewRun, screenshot, useAppAndBrowser } from '../helpers/browser';
 import { createCohortFixture, createScoreFixture, kestrelRows } from '../helpers/fixtures';
 
 const fixture = fileURLToPath(new URL('../fixtures/kestrel-2026q1.csv', import.meta.url));
@@ -158,15 +158,12 @@ describe('steward → statistician → chair → clinician on a new version of a
       browser(),
       'steward-flow-statistician',
       async (page) => {
-        await page.goto(`${appUrl}/runs/${runId}`);
-        await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor();
-        await page.getByRole('combobox', { name: 'Verdict' }).click({ force: true }); // Vuetify lays its field over the input
-        await page.getByRole('option', { name: 'fit for use', exact: true }).click();
-        await page
-          .getByLabel('Reasoning')
-          .fill('Discrimination and calibration hold on the new quarter; subgroups by unit show no concern.');
-        await page.getByRole('button', { name: 'Save review' }).click();
-        await page.getByText('awaiting the chair’s decision').waitFor();
+        await reviewRun(
+          page,
+          runId,
+          'fit for use',
+          'Discrimination and calibration hold on the new quarter; subgroups by unit show no concern.',
+        );
         await screenshot(page, 'steward-flow-review');
       },
       'statistician@demo.test',

@@ -123,6 +123,20 @@ export async function submitSignIn(page: Page, email: string, password: string, 
   await page.getByRole('button', { name: 'Sign in' }).click();
 }
 
+/**
+ * On a completed run's page, as a statistician: chooses the verdict, writes the reasoning, saves the review and waits
+ * until the page says the run awaits the chair.
+ */
+export async function reviewRun(page: Page, runId: string, verdict: string, reasoning: string): Promise<void> {
+  await page.goto(`${appUrl}/runs/${runId}`);
+  await page.getByRole('heading', { name: 'Review and sign-off' }).waitFor();
+  await page.getByRole('combobox', { name: 'Verdict' }).click({ force: true }); // Vuetify lays its field over the input
+  await page.getByRole('option', { name: verdict, exact: true }).click();
+  await page.getByLabel('Reasoning').fill(reasoning);
+  await page.getByRole('button', { name: 'Save review' }).click();
+  await page.getByText('awaiting the chair’s decision').waitFor();
+}
+
 /** Signs in through the form and waits until the app has left the sign-in page. */
 export async function signIn(page: Page, email: string, password = DEMO_PASSWORD, baseUrl = appUrl): Promise<void> {
   await submitSignIn(page, email, password, baseUrl);

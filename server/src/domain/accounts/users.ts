@@ -46,18 +46,25 @@ async function reserveGuess(where: 'email' | 'id', value: string): Promise<Reser
   return rows[0][0];
 }
 
-/** A right password: the account's count of failed tries starts again (and a lock taken by this very try ends). */
+/**
+ * A right password: the account's count of failed tries starts again (and a lock taken by this very try ends). A
+ * sign-in is no change of the account, so updated_at stays (TypeORM would set it to now otherwise).
+ */
 const clearFailures = (id: string) =>
-  dataSource.query('UPDATE users SET failed_logins = 0, locked_until = NULL WHERE id = $1', [id]);
+  repo().update(id, { failedLogins: 0, lockedUntil: null, updatedAt: () => 'updated_at' });
 
 export async function login(email: string, password: string, ip: string) {
   const reserved = await reserveGuess('email', email);
   const ok = await bcrypt.compare(password, reserved?.password_hash ?? DUMMY_HASH);
   if (!reserved) {
-    const [user]: { id: string; active: boolean; locked: boolean }[] = await dataSource.query(
-      'SELECT id, active, locked_until > now() AS locked FROM users WHERE email = $1',
-      [email],
-    );
+    // The lock is judged by the database's clock, as reserveGuess judged it.
+    const user: { id: string; active: boolean; locked: boolean } | undefined = await repo()
+      .createQueryBuilder('u')
+      .select('u.id', 'id')
+      .addSelect('u.active', 'active')
+      .addSelect('u.locked_until > now()', 'locked')
+      .where('u.email = :email', { email })
+      .getRawOne();
     const reason = !user ? 'unknown account' : !user.active ? 'inactive' : 'locked';
     await appendAudit({
       actorId: user?.id ?? null,

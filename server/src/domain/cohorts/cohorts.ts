@@ -1,7 +1,10 @@
 // Stored cohorts and their immutable versions: lists, details, rows with server-side paging, saved mappings.
 import type { ColumnMappingSpec } from '@shared/cohorts';
 import { rowPeriodLabel, type PeriodKind } from '@shared/periods';
+import { ILike, IsNull } from 'typeorm';
 import { dataSource } from '../../platform/database/dataSource';
+import { Cohort } from '../../platform/database/entities/Cohort';
+import { ColumnMapping } from '../../platform/database/entities/ColumnMapping';
 import type { AuthUser } from '../accounts/actor';
 import { invalid, notFound } from '../errors';
 import { cohortVersionAdequacy } from '../runs/adequacy';
@@ -36,10 +39,9 @@ export async function listCohorts(q: {
      LIMIT $1 OFFSET $2`,
     params,
   );
-  const [{ n }] = await dataSource.query(
-    `SELECT count(*)::int AS n FROM cohorts c ${q.search ? 'WHERE c.name ILIKE $1 OR c.description ILIKE $1' : ''}`,
-    q.search ? [params[2]] : [],
-  );
+  const n = await dataSource.getRepository(Cohort).count({
+    where: q.search ? [{ name: ILike(params[2] as string) }, { description: ILike(params[2] as string) }] : {},
+  });
   return {
     cohorts: rows.map(({ latest_rows, ...r }: Record<string, unknown>) => ({ ...r, latestRows: latest_rows })),
     total: n as number,
@@ -54,10 +56,10 @@ const VERSION_COLUMNS = `v.id, v.cohort_id AS "cohortId", v.version, v.label, to
   v.mapping, v.uploaded_by AS "uploadedBy", u.name AS "uploadedByName", v.created_at AS "createdAt"`;
 
 export async function getCohort(id: string) {
-  const rows = await dataSource.query(
-    `SELECT id, name, description, score_id AS "scoreId", created_at AS "createdAt" FROM cohorts WHERE id = $1`,
-    [id],
-  );
+  const rows = await dataSource.getRepository(Cohort).find({
+    select: { id: true, name: true, description: true, scoreId: true, createdAt: true },
+    where: { id },
+  });
   if (!rows.length) throw notFound('cohort');
   const versions = await dataSource.query(
     `SELECT ${VERSION_COLUMNS} FROM cohort_versions v LEFT JOIN users u ON u.id = v.uploaded_by WHERE v.cohort_id = $1 ORDER BY v.version DESC`,
@@ -117,11 +119,12 @@ export async function listCohortRows(
 }
 
 export async function listMappings(cohortId?: string) {
-  return dataSource.query(
-    `SELECT id, name, cohort_id AS "cohortId", mapping, created_at AS "createdAt" FROM column_mappings
-     WHERE ($1::uuid IS NULL OR cohort_id = $1 OR cohort_id IS NULL) ORDER BY created_at DESC LIMIT 200`,
-    [cohortId ?? null],
-  );
+  return dataSource.getRepository(ColumnMapping).find({
+    select: { id: true, name: true, cohortId: true, mapping: true, createdAt: true },
+    where: cohortId ? [{ cohortId }, { cohortId: IsNull() }] : {},
+    order: { createdAt: 'DESC' },
+    take: 200,
+  });
 }
 
 export async function saveMapping(
@@ -130,15 +133,14 @@ export async function saveMapping(
   ip: string,
 ) {
   if (body.cohortId) {
-    const found = await dataSource.query('SELECT id FROM cohorts WHERE id = $1', [body.cohortId]);
+    const found = await dataSource.getRepository(Cohort).find({ select: { id: true }, where: { id: body.cohortId } });
     if (!found.length) throw notFound('cohort');
   }
   return dataSource.transaction(async (m) => {
-    const [row] = await m.query(
-      `INSERT INTO column_mappings (name, cohort_id, mapping, created_by) VALUES ($1, $2, $3, $4)
-       RETURNING id, name, cohort_id AS "cohortId", mapping, created_at AS "createdAt"`,
-      [body.name, body.cohortId ?? null, JSON.stringify(body.mapping), actor.id],
-    );
+    const { id, name, cohortId, mapping, createdAt } = await m
+      .getRepository(ColumnMapping)
+      .save({ name: body.name, cohortId: body.cohortId ?? null, mapping: body.mapping, createdBy: actor.id });
+    const row = { id, name, cohortId, mapping, createdAt };
     await appendAudit(
       {
         actorId: actor.id,

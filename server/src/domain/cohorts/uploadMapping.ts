@@ -4,6 +4,7 @@ import type { ColumnMappingSpec } from '@shared/cohorts';
 import { columnMapping } from '@shared/cohorts';
 import type { ScoreModel } from '@shared/model';
 import { dataSource } from '../../platform/database/dataSource';
+import { Score } from '../../platform/database/entities/Score';
 import { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
 import { toCsv } from '@shared/csv';
 import type { RequiredPredictor } from './uploadCheck';
@@ -83,9 +84,15 @@ export async function scoreVersionChoices() {
     mode: string;
     probability_column: string | null;
     model: ScoreModel | null;
-  }[] = await dataSource.query(
-    `SELECT sv.id, s.id AS "scoreId", s.name AS "scoreName", sv.version, sv.mode, sv.probability_column, sv.model FROM score_versions sv JOIN scores s ON s.id = sv.score_id ORDER BY s.name, sv.version DESC`,
-  );
+  }[] = await dataSource
+    .getRepository(ScoreVersion)
+    .createQueryBuilder('sv')
+    .innerJoin(Score, 's', 's.id = sv.scoreId')
+    .select(['sv.id AS id', 's.id AS "scoreId"', 's.name AS "scoreName"', 'sv.version AS version', 'sv.mode AS mode'])
+    .addSelect(['sv.probabilityColumn AS probability_column', 'sv.model AS model'])
+    .orderBy('s.name')
+    .addOrderBy('sv.version', 'DESC')
+    .getRawMany();
   return rows.map((r) => ({
     id: r.id,
     scoreId: r.scoreId,

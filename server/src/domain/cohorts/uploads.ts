@@ -10,7 +10,10 @@ import type { ColumnMappingSpec, UploadFields, UploadStatus, UploadView } from '
 import { config } from '../../platform/config';
 import { dataSource } from '../../platform/database/dataSource';
 import { In } from 'typeorm';
+import { Cohort } from '../../platform/database/entities/Cohort';
 import { CohortUpload } from '../../platform/database/entities/CohortUpload';
+import { CohortVersion } from '../../platform/database/entities/CohortVersion';
+import { ColumnMapping } from '../../platform/database/entities/ColumnMapping';
 import { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
 import { conflict, DomainError, invalid, notFound, refused } from '../errors';
 import type { AuthUser } from '../accounts/actor';
@@ -53,13 +56,17 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
   try {
     const sv = await loadScoreVersion(fields.scoreVersionId);
     if (fields.cohortId) {
-      const found = await dataSource.query('SELECT id FROM cohorts WHERE id = $1', [fields.cohortId]);
+      const found = await dataSource
+        .getRepository(Cohort)
+        .find({ select: { id: true }, where: { id: fields.cohortId } });
       if (!found.length) throw notFound('cohort');
     } else {
-      const found: { id: string; name: string }[] = await dataSource.query(
-        'SELECT id, name FROM cohorts WHERE lower(name) = lower($1)',
-        [fields.cohortName],
-      );
+      const found = await dataSource
+        .getRepository(Cohort)
+        .createQueryBuilder('c')
+        .select(['c.id', 'c.name'])
+        .where('lower(c.name) = lower(:name)', { name: fields.cohortName })
+        .getMany();
       // Said in words; the details let the client offer "add as a new version of" that cohort.
       if (found.length)
         throw conflict(
@@ -94,28 +101,26 @@ export async function createUpload(actor: AuthUser, file: ReceivedFile, fields: 
     }
     const required = requiredPredictors(sv);
     const suggested = suggestMapping(headers, sample, required);
-    const [row] = await dataSource.query(
-      `INSERT INTO cohort_uploads (status, cohort_id, cohort_name, score_version_id, label, period_start, period_end, source_filename, temp_path,
-         sha256, bytes, delimiter, headers, warnings, suggested_mapping, created_by)
-       VALUES ('pending', $1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15) RETURNING id`,
-      [
-        fields.cohortId ?? null,
-        fields.cohortId ? null : fields.cohortName,
-        sv.id,
-        fields.label ?? '',
-        fields.periodStart ?? null,
-        fields.periodEnd ?? null,
-        file.originalName.slice(0, 255),
-        file.path,
-        file.sha256,
-        file.bytes,
-        delimiter,
-        JSON.stringify(headers),
-        JSON.stringify(screen.warnings),
-        JSON.stringify(suggested),
-        actor.id,
-      ],
-    );
+    const {
+      identifiers: [row],
+    } = await dataSource.getRepository(CohortUpload).insert({
+      status: 'pending',
+      cohortId: fields.cohortId ?? null,
+      cohortName: fields.cohortId ? null : fields.cohortName,
+      scoreVersionId: sv.id,
+      label: fields.label ?? '',
+      periodStart: fields.periodStart ?? null,
+      periodEnd: fields.periodEnd ?? null,
+      sourceFilename: file.originalName.slice(0, 255),
+      tempPath: file.path,
+      sha256: file.sha256,
+      bytes: String(file.bytes),
+      delimiter,
+      headers,
+      warnings: screen.warnings,
+      suggestedMapping: suggested,
+      createdBy: actor.id,
+    });
     await appendAudit({
       actorId: actor.id,
       actorEmail: actor.email,
@@ -268,12 +273,7 @@ export async function applyMapping(
     await deleteStagedRows(r.plannedVersionId, m);
     await m.query('DELETE FROM cohort_upload_rejections WHERE upload_id = $1', [id]);
     if (saveAs)
-      await m.query('INSERT INTO column_mappings (name, cohort_id, mapping, created_by) VALUES ($1, $2, $3, $4)', [
-        saveAs,
-        r.cohortId,
-        JSON.stringify(mapping),
-        actor.id,
-      ]);
+      await m.getRepository(ColumnMapping).save({ name: saveAs, cohortId: r.cohortId, mapping, createdBy: actor.id });
     await appendAudit(
       {
         actorId: actor.id,
@@ -508,22 +508,31 @@ export async function commitUpload(
       throw conflict(`this upload is ${locked.status}; only a checked upload can be stored`);
     if (r.cohortId) {
       cohortId = r.cohortId;
-      await qr.query('SELECT id FROM cohorts WHERE id = $1 FOR UPDATE', [cohortId]);
+      await qr.manager
+        .getRepository(Cohort)
+        .findOne({ select: { id: true }, where: { id: cohortId }, lock: { mode: 'pessimistic_write' } });
     } else {
-      const existing = await qr.query('SELECT id FROM cohorts WHERE lower(name) = lower($1)', [r.cohortName]);
+      const existing = await qr.manager
+        .getRepository(Cohort)
+        .createQueryBuilder('c')
+        .select('c.id')
+        .where('lower(c.name) = lower(:name)', { name: r.cohortName })
+        .getMany();
       if (existing.length)
         throw conflict(`a cohort named "${r.cohortName}" was created meanwhile; upload again as a new version of it`);
-      const [c] = await qr.query('INSERT INTO cohorts (name, score_id, created_by) VALUES ($1, $2, $3) RETURNING id', [
-        r.cohortName,
-        sv.scoreId,
-        actor.id,
-      ]);
+      const {
+        identifiers: [c],
+      } = await qr.manager
+        .getRepository(Cohort)
+        .insert({ name: r.cohortName as string, scoreId: sv.scoreId, createdBy: actor.id });
       cohortId = c.id;
     }
-    const [{ next }] = await qr.query(
-      'SELECT coalesce(max(version), 0) + 1 AS next FROM cohort_versions WHERE cohort_id = $1',
-      [cohortId],
-    );
+    const { next } = (await qr.manager
+      .getRepository(CohortVersion)
+      .createQueryBuilder('v')
+      .select('coalesce(max(v.version), 0) + 1', 'next')
+      .where('v.cohortId = :cohortId', { cohortId })
+      .getRawOne<{ next: number }>())!;
     version = next;
     const period = r.eventPeriod;
     // The version ends on the last day of its latest period (2026-Q2 ends 2026-06-30); an upload checked before the
@@ -542,29 +551,26 @@ export async function commitUpload(
       // and, when the file mixed kinds, each start date's uploaded label (2026-Q1 beside 2026-04)
       periodLabels: period?.labels ?? null,
     };
-    const [v] = await qr.query(
-      `INSERT INTO cohort_versions (id, cohort_id, version, label, period_start, period_end, source_filename, source_sha256, source_bytes,
-         row_count, events, excluded_count, exclusions, mapping, column_summary, uploaded_by)
-       VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16) RETURNING id`,
-      [
-        r.plannedVersionId,
-        cohortId,
-        version,
-        r.label || `version ${version}`,
-        r.periodStart ?? period?.min ?? null,
-        r.periodEnd ?? (period ? (period.end ?? endOfMonth(period.max)) : null),
-        r.sourceFilename,
-        r.sha256,
-        r.bytes,
-        r.rowsAccepted,
-        r.events,
-        r.rowsRejected,
-        JSON.stringify(exclusions),
-        JSON.stringify(mapping),
-        JSON.stringify(r.columnSummary),
-        actor.id,
-      ],
-    );
+    const {
+      identifiers: [v],
+    } = await qr.manager.getRepository(CohortVersion).insert({
+      id: r.plannedVersionId as string,
+      cohortId,
+      version,
+      label: r.label || `version ${version}`,
+      periodStart: r.periodStart ?? period?.min ?? null,
+      periodEnd: r.periodEnd ?? (period ? (period.end ?? endOfMonth(period.max)) : null),
+      sourceFilename: r.sourceFilename,
+      sourceSha256: r.sha256,
+      sourceBytes: r.bytes,
+      rowCount: r.rowsAccepted,
+      events: r.events,
+      excludedCount: r.rowsRejected,
+      exclusions,
+      mapping: mapping as never, // jsonb: TypeORM's insert type cannot follow a nested null
+      columnSummary: r.columnSummary,
+      uploadedBy: actor.id,
+    });
     versionId = v.id;
     // The rows were streamed in by the check, in the same transaction that recorded rows_accepted (the worker compares
     // COPY's count); only a new mapping or a discard removes them, and both change the status locked above. This

@@ -2,6 +2,8 @@
 import type { EntityManager } from 'typeorm';
 import type { AlertRuleBody, AlertRuleKind, AlertRuleView } from '@shared/drift';
 import { dataSource } from '../../platform/database/dataSource';
+import { AlertRule } from '../../platform/database/entities/AlertRule';
+import { Score } from '../../platform/database/entities/Score';
 import type { AuthUser } from '../accounts/actor';
 import { notFound } from '../errors';
 import { appendAudit } from '../accounts/audit';
@@ -26,16 +28,16 @@ const toRuleView = (r: {
 });
 
 async function scoreExists(scoreId: string, m: EntityManager = dataSource.manager): Promise<void> {
-  const rows: unknown[] = await m.query('SELECT 1 FROM scores WHERE id = $1', [scoreId]);
-  if (!rows.length) throw notFound('score');
+  if (!(await m.getRepository(Score).exists({ where: { id: scoreId } }))) throw notFound('score');
 }
 
 export async function listAlertRules(scoreId: string): Promise<AlertRuleView[]> {
   await scoreExists(scoreId);
-  const rows = await dataSource.query(
-    'SELECT id, kind, params, enabled FROM alert_rules WHERE score_id = $1 ORDER BY created_at, id',
-    [scoreId],
-  );
+  const rows = await dataSource.getRepository(AlertRule).find({
+    select: { id: true, kind: true, params: true, enabled: true },
+    where: { scoreId },
+    order: { createdAt: 'ASC', id: 'ASC' },
+  });
   return rows.map(toRuleView);
 }
 
@@ -47,22 +49,26 @@ export async function createAlertRule(
 ): Promise<AlertRuleView> {
   return dataSource.transaction(async (m) => {
     await scoreExists(scoreId, m);
-    const rows = await m.query(
-      'INSERT INTO alert_rules (score_id, kind, params, enabled, created_by) VALUES ($1, $2, $3::jsonb, $4, $5) RETURNING id, kind, params, enabled',
-      [scoreId, body.kind, JSON.stringify(body.params ?? {}), body.enabled ?? true, actor?.id ?? null],
-    );
+    const rule = m.getRepository(AlertRule).create({
+      scoreId,
+      kind: body.kind,
+      params: body.params ?? {},
+      enabled: body.enabled ?? true,
+      createdBy: actor?.id ?? null,
+    });
+    await m.getRepository(AlertRule).save(rule);
     await appendAudit(
       {
         actorId: actor?.id ?? null,
         actorEmail: actor?.email,
         action: 'alert_rule.created',
         targetType: 'alert_rule',
-        targetId: rows[0].id,
+        targetId: rule.id,
         sourceIp: ip,
         details: { scoreId, kind: body.kind, params: body.params ?? {}, enabled: body.enabled ?? true },
       },
       m,
     );
-    return toRuleView(rows[0]);
+    return toRuleView(rule);
   });
 }

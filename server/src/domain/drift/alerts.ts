@@ -1,10 +1,13 @@
 // Drift alerts: raised when a rule fires on a score version's timeline (after each completed run), listed, and
 // acknowledged one at a time or several together (one note, all or none, one audit entry per alert).
 import { formatCount, formatEstimate, formatFigure } from '@shared/format';
-import type { EntityManager } from 'typeorm';
+import { In, type EntityManager } from 'typeorm';
 import type { AlertRuleKind, AlertView, DriftPeriod } from '@shared/drift';
 import type { Estimate } from '@shared/validation';
 import { dataSource } from '../../platform/database/dataSource';
+import { AlertRule } from '../../platform/database/entities/AlertRule';
+import { DriftAlert } from '../../platform/database/entities/DriftAlert';
+import { ValidationRun } from '../../platform/database/entities/ValidationRun';
 import type { AuthUser } from '../accounts/actor';
 import { conflict, notFound } from '../errors';
 import { appendAudit } from '../accounts/audit';
@@ -74,16 +77,14 @@ export async function acknowledgeAlert(
   ip: string | null,
 ): Promise<AlertView> {
   return dataSource.transaction(async (m) => {
-    const found: { acknowledged_at: Date | null }[] = await m.query(
-      'SELECT acknowledged_at FROM drift_alerts WHERE id = $1 FOR UPDATE',
-      [id],
-    );
-    if (!found[0]) throw notFound('alert');
-    if (found[0].acknowledged_at) throw conflict('this alert has already been acknowledged');
-    await m.query(
-      'UPDATE drift_alerts SET acknowledged_by = $2, acknowledged_at = now(), ack_note = $3 WHERE id = $1',
-      [id, actor.id, note],
-    );
+    const found = await m
+      .getRepository(DriftAlert)
+      .findOne({ select: { id: true, acknowledgedAt: true }, where: { id }, lock: { mode: 'pessimistic_write' } });
+    if (!found) throw notFound('alert');
+    if (found.acknowledgedAt) throw conflict('this alert has already been acknowledged');
+    await m
+      .getRepository(DriftAlert)
+      .update(id, { acknowledgedBy: actor.id, acknowledgedAt: () => 'now()', ackNote: note });
     await appendAudit(
       {
         actorId: actor.id,
@@ -172,10 +173,11 @@ function fire(rule: { kind: AlertRuleKind; params: Record<string, unknown> }, co
 /** Evaluates the score's enabled rules on a version; each (rule, period) raises an alert once. Returns the new alerts. */
 export async function evaluateAlertsForVersion(versionId: string): Promise<AlertView[]> {
   const version = await versionById(versionId);
-  const rules: { id: string; kind: AlertRuleKind; params: Record<string, unknown> }[] = await dataSource.query(
-    'SELECT id, kind, params FROM alert_rules WHERE score_id = $1 AND enabled ORDER BY created_at, id',
-    [version.score_id],
-  );
+  const rules = await dataSource.getRepository(AlertRule).find({
+    select: { id: true, kind: true, params: true },
+    where: { scoreId: version.score_id, enabled: true },
+    order: { createdAt: 'ASC', id: 'ASC' },
+  });
   if (!rules.length) return [];
   const core = await driftCore(versionId);
   if (!core.periods.length) return [];
@@ -186,11 +188,16 @@ export async function evaluateAlertsForVersion(versionId: string): Promise<Alert
     const ids: string[] = [];
     const lines: string[] = [];
     for (const { rule, f, period } of firings) {
-      const ins: { id: string }[] = await m.query(
-        `INSERT INTO drift_alerts (score_version_id, rule_id, period, detail) VALUES ($1, $2, $3, $4::jsonb)
-         ON CONFLICT (score_version_id, rule_id, period) DO NOTHING RETURNING id`,
-        [versionId, rule.id, period, JSON.stringify({ ...f.detail, message: f.message })],
-      );
+      // The unique (score version, rule, period) key makes a second raise of the same alert insert nothing.
+      const { raw: ins }: { raw: { id: string }[] } = await m
+        .createQueryBuilder()
+        .insert()
+        .into(DriftAlert)
+        .values({ scoreVersionId: versionId, ruleId: rule.id, period, detail: { ...f.detail, message: f.message } })
+        .orIgnore()
+        .updateEntity(false)
+        .returning('id')
+        .execute();
       if (!ins[0]) continue;
       ids.push(ins[0].id);
       lines.push(`- ${period} (${rule.kind}): ${f.message}`);
@@ -224,12 +231,11 @@ export async function evaluateAlertsForVersion(versionId: string): Promise<Alert
 }
 
 export async function evaluateAlertsForRun(runId: string): Promise<AlertView[]> {
-  const rows: { score_version_id: string; status: string }[] = await dataSource.query(
-    'SELECT score_version_id, status FROM validation_runs WHERE id = $1',
-    [runId],
-  );
-  if (!rows[0] || rows[0].status !== 'completed') return [];
-  return evaluateAlertsForVersion(rows[0].score_version_id);
+  const run = await dataSource
+    .getRepository(ValidationRun)
+    .findOne({ select: { id: true, scoreVersionId: true, status: true }, where: { id: runId } });
+  if (!run || run.status !== 'completed') return [];
+  return evaluateAlertsForVersion(run.scoreVersionId);
 }
 
 export async function acknowledgeAlerts(
@@ -241,20 +247,21 @@ export async function acknowledgeAlerts(
   const unique = [...new Set(ids)];
   return dataSource.transaction(async (m) => {
     // Locked in id order, so two bulk acknowledgements that overlap wait for each other rather than deadlock.
-    const found: { id: string; acknowledged_at: Date | null }[] = await m.query(
-      'SELECT id, acknowledged_at FROM drift_alerts WHERE id = ANY($1::uuid[]) ORDER BY id FOR UPDATE',
-      [unique],
-    );
+    const found = await m.getRepository(DriftAlert).find({
+      select: { id: true, acknowledgedAt: true },
+      where: { id: In(unique) },
+      order: { id: 'ASC' },
+      lock: { mode: 'pessimistic_write' },
+    });
     if (found.length !== unique.length) throw notFound(`${unique.length - found.length} of the alerts`);
-    const done = found.filter((f) => f.acknowledged_at);
+    const done = found.filter((f) => f.acknowledgedAt);
     if (done.length)
       throw conflict(
         `${done.length} of the chosen alerts ${done.length === 1 ? 'has' : 'have'} already been acknowledged; reload the list and choose again`,
       );
-    await m.query(
-      'UPDATE drift_alerts SET acknowledged_by = $2, acknowledged_at = now(), ack_note = $3 WHERE id = ANY($1::uuid[])',
-      [unique, actor.id, note],
-    );
+    await m
+      .getRepository(DriftAlert)
+      .update({ id: In(unique) }, { acknowledgedBy: actor.id, acknowledgedAt: () => 'now()', ackNote: note });
     for (const id of unique) {
       await appendAudit(
         {

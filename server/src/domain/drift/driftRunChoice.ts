@@ -2,6 +2,9 @@
 // newest completed run counts when none is chosen). Stored in drift_run_choices, each change an audit entry.
 import type { DriftRunChoice } from '@shared/drift';
 import { dataSource } from '../../platform/database/dataSource';
+import { CohortVersion } from '../../platform/database/entities/CohortVersion';
+import { DriftRunChoice as DriftRunChoiceRow } from '../../platform/database/entities/DriftRunChoice';
+import { ValidationRun } from '../../platform/database/entities/ValidationRun';
 import type { AuthUser } from '../accounts/actor';
 import { forbidden, invalid } from '../errors';
 import { appendAudit } from '../accounts/audit';
@@ -18,26 +21,28 @@ export async function chooseDriftRun(
   const sv = await getScoreVersionByNumber(scoreId, versionNumber);
   return dataSource.transaction(async (m) => {
     if (body.runId) {
-      const runs: { status: string }[] = await m.query(
-        'SELECT status FROM validation_runs WHERE id = $1 AND score_version_id = $2 AND cohort_version_id = $3',
-        [body.runId, sv.id, body.cohortVersionId],
-      );
-      if (!runs[0]) throw invalid('that run is not a run of this score version on this cohort version');
-      if (runs[0].status !== 'completed')
-        throw invalid(`that run is ${runs[0].status}; only a completed run can stand for its cohort version`);
+      const run = await m.getRepository(ValidationRun).findOne({
+        select: { id: true, status: true },
+        where: { id: body.runId, scoreVersionId: sv.id, cohortVersionId: body.cohortVersionId },
+      });
+      if (!run) throw invalid('that run is not a run of this score version on this cohort version');
+      if (run.status !== 'completed')
+        throw invalid(`that run is ${run.status}; only a completed run can stand for its cohort version`);
     } else {
-      const cvs: unknown[] = await m.query('SELECT 1 FROM cohort_versions WHERE id = $1', [body.cohortVersionId]);
-      if (!cvs.length) throw invalid('no such cohort version');
+      const known = await m.getRepository(CohortVersion).exists({ where: { id: body.cohortVersionId } });
+      if (!known) throw invalid('no such cohort version');
     }
-    const [before]: { run_id: string | null }[] = await m.query(
-      'SELECT run_id FROM drift_run_choices WHERE score_version_id = $1 AND cohort_version_id = $2 FOR UPDATE',
-      [sv.id, body.cohortVersionId],
-    );
-    await m.query(
-      `INSERT INTO drift_run_choices (score_version_id, cohort_version_id, run_id, chosen_by) VALUES ($1, $2, $3, $4)
-       ON CONFLICT (score_version_id, cohort_version_id) DO UPDATE SET run_id = EXCLUDED.run_id, chosen_by = EXCLUDED.chosen_by, chosen_at = now()`,
-      [sv.id, body.cohortVersionId, body.runId, actor.id],
-    );
+    const key = { scoreVersionId: sv.id, cohortVersionId: body.cohortVersionId };
+    const before = await m
+      .getRepository(DriftRunChoiceRow)
+      .findOne({ where: key, lock: { mode: 'pessimistic_write' } });
+    await m
+      .createQueryBuilder()
+      .insert()
+      .into(DriftRunChoiceRow)
+      .values({ ...key, runId: body.runId, chosenBy: actor.id, chosenAt: () => 'now()' })
+      .orUpdate(['run_id', 'chosen_by', 'chosen_at'], ['score_version_id', 'cohort_version_id'])
+      .execute();
     await appendAudit(
       {
         actorId: actor.id,
@@ -46,7 +51,7 @@ export async function chooseDriftRun(
         targetType: 'score_version',
         targetId: sv.id,
         sourceIp: ip,
-        details: { cohortVersionId: body.cohortVersionId, runId: body.runId, previousRunId: before?.run_id ?? null },
+        details: { cohortVersionId: body.cohortVersionId, runId: body.runId, previousRunId: before?.runId ?? null },
       },
       m,
     );

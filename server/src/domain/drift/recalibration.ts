@@ -3,6 +3,7 @@
 import type { Derivation, RecalibrationMethod } from '@shared/drift';
 import { RECALIBRATION_BANNER } from '@shared/drift';
 import { dataSource } from '../../platform/database/dataSource';
+import { ValidationRun } from '../../platform/database/entities/ValidationRun';
 import type { AuthUser } from '../accounts/actor';
 import { conflict, notFound } from '../errors';
 import { transformModel } from '../../stats/recalibration';
@@ -15,21 +16,19 @@ import { scoreInputOf, versionById } from './timeline';
 
 /** Checks the run and its version here; the cohort is loaded and the fit made in a pool thread (jobs/threads/pool.ts). */
 async function recalibrationFit(runId: string, method: RecalibrationMethod) {
-  const rows: { id: string; status: string; score_version_id: string; cohort_version_id: string }[] =
-    await dataSource.query(
-      'SELECT id, status, score_version_id, cohort_version_id FROM validation_runs WHERE id = $1',
-      [runId],
-    );
-  if (!rows[0]) throw notFound('validation run');
-  if (rows[0].status !== 'completed')
-    throw conflict(`the run is ${rows[0].status}; only a completed run can be recalibrated`);
-  const version = await versionById(rows[0].score_version_id);
+  const run = await dataSource.getRepository(ValidationRun).findOne({
+    select: { id: true, status: true, scoreVersionId: true, cohortVersionId: true },
+    where: { id: runId },
+  });
+  if (!run) throw notFound('validation run');
+  if (run.status !== 'completed') throw conflict(`the run is ${run.status}; only a completed run can be recalibrated`);
+  const version = await versionById(run.scoreVersionId);
   if (version.mode !== 'formula' || !version.model)
     throw conflict(
       'this score version uses supplied probabilities and has no formula to transform; recalibration needs a formula version',
     );
   const answer = await recalibrateInPool({
-    cohortVersionId: rows[0].cohort_version_id,
+    cohortVersionId: run.cohortVersionId,
     score: scoreInputOf(version),
     method,
   });

@@ -6,6 +6,7 @@ import type { DriftPeriod, DriftPoint, DriftResponse } from '@shared/drift';
 import { formatPeriodRange, periodCovering, wholeMonths } from '@shared/periods';
 import type { Estimate, FitResult } from '@shared/validation';
 import { dataSource } from '../../platform/database/dataSource';
+import { AlertRule } from '../../platform/database/entities/AlertRule';
 import { notFound } from '../errors';
 import { funnelLimits } from '../../stats/funnelLimits';
 import { observedMinusExpected } from '../../stats/observedMinusExpected';
@@ -232,11 +233,12 @@ const pointsOf = (series: PatientSeries, pts: { index: number; value: number }[]
   pts.map((q) => ({ index: q.index, date: series.dateAt(q.index), value: q.value }));
 
 async function cusumParams(scoreId: string): Promise<{ oddsRatio: number; h: number }> {
-  const rows: { params: Record<string, unknown> }[] = await dataSource.query(
-    `SELECT params FROM alert_rules WHERE score_id = $1 AND kind = 'cusum' AND enabled ORDER BY created_at LIMIT 1`,
-    [scoreId],
-  );
-  return ruleCusum(rows[0]?.params ?? {});
+  const rule = await dataSource.getRepository(AlertRule).findOne({
+    select: { id: true, params: true },
+    where: { scoreId, kind: 'cusum', enabled: true },
+    order: { createdAt: 'ASC' },
+  });
+  return ruleCusum(rule?.params ?? {});
 }
 
 export function ruleCusum(params: Record<string, unknown>): { oddsRatio: number; h: number } {

@@ -1,7 +1,7 @@
 // The committee's record on a run: statistician reviews, chair signatures (approve / return / revoke),
 // comments, and the chair's queue. Who may do what is decided here; the route table only pre-filters roles.
-import { createHash } from 'node:crypto';
-import { IsNull, type EntityManager } from 'typeorm';
+import { createHash, randomUUID } from 'node:crypto';
+import { In, IsNull, type EntityManager } from 'typeorm';
 import type {
   ApprovalView,
   CommentView,
@@ -19,7 +19,10 @@ import { config } from '../../platform/config';
 import { dataSource } from '../../platform/database/dataSource';
 import { RunComment } from '../../platform/database/entities/RunComment';
 import { RunReview } from '../../platform/database/entities/RunReview';
+import { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
 import { Signature } from '../../platform/database/entities/Signature';
+import { User } from '../../platform/database/entities/User';
+import { ValidationRun } from '../../platform/database/entities/ValidationRun';
 import type { AuthUser } from '../accounts/actor';
 import { conflict, forbidden, invalid, notFound } from '../errors';
 import { appendAudit, canonical } from '../accounts/audit';
@@ -259,17 +262,14 @@ export async function reviewRun(actor: AuthUser, runId: string, input: ReviewReq
   const reviewId = await dataSource.transaction(async (m) => {
     const run = await loadRun(m, runId, true);
     if (run.status !== 'completed') throw conflict(`the run is ${run.status}; only a completed run can be reviewed`);
-    const approved: unknown[] = await m.query(
-      `SELECT 1 FROM signatures WHERE run_id = $1 AND meaning = 'approve for clinical use'`,
-      [runId],
-    );
-    if (approved.length)
+    const approved = await m.getRepository(Signature).exists({ where: { runId, meaning: 'approve for clinical use' } });
+    if (approved)
       throw conflict('this run was approved for clinical use; its record is closed — start a new run to review again');
     const current = await m.getRepository(RunReview).findOne({ where: { runId, supersededBy: IsNull() } });
     const comparisonId = input.comparisonId ? await checkComparisonForRun(m, runId, input.comparisonId) : null;
-    const [{ id }]: { id: string }[] = await m.query('SELECT gen_random_uuid() AS id');
+    const id = randomUUID();
     // The old review points at its successor first (the link is deferred), keeping one current review per run.
-    if (current) await m.query('UPDATE run_reviews SET superseded_by = $1 WHERE id = $2', [id, current.id]);
+    if (current) await m.getRepository(RunReview).update(current.id, { supersededBy: id });
     await m.insert(RunReview, {
       id,
       runId,
@@ -364,23 +364,25 @@ export async function signoffRun(
     signatureId = await dataSource.transaction(async (m) => {
       // Every signature on a score version waits for the version's row first (as a revocation does), then for the run:
       // two chairs signing at once, or a sign-off during a revocation, go one after the other in that order.
-      const [unlocked] = await m.query('SELECT score_version_id FROM validation_runs WHERE id = $1', [runId]);
+      const unlocked = await m
+        .getRepository(ValidationRun)
+        .findOne({ select: { id: true, scoreVersionId: true }, where: { id: runId } });
       if (!unlocked) throw notFound('validation run');
-      await m.query('SELECT id FROM score_versions WHERE id = $1 FOR UPDATE', [unlocked.score_version_id]);
+      await m.getRepository(ScoreVersion).findOne({
+        select: { id: true },
+        where: { id: unlocked.scoreVersionId },
+        lock: { mode: 'pessimistic_write' },
+      });
       const run = await loadRun(m, runId, true);
       if (run.status !== 'completed')
         throw conflict(`the run is ${run.status}; only a completed, reviewed run can be signed`);
       const current = await m.getRepository(RunReview).findOne({ where: { runId, supersededBy: IsNull() } });
       if (!current) throw conflict('the run has no review yet; the statistician reviews before the chair signs');
-      const reviewed: unknown[] = await m.query('SELECT 1 FROM run_reviews WHERE run_id = $1 AND reviewer_id = $2', [
-        runId,
-        actor.id,
-      ]);
-      if (reviewed.length) throw forbidden('you reviewed this run, so another chair must sign it');
-      const decided: { meaning: string }[] = await m.query(
-        'SELECT meaning FROM signatures WHERE review_id = $1 AND meaning = ANY($2)',
-        [current.id, DECISIVE],
-      );
+      const reviewed = await m.getRepository(RunReview).exists({ where: { runId, reviewerId: actor.id } });
+      if (reviewed) throw forbidden('you reviewed this run, so another chair must sign it');
+      const decided = await m
+        .getRepository(Signature)
+        .find({ select: { id: true, meaning: true }, where: { reviewId: current.id, meaning: In(DECISIVE) } });
       if (decided.length) throw conflict(`this review was already signed (${decided[0].meaning})`);
       const [closing]: { id: string }[] = await m.query(
         `SELECT s.id FROM signatures s JOIN run_reviews rv ON rv.id = $2
@@ -396,7 +398,7 @@ export async function signoffRun(
       }
 
       const signedAt = new Date(Math.floor(Date.now()));
-      const [{ id }]: { id: string }[] = await m.query('SELECT gen_random_uuid() AS id');
+      const id = randomUUID();
       const record = {
         runId,
         resultsSha256: run.results_sha256,
@@ -427,10 +429,9 @@ export async function signoffRun(
         revokesSignatureId: null,
       } as never);
       if (input.decision === 'approve') {
-        await m.query(`UPDATE score_versions SET clinical_status = 'approved', approved_run_id = $1 WHERE id = $2`, [
-          runId,
-          run.score_version_id,
-        ]);
+        await m
+          .getRepository(ScoreVersion)
+          .update(run.score_version_id, { clinicalStatus: 'approved', approvedRunId: runId });
       }
       await appendAudit(
         {
@@ -488,15 +489,15 @@ export async function revokeApproval(
   let result: { id: string; runId: string };
   try {
     result = await dataSource.transaction(async (m) => {
-      const versions: { id: string; clinical_status: string; approved_run_id: string | null }[] = await m.query(
-        'SELECT id, clinical_status, approved_run_id FROM score_versions WHERE id = $1 FOR UPDATE',
-        [versionId],
-      );
-      const version = versions[0];
+      const version = await m.getRepository(ScoreVersion).findOne({
+        select: { id: true, clinicalStatus: true, approvedRunId: true },
+        where: { id: versionId },
+        lock: { mode: 'pessimistic_write' },
+      });
       if (!version) throw notFound('score version');
-      if (version.clinical_status !== 'approved' || !version.approved_run_id)
-        throw conflict(`the score version is ${version.clinical_status}; only an approved version can be revoked`);
-      const run = await loadRun(m, version.approved_run_id, true);
+      if (version.clinicalStatus !== 'approved' || !version.approvedRunId)
+        throw conflict(`the score version is ${version.clinicalStatus}; only an approved version can be revoked`);
+      const run = await loadRun(m, version.approvedRunId, true);
       const approvals: Signature[] = await m
         .getRepository(Signature)
         .find({ where: { runId: run.id, meaning: 'approve for clinical use' }, order: { signedAt: 'DESC' }, take: 1 });
@@ -515,7 +516,7 @@ export async function revokeApproval(
            AND NOT EXISTS (SELECT 1 FROM signatures d WHERE d.review_id = rv.id AND d.meaning = ANY($3))`,
         [versionId, signedAt, DECISIVE],
       );
-      const [{ id }]: { id: string }[] = await m.query('SELECT gen_random_uuid() AS id');
+      const id = randomUUID();
       const meaning: SignatureMeaning = 'revoke approval';
       const record = {
         runId: run.id,
@@ -546,7 +547,7 @@ export async function revokeApproval(
         recordSha256: signatureHash(record),
         revokesSignatureId: approval.id,
       } as never);
-      await m.query(`UPDATE score_versions SET clinical_status = 'revoked' WHERE id = $1`, [versionId]);
+      await m.getRepository(ScoreVersion).update(versionId, { clinicalStatus: 'revoked' });
       await appendAudit(
         {
           actorId: actor.id,
@@ -604,11 +605,21 @@ export async function listComments(runId: string): Promise<CommentView[]> {
     author_role: Role;
     body: string;
     created_at: Date;
-  }[] = await dataSource.query(
-    `SELECT c.*, u.name AS author_name, u.role AS author_role
-     FROM run_comments c JOIN users u ON u.id = c.author_id WHERE c.run_id = $1 ORDER BY c.created_at ASC, c.id`,
-    [runId],
-  );
+  }[] = await dataSource
+    .getRepository(RunComment)
+    .createQueryBuilder('c')
+    .innerJoin(User, 'u', 'u.id = c.authorId')
+    .select('c.id', 'id')
+    .addSelect('c.runId', 'run_id')
+    .addSelect('c.authorId', 'author_id')
+    .addSelect('u.name', 'author_name')
+    .addSelect('u.role', 'author_role')
+    .addSelect('c.body', 'body')
+    .addSelect('c.createdAt', 'created_at')
+    .where('c.runId = :runId', { runId })
+    .orderBy('c.createdAt', 'ASC')
+    .addOrderBy('c.id', 'ASC')
+    .getRawMany();
   return rows.map((c) => ({
     id: c.id,
     runId: c.run_id,
@@ -625,7 +636,7 @@ export async function addComment(actor: AuthUser, runId: string, body: string, i
     throw forbidden('clinicians read score cards; the run discussion is for the quality team');
   const id = await dataSource.transaction(async (m) => {
     await loadRun(m, runId);
-    const [{ id }]: { id: string }[] = await m.query('SELECT gen_random_uuid() AS id');
+    const id = randomUUID();
     await m.insert(RunComment, { id, runId, authorId: actor.id, body } as never);
     await appendAudit(
       {

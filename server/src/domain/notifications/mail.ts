@@ -32,11 +32,14 @@ export async function queueEmail(msg: MailMessage, manager?: EntityManager): Pro
   const to = [...new Set(msg.to.filter((t) => t && t.includes('@')))];
   if (to.length === 0) return;
   const store = async (m: EntityManager) => {
-    const [row]: { id: string }[] = await m.query(
-      `INSERT INTO email_outbox (recipients, subject, text, kind, next_attempt_at) VALUES ($1, $2, $3, $4, now()) RETURNING id`,
-      [to, msg.subject.slice(0, 300), msg.text, msg.kind],
-    );
-    await enqueue(m, JOB.mail, { outboxId: row.id });
+    const inserted = await m.getRepository(EmailOutbox).insert({
+      to,
+      subject: msg.subject.slice(0, 300),
+      text: msg.text,
+      kind: msg.kind,
+      nextAttemptAt: () => 'now()',
+    });
+    await enqueue(m, JOB.mail, { outboxId: inserted.identifiers[0].id as string });
   };
   if (manager) {
     await store(manager);
@@ -84,14 +87,19 @@ interface OutboxRow {
 }
 type Outcome = 'sent' | 'retried' | 'failed';
 
-// A claimed message is not claimed again for this long (the lease of one SMTP conversation).
-const CLAIM = `next_attempt_at = now() + interval '5 minutes'`;
-const RETURNING = `RETURNING id, recipients AS "to", subject, text, kind, attempts`;
-
-/** Runs a claiming UPDATE … RETURNING (TypeORM answers an UPDATE with [rows, count]). */
-async function claim(sql: string, params: unknown[]): Promise<OutboxRow[]> {
-  const [rows] = (await dataSource.query(sql, params)) as [OutboxRow[], number];
-  return rows;
+/**
+ * Claims the messages `where` picks in one guarded UPDATE … RETURNING: a claimed message is not claimed again for
+ * five minutes (the lease of one SMTP conversation).
+ */
+async function claim(where: string, params: Record<string, unknown>): Promise<OutboxRow[]> {
+  const { raw }: { raw: OutboxRow[] } = await dataSource
+    .createQueryBuilder()
+    .update(EmailOutbox)
+    .set({ nextAttemptAt: () => `now() + interval '5 minutes'` })
+    .where(where, params)
+    .returning('id, recipients AS "to", subject, text, kind, attempts')
+    .execute();
+  return raw;
 }
 
 /** Sends one claimed message and records the outcome; `lastTry` marks it failed instead of waiting for a retry. */
@@ -126,9 +134,7 @@ async function sendClaimed(
 
 /** The 'mail' job: sends its message unless it was sent meanwhile; a failure is thrown so pg-boss tries again later. */
 export const mailJob: JobHandler<{ outboxId: string }> = async (job) => {
-  const [row] = await claim(`UPDATE email_outbox SET ${CLAIM} WHERE id = $1 AND status = 'pending' ${RETURNING}`, [
-    job.data.outboxId,
-  ]);
+  const [row] = await claim(`id = :id AND status = 'pending'`, { id: job.data.outboxId });
   if (!row) return;
   const transporter = transport();
   try {
@@ -151,10 +157,9 @@ export async function sendPendingOnce(limit = 25): Promise<SendReport> {
   try {
     while (seen.length < limit) {
       const [row] = await claim(
-        `UPDATE email_outbox SET ${CLAIM} WHERE id = (
-           SELECT id FROM email_outbox WHERE status = 'pending' AND next_attempt_at <= now() AND NOT (id = ANY($1::uuid[]))
-           ORDER BY created_at LIMIT 1 FOR UPDATE SKIP LOCKED) ${RETURNING}`,
-        [seen],
+        `id = (SELECT id FROM email_outbox WHERE status = 'pending' AND next_attempt_at <= now() AND NOT (id = ANY(:seen::uuid[]))
+           ORDER BY created_at LIMIT 1 FOR UPDATE SKIP LOCKED)`,
+        { seen },
       );
       if (!row) break;
       seen.push(row.id);

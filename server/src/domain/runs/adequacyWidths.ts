@@ -5,6 +5,7 @@
 // If the pool cannot run the task, the expected CI widths are computed here as before (slower for others, never wrong).
 import type { AdequacyPrecision } from '@shared/adequacy';
 import { dataSource } from '../../platform/database/dataSource';
+import { ValidationRun } from '../../platform/database/entities/ValidationRun';
 import { precisionInPool } from '../../jobs/threads/pool';
 import { cachePrecision, cachedPrecision, precision, runPrecisionInputs } from './adequacyPrecision';
 import { config } from '../../platform/config';
@@ -38,12 +39,19 @@ export function precisionOffThread(n: number, events: number, auc: number | null
 
 /** Works out (in the pool) the expected CI widths of the `limit` newest completed runs, one at a time; only counts and AUC are read. */
 export async function warmRunCiWidths(limit: number, stopped: () => boolean = () => false): Promise<void> {
-  const rows: { n: unknown; events: unknown; auc: unknown }[] = await dataSource.query(
-    `SELECT (results->'overall'->>'n')::int AS n, (results->'overall'->>'events')::int AS events,
-            CASE WHEN jsonb_typeof(results->'overall'->'auc'->'estimate') = 'number' THEN (results->'overall'->'auc'->>'estimate')::float8 END AS auc
-       FROM validation_runs WHERE status = 'completed' ORDER BY finished_at DESC NULLS LAST LIMIT $1`,
-    [limit],
-  );
+  const rows: { n: unknown; events: unknown; auc: unknown }[] = await dataSource
+    .getRepository(ValidationRun)
+    .createQueryBuilder('r')
+    .select(`(r.results->'overall'->>'n')::int`, 'n')
+    .addSelect(`(r.results->'overall'->>'events')::int`, 'events')
+    .addSelect(
+      `CASE WHEN jsonb_typeof(r.results->'overall'->'auc'->'estimate') = 'number' THEN (r.results->'overall'->'auc'->>'estimate')::float8 END`,
+      'auc',
+    )
+    .where(`r.status = 'completed'`)
+    .orderBy('r.finishedAt', 'DESC', 'NULLS LAST')
+    .limit(limit)
+    .getRawMany();
   for (const r of rows) {
     if (stopped()) return;
     const inputs = runPrecisionInputs({

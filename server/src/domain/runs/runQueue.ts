@@ -5,6 +5,8 @@
 import { runSettingsSchema, type RunSettings } from '@shared/runs';
 import { dataSource } from '../../platform/database/dataSource';
 import { ValidationRun } from '../../platform/database/entities/ValidationRun';
+import { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
+import { User } from '../../platform/database/entities/User';
 import { appendAudit } from '../accounts/audit';
 import { driftSeriesOf, storeDriftSeries } from '../drift/driftSeries';
 import { loadRunInput } from './runInput';
@@ -216,8 +218,10 @@ async function computeClaimedRun(claimed: string): Promise<string> {
 async function notifyRunFinished(runId: string): Promise<void> {
   try {
     const run = await getRun(runId, dataSource.manager, { adequacy: false });
-    const creator: { email: string }[] = run.createdBy
-      ? await dataSource.query('SELECT email FROM users WHERE id = $1 AND active', [run.createdBy])
+    const creator = run.createdBy
+      ? await dataSource
+          .getRepository(User)
+          .find({ select: { id: true, email: true }, where: { id: run.createdBy, active: true } })
       : [];
     const to = [...new Set([...(await recipientsForRole('statistician')), ...creator.map((c) => c.email)])];
     if (to.length === 0) return;
@@ -250,23 +254,23 @@ export async function recordRunNow(
   const sealed = sealResults(computeRunResults(input));
   const drift = driftSeriesOf(input.score, input.data);
   return dataSource.transaction(async (m) => {
-    await m.query('UPDATE score_versions SET locked = true WHERE id = $1 AND NOT locked', [scoreVersionId]);
-    const rows: { id: string }[] = await m.query(
-      `INSERT INTO validation_runs (score_version_id, cohort_version_id, settings, status, progress, progress_message, results, engine_version,
-         inputs_sha256, results_sha256, created_by, started_at, finished_at)
-       VALUES ($1, $2, $3::jsonb, 'completed', 1, 'completed', $4::jsonb, $5, $6, $7, $8, now(), now()) RETURNING id`,
-      [
-        scoreVersionId,
-        cohortVersionId,
-        JSON.stringify(parsed),
-        JSON.stringify(sealed.results),
-        ENGINE_VERSION,
-        inputsHash,
-        sealed.resultsSha256,
-        actorId,
-      ],
-    );
-    const id = rows[0].id;
+    await m.getRepository(ScoreVersion).update({ id: scoreVersionId, locked: false }, { locked: true });
+    const inserted = await m.getRepository(ValidationRun).insert({
+      scoreVersionId,
+      cohortVersionId,
+      settings: parsed,
+      status: 'completed',
+      progress: 1,
+      progressMessage: 'completed',
+      results: sealed.results,
+      engineVersion: ENGINE_VERSION,
+      inputsSha256: inputsHash,
+      resultsSha256: sealed.resultsSha256,
+      createdBy: actorId,
+      startedAt: () => 'now()',
+      finishedAt: () => 'now()',
+    });
+    const id = inserted.identifiers[0].id as string;
     await storeDriftSeries((sql, params) => m.query(sql, params), scoreVersionId, cohortVersionId, id, drift);
     await appendAudit(
       {

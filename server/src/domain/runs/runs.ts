@@ -67,7 +67,7 @@ export async function createRun(actor: AuthUser, input: CreateRunInput, ip: stri
 
     // The formula is frozen from the moment a run uses it (score_versions trigger keeps it so).
     if (!sv.locked) {
-      await m.query('UPDATE score_versions SET locked = true WHERE id = $1 AND NOT locked', [sv.id]);
+      await m.getRepository(ScoreVersion).update({ id: sv.id, locked: false }, { locked: true });
       await appendAudit(
         {
           actorId: actor.id,

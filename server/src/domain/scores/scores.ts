@@ -4,7 +4,7 @@
 // next number and a change note, so the version history is the record itself (not something rebuilt from the
 // audit trail), and a run can never race an edit of the formula it is reading. `locked` marks that a run used the
 // version; the database trigger then also refuses any change of its formula (see migration 1764633700000-Registry).
-import type { EntityManager } from 'typeorm';
+import { In, type EntityManager } from 'typeorm';
 import type { ScoreModel } from '@shared/model';
 import type {
   CreateScoreRequest,
@@ -17,6 +17,7 @@ import { changeNoteProblem, createScoreVersionRequest } from '@shared/scores';
 import { dataSource } from '../../platform/database/dataSource';
 import { Score } from '../../platform/database/entities/Score';
 import { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
+import { User } from '../../platform/database/entities/User';
 import type { AuthUser } from '../accounts/actor';
 import { conflict, invalid, notFound, zodMessage } from '../errors';
 import { appendAudit } from '../accounts/audit';
@@ -77,12 +78,15 @@ const isUniqueViolation = (err: unknown) => (err as { code?: string })?.code ===
 
 export async function listScores(): Promise<ScoreSummaryDto[]> {
   const scores = await dataSource.getRepository(Score).find({ order: { name: 'ASC' } });
-  const stats: { score_id: string; n: string; latest: number | null; approved: number[] | null }[] =
-    await dataSource.query(
-      `SELECT score_id, count(*)::text AS n, max(version) AS latest,
-            array_agg(version ORDER BY version) FILTER (WHERE clinical_status = 'approved') AS approved
-       FROM score_versions GROUP BY score_id`,
-    );
+  const stats: { score_id: string; n: string; latest: number | null; approved: number[] | null }[] = await dataSource
+    .getRepository(ScoreVersion)
+    .createQueryBuilder('sv')
+    .select('sv.scoreId', 'score_id')
+    .addSelect('count(*)::text', 'n')
+    .addSelect('max(sv.version)', 'latest')
+    .addSelect(`array_agg(sv.version ORDER BY sv.version) FILTER (WHERE sv.clinicalStatus = 'approved')`, 'approved')
+    .groupBy('sv.scoreId')
+    .getRawMany();
   const byScore = new Map(stats.map((r) => [r.score_id, r]));
   return scores.map((s) => {
     const r = byScore.get(s.id);
@@ -167,10 +171,7 @@ async function withNames(rows: ScoreVersion[], manager: EntityManager): Promise<
   const ids = [...new Set(rows.map((r) => r.createdBy).filter((x): x is string => !!x))];
   const names = new Map<string, string>();
   if (ids.length) {
-    const users: { id: string; name: string }[] = await manager.query(
-      'SELECT id, name FROM users WHERE id = ANY($1::uuid[])',
-      [ids],
-    );
+    const users = await manager.getRepository(User).find({ select: { id: true, name: true }, where: { id: In(ids) } });
     for (const u of users) names.set(u.id, u.name);
   }
   return rows.map((r) => toVersionDto(r, r.createdBy ? (names.get(r.createdBy) ?? null) : null));
@@ -232,12 +233,16 @@ export async function createScoreVersion(
   const valid = parsed.data;
 
   const work = async (m: EntityManager) => {
-    const locked: { id: string }[] = await m.query('SELECT id FROM scores WHERE id = $1 FOR UPDATE', [scoreId]);
-    if (locked.length === 0) throw notFound('score');
-    const [{ next }]: { next: number }[] = await m.query(
-      'SELECT coalesce(max(version), 0) + 1 AS next FROM score_versions WHERE score_id = $1',
-      [scoreId],
-    );
+    const locked = await m
+      .getRepository(Score)
+      .findOne({ select: { id: true }, where: { id: scoreId }, lock: { mode: 'pessimistic_write' } });
+    if (!locked) throw notFound('score');
+    const { next } = (await m
+      .getRepository(ScoreVersion)
+      .createQueryBuilder('sv')
+      .select('coalesce(max(sv.version), 0) + 1', 'next')
+      .where('sv.scoreId = :scoreId', { scoreId })
+      .getRawOne<{ next: number }>())!;
     const problem = changeNoteProblem(next, valid.changeNote);
     if (problem) throw invalid(problem);
     const row = m.create(ScoreVersion, {
@@ -280,12 +285,15 @@ export async function createScoreVersion(
  * makes the freeze permanent. The audit entry names the actor when the caller gives one.
  */
 export async function lockScoreVersion(id: string, manager: EntityManager, actor?: Actor, ip?: string): Promise<void> {
-  const rows: { version: number; score_id: string }[] = await manager.query(
-    'UPDATE score_versions SET locked = true WHERE id = $1 AND NOT locked RETURNING version, score_id',
-    [id],
-  );
-  // TypeORM's postgres driver returns [rows, count] for UPDATE … RETURNING.
-  const changed = (Array.isArray(rows[0]) ? (rows[0] as unknown as { version: number; score_id: string }[]) : rows)[0];
+  // One guarded statement: only the call that flips the flag writes the audit entry.
+  const { raw }: { raw: { version: number; score_id: string }[] } = await manager
+    .createQueryBuilder()
+    .update(ScoreVersion)
+    .set({ locked: true })
+    .where('id = :id AND NOT locked', { id })
+    .returning('version, score_id')
+    .execute();
+  const changed = raw[0];
   if (!changed) {
     await getScoreVersion(id, manager); // 404 when it does not exist; otherwise it was locked already
     return;
@@ -310,10 +318,12 @@ export async function lockScoreVersion(id: string, manager: EntityManager, actor
  */
 export async function refuseVersionEdit(scoreId: string, version: number): Promise<never> {
   const v = await getScoreVersionByNumber(scoreId, version);
-  const [{ next }]: { next: number }[] = await dataSource.query(
-    'SELECT max(version) + 1 AS next FROM score_versions WHERE score_id = $1',
-    [scoreId],
-  );
+  const { next } = (await dataSource
+    .getRepository(ScoreVersion)
+    .createQueryBuilder('sv')
+    .select('max(sv.version) + 1', 'next')
+    .where('sv.scoreId = :scoreId', { scoreId })
+    .getRawOne<{ next: number }>())!;
   const why = v.locked
     ? `version ${version} is used by a validation run and is frozen`
     : `score versions are never edited in place`;

@@ -6,6 +6,7 @@ import { CohortUpload } from './CohortUpload';
 import { CohortVersion } from './CohortVersion';
 import { ColumnMapping } from './ColumnMapping';
 import { DriftAlert } from './DriftAlert';
+import { DriftRunChoice } from './DriftRunChoice';
 import { EmailOutbox } from './EmailOutbox';
 import { RunComment } from './RunComment';
 import { RunReview } from './RunReview';
@@ -33,6 +34,7 @@ export {
   AlertRule,
   DriftAlert,
   ScoreComparison,
+  DriftRunChoice,
 };
 export const entities = [
   User,
@@ -51,4 +53,5 @@ export const entities = [
   AlertRule,
   DriftAlert,
   ScoreComparison,
+  DriftRunChoice,
 ];
