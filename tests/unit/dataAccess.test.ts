@@ -23,6 +23,10 @@ export const RAW_SQL_ALLOWED: Record<string, string> = {
   'cohorts/uploads.ts':
     'the upload lifecycle: leases (advisory locks), status changes guarded by the current status with their row count, staged row blocks, rejected rows',
   'cohorts/uploadSweep.ts': 'a discard guarded by the current status with its row count, and rejected rows',
+  'comparisons/comparisons.ts':
+    'the joined read model of score comparisons (both score versions, their scores and the cohort) and its filtered count',
+  'comparisons/reviewReference.ts':
+    'a guard that joins the named comparison with the run it must share patients and score with',
   'drift/alerts.ts': 'the joined read model of alerts (rule, score version, score, acknowledger)',
   'drift/timeline.ts': "the joined read models of a score version and its timeline's runs",
   'governance/governance.ts':

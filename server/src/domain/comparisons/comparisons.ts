@@ -81,10 +81,8 @@ export async function createComparison(
     // A formula is frozen from the moment a result rests on it, as for runs (the score_versions trigger keeps it so).
     for (const sv of [first, second])
       if (!sv.locked) {
-        const [, changed] = await m.query('UPDATE score_versions SET locked = true WHERE id = $1 AND NOT locked', [
-          sv.id,
-        ]);
-        if (changed === 1)
+        const { affected } = await m.getRepository(ScoreVersion).update({ id: sv.id, locked: false }, { locked: true });
+        if (affected === 1)
           await appendAudit(
             {
               actorId: actor.id,
