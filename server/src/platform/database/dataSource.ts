@@ -18,7 +18,9 @@ export const dataSource = new DataSource({
   synchronize: false,
   migrationsRun: false,
   logging: false,
-  extra: { max: config.dbPoolSize, connectionTimeoutMillis: 3000 },
+  // A refused connection fails at once; the timeout only bounds a wait for a free pool slot, which a busy machine's
+  // bursts (25 parallel sign-ins, each appending to the audit chain in turn) can stretch past 3 s.
+  extra: { max: config.dbPoolSize, connectionTimeoutMillis: 10_000 },
 });
 
 /** A short-lived connection as the owner role (config.dbOwner): migrations, the runtime role, owner-only test fixtures. */
