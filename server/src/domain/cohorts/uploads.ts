@@ -177,6 +177,7 @@ export async function getUpload(id: string, waitSeconds = 0): Promise<UploadView
     events: r.events,
     rejectionCounts: r.rejectionCounts,
     columnSummary: r.columnSummary,
+    missingness: r.missingness,
     cohortVersionId: r.cohortVersionId,
     error: r.error,
     createdAt: new Date(r.createdAt).toISOString(),
@@ -232,6 +233,9 @@ export async function applyMapping(
   for (const k of Object.keys(mapping.predictors))
     if (!requiredPredictors(sv).some((p) => p.column === k))
       problems.push(`"${k}" is not a predictor of this score version`);
+  // A supplied probability is the score itself, not a predictor to impute: its gaps stay rejected rows.
+  if (sv.mode === 'supplied' && mapping.predictorsWithGaps?.length)
+    problems.push(`the supplied probability column "${sv.probabilityColumn}" cannot have gaps`);
   // Label readings only for indicator columns, and only into the formula's levels (or '' for "none of them").
   for (const [k, readings] of Object.entries(mapping.labels ?? {})) {
     const levels = predictorViews(sv, mapping).find((p) => p.column === k)?.levels ?? [];
@@ -258,7 +262,7 @@ export async function applyMapping(
   await dataSource.transaction(async (m) => {
     const [, changed] = await m.query(
       `UPDATE cohort_uploads SET status = 'processing', mapping = $2, planned_version_id = $3, progress = 0, rows_read = 0, rows_accepted = 0, rows_rejected = 0, events = 0,
-         rejection_counts = '[]', column_summary = '{}', event_period = NULL, error = NULL, updated_at = now()
+         rejection_counts = '[]', column_summary = '{}', event_period = NULL, missingness = NULL, error = NULL, updated_at = now()
        WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`,
       [id, JSON.stringify(mapping), plannedVersionId],
     );
@@ -340,7 +344,7 @@ export const uploadCheckAbandonedJob: JobHandler<{ uploadId: string; plannedVers
 };
 
 /** What a discarded or expired upload forgets besides its rows and rejections: everything summarised from the file's cells. */
-export const FORGET_DERIVED = `column_summary = '{}', event_period = NULL, rejection_counts = '[]', suggested_mapping = NULL, progress = 0`;
+export const FORGET_DERIVED = `column_summary = '{}', event_period = NULL, missingness = NULL, rejection_counts = '[]', suggested_mapping = NULL, progress = 0`;
 
 /** Staged rows of an upload that never became a cohort version (re-mapped, discarded, failed). */
 export async function deleteStagedRows(
@@ -399,7 +403,7 @@ async function processUpload(
           ? `the file was refused: ${refusal.reason}; nothing was stored`
           : `refused by the de-identification screen: column "${refusal.column}" ${refusal.reason}; nothing was stored`;
       await m.query(
-        `UPDATE cohort_uploads SET status = 'refused', temp_path = NULL, warnings = $2, error = $3, column_summary = '{}', event_period = NULL, updated_at = now() WHERE id = $1`,
+        `UPDATE cohort_uploads SET status = 'refused', temp_path = NULL, warnings = $2, error = $3, column_summary = '{}', event_period = NULL, missingness = NULL, updated_at = now() WHERE id = $1`,
         [id, JSON.stringify([refusal]), error],
       );
       await appendAudit(
@@ -544,8 +548,8 @@ export async function commitUpload(
     };
     const [v] = await qr.query(
       `INSERT INTO cohort_versions (id, cohort_id, version, label, period_start, period_end, source_filename, source_sha256, source_bytes,
-         row_count, events, excluded_count, exclusions, mapping, column_summary, uploaded_by)
-       VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16) RETURNING id`,
+         row_count, events, excluded_count, exclusions, mapping, column_summary, uploaded_by, missingness)
+       VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17) RETURNING id`,
       [
         r.plannedVersionId,
         cohortId,
@@ -563,6 +567,7 @@ export async function commitUpload(
         JSON.stringify(mapping),
         JSON.stringify(r.columnSummary),
         actor.id,
+        r.missingness ? JSON.stringify(r.missingness) : null,
       ],
     );
     versionId = v.id;

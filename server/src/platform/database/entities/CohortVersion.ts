@@ -48,6 +48,10 @@ export class CohortVersion {
   @Column({ name: 'column_summary', type: 'jsonb', default: {} })
   columnSummary: Record<string, unknown>;
 
+  /** Missing values per column, subgroup level and period, and the predictors missing together; null before it was kept. */
+  @Column({ type: 'jsonb', nullable: true })
+  missingness: Record<string, unknown> | null;
+
   @Column({ name: 'uploaded_by', type: 'uuid', nullable: true })
   uploadedBy: string | null;
 
