@@ -160,8 +160,7 @@ describe('a predictor the steward allows gaps in', () => {
         .map((l, i) => [l.split(',')[c], i + 2] as const)
         .filter(([cell]) => cell === '')
         .map(([, line]) => line);
-    const nullLines = (name: string) =>
-      Array.from(data.lineNo).filter((_, i) => data.columns[name][i] === null);
+    const nullLines = (name: string) => Array.from(data.lineNo).filter((_, i) => data.columns[name][i] === null);
     expect(nullLines('charlson_index')).toEqual(blankLines(CHARLSON));
     expect(nullLines('emergency_admission')).toEqual(blankLines(EMERGENCY));
     expect(nullLines('age')).toEqual([]);

@@ -118,7 +118,11 @@ describe('the missingness counter, against a hand count', () => {
     expect(m.byPeriod).toBeNull();
     expect(m.patterns).toHaveLength(50);
     expect(m.patterns[0]).toEqual({ missing: [], rows: 11, events: 0 });
-    expect(m.otherPatterns).toEqual({ patterns: 206, rows: 206, events: 128 - m.patterns.filter((p) => p.events).length });
+    expect(m.otherPatterns).toEqual({
+      patterns: 206,
+      rows: 206,
+      events: 128 - m.patterns.filter((p) => p.events).length,
+    });
     expect(m.patterns.reduce((n, p) => n + p.rows, 0) + m.otherPatterns!.rows).toBe(266);
   });
 });
