@@ -30,6 +30,37 @@ class Group {
   }
 }
 
+/**
+ * Groups by level. The row checks hand over canonical copies of repeating labels, so the first few levels are found by
+ * comparing references in an array (no hashing per row); the rest go to a Map, both bounded together.
+ */
+class Levels {
+  private readonly fewKeys: (string | null)[] = [];
+  private readonly fewGroups: Group[] = [];
+  private readonly more = new Map<string | null, Group>();
+  constructor(private readonly predictors: number) {}
+  get size(): number {
+    return this.fewKeys.length + this.more.size;
+  }
+  /** The level's group, or null when too many levels are kept already. */
+  get(level: string | null): Group | null {
+    const keys = this.fewKeys;
+    for (let i = 0; i < keys.length; i++) if (keys[i] === level) return this.fewGroups[i];
+    let g = this.more.get(level);
+    if (g !== undefined) return g;
+    if (this.size >= MAX_TRACKED_LEVELS) return null;
+    g = new Group(this.predictors);
+    if (keys.length < 16) {
+      keys.push(level);
+      this.fewGroups.push(g);
+    } else this.more.set(level, g);
+    return g;
+  }
+  entries(): [string | null, Group][] {
+    return [...this.fewKeys.map((k, i): [string | null, Group] => [k, this.fewGroups[i]]), ...this.more.entries()];
+  }
+}
+
 export interface MissingnessColumns {
   /** The score's columns, in mapping order. */
   predictors: string[];
@@ -47,9 +78,11 @@ export class MissingnessCounter {
   private readonly predictorMissing: Float64Array;
   private readonly subgroupMissing: Float64Array;
   private periodMissing = 0;
-  private readonly levels: Map<string | null, Group>[];
+  private readonly levels: Levels[];
   private readonly levelsDropped: Set<string>[];
-  private readonly periods = new Map<string | null, Group>();
+  private readonly periods: Levels;
+  private completeRows = 0;
+  private completeEvents = 0;
   private readonly patterns = new Map<string, { rows: number; events: number }>();
   private untrackedRows = 0;
   private untrackedEvents = 0;
@@ -57,18 +90,9 @@ export class MissingnessCounter {
   constructor(private readonly columns: MissingnessColumns) {
     this.predictorMissing = new Float64Array(columns.predictors.length);
     this.subgroupMissing = new Float64Array(columns.subgroups.length);
-    this.levels = columns.subgroups.map(() => new Map());
+    this.levels = columns.subgroups.map(() => new Levels(columns.predictors.length));
     this.levelsDropped = columns.subgroups.map(() => new Set());
-  }
-
-  private group(map: Map<string | null, Group>, level: string | null): Group | null {
-    let g = map.get(level);
-    if (g === undefined) {
-      if (map.size >= MAX_TRACKED_LEVELS) return null;
-      g = new Group(this.columns.predictors.length);
-      map.set(level, g);
-    }
-    return g;
+    this.periods = new Levels(columns.predictors.length);
   }
 
   private static count(g: Group | null, gaps: ArrayLike<number>, y: number, withGaps: boolean) {
@@ -97,36 +121,42 @@ export class MissingnessCounter {
     if (withGaps) {
       this.rowsWithGaps++;
       this.eventsWithGaps += y;
-    }
-    let p = this.patterns.get(key);
-    if (p === undefined && this.patterns.size < MAX_TRACKED_PATTERNS) {
-      p = { rows: 0, events: 0 };
-      this.patterns.set(key, p);
-    }
-    if (p) {
-      p.rows++;
-      p.events += y;
+      let p = this.patterns.get(key);
+      if (p === undefined && this.patterns.size < MAX_TRACKED_PATTERNS) {
+        p = { rows: 0, events: 0 };
+        this.patterns.set(key, p);
+      }
+      if (p) {
+        p.rows++;
+        p.events += y;
+      } else {
+        this.untrackedRows++;
+        this.untrackedEvents += y;
+      }
     } else {
-      this.untrackedRows++;
-      this.untrackedEvents += y;
+      // Most rows: counted apart, without a lookup.
+      this.completeRows++;
+      this.completeEvents += y;
     }
     for (let s = 0; s < this.levels.length; s++) {
       const level = subgroups[s];
       if (level === null) this.subgroupMissing[s]++;
-      const g = this.group(this.levels[s], level);
+      const g = this.levels[s].get(level);
       if (!g && level !== null) this.levelsDropped[s].add(level);
       MissingnessCounter.count(g, gaps, y, withGaps);
     }
     if (this.columns.period !== null) {
       if (period === null) this.periodMissing++;
-      MissingnessCounter.count(this.group(this.periods, period), gaps, y, withGaps);
+      MissingnessCounter.count(this.periods.get(period), gaps, y, withGaps);
     }
   }
 
   summary(): MissingnessSummary {
     const { predictors, gapsAllowed, subgroups, period } = this.columns;
     const byRows = (a: { rows: number }, b: { rows: number }) => b.rows - a.rows;
-    const listed = [...this.patterns.entries()]
+    const counted: [string, { rows: number; events: number }][] = [...this.patterns.entries()];
+    if (this.completeRows) counted.push(['', { rows: this.completeRows, events: this.completeEvents }]);
+    const listed = counted
       .map(([key, c]): MissingnessPattern => ({
         missing: key === '' ? [] : key.split(',').map((k) => predictors[Number(k)]),
         rows: c.rows,
