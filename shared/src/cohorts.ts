@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import type { MissingnessSummary } from './missingness';
 
 // Request and response shapes for cohort uploads, column mappings and stored cohort versions.
 
@@ -58,11 +59,44 @@ export const columnMapping = z.object({
    * or '' for "none of the formula's levels". Applied to the rows as they are stored (Y → yes).
    */
   labels: z.record(z.string().min(1).max(80), z.record(z.string().min(1).max(80), z.string().max(80))).optional(),
+  /**
+   * Predictors whose empty cells are gaps (stored as missing) rather than rejected rows; the steward says so per
+   * predictor (absent: none). The outcome and the period column never have gaps (gapPermissionProblems).
+   */
+  predictorsWithGaps: z.array(z.string().min(1).max(80)).max(200).optional(),
 });
 export type ColumnMappingSpec = z.infer<typeof columnMapping>;
 
+/** Why a mapping's predictorsWithGaps cannot stand: only mapped predictors, never the outcome's or period's file column. */
+export function gapPermissionProblems(m: {
+  predictors: Record<string, string>;
+  outcome: { column: string };
+  date?: { column: string } | null;
+  predictorsWithGaps?: string[];
+}): string[] {
+  const problems: string[] = [];
+  const listed = m.predictorsWithGaps ?? [];
+  if (new Set(listed).size !== listed.length) problems.push('predictorsWithGaps lists a predictor twice');
+  for (const name of listed) {
+    const col = m.predictors[name];
+    if (col === undefined)
+      problems.push(`"${name}" is not a mapped predictor: only predictors may have gaps, never the outcome or period`);
+    else if (col === m.outcome.column)
+      problems.push(`"${name}" reads the outcome column "${col}", and the outcome never has gaps`);
+    else if (m.date && col === m.date.column)
+      problems.push(`"${name}" reads the period column "${col}", and the period never has gaps`);
+  }
+  return problems;
+}
+
+/** A mapping as a steward sends it: gaps permitted only where a predictor may have them (gapPermissionProblems). */
+export const checkedColumnMapping = columnMapping.superRefine((m, ctx) => {
+  for (const message of gapPermissionProblems(m))
+    ctx.addIssue({ code: 'custom', path: ['predictorsWithGaps'], message });
+});
+
 export const mappingRequest = z.object({
-  mapping: columnMapping,
+  mapping: checkedColumnMapping,
   /** Also keep the mapping under this name for the next period's file. */
   saveAs: z.string().trim().min(1).max(160).optional(),
 });
@@ -76,7 +110,7 @@ export const commitRequest = z.object({
 export const saveMappingRequest = z.object({
   name: z.string().trim().min(1).max(160),
   cohortId: z.string().uuid().nullable().optional(),
-  mapping: columnMapping,
+  mapping: checkedColumnMapping,
 });
 
 export const pageQuery = z.object({
@@ -161,6 +195,8 @@ export interface UploadView {
   events: number;
   rejectionCounts: { reason: string; count: number }[];
   columnSummary: Record<string, ColumnSummary>;
+  /** After the check: missing values of the accepted rows (gaps where the mapping allows them). */
+  missingness: MissingnessSummary | null;
   cohortVersionId: string | null;
   error: string | null;
   createdAt: string;

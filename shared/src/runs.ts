@@ -129,6 +129,8 @@ export interface RunResults {
   periods: PeriodResult[];
   /** rows without an event date when periods were asked for. */
   undatedRows?: number;
+  /** Rows left out because a column the score reads is missing (complete cases), and per column how many miss it. */
+  rowsLeftOut?: { count: number; byColumn: Record<string, number> };
   minSubgroupEvents: number;
   /**
    * Per subgroup column (fairness): every level's AUC, calibration intercept and slope, O/E and ICI with 95% CIs (ICI's

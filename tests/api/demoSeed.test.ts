@@ -7,6 +7,8 @@ import type { RunResults, RunSettings } from '@shared/runs';
 import { seedDemo } from '../../server/src/demo/seed';
 import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from '../../server/src/demo/seeds/cohorts';
 import { DEMO_SITE_RUN_QUARTER, DEMO_SITE_RUN_SETTINGS, seedSiteRun } from '../../server/src/demo/seeds/siteRun';
+import { GAPS_COHORT_NAME, GAPS_COLUMNS, GAPS_QUARTER } from '../../server/src/demo/seeds/gapsCohort';
+import { loadCohortData } from '../../server/src/domain/cohorts/cohortData';
 import { recordRunNow } from '../../server/src/domain/runs/runQueue';
 import { app, bearer, dataSource, DEMO_PASSWORD, loginAs, ownerDataSource, useDatabase } from '../helpers/api';
 
@@ -118,5 +120,47 @@ describe('the demo seed', () => {
           .set(bearer(await loginAs('admin@demo.test')))
       ).body.ok,
     ).toBe(true);
+  });
+
+  it('has a cohort whose Charlson index and prior admissions have gaps that depend on what else was recorded', async () => {
+    const [v] = await dataSource.query(
+      `SELECT cv.id, cv.row_count, cv.excluded_count, cv.mapping, cv.missingness FROM cohort_versions cv JOIN cohorts c ON c.id = cv.cohort_id WHERE c.name = $1`,
+      [GAPS_COHORT_NAME],
+    );
+    expect(v).toBeDefined();
+    expect(v.mapping.predictorsWithGaps).toEqual(GAPS_COLUMNS);
+    expect(v.row_count).toBe(GAPS_QUARTER.n);
+    expect(v.excluded_count).toBe(0);
+    const data = await loadCohortData(v.id);
+    const gap = (c: string) => (i: number) => data.columns[c][i] === null;
+    const rate = (miss: (i: number) => boolean, where: (i: number) => boolean) => {
+      let n = 0;
+      let m = 0;
+      for (let i = 0; i < data.n; i++)
+        if (where(i)) {
+          n++;
+          if (miss(i)) m++;
+        }
+      return m / n;
+    };
+    const charlson = gap('charlson_index');
+    const emergencyShort = (i: number) =>
+      data.columns.emergency_admission[i] === 'yes' && Number(data.columns.length_of_stay[i]) <= 3;
+    // Missing at random: more often after a short emergency stay, less often among the readmitted.
+    expect(rate(charlson, emergencyShort)).toBeGreaterThan(2 * rate(charlson, (i) => !emergencyShort(i)));
+    expect(rate(charlson, (i) => data.outcome[i] === 1)).toBeLessThan(rate(charlson, (i) => data.outcome[i] === 0));
+    const prior = gap('prior_admissions');
+    const annex = (i: number) => data.subgroups.site[i] === 'North annex';
+    expect(rate(prior, annex)).toBeGreaterThan(4 * rate(prior, (i) => !annex(i)));
+    // The stored summary counts the same gaps the rows hold.
+    let both = 0;
+    for (let i = 0; i < data.n; i++) if (charlson(i) && prior(i)) both++;
+    const byColumn = Object.fromEntries(
+      v.missingness.byColumn.map((c: { column: string; missing: number }) => [c.column, c.missing]),
+    );
+    expect(byColumn.charlson_index).toBe(data.columns.charlson_index.filter((x) => x === null).length);
+    expect(byColumn.prior_admissions).toBe(data.columns.prior_admissions.filter((x) => x === null).length);
+    expect(v.missingness.patterns.find((p: { missing: string[] }) => p.missing.length === 2)?.rows).toBe(both);
+    expect(both).toBeGreaterThan(0);
   });
 });

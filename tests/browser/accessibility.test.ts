@@ -12,6 +12,7 @@ import type { Role } from '../../shared/src/roles';
 import { navigationFor } from '../../client/src/navigation';
 import { dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
 import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from '../../server/src/demo/seeds/cohorts';
+import { GAPS_COHORT_NAME } from '../../server/src/demo/seeds/gapsCohort';
 import { appUrl } from '../helpers/appServer';
 import { inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
 
@@ -22,6 +23,8 @@ interface Ids {
   otherRunId: string;
   scoreId: string;
   cohortId: string;
+  /** The demo cohort with gaps: its page shows the missing-value charts and combinations. */
+  gapsCohortId: string;
 }
 let ids: Ids;
 
@@ -38,7 +41,15 @@ const browser = useAppAndBrowser(async () => {
   ]);
   expect(runs.length, 'the demo seed has completed runs').toBe(2);
   expect(cohorts.length, 'the demo seed has its cohort').toBe(1);
-  ids = { runId: runs[0].id, otherRunId: runs[1].id, scoreId: runs[0].score_id, cohortId: cohorts[0].id };
+  const [gaps]: { id: string }[] = await dataSource.query(`SELECT id FROM cohorts WHERE name = $1`, [GAPS_COHORT_NAME]);
+  expect(gaps, 'the demo seed has its cohort with gaps').toBeDefined();
+  ids = {
+    runId: runs[0].id,
+    otherRunId: runs[1].id,
+    scoreId: runs[0].score_id,
+    cohortId: cohorts[0].id,
+    gapsCohortId: gaps.id,
+  };
 });
 
 /** Pages reached from a record rather than the menu, with the roles that open them (shared/src/access.ts). */
@@ -51,6 +62,7 @@ const detailPages = (i: Ids): { path: string; roles: readonly Role[] }[] => [
   { path: `/scores/${i.scoreId}/versions/2/drift`, roles: pageRoles('score-drift') },
   { path: `/scores/${i.scoreId}/versions/new`, roles: pageRoles('score-version-new') },
   { path: `/cohorts/${i.cohortId}`, roles: pageRoles('cohort') },
+  { path: `/cohorts/${i.gapsCohortId}`, roles: pageRoles('cohort') },
   { path: '/api-reference', roles: ['admin'] }, // public: one role's visit is enough
 ];
 

@@ -11,6 +11,8 @@ import { inTab, reviewRun, screenshot, useAppAndBrowser } from '../helpers/brows
 import { createCohortFixture, createScoreFixture, kestrelRows } from '../helpers/fixtures';
 
 const fixture = fileURLToPath(new URL('../fixtures/kestrel-2026q1.csv', import.meta.url));
+// Invented, with blank Charlson indexes (104) and prior admissions (70), 164 rows with either (makeDemoCsv.ts).
+const gapsFixture = fileURLToPath(new URL('../fixtures/kestrel-gaps-2026q2.csv', import.meta.url));
 const stamp = Date.now();
 const scoreName = `Steward flow score ${stamp}`;
 const cohortName = `Steward flow cohort ${stamp}`;
@@ -206,5 +208,61 @@ describe('steward → statistician → chair → clinician on a new version of a
         await screenshot(page, 'steward-flow-card');
       },
       'clinician@demo.test',
+    ));
+});
+
+describe('a steward uploads a cohort whose predictors have gaps', () => {
+  it('says which predictors may have gaps, keeps those rows, and the version page shows where the gaps are', () =>
+    inTab(
+      browser(),
+      'steward-gaps',
+      async (page) => {
+        const name = `Coding gaps cohort ${stamp}`;
+        await page.goto(`${appUrl}/cohorts/upload`);
+        await page.locator('[data-test="file-input"] input[type="file"]').setInputFiles(gapsFixture);
+        await page.locator('[data-test="score-select"]').click();
+        await page.getByRole('option', { name: new RegExp(scoreName) }).click();
+        await page.locator('[data-test="cohort-name"] input').fill(name);
+        await page.locator('[data-test="cohort-label"] input').fill('2026-Q2');
+        await page.locator('[data-test="send"]').click();
+        await page.getByText('Screened: no direct identifiers').waitFor();
+        await page.locator('[data-test="gaps-help"]').waitFor();
+        await page.locator('[data-test="gaps-charlson_index"] input').check();
+        await page.locator('[data-test="gaps-prior_admissions"] input').check();
+        await screenshot(page, 'steward-gaps-mapping');
+        await page.locator('[data-test="check-rows"]').click();
+        await expect
+          .poll(() => page.locator('[data-test="check-summary"]').innerText(), { timeout: 120_000 })
+          .toMatch(/600 rows pass the checks; 0 rows were rejected/);
+        expect(await page.locator('[data-test="check-gaps"]').innerText()).toMatch(
+          /164 of the rows that pass have gaps in prior_admissions, charlson_index/,
+        );
+        await page.locator('[data-test="store"]').click();
+        const section = page.locator('[data-test="missingness"]');
+        await section.waitFor({ timeout: 60_000 });
+        expect(await page.locator('[data-test="row-count"]').innerText()).toBe('600');
+        await expect
+          .poll(() => section.locator('[data-test="missingness-summary"]').innerText())
+          .toMatch(/164 of 600 patients \(27\.3%\) miss at least one predictor/);
+        const together = section.locator('[data-test="pattern-prior_admissions + charlson_index"]');
+        expect((await together.locator('td').allInnerTexts()).slice(0, 3)).toEqual(['missing', 'missing', '10 (1.7%)']);
+        // The charts are drawn: per column, by subgroup (chosen from the list) and by period.
+        await expect.poll(() => section.locator('canvas').count()).toBe(3);
+        await section.locator('[data-test="missingness-subgroup"] .v-field').click();
+        await page.getByRole('option', { name: 'site', exact: true }).click();
+        await expect
+          .poll(() => section.locator('[data-test="missingness-by-subgroup"]').innerText())
+          .toMatch(/Missing predictors by site/);
+        await section
+          .locator('[data-test="missingness-by-subgroup"]')
+          .getByRole('button', { name: /as a table/ })
+          .click();
+        await expect
+          .poll(() => section.locator('[data-test="missingness-by-subgroup"] tbody').innerText())
+          .toMatch(/North annex/);
+        await section.scrollIntoViewIfNeeded();
+        await screenshot(page, 'steward-gaps-version');
+      },
+      'steward@demo.test',
     ));
 });

@@ -1,5 +1,6 @@
 // Stored cohorts and their versions (read side).
 import type { ColumnMappingSpec, ColumnSummary } from '@shared/cohorts';
+import type { MissingnessSummary } from '@shared/missingness';
 import { http } from './http';
 
 export interface CohortListItem {
@@ -33,6 +34,8 @@ export interface CohortVersionInfo {
   uploadedByName: string | null;
   createdAt: string;
   columnSummary?: Record<string, ColumnSummary>;
+  /** One version's detail: missing values per column, subgroup, period and combination (null: stored before they were kept). */
+  missingness?: MissingnessSummary | null;
 }
 
 export interface CohortRow {
@@ -41,7 +44,8 @@ export interface CohortRow {
   eventDate: string | null;
   /** the period as uploaded (2026-Q2), or its first day when the version's periods were of mixed kinds */
   period: string | null;
-  predictors: Record<string, number | string>;
+  /** null: a gap (the predictor was allowed to have gaps). */
+  predictors: Record<string, number | string | null>;
   subgroups: Record<string, string>;
 }
 

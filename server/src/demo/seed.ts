@@ -5,6 +5,7 @@ import { closeDatabase, dataSource, initDatabase } from '../platform/database/da
 import { seedAccounts } from './seeds/accounts';
 import { seedGovernance } from './seeds/governance';
 import { seedCohorts } from './seeds/cohorts';
+import { seedGapsCohort } from './seeds/gapsCohort';
 import { seedDrift } from './seeds/drift';
 import { seedRuns } from './seeds/runs';
 import { seedCompetingScore } from './seeds/competingScore';
@@ -27,6 +28,8 @@ export async function seedDemo(): Promise<SeedOutcome> {
   await seedKestrelScore();
   // After the score seed (seedKestrelScore): the demo quarters need the Kestrel score version.
   await seedCohorts();
+  // A cohort whose Charlson index and prior admissions have gaps (seeds/gapsCohort.ts); needs the score.
+  await seedGapsCohort();
   // Completed validation runs of Kestrel v2 on each demo quarter (seeds/runs.ts).
   await seedRuns();
   // Reviews and signatures on the demo runs (seeds/governance.ts): keep this last, after the runs are seeded.

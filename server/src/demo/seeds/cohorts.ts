@@ -27,7 +27,7 @@ export const KESTREL_MAPPING: ColumnMappingSpec = {
   ranges: {},
 };
 
-async function writeLines(file: string, lines: Iterable<string>): Promise<string> {
+export async function writeLines(file: string, lines: Iterable<string>): Promise<string> {
   const hash = createHash('sha256');
   const out = createWriteStream(file);
   for (const line of lines) {

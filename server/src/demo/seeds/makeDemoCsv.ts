@@ -1,7 +1,10 @@
 // Writes tests/fixtures/kestrel-2026q1.csv: a ninth invented quarter (2026-Q1, 500 rows) with a few bad rows
-// for the browser upload test. Run: npx tsx server/src/demo/seeds/makeDemoCsv.ts
+// for the browser upload test; and tests/fixtures/kestrel-gaps-2026q2.csv: an invented quarter whose Charlson index and
+// prior admissions have gaps (seeds/gapsCohort.ts), for a steward to upload with those columns allowed to have gaps.
+// Run: npx tsx server/src/demo/seeds/makeDemoCsv.ts
 import { writeFileSync } from 'node:fs';
 import { kestrelQuarterCsv } from './kestrelData';
+import { kestrelGapsCsv } from './gapsCohort';
 
 export function demoCsv2026Q1(): string {
   const lines = [...kestrelQuarterCsv({ year: 2026, quarter: 1, index: 8, n: 500, seed: 2026 })];
@@ -19,8 +22,13 @@ export function demoCsv2026Q1(): string {
   return `${lines.join('\n')}\n`;
 }
 
+export function demoGapsCsv2026Q2(): string {
+  return `${[...kestrelGapsCsv({ year: 2026, quarter: 2, index: 9, n: 600, seed: 2027 })].join('\n')}\n`;
+}
+
 const isMain = process.argv[1]?.endsWith('makeDemoCsv.ts');
 if (isMain) {
   writeFileSync('tests/fixtures/kestrel-2026q1.csv', demoCsv2026Q1());
-  console.log('wrote tests/fixtures/kestrel-2026q1.csv');
+  writeFileSync('tests/fixtures/kestrel-gaps-2026q2.csv', demoGapsCsv2026Q2());
+  console.log('wrote tests/fixtures/kestrel-2026q1.csv and tests/fixtures/kestrel-gaps-2026q2.csv');
 }

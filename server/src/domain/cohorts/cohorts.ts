@@ -76,7 +76,7 @@ export async function getCohortVersion(cohortId: string, version: number) {
 
 async function readCohortVersion(cohortId: string, version: number) {
   const rows = await dataSource.query(
-    `SELECT ${VERSION_COLUMNS}, v.column_summary AS "columnSummary" FROM cohort_versions v LEFT JOIN users u ON u.id = v.uploaded_by
+    `SELECT ${VERSION_COLUMNS}, v.column_summary AS "columnSummary", v.missingness FROM cohort_versions v LEFT JOIN users u ON u.id = v.uploaded_by
      WHERE v.cohort_id = $1 AND v.version = $2`,
     [cohortId, version],
   );

@@ -8,6 +8,8 @@ import { parseDecimal } from '@shared/decimal';
 import { parsePeriod, comparePeriodLabels, type Period, type PeriodKind } from '@shared/periods';
 import { BlockWriter } from './cohortBlocks';
 import { ageOver89, cellRules, isAgeHeader, looksLikeFormula, personName, type CellHit } from './deidentify';
+import type { MissingnessSummary } from '@shared/missingness';
+import { MissingnessCounter } from './missingness';
 
 export const MAX_STORED_REJECTIONS = 100_000;
 const RESERVOIR = 5000;
@@ -59,6 +61,8 @@ export interface CheckResult {
   } | null;
   /** The first MAX_STORED_REJECTIONS rejected cells, in line order. */
   rejections: Rejection[];
+  /** Missing values of the accepted rows: per column, subgroup level and period, and predictors missing together. */
+  missingness: MissingnessSummary;
 }
 
 class Accumulator {
@@ -95,7 +99,8 @@ class Accumulator {
     this.nextPick += Math.floor(Math.log(this.rand()) / Math.log(1 - this.w)) + 1;
   }
   add(v: string | number | null) {
-    if (v === null || v === '') {
+    // NaN: a numeric predictor's gap (the steward allowed it), stored as missing.
+    if (v === null || v === '' || (typeof v === 'number' && Number.isNaN(v))) {
       this.missing++;
       return;
     }
@@ -241,6 +246,8 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
       positiveOnly: p.positiveOnly,
       age,
       labels: mapping.labels?.[p.column] ? new Map(Object.entries(mapping.labels[p.column])) : null,
+      // An empty cell is a gap (stored as missing), not a rejection, where the steward allowed gaps.
+      gaps: (mapping.predictorsWithGaps ?? []).includes(p.column),
       min: range.min ?? (age ? 0 : prob ? 0 : -Infinity),
       max: range.max ?? (age ? 120 : prob ? 1 : Infinity),
     };
@@ -308,7 +315,14 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     sub: subs.map((s) => s.name),
   });
   const numVals = new Float64Array(numPreds.length);
-  const catVals: string[] = new Array(catPreds.length);
+  const catVals: (string | null)[] = new Array(catPreds.length);
+  const gapFlags = new Uint8Array(preds.length);
+  const missing = new MissingnessCounter({
+    predictors: preds.map((p) => p.name),
+    gapsAllowed: preds.filter((p) => p.gaps).map((p) => p.name),
+    subgroups: subs.map((s) => s.name),
+    period: mapping.date ? `period (${mapping.date.column})` : null,
+  });
   const subVals: (string | null)[] = new Array(subs.length);
   const catIntern = catPreds.map(() => new Interner());
   const subIntern = subs.map(() => new Interner());
@@ -393,6 +407,13 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     for (let k = 0; k < preds.length; k++) {
       const p = preds[k];
       const raw = record[p.idx].trim();
+      gapFlags[k] = 0;
+      if (raw === '' && p.gaps) {
+        gapFlags[k] = 1;
+        if (p.numeric) numVals[slot[k]] = NaN;
+        else catVals[slot[k]] = null;
+        continue;
+      }
       if (raw === '') {
         reject(line, p.fileCol, raw, `missing value for ${p.name}`, `missing ${p.name}`);
         bad = true;
@@ -498,6 +519,7 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
     outcomeAcc.add(y === 1 ? '1' : '0');
     // The summary keeps the label as uploaded (2026-Q2), not the first day it is stored as.
     if (dateAcc) dateAcc.add(period ? period.label : null);
+    missing.add(gapFlags, subVals, period ? period.label : null, y);
     if (period) {
       if (!minDate || period.start < minDate) minDate = period.start;
       if (!maxDate || period.start > maxDate) maxDate = period.start;
@@ -562,5 +584,6 @@ export async function checkUploadRows(input: CheckInput, sink: CheckSink): Promi
         }
       : null,
     rejections,
+    missingness: missing.summary(),
   };
 }

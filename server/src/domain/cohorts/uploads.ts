@@ -182,6 +182,7 @@ export async function getUpload(id: string, waitSeconds = 0): Promise<UploadView
     events: r.events,
     rejectionCounts: r.rejectionCounts,
     columnSummary: r.columnSummary,
+    missingness: r.missingness,
     cohortVersionId: r.cohortVersionId,
     error: r.error,
     createdAt: new Date(r.createdAt).toISOString(),
@@ -237,6 +238,9 @@ export async function applyMapping(
   for (const k of Object.keys(mapping.predictors))
     if (!requiredPredictors(sv).some((p) => p.column === k))
       problems.push(`"${k}" is not a predictor of this score version`);
+  // A supplied probability is the score itself, not a predictor to impute: its gaps stay rejected rows.
+  if (sv.mode === 'supplied' && mapping.predictorsWithGaps?.length)
+    problems.push(`the supplied probability column "${sv.probabilityColumn}" cannot have gaps`);
   // Label readings only for indicator columns, and only into the formula's levels (or '' for "none of them").
   for (const [k, readings] of Object.entries(mapping.labels ?? {})) {
     const levels = predictorViews(sv, mapping).find((p) => p.column === k)?.levels ?? [];
@@ -263,7 +267,7 @@ export async function applyMapping(
   await dataSource.transaction(async (m) => {
     const [, changed] = await m.query(
       `UPDATE cohort_uploads SET status = 'processing', mapping = $2, planned_version_id = $3, progress = 0, rows_read = 0, rows_accepted = 0, rows_rejected = 0, events = 0,
-         rejection_counts = '[]', column_summary = '{}', event_period = NULL, error = NULL, updated_at = now()
+         rejection_counts = '[]', column_summary = '{}', event_period = NULL, missingness = NULL, error = NULL, updated_at = now()
        WHERE id = $1 AND status IN ('pending', 'checked', 'failed')`,
       [id, JSON.stringify(mapping), plannedVersionId],
     );
@@ -340,7 +344,7 @@ export const uploadCheckAbandonedJob: JobHandler<{ uploadId: string; plannedVers
 };
 
 /** What a discarded or expired upload forgets besides its rows and rejections: everything summarised from the file's cells. */
-export const FORGET_DERIVED = `column_summary = '{}', event_period = NULL, rejection_counts = '[]', suggested_mapping = NULL, progress = 0`;
+export const FORGET_DERIVED = `column_summary = '{}', event_period = NULL, missingness = NULL, rejection_counts = '[]', suggested_mapping = NULL, progress = 0`;
 
 /** Staged rows of an upload that never became a cohort version (re-mapped, discarded, failed). */
 export async function deleteStagedRows(
@@ -399,7 +403,7 @@ async function processUpload(
           ? `the file was refused: ${refusal.reason}; nothing was stored`
           : `refused by the de-identification screen: column "${refusal.column}" ${refusal.reason}; nothing was stored`;
       await m.query(
-        `UPDATE cohort_uploads SET status = 'refused', temp_path = NULL, warnings = $2, error = $3, column_summary = '{}', event_period = NULL, updated_at = now() WHERE id = $1`,
+        `UPDATE cohort_uploads SET status = 'refused', temp_path = NULL, warnings = $2, error = $3, column_summary = '{}', event_period = NULL, missingness = NULL, updated_at = now() WHERE id = $1`,
         [id, JSON.stringify([refusal]), error],
       );
       await appendAudit(
@@ -570,6 +574,7 @@ export async function commitUpload(
       mapping: mapping as never, // jsonb: TypeORM's insert type cannot follow a nested null
       columnSummary: r.columnSummary,
       uploadedBy: actor.id,
+      missingness: r.missingness ?? null,
     });
     versionId = v.id;
     // The rows were streamed in by the check, in the same transaction that recorded rows_accepted (the worker compares

@@ -18,6 +18,7 @@ import { calibrationBand } from '../../stats/bootstrap';
 import { siteAnalysis, subgroupAnalysis } from '../../stats/groupPerformance';
 import { canonical } from '../accounts/audit';
 import type { CohortData } from '../cohorts/cohortData';
+import { completeCases } from './completeCases';
 
 export { ENGINE_VERSION };
 
@@ -204,6 +205,11 @@ export function indicatorLevelWarnings(score: RunScoreInput, data: CohortData): 
   return out;
 }
 
+/** What the run page says when rows with a missing predictor were left out. */
+export function leftOutWarning(leftOut: number, n: number): string {
+  return `${formatCount(leftOut)} of ${formatCount(n)} patients (${formatPercent(leftOut / n)}) miss a predictor the score needs and were left out: these figures are from the complete cases only.`;
+}
+
 /** "Computing bootstrap replicate 420 of 2,000": what the run page says while the bootstrap runs. */
 export function bootstrapProgressText(done: number, total: number): string {
   return `Computing bootstrap replicate ${formatCount(done)} of ${formatCount(total)}`;
@@ -211,7 +217,10 @@ export function bootstrapProgressText(done: number, total: number): string {
 
 /** The whole run: overall figures, then each subgroup level, then each period. Throws RunInputError on bad input. */
 export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn = () => {}): RunResults {
-  const { data, settings } = input;
+  const { settings } = input;
+  // Rows with a gap in a column the score reads are left out and counted (complete cases).
+  const kept = completeCases(input.score, input.data);
+  const data = kept.data;
   onProgress(0.02, 'Computing predicted risk');
   const p = predictedRisk(input.score, data);
   const y = data.outcome;
@@ -233,6 +242,7 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
     throw new RunInputError((err as Error).message);
   }
   overall.warnings.push(...indicatorLevelWarnings(input.score, data));
+  if (kept.leftOut) overall.warnings.push(leftOutWarning(kept.leftOut, input.data.n));
 
   // The full subgroup (fairness) and site analyses: pure engine functions over the column's labels.
   const labelsOf = (column: string, what: string): string[] => {
@@ -332,6 +342,7 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
     subgroups,
     periods,
     ...(undatedRows !== undefined ? { undatedRows } : {}),
+    ...(kept.leftOut ? { rowsLeftOut: { count: kept.leftOut, byColumn: kept.missingByColumn } } : {}),
     minSubgroupEvents: MIN_SUBGROUP_EVENTS,
     ...(subgroupAnalyses.length ? { subgroupAnalyses } : {}),
     ...(sites ? { sites } : {}),

@@ -7,6 +7,7 @@ import type { UpdateFit } from '../../stats/recalibration';
 import { loadCohortData } from '../../domain/cohorts/cohortData';
 import { derive, RecalibrationRefused } from '../../domain/drift/recalibrationFit';
 import { predictedRisk, type RunScoreInput } from '../../domain/runs/runCompute';
+import { completeCases } from '../../domain/runs/completeCases';
 
 export interface RecalibrationTask {
   cohortVersionId: string;
@@ -23,10 +24,12 @@ export async function recalibration(task: RecalibrationTask): Promise<Recalibrat
   client.on('error', () => undefined); // a lost connection surfaces as the failed query
   await client.connect();
   try {
-    const data = await loadCohortData(
+    const all = await loadCohortData(
       task.cohortVersionId,
       async (sql, params) => (await client.query(sql, params as unknown[])).rows,
     );
+    // Fitted on the complete cases, as the run's figures are.
+    const data = completeCases(task.score, all).data;
     const p = predictedRisk(task.score, data);
     const lp = new Float64Array(p.length);
     for (let i = 0; i < p.length; i++) lp[i] = Math.log(p[i] / (1 - p[i]));

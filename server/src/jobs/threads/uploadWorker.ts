@@ -123,7 +123,7 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
     if (result.rejections.length) await copyRejections(client, data.uploadId, result.rejections);
     const updated = await client.query(
       `UPDATE cohort_uploads SET status = 'checked', progress = 1, rows_read = $2, rows_accepted = $3, rows_rejected = $4, events = $5,
-         rejection_counts = $6, column_summary = $7, event_period = $8, updated_at = now()
+         rejection_counts = $6, column_summary = $7, event_period = $8, missingness = $10, updated_at = now()
        WHERE id = $1 AND status = 'processing' AND planned_version_id = $9`,
       [
         data.uploadId,
@@ -135,6 +135,7 @@ async function main(data: UploadWorkerData, post: (m: UploadWorkerMessage) => vo
         JSON.stringify(result.columnSummary),
         result.eventPeriod ? JSON.stringify(result.eventPeriod) : null,
         data.plannedVersionId,
+        JSON.stringify(result.missingness),
       ],
     );
     if (updated.rowCount !== 1) throw new Error('the upload was changed while its rows were checked');

@@ -1,6 +1,7 @@
 import { Column, CreateDateColumn, Entity, PrimaryGeneratedColumn, UpdateDateColumn } from 'typeorm';
 import type { ColumnMappingSpec, ColumnSummary, ScreenFinding, UploadStatus } from '@shared/cohorts';
 import type { PeriodKind } from '@shared/periods';
+import type { MissingnessSummary } from '@shared/missingness';
 
 /**
  * A received file on its way to a cohort version: screened, mapped, checked (by a job), then stored or discarded. Its
@@ -89,6 +90,10 @@ export class CohortUpload {
     kind?: PeriodKind | null;
     labels?: Record<string, string> | null;
   } | null;
+
+  /** Missing values of the checked rows (domain/cohorts/missingness.ts); null before the check. */
+  @Column({ type: 'jsonb', nullable: true })
+  missingness: MissingnessSummary | null;
 
   /** The id the cohort version will get when stored; the staged blocks carry it meanwhile. */
   @Column({ name: 'planned_version_id', type: 'uuid', nullable: true })

@@ -1,3 +1,4 @@
+import type { MissingnessSummary } from '@shared/missingness';
 import { Column, CreateDateColumn, Entity, PrimaryGeneratedColumn } from 'typeorm';
 
 /** One immutable upload: its accepted rows live in cohort_row_blocks (streamed in by COPY during the check, read by runs). */
@@ -47,6 +48,10 @@ export class CohortVersion {
 
   @Column({ name: 'column_summary', type: 'jsonb', default: {} })
   columnSummary: Record<string, unknown>;
+
+  /** Missing values per column, subgroup level and period, and the predictors missing together; null before it was kept. */
+  @Column({ type: 'jsonb', nullable: true })
+  missingness: MissingnessSummary | null;
 
   @Column({ name: 'uploaded_by', type: 'uuid', nullable: true })
   uploadedBy: string | null;

@@ -16,6 +16,7 @@ import { ForgetUploadText1764700316000 } from './1764700316000-ForgetUploadText'
 import { AuditCheckpoints1764800000000 } from './1764800000000-AuditCheckpoints';
 import { JobQueue1764900000000 } from './1764900000000-JobQueue';
 import { DriftRunChoices1764900100000 } from './1764900100000-DriftRunChoices';
+import { CohortMissingness1765000000000 } from './1765000000000-CohortMissingness';
 import { ScoreComparisons1765000019000 } from './1765000019000-ScoreComparisons';
 
 export const migrations = [
@@ -36,5 +37,6 @@ export const migrations = [
   AuditCheckpoints1764800000000,
   JobQueue1764900000000,
   DriftRunChoices1764900100000,
+  CohortMissingness1765000000000,
   ScoreComparisons1765000019000,
 ];
