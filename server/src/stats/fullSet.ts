@@ -21,7 +21,7 @@ import { sortCohort } from './sortedCohort';
 import { spiegelhalter } from './spiegelhalter';
 import { thresholdTable } from './thresholdTable';
 
-export const ENGINE_VERSION = '1.1.0'; // 1.1.0: standardised net benefit in every net-benefit row and its bootstrap interval
+export const ENGINE_VERSION = '1.2.0'; // 1.1.0: standardised net benefit in every net-benefit row and its bootstrap interval; 1.2.0: runs on cohorts with gaps carry missingData (complete cases beside pooled multiple imputation)
 
 export const defaultValidationSettings: ValidationSettings = {
   thresholds: [0.05, 0.1, 0.2, 0.3, 0.5],

@@ -12,6 +12,7 @@ import { evaluateAlertsForRun } from '../drift/alerts';
 import { drainJobs, enqueue, JOB, type JobHandler } from '../../jobs/queue';
 import { queueEmail, recipientsForRole } from '../notifications/mail';
 import { computeRunResults, ENGINE_VERSION, RunInputError } from './runCompute';
+import { completeCaseData } from './runMissingData';
 import { computeInThread, type RunningThread } from '../../jobs/threads/pool';
 import { formatCount, formatFigure } from '@shared/format';
 import { logger } from '../../platform/observability/log';
@@ -248,7 +249,7 @@ export async function recordRunNow(
   const parsed = runSettingsSchema.parse(settings);
   const { input, inputsSha256: inputsHash } = await loadRunInput({ scoreVersionId, cohortVersionId, settings: parsed });
   const sealed = sealResults(computeRunResults(input));
-  const drift = driftSeriesOf(input.score, input.data);
+  const drift = driftSeriesOf(input.score, completeCaseData(input.score, input.data));
   return dataSource.transaction(async (m) => {
     await m.query('UPDATE score_versions SET locked = true WHERE id = $1 AND NOT locked', [scoreVersionId]);
     const rows: { id: string }[] = await m.query(

@@ -9,6 +9,7 @@ import type { Query } from '../../domain/cohorts/cohortData';
 import { driftSeriesOf, storeDriftSeries, type DriftSeriesPart } from '../../domain/drift/driftSeries';
 import { computeRunResults, RunInputError } from '../../domain/runs/runCompute';
 import { loadRunInput } from '../../domain/runs/runInput';
+import { completeCaseData } from '../../domain/runs/runMissingData';
 
 export type RunJob =
   | { task: 'run'; scoreVersionId: string; cohortVersionId: string; settings: unknown; db: pg.ClientConfig }
@@ -49,15 +50,16 @@ async function main(job: RunJob, post: (m: RunWorkerMessage) => void): Promise<v
         job.scoreVersionId,
         job.cohortVersionId,
         null,
-        driftSeriesOf(input.score, input.data),
+        driftSeriesOf(input.score, completeCaseData(input.score, input.data)),
       );
       post({ type: 'done', results: null, inputsSha256, drift: null, precision: null });
       return;
     }
     post({ type: 'progress', fraction: 0.01, message: 'Starting the computation' });
     const results = computeRunResults(input, (fraction, message) => post({ type: 'progress', fraction, message }));
-    // The drift series of this (score version, cohort version), stored with the completed run by the caller.
-    const drift = driftSeriesOf(input.score, input.data);
+    // The drift series of this (score version, cohort version), stored with the completed run by the caller (on the
+    // complete cases, as the run's own figures).
+    const drift = driftSeriesOf(input.score, completeCaseData(input.score, input.data));
     // The run page's expected CI widths (adequacy) are worked out here too, not on the API thread when it is opened.
     const inputs = runPrecisionInputs(results as Parameters<typeof runPrecisionInputs>[0]);
     const widths = inputs && { ...inputs, value: precision(inputs.n, inputs.events, inputs.auc) };
