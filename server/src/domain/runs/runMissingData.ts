@@ -312,9 +312,13 @@ const LABELS: Record<PooledFigure['key'], string> = {
 function completeCaseOnScale(key: PooledFigure['key'], r: ValidationResult, scale: PoolingScale) {
   let est: { estimate: number; lower: number; upper: number };
   let se: number;
-  if (key === 'auc') (({ se } = r.auc), (est = r.auc));
-  else if (key === 'oe') ((se = seLogOe(r) * r.oe.estimate), (est = r.oe));
-  else {
+  if (key === 'auc') {
+    est = r.auc;
+    se = r.auc.se;
+  } else if (key === 'oe') {
+    est = r.oe;
+    se = seLogOe(r) * r.oe.estimate; // SE(O/E) by the delta method, as the pooling takes it
+  } else {
     const f = r[key];
     if (!f.converged) return null;
     est = f;
