@@ -16,7 +16,7 @@ export async function seedDemoImputationRun(): Promise<string | null> {
   const [cv]: { id: string; groups: string[] | null }[] = await dataSource.query(
     `SELECT cv.id, (SELECT b.sub_names FROM cohort_row_blocks b WHERE b.cohort_version_id = cv.id ORDER BY b.block_no LIMIT 1) AS groups
      FROM cohort_versions cv JOIN cohorts c ON c.id = cv.cohort_id
-     WHERE c.name = $1 AND jsonb_array_length(COALESCE(cv.mapping->'predictorsWithGaps', '[]'::jsonb)) > 0
+     WHERE c.name = $1 AND CASE WHEN jsonb_typeof(cv.mapping->'predictorsWithGaps') = 'array' THEN jsonb_array_length(cv.mapping->'predictorsWithGaps') ELSE 0 END > 0
      ORDER BY cv.period_start DESC NULLS LAST, cv.version DESC LIMIT 1`,
     [DEMO_COHORT_NAME],
   );
