@@ -24,6 +24,7 @@ export const REPORT_PARTS = [
   'subgroups',
   'periods',
   'comparison',
+  'missingData',
   'review',
   'signatures',
 ] as const;
@@ -53,6 +54,7 @@ export function reportContents(r: ReportBundle): Record<ReportPart, boolean> {
     subgroups: !!results?.subgroups?.length,
     periods: !!results?.periods?.length,
     comparison: !!r.comparison,
+    missingData: !!results?.missingData,
     review: r.reviews.some((v) => v.current),
     signatures: true,
   };
@@ -172,8 +174,10 @@ export function reportChecklist(r: ReportBundle): ChecklistItem[] {
       '9',
       'Missing data',
       'Describe how missing or invalid values were handled.',
-      ['excluded'],
-      'cohort (rows excluded at upload)',
+      has.missingData ? ['excluded', 'missingData'] : ['excluded'],
+      has.missingData
+        ? 'cohort (rows excluded at upload) and missing data (complete cases and the handling of predictor gaps)'
+        : 'cohort (rows excluded at upload)',
     ),
     item(
       '10c',
@@ -321,5 +325,12 @@ export function describeRunSettings(s: Partial<RunSettings> | null | undefined):
   );
   add('Subgroup columns', s.subgroupColumns && (s.subgroupColumns.length ? s.subgroupColumns.join(', ') : 'none'));
   add('Periods', s.timeGrouping && (TIME_GROUPING_WORDS[s.timeGrouping] ?? s.timeGrouping));
+  if (s.missingData)
+    add(
+      'Missing predictor values',
+      s.missingData.method === 'multiple-imputation'
+        ? `multiple imputation: ${s.missingData.imputations} imputations, ${s.missingData.iterations} iterations, seed ${s.missingData.seed}${s.missingData.extraColumns.length ? `; imputation models also use ${s.missingData.extraColumns.join(', ')}` : ''}`
+        : 'complete cases',
+    );
   return rows;
 }

@@ -3,6 +3,7 @@ import { z } from 'zod';
 import type { CalibrationBand, Estimate, ValidationResult } from './validation';
 import type { SiteAnalysis, SubgroupAnalysis } from './subgroups';
 import type { CohortAdequacy } from './adequacy';
+import { missingDataSettingsSchema, type MissingDataResult } from './missingData';
 
 export const RUN_STATUSES = ['queued', 'running', 'completed', 'failed'] as const;
 export type RunStatus = (typeof RUN_STATUSES)[number];
@@ -38,6 +39,8 @@ export const runSettingsSchema = z
     /** A site (centre) column: per-site figures and a random-effects meta-analysis across sites. */
     siteColumn: z.string().trim().min(1).max(80).nullable().default(null),
     timeGrouping: z.enum(TIME_GROUPINGS).default('none'),
+    /** Missing predictor values: complete cases when absent (shared/src/missingData.ts). */
+    missingData: missingDataSettingsSchema.optional(),
   })
   .strict()
   .superRefine((s, ctx) => {
@@ -129,8 +132,6 @@ export interface RunResults {
   periods: PeriodResult[];
   /** rows without an event date when periods were asked for. */
   undatedRows?: number;
-  /** Rows left out because a column the score reads is missing (complete cases), and per column how many miss it. */
-  rowsLeftOut?: { count: number; byColumn: Record<string, number> };
   minSubgroupEvents: number;
   /**
    * Per subgroup column (fairness): every level's AUC, calibration intercept and slope, O/E and ICI with 95% CIs (ICI's
@@ -142,6 +143,11 @@ export interface RunResults {
   sites?: { column: string } & SiteAnalysis;
   /** With bootstrap replicates: the pointwise 95% band of the whole cohort's calibration curve. */
   calibrationBand?: CalibrationBand;
+  /**
+   * On a cohort with gaps in the score's predictors (or when multiple imputation was asked for): the complete-case
+   * analysis (every figure above is on complete cases) beside the pooled multiple imputation. Runs by engine 1.2.0 on.
+   */
+  missingData?: MissingDataResult;
 }
 
 export interface RunSummary {
@@ -234,6 +240,8 @@ export interface RunOptions {
     events: number;
     groupColumns: string[];
     hasDates: boolean;
+    /** predictors the upload's mapping allows gaps in (multiple imputation is offered when there are any) */
+    predictorsWithGaps: string[];
     periods: 'month' | 'quarter' | null;
     createdAt: string;
   }[];

@@ -179,9 +179,8 @@ describe('a predictor the steward allows gaps in', () => {
     const [r] = await dataSource.query('SELECT status, results FROM validation_runs WHERE id = $1', [runId]);
     expect(r.status).toBe('completed');
     expect(r.results.overall.n).toBe(400 - expected.anyRows);
-    // Where the count is kept: `rowsLeftOut` (complete cases only), or `missingData.completeCase` once runs also
-    // offer multiple imputation (the two lines of work meet there); either way the same numbers.
-    const leftOut = r.results.rowsLeftOut ?? {
+    // The run's missing-data part counts the complete cases' left-out patients and the gaps per column.
+    const leftOut = {
       count: r.results.missingData?.completeCase?.leftOut,
       byColumn: r.results.missingData?.gapsByColumn,
     };

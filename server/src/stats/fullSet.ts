@@ -24,6 +24,7 @@ import { thresholdTable } from './thresholdTable';
 // 1.1.0: standardised net benefit in every net-benefit row and its bootstrap interval.
 // 1.2.0: each subgroup and site level carries its smoothed calibration curve (groupPerformance.ts); with no more
 // distinct risks than groups, Hosmer–Lemeshow and the grouped curve make one group per distinct risk (riskGroups.ts).
+// 1.2.0 also: runs on cohorts with gaps carry missingData (complete cases beside pooled multiple imputation).
 export const ENGINE_VERSION = '1.2.0';
 
 export const defaultValidationSettings: ValidationSettings = {

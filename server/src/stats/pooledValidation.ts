@@ -79,7 +79,7 @@ export interface MissingDataValidation {
   imputed: PooledAnalysis;
 }
 
-const seLogOe = (r: ValidationResult) => (Math.log(r.oe.upper) - Math.log(r.oe.lower)) / (2 * Z975);
+export const seLogOe = (r: ValidationResult) => (Math.log(r.oe.upper) - Math.log(r.oe.lower)) / (2 * Z975);
 
 export function poolResults(results: ValidationResult[]): Pick<PooledAnalysis, 'pooled' | 'failedFits'> {
   const fits = (key: 'calibrationIntercept' | 'calibrationSlope') => {
@@ -110,7 +110,8 @@ export function poolResults(results: ValidationResult[]): Pick<PooledAnalysis, '
       calibrationSlope: cs.pooled,
       oe: poolMetric(
         results.map((r) => r.oe.estimate),
-        results.map(seLogOe),
+        // poolMetric takes standard errors on the metric's own scale: SE(O/E) = O/E · SE(log O/E) by the delta method
+        results.map((r) => seLogOe(r) * r.oe.estimate),
         'log',
       ),
     },

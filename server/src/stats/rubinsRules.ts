@@ -85,13 +85,12 @@ const back = { identity: (x: number) => x, logit: (x: number) => 1 / (1 + Math.e
 /** d(scale)/dx for the delta method */
 const slope = { identity: () => 1, logit: (x: number) => 1 / (x * (1 - x)), log: (x: number) => 1 / x };
 
-/** Pools estimates given on the metric's own scale with their standard errors, on `scale` (Marshall et al. 2009). */
-export function poolMetric(
+/** Estimates and their variances on the pooling scale (the delta method for the variances): what Rubin's rules pool. */
+export function onPoolingScale(
   estimates: ArrayLike<number>,
   ses: ArrayLike<number>,
   scale: PoolingScale,
-  dfComplete = Infinity,
-): PooledMetric {
+): { q: Float64Array; u: Float64Array } {
   const m = estimates.length;
   const q = new Float64Array(m);
   const u = new Float64Array(m);
@@ -99,6 +98,17 @@ export function poolMetric(
     q[i] = forward[scale](estimates[i]);
     u[i] = (ses[i] * slope[scale](estimates[i])) ** 2;
   }
+  return { q, u };
+}
+
+/** Pools estimates given on the metric's own scale with their standard errors, on `scale` (Marshall et al. 2009). */
+export function poolMetric(
+  estimates: ArrayLike<number>,
+  ses: ArrayLike<number>,
+  scale: PoolingScale,
+  dfComplete = Infinity,
+): PooledMetric {
+  const { q, u } = onPoolingScale(estimates, ses, scale);
   const pooled = poolScalar(q, u, dfComplete);
   return {
     ...pooled,

@@ -14,6 +14,7 @@ function bundle(
     subgroups?: unknown[];
     results?: boolean;
     derived?: boolean;
+    missingData?: unknown;
   } = {},
 ): ReportBundle {
   const results =
@@ -24,6 +25,7 @@ function bundle(
           subgroups: over.subgroups ?? [],
           periods: over.periods ?? [],
           minSubgroupEvents: 10,
+          ...(over.missingData ? { missingData: over.missingData } : {}),
         };
   return {
     generatedAt: '2026-12-03T10:00:00Z',
@@ -94,6 +96,15 @@ describe('reportChecklist', () => {
     expect(item(bundle(), '16').present).toBe(true);
   });
 
+  it('answers the missing-data item from the missing-data part when the run reports gaps, else from the exclusions', () => {
+    expect(reportContents(bundle()).missingData).toBe(false);
+    expect(item(bundle(), '9')).toMatchObject({ present: true, parts: ['excluded'] });
+    const b = bundle({ missingData: { method: 'complete-case', rowsWithGaps: 12 } });
+    expect(reportContents(b).missingData).toBe(true);
+    expect(item(b, '9')).toMatchObject({ present: true, parts: ['excluded', 'missingData'] });
+    expect(item(b, '9').where).toMatch(/missing data/);
+  });
+
   it('counts an update only when the version was derived from a run', () => {
     expect(item(bundle(), '10e').present).toBe(false);
     expect(item(bundle({ derived: true }), '17').present).toBe(true);
@@ -119,5 +130,13 @@ describe('describeRunSettings', () => {
     expect(describeRunSettings({ ...defaultRunSettings(), bootstrapReplicates: 2000, bootstrapSeed: 7 })[4].value).toBe(
       '2,000 replicates, seed 7',
     );
+    const mi = describeRunSettings({
+      ...defaultRunSettings(),
+      missingData: { method: 'multiple-imputation', imputations: 20, iterations: 5, seed: 9, extraColumns: ['unit'] },
+    });
+    expect(mi.at(-1)).toEqual({
+      name: 'Missing predictor values',
+      value: 'multiple imputation: 20 imputations, 5 iterations, seed 9; imputation models also use unit',
+    });
   });
 });

@@ -4,7 +4,7 @@
 // thread only merges stored arrays (domain/drift/timeline.ts) and never loads or sorts a cohort.
 import type { CohortData, Query } from '../cohorts/cohortData';
 import { predictedRisk, type RunScoreInput } from '../runs/runCompute';
-import { completeCases } from '../runs/completeCases';
+import { completeCaseData } from '../runs/runMissingData';
 
 export interface DriftSeriesPart {
   n: number;
@@ -19,7 +19,7 @@ export interface DriftSeriesPart {
 /** Date order, ties in the cohort's line order (a stable counting sort over the few distinct dates). */
 export function driftSeriesOf(score: RunScoreInput, all: CohortData): DriftSeriesPart {
   // The patients the run analysed: rows with a gap in a column the score reads are left out, as in the run.
-  const data = completeCases(score, all).data;
+  const data = completeCaseData(score, all);
   const risk = predictedRisk(score, data);
   const groups = new Map<string | null, number>();
   for (let i = 0; i < data.n; i++) groups.set(data.eventDate[i], (groups.get(data.eventDate[i]) ?? 0) + 1);

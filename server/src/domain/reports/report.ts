@@ -57,7 +57,21 @@ function methods(settings: Partial<RunSettings> | null, results: RunResults | nu
       source:
         'Collins GS, Ogundimu EO, Altman DG (2016) Stat Med 35:214–226; Riley RD et al. (2021) Stat Med 40:4230–4251',
     },
+    ...(results?.missingData ? [missingDataMethod(results.missingData)] : []),
   ];
+}
+
+/** How gaps in the score's predictors were handled, when the cohort has any (or imputation was asked for). */
+function missingDataMethod(md: NonNullable<RunResults['missingData']>): MethodNote {
+  const cc = `complete cases: ${formatCount(md.completeCase.n)} of ${formatCount(md.rows)} patients, ${formatCount(md.completeCase.leftOut)} with a gap left out`;
+  return md.imputed
+    ? {
+        name: 'Missing predictor values',
+        how: `${cc}; beside them multiple imputation by chained equations, ${md.imputed.imputations} imputations, ${md.imputed.iterations} iterations, seed ${md.imputed.seed} (${md.imputed.method}); ${md.imputed.pooling}. ${md.imputed.curvePooling}`,
+        source:
+          'van Buuren S, Groothuis-Oudshoorn K (2011) J Stat Softw 45(3):1–67; Rubin DB (1987) Multiple Imputation for Nonresponse in Surveys; Barnard J, Rubin DB (1999) Biometrika 86:948–955; Marshall A et al. (2009) BMC Med Res Methodol 9:57; Hoogland J et al. (2020) Stat Med 39:3591–3607',
+      }
+    : { name: 'Missing predictor values', how: `${cc}.`, source: 'common practice, no single source' };
 }
 
 export async function runReport(runId: string): Promise<RunReport> {

@@ -18,7 +18,7 @@ import { calibrationBand } from '../../stats/bootstrap';
 import { siteAnalysis, subgroupAnalysis } from '../../stats/groupPerformance';
 import { canonical } from '../accounts/audit';
 import type { CohortData } from '../cohorts/cohortData';
-import { completeCases } from './completeCases';
+import { completeCaseData, missingDataAnalysis, MissingDataInputError, predictorGaps } from './runMissingData';
 
 export { ENGINE_VERSION };
 
@@ -215,12 +215,47 @@ export function bootstrapProgressText(done: number, total: number): string {
   return `Computing bootstrap replicate ${formatCount(done)} of ${formatCount(total)}`;
 }
 
-/** The whole run: overall figures, then each subgroup level, then each period. Throws RunInputError on bad input. */
+/**
+ * The whole run. On a cohort with gaps in the score's predictors every figure is computed on the complete cases, and
+ * `missingData` says what was left out and, when the settings ask for it, holds the pooled multiple imputation
+ * (runMissingData.ts). Throws RunInputError on bad input.
+ */
 export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn = () => {}): RunResults {
-  const { settings } = input;
-  // Rows with a gap in a column the score reads are left out and counted (complete cases).
-  const kept = completeCases(input.score, input.data);
-  const data = kept.data;
+  const gaps = predictorGaps(input.score, input.data);
+  const mi = input.settings.missingData?.method === 'multiple-imputation';
+  if (mi && input.score.mode !== 'formula')
+    throw new RunInputError(
+      'multiple imputation needs a score with a formula: a supplied probability has no predictors',
+    );
+  if (!gaps || (gaps.rowsWithGaps === 0 && !mi)) return computeCohortResults(input, onProgress);
+  // the imputation takes most of an imputed run: the complete-case figures get the first 30 % of the bar
+  const share = mi && gaps.rowsWithGaps > 0 ? 0.3 : 1;
+  const completeCase = completeCaseData(input.score, input.data, gaps);
+  // the run's sections (subgroups, periods, drift) stand on the complete cases, so they must be analysable
+  if (completeCase.n === 0) throw new RunInputError('every patient has a gap in a predictor the score uses');
+  const results = computeCohortResults({ ...input, data: completeCase }, (f, m) => onProgress(f * share, m));
+  if (gaps.rowsWithGaps) results.overall.warnings.push(leftOutWarning(gaps.rowsWithGaps, input.data.n));
+  try {
+    const missingData = missingDataAnalysis(
+      {
+        ...input,
+        gaps,
+        completeCase: results.overall,
+        engineSettings: resolveSettings(engineSettings(input.settings, false)),
+      },
+      (f, m) => onProgress(share + (1 - share) * f, m),
+    );
+    onProgress(1, 'Done');
+    return { ...results, missingData };
+  } catch (err) {
+    if (err instanceof MissingDataInputError) throw new RunInputError(err.message);
+    throw err;
+  }
+}
+
+/** Overall figures, then each subgroup level, then each period, on the rows given. */
+function computeCohortResults(input: RunComputeInput, onProgress: ProgressFn = () => {}): RunResults {
+  const { data, settings } = input;
   onProgress(0.02, 'Computing predicted risk');
   const p = predictedRisk(input.score, data);
   const y = data.outcome;
@@ -242,7 +277,6 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
     throw new RunInputError((err as Error).message);
   }
   overall.warnings.push(...indicatorLevelWarnings(input.score, data));
-  if (kept.leftOut) overall.warnings.push(leftOutWarning(kept.leftOut, input.data.n));
 
   // The full subgroup (fairness) and site analyses: pure engine functions over the column's labels.
   const labelsOf = (column: string, what: string): string[] => {
@@ -342,7 +376,6 @@ export function computeRunResults(input: RunComputeInput, onProgress: ProgressFn
     subgroups,
     periods,
     ...(undatedRows !== undefined ? { undatedRows } : {}),
-    ...(kept.leftOut ? { rowsLeftOut: { count: kept.leftOut, byColumn: kept.missingByColumn } } : {}),
     minSubgroupEvents: MIN_SUBGROUP_EVENTS,
     ...(subgroupAnalyses.length ? { subgroupAnalyses } : {}),
     ...(sites ? { sites } : {}),

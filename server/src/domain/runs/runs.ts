@@ -247,6 +247,7 @@ export async function runOptions(): Promise<RunOptions> {
   );
   const cvs: Record<string, unknown>[] = await dataSource.query(
     `SELECT cv.id, cv.cohort_id, c.name AS cohort_name, cv.version, cv.label, cv.row_count, cv.events, cv.created_at, cv.column_summary,
+            cv.mapping->'predictorsWithGaps' AS gap_columns,
             (SELECT b.sub_names FROM cohort_row_blocks b WHERE b.cohort_version_id = cv.id ORDER BY b.block_no LIMIT 1) AS subgroups,
             EXISTS (SELECT 1 FROM cohort_row_blocks b WHERE b.cohort_version_id = cv.id AND b.dated_count > 0) AS has_dates
      FROM cohort_versions cv JOIN cohorts c ON c.id = cv.cohort_id ORDER BY c.name, cv.version DESC`,
@@ -277,6 +278,7 @@ export async function runOptions(): Promise<RunOptions> {
       events: r.events as number,
       groupColumns: [...((r.subgroups as string[] | null) ?? [])].sort(),
       hasDates: r.has_dates as boolean,
+      predictorsWithGaps: Array.isArray(r.gap_columns) ? (r.gap_columns as string[]) : [],
       periods: r.has_dates ? cohortPeriods(r.column_summary as Record<string, ColumnSummary> | null) : null,
       createdAt: iso(r.created_at)!,
     })),

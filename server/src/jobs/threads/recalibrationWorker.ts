@@ -7,7 +7,7 @@ import type { UpdateFit } from '../../stats/recalibration';
 import { loadCohortData } from '../../domain/cohorts/cohortData';
 import { derive, RecalibrationRefused } from '../../domain/drift/recalibrationFit';
 import { predictedRisk, type RunScoreInput } from '../../domain/runs/runCompute';
-import { completeCases } from '../../domain/runs/completeCases';
+import { completeCaseData } from '../../domain/runs/runMissingData';
 
 export interface RecalibrationTask {
   cohortVersionId: string;
@@ -29,7 +29,7 @@ export async function recalibration(task: RecalibrationTask): Promise<Recalibrat
       async (sql, params) => (await client.query(sql, params as unknown[])).rows,
     );
     // Fitted on the complete cases, as the run's figures are.
-    const data = completeCases(task.score, all).data;
+    const data = completeCaseData(task.score, all);
     const p = predictedRisk(task.score, data);
     const lp = new Float64Array(p.length);
     for (let i = 0; i < p.length; i++) lp[i] = Math.log(p[i] / (1 - p[i]));

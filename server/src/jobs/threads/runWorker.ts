@@ -56,7 +56,8 @@ async function main(job: RunJob, post: (m: RunWorkerMessage) => void): Promise<v
     }
     post({ type: 'progress', fraction: 0.01, message: 'Starting the computation' });
     const results = computeRunResults(input, (fraction, message) => post({ type: 'progress', fraction, message }));
-    // The drift series of this (score version, cohort version), stored with the completed run by the caller.
+    // The drift series of this (score version, cohort version), stored with the completed run by the caller (on the
+    // complete cases, as the run's own figures).
     const drift = driftSeriesOf(input.score, input.data);
     // The run page's expected CI widths (adequacy) are worked out here too, not on the API thread when it is opened.
     const inputs = runPrecisionInputs(results as Parameters<typeof runPrecisionInputs>[0]);
