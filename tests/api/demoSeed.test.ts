@@ -122,6 +122,22 @@ describe('the demo seed', () => {
     ).toBe(true);
   });
 
+  it('has a completed run on the cohort with gaps that pools multiple imputation beside the complete cases', async () => {
+    const [r] = await dataSource.query(
+      `SELECT r.status, r.settings, r.results FROM validation_runs r JOIN cohort_versions cv ON cv.id = r.cohort_version_id
+       JOIN cohorts c ON c.id = cv.cohort_id WHERE c.name = $1 AND r.settings->'missingData'->>'method' = 'multiple-imputation'`,
+      [GAPS_COHORT_NAME],
+    );
+    expect(r?.status).toBe('completed');
+    const md = r.results.missingData;
+    expect(md.rowsWithGaps).toBeGreaterThan(0);
+    expect(md.completeCase.leftOut).toBe(md.rowsWithGaps);
+    expect(md.imputed.imputations).toBe(r.settings.missingData.imputations);
+    expect(md.imputed.metrics.map((m: { key: string }) => m.key)).toEqual(
+      expect.arrayContaining(['auc', 'oe', 'calibrationSlope']),
+    );
+  });
+
   it('has a cohort whose Charlson index and prior admissions have gaps that depend on what else was recorded', async () => {
     const [v] = await dataSource.query(
       `SELECT cv.id, cv.row_count, cv.excluded_count, cv.mapping, cv.missingness FROM cohort_versions cv JOIN cohorts c ON c.id = cv.cohort_id WHERE c.name = $1`,

@@ -11,6 +11,7 @@ import { seedRuns } from './seeds/runs';
 import { seedCompetingScore } from './seeds/competingScore';
 import { seedKestrelScore } from './seeds/scenario';
 import { seedSiteRun } from './seeds/siteRun';
+import { seedDemoImputationRun } from './seeds/imputationRun';
 
 export type SeedOutcome = 'seeded' | 'already has data';
 
@@ -40,6 +41,8 @@ export async function seedDemo(): Promise<SeedOutcome> {
   await seedDrift();
   // A run by site with bootstrap replicates on one quarter (seeds/siteRun.ts): after governance and drift, which it leaves alone.
   await seedSiteRun();
+  // Multiple imputation beside the complete cases on the cohort with gaps (seeds/imputationRun.ts).
+  await seedDemoImputationRun();
   await appendAudit({
     action: 'demo.seeded',
     sourceIp: 'seed',

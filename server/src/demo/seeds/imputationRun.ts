@@ -1,4 +1,4 @@
-// A demo run with multiple imputation on the demo cohort's version with gaps (a version whose mapping names
+// A demo run with multiple imputation on the demo cohort with gaps (seeds/gapsCohort.ts): its version (a version whose mapping names
 // predictorsWithGaps), computed like every seeded run by recordRunNow. Idempotent: nothing happens when such a run
 // exists or the demo has no version with gaps. The seed calls it after the cohorts with gaps are stored.
 import { runSettingsSchema } from '@shared/runs';
@@ -6,7 +6,8 @@ import { DEFAULT_IMPUTATION_SEED, DEFAULT_IMPUTATIONS } from '@shared/missingDat
 import { dataSource } from '../../platform/database/dataSource';
 import { recordRunNow } from '../../domain/runs/runQueue';
 import { logger } from '../../platform/observability/log';
-import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from './cohorts';
+import { KESTREL_SCORE_NAME } from './cohorts';
+import { GAPS_COHORT_NAME } from './gapsCohort';
 
 export async function seedDemoImputationRun(): Promise<string | null> {
   const [sv]: { id: string }[] = await dataSource.query(
@@ -18,7 +19,7 @@ export async function seedDemoImputationRun(): Promise<string | null> {
      FROM cohort_versions cv JOIN cohorts c ON c.id = cv.cohort_id
      WHERE c.name = $1 AND CASE WHEN jsonb_typeof(cv.mapping->'predictorsWithGaps') = 'array' THEN jsonb_array_length(cv.mapping->'predictorsWithGaps') ELSE 0 END > 0
      ORDER BY cv.period_start DESC NULLS LAST, cv.version DESC LIMIT 1`,
-    [DEMO_COHORT_NAME],
+    [GAPS_COHORT_NAME],
   );
   if (!sv || !cv) {
     logger.info('[seed] imputation run: no demo cohort version with gaps; skipped');
