@@ -4,12 +4,11 @@ import type { ScoreModel } from './model';
 import type { PeriodKind } from './periods';
 
 /** GET /api/sample-size: anticipated event rate and C, and at least one target 95% CI width; optionally the anticipated
- * O/E and calibration slope, the LP distribution (solved from C, normal, or beta on the risk scale) and the
- * net-benefit inputs (threshold, sensitivity, specificity). */
+ * O/E and calibration slope, the LP distribution (solved from C, normal, beta on the risk scale, or the predicted
+ * risks a completed run stored for its cohort) and the net-benefit inputs (threshold, sensitivity, specificity). */
 const open01 = z.coerce.number().gt(0).lt(1);
-export const SAMPLE_SIZE_LP_KINDS = ['fromC', 'normal', 'beta'] as const;
-/** 'cohort' (a cohort's predicted risks) is computed by the engine (stats/sampleSize.ts) but not yet offered by the API */
-export type SampleSizeLpKind = (typeof SAMPLE_SIZE_LP_KINDS)[number] | 'cohort';
+export const SAMPLE_SIZE_LP_KINDS = ['fromC', 'normal', 'beta', 'cohort'] as const;
+export type SampleSizeLpKind = (typeof SAMPLE_SIZE_LP_KINDS)[number];
 export const sampleSizeQuery = z
   .object({
     eventRate: open01,
@@ -25,6 +24,8 @@ export const sampleSizeQuery = z
     lpSd: z.coerce.number().gt(0).lt(10).optional(),
     betaA: z.coerce.number().gt(0).lt(1000).optional(),
     betaB: z.coerce.number().gt(0).lt(1000).optional(),
+    /** lpDistribution 'cohort': a completed run whose stored predicted risks give the LP distribution */
+    runId: z.string().uuid().optional(),
     threshold: open01.optional(),
     sensitivity: open01.optional(),
     specificity: open01.optional(),
@@ -44,6 +45,10 @@ export const sampleSizeQuery = z
   .refine((q) => q.lpDistribution !== 'beta' || (q.betaA !== undefined && q.betaB !== undefined), {
     message: 'a beta distribution needs betaA and betaB',
     path: ['betaA'],
+  })
+  .refine((q) => q.lpDistribution !== 'cohort' || q.runId !== undefined, {
+    message: "the 'cohort' LP distribution needs runId (a completed run)",
+    path: ['runId'],
   })
   .refine(
     (q) =>

@@ -1,5 +1,6 @@
 // Drift API (so far: the sample-size planner) — roles and the Riley et al. (2021) numbers through HTTP.
 import { execFileSync } from 'node:child_process';
+import { randomUUID } from 'node:crypto';
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -11,6 +12,7 @@ import { runSettingsSchema } from '@shared/runs';
 import { evaluateAlertsForRun, evaluateAlertsForVersion } from '../../server/src/domain/drift/alerts';
 import { fitsMadeHere } from '../../server/src/domain/drift/recalibrationFit';
 import { processNextRun, recordRunNow } from '../../server/src/domain/runs/runQueue';
+import { planSampleSize } from '../../server/src/stats/sampleSize';
 import { app, bearer, dataSource, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
 import {
   createCohortFixture,
@@ -58,6 +60,35 @@ describe('GET /api/sample-size', () => {
     expect(slopeOf(normal.body)).not.toBe(slopeOf(beta.body));
   });
 
+  it("takes the LP distribution from a completed run's stored predicted risks", async () => {
+    const score = await createScoreFixture({ name: `Planner fixture ${Date.now()}` });
+    const rows = kestrelRows(800, 303);
+    const cohort = await createCohortFixture(rows, { label: 'Planner cohort' });
+    const runId = await recordRunNow(null, score.scoreVersionId, cohort.cohortVersionId, runSettingsSchema.parse({}));
+    const res = await request(app)
+      .get(
+        `/api/sample-size?eventRate=0.1&auc=0.75&ciWidthSlope=0.3&anticipatedSlope=0.9&lpDistribution=cohort&runId=${runId}`,
+      )
+      .set(bearer(await tokenFor('statistician')));
+    expect(res.status).toBe(200);
+    expect(res.body.lpDistribution).toMatchObject({ kind: 'cohort', patients: 800, slope: 0.9 });
+    // the same plan from the fixture formula evaluated here (test-side arithmetic, not the server's applyModel)
+    const risks = Float64Array.from(rows, (r) => expit(lpOf(FIXTURE_MODEL, r)));
+    const expected = planSampleSize({
+      eventRate: 0.1,
+      auc: 0.75,
+      ciWidthSlope: 0.3,
+      anticipatedSlope: 0.9,
+      lpDistribution: 'cohort',
+      risks,
+    });
+    expect(res.body.criteria[0].n).toBe(expected.criteria[0].n);
+    const missing = await request(app)
+      .get(`/api/sample-size?eventRate=0.1&auc=0.75&ciWidthSlope=0.3&lpDistribution=cohort&runId=${randomUUID()}`)
+      .set(bearer(await tokenFor('statistician')));
+    expect(missing.status).toBe(404);
+  }, 120_000);
+
   it.each([
     ['lpDistribution=normal&lpMean=-2', /lpSd/],
     ['lpDistribution=beta&betaA=1', /betaA/],
@@ -67,6 +98,8 @@ describe('GET /api/sample-size', () => {
     ['ciWidthNb=0.2&threshold=1&sensitivity=0.8&specificity=0.7', /threshold/],
     ['anticipatedSlope=0', /anticipatedSlope/],
     ['anticipatedOE=-1', /anticipatedOE/],
+    ['lpDistribution=cohort', /runId/],
+    ['lpDistribution=cohort&runId=not-a-run', /runId/],
   ])('refuses %s with 400 naming the field', async (extra, field) => {
     const res = await request(app)
       .get(`/api/sample-size?eventRate=0.1&auc=0.75&ciWidthSlope=0.3&${extra}`)
