@@ -10,11 +10,28 @@ import { formatCount } from '@shared/format';
 import { planSampleSize as enginePlan } from '../../server/src/stats/sampleSize';
 
 const calls: SampleSizeQuery[] = [];
+// a stored run's predicted risks, as the server would read them for lpDistribution 'cohort' (invented)
+const RUN_RISKS = Float64Array.from({ length: 400 }, (_, i) => 0.02 + (0.5 * i) / 400);
 vi.mock('@/api/drift', () => ({
   planSampleSize: vi.fn(async (q: SampleSizeQuery) => {
     calls.push(q);
-    return enginePlan(q);
+    return enginePlan({ ...q, risks: q.lpDistribution === 'cohort' ? RUN_RISKS : undefined });
   }),
+}));
+vi.mock('@/api/runs', () => ({
+  listRuns: vi.fn(async () => ({
+    total: 1,
+    runs: [
+      {
+        id: '6f1c2b7e-4a0d-4c4e-9a51-2f6d0c8b9e11',
+        scoreName: 'Kestrel fixture score',
+        scoreVersion: 2,
+        cohortName: 'Wards A–C',
+        cohortVersion: 1,
+        cohortLabel: '2026 Q1',
+      },
+    ],
+  })),
 }));
 
 import SampleSizePlannerView from '@/views/SampleSizePlannerView.vue';
@@ -88,6 +105,27 @@ describe('SampleSizePlannerView', () => {
     expect(marked[0].find('td').text()).toBe(label(plan.largest!.criterion));
     expect(w.find('[data-testid="sample-size-largest"]').text()).toContain(formatCount(plan.largest!.n));
     expect(w.find('[data-test="lp-distribution"]').text()).toMatch(/Beta\(a 1\.000, b 9\.000\)/);
+    w.unmount();
+  });
+});
+
+describe('SampleSizePlannerView with a stored cohort', () => {
+  it("offers completed runs and sends the chosen run for the cohort's predicted risks", async () => {
+    const w = await mountPage();
+    await flushPromises();
+    calls.length = 0;
+    w.findAllComponents({ name: 'VSelect' })[0].vm.$emit('update:modelValue', 'cohort');
+    await flushPromises();
+    const runSelect = w.findAllComponents({ name: 'VSelect' })[1];
+    expect(runSelect.props('items')).toEqual([
+      { value: '6f1c2b7e-4a0d-4c4e-9a51-2f6d0c8b9e11', title: 'Kestrel fixture score v2 on Wards A–C v1 (2026 Q1)' },
+    ]);
+    runSelect.vm.$emit('update:modelValue', '6f1c2b7e-4a0d-4c4e-9a51-2f6d0c8b9e11');
+    await flushPromises();
+    await w.find('form').trigger('submit');
+    await flushPromises();
+    expect(calls[0]).toMatchObject({ lpDistribution: 'cohort', runId: '6f1c2b7e-4a0d-4c4e-9a51-2f6d0c8b9e11' });
+    expect(w.find('[data-test="lp-distribution"]').text()).toMatch(/the predicted risks of 400 patients/);
     w.unmount();
   });
 });
