@@ -7,7 +7,10 @@ import { invalid, notFound } from '../errors';
 import { readDriftSeries } from './driftSeries';
 
 export async function predictedRisksOfRun(runId: string): Promise<Float64Array> {
-  const rows = await mainQuery('SELECT score_version_id, cohort_version_id, status FROM validation_runs WHERE id = $1', [runId]);
+  const rows = await mainQuery(
+    'SELECT score_version_id, cohort_version_id, status FROM validation_runs WHERE id = $1',
+    [runId],
+  );
   if (!rows.length) throw notFound('run');
   const { score_version_id: sv, cohort_version_id: cv, status } = rows[0] as Record<string, string>;
   if (status !== 'completed') throw invalid('the run has not completed, so its predicted risks are not stored');
