@@ -3,18 +3,59 @@ import type { Estimate } from './validation';
 import type { ScoreModel } from './model';
 import type { PeriodKind } from './periods';
 
-/** GET /api/sample-size: anticipated event rate and C, and at least one target 95% CI width. */
+/** GET /api/sample-size: anticipated event rate and C, and at least one target 95% CI width; optionally the anticipated
+ * O/E and calibration slope, the LP distribution (solved from C, normal, beta on the risk scale, or the predicted
+ * risks a completed run stored for its cohort) and the net-benefit inputs (threshold, sensitivity, specificity). */
+const open01 = z.coerce.number().gt(0).lt(1);
+export const SAMPLE_SIZE_LP_KINDS = ['fromC', 'normal', 'beta', 'cohort'] as const;
+export type SampleSizeLpKind = (typeof SAMPLE_SIZE_LP_KINDS)[number];
 export const sampleSizeQuery = z
   .object({
-    eventRate: z.coerce.number().gt(0).lt(1),
+    eventRate: open01,
     auc: z.coerce.number().gt(0.5).lt(1),
-    ciWidthAuc: z.coerce.number().gt(0).lt(1).optional(),
+    ciWidthAuc: open01.optional(),
     ciWidthOE: z.coerce.number().gt(0).lt(10).optional(),
     ciWidthSlope: z.coerce.number().gt(0).lt(5).optional(),
+    ciWidthNb: z.coerce.number().gt(0).lt(4).optional(),
+    anticipatedOE: z.coerce.number().gt(0).lt(10).optional(),
+    anticipatedSlope: z.coerce.number().gt(0).lt(5).optional(),
+    lpDistribution: z.enum(SAMPLE_SIZE_LP_KINDS).optional(),
+    lpMean: z.coerce.number().gt(-20).lt(20).optional(),
+    lpSd: z.coerce.number().gt(0).lt(10).optional(),
+    betaA: z.coerce.number().gt(0).lt(1000).optional(),
+    betaB: z.coerce.number().gt(0).lt(1000).optional(),
+    /** lpDistribution 'cohort': a completed run whose stored predicted risks give the LP distribution */
+    runId: z.string().uuid().optional(),
+    threshold: open01.optional(),
+    sensitivity: open01.optional(),
+    specificity: open01.optional(),
   })
-  .refine((q) => q.ciWidthAuc !== undefined || q.ciWidthOE !== undefined || q.ciWidthSlope !== undefined, {
-    message: 'give at least one of ciWidthAuc, ciWidthOE, ciWidthSlope',
-  });
+  .refine(
+    (q) =>
+      q.ciWidthAuc !== undefined ||
+      q.ciWidthOE !== undefined ||
+      q.ciWidthSlope !== undefined ||
+      q.ciWidthNb !== undefined,
+    { message: 'give at least one of ciWidthAuc, ciWidthOE, ciWidthSlope, ciWidthNb' },
+  )
+  .refine((q) => q.lpDistribution !== 'normal' || (q.lpMean !== undefined && q.lpSd !== undefined), {
+    message: 'a normal LP distribution needs lpMean and lpSd',
+    path: ['lpSd'],
+  })
+  .refine((q) => q.lpDistribution !== 'beta' || (q.betaA !== undefined && q.betaB !== undefined), {
+    message: 'a beta distribution needs betaA and betaB',
+    path: ['betaA'],
+  })
+  .refine((q) => q.lpDistribution !== 'cohort' || q.runId !== undefined, {
+    message: "the 'cohort' LP distribution needs runId (a completed run)",
+    path: ['runId'],
+  })
+  .refine(
+    (q) =>
+      q.ciWidthNb === undefined ||
+      (q.threshold !== undefined && q.sensitivity !== undefined && q.specificity !== undefined),
+    { message: 'the net-benefit criterion needs threshold, sensitivity and specificity', path: ['ciWidthNb'] },
+  );
 export type SampleSizeQuery = z.infer<typeof sampleSizeQuery>;
 
 // ---------- Drift timeline, alerts, alert rules and recalibration (see the drift API contract) ----------
@@ -208,7 +249,7 @@ export const RECALIBRATION_BANNER =
 
 /** The sample-size planner's answer (server/src/stats/sampleSize.ts; Riley et al. 2021, Stat Med 40:4230–4251). */
 export interface SampleSizeCriterion {
-  criterion: 'oe' | 'auc' | 'slope';
+  criterion: 'oe' | 'auc' | 'slope' | 'netBenefit';
   ciWidth: number;
   targetSe: number;
   n: number;
@@ -218,7 +259,19 @@ export interface SampleSizeCriterion {
 export interface SampleSizePlan {
   eventRate: number;
   auc: number;
+  anticipatedOE: number;
+  anticipatedSlope: number;
   criteria: SampleSizeCriterion[];
   largest: SampleSizeCriterion | null;
-  lpDistribution?: { mean: number; sd: number };
+  /** the LP distribution the slope criterion integrated over, and the true-risk intercept and slope used */
+  lpDistribution?: {
+    kind: SampleSizeLpKind;
+    mean?: number;
+    sd?: number;
+    a?: number;
+    b?: number;
+    patients?: number;
+    intercept: number;
+    slope: number;
+  };
 }

@@ -1,5 +1,6 @@
 // Drift API (so far: the sample-size planner) — roles and the Riley et al. (2021) numbers through HTTP.
 import { execFileSync } from 'node:child_process';
+import { randomUUID } from 'node:crypto';
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -11,6 +12,7 @@ import { runSettingsSchema } from '@shared/runs';
 import { evaluateAlertsForRun, evaluateAlertsForVersion } from '../../server/src/domain/drift/alerts';
 import { fitsMadeHere } from '../../server/src/domain/drift/recalibrationFit';
 import { processNextRun, recordRunNow } from '../../server/src/domain/runs/runQueue';
+import { planSampleSize } from '../../server/src/stats/sampleSize';
 import { app, bearer, dataSource, refusedTwice, tokenFor, useDatabase } from '../helpers/api';
 import {
   createCohortFixture,
@@ -31,6 +33,79 @@ describe('GET /api/sample-size', () => {
     const auc = res.body.criteria.find((c: { criterion: string }) => c.criterion === 'auc');
     expect(auc.n).toBe(4252); // docs/references.md [ref], Riley et al. 2021: φ = 0.018, C = 0.8, width 0.1
     expect(res.body.largest.criterion).toBe('auc');
+  });
+
+  it('takes the anticipated O/E and slope, a normal or beta LP distribution and the net-benefit inputs', async () => {
+    const token = await tokenFor('statistician');
+    const q =
+      'eventRate=0.1&auc=0.75&ciWidthOE=0.3&ciWidthSlope=0.3&ciWidthNb=0.2&anticipatedOE=1.1&anticipatedSlope=0.9' +
+      '&threshold=0.1&sensitivity=0.75&specificity=0.7';
+    const beta = await request(app).get(`/api/sample-size?${q}&lpDistribution=beta&betaA=1&betaB=9`).set(bearer(token));
+    expect(beta.status).toBe(200);
+    expect(beta.body.criteria.map((c: { criterion: string }) => c.criterion)).toEqual(['oe', 'slope', 'netBenefit']);
+    expect(beta.body.lpDistribution).toMatchObject({ kind: 'beta', a: 1, b: 9, slope: 0.9 });
+    expect(beta.body.anticipatedOE).toBe(1.1);
+    const nb = beta.body.criteria.find((c: { criterion: string }) => c.criterion === 'netBenefit');
+    // n·Var(sNB) = sens(1−sens)/φ + w²·spec(1−spec)/(1−φ) + w²(1−spec)²/(φ(1−φ)), w = (1−φ)/φ·t/(1−t) (Riley et al. 2021 [mem])
+    const w = 9 * (0.1 / 0.9);
+    const v = (0.75 * 0.25) / 0.1 + (w * w * 0.7 * 0.3) / 0.9 + (w * w * 0.09) / (0.1 * 0.9);
+    expect(nb.n).toBe(Math.ceil(v / (0.2 / 3.919927969080108) ** 2));
+    const normal = await request(app)
+      .get(`/api/sample-size?${q}&lpDistribution=normal&lpMean=-2.5&lpSd=1`)
+      .set(bearer(token));
+    expect(normal.status).toBe(200);
+    expect(normal.body.lpDistribution).toMatchObject({ kind: 'normal', mean: -2.5, sd: 1 });
+    const slopeOf = (b: { criteria: { criterion: string; n: number }[] }) =>
+      b.criteria.find((c) => c.criterion === 'slope')!.n;
+    expect(slopeOf(normal.body)).not.toBe(slopeOf(beta.body));
+  });
+
+  it("takes the LP distribution from a completed run's stored predicted risks", async () => {
+    const score = await createScoreFixture({ name: `Planner fixture ${Date.now()}` });
+    const rows = kestrelRows(800, 303);
+    const cohort = await createCohortFixture(rows, { label: 'Planner cohort' });
+    const runId = await recordRunNow(null, score.scoreVersionId, cohort.cohortVersionId, runSettingsSchema.parse({}));
+    const res = await request(app)
+      .get(
+        `/api/sample-size?eventRate=0.1&auc=0.75&ciWidthSlope=0.3&anticipatedSlope=0.9&lpDistribution=cohort&runId=${runId}`,
+      )
+      .set(bearer(await tokenFor('statistician')));
+    expect(res.status).toBe(200);
+    expect(res.body.lpDistribution).toMatchObject({ kind: 'cohort', patients: 800, slope: 0.9 });
+    // the same plan from the fixture formula evaluated here (test-side arithmetic, not the server's applyModel)
+    const risks = Float64Array.from(rows, (r) => expit(lpOf(FIXTURE_MODEL, r)));
+    const expected = planSampleSize({
+      eventRate: 0.1,
+      auc: 0.75,
+      ciWidthSlope: 0.3,
+      anticipatedSlope: 0.9,
+      lpDistribution: 'cohort',
+      risks,
+    });
+    expect(res.body.criteria[0].n).toBe(expected.criteria[0].n);
+    const missing = await request(app)
+      .get(`/api/sample-size?eventRate=0.1&auc=0.75&ciWidthSlope=0.3&lpDistribution=cohort&runId=${randomUUID()}`)
+      .set(bearer(await tokenFor('statistician')));
+    expect(missing.status).toBe(404);
+  }, 120_000);
+
+  it.each([
+    ['lpDistribution=normal&lpMean=-2', /lpSd/],
+    ['lpDistribution=beta&betaA=1', /betaA/],
+    ['lpDistribution=weibull', /lpDistribution/],
+    ['lpDistribution=normal&lpMean=-2&lpSd=0', /lpSd/],
+    ['ciWidthNb=0.2&threshold=0.1&sensitivity=0.8', /ciWidthNb/],
+    ['ciWidthNb=0.2&threshold=1&sensitivity=0.8&specificity=0.7', /threshold/],
+    ['anticipatedSlope=0', /anticipatedSlope/],
+    ['anticipatedOE=-1', /anticipatedOE/],
+    ['lpDistribution=cohort', /runId/],
+    ['lpDistribution=cohort&runId=not-a-run', /runId/],
+  ])('refuses %s with 400 naming the field', async (extra, field) => {
+    const res = await request(app)
+      .get(`/api/sample-size?eventRate=0.1&auc=0.75&ciWidthSlope=0.3&${extra}`)
+      .set(bearer(await tokenFor('statistician')));
+    expect(res.status).toBe(400);
+    expect(JSON.stringify(res.body)).toMatch(field);
   });
 
   it('refuses clinicians and anonymous callers, and bad input', async () => {

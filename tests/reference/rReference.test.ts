@@ -86,7 +86,7 @@ describe.skipIf(skipR)('R loess (span 0.75, degree 2, gaussian, surface = "direc
 
 describe.skipIf(skipR)('Hosmer–Lemeshow on MASS::birthwt', () => {
   const d = runR(
-    `suppressMessages(library(MASS)); ${json}; f <- glm(low ~ age + lwt + factor(race) + smoke + ptl + ht + ui, family = binomial, data = birthwt); toJ(list(p = unname(fitted(f)), y = birthwt$low, ll = as.numeric(logLik(f))))`,
+    `suppressMessages(library(MASS)); ${json}; f <- glm(low ~ age + lwt + factor(race) + smoke + ptl + ht + ui, family = binomial, data = birthwt); toJ(list(p = unname(fitted(f)), y = birthwt$low, ll = as.numeric(logLik(f)), pG = pchisq(9.6525, 10, lower.tail = FALSE)))`,
   );
   const s = sortCohort(Float64Array.from(d.p), Uint8Array.from(d.y));
 
@@ -95,14 +95,20 @@ describe.skipIf(skipR)('Hosmer–Lemeshow on MASS::birthwt', () => {
     expect(s.events).toBe(59);
     expect(d.ll).toBeCloseTo(-100.7135, 4); // docs/references.md [ref]
   });
+  // the model is fitted on birthwt itself, so the reference is on G − 2 df (fit: 'development')
   it('10 groups, quantile type 2, ties together: 9.6525 on 8 df', () => {
-    const hl = hosmerLemeshow(s, 10, 'quantile-type2');
+    const hl = hosmerLemeshow(s, 10, 'quantile-type2', 'development');
     expect(hl.statistic).toBeCloseTo(9.6525, 4); // docs/references.md [ref]
     expect(hl.df).toBe(8);
     expect(hl.pValue).toBeCloseTo(0.2903, 4); // docs/references.md [ref]
   });
+  it('the same statistic on G = 10 df, as for external validation, matches R pchisq', () => {
+    const hl = hosmerLemeshow(s, 10, 'quantile-type2');
+    expect(hl.df).toBe(10);
+    expect(hl.pValue).toBeCloseTo(d.pG, 4); // R pchisq(9.6525, 10, lower.tail = FALSE), run here [ref]
+  });
   it('10 groups, quantile type 7: 10.398', () => {
-    const hl = hosmerLemeshow(s, 10, 'quantile-type7');
+    const hl = hosmerLemeshow(s, 10, 'quantile-type7', 'development');
     expect(hl.statistic).toBeCloseTo(10.398, 3); // docs/references.md [ref]
     expect(hl.pValue).toBeCloseTo(0.238, 3); // docs/references.md [ref]
   });

@@ -14,7 +14,14 @@
 //      With 400 cohorts the SD itself is known to about ±3.5% (1/√(2·399)), with 200 to about ±5%, so a wrong SE formula
 //      fails. The n = 17,449 case gets 200 cohorts to keep the R part of this file near 12 s.
 import { describe, expect, it } from 'vitest';
-import { anticipatedLpDistribution, planSampleSize, slopeInformation } from '../../server/src/stats/sampleSize';
+import {
+  anticipatedLpDistribution,
+  betaGrid,
+  gridInformation,
+  normalGrid,
+  planSampleSize,
+  slopeInformation,
+} from '../../server/src/stats/sampleSize';
 import { relErr, runR, skipR } from './tools';
 
 const R_INTEGRALS = `
@@ -72,4 +79,42 @@ describe.skipIf(skipR)('slope sample size: the SE it promises, by simulation wit
       expect(Math.abs(r.mean - 1)).toBeLessThan(4 * (r.sd / Math.sqrt(reps)) + 0.02);
     },
   );
+});
+
+// The LP distribution given by the user (normal on the LP scale, or beta on the risk scale) and an anticipated
+// calibration slope β ≠ 1: the true risk is expit(α + β·LP) with α solved so the mean true risk is the event rate.
+// R solves α with uniroot() and integrates I_ab with integrate() on its own (for beta: over p in (0, 1) with dbeta).
+const R_GIVEN = `
+a <- commandArgs(TRUE); kind <- a[1]; v <- as.numeric(a[-1]); p1 <- v[1]; p2 <- v[2]; beta <- v[3]; phi <- v[4]; se <- v[5]
+int <- if (kind == "normal") function(g) integrate(function(x) dnorm(x, p1, p2) * g(x), -Inf, Inf, rel.tol = 1e-12, subdivisions = 2000L)$value else function(g) integrate(function(p) dbeta(p, p1, p2) * g(qlogis(p)), 0, 1, rel.tol = 1e-12, subdivisions = 2000L)$value
+alpha <- uniroot(function(al) int(function(x) plogis(al + beta * x)) - phi, c(-30, 30), tol = 1e-13)$root
+w <- function(x) { q <- plogis(alpha + beta * x); q * (1 - q) }
+i00 <- int(function(x) w(x)); i01 <- int(function(x) x * w(x)); i11 <- int(function(x) x^2 * w(x))
+cat(sprintf('{"alpha":%.17g,"i00":%.17g,"i01":%.17g,"i11":%.17g,"n":%.17g}\\n', alpha, i00, i01, i11, i00 / (se^2 * (i00 * i11 - i01^2))))`;
+
+describe.skipIf(skipR)('slope sample size with a given LP distribution and anticipated slope, by R integrate()', () => {
+  it.each([
+    ['normal', -1.5, 1, 0.8, 0.2, 0.3], // LP ~ Normal(−1.5, 1), β = 0.8
+    ['normal', -3, 1.4, 1.2, 0.05, 0.2], // LP ~ Normal(−3, 1.4), β = 1.2
+    ['beta', 2, 8, 0.9, 0.2, 0.3], // risk ~ Beta(2, 8), β = 0.9
+    ['beta', 0.7, 6, 1.1, 0.1, 0.25], // risk ~ Beta(0.7, 6): density unbounded at 0, β = 1.1
+  ] as const)('%s(%s, %s), slope %s, event rate %s, width %s', (kind, p1, p2, slope, eventRate, ciWidthSlope) => {
+    const plan = planSampleSize({
+      eventRate,
+      auc: 0.75,
+      ciWidthSlope,
+      anticipatedSlope: slope,
+      lpDistribution: kind,
+      ...(kind === 'normal' ? { lpMean: p1, lpSd: p2 } : { betaA: p1, betaB: p2 }),
+    });
+    const se = ciWidthSlope / (2 * 1.959963984540054);
+    const r = runR(R_GIVEN, kind, String(p1), String(p2), String(slope), String(eventRate), String(se));
+    const g = kind === 'normal' ? normalGrid(p1, p2) : betaGrid(p1, p2);
+    const ours = gridInformation(g, plan.lpDistribution!.intercept, slope);
+    expect(Math.abs(plan.lpDistribution!.intercept - r.alpha)).toBeLessThan(1e-6); // R uniroot() [ref]
+    expect(relErr(ours.i00, r.i00)).toBeLessThan(1e-6); // R integrate() [ref]
+    expect(relErr(ours.i01, r.i01)).toBeLessThan(1e-6); // R integrate() [ref]
+    expect(relErr(ours.i11, r.i11)).toBeLessThan(1e-6); // R integrate() [ref]
+    expect(Math.abs(plan.criteria[0].n - Math.ceil(r.n))).toBeLessThanOrEqual(1); // R integrate() [ref], rounded up
+  });
 });

@@ -23,7 +23,8 @@ import { thresholdTable } from './thresholdTable';
 
 // 1.1.0: standardised net benefit in every net-benefit row and its bootstrap interval.
 // 1.2.0: each subgroup and site level carries its smoothed calibration curve (groupPerformance.ts); with no more
-// distinct risks than groups, Hosmer–Lemeshow and the grouped curve make one group per distinct risk (riskGroups.ts).
+// distinct risks than groups, Hosmer–Lemeshow and the grouped curve make one group per distinct risk (riskGroups.ts);
+// Hosmer–Lemeshow is referred to χ² on G df (external validation), no longer G − 2 (hosmerLemeshow.ts).
 // 1.2.0 also: runs on cohorts with gaps carry missingData (complete cases beside pooled multiple imputation).
 export const ENGINE_VERSION = '1.2.0';
 
@@ -81,7 +82,7 @@ export function computeFullSet(p: Float64Array, y: Uint8Array, settings: Validat
   const oe = observedExpected(p, y);
   const rule = settings.hosmerLemeshowRule ?? 'quantile-type2';
   const hl = hosmerLemeshow(sorted, settings.hosmerLemeshowGroups, rule);
-  if (hl.df <= 0) warnings.push(`Hosmer–Lemeshow: only ${hl.groups} distinct risk groups, so no p-value.`);
+  if (hl.groups < 2) warnings.push(`Hosmer–Lemeshow: only ${hl.groups} distinct risk group, so no p-value.`);
   const sp = spiegelhalter(p, y);
   if (Number.isNaN(sp.z)) warnings.push('Spiegelhalter z is not defined: every predicted risk is 0, ½ or 1.');
   const curve = loessCurve(sorted, {

@@ -24,9 +24,10 @@ describe('Hosmer–Lemeshow with few distinct risks', () => {
     const byHand = 4 / (5 * 0.9) + 4 / (12 * 0.7) + 4 / (18 * 0.4);
     expect(hl.groups).toBe(3);
     expect(hl.statistic).toBeCloseTo(byHand, 12);
-    expect(hl.df).toBe(1);
+    expect(hl.df).toBe(3); // external validation: df = G
     expect(hl.pValue).toBeGreaterThan(0);
     expect(hl.pValue).toBeLessThan(1);
+    expect(hosmerLemeshow(sortCohort(p, y), 10, rule, 'development').df).toBe(1);
   });
 
   it('no longer warns of too few groups, and the grouped calibration curve shows each level', () => {

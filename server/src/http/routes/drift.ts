@@ -15,10 +15,14 @@ import { currentUser, sourceIp } from '../middleware/auth';
 import { driftForVersion } from '../../domain/drift/timeline';
 import { chooseDriftRun } from '../../domain/drift/driftRunChoice';
 import { planSampleSize } from '../../stats/sampleSize';
+import { predictedRisksOfRun } from '../../domain/drift/sampleSizeRisks';
 
 /** The sample-size planner (Riley et al. 2021): required n and events per criterion and the largest. */
 export async function sampleSize(req: Request, res: Response) {
-  res.json(planSampleSize(req.query as unknown as SampleSizeQuery));
+  const q = req.query as unknown as SampleSizeQuery;
+  // the empirical LP distribution: the predicted risks a completed run stored (read, not recomputed, on this thread)
+  const risks = q.lpDistribution === 'cohort' && q.ciWidthSlope ? await predictedRisksOfRun(q.runId!) : undefined;
+  res.json(planSampleSize({ ...q, risks }));
 }
 
 /** Per-period figures with funnel limits, per-patient CUSUM and O − E, and the alerts of one score version. */
