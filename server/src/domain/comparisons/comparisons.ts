@@ -20,6 +20,7 @@ import { compareInThread } from '../../jobs/threads/pool';
 import type { ComparisonAnswer } from '../../jobs/threads/comparisonWorker';
 import type { AuthUser } from '../accounts/actor';
 import { appendAudit } from '../accounts/audit';
+import { freezeScoreVersion } from '../scores/freeze';
 import { cohortColumnNames } from '../cohorts/cohortData';
 import { DomainError, invalid, notFound } from '../errors';
 import { comparisonResultsSha256 } from './comparisonCompute';
@@ -78,24 +79,7 @@ export async function createComparison(
   const resultsSha256 = comparisonResultsSha256(answer.results);
 
   const id = await dataSource.transaction(async (m) => {
-    // A formula is frozen from the moment a result rests on it, as for runs (the score_versions trigger keeps it so).
-    for (const sv of [first, second])
-      if (!sv.locked) {
-        const { affected } = await m.getRepository(ScoreVersion).update({ id: sv.id, locked: false }, { locked: true });
-        if (affected === 1)
-          await appendAudit(
-            {
-              actorId: actor.id,
-              actorEmail: actor.email,
-              action: 'score_version.locked',
-              targetType: 'score_version',
-              targetId: sv.id,
-              sourceIp: ip,
-              details: { reason: 'first score comparison' },
-            },
-            m,
-          );
-      }
+    for (const sv of [first, second]) await freezeScoreVersion(m, sv, actor, ip, 'first score comparison');
     const saved = await m.getRepository(ScoreComparison).save(
       m.getRepository(ScoreComparison).create({
         firstScoreVersionId: first.id,

@@ -25,6 +25,7 @@ import type { AuthUser } from '../accounts/actor';
 import { conflict, invalid, notFound } from '../errors';
 import { runAdequacy } from './adequacy';
 import { appendAudit } from '../accounts/audit';
+import { freezeScoreVersion } from '../scores/freeze';
 import { cohortColumnNames } from '../cohorts/cohortData';
 import { enqueue, JOB } from '../../jobs/queue';
 import { asStored, ENGINE_VERSION, resultsSha256 } from './runCompute';
@@ -65,22 +66,7 @@ export async function createRun(actor: AuthUser, input: CreateRunInput, ip: stri
     if (settings.timeGrouping !== 'none' && !cols.hasDates)
       throw invalid('time grouping needs event dates, and this cohort version has none');
 
-    // The formula is frozen from the moment a run uses it (score_versions trigger keeps it so).
-    if (!sv.locked) {
-      await m.getRepository(ScoreVersion).update({ id: sv.id, locked: false }, { locked: true });
-      await appendAudit(
-        {
-          actorId: actor.id,
-          actorEmail: actor.email,
-          action: 'score_version.locked',
-          targetType: 'score_version',
-          targetId: sv.id,
-          sourceIp: ip,
-          details: { reason: 'first validation run' },
-        },
-        m,
-      );
-    }
+    await freezeScoreVersion(m, sv, actor, ip, 'first validation run');
     const run = await m.getRepository(ValidationRun).save(
       m.getRepository(ValidationRun).create({
         scoreVersionId: sv.id,
