@@ -57,10 +57,30 @@ export interface CohortFixture {
   rows: FixtureRow[];
 }
 
+/** A patient whose predictors may have gaps (null): stored as the upload stores a gap the steward allowed. */
+export interface GapRow {
+  outcome: 0 | 1;
+  eventDate?: string | null;
+  predictors: Record<string, number | string | null>;
+  subgroups?: Record<string, string>;
+}
+
 export async function createCohortFixture(
   rows: FixtureRow[],
   opts: { name?: string; label?: string; periodStart?: string; periodEnd?: string } = {},
 ): Promise<CohortFixture> {
+  return { ...(await storeCohortRows(rows, opts)), rows };
+}
+
+/**
+ * Stores invented rows as one cohort version, through the same block encoding and COPY the upload check uses
+ * (server/src/domain/cohorts/cohortBlocks.ts). A gap (null) is stored as the upload stores one the steward allowed: NaN
+ * in a numeric column, the missing code in a text column, and the column named in the mapping's predictorsWithGaps.
+ */
+export async function storeCohortRows(
+  rows: GapRow[],
+  opts: { name?: string; label?: string; periodStart?: string; periodEnd?: string } = {},
+): Promise<{ cohortId: string; cohortVersionId: string }> {
   const body = JSON.stringify(rows);
   const cohorts: { id: string }[] = await dataSource.query(
     `INSERT INTO cohorts (name, description) VALUES ($1, 'fixture') RETURNING id`,
@@ -69,20 +89,21 @@ export async function createCohortFixture(
   const events = rows.reduce((s, r) => s + r.outcome, 0);
   // As an upload stores them: the blocks first (the database refuses blocks for a version already stored), then the version.
   const id = randomUUID();
-  // The same block encoding and COPY the upload check uses (server/src/domain/cohorts/cohortBlocks.ts).
-  const first = rows[0]?.predictors ?? {};
-  const num = Object.keys(first).filter((k) => typeof first[k] === 'number');
-  const cat = Object.keys(first).filter((k) => typeof first[k] !== 'number');
+  const names = Object.keys(rows[0]?.predictors ?? {});
+  const firstValue = (k: string) => rows.find((r) => r.predictors[k] !== null)?.predictors[k];
+  const num = names.filter((k) => typeof firstValue(k) === 'number');
+  const cat = names.filter((k) => typeof firstValue(k) !== 'number');
   const sub = [...new Set(rows.flatMap((r) => Object.keys(r.subgroups ?? {})))];
+  const gapColumns = names.filter((k) => rows.some((r) => r.predictors[k] === null));
   const text = encodeBlocks(
     id,
     { num, cat, sub },
     rows.map((r, i) => ({
       line: i + 1,
-      outcome: r.outcome as 0 | 1,
+      outcome: r.outcome,
       date: r.eventDate ?? null,
-      num: num.map((k) => Number(r.predictors[k])),
-      cat: cat.map((k) => String(r.predictors[k])),
+      num: num.map((k) => (r.predictors[k] === null ? NaN : Number(r.predictors[k]))),
+      cat: cat.map((k) => (r.predictors[k] === null ? null : String(r.predictors[k]))) as string[],
       sub: sub.map((k) => r.subgroups?.[k] ?? null),
     })),
   );
@@ -96,7 +117,7 @@ export async function createCohortFixture(
   }
   await dataSource.query(
     `INSERT INTO cohort_versions (id, cohort_id, version, label, source_filename, source_sha256, source_bytes, row_count, events, mapping, period_start, period_end)
-     VALUES ($1, $2, 1, $3, 'fixture.csv', $4, $5, $6, $7, '{}'::jsonb, $8, $9)`,
+     VALUES ($1, $2, 1, $3, 'fixture.csv', $4, $5, $6, $7, $8::jsonb, $9, $10)`,
     [
       id,
       cohorts[0].id,
@@ -105,11 +126,12 @@ export async function createCohortFixture(
       Buffer.byteLength(body),
       rows.length,
       events,
+      JSON.stringify(gapColumns.length ? { predictorsWithGaps: gapColumns } : {}),
       opts.periodStart ?? null,
       opts.periodEnd ?? null,
     ],
   );
-  return { cohortId: cohorts[0].id, cohortVersionId: id, rows };
+  return { cohortId: cohorts[0].id, cohortVersionId: id };
 }
 
 /** The engine's seeded PRNG (mulberry32), so fixture cohorts are the same on every run. */
