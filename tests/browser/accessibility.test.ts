@@ -25,6 +25,9 @@ interface Ids {
   cohortId: string;
   /** The demo cohort with gaps: its page shows the missing-value charts and combinations. */
   gapsCohortId: string;
+  /** The demo run with multiple imputation (its Missing data section) and the demo's score comparison. */
+  imputedRunId: string;
+  comparisonId: string;
 }
 let ids: Ids;
 
@@ -43,12 +46,20 @@ const browser = useAppAndBrowser(async () => {
   expect(cohorts.length, 'the demo seed has its cohort').toBe(1);
   const [gaps]: { id: string }[] = await dataSource.query(`SELECT id FROM cohorts WHERE name = $1`, [GAPS_COHORT_NAME]);
   expect(gaps, 'the demo seed has its cohort with gaps').toBeDefined();
+  const [imputed]: { id: string }[] = await dataSource.query(
+    `SELECT id FROM validation_runs WHERE status = 'completed' AND settings->'missingData'->>'method' = 'multiple-imputation' LIMIT 1`,
+  );
+  const [comparison]: { id: string }[] = await dataSource.query('SELECT id FROM score_comparisons LIMIT 1');
+  expect(imputed, 'the demo seed has a run with multiple imputation').toBeDefined();
+  expect(comparison, 'the demo seed has a score comparison').toBeDefined();
   ids = {
     runId: runs[0].id,
     otherRunId: runs[1].id,
     scoreId: runs[0].score_id,
     cohortId: cohorts[0].id,
     gapsCohortId: gaps.id,
+    imputedRunId: imputed.id,
+    comparisonId: comparison.id,
   };
 });
 
@@ -63,6 +74,8 @@ const detailPages = (i: Ids): { path: string; roles: readonly Role[] }[] => [
   { path: `/scores/${i.scoreId}/versions/new`, roles: pageRoles('score-version-new') },
   { path: `/cohorts/${i.cohortId}`, roles: pageRoles('cohort') },
   { path: `/cohorts/${i.gapsCohortId}`, roles: pageRoles('cohort') },
+  { path: `/runs/${i.imputedRunId}`, roles: pageRoles('run') },
+  { path: `/comparisons/${i.comparisonId}`, roles: pageRoles('comparison') },
   { path: '/api-reference', roles: ['admin'] }, // public: one role's visit is enough
 ];
 
