@@ -9,10 +9,10 @@ export function calibrationAxisMax(values: number[]): number {
   return Math.min(1, Math.ceil(m * 1.1 * 20) / 20);
 }
 
-/** The observed = predicted diagonal. */
-export function idealLine(): ChartData<'scatter'>['datasets'][number] {
+/** A dashed diagonal from (0, 0) to (1, 1): the ideal line of a calibration plot, the chance line of an ROC plot. */
+export function diagonalLine(label: string): ChartData<'scatter'>['datasets'][number] {
   return {
-    label: 'Ideal (observed = predicted)',
+    label,
     data: [
       { x: 0, y: 0 },
       { x: 1, y: 1 },
@@ -24,6 +24,9 @@ export function idealLine(): ChartData<'scatter'>['datasets'][number] {
     borderWidth: 1,
   };
 }
+
+/** The observed = predicted diagonal. */
+export const idealLine = () => diagonalLine('Ideal (observed = predicted)');
 
 export function calibrationOptions(axisMax: number, xTitle = 'Predicted risk'): ChartOptions<'scatter'> {
   return {

@@ -2,6 +2,7 @@
 // Used by RocCurveChart (one run) and RunMissingDataCurves (the pooled curve).
 import type { ChartData, ChartOptions } from 'chart.js';
 import { CHART_BASE, CHART_COLOURS } from '@/plugins/charts';
+import { diagonalLine } from './calibrationOptions';
 
 type Dataset = ChartData<'scatter'>['datasets'][number];
 
@@ -19,20 +20,7 @@ export function rocLine(label: string, fpr: readonly number[], tpr: readonly num
 }
 
 /** The diagonal of a score that ranks no better than chance. */
-export function chanceLine(): Dataset {
-  return {
-    label: 'Chance',
-    data: [
-      { x: 0, y: 0 },
-      { x: 1, y: 1 },
-    ],
-    showLine: true,
-    borderColor: CHART_COLOURS.reference,
-    borderDash: [6, 4],
-    pointRadius: 0,
-    borderWidth: 1,
-  };
-}
+export const chanceLine = () => diagonalLine('Chance');
 
 export const rocOptions: ChartOptions<'scatter'> = {
   ...CHART_BASE,
