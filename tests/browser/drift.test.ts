@@ -27,13 +27,15 @@ describe('drift timeline in the browser', () => {
         await page.getByRole('heading', { name: `Drift over time: ${KESTREL_SCORE_NAME} v2` }).waitFor();
         await page.getByRole('note', { name: 'Clinical-use caution' }).first().waitFor();
 
-        // Eight demo quarters → eight rows in the per-period table (common practice, no source: the seed's own design).
+        // Eight demo quarters and the demo's cohort with coding gaps (2026-Q1, run with multiple imputation; its figures
+        // here are its complete cases) → nine rows in the per-period table (the seed's own design).
         const periodRows = page.getByRole('table', { name: 'Patients and events per period' }).locator('tbody tr');
-        await expect.poll(() => periodRows.count()).toBe(8);
+        await expect.poll(() => periodRows.count(), { timeout: 30_000 }).toBe(9);
         // Each point says which run it comes from (one run per cohort version, demo quarters in period order).
         await expect.poll(() => periodRows.first().getByTestId('drift-period-run').innerText()).toMatch(/^run #\d+/);
         expect(await periodRows.first().getByTestId('drift-period-span').innerText()).toBe('2024-Q1');
-        expect(await periodRows.last().getByTestId('drift-period-span').innerText()).toBe('2025-Q4');
+        expect(await periodRows.nth(7).getByTestId('drift-period-span').innerText()).toBe('2025-Q4');
+        expect(await periodRows.last().getByTestId('drift-period-span').innerText()).toBe('2026-Q1');
 
         // Every chart panel draws a canvas: CITL, O/E, AUC, slope, O − E limits, cumulative O − E, CUSUM.
         for (const name of [
@@ -59,11 +61,11 @@ describe('drift timeline in the browser', () => {
         await alertRows.first().waitFor();
         await expect.poll(() => alertRows.first().innerText()).not.toMatch(/No alerts/);
 
-        // The table view of a chart carries the numbers (eight periods again).
+        // The table view of a chart carries the numbers (nine periods again).
         const citlPanel = page.locator('.chart-panel').filter({ hasText: 'Calibration-in-the-large' }).first();
         await citlPanel.getByRole('button', { name: 'Show the numbers as a table' }).click();
-        await expect.poll(() => citlPanel.locator('tbody tr').count()).toBe(8);
-        // The seeded drift (+0.08 logit a quarter, seeds/kestrelData.ts) puts the last quarter's CITL above the first's.
+        await expect.poll(() => citlPanel.locator('tbody tr').count(), { timeout: 30_000 }).toBe(9);
+        // The seeded drift (+0.08 logit a quarter, seeds/kestrelData.ts) puts the last demo quarter's CITL above the first's.
         const citlOf = async (row: number) =>
           Number(await citlPanel.locator('tbody tr').nth(row).locator('td').nth(1).innerText());
         expect(await citlOf(7)).toBeGreaterThan(await citlOf(0));

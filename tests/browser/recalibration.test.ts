@@ -10,7 +10,7 @@ import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import { dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
 import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from '../../server/src/demo/seeds/cohorts';
 import { appUrl } from '../helpers/appServer';
-import { artifactsDir, inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
+import { artifactsDir, inTab, pickFromList, screenshot, useAppAndBrowser } from '../helpers/browser';
 
 const DERIVATION_QUARTER = '2025-Q1';
 const LATER_QUARTER = '2025-Q3';
@@ -119,8 +119,18 @@ describe('propose a recalibrated version, validate it on a later quarter, sign i
       'recalibration-validate',
       async (page) => {
         await page.goto(`${appUrl}/runs/new`);
-        await choose(page, 'Score version', new RegExp(`^${KESTREL_SCORE_NAME} — version ${newVersion}$`));
-        await choose(page, 'Cohort version', new RegExp(`version ${laterCohortVersion} · ${LATER_QUARTER}`));
+        await pickFromList(
+          page,
+          'Score version',
+          KESTREL_SCORE_NAME,
+          new RegExp(`^${KESTREL_SCORE_NAME} — version ${newVersion}$`),
+        );
+        await pickFromList(
+          page,
+          'Cohort version',
+          DEMO_COHORT_NAME,
+          new RegExp(`version ${laterCohortVersion} · ${LATER_QUARTER}`),
+        );
         await page.getByRole('button', { name: 'Queue the run' }).click();
         await page.waitForURL(/\/runs\/[0-9a-f-]{36}$/);
         newRunId = page.url().split('/').pop()!;

@@ -2,21 +2,14 @@
 // competing Wren index on one demo quarter from the comparisons page and reads the summary and both charts; the chair
 // opens the report of the run whose review relied on the demo's comparison and finds its section.
 import 'reflect-metadata';
-import type { Page } from 'playwright-core';
 import { describe, expect, it } from 'vitest';
 import { dataSource, initDatabase } from '../../server/src/platform/database/dataSource';
 import { WREN_SCORE } from '../../server/src/demo/seeds/competingScore';
 import { appUrl } from '../helpers/appServer';
-import { inTab, screenshot, useAppAndBrowser } from '../helpers/browser';
+import { inTab, pickFromList, screenshot, useAppAndBrowser } from '../helpers/browser';
 
 const QUARTER = '2025-Q2';
 let reviewedRunId: string;
-
-/** Vuetify lays its field over the input, hence force. */
-async function choose(page: Page, label: string, option: RegExp): Promise<void> {
-  await page.getByRole('combobox', { name: label }).click({ force: true });
-  await page.getByRole('option', { name: option }).click();
-}
 
 const browser = useAppAndBrowser(async () => {
   await initDatabase(false);
@@ -37,9 +30,15 @@ describe('two scores on the same patients', () => {
       'score-comparison-start',
       async (page) => {
         await page.goto(`${appUrl}/comparisons`);
-        await choose(page, 'First score version', /^Kestrel 30-day Readmission Score — version 1$/);
-        await choose(page, 'Second score version', /^Wren Early Readmission Index — version 1$/);
-        await choose(page, 'Cohort version (the same patients)', new RegExp(QUARTER));
+        // The lists hold every score and cohort version of the registry: type to narrow them, as a person would.
+        await pickFromList(page, 'First score version', 'Kestrel', /^Kestrel 30-day Readmission Score — version 1$/);
+        await pickFromList(page, 'Second score version', 'Wren', /^Wren Early Readmission Index — version 1$/);
+        await pickFromList(
+          page,
+          'Cohort version (the same patients)',
+          QUARTER,
+          new RegExp(`^Fernhollow medical discharges .* · ${QUARTER} `),
+        );
         await page.getByLabel('Bootstrap replicates').fill('50');
         await page.getByRole('button', { name: 'Compare', exact: true }).click();
         await page.waitForURL(/\/comparisons\/[0-9a-f-]{36}$/);

@@ -7,7 +7,7 @@ import { describe, expect, it } from 'vitest';
 import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import { initDatabase } from '../../server/src/platform/database/dataSource';
 import { appUrl } from '../helpers/appServer';
-import { inTab, reviewRun, screenshot, useAppAndBrowser } from '../helpers/browser';
+import { inTab, pickFromList, reviewRun, screenshot, useAppAndBrowser } from '../helpers/browser';
 import { createCohortFixture, createScoreFixture, kestrelRows } from '../helpers/fixtures';
 
 const fixture = fileURLToPath(new URL('../fixtures/kestrel-2026q1.csv', import.meta.url));
@@ -88,8 +88,7 @@ describe('steward → statistician → chair → clinician on a new version of a
 
         // The run form follows the cohort: monthly periods, its subgroup columns (site was not chosen).
         await page.goto(`${appUrl}/runs/new`);
-        await page.locator('.v-select', { hasText: 'Cohort version' }).locator('.v-field').click();
-        await page.getByRole('option', { name: new RegExp(`${cohortName} — version 2`) }).click();
+        await pickFromList(page, 'Cohort version', cohortName, new RegExp(`${cohortName} — version 2`));
         await expect.poll(() => page.locator('.v-select', { hasText: 'Time grouping' }).innerText()).toMatch(/month/);
         const subgroups = page.locator('.v-select', { hasText: 'Subgroups' });
         await expect.poll(() => subgroups.innerText()).toMatch(/age_band[\s\S]*sex[\s\S]*unit/);
@@ -98,8 +97,7 @@ describe('steward → statistician → chair → clinician on a new version of a
         await page.locator('.v-select', { hasText: 'Site column' }).locator('.v-field').click();
         await page.getByRole('option', { name: 'unit', exact: true }).click();
         await expect.poll(() => page.locator('.v-select', { hasText: 'Site column' }).innerText()).toMatch(/unit/);
-        await page.locator('.v-select', { hasText: 'Score version' }).locator('.v-field').click();
-        await page.getByRole('option', { name: new RegExp(scoreName) }).click();
+        await pickFromList(page, 'Score version', scoreName, new RegExp(scoreName));
         // Bootstrap replicates and their seed: intervals for Brier, ICI and net benefit, and the calibration band.
         await page.getByLabel('Bootstrap replicates').fill('50');
         await page.getByLabel('Bootstrap seed').fill('4242');
@@ -251,14 +249,14 @@ describe('a steward uploads a cohort whose predictors have gaps', () => {
         await section.locator('[data-test="missingness-subgroup"] .v-field').click();
         await page.getByRole('option', { name: 'site', exact: true }).click();
         await expect
-          .poll(() => section.locator('[data-test="missingness-by-subgroup"]').innerText())
+          .poll(() => section.locator('[data-test="missingness-by-subgroup"]').innerText(), { timeout: 30_000 })
           .toMatch(/Missing predictors by site/);
         await section
           .locator('[data-test="missingness-by-subgroup"]')
           .getByRole('button', { name: /as a table/ })
           .click();
         await expect
-          .poll(() => section.locator('[data-test="missingness-by-subgroup"] tbody').innerText())
+          .poll(() => section.locator('[data-test="missingness-by-subgroup"] tbody').innerText(), { timeout: 30_000 })
           .toMatch(/North annex/);
         await section.scrollIntoViewIfNeeded();
         await screenshot(page, 'steward-gaps-version');

@@ -142,3 +142,13 @@ export async function signIn(page: Page, email: string, password = DEMO_PASSWORD
   await submitSignIn(page, email, password, baseUrl);
   await page.waitForURL((url) => !url.pathname.startsWith('/sign-in'));
 }
+
+/**
+ * Picks an entry of a searchable list (a Vuetify autocomplete) as a person does with a long list: opens it, types part
+ * of the name to narrow it, and clicks the entry. Vuetify lays its field over the input, hence force.
+ */
+export async function pickFromList(page: Page, label: string, typed: string, option: RegExp): Promise<void> {
+  await page.getByRole('combobox', { name: label }).click({ force: true });
+  await page.keyboard.type(typed);
+  await page.getByRole('option', { name: option }).click();
+}
