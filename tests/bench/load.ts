@@ -9,7 +9,8 @@
 //   errors and the server's event-loop delay.
 //   The processes are children on 127.0.0.1 with the demo seed in the PG* database; each API process's event-loop
 //   delay is measured inside it (tests/bench/eventLoopProbe.mjs). Settings: BENCH_SECONDS (each phase), BENCH_READS_ONLY_SECONDS
-//   (phase 1; 0 skips it), BENCH_CONNECTIONS, BENCH_UPLOADS, BENCH_UPLOAD_ROWS, BENCH_RUNS, BENCH_PORT.
+//   (phase 1; 0 skips it), BENCH_CONNECTIONS, BENCH_UPLOADS, BENCH_UPLOAD_ROWS, BENCH_RUNS, BENCH_PORT,
+//   BENCH_RATE (requests/s offered over both API processes; unset: as fast as the server answers).
 //   Line before the last: `ratio <mixed p95 / reads-only p95>`; last line (the mixed phase): `p95_ms <number> errors <number>`.
 //   Reading the figures: autocannon keeps every connection busy (a closed loop), so the load is "as fast as the
 //   server answers" and mean latency ≈ connections ÷ throughput. Targets: 0 errors, mixed p95 ≤ 100 ms and ≤ 3 × the
@@ -31,6 +32,9 @@ const CONNECTIONS = Number(process.env.BENCH_CONNECTIONS ?? 50);
 const UPLOADS = Number(process.env.BENCH_UPLOADS ?? 5);
 const UPLOAD_ROWS = Number(process.env.BENCH_UPLOAD_ROWS ?? 100_000);
 const RUNS = Number(process.env.BENCH_RUNS ?? 2);
+// A fixed offered rate (autocannon's overallRate, shared over the connections) measures latency at a given load rather
+// than the closed loop's "as fast as it answers", where latency is ≈ connections ÷ throughput.
+const RATE = Number(process.env.BENCH_RATE ?? 0);
 const READS_ONLY_SECONDS = Number(process.env.BENCH_READS_ONLY_SECONDS ?? SECONDS);
 const HARD_LIMIT_MS = (SECONDS + READS_ONLY_SECONDS + 600) * 1000;
 
@@ -259,7 +263,14 @@ async function main() {
           (url, i) =>
             new Promise<autocannon.Result>((resolve, reject) => {
               const instance = autocannon(
-                { url, connections: share(i), duration: seconds, requests: reads, timeout: 10 },
+                {
+                  url,
+                  connections: share(i),
+                  duration: seconds,
+                  requests: reads,
+                  timeout: 10,
+                  ...(RATE > 0 ? { overallRate: Math.max(1, Math.round((RATE * share(i)) / CONNECTIONS)) } : {}),
+                },
                 (err, res) => (err ? reject(err) : resolve(res)),
               );
               instance.on('response', (_c: unknown, _status: number, _bytes: number, ms: number) => latencies.push(ms));
@@ -287,7 +298,9 @@ async function main() {
     };
     type Phase = Awaited<ReturnType<typeof measureReads>>;
     const printPhase = (title: string, ph: Phase) => {
-      console.log(`${title} (${CONNECTIONS} connections, ${ph.seconds} s)`);
+      console.log(
+        `${title} (${CONNECTIONS} connections, ${ph.seconds} s${RATE > 0 ? `, offered ${RATE} req/s` : ', as fast as answered'})`,
+      );
       console.log(`  requests:         ${ph.requests} (${ph.perSecond} req/s average, both API processes)`);
       console.log(`  latency (ms):     p50 ${ph.p50}  p95 ${ph.p95}  p99 ${ph.p99}  max ${ph.max}`);
       console.log(
