@@ -80,8 +80,11 @@ export class ComparisonJobs1765000027000 implements MigrationInterface {
   }
 
   async down(q: QueryRunner): Promise<void> {
-    for (const name of ['comparison', 'comparison-abandoned'])
+    // A queue's jobs refer to it; the comparisons they would compute are deleted below.
+    for (const name of ['comparison', 'comparison-abandoned']) {
+      await q.query(`DELETE FROM ${JOB_SCHEMA}.job WHERE name = $1`, [name]);
       await q.query(`SELECT ${JOB_SCHEMA}.delete_queue($1)`, [name]);
+    }
     await q.query('DROP TRIGGER score_comparisons_guard ON score_comparisons');
     await q.query('DROP FUNCTION plumbline_comparison_guard');
     // Comparisons that never completed had no place in the table before; reviews only name completed ones.
