@@ -11,7 +11,7 @@ import { stopBackgroundServices } from '../../server/src/jobs/background';
 import { processNextRun } from '../../server/src/domain/runs/runQueue';
 import { loadRunInput } from '../../server/src/domain/runs/runInput';
 import { completedDataSets, predictorGaps } from '../../server/src/domain/runs/runMissingData';
-import { app, bearer, tokenFor, useDatabase } from '../helpers/api';
+import { app, bearer, completedRun, tokenFor, useDatabase } from '../helpers/api';
 import { createScoreFixture, FIXTURE_MODEL, type ScoreFixture } from '../helpers/fixtures';
 import { createCohortWithGaps, kestrelRowsWithGaps, type GapRow } from '../helpers/gapsFixture';
 import { relErr, RSCRIPT, runR, writeCsv } from '../reference/tools';
@@ -22,19 +22,8 @@ useDatabase();
 let score: ScoreFixture;
 let cohort: { cohortVersionId: string; gapRows: GapRow[] };
 
-async function startRun(settings: Record<string, unknown>) {
-  const res = await request(app)
-    .post('/api/runs')
-    .set(bearer(await tokenFor('statistician')))
-    .send({ scoreVersionId: score.scoreVersionId, cohortVersionId: cohort.cohortVersionId, settings });
-  expect(res.status, JSON.stringify(res.body)).toBe(201);
-  while (await processNextRun());
-  const got = await request(app)
-    .get(`/api/runs/${res.body.run.id}`)
-    .set(bearer(await tokenFor('statistician')));
-  expect(got.status).toBe(200);
-  return got.body.run as RunDetail;
-}
+const startRun = (settings: Record<string, unknown>) =>
+  completedRun(score.scoreVersionId, cohort.cohortVersionId, settings);
 
 const MI = {
   method: 'multiple-imputation',

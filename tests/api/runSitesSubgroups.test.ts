@@ -11,7 +11,7 @@ import { processNextRun } from '../../server/src/domain/runs/runQueue';
 import { calibrationBand } from '../../server/src/stats/bootstrap';
 import { siteAnalysis, subgroupAnalysis } from '../../server/src/stats/groupPerformance';
 import { applyModel, resolveSettings, validate } from '../../server/src/stats/index';
-import { app, bearer, tokenFor, useDatabase } from '../helpers/api';
+import { app, bearer, completedRun, tokenFor, useDatabase } from '../helpers/api';
 import {
   createCohortFixture,
   createScoreFixture,
@@ -27,19 +27,8 @@ let score: ScoreFixture;
 let cohort: CohortFixture;
 const SITES = ['Harbour', 'Hillside', 'Riverside'];
 
-async function startRun(settings: Record<string, unknown>) {
-  const res = await request(app)
-    .post('/api/runs')
-    .set(bearer(await tokenFor('statistician')))
-    .send({ scoreVersionId: score.scoreVersionId, cohortVersionId: cohort.cohortVersionId, settings });
-  expect(res.status, JSON.stringify(res.body)).toBe(201);
-  while (await processNextRun());
-  const got = await request(app)
-    .get(`/api/runs/${res.body.run.id}`)
-    .set(bearer(await tokenFor('statistician')));
-  expect(got.status).toBe(200);
-  return got.body.run as RunDetail;
-}
+const startRun = (settings: Record<string, unknown>) =>
+  completedRun(score.scoreVersionId, cohort.cohortVersionId, settings);
 
 beforeAll(async () => {
   while (await processNextRun());

@@ -9,7 +9,8 @@
 //   errors and the server's event-loop delay.
 //   The processes are children on 127.0.0.1 with the demo seed in the PG* database; each API process's event-loop
 //   delay is measured inside it (tests/bench/eventLoopProbe.mjs). Settings: BENCH_SECONDS (each phase), BENCH_READS_ONLY_SECONDS
-//   (phase 1; 0 skips it), BENCH_CONNECTIONS, BENCH_UPLOADS, BENCH_UPLOAD_ROWS, BENCH_RUNS, BENCH_PORT.
+//   (phase 1; 0 skips it), BENCH_CONNECTIONS, BENCH_UPLOADS, BENCH_UPLOAD_ROWS, BENCH_RUNS, BENCH_PORT,
+//   BENCH_RATE (requests/s offered over both API processes; unset: as fast as the server answers).
 //   Line before the last: `ratio <mixed p95 / reads-only p95>`; last line (the mixed phase): `p95_ms <number> errors <number>`.
 //   Reading the figures: autocannon keeps every connection busy (a closed loop), so the load is "as fast as the
 //   server answers" and mean latency ≈ connections ÷ throughput. Targets: 0 errors, mixed p95 ≤ 100 ms and ≤ 3 × the
@@ -31,6 +32,10 @@ const CONNECTIONS = Number(process.env.BENCH_CONNECTIONS ?? 50);
 const UPLOADS = Number(process.env.BENCH_UPLOADS ?? 5);
 const UPLOAD_ROWS = Number(process.env.BENCH_UPLOAD_ROWS ?? 100_000);
 const RUNS = Number(process.env.BENCH_RUNS ?? 2);
+// A fixed offered rate measures latency at a given load rather than the closed loop's "as fast as it answers", where
+// latency is ≈ connections ÷ throughput. Requests then leave at even intervals whatever the answers do (an open loop;
+// autocannon's own rate limit sends each second's quota in a burst), each timed from when it was due to leave.
+const RATE = Number(process.env.BENCH_RATE ?? 0);
 const READS_ONLY_SECONDS = Number(process.env.BENCH_READS_ONLY_SECONDS ?? SECONDS);
 const HARD_LIMIT_MS = (SECONDS + READS_ONLY_SECONDS + 600) * 1000;
 
@@ -249,9 +254,65 @@ async function main() {
 
     // One measured phase: autocannon over the reads against each API process at once (half the connections each),
     // every response time kept for the percentiles, each process's event-loop delay over the same interval.
+    /** The percentiles of a phase's response times (ms, one decimal). */
+    const spread = (latencies: number[]) => {
+      latencies.sort((a, b) => a - b);
+      const round = (x: number) => Math.round(x * 10) / 10;
+      return {
+        p50: round(percentile(latencies, 0.5)),
+        p95: round(percentile(latencies, 0.95)),
+        p99: round(percentile(latencies, 0.99)),
+        max: round(latencies[latencies.length - 1] ?? NaN),
+      };
+    };
+    /** The open loop: RATE requests a second at even intervals, round-robin over the reads and the API processes. */
+    const paced = async (seconds: number, latencies: number[]) => {
+      let requests = 0,
+        timeouts = 0,
+        non2xx = 0,
+        connErrors = 0;
+      const pending: Promise<void>[] = [];
+      const start = performance.now();
+      const total = Math.round(RATE * seconds);
+      for (let k = 0; k < total; k++) {
+        const due = start + (k * 1000) / RATE;
+        const wait = due - performance.now();
+        if (wait > 1) await new Promise((r) => setTimeout(r, wait));
+        const read = reads[k % reads.length];
+        pending.push(
+          fetch(`${bases[k % bases.length]}${read.path}`, {
+            headers: read.headers,
+            signal: AbortSignal.timeout(10_000),
+          })
+            .then(async (r) => {
+              await r.arrayBuffer();
+              requests++;
+              if (r.status < 200 || r.status > 299) non2xx++;
+              latencies.push(performance.now() - due);
+            })
+            .catch((e: Error) => {
+              if (e.name === 'TimeoutError') timeouts++;
+              else connErrors++;
+            }),
+        );
+      }
+      await Promise.all(pending);
+      return { requests, perSecond: Math.round(requests / seconds), connErrors, timeouts, non2xx };
+    };
     const measureReads = async (seconds: number) => {
       await Promise.all(apis.map((p) => loopStats(p, 'event-loop:reset')));
       const latencies: number[] = [];
+      if (RATE > 0) {
+        const counts = await paced(seconds, latencies);
+        const loops = await Promise.all(apis.map((p) => loopStats(p, 'event-loop:read')));
+        return {
+          seconds,
+          ...counts,
+          loops,
+          ...spread(latencies),
+          errors: counts.connErrors + counts.timeouts + counts.non2xx,
+        };
+      }
       const share = (i: number) => Math.floor(CONNECTIONS / bases.length) + (i < CONNECTIONS % bases.length ? 1 : 0);
       // The callback form returns the instance (an event emitter) so every response time can be kept for p95.
       const results = await Promise.all(
@@ -259,7 +320,13 @@ async function main() {
           (url, i) =>
             new Promise<autocannon.Result>((resolve, reject) => {
               const instance = autocannon(
-                { url, connections: share(i), duration: seconds, requests: reads, timeout: 10 },
+                {
+                  url,
+                  connections: share(i),
+                  duration: seconds,
+                  requests: reads,
+                  timeout: 10,
+                },
                 (err, res) => (err ? reject(err) : resolve(res)),
               );
               instance.on('response', (_c: unknown, _status: number, _bytes: number, ms: number) => latencies.push(ms));
@@ -267,8 +334,6 @@ async function main() {
         ),
       );
       const loops = await Promise.all(apis.map((p) => loopStats(p, 'event-loop:read')));
-      latencies.sort((a, b) => a - b);
-      const round = (x: number) => Math.round(x * 10) / 10;
       const sum = (f: (r: autocannon.Result) => number) => results.reduce((acc, r) => acc + f(r), 0);
       return {
         seconds,
@@ -278,16 +343,15 @@ async function main() {
         timeouts: sum((r) => r.timeouts),
         non2xx: sum((r) => r.non2xx),
         loops,
-        p50: round(percentile(latencies, 0.5)),
-        p95: round(percentile(latencies, 0.95)),
-        p99: round(percentile(latencies, 0.99)),
-        max: round(latencies[latencies.length - 1] ?? NaN),
+        ...spread(latencies),
         errors: sum((r) => r.errors + r.timeouts + r.non2xx),
       };
     };
     type Phase = Awaited<ReturnType<typeof measureReads>>;
     const printPhase = (title: string, ph: Phase) => {
-      console.log(`${title} (${CONNECTIONS} connections, ${ph.seconds} s)`);
+      console.log(
+        `${title} (${RATE > 0 ? `${RATE} req/s at even intervals` : `${CONNECTIONS} connections, as fast as answered`}, ${ph.seconds} s)`,
+      );
       console.log(`  requests:         ${ph.requests} (${ph.perSecond} req/s average, both API processes)`);
       console.log(`  latency (ms):     p50 ${ph.p50}  p95 ${ph.p95}  p99 ${ph.p99}  max ${ph.max}`);
       console.log(

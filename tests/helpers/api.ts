@@ -3,7 +3,9 @@ import 'reflect-metadata';
 import request from 'supertest';
 import { afterAll, beforeAll, expect } from 'vitest';
 import type { Role } from '@shared/roles';
+import type { RunDetail } from '@shared/runs';
 import { createApp } from '../../server/src/http/app';
+import { processNextRun } from '../../server/src/domain/runs/runQueue';
 import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import type { DataSource } from 'typeorm';
 import {
@@ -75,3 +77,22 @@ export async function countRows(table: string): Promise<number> {
 
 export const uniqueEmail = (prefix: string) =>
   `${prefix}-${Date.now()}-${Math.floor(Math.random() * 1e6)}@example.test`;
+
+/** A run started as the statistician, computed here (API tests start no job workers), read back completed. */
+export async function completedRun(
+  scoreVersionId: string,
+  cohortVersionId: string,
+  settings: Record<string, unknown> = {},
+): Promise<RunDetail> {
+  const res = await request(app)
+    .post('/api/runs')
+    .set(bearer(await tokenFor('statistician')))
+    .send({ scoreVersionId, cohortVersionId, settings });
+  expect(res.status, JSON.stringify(res.body)).toBe(201);
+  while (await processNextRun());
+  const got = await request(app)
+    .get(`/api/runs/${res.body.run.id}`)
+    .set(bearer(await tokenFor('statistician')));
+  expect(got.status).toBe(200);
+  return got.body.run as RunDetail;
+}

@@ -11,6 +11,7 @@ import {
   valueIdentifier,
 } from '../../server/src/domain/cohorts/deidentify';
 import { periodStart } from '../../server/src/domain/cohorts/uploads';
+import { KESTREL_HEADER } from '../../server/src/demo/seeds/kestrelData';
 
 const rows = (n: number, f: (i: number) => string) => Array.from({ length: n }, (_, i) => [f(i)]);
 const refusedCategory = (header: string, values: (i: number) => string, n = 30) =>
@@ -44,19 +45,7 @@ describe('header names', () => {
     expect(refusedCategory(header, () => 'x')).toContain(category);
   });
   it('leaves the demo columns alone', () => {
-    const headers = [
-      'age',
-      'length_of_stay',
-      'prior_admissions',
-      'emergency_admission',
-      'charlson_index',
-      'readmitted_30d',
-      'discharge_date',
-      'sex',
-      'age_band',
-      'unit',
-      'site',
-    ];
+    const headers = KESTREL_HEADER;
     const sample = rows(40, (i) => String(i)).map((_, i) => [
       String(40 + (i % 40)),
       '3',

@@ -19,6 +19,7 @@ import { config } from '../../platform/config';
 import { dataSource } from '../../platform/database/dataSource';
 import { RunComment } from '../../platform/database/entities/RunComment';
 import { RunReview } from '../../platform/database/entities/RunReview';
+import { ScoreComparison } from '../../platform/database/entities/ScoreComparison';
 import { ScoreVersion } from '../../platform/database/entities/ScoreVersion';
 import { Signature } from '../../platform/database/entities/Signature';
 import { User } from '../../platform/database/entities/User';
@@ -63,7 +64,14 @@ async function loadRun(m: EntityManager, runId: string, lock = false): Promise<R
 
 const runTitle = (r: RunRow) => `${r.score_name} v${r.score_version} on ${r.cohort_label}`;
 
-/** What a signature is linked to, hashed (21 CFR 11.70): the run's results, the review, the signer, the meaning, the time. */
+/** The score comparison a review relied on, as a signature seals it (its id and its results hash). */
+export type SealedComparison = { id: string; resultsSha256: string | null } | null;
+
+/**
+ * What a signature is linked to, hashed (21 CFR 11.70): the run's results, the review (and the score comparison it
+ * relied on), the signer, the meaning, the time. A review without a comparison hashes exactly as before comparisons
+ * existed, so older signatures still verify.
+ */
 export function signatureHash(input: {
   runId: string;
   resultsSha256: string | null;
@@ -78,10 +86,24 @@ export function signatureHash(input: {
   role: string;
   signedAt: Date;
   revokesSignatureId: string | null;
+  comparison: SealedComparison;
 }): string {
+  const { comparison, ...record } = input;
+  const sealed = comparison
+    ? { comparisonId: comparison.id, comparisonResultsSha256: comparison.resultsSha256 }
+    : {};
   return createHash('sha256')
-    .update(canonical({ ...input, signedAt: input.signedAt.toISOString() }))
+    .update(canonical({ ...record, ...sealed, signedAt: input.signedAt.toISOString() }))
     .digest('hex');
+}
+
+/** The comparison a review names (id and results hash), read where the signature is made or checked. */
+async function reviewComparison(m: EntityManager, comparisonId: string | null): Promise<SealedComparison> {
+  if (!comparisonId) return null;
+  const c = await m
+    .getRepository(ScoreComparison)
+    .findOne({ select: { id: true, resultsSha256: true }, where: { id: comparisonId } });
+  return { id: comparisonId, resultsSha256: c?.resultsSha256 ?? null };
 }
 
 // ---------- reading ----------
@@ -150,6 +172,8 @@ interface SignatureRow {
   record_sha256: string;
   revokes_signature_id: string | null;
   results_sha256: string | null;
+  comparison_id: string | null;
+  comparison_results_sha256: string | null;
   verdict: ReviewView['verdict'] | null;
   reasoning: string | null;
 }
@@ -157,8 +181,9 @@ interface SignatureRow {
 /** The signature manifest of a run, each with its link to the record re-checked. */
 export async function listSignatures(runId: string, m: EntityManager = dataSource.manager): Promise<SignatureView[]> {
   const rows: SignatureRow[] = await m.query(
-    `SELECT s.*, r.results_sha256, rv.verdict, rv.reasoning
+    `SELECT s.*, r.results_sha256, rv.verdict, rv.reasoning, rv.comparison_id, sc.results_sha256 AS comparison_results_sha256
      FROM signatures s JOIN validation_runs r ON r.id = s.run_id LEFT JOIN run_reviews rv ON rv.id = s.review_id
+     LEFT JOIN score_comparisons sc ON sc.id = rv.comparison_id
      WHERE s.run_id = $1 ORDER BY s.signed_at ASC, s.id`,
     [runId],
   );
@@ -178,6 +203,7 @@ export async function listSignatures(runId: string, m: EntityManager = dataSourc
       role: s.role,
       signedAt,
       revokesSignatureId: s.revokes_signature_id,
+      comparison: s.comparison_id ? { id: s.comparison_id, resultsSha256: s.comparison_results_sha256 } : null,
     });
     return {
       id: s.id,
@@ -413,6 +439,7 @@ export async function signoffRun(
         role: actor.role,
         signedAt,
         revokesSignatureId: null,
+        comparison: await reviewComparison(m, current.comparisonId),
       };
       await m.insert(Signature, {
         id,
@@ -532,6 +559,7 @@ export async function revokeApproval(
         role: actor.role,
         signedAt,
         revokesSignatureId: approval.id,
+        comparison: await reviewComparison(m, review?.comparisonId ?? null),
       };
       await m.insert(Signature, {
         id,
