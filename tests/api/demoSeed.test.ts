@@ -72,7 +72,8 @@ describe('the demo seed', () => {
     const rows: { id: string; status: string; results_sha256: string | null }[] = await dataSource.query(
       `SELECT sc.id, sc.status, sc.results_sha256 FROM score_comparisons sc
          JOIN score_versions sv ON sv.id = sc.second_score_version_id JOIN scores s ON s.id = sv.score_id
-       WHERE s.name = $1`,
+       WHERE s.name = $1 AND EXISTS (SELECT 1 FROM audit_log a WHERE a.target_id = sc.id::text
+         AND a.action = 'comparison.created' AND a.source_ip = 'seed')`,
       [WREN_SCORE.name],
     );
     expect(rows).toHaveLength(1);
