@@ -81,7 +81,9 @@ describe('the OpenAPI document', () => {
     // A comparison is accepted and computed by a job: 202, not 200; its page can be waited on.
     expect(Object.keys(paths['/api/comparisons'].post.responses)).toContain('202');
     expect(Object.keys(paths['/api/comparisons'].post.responses)).not.toContain('200');
-    expect(paths['/api/comparisons/{id}'].get.parameters.map((p) => `${p.in}:${p.name}`)).toContain('query:waitSeconds');
+    expect(paths['/api/comparisons/{id}'].get.parameters.map((p) => `${p.in}:${p.name}`)).toContain(
+      'query:waitSeconds',
+    );
   });
 
   it('is readable without signing in (it describes no data)', async () => {

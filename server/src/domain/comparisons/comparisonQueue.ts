@@ -132,10 +132,7 @@ async function computeClaimed(id: string, compute: ComputeComparison): Promise<v
         })
         .execute();
       if (stored.affected === 1)
-        await appendAudit(
-          { action: 'comparison.completed', targetType: 'score_comparison', targetId: id, details },
-          m,
-        );
+        await appendAudit({ action: 'comparison.completed', targetType: 'score_comparison', targetId: id, details }, m);
       return;
     }
     const reason = answer.inputError ? answer.message : `the comparison could not be computed: ${answer.message}`;

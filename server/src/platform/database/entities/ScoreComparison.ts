@@ -1,9 +1,5 @@
 import { Column, CreateDateColumn, Entity, PrimaryGeneratedColumn } from 'typeorm';
-import type {
-  ScoreComparisonResults,
-  ScoreComparisonSettings,
-  ScoreComparisonStatus,
-} from '@shared/scoreComparison';
+import type { ScoreComparisonResults, ScoreComparisonSettings, ScoreComparisonStatus } from '@shared/scoreComparison';
 
 /**
  * Two score versions on the same patients of one cohort version. Stored queued; its job moves it forward to completed
