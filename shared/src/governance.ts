@@ -1,6 +1,6 @@
 // Review, sign-off, comments and score cards: the request schemas and the shapes both sides read.
 import { z } from 'zod';
-import type { ScoreComparisonDetail } from './scoreComparison';
+import type { CompletedScoreComparison } from './scoreComparison';
 
 export const VERDICTS = ['fit for use', 'recalibrate first', 'not fit for use'] as const;
 export type Verdict = (typeof VERDICTS)[number];
@@ -228,7 +228,7 @@ export interface RunReport {
   reviews: ReviewView[];
   signatures: SignatureView[];
   /** The score comparison a review of this run relied on (the current review's, else the latest naming one). */
-  comparison?: ScoreComparisonDetail | null;
+  comparison?: CompletedScoreComparison | null;
   checklist: ChecklistItem[];
   checklistSource: string;
 }

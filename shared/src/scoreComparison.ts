@@ -46,6 +46,13 @@ export const createScoreComparisonRequest = z
   });
 export type CreateScoreComparisonRequest = z.input<typeof createScoreComparisonRequest>;
 
+/** A comparison is computed by a job: queued, running, then completed (with results) or failed (with its reason). */
+export const SCORE_COMPARISON_STATUSES = ['queued', 'running', 'completed', 'failed'] as const;
+export type ScoreComparisonStatus = (typeof SCORE_COMPARISON_STATUSES)[number];
+
+/** GET /api/comparisons/:id?waitSeconds=N: while it waits or computes, answer when it ends or after N s. */
+export const scoreComparisonQuery = z.object({ waitSeconds: z.coerce.number().int().min(0).max(30).default(0) });
+
 export const scoreComparisonListQuery = z.object({
   scoreVersion: z.uuid().optional(),
   cohortVersion: z.uuid().optional(),
@@ -112,20 +119,41 @@ export interface ScoreComparisonSummary {
   cohortVersionId: string;
   cohortVersion: number;
   cohortLabel: string;
-  engineVersion: string;
+  status: ScoreComparisonStatus;
+  /** 0..1 while it waits or computes; 1 once it ended. */
+  progress: number;
+  /** Why it failed (failed only). */
+  error: string | null;
+  /** Null until completed. */
+  engineVersion: string | null;
   createdBy: string | null;
   createdByName: string | null;
   createdAt: string;
-  /** AUC difference (first − second) and its p-value, for lists. */
-  headline: { n: number; aucDifference: number; pValue: number };
+  /** When it completed or failed. */
+  completedAt: string | null;
+  /** AUC difference (first − second) and its p-value, for lists; null until completed. */
+  headline: { n: number; aucDifference: number; pValue: number } | null;
 }
 
 export interface ScoreComparisonDetail extends ScoreComparisonSummary {
   settings: ScoreComparisonSettings;
+  /** Null until completed (and for a failed one). */
+  results: ScoreComparisonResults | null;
+  inputsSha256: string | null;
+  resultsSha256: string | null;
+}
+
+/** A completed comparison: its results and hashes are there. */
+export type CompletedScoreComparison = ScoreComparisonDetail & {
+  status: 'completed';
   results: ScoreComparisonResults;
+  engineVersion: string;
   inputsSha256: string;
   resultsSha256: string;
-}
+  headline: NonNullable<ScoreComparisonSummary['headline']>;
+};
+export const isCompletedComparison = (c: ScoreComparisonDetail): c is CompletedScoreComparison =>
+  c.status === 'completed' && c.results !== null;
 
 /** "Kestrel v2" — how a compared score version is named in sentences and tables. */
 export const comparedName = (s: ComparedScoreVersion) => `${s.scoreName} v${s.version}`;

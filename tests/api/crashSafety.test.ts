@@ -4,6 +4,7 @@
 //    (pg-boss, once its claim expires) and the file is checked again from the start;
 //  - killed between the check and storing: the checked upload survives whole and is stored once after restart;
 //  - killed in the middle of a validation run: after restart its job is retried once and the run completes, never stuck;
+//  - killed in the middle of a score comparison's bootstrap: the same, for its job;
 //  - afterwards the database passes its integrity checks (row counts per version, audit hash chain).
 // Row count: PLUMBLINE_CRASH_ROWS (default 1,000,000, as the issue asks).
 import { createWriteStream, mkdtempSync, readFileSync, rmSync } from 'node:fs';
@@ -16,6 +17,7 @@ import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 vi.setConfig({ testTimeout: 600_000 });
 import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import { KESTREL_MAPPING } from '../../server/src/demo/seeds/cohorts';
+import { WREN_V1_MODEL } from '../../server/src/demo/seeds/competingScore';
 import { BLOCK_ROWS } from '../../server/src/domain/cohorts/cohortBlocks';
 import { kestrelQuarterCsv } from '../../server/src/demo/seeds/kestrelData';
 import { ServerProcess } from '../helpers/childServer';
@@ -27,6 +29,7 @@ let cluster: ThrowawayCluster;
 let server: ServerProcess;
 const tmp = mkdtempSync(path.join(tmpdir(), 'plumbline-crash-'));
 let scoreVersionId = '';
+let otherScoreVersionId = '';
 const sql = (q: string) => cluster.psql(q);
 const num = (q: string) => Number(sql(q));
 
@@ -84,6 +87,7 @@ const staged = (id: string) =>
 beforeAll(async () => {
   cluster = await createPreparedCluster();
   scoreVersionId = insertFixtureScore(cluster, 'Crash test score');
+  otherScoreVersionId = insertFixtureScore(cluster, 'Crash test competing score', WREN_V1_MODEL);
   server = new ServerProcess(await freePort(3800, 100), {
     ...cluster.env(),
     PLUMBLINE_BCRYPT_COST: '4',
@@ -268,9 +272,67 @@ describe(`SIGKILL in the middle of work (${ROWS.toLocaleString('en')} rows)`, ()
     expect(num(`SELECT count(*) FROM audit_log WHERE target_id = '${runId}' AND action = 'run.completed'`)).toBe(1);
   });
 
+  it('a score comparison: after SIGKILL during its bootstrap and restart its job is retried once and it completes', async () => {
+    expect(cohortVersionId).toMatch(/^[0-9a-f-]{36}$/);
+    const stat = await token('statistician@demo.test');
+    const created = await server.fetchJson('/api/comparisons', {
+      method: 'POST',
+      headers: { ...stat, 'Content-Type': 'application/json' },
+      body: JSON.stringify({
+        firstScoreVersionId: scoreVersionId,
+        secondScoreVersionId: otherScoreVersionId,
+        cohortVersionId,
+        // About 40 replicates at a million rows: a bootstrap of some seconds to kill in, at any row count.
+        settings: { bootstrapReplicates: Math.min(2000, Math.ceil(40_000_000 / ROWS)) },
+      }),
+    });
+    expect(created.status, JSON.stringify(created.body)).toBe(202);
+    const id = String((created.body.comparison as { id: string }).id);
+    const at = () =>
+      sql(`SELECT status || ' ' || round(progress::numeric, 2) FROM score_comparisons WHERE id = '${id}'`);
+    // Kill once its bootstrap is under way (progress past the scores' own figures), not before and not after.
+    await until(
+      'the bootstrap to be under way',
+      () =>
+        num(
+          `SELECT CASE status WHEN 'queued' THEN 0 WHEN 'running' THEN progress ELSE 1 END FROM score_comparisons WHERE id = '${id}'`,
+        ),
+      (p) => p > 0.3,
+      300_000,
+      20,
+    );
+    const statusAtKill = at();
+    await server.kill('SIGKILL');
+    console.log(`comparison at kill: ${statusAtKill}`);
+    const [statusThen, progressThen] = statusAtKill.split(' ');
+    expect(statusThen, `it finished before the kill (${statusAtKill})`).toBe('running');
+    expect(Number(progressThen), 'killed during the bootstrap').toBeGreaterThanOrEqual(0.3);
+    expect(sql(`SELECT status FROM score_comparisons WHERE id = '${id}'`)).toBe('running');
+
+    await server.start();
+    const again = await token('statistician@demo.test');
+    const final = await until(
+      'the retried comparison to finish',
+      async () =>
+        (await server.fetchJson(`/api/comparisons/${id}?waitSeconds=20`, { headers: again })).body.comparison as {
+          status: string;
+          resultsSha256: string | null;
+        },
+      (c) => c?.status === 'completed' || c?.status === 'failed',
+      900_000,
+      500,
+    );
+    expect(final.status).toBe('completed');
+    expect(final.resultsSha256).toMatch(/^[0-9a-f]{64}$/);
+    const count = (action: string) =>
+      num(`SELECT count(*) FROM audit_log WHERE target_id = '${id}' AND action = '${action}'`);
+    expect([count('comparison.requeued'), count('comparison.completed')]).toEqual([1, 1]);
+  });
+
   it('the database passes its integrity checks afterwards', async () => {
     expect(integrity()).toEqual(CLEAN);
     expect(num(`SELECT count(*) FROM validation_runs WHERE status = 'running'`)).toBe(0);
+    expect(num(`SELECT count(*) FROM score_comparisons WHERE status IN ('queued', 'running')`)).toBe(0);
     const chain = await server.fetchJson('/api/audit/verify', { headers: await token('admin@demo.test') });
     expect(chain.status).toBe(200);
     expect(chain.body.ok).toBe(true);

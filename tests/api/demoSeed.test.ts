@@ -7,6 +7,7 @@ import type { RunResults, RunSettings } from '@shared/runs';
 import { seedDemo } from '../../server/src/demo/seed';
 import { DEMO_COHORT_NAME, KESTREL_SCORE_NAME } from '../../server/src/demo/seeds/cohorts';
 import { DEMO_SITE_RUN_QUARTER, DEMO_SITE_RUN_SETTINGS, seedSiteRun } from '../../server/src/demo/seeds/siteRun';
+import { WREN_SCORE } from '../../server/src/demo/seeds/competingScore';
 import { GAPS_COHORT_NAME, GAPS_COLUMNS, GAPS_QUARTER } from '../../server/src/demo/seeds/gapsCohort';
 import { loadCohortData } from '../../server/src/domain/cohorts/cohortData';
 import { recordRunNow } from '../../server/src/domain/runs/runQueue';
@@ -65,6 +66,37 @@ describe('the demo seed', () => {
       [run.id],
     );
     expect(n).toBe(1);
+  });
+
+  it("has the Kestrel–Wren comparison, computed through its job, and the newest quarter's review names it", async () => {
+    const rows: { id: string; status: string; results_sha256: string | null }[] = await dataSource.query(
+      `SELECT sc.id, sc.status, sc.results_sha256 FROM score_comparisons sc
+         JOIN score_versions sv ON sv.id = sc.second_score_version_id JOIN scores s ON s.id = sv.score_id
+       WHERE s.name = $1 AND EXISTS (SELECT 1 FROM audit_log a WHERE a.target_id = sc.id::text
+         AND a.action = 'comparison.created' AND a.source_ip = 'seed')`,
+      [WREN_SCORE.name],
+    );
+    expect(rows).toHaveLength(1);
+    const [c] = rows;
+    expect(c.status).toBe('completed');
+    expect(c.results_sha256).toMatch(/^[0-9a-f]{64}$/);
+    const audit: { action: string }[] = await dataSource.query(
+      `SELECT action FROM audit_log WHERE target_id = $1 ORDER BY seq`,
+      [c.id],
+    );
+    expect(audit.map((a) => a.action)).toEqual(['comparison.created', 'comparison.completed']);
+    // Its job ran in the seed's process and left nothing waiting.
+    const [jobs] = await dataSource.query(
+      `SELECT count(*) FILTER (WHERE state < 'completed')::int AS waiting, count(*)::int AS n
+       FROM pgboss.job WHERE name = 'comparison' AND data->>'comparisonId' = $1`,
+      [c.id],
+    );
+    expect(jobs.waiting).toBe(0);
+    const [named] = await dataSource.query(
+      `SELECT count(*)::int AS n FROM run_reviews WHERE comparison_id = $1 AND superseded_by IS NULL`,
+      [c.id],
+    );
+    expect(named.n).toBe(1);
   });
 
   it('a second seed changes nothing, even with a newer unreviewed demo run and a changed chair password', async () => {

@@ -14,6 +14,7 @@ type Operation = {
   summary: string;
   parameters: { name: string; in: string; required: boolean }[];
   requestBody?: { content: Record<string, unknown> };
+  responses: Record<string, { description: string }>;
   'x-plumbline-roles': string[];
   'x-plumbline-access': string;
   security?: unknown[];
@@ -77,6 +78,12 @@ describe('the OpenAPI document', () => {
       expect.arrayContaining(['path:id', 'path:version', 'query:search', 'query:sortBy', 'query:sortDir']),
     );
     expect(Object.keys(paths['/api/cohorts'].post.requestBody?.content ?? {})).toEqual(['multipart/form-data']);
+    // A comparison is accepted and computed by a job: 202, not 200; its page can be waited on.
+    expect(Object.keys(paths['/api/comparisons'].post.responses)).toContain('202');
+    expect(Object.keys(paths['/api/comparisons'].post.responses)).not.toContain('200');
+    expect(paths['/api/comparisons/{id}'].get.parameters.map((p) => `${p.in}:${p.name}`)).toContain(
+      'query:waitSeconds',
+    );
   });
 
   it('is readable without signing in (it describes no data)', async () => {

@@ -9,7 +9,7 @@ import { stopBackgroundServices } from '../../server/src/jobs/background';
 import { listSignatures } from '../../server/src/domain/governance/governance';
 import { processNextRun } from '../../server/src/domain/runs/runQueue';
 import { WREN_V1_MODEL } from '../../server/src/demo/seeds/competingScore';
-import { app, bearer, ownerDataSource, tokenFor, useDatabase } from '../helpers/api';
+import { app, bearer, completedComparison, ownerDataSource, tokenFor, useDatabase } from '../helpers/api';
 import { createCohortFixture, createScoreFixture, kestrelRows } from '../helpers/fixtures';
 
 useDatabase();
@@ -19,15 +19,8 @@ let runId: string;
 let relied: string;
 let other: string;
 
-/** A completed comparison of the two score versions on the cohort version; its id. */
-async function comparison(body: Record<string, unknown>): Promise<string> {
-  const res = await request(app)
-    .post('/api/comparisons')
-    .set(await as('statistician'))
-    .send(body);
-  expect(res.status, JSON.stringify(res.body)).toBe(201);
-  return res.body.comparison.id as string;
-}
+/** A completed comparison of the two score versions on the cohort version (its job run here); its id. */
+const comparison = async (body: Record<string, unknown>): Promise<string> => (await completedComparison(body)).id;
 
 beforeAll(async () => {
   while (await processNextRun());
@@ -79,7 +72,7 @@ async function afterTampering(tamper: string, params: unknown[]) {
   }
 }
 
-describe("a signature on a review that names a score comparison", () => {
+describe('a signature on a review that names a score comparison', () => {
   it('verifies as signed', async () => {
     const signatures = await listSignatures(runId);
     expect(signatures).toHaveLength(1);
@@ -87,7 +80,10 @@ describe("a signature on a review that names a score comparison", () => {
   });
 
   it('no longer verifies when the review is re-pointed at another comparison', async () => {
-    const tampered = await afterTampering('UPDATE run_reviews SET comparison_id = $2 WHERE run_id = $1', [runId, other]);
+    const tampered = await afterTampering('UPDATE run_reviews SET comparison_id = $2 WHERE run_id = $1', [
+      runId,
+      other,
+    ]);
     expect(tampered[0].linkVerified).toBe(false);
   });
 

@@ -1,5 +1,6 @@
 // Two scores head to head in the browser, on the invented demo data: the statistician compares Kestrel v1 with the
-// competing Wren index on one demo quarter from the comparisons page and reads the summary and both charts; the chair
+// competing Wren index on one demo quarter from the comparisons page, is taken to its page at once, waits while the
+// server's job computes it (a progress bar), reads the summary and both charts and finds it completed in the list; the chair
 // opens the report of the run whose review relied on the demo's comparison and finds its section.
 import 'reflect-metadata';
 import { describe, expect, it } from 'vitest';
@@ -42,7 +43,10 @@ describe('two scores on the same patients', () => {
         await page.getByLabel('Bootstrap replicates').fill('50');
         await page.getByRole('button', { name: 'Compare', exact: true }).click();
         await page.waitForURL(/\/comparisons\/[0-9a-f-]{36}$/);
-        // The page shows the stored comparison once the request that computed it has answered.
+        const id = page.url().split('/').pop()!;
+        // The request only queued it: the server's job computes it while the page shows a progress bar (if it is
+        // still at work when the page first reads it), then the results.
+        await page.getByRole('progressbar', { name: 'Computing the comparison…' }).waitFor({ state: 'detached' });
         const sentences = page.getByTestId('comparison-sentences');
         await sentences.filter({ hasText: /has the higher AUC, by/ }).waitFor();
         const text = await sentences.textContent();
@@ -51,6 +55,10 @@ describe('two scores on the same patients', () => {
         await page.getByRole('img', { name: 'Net benefit difference chart' }).waitFor();
         await page.getByRole('img', { name: 'Calibration plot of both scores' }).waitFor();
         await screenshot(page, 'score-comparison');
+        // The list shows it completed.
+        await page.getByRole('link', { name: 'All score comparisons' }).click();
+        const row = page.locator('tr', { has: page.locator(`a[href$="/comparisons/${id}"]`) });
+        await row.getByText('completed', { exact: true }).waitFor();
       },
       'statistician@demo.test',
     );

@@ -4,8 +4,10 @@ import request from 'supertest';
 import { afterAll, beforeAll, expect } from 'vitest';
 import type { Role } from '@shared/roles';
 import type { RunDetail } from '@shared/runs';
+import type { CompletedScoreComparison } from '@shared/scoreComparison';
 import { createApp } from '../../server/src/http/app';
 import { processNextRun } from '../../server/src/domain/runs/runQueue';
+import { processNextComparison } from '../../server/src/domain/comparisons/comparisonQueue';
 import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import type { DataSource } from 'typeorm';
 import {
@@ -95,4 +97,20 @@ export async function completedRun(
     .set(bearer(await tokenFor('statistician')));
   expect(got.status).toBe(200);
   return got.body.run as RunDetail;
+}
+
+/** A score comparison asked for as the statistician (202), its job run here, read back completed. */
+export async function completedComparison(body: Record<string, unknown>): Promise<CompletedScoreComparison> {
+  const res = await request(app)
+    .post('/api/comparisons')
+    .set(bearer(await tokenFor('statistician')))
+    .send(body);
+  expect(res.status, JSON.stringify(res.body)).toBe(202);
+  while (await processNextComparison());
+  const got = await request(app)
+    .get(`/api/comparisons/${res.body.comparison.id}`)
+    .set(bearer(await tokenFor('statistician')));
+  expect(got.status).toBe(200);
+  expect(got.body.comparison.status, got.body.comparison.error).toBe('completed');
+  return got.body.comparison as CompletedScoreComparison;
 }

@@ -7,6 +7,7 @@ import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { runTsx } from './childServer';
 import { FIXTURE_MODEL } from './fixtures';
+import type { ScoreModel } from '@shared/model';
 
 const PG_BIN = process.env.PLUMBLINE_PG_BIN ?? '/usr/lib/postgresql/15/bin';
 const isRoot = process.getuid?.() === 0;
@@ -118,10 +119,10 @@ export async function createPreparedCluster(): Promise<ThrowawayCluster> {
 }
 
 /** Registers an invented score with one formula version (FIXTURE_MODEL) straight in the database; returns the version id. */
-export function insertFixtureScore(cluster: ThrowawayCluster, name: string): string {
+export function insertFixtureScore(cluster: ThrowawayCluster, name: string, model: ScoreModel = FIXTURE_MODEL): string {
   const scoreId =
     cluster.psql(`INSERT INTO scores (name, outcome_definition, time_horizon, intended_population, citation, caution_text)
     VALUES ('${name.replace(/'/g, "''")}', 'readmission (invented)', '30 days', 'adults (invented)', 'invented for tests', 'not medical advice') RETURNING id`);
   return cluster.psql(`INSERT INTO score_versions (score_id, version, mode, model)
-    VALUES ('${scoreId}', 1, 'formula', '${JSON.stringify(FIXTURE_MODEL).replace(/'/g, "''")}'::jsonb) RETURNING id`);
+    VALUES ('${scoreId}', 1, 'formula', '${JSON.stringify(model).replace(/'/g, "''")}'::jsonb) RETURNING id`);
 }

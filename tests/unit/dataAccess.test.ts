@@ -25,6 +25,7 @@ export const RAW_SQL_ALLOWED: Record<string, string> = {
   'cohorts/uploadSweep.ts': 'a discard guarded by the current status with its row count, and rejected rows',
   'comparisons/comparisons.ts':
     'the joined read model of score comparisons (both score versions, their scores and the cohort) and its filtered count',
+  'comparisons/comparisonQueue.ts': 'the comparison lease (a session-level advisory lock on its own connection)',
   'comparisons/reviewReference.ts':
     'a guard that joins the named comparison with the run it must share patients and score with',
   'drift/alerts.ts': 'the joined read model of alerts (rule, score version, score, acknowledger)',

@@ -7,6 +7,7 @@ import { mailJob } from '../domain/notifications/mail';
 import { startCiWidthsWarmUp } from '../domain/runs/adequacyWidths';
 import { driftRulesJob, interruptRuns, runAbandonedJob, runJob } from '../domain/runs/runQueue';
 import { uploadCheckAbandonedJob, uploadCheckJob } from '../domain/cohorts/uploads';
+import { comparisonAbandonedJob, comparisonJob } from '../domain/comparisons/comparisonQueue';
 import { startUploadUpkeep, uploadSweepJob } from '../domain/cohorts/uploadSweep';
 
 type Stopper = () => Promise<void> | void;
@@ -17,6 +18,8 @@ function jobHandlers(): Partial<Record<JobName, { handler: JobHandler; concurren
   const h: Partial<Record<JobName, { handler: JobHandler; concurrency?: number }>> = {
     [JOB.run]: { handler: runJob as JobHandler },
     [JOB.runAbandoned]: { handler: runAbandonedJob as JobHandler },
+    [JOB.comparison]: { handler: comparisonJob as JobHandler },
+    [JOB.comparisonAbandoned]: { handler: comparisonAbandonedJob as JobHandler },
     [JOB.uploadCheck]: { handler: uploadCheckJob as JobHandler, concurrency: config.uploadThreads },
     [JOB.uploadCheckAbandoned]: { handler: uploadCheckAbandonedJob as JobHandler },
     [JOB.driftRules]: { handler: driftRulesJob as JobHandler },

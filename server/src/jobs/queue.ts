@@ -12,6 +12,8 @@ import { logger } from '../platform/observability/log';
 export const JOB = {
   run: 'run',
   runAbandoned: 'run-abandoned',
+  comparison: 'comparison',
+  comparisonAbandoned: 'comparison-abandoned',
   uploadCheck: 'upload-check',
   uploadCheckAbandoned: 'upload-check-abandoned',
   mail: 'mail',
@@ -23,7 +25,8 @@ export type JobHandler<T = Record<string, unknown>> = (job: PgBoss.JobWithMetada
 
 /** Per-job options at send time; retry limits live with the queue (the migration). */
 function sendOptions(name: JobName): PgBoss.SendOptions {
-  if (name === JOB.run || name === JOB.uploadCheck) return { expireInSeconds: config.jobExpireSeconds };
+  if (name === JOB.run || name === JOB.uploadCheck || name === JOB.comparison)
+    return { expireInSeconds: config.jobExpireSeconds };
   if (name === JOB.mail) return { expireInSeconds: 120 };
   return { expireInSeconds: 15 * 60 };
 }

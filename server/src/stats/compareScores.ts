@@ -54,7 +54,13 @@ export function compareScores(
   p1: Float64Array,
   p2: Float64Array,
   y: Uint8Array,
-  opts: { thresholds: number[]; replicates?: number; seed?: number },
+  opts: {
+    thresholds: number[];
+    replicates?: number;
+    seed?: number;
+    /** Called after each bootstrap replicate (progress for a caller that reports it). */
+    onReplicate?: (done: number, total: number) => void;
+  },
 ): ScoreComparison {
   const n = y.length;
   if (p1.length !== n || p2.length !== n) throw new RangeError('both scores need a risk for every row');
@@ -74,6 +80,7 @@ export function compareScores(
     const b1 = netBenefitAt(p1, y, opts.thresholds, idx);
     const b2 = netBenefitAt(p2, y, opts.thresholds, idx);
     for (let j = 0; j < opts.thresholds.length; j++) diffs[j][r] = b1[j] - b2[j];
+    opts.onReplicate?.(r + 1, replicates);
   }
   return {
     n,

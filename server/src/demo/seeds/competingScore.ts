@@ -4,10 +4,11 @@
 import type { ScoreModel } from '@shared/model';
 import { formatCount } from '@shared/format';
 import { aucComparisonSentence } from '@shared/comparison';
-import { comparedName, type ScoreComparisonDetail } from '@shared/scoreComparison';
+import { comparedName } from '@shared/scoreComparison';
 import { createScore, createScoreVersion } from '../../domain/scores/scores';
-import { createComparison } from '../../domain/comparisons/comparisons';
+import { createComparison, getCompletedComparison } from '../../domain/comparisons/comparisons';
 import { computeComparison } from '../../domain/comparisons/comparisonCompute';
+import { processNextComparison, type ComputeComparison } from '../../domain/comparisons/comparisonQueue';
 import { loadComparisonInput } from '../../domain/comparisons/comparisonInput';
 import { reviewRun } from '../../domain/governance/governance';
 import { dataSource } from '../../platform/database/dataSource';
@@ -70,26 +71,34 @@ export async function seedCompetingScore(): Promise<void> {
     logger.warn('seedCompetingScore: no demo quarter for Kestrel v2; the demo comparison is skipped');
     return;
   }
-  const done = await dataSource.query(
-    'SELECT 1 FROM score_comparisons WHERE first_score_version_id = $1 AND second_score_version_id = $2 AND cohort_version_id = $3',
+  const [done]: { id: string; status: string }[] = await dataSource.query(
+    `SELECT id, status FROM score_comparisons WHERE first_score_version_id = $1 AND second_score_version_id = $2 AND cohort_version_id = $3
+       AND status <> 'failed' ORDER BY created_at DESC LIMIT 1`,
     [pair.kestrel, pair.wren, pair.cohort_version_id],
   );
-  if (done.length) return;
-  // Computed here rather than in a worker thread, as the demo runs are (same function, same hashes).
-  const comparison: ScoreComparisonDetail = await createComparison(
-    statistician,
-    {
-      firstScoreVersionId: pair.kestrel,
-      secondScoreVersionId: pair.wren,
-      cohortVersionId: pair.cohort_version_id,
-      settings: { bootstrapReplicates: 200, bootstrapSeed: 20_260_101 },
-    },
-    'seed',
-    async (input) => {
-      const { input: loaded, inputsSha256 } = await loadComparisonInput(input);
-      return { ok: true, results: computeComparison(loaded), inputsSha256 };
-    },
-  );
+  if (done?.status === 'completed') return;
+  const id =
+    done?.id ??
+    (
+      await createComparison(
+        statistician,
+        {
+          firstScoreVersionId: pair.kestrel,
+          secondScoreVersionId: pair.wren,
+          cohortVersionId: pair.cohort_version_id,
+          settings: { bootstrapReplicates: 200, bootstrapSeed: 20_260_101 },
+        },
+        'seed',
+      )
+    ).id;
+  // The seed starts no job workers: the waiting comparison jobs run here, through the same job handler, computed in
+  // this thread rather than a worker thread, as the demo runs are (same function, same hashes).
+  const here: ComputeComparison = async (input) => {
+    const { input: loaded, inputsSha256 } = await loadComparisonInput(input);
+    return { ok: true, results: computeComparison(loaded), inputsSha256 };
+  };
+  while (await processNextComparison(here));
+  const comparison = await getCompletedComparison(id);
   const r = comparison.results;
   logger.info(
     `[seed] comparison: ${comparedName(comparison.first)} against ${comparedName(comparison.second)} on ${formatCount(r.n)} patients`,

@@ -55,7 +55,13 @@ function figuresOf(r: ValidationResult): ComparedScoreFigures {
   };
 }
 
-export function computeComparison(input: ComparisonComputeInput): ScoreComparisonResults {
+/** Share of the work done (0..1): both scores' own figures first, then the paired bootstrap. */
+export type ComparisonProgress = (fraction: number) => void;
+
+export function computeComparison(
+  input: ComparisonComputeInput,
+  onProgress: ComparisonProgress = () => {},
+): ScoreComparisonResults {
   const { data, settings } = input;
   const p1 = predictedRisk(input.first, data);
   const p2 = predictedRisk(input.second, data);
@@ -76,10 +82,12 @@ export function computeComparison(input: ComparisonComputeInput): ScoreCompariso
   } catch (err) {
     throw new RunInputError((err as Error).message);
   }
+  onProgress(0.3);
   const paired = compareScores(p1, p2, y, {
     thresholds: settings.netBenefitThresholds,
     replicates: settings.bootstrapReplicates,
     seed: settings.bootstrapSeed,
+    onReplicate: (done, total) => onProgress(0.3 + (0.65 * done) / total),
   });
   // Stored as JSON: an interval the bootstrap did not compute is null, never NaN.
   return asStored({

@@ -9,7 +9,7 @@ import { notFound } from '../errors';
 import { listReviews, listSignatures } from '../governance/governance';
 import { describeInputs } from './scorecards';
 import { COHORT_LABEL_SQL, RUN_SCORE_COHORT_JOIN } from '../runs/runJoin';
-import { getComparison } from '../comparisons/comparisons';
+import { getCompletedComparison } from '../comparisons/comparisons';
 
 /** Methods and where each is published (see docs/references.md for the full list the engine follows). */
 function methods(settings: Partial<RunSettings> | null, results: RunResults | null): MethodNote[] {
@@ -140,7 +140,7 @@ export async function runReport(runId: string): Promise<RunReport> {
     methods: methods(settings, results),
     reviews,
     signatures,
-    comparison: named?.comparisonId ? await getComparison(named.comparisonId) : null,
+    comparison: named?.comparisonId ? await getCompletedComparison(named.comparisonId) : null,
   };
   if (bundle.comparison)
     bundle.methods.push({

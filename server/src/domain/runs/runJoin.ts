@@ -11,3 +11,20 @@ export const RUN_SCORE_COHORT_JOIN = `validation_runs r
 
 /** A cohort version as people know it: its label, else "<cohort name> v<version>". */
 export const COHORT_LABEL_SQL = `coalesce(nullif(cv.label, ''), c.name || ' v' || cv.version)`;
+
+/** The cohort fields of a row read through such a join (cohort_id, cohort_name, cohort_version_id, cohort_version, cohort_label). */
+export function cohortOfRow(r: Record<string, unknown>): {
+  cohortId: string;
+  cohortName: string;
+  cohortVersionId: string;
+  cohortVersion: number;
+  cohortLabel: string;
+} {
+  return {
+    cohortId: r.cohort_id as string,
+    cohortName: r.cohort_name as string,
+    cohortVersionId: r.cohort_version_id as string,
+    cohortVersion: r.cohort_version as number,
+    cohortLabel: (r.cohort_label as string) ?? '',
+  };
+}

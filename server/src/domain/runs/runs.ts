@@ -31,7 +31,7 @@ import { enqueue, JOB } from '../../jobs/queue';
 import { asStored, ENGINE_VERSION, resultsSha256 } from './runCompute';
 import { completedRunRecord } from './runRecordCache';
 import { computeInThread } from '../../jobs/threads/pool';
-import { RUN_SCORE_COHORT_JOIN } from './runJoin';
+import { cohortOfRow, RUN_SCORE_COHORT_JOIN } from './runJoin';
 
 // ---------------------------------------------------------------- create
 
@@ -140,11 +140,7 @@ function toSummary(r: SummaryRow): RunSummary {
     scoreName: r.score_name as string,
     scoreVersionId: r.score_version_id as string,
     scoreVersion: r.score_version as number,
-    cohortId: r.cohort_id as string,
-    cohortName: r.cohort_name as string,
-    cohortVersionId: r.cohort_version_id as string,
-    cohortVersion: r.cohort_version as number,
-    cohortLabel: (r.cohort_label as string) ?? '',
+    ...cohortOfRow(r),
     status: r.status as RunStatus,
     progress: Number(r.progress),
     progressMessage: (r.progress_message as string) ?? null,

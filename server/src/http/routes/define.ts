@@ -18,6 +18,8 @@ export interface RouteDef {
   params?: ZodType;
   /** For a multipart upload: the form field that carries the file (described in /api/openapi.json). */
   multipartFile?: string;
+  /** The success answer when it is not 200 (e.g. 202: accepted, computed by a job), for /api/openapi.json. */
+  success?: { status: 201 | 202; description: string };
   /** Middleware that must run before validation (e.g. a multipart upload parser). */
   before?: RequestHandler[];
   handler: RequestHandler;

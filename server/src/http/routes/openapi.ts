@@ -41,7 +41,7 @@ const errorResponse = (description: string) => ({
 
 function operation(route: RouteDef) {
   const responses: Record<string, unknown> = {
-    '200': { description: 'success' },
+    [String(route.success?.status ?? 200)]: { description: route.success?.description ?? 'success' },
     '400': errorResponse('the input does not match the schema, or the request cannot be done'),
   };
   if (route.access !== 'public') responses['401'] = errorResponse('no valid sign-in token');

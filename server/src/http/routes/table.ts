@@ -3,7 +3,7 @@
 import { rateLimit } from 'express-rate-limit';
 import { auditQuery } from '@shared/audit';
 import { createRunRequest, runCompareQuery, runListQuery } from '@shared/runs';
-import { createScoreComparisonRequest, scoreComparisonListQuery } from '@shared/scoreComparison';
+import { createScoreComparisonRequest, scoreComparisonListQuery, scoreComparisonQuery } from '@shared/scoreComparison';
 import {
   changePasswordRequest,
   createUserRequest,
@@ -211,20 +211,22 @@ export const routes: RouteDef[] = [
     query: runCompareQuery,
     handler: runs.compare,
   },
-  // Score comparisons: two score versions on the same patients of one cohort version (paired), computed in a thread.
+  // Score comparisons: two score versions on the same patients of one cohort version (paired), computed by a job.
   {
     method: 'post',
     path: '/api/comparisons',
     access: STATISTICIAN,
-    summary: 'compare two score versions on the same patients (paired DeLong test, net-benefit differences)',
+    summary:
+      'queue a comparison of two score versions on the same patients (paired DeLong test, net-benefit differences); 202 with the queued comparison',
     body: createScoreComparisonRequest,
+    success: { status: 202, description: 'stored queued; its job computes it (follow it with GET …?waitSeconds=N)' },
     handler: comparisons.create,
   },
   {
     method: 'get',
     path: '/api/comparisons',
     access: RESULT_READERS,
-    summary: 'list score comparisons (filter by score version or cohort version; paged)',
+    summary: 'list score comparisons with their status (filter by score version or cohort version; paged)',
     query: scoreComparisonListQuery,
     handler: comparisons.list,
   },
@@ -232,15 +234,17 @@ export const routes: RouteDef[] = [
     method: 'get',
     path: '/api/comparisons/:id',
     access: RESULT_READERS,
-    summary: 'one score comparison with its results',
+    summary:
+      'one score comparison: status, progress, results once completed (waitSeconds: while queued or computing, answer when it ends)',
     params: idParam,
+    query: scoreComparisonQuery,
     handler: comparisons.get,
   },
   {
     method: 'post',
     path: '/api/comparisons/:id/reproduce',
     access: REPRODUCERS,
-    summary: 're-compute a score comparison and compare its hash',
+    summary: 're-compute a completed score comparison and compare its hash (409 before it has completed)',
     params: idParam,
     handler: comparisons.reproduce,
   },

@@ -167,9 +167,25 @@ export async function bootstrapInWorkers(
   return { ...percentileIntervals(scalarMetrics(point), parts.flat(), settings.bootstrapSeed), workers: k };
 }
 
-/** A score comparison (two score versions on one cohort version) in the background pool; the thread reads its inputs. */
-export function compareInThread(input: Omit<ComparisonTask, 'db'>): Promise<ComparisonAnswer> {
-  return task('background', 'comparison', { ...input, db: { ...config.db } });
+/**
+ * A score comparison (two score versions on one cohort version) in the background pool; the thread reads its inputs
+ * and reports the share done to onProgress.
+ */
+export async function compareInThread(
+  input: Omit<ComparisonTask, 'db' | 'progress'>,
+  onProgress: (fraction: number) => void = () => {},
+): Promise<ComparisonAnswer> {
+  const progress = progressPort(onProgress);
+  try {
+    return await task(
+      'background',
+      'comparison',
+      { ...input, db: { ...config.db }, progress: progress.port },
+      { transferList: [progress.port] },
+    );
+  } finally {
+    progress.done();
+  }
 }
 
 // ---------------------------------------------------------------- uploads

@@ -14,8 +14,12 @@ export const RUNTIME_GRANTS: Record<string, string[]> = {
   cohort_versions: ['SELECT', 'INSERT'],
   // A run's per-period drift series, stored once when the run completes.
   drift_series: ['SELECT', 'INSERT'],
-  // A score comparison, stored once computed.
-  score_comparisons: ['SELECT', 'INSERT'],
+  // A score comparison: stored queued, then only its job's columns change (the trigger lets it move only forward).
+  score_comparisons: [
+    'SELECT',
+    'INSERT',
+    'UPDATE (status, progress, error, completed_at, results, engine_version, inputs_sha256, results_sha256)',
+  ],
   // A review is append-only except for the one link to the review that supersedes it.
   run_reviews: ['SELECT', 'INSERT', 'UPDATE (superseded_by)'],
   // Staged blocks of a checked upload are deleted on a new mapping or a discard; the trigger refuses it for stored ones.

@@ -1,7 +1,10 @@
 import { Column, CreateDateColumn, Entity, PrimaryGeneratedColumn } from 'typeorm';
-import type { ScoreComparisonResults, ScoreComparisonSettings } from '@shared/scoreComparison';
+import type { ScoreComparisonResults, ScoreComparisonSettings, ScoreComparisonStatus } from '@shared/scoreComparison';
 
-/** Two score versions on the same patients of one cohort version; stored once computed, never changed (trigger). */
+/**
+ * Two score versions on the same patients of one cohort version. Stored queued; its job moves it forward to completed
+ * (results and hashes) or failed (error), after which it never changes (trigger, migration 1765000027000-ComparisonJobs).
+ */
 @Entity('score_comparisons')
 export class ScoreComparison {
   @PrimaryGeneratedColumn('uuid')
@@ -19,21 +22,34 @@ export class ScoreComparison {
   @Column({ type: 'jsonb' })
   settings: ScoreComparisonSettings;
 
-  @Column({ type: 'jsonb' })
-  results: ScoreComparisonResults;
+  @Column({ type: 'varchar', length: 20, default: 'queued' })
+  status: ScoreComparisonStatus;
 
-  @Column({ name: 'engine_version', type: 'varchar', length: 40 })
-  engineVersion: string;
+  @Column({ type: 'real', default: 0 })
+  progress: number;
 
-  @Column({ name: 'inputs_sha256', type: 'char', length: 64 })
-  inputsSha256: string;
+  @Column({ type: 'text', nullable: true })
+  error: string | null;
 
-  @Column({ name: 'results_sha256', type: 'char', length: 64 })
-  resultsSha256: string;
+  @Column({ type: 'jsonb', nullable: true })
+  results: ScoreComparisonResults | null;
+
+  @Column({ name: 'engine_version', type: 'varchar', length: 40, nullable: true })
+  engineVersion: string | null;
+
+  @Column({ name: 'inputs_sha256', type: 'char', length: 64, nullable: true })
+  inputsSha256: string | null;
+
+  @Column({ name: 'results_sha256', type: 'char', length: 64, nullable: true })
+  resultsSha256: string | null;
 
   @Column({ name: 'created_by', type: 'uuid', nullable: true })
   createdBy: string | null;
 
   @CreateDateColumn({ name: 'created_at', type: 'timestamptz' })
   createdAt: Date;
+
+  /** When it ended, completed or failed. */
+  @Column({ name: 'completed_at', type: 'timestamptz', nullable: true })
+  completedAt: Date | null;
 }

@@ -18,6 +18,7 @@ import { JobQueue1764900000000 } from './1764900000000-JobQueue';
 import { DriftRunChoices1764900100000 } from './1764900100000-DriftRunChoices';
 import { CohortMissingness1765000000000 } from './1765000000000-CohortMissingness';
 import { ScoreComparisons1765000019000 } from './1765000019000-ScoreComparisons';
+import { ComparisonJobs1765000027000 } from './1765000027000-ComparisonJobs';
 
 export const migrations = [
   Foundation1764633600000,
@@ -39,4 +40,5 @@ export const migrations = [
   DriftRunChoices1764900100000,
   CohortMissingness1765000000000,
   ScoreComparisons1765000019000,
+  ComparisonJobs1765000027000,
 ];
