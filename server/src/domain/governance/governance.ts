@@ -89,9 +89,7 @@ export function signatureHash(input: {
   comparison: SealedComparison;
 }): string {
   const { comparison, ...record } = input;
-  const sealed = comparison
-    ? { comparisonId: comparison.id, comparisonResultsSha256: comparison.resultsSha256 }
-    : {};
+  const sealed = comparison ? { comparisonId: comparison.id, comparisonResultsSha256: comparison.resultsSha256 } : {};
   return createHash('sha256')
     .update(canonical({ ...record, ...sealed, signedAt: input.signedAt.toISOString() }))
     .digest('hex');
