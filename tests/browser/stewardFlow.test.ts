@@ -8,6 +8,7 @@ import { DEMO_PASSWORD } from '../../server/src/platform/config';
 import { initDatabase } from '../../server/src/platform/database/dataSource';
 import { appUrl } from '../helpers/appServer';
 import { inTab, pickFromList, reviewRun, screenshot, useAppAndBrowser } from '../helpers/browser';
+import { until } from '../helpers/until';
 import { createCohortFixture, createScoreFixture, kestrelRows } from '../helpers/fixtures';
 
 const fixture = fileURLToPath(new URL('../fixtures/kestrel-2026q1.csv', import.meta.url));
@@ -246,11 +247,22 @@ describe('a steward uploads a cohort whose predictors have gaps', () => {
         expect((await together.locator('td').allInnerTexts()).slice(0, 3)).toEqual(['missing', 'missing', '10 (1.7%)']);
         // The charts are drawn: per column, by subgroup (chosen from the list) and by period.
         await expect.poll(() => section.locator('canvas').count()).toBe(3);
-        await section.locator('[data-test="missingness-subgroup"] .v-field').click();
-        await page.getByRole('option', { name: 'site', exact: true }).click();
-        await expect
-          .poll(() => section.locator('[data-test="missingness-by-subgroup"]').innerText(), { timeout: 30_000 })
-          .toMatch(/Missing predictors by site/);
+        // Chosen again until the chart shows it: on a busy machine a click can land while the list is still opening.
+        const bySubgroup = section.locator('[data-test="missingness-by-subgroup"]');
+        await until(
+          'the missing-values chart by site',
+          async () => {
+            const text = await bySubgroup.innerText();
+            if (!/Missing predictors by site/.test(text)) {
+              await section.locator('[data-test="missingness-subgroup"] .v-field').click({ timeout: 5_000 });
+              await page.getByRole('option', { name: 'site', exact: true }).click({ timeout: 5_000 });
+            }
+            return text;
+          },
+          (text) => /Missing predictors by site/.test(text),
+          60_000,
+          1_000,
+        );
         await section
           .locator('[data-test="missingness-by-subgroup"]')
           .getByRole('button', { name: /as a table/ })
